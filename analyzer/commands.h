@@ -1,0 +1,10 @@
+/* Entry points of the subcommands; each returns the process exit status.
+ * SPDX-License-Identifier: MIT
+ */
+#ifndef ML_ANALYZER_COMMANDS_H
+#define ML_ANALYZER_COMMANDS_H
+
+int ml_cmd_measure(int argc, char **argv);
+int ml_cmd_tone(int argc, char **argv);
+
+#endif

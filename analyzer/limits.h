@@ -1,0 +1,44 @@
+/* Limits profiles: INI files of <metric>_min / <metric>_max keys, checked against a report.
+ * SPDX-License-Identifier: MIT
+ *
+ * Syntax (inih): "key = value" lines, ";" or "#" comments, optional [section] headers.
+ *  - Outside a section, or in [limits], a key names a metric by its dotted name
+ *    ("audio.thd_pct_max") or by its short name when unique ("thd_pct_max").
+ *  - In a section named after a metric group ([audio], [hum], ...) the short name is taken
+ *    within that group ("level_dbc_max" in [hum] is hum.level_dbc).
+ *  - [profile] holds free-text "name" and "description" keys.
+ * Every other key, a value that is not a finite number, a repeated key, or min > max for one
+ * metric is an error naming the file, line and key.
+ */
+#ifndef ML_ANALYZER_LIMITS_H
+#define ML_ANALYZER_LIMITS_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "dsp/status.h"
+#include "io/report.h"
+
+#define ML_MAX_LIMITS 64
+
+typedef struct {
+    char metric[64]; /* full dotted name                                          */
+    bool has_min, has_max;
+    double min, max;
+} ml_limit;
+
+typedef struct {
+    char path[1024];
+    char name[128];
+    size_t n;
+    ml_limit items[ML_MAX_LIMITS];
+} ml_limits;
+
+/* Loads and validates path. On error returns ML_EIO (unreadable) or ML_EFORMAT (content) and
+ * writes "line N: key 'k': problem" (or the system error) to err[errlen]. */
+ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t errlen);
+
+/* Adds one check per limited metric to r (a metric missing from r is a failed, invalid check). */
+void ml_limits_apply(const ml_limits *l, ml_report *r);
+
+#endif

@@ -1,0 +1,49 @@
+/* modlens: modulation-quality and distortion analyser for AM radio work.
+ * SPDX-License-Identifier: MIT
+ */
+#include <stdio.h>
+#include <string.h>
+
+#include "analyzer/cli.h"
+#include "analyzer/commands.h"
+
+#ifndef ML_VERSION
+#define ML_VERSION "0.0.0"
+#endif
+
+static void usage(FILE *f)
+{
+    fprintf(f,
+            "usage: modlens COMMAND [options]\n"
+            "\n"
+            "Turns a sound card recording into modulation-quality and distortion figures for AM radio.\n"
+            "\n"
+            "commands:\n"
+            "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
+            "  tone           write a test signal to a file\n"
+            "\n"
+            "'modlens COMMAND --help' describes each command.\n\n%s",
+            ml_cli_safety);
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) {
+        usage(stderr);
+        return ML_EXIT_USAGE;
+    }
+    const char *cmd = argv[1];
+    if (strcmp(cmd, "--help") == 0 || strcmp(cmd, "-h") == 0 || strcmp(cmd, "help") == 0) {
+        usage(stdout);
+        return ML_EXIT_OK;
+    }
+    if (strcmp(cmd, "--version") == 0) {
+        printf("modlens %s\n", ML_VERSION);
+        return ML_EXIT_OK;
+    }
+    if (strcmp(cmd, "measure") == 0)
+        return ml_cmd_measure(argc - 1, argv + 1);
+    if (strcmp(cmd, "tone") == 0)
+        return ml_cmd_tone(argc - 1, argv + 1);
+    return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);
+}

@@ -1,0 +1,56 @@
+/* The metric registry.
+ * SPDX-License-Identifier: MIT
+ */
+#include <stddef.h>
+#include <string.h>
+
+#include "analyzer/registry.h"
+
+static const ml_metric_def defs[] = {
+    {"audio.fundamental_hz", "Hz", 4, ML_BETTER_NONE},
+    {"audio.fundamental_dbfs", "dBFS", 2, ML_BETTER_NONE},
+    {"audio.rms_dbfs", "dBFS", 2, ML_BETTER_NONE},
+    {"audio.peak_dbfs", "dBFS", 2, ML_BETTER_NONE},
+    {"audio.thd_pct", "%", 4, ML_BETTER_LOWER},
+    {"audio.thd_db", "dB", 2, ML_BETTER_LOWER},
+    {"audio.thdn_pct", "%", 4, ML_BETTER_LOWER},
+    {"audio.thdn_db", "dB", 2, ML_BETTER_LOWER},
+    {"audio.sinad_db", "dB", 2, ML_BETTER_HIGHER},
+    {"audio.snr_db", "dB", 2, ML_BETTER_HIGHER},
+    {"audio.enob_bits", "bits", 2, ML_BETTER_HIGHER},
+    {"audio.noise_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"audio.dc_offset_pct", "%", 4, ML_BETTER_NONE},
+    {"audio.clipped_samples", "", 0, ML_BETTER_LOWER},
+    {"hum.mains_hz", "Hz", 0, ML_BETTER_NONE},
+    {"hum.level_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"hum.level_dbc", "dBc", 2, ML_BETTER_LOWER},
+};
+
+const ml_metric_def *ml_registry_all(size_t *count)
+{
+    *count = sizeof defs / sizeof defs[0];
+    return defs;
+}
+
+const ml_metric_def *ml_registry_lookup(const char *name, int *ambiguous)
+{
+    size_t n = sizeof defs / sizeof defs[0];
+    if (ambiguous)
+        *ambiguous = 0;
+    for (size_t i = 0; i < n; i++)
+        if (strcmp(defs[i].name, name) == 0)
+            return &defs[i];
+    const ml_metric_def *found = NULL;
+    for (size_t i = 0; i < n; i++) {
+        const char *dot = strrchr(defs[i].name, '.');
+        if (dot && strcmp(dot + 1, name) == 0) {
+            if (found) {
+                if (ambiguous)
+                    *ambiguous = 1;
+                return NULL;
+            }
+            found = &defs[i];
+        }
+    }
+    return found;
+}

@@ -1,0 +1,62 @@
+/* Welch-averaged power spectrum of a real signal, streamed in blocks of any size.
+ * SPDX-License-Identifier: MIT
+ *
+ * Scaling: psd[k] is the mean over segments of 2|X_k|^2 / (sum w)^2 for 0 < k < nfft/2 (half that
+ * at k = 0 and k = nfft/2), so a sine of amplitude A centred in bin k reads A^2/2 there, and the
+ * power of any band is sum(psd[k] over the band) / enbw_bins. Full-scale sine = power 0.5.
+ * The object also accumulates the cross-spectrum of consecutive segments, whose phase at a
+ * tone's bin gives the tone's frequency to a small fraction of a bin (see get_frequency).
+ */
+#ifndef ML_DSP_SPECTRUM_H
+#define ML_DSP_SPECTRUM_H
+
+#include <stddef.h>
+
+#include "dsp/status.h"
+#include "dsp/window.h"
+
+typedef struct ml_spectrum ml_spectrum;
+
+typedef struct {
+    size_t nfft;           /* transform length: a power of two, 16 .. 2^24              */
+    size_t hop;            /* frames between segment starts: 1 .. nfft                   */
+    ml_window_type window; /* default ML_WINDOW_HFT248D                                   */
+    double rate_hz;        /* sample rate: > 0                                            */
+} ml_spectrum_config;
+
+/* nfft: the power of two giving bins of about 0.75 Hz at rate_hz (at most 2^18); hop nfft/2. */
+ml_spectrum_config ml_spectrum_config_default(double rate_hz);
+
+/* Allocates and plans everything. ML_EINVAL | ML_ENOMEM | ML_EFFT leave *out NULL.
+ * Not thread-safe (FFTW planner). */
+ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out);
+void ml_spectrum_destroy(ml_spectrum *q); /* NULL is a no-op */
+void ml_spectrum_reset(ml_spectrum *q);   /* as just created; no allocation */
+
+/* Appends n samples (any n, including 0). Never allocates. x may be NULL only when n == 0. */
+ml_status ml_spectrum_push(ml_spectrum *q, const float *x, size_t n);
+ml_status ml_spectrum_push_double(ml_spectrum *q, const double *x, size_t n);
+
+/* Number of complete segments transformed so far. */
+size_t ml_spectrum_segments(const ml_spectrum *q);
+size_t ml_spectrum_nfft(const ml_spectrum *q);
+size_t ml_spectrum_nbins(const ml_spectrum *q); /* nfft/2 + 1 */
+double ml_spectrum_rate_hz(const ml_spectrum *q);
+double ml_spectrum_enbw_bins(const ml_spectrum *q);
+size_t ml_spectrum_lobe_bins(const ml_spectrum *q); /* half-width that holds a tone: terms + 1 */
+ml_window_type ml_spectrum_window(const ml_spectrum *q);
+
+/* Mean power per bin since reset (scaling above); psd holds nbins values.
+ * ML_ENOSIGNAL when no segment is complete yet. */
+ml_status ml_spectrum_get_psd(const ml_spectrum *q, double *psd, size_t nbins);
+
+/* Read-only view of the accumulated (summed, not averaged) power per bin; nbins values. */
+const double *ml_spectrum_sum(const ml_spectrum *q);
+
+/* Frequency (Hz) of the tone whose main lobe peaks in bin k (0 < k < nbins - 1), from the phase
+ * advance between consecutive segments; accurate to far below a bin for a stable tone.
+ * With fewer than two segments it falls back to interpolating the averaged power.
+ * ML_EINVAL for a bad k, ML_ENOSIGNAL when no segment is complete. */
+ml_status ml_spectrum_get_frequency(const ml_spectrum *q, size_t k, double *hz);
+
+#endif

@@ -1,0 +1,81 @@
+/* Spectral-analysis windows and their figures of merit.
+ * SPDX-License-Identifier: MIT
+ *
+ * References:
+ * [harris:1978] F. J. Harris, "On the use of windows for harmonic analysis with the discrete
+ *     Fourier transform", Proc. IEEE 66(1):51-83, Jan. 1978.
+ * [heinzel:2002] G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density estimation
+ *     by the Discrete Fourier transform (DFT), including a comprehensive list of window functions
+ *     and some new flat-top windows", MPI fuer Gravitationsphysik, 15 Feb 2002.
+ */
+#include "dsp/window.h"
+
+#include <math.h>
+
+#include "dsp/internal.h"
+
+typedef struct {
+    const char *name;
+    size_t nterms;
+    double c[11];
+} window_def;
+
+/* Coefficients: Hann and Blackman-Harris [harris:1978] Table 1; HFT144D and HFT248D
+ * [heinzel:2002] (the HFT144D and HFT248D entries of its window list). */
+static const window_def defs[ML_WINDOW_COUNT] = {
+    [ML_WINDOW_RECT] = {"rectangular", 1, {1.0}},
+    [ML_WINDOW_HANN] = {"hann", 2, {0.5, 0.5}},
+    [ML_WINDOW_BLACKMAN_HARRIS] = {"blackman-harris", 4, {0.35875, 0.48829, 0.14128, 0.01168}},
+    [ML_WINDOW_HFT144D] = {"hft144d",
+                           7,
+                           {1.0, 1.96760033, 1.57983607, 0.81123644, 0.22583558, 0.02773848,
+                            0.00090360}},
+    [ML_WINDOW_HFT248D] = {"hft248d",
+                           11,
+                           {1.0, 1.985844164102, 1.791176438506, 1.282075284005, 0.667777530266,
+                            0.240160796576, 0.056656381764, 0.008134974479, 0.000624544650,
+                            0.000019808998, 0.000000132974}},
+};
+
+ml_status ml_window_fill(ml_window_type type, double *w, size_t n)
+{
+    if ((unsigned)type >= ML_WINDOW_COUNT || w == NULL || n < 2)
+        return ML_EINVAL;
+    const window_def *d = &defs[type];
+    for (size_t i = 0; i < n; i++) {
+        double z = 2.0 * ML_PI * (double)i / (double)n;
+        double acc = 0.0;
+        for (size_t k = 0; k < d->nterms; k++)
+            acc += (k % 2 ? -1.0 : 1.0) * d->c[k] * cos((double)k * z);
+        w[i] = acc;
+    }
+    return ML_OK;
+}
+
+size_t ml_window_terms(ml_window_type type)
+{
+    return (unsigned)type < ML_WINDOW_COUNT ? defs[type].nterms : 0;
+}
+
+const char *ml_window_name(ml_window_type type)
+{
+    return (unsigned)type < ML_WINDOW_COUNT ? defs[type].name : "unknown";
+}
+
+double ml_window_coherent_gain(const double *w, size_t n)
+{
+    double s = 0.0;
+    for (size_t i = 0; i < n; i++)
+        s += w[i];
+    return n ? s / (double)n : 0.0;
+}
+
+double ml_window_enbw_bins(const double *w, size_t n)
+{
+    double s = 0.0, s2 = 0.0;
+    for (size_t i = 0; i < n; i++) {
+        s += w[i];
+        s2 += w[i] * w[i];
+    }
+    return s != 0.0 ? (double)n * s2 / (s * s) : 0.0;
+}

@@ -1,0 +1,108 @@
+/* JSON report through jansson: dotted metric names become nested objects.
+ * SPDX-License-Identifier: MIT
+ */
+#include <jansson.h>
+#include <math.h>
+#include <string.h>
+
+#include "io/report_internal.h"
+
+/* The object at dotted path's parent, created as needed; *leaf gets the last component. */
+static json_t *parent_of(json_t *root, const char *path, char *leaf, size_t leaf_len)
+{
+    char buf[160];
+    snprintf(buf, sizeof buf, "%s", path);
+    json_t *obj = root;
+    char *start = buf;
+    for (char *dot = strchr(start, '.'); dot; dot = strchr(start, '.')) {
+        *dot = '\0';
+        json_t *child = json_object_get(obj, start);
+        if (!json_is_object(child)) {
+            child = json_object();
+            json_object_set_new(obj, start, child);
+        }
+        obj = child;
+        start = dot + 1;
+    }
+    size_t n = strlen(start);
+    if (n >= leaf_len)
+        n = leaf_len - 1;
+    memcpy(leaf, start, n);
+    leaf[n] = '\0';
+    return obj;
+}
+
+/* Rounds to the displayed precision plus three digits, so JSON carries no false digits. */
+static json_t *number(double v, int decimals)
+{
+    if (!isfinite(v))
+        return json_null();
+    double scale = pow(10.0, decimals + 3);
+    double r = round(v * scale) / scale;
+    return isfinite(r) ? json_real(r) : json_real(v);
+}
+
+ml_status ml_report_write_json(FILE *f, const ml_report *r)
+{
+    json_t *root = json_object();
+    if (root == NULL)
+        return ML_ENOMEM;
+    json_t *in = json_object();
+    json_object_set_new(root, "input", in);
+    json_object_set_new(in, "path", json_string(r->path));
+    json_object_set_new(in, "kind", json_string(r->kind));
+    json_object_set_new(in, "kind_reason", json_string(r->kind_reason));
+    json_object_set_new(in, "format", json_string(r->format));
+    json_object_set_new(in, "sample_rate_hz", json_real(r->sample_rate_hz));
+    json_object_set_new(in, "channels", json_integer(r->channels));
+    json_object_set_new(in, "channel", json_integer(r->channel));
+    json_object_set_new(in, "frames", json_integer(r->frames));
+    json_object_set_new(in, "duration_s", number(r->duration_s, 6));
+    json_object_set_new(in, "start_s", number(r->start_s, 6));
+    json_object_set_new(in, "analysed_s", number(r->analysed_s, 6));
+    if (r->analysis[0])
+        json_object_set_new(root, "analysis", json_string(r->analysis));
+    for (size_t i = 0; i < r->nmetrics; i++) {
+        const ml_metric *m = &r->metrics[i];
+        char leaf[64];
+        json_t *p = parent_of(root, m->name, leaf, sizeof leaf);
+        json_object_set_new(p, leaf, m->valid ? number(m->value, m->decimals) : json_null());
+    }
+    for (size_t t = 0; t < r->ntables; t++) {
+        const ml_table *tb = &r->tables[t];
+        char leaf[64];
+        json_t *p = parent_of(root, tb->path, leaf, sizeof leaf);
+        json_t *arr = json_array();
+        for (size_t i = 0; i < tb->nrows; i++) {
+            json_t *row = json_object();
+            for (size_t c = 0; c < tb->ncols; c++)
+                json_object_set_new(row, tb->cols[c], number(tb->cell[i][c], tb->decimals[c]));
+            json_array_append_new(arr, row);
+        }
+        json_object_set_new(p, leaf, arr);
+    }
+    json_t *checks = json_array();
+    for (size_t i = 0; i < r->nchecks; i++) {
+        const ml_check *c = &r->checks[i];
+        json_t *o = json_object();
+        json_object_set_new(o, "metric", json_string(c->metric));
+        json_object_set_new(o, "value", c->valid ? number(c->value, c->decimals) : json_null());
+        json_object_set_new(o, "min", c->has_min ? json_real(c->min) : json_null());
+        json_object_set_new(o, "max", c->has_max ? json_real(c->max) : json_null());
+        json_object_set_new(o, "pass", json_boolean(c->pass));
+        json_object_set_new(o, "margin", c->valid ? number(c->margin, c->decimals) : json_null());
+        json_array_append_new(checks, o);
+    }
+    json_object_set_new(root, "checks", checks);
+    json_object_set_new(root, "verdict", json_string(ml_report_verdict(r)));
+    if (r->limits_path[0])
+        json_object_set_new(root, "limits", json_string(r->limits_path));
+    json_t *notes = json_array();
+    for (size_t i = 0; i < r->nnotes; i++)
+        json_array_append_new(notes, json_string(r->notes[i]));
+    json_object_set_new(root, "notes", notes);
+    int rc = json_dumpf(root, f, JSON_INDENT(2) | JSON_PRESERVE_ORDER | JSON_REAL_PRECISION(12));
+    fputc('\n', f);
+    json_decref(root);
+    return rc == 0 && !ferror(f) ? ML_OK : ML_EIO;
+}
