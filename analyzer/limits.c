@@ -9,6 +9,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "analyzer/registry.h"
 
@@ -30,9 +31,27 @@ static char *read_line(char *str, int num, void *stream)
 {
     line_reader *rd = stream;
     char *s = fgets(str, num, rd->f);
-    if (s != NULL)
+    if (s != NULL) {
         rd->line++;
+        /* inih would read an indented line as the continuation of the previous value */
+        size_t lead = strspn(s, " \t");
+        if (lead > 0)
+            memmove(s, s + lead, strlen(s + lead) + 1);
+    }
     return s;
+}
+
+/* Line n of f without its end-of-line (for error messages); "" when absent. */
+static void nth_line(FILE *f, int n, char *buf, size_t len)
+{
+    buf[0] = '\0';
+    rewind(f);
+    for (int i = 1; i <= n && fgets(buf, (int)len, f) != NULL; i++)
+        if (i == n) {
+            buf[strcspn(buf, "\r\n")] = '\0';
+            return;
+        }
+    buf[0] = '\0';
 }
 
 static void fail(parse_ctx *c, const char *fmt, const char *a, const char *b)
@@ -57,9 +76,65 @@ static bool parse_number(const char *s, double *v)
     return *end == '\0';
 }
 
+/* "OFFSET:DBC, OFFSET:DBC, ..." with ascending offsets >= 0. */
+static bool parse_mask_points(parse_ctx *c, const char *name, const char *value)
+{
+    ml_mask *m = &c->out->mask;
+    char buf[512];
+    snprintf(buf, sizeof buf, "%s", value);
+    m->npoints = 0;
+    for (char *save = NULL, *tok = strtok_r(buf, ",", &save); tok; tok = strtok_r(NULL, ",", &save)) {
+        while (*tok == ' ' || *tok == '\t')
+            tok++;
+        char *colon = strchr(tok, ':');
+        double off, dbc;
+        if (colon == NULL) {
+            fail(c, "key '%s': '%s' is not OFFSET_HZ:DBC", name, tok);
+            return false;
+        }
+        *colon = '\0';
+        if (!parse_number(tok, &off) || !parse_number(colon + 1, &dbc) || off < 0) {
+            fail(c, "key '%s': '%s' is not OFFSET_HZ:DBC with OFFSET_HZ >= 0", name, tok);
+            return false;
+        }
+        if (m->npoints >= ML_MASK_MAX_POINTS) {
+            fail(c, "key '%s': more than 32 points%s", name, "");
+            return false;
+        }
+        if (m->npoints > 0 && off < m->offset_hz[m->npoints - 1]) {
+            fail(c, "key '%s': offsets must not decrease (%s Hz)", name, tok);
+            return false;
+        }
+        m->offset_hz[m->npoints] = off;
+        m->dbc[m->npoints] = dbc;
+        m->npoints++;
+    }
+    if (m->npoints == 0) {
+        fail(c, "key '%s': no points%s", name, "");
+        return false;
+    }
+    c->out->has_mask = true;
+    return true;
+}
+
 static int handler(void *user, const char *section, const char *name, const char *value)
 {
     parse_ctx *c = user;
+    if (strcmp(section, "mask") == 0) {
+        if (strcmp(name, "points") == 0)
+            return parse_mask_points(c, name, value) ? 1 : 0;
+        if (strcmp(name, "rbw_hz") == 0) {
+            double v;
+            if (!parse_number(value, &v) || v <= 0) {
+                fail(c, "key '%s': '%s' is not a bandwidth in Hz > 0", name, value);
+                return 0;
+            }
+            c->out->mask.rbw_hz = v;
+            return 1;
+        }
+        fail(c, "key '%s': unknown key in [mask] (expected points or rbw_hz)%s", name, "");
+        return 0;
+    }
     if (strcmp(section, "profile") == 0) {
         if (strcmp(name, "name") == 0) {
             snprintf(c->out->name, sizeof c->out->name, "%s", value);
@@ -131,6 +206,11 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
 {
     memset(out, 0, sizeof *out);
     snprintf(out->path, sizeof out->path, "%s", path);
+    struct stat st;
+    if (stat(path, &st) == 0 && S_ISDIR(st.st_mode)) {
+        snprintf(err, errlen, "is a directory, not a limits profile");
+        return ML_EIO;
+    }
     FILE *f = fopen(path, "r");
     if (f == NULL) {
         snprintf(err, errlen, "%s", strerror(errno));
@@ -138,21 +218,40 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
     }
     parse_ctx c = {.rd = {f, 0}, .out = out, .err = err, .errlen = errlen};
     int rc = ini_parse_stream(read_line, &c.rd, handler, &c);
-    bool read_error = ferror(f) != 0;
-    fclose(f);
-    if (read_error) {
+    if (ferror(f) != 0) {
+        fclose(f);
         snprintf(err, errlen, "read error");
         return ML_EIO;
     }
-    if (c.failed)
-        return ML_EFORMAT;
-    if (rc != 0) {
-        snprintf(err, errlen, "line %d: not a 'key = value' line or [section] header", rc);
+    if (c.failed) {
+        fclose(f);
         return ML_EFORMAT;
     }
-    if (out->n == 0) {
+    if (rc != 0) {
+        char line[160];
+        nth_line(f, rc, line, sizeof line);
+        fclose(f);
+        snprintf(err, errlen, "line %d: '%.100s' is not a 'key = value' line or a [section] header", rc, line);
+        return ML_EFORMAT;
+    }
+    fclose(f);
+    if (out->mask.rbw_hz == 0)
+        out->mask.rbw_hz = 300.0; /* 47 CFR 73.44(a): 300 Hz resolution bandwidth */
+    if (out->mask.rbw_hz > 0 && !out->has_mask && out->n == 0) {
         snprintf(err, errlen, "no limits in the file");
         return ML_EFORMAT;
+    }
+    if (out->has_mask) {
+        bool given = false;
+        for (size_t i = 0; i < out->n; i++)
+            given = given || strcmp(out->items[i].metric, "spectrum.mask_margin_db") == 0;
+        if (!given && out->n < ML_MAX_LIMITS) {
+            ml_limit *l = &out->items[out->n++];
+            memset(l, 0, sizeof *l);
+            snprintf(l->metric, sizeof l->metric, "spectrum.mask_margin_db");
+            l->has_min = true;
+            l->min = 0.0;
+        }
     }
     return ML_OK;
 }

@@ -7,6 +7,10 @@
  *  - In a section named after a metric group ([audio], [hum], ...) the short name is taken
  *    within that group ("level_dbc_max" in [hum] is hum.level_dbc).
  *  - [profile] holds free-text "name" and "description" keys.
+ *  - [mask] gives an emission mask for if/iq captures: "points = OFFSET_HZ:DBC, ..." (offsets
+ *    ascending from the carrier, levels in dB re the unmodulated carrier; a repeated offset makes
+ *    a step) and "rbw_hz" (resolution bandwidth the levels refer to, default 300). A mask adds
+ *    the check spectrum.mask_margin_db >= 0 unless the profile limits that metric itself.
  * Every other key, a value that is not a finite number, a repeated key, or min > max for one
  * metric is an error naming the file, line and key.
  */
@@ -16,6 +20,7 @@
 #include <stdbool.h>
 #include <stddef.h>
 
+#include "dsp/rf.h"
 #include "dsp/status.h"
 #include "io/report.h"
 
@@ -32,6 +37,8 @@ typedef struct {
     char name[128];
     size_t n;
     ml_limit items[ML_MAX_LIMITS];
+    bool has_mask;
+    ml_mask mask;
 } ml_limits;
 
 /* Loads and validates path. On error returns ML_EIO (unreadable) or ML_EFORMAT (content) and

@@ -110,6 +110,8 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
     out->band_hi_hz = cfg->band_hi_hz < nyq ? cfg->band_hi_hz : nyq;
     if (!(out->band_hi_hz > out->band_lo_hz))
         return ML_EINVAL;
+    if (cfg->tone_hz > 0 && (cfg->tone_hz < out->band_lo_hz || cfg->tone_hz > out->band_hi_hz))
+        return ML_EINVAL;
 
     size_t klo = (size_t)ceil(out->band_lo_hz / bin_hz), khi = (size_t)floor(out->band_hi_hz / bin_hz);
     if (khi > nbins - 1)

@@ -25,11 +25,20 @@ struct ml_spectrum {
     double *win;        /* nfft window values                                   */
     double *buf;        /* nfft most recent samples, oldest first                */
     size_t fill;        /* valid samples in buf                                  */
-    double *in;         /* FFT input (windowed segment)                          */
+    double *in;         /* FFT input (windowed segment), real input              */
+    fftw_complex *cbuf; /* nfft most recent samples, complex input               */
+    fftw_complex *cin;  /* FFT input, complex input                              */
     fftw_complex *out;  /* FFT output                                            */
     fftw_complex *prev; /* previous segment's spectrum                           */
     fftw_complex *xacc; /* sum over segments of X_i * conj(X_{i-1})              */
     double *acc;        /* sum over segments of scaled |X|^2                     */
+    fftw_complex *xsel; /* the same over wholly tagged (selected) segments        */
+    double *sel;
+    size_t nsel;        /* selected segments                                     */
+    int prev_sel;       /* the previous segment was selected                      */
+    unsigned char *tags;/* tag of each sample in buf/cbuf                          */
+    size_t ntagged;     /* tagged samples in the buffer                           */
+    int use_sel;        /* getters read the selected accumulators                 */
     double scale;       /* 2 / (sum w)^2                                         */
     double enbw;
     size_t segments;
@@ -38,7 +47,8 @@ struct ml_spectrum {
 
 ml_spectrum_config ml_spectrum_config_default(double rate_hz)
 {
-    ml_spectrum_config c = {.nfft = 1024, .hop = 512, .window = ML_WINDOW_HFT248D, .rate_hz = rate_hz};
+    ml_spectrum_config c = {.nfft = 1024, .hop = 512, .window = ML_WINDOW_HFT248D, .rate_hz = rate_hz,
+                            .complex_input = 0};
     if (rate_hz > 0) {
         while (c.nfft < ((size_t)1 << 18) && rate_hz / (double)c.nfft > 0.75)
             c.nfft *= 2;
@@ -65,26 +75,41 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     if (q == NULL)
         return st;
     q->cfg = *cfg;
-    q->nbins = cfg->nfft / 2 + 1;
+    q->cfg.complex_input = cfg->complex_input ? 1 : 0;
+    const int cplx = q->cfg.complex_input;
+    q->nbins = cplx ? cfg->nfft : cfg->nfft / 2 + 1;
     q->win = malloc(cfg->nfft * sizeof *q->win);
-    q->buf = malloc(cfg->nfft * sizeof *q->buf);
-    q->in = fftw_alloc_real(cfg->nfft);
+    if (cplx) {
+        q->cbuf = fftw_alloc_complex(cfg->nfft);
+        q->cin = fftw_alloc_complex(cfg->nfft);
+    } else {
+        q->buf = malloc(cfg->nfft * sizeof *q->buf);
+        q->in = fftw_alloc_real(cfg->nfft);
+    }
     q->out = fftw_alloc_complex(q->nbins);
     q->prev = fftw_alloc_complex(q->nbins);
     q->xacc = fftw_alloc_complex(q->nbins);
     q->acc = malloc(q->nbins * sizeof *q->acc);
-    if (q->win == NULL || q->buf == NULL || q->in == NULL || q->out == NULL || q->prev == NULL
-        || q->xacc == NULL || q->acc == NULL)
+    q->xsel = fftw_alloc_complex(q->nbins);
+    q->sel = malloc(q->nbins * sizeof *q->sel);
+    q->tags = calloc(cfg->nfft, 1);
+    if (q->xsel == NULL || q->sel == NULL || q->tags == NULL)
+        goto fail;
+    if (q->win == NULL || (cplx ? (q->cbuf == NULL || q->cin == NULL) : (q->buf == NULL || q->in == NULL))
+        || q->out == NULL || q->prev == NULL || q->xacc == NULL || q->acc == NULL)
         goto fail;
     st = ML_EFFT;
-    q->plan = fftw_plan_dft_r2c_1d((int)cfg->nfft, q->in, q->out, FFTW_ESTIMATE);
+    if (cplx)
+        q->plan = fftw_plan_dft_1d((int)cfg->nfft, q->cin, q->out, FFTW_FORWARD, FFTW_ESTIMATE);
+    else
+        q->plan = fftw_plan_dft_r2c_1d((int)cfg->nfft, q->in, q->out, FFTW_ESTIMATE);
     if (q->plan == NULL)
         goto fail;
     ml_window_fill(cfg->window, q->win, cfg->nfft);
     double s = 0.0;
     for (size_t i = 0; i < cfg->nfft; i++)
         s += q->win[i];
-    q->scale = 2.0 / (s * s);
+    q->scale = (cplx ? 1.0 : 2.0) / (s * s);
     q->enbw = ml_window_enbw_bins(q->win, cfg->nfft);
     ml_spectrum_reset(q);
     *out = q;
@@ -103,10 +128,15 @@ void ml_spectrum_destroy(ml_spectrum *q)
     free(q->win);
     free(q->buf);
     fftw_free(q->in);
+    fftw_free(q->cbuf);
+    fftw_free(q->cin);
     fftw_free(q->out);
     fftw_free(q->prev);
     fftw_free(q->xacc);
     free(q->acc);
+    fftw_free(q->xsel);
+    free(q->sel);
+    free(q->tags);
     free(q);
 }
 
@@ -116,33 +146,62 @@ void ml_spectrum_reset(ml_spectrum *q)
         return;
     q->fill = 0;
     q->segments = 0;
+    q->nsel = 0;
+    q->prev_sel = 0;
+    q->ntagged = 0;
+    q->use_sel = 0;
+    memset(q->tags, 0, q->cfg.nfft);
     memset(q->acc, 0, q->nbins * sizeof *q->acc);
     memset(q->xacc, 0, q->nbins * sizeof *q->xacc);
+    memset(q->sel, 0, q->nbins * sizeof *q->sel);
+    memset(q->xsel, 0, q->nbins * sizeof *q->xsel);
 }
 
 /* Transform the full buffer: accumulate power and the cross-spectrum with the previous segment. */
 static void transform(ml_spectrum *q)
 {
     const size_t n = q->cfg.nfft;
-    for (size_t i = 0; i < n; i++)
-        q->in[i] = q->buf[i] * q->win[i];
+    const int cplx = q->cfg.complex_input;
+    if (cplx)
+        for (size_t i = 0; i < n; i++)
+            q->cin[i] = q->cbuf[i] * q->win[i];
+    else
+        for (size_t i = 0; i < n; i++)
+            q->in[i] = q->buf[i] * q->win[i];
     fftw_execute(q->plan);
+    const int selected = q->ntagged == n;
     for (size_t k = 0; k < q->nbins; k++) {
         double re = creal(q->out[k]), im = cimag(q->out[k]);
         double p = (re * re + im * im) * q->scale;
-        q->acc[k] += (k == 0 || k == q->nbins - 1) ? 0.5 * p : p;
+        if (!cplx && (k == 0 || k == q->nbins - 1))
+            p *= 0.5;
+        q->acc[k] += p;
+        if (selected)
+            q->sel[k] += p;
     }
     if (q->segments > 0)
         for (size_t k = 0; k < q->nbins; k++)
             q->xacc[k] += q->out[k] * conj(q->prev[k]);
+    if (selected && q->prev_sel)
+        for (size_t k = 0; k < q->nbins; k++)
+            q->xsel[k] += q->out[k] * conj(q->prev[k]);
     memcpy(q->prev, q->out, q->nbins * sizeof *q->out);
     q->segments++;
+    q->nsel += (size_t)selected;
+    q->prev_sel = selected;
+    /* the tags of the samples leaving the buffer */
+    for (size_t i = 0; i < q->cfg.hop; i++)
+        q->ntagged -= q->tags[i];
+    memmove(q->tags, q->tags + q->cfg.hop, n - q->cfg.hop);
     /* keep the last nfft - hop samples as the start of the next segment */
-    memmove(q->buf, q->buf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->buf);
+    if (cplx)
+        memmove(q->cbuf, q->cbuf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->cbuf);
+    else
+        memmove(q->buf, q->buf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->buf);
     q->fill = n - q->cfg.hop;
 }
 
-#define PUSH_BODY                                                                                  \
+#define PUSH_BODY(BUF, TAG)                                                                        \
     if (q == NULL || (x == NULL && n > 0))                                                         \
         return ML_EINVAL;                                                                          \
     size_t i = 0;                                                                                  \
@@ -150,8 +209,12 @@ static void transform(ml_spectrum *q)
         size_t take = q->cfg.nfft - q->fill;                                                       \
         if (take > n - i)                                                                          \
             take = n - i;                                                                          \
-        for (size_t j = 0; j < take; j++)                                                          \
-            q->buf[q->fill + j] = (double)x[i + j];                                                \
+        for (size_t j = 0; j < take; j++) {                                                        \
+            q->BUF[q->fill + j] = x[i + j];                                                        \
+            unsigned char t_ = (TAG) ? ((TAG)[i + j] != 0) : 0;                                     \
+            q->tags[q->fill + j] = t_;                                                             \
+            q->ntagged += t_;                                                                      \
+        }                                                                                          \
         q->fill += take;                                                                           \
         i += take;                                                                                 \
         if (q->fill == q->cfg.nfft)                                                                \
@@ -161,17 +224,88 @@ static void transform(ml_spectrum *q)
 
 ml_status ml_spectrum_push(ml_spectrum *q, const float *x, size_t n)
 {
-    PUSH_BODY
+    if (q != NULL && q->cfg.complex_input)
+        return ML_EINVAL;
+    const unsigned char *tag = NULL;
+    PUSH_BODY(buf, tag)
 }
 
 ml_status ml_spectrum_push_double(ml_spectrum *q, const double *x, size_t n)
 {
-    PUSH_BODY
+    return ml_spectrum_push_tagged(q, x, NULL, n);
+}
+
+ml_status ml_spectrum_push_tagged(ml_spectrum *q, const double *x, const unsigned char *tag, size_t n)
+{
+    if (q != NULL && q->cfg.complex_input)
+        return ML_EINVAL;
+    PUSH_BODY(buf, tag)
+}
+
+ml_status ml_spectrum_push_complex(ml_spectrum *q, const double _Complex *x, size_t n)
+{
+    return ml_spectrum_push_complex_tagged(q, x, NULL, n);
+}
+
+ml_status ml_spectrum_push_complex_tagged(ml_spectrum *q, const double _Complex *x, const unsigned char *tag,
+                                          size_t n)
+{
+    if (q != NULL && !q->cfg.complex_input)
+        return ML_EINVAL;
+    PUSH_BODY(cbuf, tag)
+}
+
+ml_status ml_spectrum_use_selected(ml_spectrum *q, int on)
+{
+    if (q == NULL)
+        return ML_EINVAL;
+    if (on && q->nsel == 0)
+        return ML_ENOSIGNAL;
+    q->use_sel = on ? 1 : 0;
+    return ML_OK;
+}
+
+size_t ml_spectrum_selected_segments(const ml_spectrum *q)
+{
+    return q ? q->nsel : 0;
+}
+
+void ml_spectrum_scale(ml_spectrum *q, double gain)
+{
+    if (q == NULL)
+        return;
+    const double g2 = gain * gain;
+    for (size_t k = 0; k < q->nbins; k++) {
+        q->acc[k] *= g2;
+        q->xacc[k] *= g2;
+        q->sel[k] *= g2;
+        q->xsel[k] *= g2;
+    }
+}
+
+int ml_spectrum_is_complex(const ml_spectrum *q)
+{
+    return q ? q->cfg.complex_input : 0;
+}
+
+double ml_spectrum_full_scale_power(const ml_spectrum *q)
+{
+    return (q && q->cfg.complex_input) ? 1.0 : 0.5;
+}
+
+double ml_spectrum_bin_hz(const ml_spectrum *q, size_t k)
+{
+    if (q == NULL)
+        return 0.0;
+    double bin = q->cfg.rate_hz / (double)q->cfg.nfft;
+    if (q->cfg.complex_input && k >= q->cfg.nfft / 2)
+        return ((double)k - (double)q->cfg.nfft) * bin;
+    return (double)k * bin;
 }
 
 size_t ml_spectrum_segments(const ml_spectrum *q)
 {
-    return q ? q->segments : 0;
+    return q ? (q->use_sel ? q->nsel : q->segments) : 0;
 }
 
 size_t ml_spectrum_nfft(const ml_spectrum *q)
@@ -208,35 +342,41 @@ ml_status ml_spectrum_get_psd(const ml_spectrum *q, double *psd, size_t nbins)
 {
     if (q == NULL || psd == NULL || nbins != q->nbins)
         return ML_EINVAL;
-    if (q->segments == 0)
+    const size_t segs = ml_spectrum_segments(q);
+    if (segs == 0)
         return ML_ENOSIGNAL;
+    const double *acc = ml_spectrum_sum(q);
     for (size_t k = 0; k < nbins; k++)
-        psd[k] = q->acc[k] / (double)q->segments;
+        psd[k] = acc[k] / (double)segs;
     return ML_OK;
 }
 
 const double *ml_spectrum_sum(const ml_spectrum *q)
 {
-    return q ? q->acc : NULL;
+    return q ? (q->use_sel ? q->sel : q->acc) : NULL;
 }
 
 ml_status ml_spectrum_get_frequency(const ml_spectrum *q, size_t k, double *hz)
 {
-    if (q == NULL || hz == NULL || k == 0 || k + 1 >= q->nbins)
+    if (q == NULL || hz == NULL || k >= q->nbins || (!q->cfg.complex_input && (k == 0 || k + 1 >= q->nbins)))
         return ML_EINVAL;
-    if (q->segments == 0)
+    const size_t segs = ml_spectrum_segments(q);
+    if (segs == 0)
         return ML_ENOSIGNAL;
     const double n = (double)q->cfg.nfft, hop = (double)q->cfg.hop;
+    const double *acc = ml_spectrum_sum(q);
+    const fftw_complex *xacc = q->use_sel ? q->xsel : q->xacc;
     double delta;
-    if (q->segments >= 2 && cabs(q->xacc[k]) > 0) {
+    if (segs >= 2 && cabs(xacc[k]) > 0) {
         /* X_i[k] advances by 2 pi f hop / fs per segment [flanagan:1966]; the bin centre accounts
          * for 2 pi k hop / n of it, the rest is the offset delta (in bins) from the centre. */
-        double dphi = carg(q->xacc[k]) - 2.0 * ML_PI * (double)k * hop / n;
+        double dphi = carg(xacc[k]) - 2.0 * ML_PI * (double)k * hop / n;
         dphi = remainder(dphi, 2.0 * ML_PI);
         delta = dphi * n / (2.0 * ML_PI * hop);
     } else {
         /* Parabolic interpolation of log power around the peak: coarse, one segment only. */
-        double a = ml_db10(q->acc[k - 1]), b = ml_db10(q->acc[k]), c = ml_db10(q->acc[k + 1]);
+        const size_t km = k > 0 ? k - 1 : q->nbins - 1, kp = k + 1 < q->nbins ? k + 1 : 0;
+        double a = ml_db10(acc[km]), b = ml_db10(acc[k]), c = ml_db10(acc[kp]);
         double den = a - 2.0 * b + c;
         delta = den != 0.0 ? 0.5 * (a - c) / den : 0.0;
         if (delta > 0.5)
@@ -244,6 +384,6 @@ ml_status ml_spectrum_get_frequency(const ml_spectrum *q, size_t k, double *hz)
         if (delta < -0.5)
             delta = -0.5;
     }
-    *hz = ((double)k + delta) * q->cfg.rate_hz / n;
+    *hz = ml_spectrum_bin_hz(q, k) + delta * q->cfg.rate_hz / n;
     return ML_OK;
 }

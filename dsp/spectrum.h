@@ -1,9 +1,12 @@
-/* Welch-averaged power spectrum of a real signal, streamed in blocks of any size.
+/* Welch-averaged power spectrum of a real or complex signal, streamed in blocks of any size.
  * SPDX-License-Identifier: MIT
  *
- * Scaling: psd[k] is the mean over segments of 2|X_k|^2 / (sum w)^2 for 0 < k < nfft/2 (half that
+ * Real input: psd[k], k = 0..nfft/2, is the mean over segments of 2|X_k|^2 / (sum w)^2 (half that
  * at k = 0 and k = nfft/2), so a sine of amplitude A centred in bin k reads A^2/2 there, and the
  * power of any band is sum(psd[k] over the band) / enbw_bins. Full-scale sine = power 0.5.
+ * Complex input (I/Q): psd[k], k = 0..nfft-1 in FFT order (k >= nfft/2 are the negative
+ * frequencies (k - nfft) * rate / nfft), is |X_k|^2 / (sum w)^2, so a complex exponential of
+ * amplitude A reads A^2; a full-scale exponential (|z| = 1) has power 1.
  * The object also accumulates the cross-spectrum of consecutive segments, whose phase at a
  * tone's bin gives the tone's frequency to a small fraction of a bin (see get_frequency).
  */
@@ -22,6 +25,7 @@ typedef struct {
     size_t hop;            /* frames between segment starts: 1 .. nfft                   */
     ml_window_type window; /* default ML_WINDOW_HFT248D                                   */
     double rate_hz;        /* sample rate: > 0                                            */
+    int complex_input;     /* 0: real samples (push, push_double); 1: I/Q (push_complex)  */
 } ml_spectrum_config;
 
 /* nfft: the power of two giving bins of about 0.75 Hz at rate_hz (at most 2^18); hop nfft/2. */
@@ -36,11 +40,34 @@ void ml_spectrum_reset(ml_spectrum *q);   /* as just created; no allocation */
 /* Appends n samples (any n, including 0). Never allocates. x may be NULL only when n == 0. */
 ml_status ml_spectrum_push(ml_spectrum *q, const float *x, size_t n);
 ml_status ml_spectrum_push_double(ml_spectrum *q, const double *x, size_t n);
+/* Complex input only (ML_EINVAL otherwise): n samples z[0..n-1]. */
+ml_status ml_spectrum_push_complex(ml_spectrum *q, const double _Complex *z, size_t n);
+
+/* Tagged variants: tag[i] != 0 marks sample i as belonging to a selected class (for example
+ * "modulated"). Every segment is accumulated as usual; a segment whose samples are all tagged is
+ * also accumulated separately, and ml_spectrum_use_selected() switches every getter to those.
+ * tag may be NULL (no sample tagged). */
+ml_status ml_spectrum_push_tagged(ml_spectrum *q, const double *x, const unsigned char *tag, size_t n);
+ml_status ml_spectrum_push_complex_tagged(ml_spectrum *q, const double _Complex *z, const unsigned char *tag,
+                                          size_t n);
+/* Getters read the selected-only accumulators (on != 0) or all segments (on == 0, the default).
+ * ML_ENOSIGNAL (and no switch) when on and no segment was wholly tagged. */
+ml_status ml_spectrum_use_selected(ml_spectrum *q, int on);
+/* Segments accumulated as selected. */
+size_t ml_spectrum_selected_segments(const ml_spectrum *q);
+
+/* Multiplies everything accumulated so far by gain^2, as if the input had been scaled by gain. */
+void ml_spectrum_scale(ml_spectrum *q, double gain);
 
 /* Number of complete segments transformed so far. */
 size_t ml_spectrum_segments(const ml_spectrum *q);
 size_t ml_spectrum_nfft(const ml_spectrum *q);
-size_t ml_spectrum_nbins(const ml_spectrum *q); /* nfft/2 + 1 */
+size_t ml_spectrum_nbins(const ml_spectrum *q); /* nfft/2 + 1 (real) or nfft (complex) */
+int ml_spectrum_is_complex(const ml_spectrum *q);
+/* Power of a full-scale tone: 0.5 (real sine of amplitude 1) or 1 (complex exponential). */
+double ml_spectrum_full_scale_power(const ml_spectrum *q);
+/* Frequency of bin k in Hz: k * rate / nfft, or (k - nfft) * rate / nfft for complex k >= nfft/2. */
+double ml_spectrum_bin_hz(const ml_spectrum *q, size_t k);
 double ml_spectrum_rate_hz(const ml_spectrum *q);
 double ml_spectrum_enbw_bins(const ml_spectrum *q);
 size_t ml_spectrum_lobe_bins(const ml_spectrum *q); /* half-width that holds a tone: terms + 1 */
@@ -53,7 +80,8 @@ ml_status ml_spectrum_get_psd(const ml_spectrum *q, double *psd, size_t nbins);
 /* Read-only view of the accumulated (summed, not averaged) power per bin; nbins values. */
 const double *ml_spectrum_sum(const ml_spectrum *q);
 
-/* Frequency (Hz) of the tone whose main lobe peaks in bin k (0 < k < nbins - 1), from the phase
+/* Frequency (Hz) of the tone whose main lobe peaks in bin k (0 < k < nbins - 1; any k for
+ * complex input, negative frequencies included), from the phase
  * advance between consecutive segments; accurate to far below a bin for a stable tone.
  * With fewer than two segments it falls back to interpolating the averaged power.
  * ML_EINVAL for a bad k, ML_ENOSIGNAL when no segment is complete. */

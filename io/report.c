@@ -27,6 +27,15 @@ ml_metric *ml_report_add_missing(ml_report *r, const char *name, const char *uni
     return ml_report_add(r, name, unit, decimals, NAN);
 }
 
+void ml_report_add_text(ml_report *r, const char *name, const char *value)
+{
+    if (r->ntexts >= ML_REPORT_MAX_TEXTS)
+        return;
+    ml_text *t = &r->texts[r->ntexts++];
+    snprintf(t->name, sizeof t->name, "%s", name);
+    snprintf(t->value, sizeof t->value, "%s", value);
+}
+
 const ml_metric *ml_report_find(const ml_report *r, const char *name)
 {
     for (size_t i = 0; i < r->nmetrics; i++)

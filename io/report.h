@@ -22,6 +22,7 @@
 #define ML_REPORT_MAX_ROWS 64
 #define ML_REPORT_MAX_CHECKS 128
 #define ML_REPORT_MAX_NOTES 16
+#define ML_REPORT_MAX_TEXTS 16
 
 typedef struct {
     char name[64];    /* dotted JSON path, e.g. "audio.thd_pct"                       */
@@ -30,6 +31,11 @@ typedef struct {
     bool valid;       /* false: not measurable here (JSON null, text "n/a")            */
     double value;
 } ml_metric;
+
+typedef struct {
+    char name[64];    /* dotted JSON path, e.g. "modulation.overmodulation_kind"      */
+    char value[96];
+} ml_text;
 
 typedef struct {
     char path[64];                          /* dotted path of the JSON array            */
@@ -70,6 +76,8 @@ typedef struct {
     ml_metric metrics[ML_REPORT_MAX_METRICS];
     size_t ntables;
     ml_table tables[ML_REPORT_MAX_TABLES];
+    size_t ntexts;
+    ml_text texts[ML_REPORT_MAX_TEXTS];
     size_t nchecks;
     ml_check checks[ML_REPORT_MAX_CHECKS];
     size_t nnotes;
@@ -82,6 +90,8 @@ typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_for
 ml_metric *ml_report_add(ml_report *r, const char *name, const char *unit, int decimals, double value);
 /* Appends a metric that could not be measured. */
 ml_metric *ml_report_add_missing(ml_report *r, const char *name, const char *unit, int decimals);
+/* Appends a text-valued field (JSON string at the dotted name; a line in the text header). */
+void ml_report_add_text(ml_report *r, const char *name, const char *value);
 /* Finds a metric by dotted name, or by its last component when that is unique; NULL if absent. */
 const ml_metric *ml_report_find(const ml_report *r, const char *name);
 /* Appends a note (a warning or remark shown to the user). */

@@ -22,6 +22,8 @@ ml_status ml_report_write_csv(FILE *f, const ml_report *r)
         const ml_metric *m = &r->metrics[i];
         row(f, m->name, m->valid, m->value, m->decimals, m->unit, ml_report_check_for(r, m->name));
     }
+    for (size_t i = 0; i < r->ntexts; i++)
+        fprintf(f, "%s,%s,,,\n", r->texts[i].name, r->texts[i].value);
     for (size_t t = 0; t < r->ntables; t++) {
         const ml_table *tb = &r->tables[t];
         for (size_t i = 0; i < tb->nrows; i++)

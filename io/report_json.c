@@ -37,6 +37,8 @@ static json_t *number(double v, int decimals)
 {
     if (!isfinite(v))
         return json_null();
+    if (decimals == 0 && fabs(v) < 9e15)
+        return json_integer((json_int_t)llround(v));
     double scale = pow(10.0, decimals + 3);
     double r = round(v * scale) / scale;
     return isfinite(r) ? json_real(r) : json_real(v);
@@ -67,6 +69,11 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
         char leaf[64];
         json_t *p = parent_of(root, m->name, leaf, sizeof leaf);
         json_object_set_new(p, leaf, m->valid ? number(m->value, m->decimals) : json_null());
+    }
+    for (size_t i = 0; i < r->ntexts; i++) {
+        char leaf[64];
+        json_t *p = parent_of(root, r->texts[i].name, leaf, sizeof leaf);
+        json_object_set_new(p, leaf, json_string(r->texts[i].value));
     }
     for (size_t t = 0; t < r->ntables; t++) {
         const ml_table *tb = &r->tables[t];

@@ -25,6 +25,8 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
         fprintf(f, "  analysis  %s\n", r->analysis);
     if (r->limits_path[0])
         fprintf(f, "  limits    %s\n", r->limits_path);
+    for (size_t i = 0; i < r->ntexts; i++)
+        fprintf(f, "  %-32s %s\n", r->texts[i].name, r->texts[i].value);
     fprintf(f, "\n%-32s %14s  %-5s %-16s %-6s %s\n", "metric", "value", "unit", "limit", "result", "margin");
     for (size_t i = 0; i < r->nmetrics; i++) {
         const ml_metric *m = &r->metrics[i];

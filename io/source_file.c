@@ -101,6 +101,11 @@ ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, s
             snprintf(detail, detail_len, "not a regular file");
         return ML_EIO;
     }
+    if (stb.st_size == 0) {
+        if (detail)
+            snprintf(detail, detail_len, "the file is empty");
+        return ML_EFORMAT;
+    }
     SF_INFO fi;
     memset(&fi, 0, sizeof fi);
     SNDFILE *sf = sf_open(path, SFM_READ, &fi);

@@ -1,0 +1,77 @@
+/* Shared parts of the measure command: options, report helpers, the two pipelines.
+ * SPDX-License-Identifier: MIT
+ */
+#ifndef ML_ANALYZER_MEASURE_H
+#define ML_ANALYZER_MEASURE_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "analyzer/limits.h"
+#include "dsp/metrics.h"
+#include "dsp/window.h"
+#include "io/report.h"
+#include "io/source.h"
+
+#define ML_BLOCK_FRAMES 4096
+#define ML_MAX_CHANNELS 64
+
+typedef enum { ML_KIND_AUTO, ML_KIND_AUDIO, ML_KIND_IF, ML_KIND_IQ } ml_kind;
+
+typedef struct {
+    const char *input;
+    ml_kind kind;
+    long channel;             /* 1-based; for iq the I channel (Q is the next one)          */
+    long reference_channel;   /* 1-based, 0 = none                                          */
+    bool swap_iq;
+    double start_s;
+    double duration_s;        /* < 0: to the end                                            */
+    ml_audio_config audio;
+    ml_window_type window;
+    double carrier_hz;        /* NAN = detect                                               */
+    double bandwidth_hz;      /* 0 = widest that fits, at most 10 kHz                       */
+    const char *carrier_reference;
+    double peak_hold_ms;
+    const char *limits_path;
+    const ml_limits *limits;  /* loaded profile or NULL                                     */
+    ml_report_format format;
+    const char *output_path;
+} ml_measure_opts;
+
+/* The analysed segment of an open source. */
+typedef struct {
+    ml_source *src;
+    const ml_source_info *info;
+    int64_t first;            /* first frame                                                */
+    int64_t nframes;          /* frames analysed                                            */
+} ml_segment;
+
+/* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
+void ml_measure_add(ml_report *r, const char *name, double value);
+/* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
+void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
+/* Fills the report's input description. */
+void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
+                         const char *reason);
+/* Reads up to want frames; exits-status style: 0 ok, else an error was printed (exit 2). */
+int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
+                    int64_t done);
+/* Progress on stderr when it is a terminal and the job is long. */
+void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown);
+void ml_measure_progress_end(bool shown);
+/* The nfft for nframes of input at rate: default resolution, halved until it fits (>= 256);
+ * 0 when nframes is too short. */
+size_t ml_measure_nfft(double rate_hz, int64_t nframes);
+
+/* The if/iq pipeline (analyzer/modulation.c): fills rep; returns 0 or an exit status (error
+ * already printed). kind is ML_KIND_IF or ML_KIND_IQ; reason says why. */
+int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, const char *reason,
+                          double carrier_hz, ml_report *rep);
+
+/* Kind detection for one channel (analyzer/modulation.c): true with the carrier frequency when
+ * the segment's opening seconds look like an AM IF signal (strongest component above 3 kHz with
+ * symmetric sidebands); reason gets a one-line explanation either way. Seeks back afterwards. */
+int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, double *carrier_hz, char *reason,
+                         size_t reason_len);
+
+#endif

@@ -1,0 +1,568 @@
+/* The if/iq pipeline of the measure command: carrier, envelope, modulation and spectrum figures.
+ * SPDX-License-Identifier: MIT
+ *
+ * Two passes over the segment: a short look at its opening seconds finds the carrier (and, for
+ * --kind auto, decides whether a one-channel file is an IF capture), then one streamed pass feeds
+ * the spectrum of the captured signal, the demodulator (dsp/am.h) and the spectrum of the
+ * demodulated audio. Memory does not depend on the segment's length.
+ *
+ * References:
+ * [cfr73.14] 47 CFR 73.14, percentage modulation: positive 100 (MAX - C)/C, negative
+ *     100 (C - MIN)/C, C = carrier amplitude without modulation.
+ * [cfr73.1570] 47 CFR 73.1570(b)(1): AM peaks at most 100 % negative, 125 % positive.
+ * [sm328] Recommendation ITU-R SM.328 (occupied bandwidth, 99 % of the mean power).
+ */
+#define _POSIX_C_SOURCE 200809L
+#include <complex.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "analyzer/cli.h"
+#include "analyzer/measure.h"
+#include "dsp/am.h"
+#include "dsp/metrics.h"
+#include "dsp/rf.h"
+#include "dsp/spectrum.h"
+#include "dsp/stats.h"
+
+#define PREFIX_S 4.0          /* seconds looked at to find the carrier                        */
+#define MAX_BANDWIDTH_HZ 10000.0
+#define INDEX_TOLERANCE 0.02  /* envelope vs spectral index disagreement worth a note          */
+#define QUIET_MIN_S 0.1       /* unmodulated time needed before C is taken from it            */
+
+/* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped), ref (may be NULL). */
+static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z,
+                  float *ref)
+{
+    const size_t c0 = (size_t)(o->channel - 1);
+    for (size_t i = 0; i < got; i++) {
+        const float *fr = buf + i * nch;
+        if (iq) {
+            double a = fr[c0], b = fr[c0 + 1];
+            z[i] = o->swap_iq ? CMPLX(b, a) : CMPLX(a, b);
+        } else {
+            z[i] = CMPLX(fr[c0], 0.0);
+        }
+        if (ref)
+            ref[i] = fr[o->reference_channel - 1];
+    }
+}
+
+/* Feeds the demodulator's output to the spectra: the input samples to the captured signal's
+ * spectrum, the envelope in units of the provisional carrier to the audio spectrum, both tagged
+ * with their block's class. */
+static void feed(ml_spectrum *rf, ml_spectrum *aud, const ml_am_output *out, size_t n, bool iq, double inv_c)
+{
+    if (iq) {
+        ml_spectrum_push_complex_tagged(rf, out->in, out->modulated, n);
+    } else {
+        for (size_t i = 0; i < n; i++)
+            out->env[i] *= inv_c; /* reuse: the real input goes through a temporary below */
+        double tmp[512];
+        for (size_t i = 0; i < n; i += 512) {
+            size_t m = n - i < 512 ? n - i : 512;
+            for (size_t j = 0; j < m; j++)
+                tmp[j] = creal(out->in[i + j]);
+            ml_spectrum_push_tagged(rf, tmp, out->modulated + i, m);
+        }
+        ml_spectrum_push_tagged(aud, out->env, out->modulated, n);
+        return;
+    }
+    for (size_t i = 0; i < n; i++)
+        out->env[i] *= inv_c;
+    ml_spectrum_push_tagged(aud, out->env, out->modulated, n);
+}
+
+/* Spectrum of the first `frames` frames of the segment, then seeks back to its start. */
+static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_t frames, ml_spectrum **out)
+{
+    *out = NULL;
+    const double rate = seg->info->rate_hz;
+    ml_spectrum_config sc = ml_spectrum_config_default(rate);
+    sc.nfft = ml_measure_nfft(rate, frames);
+    if (sc.nfft == 0)
+        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->input,
+                            (long long)frames);
+    /* a quarter-second resolution is plenty to find the carrier; keep several segments */
+    while (sc.nfft > 4096 && (int64_t)sc.nfft * 4 > frames)
+        sc.nfft /= 2;
+    sc.hop = sc.nfft / 2;
+    sc.complex_input = iq;
+    ml_status st = ml_spectrum_create(&sc, out);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", o->input, ml_strerror(st));
+    const size_t nch = (size_t)seg->info->channels;
+    float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
+    double complex *z = malloc(ML_BLOCK_FRAMES * sizeof *z);
+    float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    int rc = 0;
+    if (buf == NULL || z == NULL || mono == NULL)
+        rc = ml_cli_error("%s: out of memory", o->input);
+    int64_t done = 0;
+    ml_measure_opts plain = *o;
+    plain.reference_channel = 0;
+    while (rc == 0 && done < frames) {
+        size_t want = frames - done < ML_BLOCK_FRAMES ? (size_t)(frames - done) : ML_BLOCK_FRAMES, got = 0;
+        rc = ml_measure_read(o, seg, buf, want, &got, done);
+        if (rc != 0)
+            break;
+        split(buf, got, nch, &plain, iq, z, NULL);
+        if (iq) {
+            ml_spectrum_push_complex(*out, z, got);
+        } else {
+            for (size_t i = 0; i < got; i++)
+                mono[i] = (float)creal(z[i]);
+            ml_spectrum_push(*out, mono, got);
+        }
+        done += (int64_t)got;
+    }
+    free(buf);
+    free(z);
+    free(mono);
+    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", o->input, ml_source_detail(seg->src));
+    if (rc != 0) {
+        ml_spectrum_destroy(*out);
+        *out = NULL;
+    }
+    return rc;
+}
+
+int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, double *carrier_hz, char *reason,
+                         size_t reason_len)
+{
+    *is_if = false;
+    const double rate = seg->info->rate_hz, nyq = rate / 2;
+    int64_t frames = (int64_t)(PREFIX_S * rate);
+    if (frames > seg->nframes)
+        frames = seg->nframes;
+    if (ml_measure_nfft(rate, frames) == 0) {
+        snprintf(reason, reason_len, "--kind auto: too short to look for a carrier; treated as audio");
+        return 0;
+    }
+    ml_spectrum *s = NULL;
+    int rc = look_ahead(o, seg, false, frames, &s);
+    if (rc != 0)
+        return rc;
+    double fc = 0, ac = 0;
+    ml_status st = ml_rf_find_peak(s, 20.0, nyq, &fc, &ac);
+    if (st != ML_OK) {
+        snprintf(reason, reason_len, "--kind auto: no signal found; treated as audio");
+        ml_spectrum_destroy(s);
+        return 0;
+    }
+    /* Sidebands: the strongest component within +-min(fc, nyq - fc, 10 kHz) of the carrier but
+     * outside its lobe must have a mirror image within 3 dB on the other side. */
+    const double bin = rate / (double)ml_spectrum_nfft(s), lobe = (double)ml_spectrum_lobe_bins(s) * bin;
+    const double span = fmin(fmin(fc, nyq - fc), MAX_BANDWIDTH_HZ);
+    bool symmetric = false;
+    double fm = 0;
+    if (fc >= 3000.0 && span > 2 * lobe + 20.0) {
+        double fu, au, fl, al;
+        ml_status su = ml_rf_find_peak(s, fc + lobe + bin, fc + span, &fu, &au);
+        ml_status sl = ml_rf_find_peak(s, fc - span, fc - lobe - bin, &fl, &al);
+        if (su == ML_OK && sl == ML_OK) {
+            /* the stronger side's partner must sit at the mirror frequency with a similar level */
+            double f_strong = au >= al ? fu : fl, a_strong = fmax(au, al);
+            double mirror = 2 * fc - f_strong, a_mirror = ml_rf_amplitude(s, mirror);
+            fm = fabs(f_strong - fc);
+            symmetric = a_mirror > 0 && a_strong > 0 && fabs(20 * log10(a_mirror / a_strong)) < 3.0
+                        && a_strong > 1e-3 * ac;
+        }
+    }
+    ml_spectrum_destroy(s);
+    if (fc >= 3000.0 && symmetric) {
+        *is_if = true;
+        *carrier_hz = isnan(o->carrier_hz) ? fc : o->carrier_hz;
+        snprintf(reason, reason_len,
+                 "--kind auto: one channel whose strongest component (%.1f Hz) has symmetric sidebands "
+                 "(+-%.1f Hz): an AM IF signal",
+                 fc, fm);
+    } else if (fc < 3000.0) {
+        snprintf(reason, reason_len,
+                 "--kind auto: the strongest component (%.1f Hz) lies in the audio range below 3 kHz: "
+                 "demodulated audio",
+                 fc);
+    } else {
+        snprintf(reason, reason_len,
+                 "--kind auto: the strongest component (%.1f Hz) has no symmetric sidebands: demodulated audio",
+                 fc);
+    }
+    return 0;
+}
+
+/* Channel filter width: the widest that fits, at most 10 kHz; 0 when nothing sensible fits. */
+static double default_bandwidth(double rate, bool iq, double fc, double *transition)
+{
+    const double nyq = rate / 2;
+    double b = iq ? fmin(MAX_BANDWIDTH_HZ, nyq - fabs(fc)) : fmin(fmin(MAX_BANDWIDTH_HZ, fc), nyq - fc);
+    *transition = fmin(1000.0, 0.25 * b);
+    if (!iq) /* the mixer's image at -2 fc must fall in the stop band: b + t <= 2 fc - b */
+        b = fmin(b, fc - *transition / 2);
+    b = fmin(b, nyq - *transition);
+    return b >= 100.0 ? b : 0.0;
+}
+
+/* Mean envelope of a capture of the unmodulated carrier: its carrier line's amplitude. */
+static int reference_carrier(const ml_measure_opts *o, bool iq, double rate, double fc, double *c)
+{
+    char err[256];
+    ml_segment ref = {0};
+    ml_status st = ml_source_open_file(o->carrier_reference, &ref.src, err, sizeof err);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s%s%s", o->carrier_reference, ml_strerror(st), err[0] ? ": " : "", err);
+    ref.info = ml_source_get_info(ref.src);
+    int rc = 0;
+    ml_measure_opts ro = *o;
+    ro.input = o->carrier_reference;
+    if (ref.info->rate_hz != rate) {
+        rc = ml_cli_error("%s: the carrier reference is sampled at %.0f Hz, the capture at %.0f Hz",
+                          o->carrier_reference, ref.info->rate_hz, rate);
+        goto done;
+    }
+    if (ref.info->channels < (int)o->channel + (iq ? 1 : 0)) {
+        rc = ml_cli_error("%s: the carrier reference has %d channel%s; the measured channels need %ld",
+                          o->carrier_reference, ref.info->channels, ref.info->channels == 1 ? "" : "s",
+                          o->channel + (iq ? 1 : 0));
+        goto done;
+    }
+    ref.first = 0;
+    ref.nframes = ref.info->frames < (int64_t)(10 * ref.info->rate_hz) ? ref.info->frames
+                                                                         : (int64_t)(10 * ref.info->rate_hz);
+    ml_spectrum *s = NULL;
+    rc = look_ahead(&ro, &ref, iq, ref.nframes, &s);
+    if (rc != 0)
+        goto done;
+    const double bin = ref.info->rate_hz / (double)ml_spectrum_nfft(s);
+    double f, a;
+    st = ml_rf_find_peak(s, fc - 20 * bin - 50.0, fc + 20 * bin + 50.0, &f, &a);
+    ml_spectrum_destroy(s);
+    if (st != ML_OK || !(a > 0)) {
+        rc = ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", o->carrier_reference, fc);
+        goto done;
+    }
+    *c = a;
+done:
+    ml_source_close(ref.src);
+    return rc;
+}
+
+int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, const char *reason,
+                          double carrier_hz, ml_report *rep)
+{
+    const bool iq = kind == ML_KIND_IQ;
+    const ml_source_info *info = seg->info;
+    const double rate = info->rate_hz, nyq = rate / 2;
+    const size_t nch = (size_t)info->channels;
+    if (iq && (size_t)o->channel + 1 > nch)
+        return ml_cli_error("%s: --kind iq needs two channels (I and Q) from channel %ld; the file has %zu",
+                            o->input, o->channel, nch);
+    if (o->reference_channel > 0
+        && (o->reference_channel == o->channel || (iq && o->reference_channel == o->channel + 1)))
+        return ml_cli_error("--reference-channel %ld is one of the measured channels", o->reference_channel);
+    if (!isnan(carrier_hz) && (iq ? !(fabs(carrier_hz) < nyq) : !(carrier_hz > 0 && carrier_hz < nyq)))
+        return ml_cli_error("--carrier %.1f Hz is outside the captured band (%s%.1f Hz at %.0f Hz sampling)",
+                            carrier_hz, iq ? "+-" : "0..", nyq, rate);
+
+    /* 1. the carrier, from the opening seconds */
+    int64_t pre = (int64_t)(PREFIX_S * rate);
+    if (pre > seg->nframes)
+        pre = seg->nframes;
+    ml_spectrum *look = NULL;
+    int rc = look_ahead(o, seg, iq, pre, &look);
+    if (rc != 0)
+        return rc;
+    double fc = 0, ac = 0;
+    const double lobe_hz = (double)ml_spectrum_lobe_bins(look) * rate / (double)ml_spectrum_nfft(look);
+    ml_status st = isnan(carrier_hz) ? ml_rf_find_peak(look, iq ? -nyq : 20.0, nyq, &fc, &ac)
+                                     : ml_rf_find_peak(look, carrier_hz - lobe_hz, carrier_hz + lobe_hz, &fc, &ac);
+    ml_spectrum_destroy(look);
+    if (st != ML_OK || !(ac > 0))
+        return ml_cli_error("%s: no carrier found%s", o->input, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
+    if (!isnan(carrier_hz) && fabs(fc - carrier_hz) > lobe_hz)
+        fc = carrier_hz;
+
+    double transition = 0;
+    double bw = default_bandwidth(rate, iq, fc, &transition);
+    if (o->bandwidth_hz > 0) {
+        if (o->bandwidth_hz > bw + 1e-9)
+            return ml_cli_error("--bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
+                                "(at most %.1f Hz)",
+                                o->bandwidth_hz, fc, rate, bw);
+        bw = o->bandwidth_hz;
+        transition = fmin(transition, 0.25 * bw);
+    }
+    if (bw <= 0)
+        return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->input, fc,
+                            iq ? "the band edge" : "0 Hz or the Nyquist frequency");
+
+    double c_file = 0;
+    if (o->carrier_reference) {
+        rc = reference_carrier(o, iq, rate, fc, &c_file);
+        if (rc != 0)
+            return rc;
+    }
+    const double c_prov = c_file > 0 ? c_file : ac;
+
+    /* 2. one streamed pass */
+    ml_spectrum_config rc_cfg = ml_spectrum_config_default(rate);
+    rc_cfg.window = o->window;
+    rc_cfg.nfft = ml_measure_nfft(rate, seg->nframes);
+    rc_cfg.hop = rc_cfg.nfft / 2;
+    rc_cfg.complex_input = iq;
+    ml_am_config ac_cfg = ml_am_config_default(rate, iq, fc, bw, c_prov);
+    ac_cfg.transition_hz = transition;
+    ac_cfg.hold_s = o->peak_hold_ms / 1000.0;
+    ac_cfg.has_reference = o->reference_channel > 0;
+    for (size_t i = 0; o->limits && i < o->limits->n; i++)
+        if (strcmp(o->limits->items[i].metric, "modulation.positive_peak_pct") == 0 && o->limits->items[i].has_max)
+            ac_cfg.positive_limit_pct = o->limits->items[i].max;
+    ml_spectrum *rf = NULL, *aud = NULL;
+    ml_am *am = NULL;
+    float *buf = NULL, *ref = NULL, *mono = NULL;
+    double complex *z = NULL;
+    ml_am_output out = {0};
+    if (rc_cfg.nfft == 0)
+        return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
+    if ((st = ml_spectrum_create(&rc_cfg, &rf)) != ML_OK || (st = ml_am_create(&ac_cfg, &am)) != ML_OK) {
+        rc = ml_cli_error("%s: cannot set up the analysis: %s", o->input, ml_strerror(st));
+        goto done;
+    }
+    const int64_t env_frames = seg->nframes - (int64_t)ml_am_latency(am);
+    ml_spectrum_config ac_spec = ml_spectrum_config_default(rate);
+    ac_spec.window = o->window;
+    ac_spec.nfft = ml_measure_nfft(rate, env_frames);
+    ac_spec.hop = ac_spec.nfft / 2;
+    if (env_frames <= 0 || ac_spec.nfft == 0) {
+        rc = ml_cli_error("%s: %lld frames are too few for the %zu-sample channel filter", o->input,
+                          (long long)seg->nframes, ml_am_latency(am));
+        goto done;
+    }
+    if ((st = ml_spectrum_create(&ac_spec, &aud)) != ML_OK) {
+        rc = ml_cli_error("%s: %s", o->input, ml_strerror(st));
+        goto done;
+    }
+    buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
+    ref = malloc(ML_BLOCK_FRAMES * sizeof *ref);
+    mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    z = malloc(ML_BLOCK_FRAMES * sizeof *z);
+    out.cap = ml_am_output_cap(am, ML_BLOCK_FRAMES);
+    out.env = malloc(out.cap * sizeof *out.env);
+    out.in = malloc(out.cap * sizeof *out.in);
+    out.modulated = malloc(out.cap);
+    if (buf == NULL || ref == NULL || mono == NULL || z == NULL || out.env == NULL || out.in == NULL
+        || out.modulated == NULL) {
+        rc = ml_cli_error("%s: out of memory", o->input);
+        goto done;
+    }
+    ml_stats stats[2];
+    ml_stats_init(&stats[0], info->bits);
+    ml_stats_init(&stats[1], info->bits);
+    int64_t done_frames = 0, next = 0;
+    bool shown = false;
+    const double inv_c = 1.0 / c_prov;
+    while (done_frames < seg->nframes) {
+        size_t want = seg->nframes - done_frames < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done_frames)
+                                                                   : ML_BLOCK_FRAMES;
+        size_t got = 0, nout = 0;
+        rc = ml_measure_read(o, seg, buf, want, &got, done_frames);
+        if (rc != 0)
+            goto done;
+        split(buf, got, nch, o, iq, z, o->reference_channel > 0 ? ref : NULL);
+        for (int c = 0; c < (iq ? 2 : 1); c++) {
+            for (size_t i = 0; i < got; i++)
+                mono[i] = (float)(c == 0 ? creal(z[i]) : cimag(z[i]));
+            ml_stats_push(&stats[c], mono, got);
+        }
+        ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &out, &nout);
+        feed(rf, aud, &out, nout, iq, inv_c);
+        done_frames += (int64_t)got;
+        ml_measure_progress(seg, done_frames, &next, &shown);
+    }
+    ml_measure_progress_end(shown);
+    size_t nout = 0;
+    ml_am_finish(am, &out, &nout);
+    feed(rf, aud, &out, nout, iq, inv_c);
+    ml_am_result ar;
+    if (ml_am_get_result(am, &ar) != ML_OK) {
+        rc = ml_cli_error("%s: no envelope could be measured", o->input);
+        goto done;
+    }
+
+    /* 3. the unmodulated carrier C */
+    double c;
+    char cref[128];
+    const bool c_known = c_file > 0 || (double)ar.quiet_samples >= QUIET_MIN_S * rate;
+    if (c_file > 0) {
+        c = c_file;
+        snprintf(cref, sizeof cref, "carrier reference file %s", o->carrier_reference);
+    } else if (c_known) {
+        c = ar.mean_quiet;
+        snprintf(cref, sizeof cref, "unmodulated stretches of this capture (%.2f s)",
+                 (double)ar.quiet_samples / rate);
+    } else {
+        c = ar.mean_all;
+        snprintf(cref, sizeof cref, "mean envelope (no unmodulated carrier found)");
+    }
+    if (!(c > 0)) {
+        rc = ml_cli_error("%s: the carrier vanishes: no envelope to measure", o->input);
+        goto done;
+    }
+    ml_spectrum_scale(aud, c_prov / c);
+    /* With unmodulated stretches in the capture, the spectra cover the wholly modulated FFT
+     * segments only, so that a lead-in or pauses do not dilute sidebands and tones. */
+    bool mod_only = false;
+    if (ar.quiet_samples > 0 && ar.modulated_samples > 0 && ml_spectrum_selected_segments(rf) > 0
+        && ml_spectrum_selected_segments(aud) > 0) {
+        ml_spectrum_use_selected(rf, 1);
+        ml_spectrum_use_selected(aud, 1);
+        mod_only = true;
+    }
+
+    /* 4. demodulated audio: the envelope's AC part in units of C (full scale = 100 % modulation) */
+    ml_measure_describe(rep, o, seg, iq ? "iq" : "if", reason);
+    ml_audio_config acfg = o->audio;
+    if (acfg.band_hi_hz > bw)
+        acfg.band_hi_hz = bw;
+    ml_audio_result au;
+    bool aok = false;
+    if (acfg.band_lo_hz < acfg.band_hi_hz
+        && !(acfg.tone_hz > 0 && (acfg.tone_hz < acfg.band_lo_hz || acfg.tone_hz > acfg.band_hi_hz)))
+        aok = ml_audio_analyze(aud, &acfg, &au) == ML_OK;
+    if (!aok)
+        memset(&au, 0, sizeof au);
+
+    /* 5. figures */
+    const double fsp = ml_spectrum_full_scale_power(rf);
+    double f_car = fc, a_car = 0;
+    {
+        const double lh = (double)ml_spectrum_lobe_bins(rf) * rate / (double)rc_cfg.nfft;
+        if (ml_rf_find_peak(rf, fc - lh, fc + lh, &f_car, &a_car) != ML_OK)
+            a_car = 0;
+    }
+    const double p_car = a_car * a_car * fsp;
+    ml_measure_add(rep, "carrier.frequency_hz", f_car);
+    ml_measure_add(rep, "carrier.offset_hz", isnan(o->carrier_hz) ? NAN : f_car - o->carrier_hz);
+    ml_measure_add(rep, "carrier.level_dbfs", a_car > 0 ? 20 * log10(a_car) : NAN);
+    ml_measure_add(rep, "carrier.unmodulated_dbfs", 20 * log10(c));
+    /* noise in the channel: mean density between the lines of carrier, tone sidebands and hum */
+    double excl[2 + 4 * ML_MAX_HARMONICS + 4 * ML_MAX_HUM];
+    size_t nex = 0;
+    excl[nex++] = f_car;
+    const double fm = aok ? au.fundamental_hz : 0;
+    for (int h = 1; aok && h <= acfg.harmonics && h * fm <= bw; h++) {
+        excl[nex++] = f_car + h * fm;
+        excl[nex++] = f_car - h * fm;
+    }
+    for (int h = 1; aok && h <= acfg.hum_harmonics; h++) {
+        excl[nex++] = f_car + h * au.mains_hz;
+        excl[nex++] = f_car - h * au.mains_hz;
+    }
+    double nd = 0;
+    double cnr = NAN;
+    if (ml_rf_noise_density(rf, f_car - bw, f_car + bw, excl, nex, &nd) == ML_OK && nd > 0) {
+        const double nbins_ch = 2 * bw / (rate / (double)rc_cfg.nfft);
+        cnr = 10 * log10(p_car / (nd * nbins_ch));
+    }
+    ml_measure_add(rep, "carrier.cnr_db", cnr);
+    ml_measure_add(rep, "carrier.cnr_bandwidth_hz", 2 * bw);
+
+    const double emax = ar.emax;
+    /* a pinch-off or reversal event means the envelope did reach zero: it is then no noise spike */
+    const double emin = ar.pinch_events + ar.reversal_events > 0 ? fmin(ar.emin, ar.emin_abs) : ar.emin;
+    const double m_env = emax + emin > 0 ? (emax - emin) / (emax + emin) : NAN;
+    double m_spec = NAN, asym = NAN;
+    if (aok && a_car > 0) {
+        const double au_ = ml_rf_amplitude(rf, f_car + fm), al_ = ml_rf_amplitude(rf, f_car - fm);
+        m_spec = (au_ + al_) / a_car;
+        if (au_ > 0 && al_ > 0)
+            asym = 20 * log10(au_ / al_);
+    }
+    ml_measure_add(rep, "modulation.index", m_env);
+    ml_measure_add(rep, "modulation.index_spectral", m_spec);
+    ml_measure_add(rep, "modulation.positive_peak_pct", 100 * (emax - c) / c);
+    ml_measure_add(rep, "modulation.negative_peak_pct", 100 * (c - emin) / c);
+    ml_measure_add(rep, "modulation.carrier_shift_pct",
+                   c_known && ar.modulated_samples > 0 ? 100 * (ar.mean_modulated - c) / c : NAN);
+    ml_measure_add(rep, "modulation.overmodulation_pct", 100 * ml_am_fraction_below(am, ac_cfg.pinch_rel * c));
+    ml_measure_add(rep, "modulation.pinch_off_events", (double)(ar.pinch_events + ar.reversal_events));
+    ml_measure_add(rep, "modulation.carrier_pinch_events", (double)ar.pinch_events);
+    ml_measure_add(rep, "modulation.phase_reversal_events", (double)ar.reversal_events);
+    ml_measure_add(rep, "modulation.positive_peaks_over_limit", (double)ar.positive_over);
+    ml_measure_add(rep, "modulation.sideband_asymmetry_db", asym);
+    ml_measure_add(rep, "modulation.envelope_thd_pct", aok ? ml_ratio_pct(au.distortion_power, au.fundamental_power) : NAN);
+    ml_measure_add(rep, "modulation.hum_db", aok ? ml_power_dbfs(au.hum_power) : NAN);
+    ml_measure_add(rep, "modulation.noise_db", aok ? ml_power_dbfs(au.noise_power) : NAN);
+    if (ar.has_trapezoid) {
+        ml_measure_add(rep, "modulation.trapezoid_deviation_pct", 100 * ar.trap_residual_rms / c);
+    } else if (o->reference_channel > 0) {
+        ml_measure_add(rep, "modulation.trapezoid_deviation_pct", NAN);
+        ml_report_note(rep, "the reference channel is silent: no trapezoid");
+    }
+    double lo, hi;
+    ml_measure_add(rep, "spectrum.occupied_bandwidth_hz",
+                   ml_rf_occupied_bandwidth(rf, 0.99, &lo, &hi) == ML_OK ? hi - lo : NAN);
+    if (o->limits && o->limits->has_mask) {
+        double margin, woff;
+        /* the mask refers to the unmodulated carrier's power [cfr 73.44] */
+        st = ml_rf_mask_margin(rf, f_car, c * c * fsp, &o->limits->mask, &margin, &woff);
+        ml_measure_add(rep, "spectrum.mask_margin_db", st == ML_OK ? margin : NAN);
+        ml_measure_add(rep, "spectrum.mask_worst_offset_hz", st == ML_OK ? woff : NAN);
+        if (st != ML_OK)
+            ml_report_note(rep, "the emission mask lies outside the captured band (+-%.0f Hz around the carrier)",
+                           iq ? nyq - fabs(f_car) : fmin(f_car, nyq - f_car));
+    }
+    ml_measure_add_audio(rep, &au, aok);
+    ml_measure_add(rep, "audio.clipped_samples", (double)(stats[0].clipped + stats[1].clipped));
+    double cap_ms = 0;
+    uint64_t cap_n = 0;
+    double peak = 0;
+    for (int i = 0; i < (iq ? 2 : 1); i++) {
+        cap_ms += stats[i].sumsq;
+        cap_n += stats[i].count;
+        peak = fmax(peak, fmax(fabs(stats[i].min), fabs(stats[i].max)));
+    }
+    ml_measure_add(rep, "capture.rms_dbfs", cap_n ? 10 * log10(fmax(cap_ms / (double)cap_n, 1e-30) / 0.5) : NAN);
+    ml_measure_add(rep, "capture.peak_dbfs", peak > 0 ? 20 * log10(peak) : NAN);
+    ml_measure_add(rep, "capture.dc_offset_pct", 100 * ml_stats_mean(&stats[0]));
+
+    ml_report_add_text(rep, "modulation.carrier_reference", cref);
+    const char *over = ar.reversal_events > ar.pinch_events ? "phase reversal"
+                       : ar.pinch_events > 0               ? "carrier pinch-off"
+                                                           : "none";
+    ml_report_add_text(rep, "modulation.overmodulation_kind", over);
+    snprintf(rep->analysis, sizeof rep->analysis,
+             "carrier %.1f Hz, channel filter +-%.0f Hz (%zu-sample delay), %s window, %zu-point FFT%s, "
+             "peak hold %.3g ms/s",
+             f_car, bw, ml_am_latency(am), ml_window_name(o->window), rc_cfg.nfft,
+             mod_only ? " over modulated stretches" : "", o->peak_hold_ms);
+    if (!c_known)
+        ml_report_note(rep, "no unmodulated carrier in the capture: peaks are relative to the mean envelope and "
+                            "carrier shift is not measured (give --carrier-reference, or include a carrier-only "
+                            "stretch)");
+    if (isfinite(m_env) && isfinite(m_spec) && fabs(m_env - m_spec) > INDEX_TOLERANCE)
+        ml_report_note(rep,
+                       "envelope and spectral modulation index disagree by %.3f (more than %.2f): the modulation is "
+                       "not a single clean tone, or it is distorted or over 100 %%",
+                       fabs(m_env - m_spec), INDEX_TOLERANCE);
+    if (ar.pinch_events + ar.reversal_events > 0)
+        ml_report_note(rep, "overmodulation: %llu carrier pinch-off and %llu phase-reversal events",
+                       (unsigned long long)ar.pinch_events, (unsigned long long)ar.reversal_events);
+    if (stats[0].clipped + stats[1].clipped > 0)
+        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
+                       (unsigned long long)(stats[0].clipped + stats[1].clipped));
+done:
+    free(buf);
+    free(ref);
+    free(mono);
+    free(z);
+    free(out.env);
+    free(out.in);
+    free(out.modulated);
+    ml_am_destroy(am);
+    ml_spectrum_destroy(rf);
+    ml_spectrum_destroy(aud);
+    return rc;
+}

@@ -1,0 +1,115 @@
+/* AM demodulation and envelope statistics, streamed in blocks with constant memory.
+ * SPDX-License-Identifier: MIT
+ *
+ * The input (a real IF signal, or complex I/Q) is mixed to 0 Hz with carrier_hz, channel-filtered
+ * by a linear-phase low-pass of one-sided width bandwidth_hz (dsp/cfir.h), and its magnitude is
+ * the envelope e[n] (for real input the mixer output is doubled, so e equals the carrier's
+ * amplitude). A carrier offset left by the mixer only rotates the baseband, so e does not depend on
+ * it. The object keeps, over the whole input:
+ *  - sums for the mean envelope, over all samples and separately over "quiet" and "modulated"
+ *    blocks: the envelope is cut into blocks of block_s; a block is quiet (unmodulated carrier)
+ *    when the standard deviation of its envelope is below quiet_rel times its mean and its mean is
+ *    above 5 % of carrier_ref (a missing carrier is not a quiet carrier);
+ *  - histograms of the envelope, 4-times oversampled by cubic (Catmull-Rom) interpolation so
+ *    that peaks between samples are not lost, over all blocks and over modulated blocks, from 0
+ *    to 4 * carrier_ref in 65536 bins; peak readings are quantiles of these (see get_result);
+ *  - overmodulation events, from "low runs" (stretches below 10 % of carrier_ref): a run after
+ *    which the carrier phase differs by more than 90 degrees from before it is a phase reversal
+ *    (the envelope passed through zero); otherwise a run whose oversampled envelope reached below
+ *    pinch_rel * carrier_ref is a carrier pinch-off. A reversal too fast for any sample to fall
+ *    in a run shows as a phase jump of more than 90 degrees between consecutive samples both
+ *    below 50 % of carrier_ref, and counts as well;
+ *  - excursions above (1 + positive_limit_pct/100) * carrier_ref (hysteresis pinch_rel);
+ *  - with a reference channel (the modulating audio a[n], delayed internally to line up with the
+ *    envelope): the least-squares line e = intercept + slope * a and its RMS residual (the
+ *    trapezoid's straightness).
+ * The first latency() input samples only fill the channel filter and produce no envelope; the last
+ * latency() samples never leave it.
+ *
+ * Output: envelope samples come out a block at a time, once their block is classified, together
+ * with the input sample each one belongs to (delayed to line up) and the block's class (1 =
+ * modulated, 0 = quiet), so that the caller can analyse modulated and unmodulated stretches apart.
+ */
+#ifndef ML_DSP_AM_H
+#define ML_DSP_AM_H
+
+#include <complex.h>
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "dsp/status.h"
+
+typedef struct ml_am ml_am;
+
+typedef struct {
+    double rate_hz;            /* sample rate: > 0                                               */
+    bool complex_input;        /* false: real IF samples; true: I/Q                                */
+    double carrier_hz;         /* mixing frequency; |carrier_hz| < rate_hz / 2 (>= 0 for real)   */
+    double bandwidth_hz;       /* one-sided channel (audio) bandwidth: > 0                         */
+    double transition_hz;      /* channel filter transition width: > 0                             */
+    double carrier_ref;        /* provisional unmodulated carrier amplitude: > 0 (thresholds,
+                                  histogram range); the caller refines C afterwards                */
+    double hold_s;             /* peak hold: 0 < hold_s < 0.5 (default 0.001)                      */
+    double block_s;            /* quiet/modulated classification block (default 0.02)             */
+    double quiet_rel;          /* quiet when std/mean < quiet_rel (default 0.02)                   */
+    double pinch_rel;          /* pinch-off level, fraction of carrier_ref (default 0.01)          */
+    double positive_limit_pct; /* positive peak limit for counting excursions (default 125)        */
+    bool has_reference;        /* a reference channel is pushed alongside                         */
+} ml_am_config;
+
+typedef struct {
+    uint64_t samples;          /* envelope samples produced                                       */
+    double mean_all;           /* mean envelope over all samples                                  */
+    double mean_modulated;     /* over modulated blocks (0 when none)                             */
+    double mean_quiet;         /* over quiet blocks (0 when none)                                 */
+    uint64_t modulated_samples, quiet_samples;
+    double emax, emin;         /* peak readings: the levels the envelope exceeds (emax) and stays
+                                  under (emin) for a share hold_s per second of the modulated
+                                  blocks (all blocks when none is modulated)                       */
+    double emax_abs, emin_abs; /* absolute extremes of the oversampled envelope                   */
+    uint64_t pinch_events;     /* carrier pinch-off events                                        */
+    uint64_t reversal_events;  /* phase-reversal events (zero crossings of the signed envelope)   */
+    uint64_t positive_over;    /* excursions above the positive limit                             */
+    bool has_trapezoid;        /* reference given and it varied                                   */
+    double trap_slope, trap_intercept, trap_residual_rms, trap_ref_rms;
+} ml_am_result;
+
+ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double carrier_hz,
+                                  double bandwidth_hz, double carrier_ref);
+
+/* Designs the channel filter and allocates everything. ML_EINVAL | ML_ENOMEM | ML_EFFT.
+ * Not thread-safe (FFTW planner). */
+ml_status ml_am_create(const ml_am_config *cfg, ml_am **out);
+void ml_am_destroy(ml_am *q);
+void ml_am_reset(ml_am *q);
+size_t ml_am_latency(const ml_am *q);
+
+/* Output arrays of one push or finish: env[cap] envelope, in[cap] the input sample it belongs
+ * to, modulated[cap] its block's class; *count gets the number written. */
+typedef struct {
+    double *env;
+    double complex *in;
+    unsigned char *modulated;
+    size_t cap;
+} ml_am_output;
+
+/* Capacity an output needs for a push of n samples (n plus one block). */
+size_t ml_am_output_cap(const ml_am *q, size_t n);
+
+/* Pushes n input samples z[n] (for real input the imaginary parts must be 0) and, when
+ * has_reference, ref[n] (else NULL). Writes the samples whose block completed to out and their
+ * count to *count. ML_EINVAL when out->cap < ml_am_output_cap(q, n). Never allocates. */
+ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
+                     size_t *count);
+
+/* Classifies and releases the last partial block (call once at the end, before get_result);
+ * out->cap must be at least ml_am_output_cap(q, 0). */
+ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count);
+
+ml_status ml_am_get_result(const ml_am *q, ml_am_result *out);
+
+/* Share (0..1) of all envelope time spent below level (same units as the envelope). */
+double ml_am_fraction_below(const ml_am *q, double level);
+
+#endif

@@ -1,0 +1,151 @@
+"""Shared helpers of the modlens end-to-end tests (run with Debian's /usr/bin/python3).
+
+Each test script imports this module, generates its inputs with numpy + soundfile into a
+temporary directory (fixed seeds), runs the modlens executable given as argv[1] and prints one
+line per check. The script exits 0 when every check passed, 1 otherwise.
+"""
+import json
+import math
+import os
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+import soundfile as sf
+
+# Every modlens run is a few tens of milliseconds; a hang is a failure, not a reason to wait.
+RUN_TIMEOUT_S = 60
+
+
+class Checker:
+    """Counts checks, prints one line each, and turns failures into the exit status."""
+
+    def __init__(self, title):
+        self.title = title
+        self.failed = []
+        self.count = 0
+
+    def check(self, name, ok, detail=""):
+        self.count += 1
+        line = "%s %s" % ("PASS" if ok else "FAIL", name)
+        if detail:
+            line += ": " + detail
+        print(line, flush=True)
+        if not ok:
+            self.failed.append(name)
+        return ok
+
+    def close(self, name, got, want, tol, reason=""):
+        """|got - want| <= tol; got may be None (a null in the report), which fails."""
+        ok = got is not None and isinstance(got, (int, float)) and math.isfinite(got) \
+            and abs(got - want) <= tol
+        detail = "got %r, want %.9g +- %.3g" % (got, want, tol)
+        if reason:
+            detail += " (" + reason + ")"
+        return self.check(name, ok, detail)
+
+    def rel(self, name, got, want, rtol, reason=""):
+        """|got / want - 1| <= rtol."""
+        return self.close(name, got, want, abs(want) * rtol, reason)
+
+    def finish(self):
+        print("%s: %d checks, %d failed%s" % (self.title, self.count, len(self.failed),
+                                             (": " + ", ".join(self.failed)) if self.failed else ""))
+        sys.exit(1 if self.failed else 0)
+
+
+def modlens_path():
+    if len(sys.argv) < 2:
+        sys.exit("usage: %s /path/to/modlens" % sys.argv[0])
+    p = os.path.abspath(sys.argv[1])
+    if not os.access(p, os.X_OK):
+        sys.exit("%s: not an executable" % p)
+    return p
+
+
+def scratch():
+    """A temporary directory (removed by the caller's `with`) that is also the working dir."""
+    d = tempfile.TemporaryDirectory(prefix="modlens-e2e-")
+    os.chdir(d.name)
+    return d
+
+
+def run(exe, args):
+    """Runs `exe measure args...`; returns (exit status, stdout text, stderr text)."""
+    p = subprocess.run([exe, "measure"] + [str(a) for a in args], capture_output=True,
+                       timeout=RUN_TIMEOUT_S)
+    return p.returncode, p.stdout.decode("utf-8", "replace"), p.stderr.decode("utf-8", "replace")
+
+
+def run_json(exe, args):
+    """Runs with --format json; returns (status, parsed report or None, stdout, stderr)."""
+    rc, out, err = run(exe, ["--format", "json"] + list(args))
+    try:
+        rep = json.loads(out)
+    except ValueError:
+        rep = None
+    return rc, rep, out, err
+
+
+def get(rep, dotted):
+    """rep["a"]["b"] for "a.b"; KeyError when a component is missing."""
+    v = rep
+    for part in dotted.split("."):
+        v = v[part]
+    return v
+
+
+def has(rep, dotted):
+    try:
+        get(rep, dotted)
+        return True
+    except (KeyError, TypeError):
+        return False
+
+
+def dbfs(amplitude):
+    """Level of a sine of this peak amplitude: a full-scale sine (power 0.5) is 0 dBFS."""
+    return 20.0 * math.log10(amplitude)
+
+
+def synth(fs, seconds, parts, noise_rms=0.0, dc=0.0, seed=1):
+    """Sum of sines [(freq_hz, amplitude, phase_rad), ...] + DC + white Gaussian noise."""
+    n = int(round(fs * seconds))
+    t = np.arange(n) / fs
+    x = np.full(n, float(dc))
+    for f, a, ph in parts:
+        x += a * np.sin(2.0 * np.pi * f * t + ph)
+    if noise_rms > 0:
+        x += np.random.default_rng(seed).normal(0.0, noise_rms, n)
+    return x
+
+
+def write(path, x, fs, subtype, fmt=None):
+    sf.write(path, x, fs, subtype=subtype, format=fmt)
+    return path
+
+
+def quantisation_var(subtype):
+    """Variance of rounding to the stored resolution (uniform error, LSB^2/12) for full scale
+    +-1 (LSB = 2^(1-bits)); float files are taken as exact at the levels used here."""
+    bits = {"PCM_16": 16, "PCM_24": 24, "PCM_32": 32}.get(subtype)
+    if bits is None:
+        return 0.0
+    lsb = 2.0 ** (1 - bits)
+    return lsb * lsb / 12.0
+
+
+def finite_json_text(text):
+    """True when the JSON text has no NaN/Infinity tokens (which are not JSON)."""
+    bad = []
+
+    def reject(tok):
+        bad.append(tok)
+        return None
+
+    try:
+        json.loads(text, parse_constant=reject)
+    except ValueError:
+        return False
+    return not bad
