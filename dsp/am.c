@@ -26,7 +26,9 @@ struct ml_am {
     ml_am_config cfg;
     ml_cfir *filter;
     size_t latency;
+    size_t startup;          /* half the filter: envelope before it comes from a part-filled filter */
     uint64_t in_count;       /* input samples pushed                                   */
+    bool finished;           /* finish was called: no more pushes until reset          */
     double complex mixed[CHUNK], filtered[CHUNK];
     /* delay lines of latency + 1 samples: reference channel and input */
     float *ref_ring;
@@ -107,6 +109,7 @@ ml_status ml_am_create(const ml_am_config *cfg, ml_am **out)
         return st;
     }
     q->latency = ml_cfir_latency(q->filter);
+    q->startup = (ml_cfir_ntaps(q->filter) - 1) / 2;
     q->block_len = block_len;
     q->pending = malloc(OVERSAMPLE * block_len * sizeof *q->pending);
     q->hist_all = malloc(HIST_BINS * sizeof *q->hist_all);
@@ -152,6 +155,7 @@ void ml_am_reset(ml_am *q)
         return;
     ml_cfir_reset(q->filter);
     q->in_count = 0;
+    q->finished = false;
     q->produced = 0;
     q->ref_pos = 0;
     if (q->ref_ring)
@@ -303,7 +307,12 @@ static void envelope_sample(ml_am *q, double complex y, double complex x, double
 
 size_t ml_am_output_cap(const ml_am *q, size_t n)
 {
-    return q ? n + q->block_len : 0;
+    return q ? n + q->block_len + (q->latency - q->startup) : 0;
+}
+
+size_t ml_am_edge(const ml_am *q)
+{
+    return q ? q->startup : 0;
 }
 
 static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
@@ -312,15 +321,10 @@ static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
            && out->cap >= ml_am_output_cap(q, n);
 }
 
-ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
-                     size_t *count)
+/* Runs n input samples (z == NULL: zeros, for the final flush) through mixer, filter and delay
+ * lines, and the clean outputs through envelope_sample. */
+static ml_status process(ml_am *q, const double complex *z, const float *ref, size_t n)
 {
-    if (q == NULL || count == NULL || !output_ok(q, out, n) || (n > 0 && z == NULL)
-        || (q->cfg.has_reference && n > 0 && ref == NULL))
-        return ML_EINVAL;
-    *count = 0;
-    q->out = out;
-    q->out_count = count;
     const double f = q->cfg.carrier_hz / q->cfg.rate_hz;
     const double gain = q->cfg.complex_input ? 1.0 : 2.0;
     size_t done = 0;
@@ -331,7 +335,7 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
         double complex rot = cexp(-2.0 * ML_PI * I * cyc) * gain;
         const double complex step = cexp(-2.0 * ML_PI * I * f);
         for (size_t i = 0; i < m; i++) {
-            q->mixed[i] = z[done + i] * rot;
+            q->mixed[i] = z ? z[done + i] * rot : 0.0;
             rot *= step;
         }
         ml_status st = ml_cfir_push(q->filter, q->mixed, m, q->filtered);
@@ -343,35 +347,55 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
             const size_t old = (q->ref_pos + 1) % q->ref_len;
             float a = 0.0f;
             if (q->cfg.has_reference) {
-                q->ref_ring[q->ref_pos] = ref[done + i];
+                q->ref_ring[q->ref_pos] = ref ? ref[done + i] : 0.0f;
                 a = q->ref_ring[old];
             }
-            q->in_ring[q->ref_pos] = z[done + i];
+            q->in_ring[q->ref_pos] = z ? z[done + i] : 0.0;
             const double complex x = q->in_ring[old];
             q->ref_pos = old;
-            if (t < q->latency)
+            /* output t is input t - latency; it is only clean once the filter's past half holds
+             * input, i.e. from input index startup on */
+            if (t < q->latency + q->startup)
                 continue;
             envelope_sample(q, q->filtered[i], x, a);
         }
         q->in_count += m;
         done += m;
     }
-    q->out = NULL;
-    q->out_count = NULL;
     return ML_OK;
 }
 
-ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count)
+ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
+                     size_t *count)
 {
-    if (q == NULL || count == NULL || !output_ok(q, out, 0))
+    if (q == NULL || count == NULL || !output_ok(q, out, n) || (n > 0 && z == NULL)
+        || (q->cfg.has_reference && n > 0 && ref == NULL) || q->finished)
         return ML_EINVAL;
     *count = 0;
     q->out = out;
     q->out_count = count;
-    end_block(q);
+    ml_status st = process(q, z, ref, n);
     q->out = NULL;
     q->out_count = NULL;
-    return ML_OK;
+    return st;
+}
+
+ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count)
+{
+    if (q == NULL || count == NULL || !output_ok(q, out, 0) || q->finished)
+        return ML_EINVAL;
+    *count = 0;
+    q->out = out;
+    q->out_count = count;
+    /* Flush: latency - startup zeros bring out the envelope of the inputs up to n - startup - 1,
+     * the last whose filter window lies wholly inside the input; later ones would see the zeros. */
+    ml_status st = process(q, NULL, NULL, q->latency - q->startup);
+    if (st == ML_OK)
+        end_block(q);
+    q->finished = true;
+    q->out = NULL;
+    q->out_count = NULL;
+    return st;
 }
 
 /* Level below which a share p of the histogram's mass lies (linear within a bin). */

@@ -23,8 +23,11 @@
  *  - with a reference channel (the modulating audio a[n], delayed internally to line up with the
  *    envelope): the least-squares line e = intercept + slope * a and its RMS residual (the
  *    trapezoid's straightness).
- * The first latency() input samples only fill the channel filter and produce no envelope; the last
- * latency() samples never leave it.
+ * The first and the last edge() = (ntaps - 1) / 2 input samples (half the channel filter) produce
+ * no envelope: there the filter's window reaches beyond the input, so its output is a start-up or
+ * ending transient that no statistic should see. An input of n samples therefore gives
+ * n - 2 edge() envelope samples, belonging to inputs edge() .. n - edge() - 1; all but the last
+ * latency() - edge() of them come out of the pushes, the rest out of finish.
  *
  * Output: envelope samples come out a block at a time, once their block is classified, together
  * with the input sample each one belongs to (delayed to line up) and the block's class (1 =
@@ -83,7 +86,11 @@ ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double car
 ml_status ml_am_create(const ml_am_config *cfg, ml_am **out);
 void ml_am_destroy(ml_am *q);
 void ml_am_reset(ml_am *q);
+/* Delay in samples from an input sample to its envelope sample (the channel filter's latency,
+ * dsp/cfir.h); 0 for NULL. */
 size_t ml_am_latency(const ml_am *q);
+/* Input samples at each end that produce no envelope (see above); 0 for NULL. */
+size_t ml_am_edge(const ml_am *q);
 
 /* Output arrays of one push or finish: env[cap] envelope, in[cap] the input sample it belongs
  * to, modulated[cap] its block's class; *count gets the number written. */
@@ -94,7 +101,8 @@ typedef struct {
     size_t cap;
 } ml_am_output;
 
-/* Capacity an output needs for a push of n samples (n plus one block). */
+/* Capacity an output needs for a push of n samples: n plus one block plus latency() - edge()
+ * (what finish flushes); finish needs ml_am_output_cap(q, 0). */
 size_t ml_am_output_cap(const ml_am *q, size_t n);
 
 /* Pushes n input samples z[n] (for real input the imaginary parts must be 0) and, when
@@ -103,7 +111,8 @@ size_t ml_am_output_cap(const ml_am *q, size_t n);
 ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
                      size_t *count);
 
-/* Classifies and releases the last partial block (call once at the end, before get_result);
+/* Flushes the channel filter, classifies and releases the last partial block. Call once at the
+ * end, before get_result; afterwards push and finish return ML_EINVAL until reset.
  * out->cap must be at least ml_am_output_cap(q, 0). */
 ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count);
 

@@ -42,7 +42,8 @@ ml_cfir_config ml_cfir_config_default(double rate_hz, double cutoff_hz);
  * max(stop_db, 60) + 1 dB: 60 dB keeps the passband ripple under 0.01 dB, and the 1 dB covers
  * the Kaiser beta formula's small shortfall. ML_EINVAL (bad or NULL cfg, or a spec needing more
  * than ML_CFIR_MAX_TAPS taps) | ML_ENOMEM | ML_EFFT leave *out NULL. out must not be NULL.
- * Not thread-safe (FFTW planner). Takes tens of ms for thousands of taps. */
+ * Not thread-safe (FFTW planner). Takes a few ms for thousands of taps, about 0.5 s near the
+ * maximum. Memory: 3 complex buffers of nfft < 8 * ntaps samples, plus the taps. */
 ml_status ml_cfir_create(const ml_cfir_config *cfg, ml_cfir **out);
 
 void ml_cfir_destroy(ml_cfir *q); /* NULL is a no-op */

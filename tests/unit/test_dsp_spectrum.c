@@ -11,6 +11,7 @@
  *     to better than 0.01 Hz on a 10 s clean capture.
  */
 #include <check.h>
+#include <complex.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -497,7 +498,8 @@ START_TEST(frequency_of_clean_tone)
         double *p = get_psd(q), hz = 0.0;
         size_t kp = argmax(p, ml_spectrum_nbins(q));
         ck_assert_int_eq(ml_spectrum_get_frequency(q, kp, &hz), ML_OK);
-        ck_assert_msg(fabs(hz - f[i]) < 1e-4, "f %.6f Hz: estimate %.9f Hz (error %.3g Hz)", f[i], hz, hz - f[i]);
+        ck_assert_msg(fabs(hz - f[i]) < 1e-4, "f %.6f Hz: estimate %.9f Hz (error %.3g Hz)", f[i], hz,
+                      hz - f[i]);
         /* The neighbouring bin on the tone's side is also inside the lobe and must agree when
          * the tone lies strictly between the two (with hop = nfft/2 the phase advance is
          * unambiguous only for offsets below 1 bin; a bin-centred tone is 1 bin from both
@@ -535,6 +537,286 @@ START_TEST(frequency_single_segment_fallback)
 }
 END_TEST
 
+/* ---- complex (I/Q) input -------------------------------------------------------------------- */
+
+static ml_spectrum *make_cplx(size_t nfft, size_t hop)
+{
+    ml_spectrum_config c = {.nfft = nfft, .hop = hop, .window = ML_WINDOW_HFT248D, .rate_hz = FS,
+                            .complex_input = 1};
+    ml_spectrum *q = NULL;
+    ck_assert_int_eq(ml_spectrum_create(&c, &q), ML_OK);
+    return q;
+}
+
+/* z[i] = a exp(i (2 pi f i / fs + phase)), f may be negative. */
+static double complex *cexp_tone(size_t n, double a, double f_hz, double phase)
+{
+    double complex *z = malloc(n * sizeof *z);
+    ck_assert_ptr_nonnull(z);
+    for (size_t i = 0; i < n; i++)
+        z[i] = a * cexp(I * (2.0 * TS_PI * f_hz * (double)i / FS + phase));
+    return z;
+}
+
+START_TEST(complex_input_layout_and_entry_points)
+{
+    /* dsp/spectrum.h: complex input has nfft bins in FFT order, full-scale power 1, bin k >= nfft/2
+     * at (k - nfft) rate/nfft; real entry points are refused and vice versa. 48000/1024 = 46.875 Hz
+     * is exact in binary, so the bin frequencies compare exactly. */
+    ml_spectrum *c = make_cplx(1024, 512);
+    ml_spectrum *r = make(1024, 512, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_is_complex(c), 1);
+    ck_assert_int_eq(ml_spectrum_is_complex(r), 0);
+    ck_assert_uint_eq(ml_spectrum_nbins(c), 1024);
+    ck_assert_uint_eq(ml_spectrum_nbins(r), 513);
+    ck_assert_double_eq(ml_spectrum_full_scale_power(c), 1.0);
+    ck_assert_double_eq(ml_spectrum_full_scale_power(r), 0.5);
+    ck_assert_double_eq(ml_spectrum_bin_hz(c, 3), 3 * 46.875);
+    ck_assert_double_eq(ml_spectrum_bin_hz(c, 511), 511 * 46.875);
+    ck_assert_double_eq(ml_spectrum_bin_hz(c, 512), -24000.0);
+    ck_assert_double_eq(ml_spectrum_bin_hz(c, 1023), -46.875);
+    ck_assert_double_eq(ml_spectrum_bin_hz(r, 512), 24000.0);
+    ck_assert_double_eq(ml_spectrum_bin_hz(NULL, 3), 0.0);
+    float xf[4] = {0};
+    double xd[4] = {0};
+    double complex xz[4] = {0};
+    ck_assert_int_eq(ml_spectrum_push(c, xf, 4), ML_EINVAL);
+    ck_assert_int_eq(ml_spectrum_push_double(c, xd, 4), ML_EINVAL);
+    ck_assert_int_eq(ml_spectrum_push_tagged(c, xd, NULL, 4), ML_EINVAL);
+    ck_assert_int_eq(ml_spectrum_push_complex(r, xz, 4), ML_EINVAL);
+    ck_assert_int_eq(ml_spectrum_push_complex_tagged(r, xz, NULL, 4), ML_EINVAL);
+    ck_assert_int_eq(ml_spectrum_push_complex(c, NULL, 4), ML_EINVAL);
+    ck_assert_int_eq(ml_spectrum_push_complex(c, xz, 4), ML_OK);
+    ml_spectrum_config d = ml_spectrum_config_default(FS);
+    ck_assert_int_eq(d.complex_input, 0); /* real input unless asked */
+    ml_spectrum_destroy(c);
+    ml_spectrum_destroy(r);
+}
+END_TEST
+
+START_TEST(complex_exponential_power_and_frequency)
+{
+    /* A complex exponential of amplitude A has power A^2 (full scale 1). Parseval for complex
+     * input: sum_k |X_k|^2 = N sum |z|^2 w^2 = N A^2 sum w^2, so sum_k psd[k] / ENBW = A^2
+     * exactly (unlike a real sine there is no 2f term); the +-lobe bins hold all but the
+     * -248 dB sidelobes. Input is double: 1e-9 relative covers rounding of the 4096-term sums.
+     * The tone must sit on its own side: the mirror bin (N - k) holds only sidelobe leakage
+     * (< -200 dB re the peak). Frequency from the phase advance as for real input: better than
+     * 1e-6 Hz (exact for a stationary tone up to rounding, see frequency_of_clean_tone), for a
+     * positive and a negative frequency. */
+    enum { nfft = 4096, n = 8 * nfft };
+    const double a = 0.7, f[] = {1000.3, -3000.7};
+    for (size_t t = 0; t < 2; t++) {
+        double complex *z = cexp_tone(n, a, f[t], 0.4);
+        ml_spectrum *q = make_cplx(nfft, nfft / 2);
+        ck_assert_int_eq(ml_spectrum_push_complex(q, z, n), ML_OK);
+        double *p = get_psd(q), enbw = ml_spectrum_enbw_bins(q);
+        size_t kp = argmax(p, nfft), lobe = ml_spectrum_lobe_bins(q);
+        double all = 0.0, inlobe = 0.0;
+        for (size_t k = 0; k < nfft; k++)
+            all += p[k];
+        for (size_t j = 0; j <= 2 * lobe; j++)
+            inlobe += p[(kp + nfft - lobe + j) % nfft];
+        ck_assert_double_eq_tol(all / enbw, a * a, 1e-9 * a * a);
+        ck_assert_double_eq_tol(inlobe / enbw, a * a, 1e-9 * a * a);
+        ck_assert_msg((f[t] > 0) == (kp < nfft / 2), "tone %.1f Hz peaks in bin %zu", f[t], kp);
+        ck_assert_double_eq_tol(ml_spectrum_bin_hz(q, kp), f[t], FS / nfft);
+        ck_assert_msg(p[(nfft - kp) % nfft] < 1e-20 * p[kp], "image of %.1f Hz: %.3g", f[t], p[nfft - kp]);
+        double hz = 0.0;
+        ck_assert_int_eq(ml_spectrum_get_frequency(q, kp, &hz), ML_OK);
+        ck_assert_msg(fabs(hz - f[t]) < 1e-6, "f %.4f Hz: estimate %.9f Hz", f[t], hz);
+        free(p);
+        free(z);
+        ml_spectrum_destroy(q);
+    }
+}
+END_TEST
+
+START_TEST(complex_block_invariance_and_reset)
+{
+    /* As block_invariance, for push_complex: blocks of 1, 7, 4096 give the same PSD (1e-12
+     * relative; measured bit-identical), and reset returns to the created state. */
+    enum { nfft = 1024, hop = 384, n = 20000 };
+    double complex *z = cexp_tone(n, 0.5, -7000.0, 0.0);
+    ts_rng r = {99};
+    for (size_t i = 0; i < n; i++)
+        z[i] += 0.01 * (ts_gauss(&r) + I * ts_gauss(&r));
+    ml_spectrum *ref = make_cplx(nfft, hop);
+    ck_assert_int_eq(ml_spectrum_push_complex(ref, z, n), ML_OK);
+    double *pr = get_psd(ref);
+    const size_t blocks[] = {1, 7, 4096};
+    for (size_t b = 0; b < 3; b++) {
+        ml_spectrum *q = make_cplx(nfft, hop);
+        float dummy = 0.0f;
+        ck_assert_int_eq(ml_spectrum_push(q, &dummy, 0), ML_EINVAL); /* refused even when empty */
+        for (size_t i = 0; i < n; i += blocks[b]) {
+            size_t m = n - i < blocks[b] ? n - i : blocks[b];
+            ck_assert_int_eq(ml_spectrum_push_complex(q, z + i, m), ML_OK);
+        }
+        ck_assert_uint_eq(ml_spectrum_segments(q), ml_spectrum_segments(ref));
+        double *p = get_psd(q);
+        for (size_t k = 0; k < nfft; k++)
+            ck_assert_double_eq_tol(p[k], pr[k], 1e-12 * pr[k]);
+        free(p);
+        /* reset, then the same data again: identical to the reference */
+        ml_spectrum_reset(q);
+        ck_assert_uint_eq(ml_spectrum_segments(q), 0);
+        ck_assert_int_eq(ml_spectrum_push_complex(q, z, n), ML_OK);
+        p = get_psd(q);
+        ck_assert_mem_eq(p, pr, nfft * sizeof *p);
+        free(p);
+        ml_spectrum_destroy(q);
+    }
+    free(pr);
+    free(z);
+    ml_spectrum_destroy(ref);
+}
+END_TEST
+
+/* ---- tagged (selected) segments ------------------------------------------------------------- */
+
+enum { TG_NFFT = 64, TG_HOP = 32, TG_N = 700 };
+
+/* Tone at 16.3 bins (12225 Hz at 750 Hz per bin) plus faint noise (sigma 1e-9, so that no bin
+ * is empty), in double. */
+static void tagged_signal(double *x, unsigned char *tag)
+{
+    ts_rng r = {31337};
+    for (size_t i = 0; i < TG_N; i++)
+        x[i] = 1e-9 * ts_gauss(&r);
+    ts_add_sine(x, TG_N, 0.5, 16.3 * FS / TG_NFFT, FS, 0.0);
+    /* tagged: [0, 200) and [400, 600) */
+    for (size_t i = 0; i < TG_N; i++)
+        tag[i] = (i < 200) || (i >= 400 && i < 600);
+}
+
+START_TEST(tagged_segments_are_accumulated_separately)
+{
+    /* Segments start at multiples of hop = 32 and span 64 samples. Wholly tagged ones:
+     * in [0, 200): starts 0..128 (128 + 64 = 192 <= 200) = 5; in [400, 600): starts 416..512
+     * (512 + 64 = 576 <= 600; 544 + 64 > 600) = 4; total 9 of (700 - 64)/32 + 1 = 20.
+     * The selected sums must equal those of fresh objects fed x[0..191] and x[416..575] alone
+     * (the same segments), added: 1e-12 relative for the different order of additions.
+     * The frequency from selected segments pairs only consecutive selected ones (never 128 with
+     * 416), so the tone still reads its frequency. Error budget: the noise-to-tone amplitude
+     * ratio in the peak bin, ~1e-9 / 0.5 * sqrt(2 ENBW / nfft) = 8e-10, over 7 pairs, gives a phase
+     * error ~3e-10 rad, i.e. ~1e-7 Hz (fs / (2 pi hop) = 239 Hz per rad); 1e-5 Hz bound. A
+     * wrongly included pair 128 -> 416 (288 samples apart, phase 2 pi f 288 / fs, not
+     * 2 pi f 32 / fs) would shift the estimate by tens of Hz. */
+    static double x[TG_N];
+    static unsigned char tag[TG_N];
+    tagged_signal(x, tag);
+    ml_spectrum *q = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_use_selected(q, 1), ML_ENOSIGNAL); /* nothing selected yet */
+    ck_assert_int_eq(ml_spectrum_push_tagged(q, x, tag, TG_N), ML_OK);
+    ck_assert_uint_eq(ml_spectrum_segments(q), 20);
+    ck_assert_uint_eq(ml_spectrum_selected_segments(q), 9);
+
+    ml_spectrum *a = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ml_spectrum *b = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_push_double(a, x, 192), ML_OK);
+    ck_assert_int_eq(ml_spectrum_push_double(b, x + 416, 160), ML_OK);
+    ck_assert_uint_eq(ml_spectrum_segments(a), 5);
+    ck_assert_uint_eq(ml_spectrum_segments(b), 4);
+
+    ck_assert_int_eq(ml_spectrum_use_selected(q, 1), ML_OK);
+    ck_assert_uint_eq(ml_spectrum_segments(q), 9);
+    const double *s = ml_spectrum_sum(q), *sa = ml_spectrum_sum(a), *sb = ml_spectrum_sum(b);
+    for (size_t k = 0; k < TG_NFFT / 2 + 1; k++)
+        ck_assert_double_eq_tol(s[k], sa[k] + sb[k], 1e-12 * (sa[k] + sb[k]));
+    double psd[TG_NFFT / 2 + 1];
+    ck_assert_int_eq(ml_spectrum_get_psd(q, psd, TG_NFFT / 2 + 1), ML_OK);
+    for (size_t k = 0; k < TG_NFFT / 2 + 1; k++)
+        ck_assert_double_eq_tol(psd[k], (sa[k] + sb[k]) / 9.0, 1e-12 * psd[k]);
+    double hz = 0.0, f = 16.3 * FS / TG_NFFT;
+    ck_assert_int_eq(ml_spectrum_get_frequency(q, 16, &hz), ML_OK);
+    ck_assert_msg(fabs(hz - f) < 1e-5, "selected: %.9f Hz vs %.9f Hz", hz, f);
+
+    /* back to all segments */
+    ck_assert_int_eq(ml_spectrum_use_selected(q, 0), ML_OK);
+    ck_assert_uint_eq(ml_spectrum_segments(q), 20);
+    ml_spectrum *all = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_push_double(all, x, TG_N), ML_OK);
+    ck_assert_mem_eq(ml_spectrum_sum(q), ml_spectrum_sum(all), (TG_NFFT / 2 + 1) * sizeof(double));
+    ml_spectrum_destroy(all);
+    ml_spectrum_destroy(a);
+    ml_spectrum_destroy(b);
+    ml_spectrum_destroy(q);
+}
+END_TEST
+
+START_TEST(tagged_block_invariance_and_reset)
+{
+    /* Tags travel with their samples: blocks of 1, 7 and 4096 give the same selected sums
+     * (bit-identical: same operations in the same order). Reset clears the selection and the
+     * "use selected" switch (the object is as created). */
+    static double x[TG_N];
+    static unsigned char tag[TG_N];
+    tagged_signal(x, tag);
+    ml_spectrum *ref = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_push_tagged(ref, x, tag, TG_N), ML_OK);
+    ck_assert_int_eq(ml_spectrum_use_selected(ref, 1), ML_OK);
+    const size_t blocks[] = {1, 7, 4096};
+    for (size_t bi = 0; bi < 3; bi++) {
+        ml_spectrum *q = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+        for (size_t i = 0; i < TG_N; i += blocks[bi]) {
+            size_t m = TG_N - i < blocks[bi] ? TG_N - i : blocks[bi];
+            ck_assert_int_eq(ml_spectrum_push_tagged(q, x + i, tag + i, m), ML_OK);
+        }
+        ck_assert_uint_eq(ml_spectrum_selected_segments(q), 9);
+        ck_assert_int_eq(ml_spectrum_use_selected(q, 1), ML_OK);
+        ck_assert_mem_eq(ml_spectrum_sum(q), ml_spectrum_sum(ref), (TG_NFFT / 2 + 1) * sizeof(double));
+        double hz = 0.0, hz_ref = 0.0;
+        ck_assert_int_eq(ml_spectrum_get_frequency(q, 16, &hz), ML_OK);
+        ck_assert_int_eq(ml_spectrum_get_frequency(ref, 16, &hz_ref), ML_OK);
+        ck_assert_double_eq(hz, hz_ref);
+
+        ml_spectrum_reset(q);
+        ck_assert_uint_eq(ml_spectrum_selected_segments(q), 0);
+        ck_assert_uint_eq(ml_spectrum_segments(q), 0);
+        ck_assert_int_eq(ml_spectrum_use_selected(q, 1), ML_ENOSIGNAL);
+        /* untagged data after reset: getters read all segments again */
+        ck_assert_int_eq(ml_spectrum_push_double(q, x, TG_N), ML_OK);
+        ck_assert_uint_eq(ml_spectrum_segments(q), 20);
+        ck_assert_uint_eq(ml_spectrum_selected_segments(q), 0);
+        ml_spectrum_destroy(q);
+    }
+    ck_assert_int_eq(ml_spectrum_use_selected(NULL, 0), ML_EINVAL);
+    ml_spectrum_destroy(ref);
+}
+END_TEST
+
+START_TEST(scale_multiplies_by_gain_squared)
+{
+    /* Contract: as if the input had been scaled by gain: every power by gain^2 (1e-15 relative:
+     * one multiplication), the frequency unchanged (the cross-spectrum phase is kept). */
+    static double x[TG_N];
+    static unsigned char tag[TG_N];
+    tagged_signal(x, tag);
+    ml_spectrum *q = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_push_tagged(q, x, tag, TG_N), ML_OK);
+    double before[TG_NFFT / 2 + 1], after[TG_NFFT / 2 + 1], hz0 = 0.0, hz1 = 0.0;
+    ck_assert_int_eq(ml_spectrum_get_psd(q, before, TG_NFFT / 2 + 1), ML_OK);
+    ck_assert_int_eq(ml_spectrum_get_frequency(q, 16, &hz0), ML_OK);
+    ml_spectrum_scale(q, 0.1);
+    ck_assert_int_eq(ml_spectrum_get_psd(q, after, TG_NFFT / 2 + 1), ML_OK);
+    ck_assert_int_eq(ml_spectrum_get_frequency(q, 16, &hz1), ML_OK);
+    for (size_t k = 0; k < TG_NFFT / 2 + 1; k++)
+        ck_assert_double_eq_tol(after[k], 0.01 * before[k], 1e-15 * before[k]);
+    ck_assert_double_eq_tol(hz1, hz0, 1e-9);
+    ck_assert_int_eq(ml_spectrum_use_selected(q, 1), ML_OK); /* the selected sums are scaled too */
+    ml_spectrum *u = make(TG_NFFT, TG_HOP, ML_WINDOW_HFT248D, FS);
+    ck_assert_int_eq(ml_spectrum_push_tagged(u, x, tag, TG_N), ML_OK);
+    ck_assert_int_eq(ml_spectrum_use_selected(u, 1), ML_OK);
+    for (size_t k = 0; k < TG_NFFT / 2 + 1; k++)
+        ck_assert_double_eq_tol(ml_spectrum_sum(q)[k], 0.01 * ml_spectrum_sum(u)[k],
+                                1e-15 * ml_spectrum_sum(u)[k]);
+    ml_spectrum_scale(NULL, 2.0); /* a no-op */
+    ml_spectrum_destroy(u);
+    ml_spectrum_destroy(q);
+}
+END_TEST
+
 static Suite *spectrum_suite(void)
 {
     Suite *s = suite_create("dsp_spectrum");
@@ -559,6 +841,14 @@ static Suite *spectrum_suite(void)
     tcase_add_test(tc, white_noise_power);
     tcase_add_test(tc, frequency_of_clean_tone);
     tcase_add_test(tc, frequency_single_segment_fallback);
+    suite_add_tcase(s, tc);
+    tc = tcase_create("complex_and_tagged");
+    tcase_add_test(tc, complex_input_layout_and_entry_points);
+    tcase_add_test(tc, complex_exponential_power_and_frequency);
+    tcase_add_test(tc, complex_block_invariance_and_reset);
+    tcase_add_test(tc, tagged_segments_are_accumulated_separately);
+    tcase_add_test(tc, tagged_block_invariance_and_reset);
+    tcase_add_test(tc, scale_multiplies_by_gain_squared);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -142,7 +142,8 @@ START_TEST(figures_of_merit_published)
     for (size_t i = 0; i < sizeof pub / sizeof pub[0]; i++) {
         double *w = make(pub[i].type, N_FOM);
         double cg = ml_window_coherent_gain(w, N_FOM), enbw = ml_window_enbw_bins(w, N_FOM);
-        ck_assert_msg(fabs(cg - pub[i].cg) <= pub[i].cg_tol, "%s: CG %.6f vs %.6f", pub[i].src, cg, pub[i].cg);
+        ck_assert_msg(fabs(cg - pub[i].cg) <= pub[i].cg_tol, "%s: CG %.6f vs %.6f", pub[i].src, cg,
+                      pub[i].cg);
         ck_assert_msg(fabs(enbw - pub[i].enbw) <= pub[i].enbw_tol, "%s: ENBW %.6f vs %.6f", pub[i].src, enbw,
                       pub[i].enbw);
         free(w);
