@@ -71,7 +71,7 @@ typedef struct {
     double duration_s;
     double start_s, analysed_s;
     char limits_path[1024];  /* "" when none                                               */
-    char analysis[160];      /* method summary: window, nfft, segments                     */
+    char analysis[320];      /* method summary: window, nfft, segments                     */
     size_t nmetrics;
     ml_metric metrics[ML_REPORT_MAX_METRICS];
     size_t ntables;

@@ -52,8 +52,9 @@ size_t ml_sink_frame_bytes(const ml_sink_config *cfg);
 ml_status ml_sink_check(const ml_sink_config *cfg, char *detail, size_t detail_len);
 
 /* Creates (or truncates) the file `path` and writes its header. ML_EINVAL for a configuration
- * libsndfile cannot write, ML_EIO when the file cannot be created, ML_ENOMEM; the reason goes to
- * detail[detail_len] (may be NULL). *out is NULL on failure. Allocates. */
+ * libsndfile or its codec cannot write (for example a rate FLAC cannot hold), ML_EIO when the
+ * file cannot be created, ML_ENOMEM; the reason goes to detail[detail_len] (may be NULL). *out is
+ * NULL on failure. Allocates. */
 ml_status ml_sink_open_file(const char *path, const ml_sink_config *cfg, ml_sink **out, char *detail,
                             size_t detail_len);
 

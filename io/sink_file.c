@@ -124,9 +124,15 @@ ml_status ml_sink_check(const ml_sink_config *cfg, char *detail, size_t detail_l
 static ml_status finish_open(SNDFILE *sf, const SF_INFO *fi, ml_sink **out, char *detail, size_t len)
 {
     if (sf == NULL) {
-        /* sf_strerror(NULL) describes the last failed open. */
-        say(detail, len, sf_strerror(NULL));
-        return ML_EIO;
+        /* sf_error(NULL) / sf_strerror(NULL) describe the last failed open. Only a system error
+         * is about the file itself; the others mean the codec refused this configuration (for
+         * example a sample rate FLAC cannot hold), which sf_format_check does not test. */
+        const int err = sf_error(NULL);
+        const char *text = sf_strerror(NULL);
+        if (strncmp(text, "Error : ", 8) == 0)
+            text += 8;
+        say(detail, len, text);
+        return err == SF_ERR_SYSTEM ? ML_EIO : ML_EINVAL;
     }
     ml_sink *s = calloc(1, sizeof *s);
     const bool pcm = (fi->format & SF_FORMAT_SUBMASK) != SF_FORMAT_FLOAT;
