@@ -46,7 +46,7 @@ static void measure_usage(FILE *f)
             "                            widest that fits, at most 10000)\n"
             "  --carrier-reference FILE  capture of the unmodulated carrier (same set-up) giving C\n"
             "  --reference-channel N     channel carrying the modulating audio (trapezoid linearity)\n"
-            "  --peak-hold-ms MS         peak readings need MS per second above the level (default 1)\n"
+            "  --peak-hold-ms MS         peak readings need MS per second above the level (default 5)\n"
             "checks and output:\n"
             "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
             "  --format text|json|csv    report format (default text)\n"
@@ -105,7 +105,7 @@ static int parse_measure(int argc, char **argv, ml_measure_opts *o)
     o->window = ML_WINDOW_HFT248D;
     o->format = ML_FORMAT_TEXT;
     o->carrier_hz = NAN;
-    o->peak_hold_ms = 1.0;
+    o->peak_hold_ms = 5.0;
     opterr = 0;
     optind = 1;
     int ch;

@@ -31,6 +31,8 @@
 #define MAX_BANDWIDTH_HZ 10000.0
 #define INDEX_TOLERANCE 0.02  /* envelope vs spectral index disagreement worth a note          */
 #define QUIET_MIN_S 0.1       /* unmodulated time needed before C is taken from it            */
+#define CARRIER_SEARCH_HZ 200.0 /* capture range around a nominal --carrier                     */
+#define CARRIER_MIN_REL 1e-3  /* a carrier is at most 60 dB below the strongest component      */
 
 /* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped), ref (may be NULL). */
 static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z,
@@ -274,15 +276,27 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     int rc = look_ahead(o, seg, iq, pre, &look);
     if (rc != 0)
         return rc;
-    double fc = 0, ac = 0;
+    double fc = 0, ac = 0, f_top = 0, a_top = 0;
     const double lobe_hz = (double)ml_spectrum_lobe_bins(look) * rate / (double)ml_spectrum_nfft(look);
-    ml_status st = isnan(carrier_hz) ? ml_rf_find_peak(look, iq ? -nyq : 20.0, nyq, &fc, &ac)
-                                     : ml_rf_find_peak(look, carrier_hz - lobe_hz, carrier_hz + lobe_hz, &fc, &ac);
+    const double lo_all = iq ? -nyq : 20.0;
+    ml_status st = ml_rf_find_peak(look, lo_all, nyq, &f_top, &a_top);
+    if (st == ML_OK && isnan(carrier_hz)) {
+        fc = f_top;
+        ac = a_top;
+    } else if (st == ML_OK) {
+        /* a nominal carrier: the actual one is the strongest component within the capture range */
+        const double range = fmax(CARRIER_SEARCH_HZ, lobe_hz);
+        st = ml_rf_find_peak(look, fmax(carrier_hz - range, lo_all), fmin(carrier_hz + range, nyq), &fc, &ac);
+        if (st == ML_OK && !(ac >= CARRIER_MIN_REL * a_top)) {
+            ml_spectrum_destroy(look);
+            return ml_cli_error("%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component "
+                                "lies at %.1f Hz)",
+                                o->input, range, carrier_hz, f_top);
+        }
+    }
     ml_spectrum_destroy(look);
     if (st != ML_OK || !(ac > 0))
         return ml_cli_error("%s: no carrier found%s", o->input, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
-    if (!isnan(carrier_hz) && fabs(fc - carrier_hz) > lobe_hz)
-        fc = carrier_hz;
 
     double transition = 0;
     double bw = default_bandwidth(rate, iq, fc, &transition);
@@ -330,14 +344,14 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         rc = ml_cli_error("%s: cannot set up the analysis: %s", o->input, ml_strerror(st));
         goto done;
     }
-    const int64_t env_frames = seg->nframes - (int64_t)ml_am_latency(am);
+    const int64_t env_frames = seg->nframes - 2 * (int64_t)ml_am_edge(am);
     ml_spectrum_config ac_spec = ml_spectrum_config_default(rate);
     ac_spec.window = o->window;
     ac_spec.nfft = ml_measure_nfft(rate, env_frames);
     ac_spec.hop = ac_spec.nfft / 2;
     if (env_frames <= 0 || ac_spec.nfft == 0) {
-        rc = ml_cli_error("%s: %lld frames are too few for the %zu-sample channel filter", o->input,
-                          (long long)seg->nframes, ml_am_latency(am));
+        rc = ml_cli_error("%s: %lld frames are too few for the %zu-tap channel filter", o->input,
+                          (long long)seg->nframes, 2 * ml_am_edge(am) + 1);
         goto done;
     }
     if ((st = ml_spectrum_create(&ac_spec, &aud)) != ML_OK) {
@@ -534,9 +548,9 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
                                                            : "none";
     ml_report_add_text(rep, "modulation.overmodulation_kind", over);
     snprintf(rep->analysis, sizeof rep->analysis,
-             "carrier %.1f Hz, channel filter +-%.0f Hz (%zu-sample delay), %s window, %zu-point FFT%s, "
-             "peak hold %.3g ms/s",
-             f_car, bw, ml_am_latency(am), ml_window_name(o->window), rc_cfg.nfft,
+             "carrier %.1f Hz, channel filter +-%.0f Hz (%zu taps; %zu samples of settling left out at each "
+             "end), %s window, %zu-point FFT%s, peak hold %.3g ms/s",
+             f_car, bw, 2 * ml_am_edge(am) + 1, ml_am_edge(am), ml_window_name(o->window), rc_cfg.nfft,
              mod_only ? " over modulated stretches" : "", o->peak_hold_ms);
     if (!c_known)
         ml_report_note(rep, "no unmodulated carrier in the capture: peaks are relative to the mean envelope and "
