@@ -27,7 +27,11 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
         fprintf(f, "  limits    %s\n", r->limits_path);
     for (size_t i = 0; i < r->ntexts; i++)
         fprintf(f, "  %-32s %s\n", r->texts[i].name, r->texts[i].value);
-    fprintf(f, "\n%-32s %14s  %-5s %-16s %-6s %s\n", "metric", "value", "unit", "limit", "result", "margin");
+    int w = 32; /* name column: as wide as the longest name */
+    for (size_t i = 0; i < r->nmetrics; i++)
+        if ((int)strlen(r->metrics[i].name) > w)
+            w = (int)strlen(r->metrics[i].name);
+    fprintf(f, "\n%-*s %14s  %-5s %-16s %-6s %s\n", w, "metric", "value", "unit", "limit", "result", "margin");
     for (size_t i = 0; i < r->nmetrics; i++) {
         const ml_metric *m = &r->metrics[i];
         char val[48], lim[48] = "", margin[48] = "";
@@ -40,7 +44,7 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
             if (c->valid)
                 snprintf(margin, sizeof margin, "%+.*f", c->decimals, c->margin);
         }
-        fprintf(f, "%-32s %14s  %-5s %-16s %-6s %s\n", m->name, val, m->unit, lim, res, margin);
+        fprintf(f, "%-*s %14s  %-5s %-16s %-6s %s\n", w, m->name, val, m->unit, lim, res, margin);
     }
     for (size_t t = 0; t < r->ntables; t++) {
         const ml_table *tb = &r->tables[t];
