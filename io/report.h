@@ -81,7 +81,7 @@ typedef struct {
     size_t nchecks;
     ml_check checks[ML_REPORT_MAX_CHECKS];
     size_t nnotes;
-    char notes[ML_REPORT_MAX_NOTES][160];
+    char notes[ML_REPORT_MAX_NOTES][256];
 } ml_report;
 
 typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_format;

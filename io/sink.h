@@ -68,6 +68,11 @@ ml_status ml_sink_open_fd(int fd, const ml_sink_config *cfg, ml_sink **out, char
  * ml_sink_detail), ML_EINVAL for NULL arguments. Does not allocate. */
 ml_status ml_sink_write(ml_sink *s, const float *frames, size_t nframes);
 
+/* Makes every later ml_sink_write rewrite the header too, so the file is complete after each
+ * write (a capture interrupted at any moment, even by kill -9, leaves a valid file). Costs a
+ * header seek per write. ML_EINVAL for NULL. */
+ml_status ml_sink_set_durable(ml_sink *s);
+
 /* Frames written so far. */
 uint64_t ml_sink_frames(const ml_sink *s);
 

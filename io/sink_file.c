@@ -232,6 +232,14 @@ ml_status ml_sink_write(ml_sink *s, const float *frames, size_t nframes)
     return ML_OK;
 }
 
+ml_status ml_sink_set_durable(ml_sink *s)
+{
+    if (s == NULL)
+        return ML_EINVAL;
+    sf_command(s->sf, SFC_SET_UPDATE_HEADER_AUTO, NULL, SF_TRUE);
+    return ML_OK;
+}
+
 uint64_t ml_sink_frames(const ml_sink *s)
 {
     return s ? s->frames : 0;
