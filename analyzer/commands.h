@@ -6,5 +6,7 @@
 
 int ml_cmd_measure(int argc, char **argv);
 int ml_cmd_tone(int argc, char **argv);
+int ml_cmd_devices(int argc, char **argv);
+int ml_cmd_live(int argc, char **argv);
 
 #endif

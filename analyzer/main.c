@@ -20,7 +20,9 @@ static void usage(FILE *f)
             "\n"
             "commands:\n"
             "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
-            "  tone           write a test signal to a file\n"
+            "  live           capture from a sound card, then analyse as measure does\n"
+            "  devices        list the sound-card inputs and outputs\n"
+            "  tone           write a test signal to a file, or play it\n"
             "\n"
             "'modlens COMMAND --help' describes each command.\n\n%s",
             ml_cli_safety);
@@ -43,6 +45,10 @@ int main(int argc, char **argv)
     }
     if (strcmp(cmd, "measure") == 0)
         return ml_cmd_measure(argc - 1, argv + 1);
+    if (strcmp(cmd, "devices") == 0)
+        return ml_cmd_devices(argc - 1, argv + 1);
+    if (strcmp(cmd, "live") == 0)
+        return ml_cmd_live(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)
         return ml_cmd_tone(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);

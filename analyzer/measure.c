@@ -72,9 +72,27 @@ static int parse_band(const char *s, ml_measure_opts *o)
     return 1;
 }
 
-static int parse_measure(int argc, char **argv, ml_measure_opts *o)
+/* "FREQ[,LEVEL]" for --play-tone. */
+static int parse_play(const char *s, ml_live_opts *l)
 {
-    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD };
+    char buf[64];
+    snprintf(buf, sizeof buf, "%s", s);
+    char *comma = strchr(buf, ',');
+    if (comma)
+        *comma = '\0';
+    double f, lv = -12.0;
+    if (!ml_cli_number(buf, &f) || f <= 0 || (comma && (!ml_cli_number(comma + 1, &lv) || lv > 0 || lv < -120)))
+        return 0;
+    l->play = true;
+    l->play_hz = f;
+    l->play_dbfs = lv;
+    return 1;
+}
+
+int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live)
+{
+    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD, O_DEVICE, O_RATE, O_CHANNELS,
+           O_SECONDS, O_SAVE, O_PLAY, O_OUTDEV };
     static const struct option longopts[] = {
         {"kind", required_argument, NULL, 'k'},
         {"channel", required_argument, NULL, 'c'},
@@ -95,9 +113,19 @@ static int parse_measure(int argc, char **argv, ml_measure_opts *o)
         {"format", required_argument, NULL, 'f'},
         {"output", required_argument, NULL, 'o'},
         {"help", no_argument, NULL, 'h'},
+        {"device", required_argument, NULL, O_DEVICE},
+        {"rate", required_argument, NULL, O_RATE},
+        {"channels", required_argument, NULL, O_CHANNELS},
+        {"seconds", required_argument, NULL, O_SECONDS},
+        {"save", required_argument, NULL, O_SAVE},
+        {"play-tone", required_argument, NULL, O_PLAY},
+        {"output-device", required_argument, NULL, O_OUTDEV},
         {NULL, 0, NULL, 0},
     };
+    const char *cmd = live ? "live" : "measure";
     memset(o, 0, sizeof *o);
+    o->live.enabled = live;
+    o->live.seconds = 5.0;
     o->kind = ML_KIND_AUTO;
     o->channel = 1;
     o->duration_s = -1;
@@ -196,10 +224,47 @@ static int parse_measure(int argc, char **argv, ml_measure_opts *o)
             else return ml_cli_error("--format: '%s' is not text, json or csv", optarg);
             break;
         case 'o': o->output_path = optarg; break;
-        case 'h': measure_usage(stdout); return -1;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens measure --help')", argv[optind - 1]);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens measure --help')", argv[optind - 1]);
+        case O_DEVICE: o->live.device = optarg; break;
+        case O_OUTDEV: o->live.output_device = optarg; break;
+        case O_SAVE: o->live.save_path = optarg; break;
+        case O_RATE:
+            if (!ml_cli_number(optarg, &v) || v < 1000 || v > 1000000)
+                return ml_cli_error("--rate: '%s' is not a sample rate in Hz, 1000..1000000", optarg);
+            o->live.rate_hz = v;
+            break;
+        case O_CHANNELS:
+            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
+                return ml_cli_error("--channels: '%s' is not a channel count 1..%d", optarg, ML_MAX_CHANNELS);
+            o->live.channels = n;
+            break;
+        case O_SECONDS:
+            if (!ml_cli_number(optarg, &v) || v <= 0 || v > 86400)
+                return ml_cli_error("--seconds: '%s' is not a time in seconds, 0 < S <= 86400", optarg);
+            o->live.seconds = v;
+            break;
+        case O_PLAY:
+            if (!parse_play(optarg, &o->live))
+                return ml_cli_error("--play-tone: '%s' is not FREQ[,LEVEL] (Hz > 0, dBFS -120..0)", optarg);
+            break;
+        case 'h': (live ? ml_live_usage : measure_usage)(stdout); return -1;
+        case ':': return ml_cli_error("%s needs a value (try 'modlens %s --help')", argv[optind - 1], cmd);
+        default: return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", argv[optind - 1], cmd);
         }
+        if (!live && ch >= O_DEVICE)
+            return ml_cli_error("%s belongs to 'modlens live', not measure", argv[optind - 1]);
+    }
+    if (live) {
+        if (optind < argc)
+            return ml_cli_error("live takes no FILE; unexpected '%s'", argv[optind]);
+        if (o->live.output_device && !o->live.play)
+            return ml_cli_error("--output-device needs --play-tone");
+        if (o->duration_s > 0 && o->start_s + o->duration_s > o->live.seconds)
+            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f", o->start_s + o->duration_s,
+                                o->live.seconds);
+        if (o->start_s >= o->live.seconds)
+            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->start_s, o->live.seconds);
+        o->input = "live";
+        return 0;
     }
     if (optind != argc - 1)
         return ml_cli_error(optind >= argc ? "measure needs one input FILE (try 'modlens measure --help')"
@@ -291,10 +356,19 @@ int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_
                     int64_t done)
 {
     ml_status st = ml_source_read(seg->src, buf, want, got);
+    if (seg->live && (st != ML_OK || *got < want)) {
+        seg->ended_early = true;
+        seg->nframes = done + (int64_t)*got;
+        if (st != ML_OK && !seg->failed) {
+            seg->failed = true;
+            ml_cli_error("%s: %s", o->input, ml_source_detail(seg->src));
+        }
+        st = ML_OK;
+    }
     if (st != ML_OK)
         return ml_cli_error("%s: read failed at frame %lld: %s", o->input, (long long)(seg->first + done),
                             ml_source_detail(seg->src));
-    if (*got < want)
+    if (*got < want && !seg->live)
         return ml_cli_error("%s: file ends early: %lld of %lld frames could be read", o->input,
                             (long long)(done + (int64_t)*got), (long long)seg->nframes);
     const size_t nch = (size_t)seg->info->channels;
@@ -452,7 +526,7 @@ static int open_segment(ml_measure_opts *o, ml_segment *seg)
     return 0;
 }
 
-static int write_report(const ml_measure_opts *o, ml_report *rep)
+int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
 {
     char err[512];
     ml_output out;
@@ -467,68 +541,82 @@ static int write_report(const ml_measure_opts *o, ml_report *rep)
     return 0;
 }
 
-int ml_cmd_measure(int argc, char **argv)
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 {
-    ml_measure_opts o;
-    int rc = parse_measure(argc, argv, &o);
-    if (rc != 0)
-        return rc < 0 ? ML_EXIT_OK : rc;
-
-    static ml_limits limits;
     char err[512];
-    if (o.limits_path) {
-        ml_status st = ml_limits_load(o.limits_path, &limits, err, sizeof err);
+    if (o->limits_path) {
+        ml_status st = ml_limits_load(o->limits_path, limits, err, sizeof err);
         if (st != ML_OK)
-            return ml_cli_error("%s: %s", o.limits_path, err);
-        o.limits = &limits;
+            return ml_cli_error("%s: %s", o->limits_path, err);
+        o->limits = limits;
     }
-    if (o.output_path
-        && (ml_same_file(o.output_path, o.input) || (o.limits_path && ml_same_file(o.output_path, o.limits_path))
-            || (o.carrier_reference && ml_same_file(o.output_path, o.carrier_reference))))
-        return ml_cli_error("%s: refusing to overwrite an input file with the report", o.output_path);
+    const char *outs[2] = {o->output_path, o->live.save_path};
+    const char *ins[3] = {o->live.enabled ? NULL : o->input, o->limits_path, o->carrier_reference};
+    for (int i = 0; i < 2; i++)
+        for (int j = 0; j < 3; j++)
+            if (outs[i] && ins[j] && ml_same_file(outs[i], ins[j]))
+                return ml_cli_error("%s: refusing to overwrite an input file with %s", outs[i],
+                                    i == 0 ? "the report" : "the capture");
+    if (o->output_path && o->live.save_path && strcmp(o->output_path, "-") != 0
+        && (strcmp(o->output_path, o->live.save_path) == 0 || ml_same_file(o->output_path, o->live.save_path)))
+        return ml_cli_error("%s: --output and --save name the same file", o->output_path);
+    return 0;
+}
 
-    static ml_report rep;
-    memset(&rep, 0, sizeof rep);
-    ml_segment seg;
-    rc = open_segment(&o, &seg);
-    if (rc != 0)
-        goto done;
-
-    ml_kind kind = o.kind;
+int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
+{
+    ml_kind kind = o->kind;
     char reason[160];
-    double carrier = o.carrier_hz;
+    double carrier = o->carrier_hz;
+    int rc = 0;
     switch (kind) {
     case ML_KIND_AUDIO: snprintf(reason, sizeof reason, "--kind audio"); break;
     case ML_KIND_IF: snprintf(reason, sizeof reason, "--kind if"); break;
     case ML_KIND_IQ: snprintf(reason, sizeof reason, "--kind iq"); break;
     case ML_KIND_AUTO:
-        if (seg.info->channels - (o.reference_channel > 0 ? 1 : 0) >= 2) {
+        if (seg->info->channels - (o->reference_channel > 0 ? 1 : 0) >= 2) {
             kind = ML_KIND_IQ;
             snprintf(reason, sizeof reason, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
-                     o.channel, o.channel + 1);
+                     o->channel, o->channel + 1);
         } else {
             bool is_if = false;
-            rc = ml_measure_detect_if(&o, &seg, &is_if, &carrier, reason, sizeof reason);
+            rc = ml_measure_detect_if(o, seg, &is_if, &carrier, reason, sizeof reason);
             if (rc != 0)
-                goto done;
+                return rc;
             kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
             if (!is_if)
-                carrier = o.carrier_hz;
+                carrier = o->carrier_hz;
         }
         break;
     }
     if (kind == ML_KIND_AUDIO)
-        rc = measure_audio(&o, &seg, reason, &rep);
+        rc = measure_audio(o, seg, reason, rep);
     else
-        rc = ml_measure_modulation(&o, &seg, kind, reason, carrier, &rep);
+        rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
+    if (rc == 0 && o->limits)
+        ml_limits_apply(o->limits, rep);
+    return rc;
+}
+
+int ml_cmd_measure(int argc, char **argv)
+{
+    ml_measure_opts o;
+    int rc = ml_measure_parse(argc, argv, &o, false);
     if (rc != 0)
-        goto done;
-    if (o.limits)
-        ml_limits_apply(o.limits, &rep);
-    rc = write_report(&o, &rep);
+        return rc < 0 ? ML_EXIT_OK : rc;
+    static ml_limits limits;
+    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+        return rc;
+    static ml_report rep;
+    memset(&rep, 0, sizeof rep);
+    ml_segment seg;
+    rc = open_segment(&o, &seg);
+    if (rc == 0)
+        rc = ml_measure_run(&o, &seg, &rep);
+    if (rc == 0)
+        rc = ml_measure_write(&o, &rep);
     if (rc == 0)
         rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
-done:
     ml_source_close(seg.src);
     return rc;
 }

@@ -6,6 +6,7 @@
 
 #include <stdbool.h>
 #include <stdint.h>
+#include <stdio.h>
 
 #include "analyzer/limits.h"
 #include "dsp/metrics.h"
@@ -17,6 +18,19 @@
 #define ML_MAX_CHANNELS 64
 
 typedef enum { ML_KIND_AUTO, ML_KIND_AUDIO, ML_KIND_IF, ML_KIND_IQ } ml_kind;
+
+/* Options of `modlens live` (capture from a sound card instead of a file). */
+typedef struct {
+    bool enabled;             /* live capture instead of a file                              */
+    const char *device;       /* NULL: default input                                         */
+    double rate_hz;           /* 0: the device's default                                     */
+    long channels;            /* 0: as the kind needs (iq 2, else 1, plus a reference)       */
+    double seconds;           /* capture length                                               */
+    const char *save_path;    /* raw capture, NULL for none                                   */
+    bool play;                /* play a tone while capturing                                  */
+    double play_hz, play_dbfs;
+    const char *output_device;
+} ml_live_opts;
 
 typedef struct {
     const char *input;
@@ -36,6 +50,7 @@ typedef struct {
     const ml_limits *limits;  /* loaded profile or NULL                                     */
     ml_report_format format;
     const char *output_path;
+    ml_live_opts live;
 } ml_measure_opts;
 
 /* The analysed segment of an open source. */
@@ -43,17 +58,33 @@ typedef struct {
     ml_source *src;
     const ml_source_info *info;
     int64_t first;            /* first frame                                                */
-    int64_t nframes;          /* frames analysed                                            */
+    int64_t nframes;          /* frames analysed (shortened when a live capture ends early) */
+    bool live;                /* a live capture: an early end shortens the segment           */
+    bool ended_early;         /* the capture ended before nframes (interrupt or fault)       */
+    bool failed;              /* ... because of a device fault (message already printed)     */
 } ml_segment;
 
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
 void ml_measure_add(ml_report *r, const char *name, double value);
 /* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
+/* Parses measure's options (live false: one FILE argument) or live's (live true: no FILE, plus
+ * the capture options). 0 ok, -1 help printed, else an exit status (error printed). */
+int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live);
+/* Loads --limits and refuses outputs that name an input; 0 or an exit status. */
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits);
+/* Resolves the kind, runs its pipeline on the open segment and applies the limits. */
+int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
+/* Writes the report to --output (or standard output) completely or not at all. */
+int ml_measure_write(const ml_measure_opts *o, const ml_report *rep);
+/* live's --help (analyzer/live.c). */
+void ml_live_usage(FILE *f);
 /* Fills the report's input description. */
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason);
-/* Reads up to want frames; exits-status style: 0 ok, else an error was printed (exit 2). */
+/* Reads up to want frames; exits-status style: 0 ok, else an error was printed (exit 2). A live
+ * segment that ends early (interrupt or device fault) is shortened to what arrived and 0 is
+ * returned with *got < want; the caller's loop then ends naturally. */
 int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
                     int64_t done);
 /* Progress on stderr when it is a terminal and the job is long. */

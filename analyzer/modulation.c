@@ -119,6 +119,8 @@ static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_
             ml_spectrum_push(*out, mono, got);
         }
         done += (int64_t)got;
+        if (got < want) /* a live capture ended early */
+            break;
     }
     free(buf);
     free(z);

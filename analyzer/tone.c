@@ -18,6 +18,7 @@
 #include "analyzer/commands.h"
 #include "analyzer/output.h"
 #include "dsp/synth.h"
+#include "io/audio.h"
 #include "io/sink.h"
 
 #define BLOCK_FRAMES 4096
@@ -29,20 +30,23 @@ typedef struct {
     ml_synth_config syn;
     bool freq_given, level_given, level2_given, two_tone, silence, carrier_given;
     bool depth_given, pos_given, neg_given, mod_given, overmod_given, iq_given, lead_given, cnr_given;
-    bool hum_level_given, hum_depth_given, seconds_given, allow_clip;
+    bool hum_level_given, hum_depth_given, seconds_given, allow_clip, play;
     double depth;
     double seconds;
     long rate_hz;
     ml_sink_encoding encoding;
     const char *out;
+    const char *device;
 } tone_opts;
 
 static void tone_usage(FILE *f)
 {
     fprintf(f,
             "usage: modlens tone [options] --out FILE\n"
+            "       modlens tone [options] --play [--device NAME|INDEX]\n"
             "\n"
-            "Writes a test signal to FILE (.wav or .flac). Levels follow AES17: a full-scale sine is\n"
+            "Writes a test signal to FILE (.wav or .flac), or plays it on a sound card output (for\n"
+            "--seconds S, or until Ctrl-C when --seconds is not given). Levels follow AES17: a full-scale sine is\n"
             "0 dBFS, so a tone at L dBFS has a peak of 10^(L/20). All tones start at zero phase.\n"
             "\n"
             "signal (one of; default a single tone):\n"
@@ -82,8 +86,14 @@ static void tone_usage(FILE *f)
             "  --seed N               noise seed, 0..2^63-1 (default 1); same seed, same file\n"
             "  --allow-clip           allow peaks above full scale (PCM clips, float keeps them)\n"
             "  --out FILE             output file; written via a temporary, then renamed\n"
+            "playback:\n"
+            "  --play                 play the signal instead of writing a file (see 'modlens devices')\n"
+            "  --device NAME|INDEX    output device (default: the default output); its rate must\n"
+            "                         equal --rate\n"
             "\n"
-            "Exit status: 0 written, 1 write failure, 2 usage error (nothing written).\n\n%s",
+            "Exit status: 0 written or played, 1 write failure, 2 usage or device error (nothing written).\n"
+            "Before feeding a transmitter's audio input, set the level with the transmitter into a dummy\n"
+            "load: a full-scale tone can overmodulate it.\n\n%s",
             AUTO_PEAK_DBFS, ML_SYNTH_MAX_ORDER, ml_cli_safety);
 }
 
@@ -146,7 +156,7 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
 {
     enum { O_FREQ = 256, O_LEVEL, O_LEVEL2, O_HARM, O_TWO, O_STEP, O_SILENCE, O_CARRIER, O_DEPTH, O_MODF,
            O_POS, O_NEG, O_OVERMOD, O_IQ, O_LEAD, O_NOISE, O_CNR, O_HUM, O_HUML, O_HUMD, O_HUMH, O_SECONDS,
-           O_RATE, O_BITS, O_SEED, O_CLIP, O_OUT };
+           O_RATE, O_BITS, O_SEED, O_CLIP, O_OUT, O_PLAY, O_DEVICE };
     static const struct option longopts[] = {
         {"freq", required_argument, NULL, O_FREQ},         {"level", required_argument, NULL, O_LEVEL},
         {"level2", required_argument, NULL, O_LEVEL2},     {"harmonic", required_argument, NULL, O_HARM},
@@ -162,6 +172,7 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         {"rate", required_argument, NULL, O_RATE},         {"bits", required_argument, NULL, O_BITS},
         {"seed", required_argument, NULL, O_SEED},         {"allow-clip", no_argument, NULL, O_CLIP},
         {"out", required_argument, NULL, O_OUT},           {"help", no_argument, NULL, 'h'},
+        {"play", no_argument, NULL, O_PLAY},               {"device", required_argument, NULL, O_DEVICE},
         {NULL, 0, NULL, 0},
     };
     memset(o, 0, sizeof *o);
@@ -320,6 +331,8 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
             break;
         case O_CLIP: o->allow_clip = true; break;
         case O_OUT: o->out = optarg; break;
+        case O_PLAY: o->play = true; break;
+        case O_DEVICE: o->device = optarg; break;
         case 'h': tone_usage(stdout); return -1;
         case ':': return ml_cli_error("%s needs a value (try 'modlens tone --help')", argv[optind - 1]);
         default: return ml_cli_error("unknown option '%s' (try 'modlens tone --help')", argv[optind - 1]);
@@ -477,6 +490,41 @@ static int generate(const tone_opts *o, ml_synth *syn, ml_sink *sink, uint64_t n
     return rc;
 }
 
+/* Plays the signal until nframes (0: until a signal) or an interrupt. Returns an exit status. */
+static int play(const tone_opts *o, ml_synth *syn, uint64_t nframes)
+{
+    char err[512];
+    ml_player_config pc = {o->device, (double)o->rate_hz, (int)ml_synth_channels(syn), 2.0};
+    ml_player *p = NULL;
+    ml_status st = ml_player_open(&pc, &p, err, sizeof err);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", o->device ? o->device : "default output", err);
+    const size_t nch = ml_synth_channels(syn);
+    float *buf = malloc((size_t)BLOCK_FRAMES * nch * sizeof *buf);
+    int rc = ML_EXIT_OK;
+    if (buf == NULL) {
+        ml_player_close(p, false);
+        return ml_cli_error("out of memory");
+    }
+    uint64_t done = 0;
+    while ((nframes == 0 || done < nframes) && !interrupted) {
+        const size_t want = nframes && nframes - done < BLOCK_FRAMES ? (size_t)(nframes - done) : BLOCK_FRAMES;
+        ml_synth_generate(syn, buf, want);
+        if (ml_player_write(p, buf, want) != ML_OK) {
+            rc = ml_cli_error("%s: %s after %.2f s", o->device ? o->device : "default output",
+                              ml_player_detail(p), (double)done / (double)o->rate_hz);
+            break;
+        }
+        done += want;
+    }
+    const uint64_t under = ml_player_underflows(p);
+    ml_player_close(p, rc == ML_EXIT_OK && !interrupted);
+    if (under > 0)
+        fprintf(stderr, "modlens: tone: the output ran dry for %llu frames\n", (unsigned long long)under);
+    free(buf);
+    return rc;
+}
+
 /* AM without --level: the carrier level that puts the highest envelope peak at AUTO_PEAK_DBFS. */
 static int auto_level(ml_synth_config *s)
 {
@@ -495,6 +543,62 @@ static int auto_level(ml_synth_config *s)
     return 0;
 }
 
+/* The generator for the options: AM level, consistency and full-scale checks. */
+static int make_synth(tone_opts *o, ml_synth **syn)
+{
+    ml_synth_config *s = &o->syn;
+    int rc;
+    *syn = NULL;
+    if (s->kind == ML_SYNTH_AM && !o->level_given && (rc = auto_level(s)) != 0)
+        return rc;
+    if (ml_synth_create(s, syn) != ML_OK)
+        return ml_cli_error("the signal settings are inconsistent (check frequencies and steps "
+                            "against --rate)");
+    const double peak = ml_synth_peak(*syn);
+    if (peak > 1.0 + 1e-9 && !o->allow_clip) {
+        ml_synth_destroy(*syn);
+        *syn = NULL;
+        return ml_cli_error("the signal peaks at %+.2f dBFS, above full scale; lower the levels or give "
+                            "--allow-clip", 20 * log10(peak));
+    }
+    if (s->kind == ML_SYNTH_AM && !o->level_given)
+        fprintf(stderr, "modlens: tone: carrier level %.2f dBFS (envelope peak at %.0f dBFS)\n",
+                s->level_dbfs, AUTO_PEAK_DBFS);
+    return 0;
+}
+
+static void catch_signals(struct sigaction *old_int, struct sigaction *old_term)
+{
+    struct sigaction sa;
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sigemptyset(&sa.sa_mask);
+    interrupted = 0;
+    sigaction(SIGINT, &sa, old_int);
+    sigaction(SIGTERM, &sa, old_term);
+}
+
+/* tone --play: until --seconds or an interrupt. */
+static int play_main(tone_opts *o)
+{
+    ml_synth *syn = NULL;
+    int rc = make_synth(o, &syn);
+    if (rc != 0)
+        return rc;
+    const uint64_t nframes = o->seconds_given ? (uint64_t)llround(o->seconds * (double)o->rate_hz) : 0;
+    if (o->seconds_given && nframes == 0) {
+        ml_synth_destroy(syn);
+        return ml_cli_error("--seconds %g gives no frame at %ld Hz", o->seconds, o->rate_hz);
+    }
+    struct sigaction old_int, old_term;
+    catch_signals(&old_int, &old_term);
+    rc = play(o, syn, nframes);
+    sigaction(SIGINT, &old_int, NULL);
+    sigaction(SIGTERM, &old_term, NULL);
+    ml_synth_destroy(syn);
+    return rc;
+}
+
 int ml_cmd_tone(int argc, char **argv)
 {
     tone_opts o;
@@ -504,6 +608,12 @@ int ml_cmd_tone(int argc, char **argv)
     if ((rc = check_tone(&o)) != 0)
         return rc;
 
+    if (o.play && o.out)
+        return ml_cli_error("--play and --out exclude each other");
+    if (!o.play && o.device)
+        return ml_cli_error("--device needs --play");
+    if (o.play)
+        return play_main(&o);
     /* Output name and format first: nothing is generated for an unwritable request. */
     if (o.out == NULL)
         return ml_cli_error("--out FILE is required (try 'modlens tone --help')");
@@ -519,12 +629,9 @@ int ml_cmd_tone(int argc, char **argv)
 
     ml_synth_config *s = &o.syn;
     uint64_t nframes = (uint64_t)llround(o.seconds * (double)o.rate_hz);
-    if (s->kind == ML_SYNTH_AM && !o.level_given && (rc = auto_level(s)) != 0)
-        return rc;
     ml_synth *syn = NULL;
-    if (ml_synth_create(s, &syn) != ML_OK)
-        return ml_cli_error("the signal settings are inconsistent (check frequencies and steps "
-                            "against --rate)");
+    if ((rc = make_synth(&o, &syn)) != 0)
+        return rc;
     if (s->kind == ML_SYNTH_STEPS && !o.seconds_given)
         nframes = ml_synth_cycle_frames(syn);
     if (nframes == 0) {
@@ -536,16 +643,6 @@ int ml_cmd_tone(int argc, char **argv)
         return ml_cli_error("%s: %.0f s do not fit in a WAV file (4 GiB); use a .flac name or fewer "
                             "--seconds", o.out, (double)nframes / (double)o.rate_hz);
     }
-    const double peak = ml_synth_peak(syn);
-    if (peak > 1.0 + 1e-9 && !o.allow_clip) {
-        ml_synth_destroy(syn);
-        return ml_cli_error("the signal peaks at %+.2f dBFS, above full scale; lower the levels or give "
-                            "--allow-clip", 20 * log10(peak));
-    }
-    if (s->kind == ML_SYNTH_AM && !o.level_given)
-        fprintf(stderr, "modlens: tone: carrier level %.2f dBFS (envelope peak at %.0f dBFS)\n",
-                s->level_dbfs, AUTO_PEAK_DBFS);
-
     ml_output out;
     if (!ml_output_open(&out, o.out, err, sizeof err)) {
         ml_synth_destroy(syn);
@@ -559,14 +656,8 @@ int ml_cmd_tone(int argc, char **argv)
         return ml_cli_error("%s: %s%s%s", o.out, ml_strerror(st), err[0] ? ": " : "", err);
     }
 
-    struct sigaction sa, old_int, old_term;
-    memset(&sa, 0, sizeof sa);
-    sa.sa_handler = on_signal;
-    sigemptyset(&sa.sa_mask);
-    interrupted = 0;
-    sigaction(SIGINT, &sa, &old_int);
-    sigaction(SIGTERM, &sa, &old_term);
-
+    struct sigaction old_int, old_term;
+    catch_signals(&old_int, &old_term);
     rc = generate(&o, syn, sink, nframes);
     st = ml_sink_close(sink, err, sizeof err);
     if (rc == ML_EXIT_OK && st != ML_OK) {
