@@ -15,6 +15,7 @@
 #include "analyzer/commands.h"
 #include "analyzer/output.h"
 #include "analyzer/registry.h"
+#include "analyzer/uncertainty.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
@@ -359,8 +360,9 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     const size_t nch = (size_t)info->channels;
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    ml_blocks *blocks = ml_blocks_create(&sc, &o->audio);
     int rc = 0;
-    if (buf == NULL || mono == NULL) {
+    if (buf == NULL || mono == NULL || blocks == NULL) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
@@ -376,6 +378,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
             mono[i] = buf[i * nch + (size_t)(o->channel - 1)];
         ml_stats_push(&stats, mono, got);
         ml_spectrum_push(spec, mono, got);
+        ml_blocks_push_float(blocks, mono, got);
         done += (int64_t)got;
         ml_measure_progress(seg, done, &next, &shown);
     }
@@ -413,9 +416,11 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
                        (unsigned long long)stats.clipped);
     if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
+    ml_blocks_report(blocks, rep, NULL);
 done:
     free(buf);
     free(mono);
+    ml_blocks_destroy(blocks);
     ml_spectrum_destroy(spec);
     return rc;
 }

@@ -21,6 +21,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/measure.h"
+#include "analyzer/uncertainty.h"
 #include "dsp/am.h"
 #include "dsp/metrics.h"
 #include "dsp/rf.h"
@@ -338,6 +339,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     float *buf = NULL, *ref = NULL, *mono = NULL;
     double complex *z = NULL;
     ml_am_output out = {0};
+    ml_blocks *blocks = NULL;
     if (rc_cfg.nfft == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
     if ((st = ml_spectrum_create(&rc_cfg, &rf)) != ML_OK || (st = ml_am_create(&ac_cfg, &am)) != ML_OK) {
@@ -356,6 +358,12 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     if ((st = ml_spectrum_create(&ac_spec, &aud)) != ML_OK) {
         rc = ml_cli_error("%s: %s", o->input, ml_strerror(st));
+        goto done;
+    }
+    ml_audio_config bcfg = o->audio; /* the demodulated audio's band, as in step 4 */
+    bcfg.band_hi_hz = fmin(bcfg.band_hi_hz, bw);
+    if ((blocks = ml_blocks_create(&ac_spec, &bcfg)) == NULL) {
+        rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
     buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
@@ -392,6 +400,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         }
         ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &out, &nout);
         feed(rf, aud, &out, nout, iq, inv_c);
+        ml_blocks_push(blocks, out.env, out.modulated, nout);
         done_frames += (int64_t)got;
         ml_measure_progress(seg, done_frames, &next, &shown);
     }
@@ -399,6 +408,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     size_t nout = 0;
     ml_am_finish(am, &out, &nout);
     feed(rf, aud, &out, nout, iq, inv_c);
+    ml_blocks_push(blocks, out.env, out.modulated, nout);
     ml_am_result ar;
     if (ml_am_get_result(am, &ar) != ML_OK) {
         rc = ml_cli_error("%s: no envelope could be measured", o->input);
@@ -567,7 +577,9 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (stats[0].clipped + stats[1].clipped > 0)
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)(stats[0].clipped + stats[1].clipped));
+    ml_blocks_report(blocks, rep, NULL);
 done:
+    ml_blocks_destroy(blocks);
     free(buf);
     free(ref);
     free(mono);
