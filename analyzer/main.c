@@ -20,6 +20,7 @@ static void usage(FILE *f)
             "\n"
             "commands:\n"
             "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
+            "  compare A B    compare two measurements (recordings or saved JSON): better, worse, same\n"
             "  tone           write a test signal to a file\n"
             "\n"
             "'modlens COMMAND --help' describes each command.\n\n%s",
@@ -43,6 +44,8 @@ int main(int argc, char **argv)
     }
     if (strcmp(cmd, "measure") == 0)
         return ml_cmd_measure(argc - 1, argv + 1);
+    if (strcmp(cmd, "compare") == 0)
+        return ml_cmd_compare(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)
         return ml_cmd_tone(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);

@@ -14,6 +14,7 @@
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/output.h"
+#include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "analyzer/uncertainty.h"
 #include "dsp/spectrum.h"
@@ -52,6 +53,8 @@ static void measure_usage(FILE *f)
             "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
             "  --format text|json|csv    report format (default text)\n"
             "  --output FILE             write the report to FILE (default standard output)\n"
+            "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
+            "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
             "\n"
             "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
             ML_MAX_HARMONICS, ml_cli_safety);
@@ -73,9 +76,9 @@ static int parse_band(const char *s, ml_measure_opts *o)
     return 1;
 }
 
-static int parse_measure(int argc, char **argv, ml_measure_opts *o)
+int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
 {
-    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD };
+    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD, O_PLOT, O_REPORT };
     static const struct option longopts[] = {
         {"kind", required_argument, NULL, 'k'},
         {"channel", required_argument, NULL, 'c'},
@@ -95,6 +98,8 @@ static int parse_measure(int argc, char **argv, ml_measure_opts *o)
         {"limits", required_argument, NULL, 'l'},
         {"format", required_argument, NULL, 'f'},
         {"output", required_argument, NULL, 'o'},
+        {"plot", required_argument, NULL, O_PLOT},
+        {"report", required_argument, NULL, O_REPORT},
         {"help", no_argument, NULL, 'h'},
         {NULL, 0, NULL, 0},
     };
@@ -197,16 +202,21 @@ static int parse_measure(int argc, char **argv, ml_measure_opts *o)
             else return ml_cli_error("--format: '%s' is not text, json or csv", optarg);
             break;
         case 'o': o->output_path = optarg; break;
+        case O_PLOT: o->plot_path = optarg; break;
+        case O_REPORT: o->report_path = optarg; break;
         case 'h': measure_usage(stdout); return -1;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens measure --help')", argv[optind - 1]);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens measure --help')", argv[optind - 1]);
+        case ':': return ml_cli_error("%s needs a value (try 'modlens %s --help')", argv[optind - 1], argv[0]);
+        default: return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", argv[optind - 1], argv[0]);
         }
     }
-    if (optind != argc - 1)
+    if (ninputs == 2 && argc - optind != 2)
+        return ml_cli_error("compare needs two inputs A and B (try 'modlens compare --help')");
+    if (ninputs == 1 && optind != argc - 1)
         return ml_cli_error(optind >= argc ? "measure needs one input FILE (try 'modlens measure --help')"
                                            : "measure takes one input FILE; extra argument '%s'",
                             argv[argc - 1]);
     o->input = argv[optind];
+    o->input2 = ninputs == 2 ? argv[optind + 1] : NULL;
     return 0;
 }
 
@@ -405,6 +415,8 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
         }
     }
     ml_measure_add_audio(rep, &ar, ok);
+    if (o->plot)
+        ml_plots_audio(o->plot, spec, &ar, ok);
     const double peak = fmax(fabs(stats.min), fabs(stats.max));
     ml_measure_add(rep, "audio.rms_dbfs",
                    stats.sumsq > 0 ? ml_power_dbfs(stats.sumsq / (double)stats.count) : NAN);
@@ -472,12 +484,58 @@ static int write_report(const ml_measure_opts *o, ml_report *rep)
     return 0;
 }
 
+int ml_measure_analyse(ml_measure_opts *o, ml_report *rep)
+{
+    ml_segment seg;
+    memset(rep, 0, sizeof *rep);
+    int rc = open_segment(o, &seg);
+    if (rc != 0)
+        goto done;
+
+    ml_kind kind = o->kind;
+    char reason[160];
+    double carrier = o->carrier_hz;
+    switch (kind) {
+    case ML_KIND_AUDIO: snprintf(reason, sizeof reason, "--kind audio"); break;
+    case ML_KIND_IF: snprintf(reason, sizeof reason, "--kind if"); break;
+    case ML_KIND_IQ: snprintf(reason, sizeof reason, "--kind iq"); break;
+    case ML_KIND_AUTO:
+        if (seg.info->channels - (o->reference_channel > 0 ? 1 : 0) >= 2) {
+            kind = ML_KIND_IQ;
+            snprintf(reason, sizeof reason, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
+                     o->channel, o->channel + 1);
+        } else {
+            bool is_if = false;
+            rc = ml_measure_detect_if(o, &seg, &is_if, &carrier, reason, sizeof reason);
+            if (rc != 0)
+                goto done;
+            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
+            if (!is_if)
+                carrier = o->carrier_hz;
+        }
+        break;
+    }
+    if (kind == ML_KIND_AUDIO)
+        rc = measure_audio(o, &seg, reason, rep);
+    else
+        rc = ml_measure_modulation(o, &seg, kind, reason, carrier, rep);
+    if (rc == 0 && o->limits)
+        ml_limits_apply(o->limits, rep);
+done:
+    ml_source_close(seg.src);
+    return rc;
+}
+
 int ml_cmd_measure(int argc, char **argv)
 {
+    char cmdline[1024];
+    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
     ml_measure_opts o;
-    int rc = parse_measure(argc, argv, &o);
+    int rc = ml_measure_parse(argc, argv, &o, 1);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
+    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
+        return rc;
 
     static ml_limits limits;
     char err[512];
@@ -491,49 +549,25 @@ int ml_cmd_measure(int argc, char **argv)
         && (ml_same_file(o.output_path, o.input) || (o.limits_path && ml_same_file(o.output_path, o.limits_path))
             || (o.carrier_reference && ml_same_file(o.output_path, o.carrier_reference))))
         return ml_cli_error("%s: refusing to overwrite an input file with the report", o.output_path);
+    const char *extra[2] = {o.plot_path, o.report_path};
+    for (int i = 0; i < 2; i++)
+        if (extra[i] && (ml_same_file(extra[i], o.input) || (o.limits_path && ml_same_file(extra[i], o.limits_path))
+                         || (o.carrier_reference && ml_same_file(extra[i], o.carrier_reference))))
+            return ml_cli_error("%s: refusing to overwrite an input file", extra[i]);
 
     static ml_report rep;
-    memset(&rep, 0, sizeof rep);
-    ml_segment seg;
-    rc = open_segment(&o, &seg);
+    ml_plot_data pd;
+    ml_plot_data_init(&pd);
+    if (o.plot_path || o.report_path)
+        o.plot = &pd;
+    rc = ml_measure_analyse(&o, &rep);
+    if (rc == 0)
+        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+    ml_plot_data_free(&pd);
     if (rc != 0)
-        goto done;
-
-    ml_kind kind = o.kind;
-    char reason[160];
-    double carrier = o.carrier_hz;
-    switch (kind) {
-    case ML_KIND_AUDIO: snprintf(reason, sizeof reason, "--kind audio"); break;
-    case ML_KIND_IF: snprintf(reason, sizeof reason, "--kind if"); break;
-    case ML_KIND_IQ: snprintf(reason, sizeof reason, "--kind iq"); break;
-    case ML_KIND_AUTO:
-        if (seg.info->channels - (o.reference_channel > 0 ? 1 : 0) >= 2) {
-            kind = ML_KIND_IQ;
-            snprintf(reason, sizeof reason, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
-                     o.channel, o.channel + 1);
-        } else {
-            bool is_if = false;
-            rc = ml_measure_detect_if(&o, &seg, &is_if, &carrier, reason, sizeof reason);
-            if (rc != 0)
-                goto done;
-            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
-            if (!is_if)
-                carrier = o.carrier_hz;
-        }
-        break;
-    }
-    if (kind == ML_KIND_AUDIO)
-        rc = measure_audio(&o, &seg, reason, &rep);
-    else
-        rc = ml_measure_modulation(&o, &seg, kind, reason, carrier, &rep);
-    if (rc != 0)
-        goto done;
-    if (o.limits)
-        ml_limits_apply(o.limits, &rep);
+        return rc;
     rc = write_report(&o, &rep);
     if (rc == 0)
         rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
-done:
-    ml_source_close(seg.src);
     return rc;
 }

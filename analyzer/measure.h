@@ -10,6 +10,7 @@
 #include "analyzer/limits.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
+#include "io/plot.h"
 #include "io/report.h"
 #include "io/source.h"
 
@@ -36,6 +37,10 @@ typedef struct {
     const ml_limits *limits;  /* loaded profile or NULL                                     */
     ml_report_format format;
     const char *output_path;
+    const char *input2;       /* compare: the second input B                                */
+    const char *plot_path;    /* --plot FILE (.png, .svg, .pdf) or NULL                      */
+    const char *report_path;  /* --report FILE.pdf or NULL                                   */
+    ml_plot_data *plot;       /* filled with the pictures' data when not NULL               */
 } ml_measure_opts;
 
 /* The analysed segment of an open source. */
@@ -45,6 +50,12 @@ typedef struct {
     int64_t first;            /* first frame                                                */
     int64_t nframes;          /* frames analysed                                            */
 } ml_segment;
+
+/* Parses measure's options and ninputs (1 or 2) input files into o; 0, -1 after --help, or
+ * an exit status (error printed). argv[0] names the command in messages. */
+int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs);
+/* Analyses o->input into rep (limits applied when o->limits); 0 or an exit status (error printed). */
+int ml_measure_analyse(ml_measure_opts *o, ml_report *rep);
 
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
 void ml_measure_add(ml_report *r, const char *name, double value);

@@ -21,6 +21,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/measure.h"
+#include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
 #include "dsp/am.h"
 #include "dsp/metrics.h"
@@ -366,6 +367,8 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
+    if (o->plot)
+        ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
     buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     ref = malloc(ML_BLOCK_FRAMES * sizeof *ref);
     mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
@@ -401,6 +404,10 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &out, &nout);
         feed(rf, aud, &out, nout, iq, inv_c);
         ml_blocks_push(blocks, out.env, out.modulated, nout);
+        if (o->plot) {
+            ml_plots_input(o->plot, done_frames, o->reference_channel > 0 ? ref : NULL, got);
+            ml_plots_envelope(o->plot, out.env, nout);
+        }
         done_frames += (int64_t)got;
         ml_measure_progress(seg, done_frames, &next, &shown);
     }
@@ -409,6 +416,8 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ml_am_finish(am, &out, &nout);
     feed(rf, aud, &out, nout, iq, inv_c);
     ml_blocks_push(blocks, out.env, out.modulated, nout);
+    if (o->plot)
+        ml_plots_envelope(o->plot, out.env, nout);
     ml_am_result ar;
     if (ml_am_get_result(am, &ar) != ML_OK) {
         rc = ml_cli_error("%s: no envelope could be measured", o->input);
@@ -578,6 +587,9 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)(stats[0].clipped + stats[1].clipped));
     ml_blocks_report(blocks, rep, NULL);
+    if (o->plot)
+        ml_plots_modulation(o->plot, rf, f_car, c * c * fsp, fm, bw, o->limits && o->limits->has_mask ? &o->limits->mask : NULL,
+                            c_prov / c, emax / c, emin / c, ac_cfg.pinch_rel);
 done:
     ml_blocks_destroy(blocks);
     free(buf);
