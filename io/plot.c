@@ -287,9 +287,9 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
         cairo_rectangle(cr, ax_x(&ax, p->obw_lo_hz), ax.y, ax_x(&ax, p->obw_hi_hz) - ax_x(&ax, p->obw_lo_hz), ax.h);
         cairo_fill(cr);
     }
-    if (b && b->nbins && a && a->nbins)
-        trace(cr, &ax, b, ML_C_B, 1.0);
     trace(cr, &ax, p, ML_C_A, 1.0);
+    if (b && b->nbins && a && a->nbins) /* B, the later build, on top */
+        trace(cr, &ax, b, ML_C_B, 0.8);
     if (p->nmask > 1) {
         const double dash[] = {5, 3};
         cairo_set_dash(cr, dash, 2, 0);
