@@ -217,7 +217,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
 int ml_cmd_live(int argc, char **argv)
 {
     ml_measure_opts o;
-    int rc = ml_measure_parse(argc, argv, &o, true);
+    int rc = ml_measure_parse(argc, argv, &o, 0);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
     static ml_limits limits;

@@ -20,6 +20,7 @@ static void usage(FILE *f)
             "\n"
             "commands:\n"
             "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
+            "  compare A B    compare two measurements (recordings or saved JSON): better, worse, same\n"
             "  live           capture from a sound card, then analyse as measure does\n"
             "  devices        list the sound-card inputs and outputs\n"
             "  tone           write a test signal to a file, or play it\n"
@@ -49,6 +50,8 @@ int main(int argc, char **argv)
         return ml_cmd_devices(argc - 1, argv + 1);
     if (strcmp(cmd, "live") == 0)
         return ml_cmd_live(argc - 1, argv + 1);
+    if (strcmp(cmd, "compare") == 0)
+        return ml_cmd_compare(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)
         return ml_cmd_tone(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);

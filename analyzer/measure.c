@@ -14,7 +14,9 @@
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/output.h"
+#include "analyzer/plots.h"
 #include "analyzer/registry.h"
+#include "analyzer/uncertainty.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
@@ -51,6 +53,8 @@ static void measure_usage(FILE *f)
             "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
             "  --format text|json|csv    report format (default text)\n"
             "  --output FILE             write the report to FILE (default standard output)\n"
+            "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
+            "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
             "\n"
             "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
             ML_MAX_HARMONICS, ml_cli_safety);
@@ -89,10 +93,11 @@ static int parse_play(const char *s, ml_live_opts *l)
     return 1;
 }
 
-int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live)
+int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
 {
-    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD, O_DEVICE, O_RATE, O_CHANNELS,
-           O_SECONDS, O_SAVE, O_PLAY, O_OUTDEV };
+    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD, O_PLOT, O_REPORT, O_DEVICE, O_RATE,
+           O_CHANNELS, O_SECONDS, O_SAVE, O_PLAY, O_OUTDEV };
+    const bool live = ninputs == 0;
     static const struct option longopts[] = {
         {"kind", required_argument, NULL, 'k'},
         {"channel", required_argument, NULL, 'c'},
@@ -112,6 +117,8 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live)
         {"limits", required_argument, NULL, 'l'},
         {"format", required_argument, NULL, 'f'},
         {"output", required_argument, NULL, 'o'},
+        {"plot", required_argument, NULL, O_PLOT},
+        {"report", required_argument, NULL, O_REPORT},
         {"help", no_argument, NULL, 'h'},
         {"device", required_argument, NULL, O_DEVICE},
         {"rate", required_argument, NULL, O_RATE},
@@ -122,7 +129,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live)
         {"output-device", required_argument, NULL, O_OUTDEV},
         {NULL, 0, NULL, 0},
     };
-    const char *cmd = live ? "live" : "measure";
+    const char *cmd = live ? "live" : argv[0];
     memset(o, 0, sizeof *o);
     o->live.enabled = live;
     o->live.seconds = 5.0;
@@ -224,6 +231,8 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live)
             else return ml_cli_error("--format: '%s' is not text, json or csv", optarg);
             break;
         case 'o': o->output_path = optarg; break;
+        case O_PLOT: o->plot_path = optarg; break;
+        case O_REPORT: o->report_path = optarg; break;
         case O_DEVICE: o->live.device = optarg; break;
         case O_OUTDEV: o->live.output_device = optarg; break;
         case O_SAVE: o->live.save_path = optarg; break;
@@ -266,11 +275,14 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live)
         o->input = "live";
         return 0;
     }
-    if (optind != argc - 1)
+    if (ninputs == 2 && argc - optind != 2)
+        return ml_cli_error("compare needs two inputs A and B (try 'modlens compare --help')");
+    if (ninputs == 1 && optind != argc - 1)
         return ml_cli_error(optind >= argc ? "measure needs one input FILE (try 'modlens measure --help')"
                                            : "measure takes one input FILE; extra argument '%s'",
                             argv[argc - 1]);
     o->input = argv[optind];
+    o->input2 = ninputs == 2 ? argv[optind + 1] : NULL;
     return 0;
 }
 
@@ -433,8 +445,9 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     const size_t nch = (size_t)info->channels;
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    ml_blocks *blocks = ml_blocks_create(&sc, &o->audio);
     int rc = 0;
-    if (buf == NULL || mono == NULL) {
+    if (buf == NULL || mono == NULL || blocks == NULL) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
@@ -450,6 +463,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
             mono[i] = buf[i * nch + (size_t)(o->channel - 1)];
         ml_stats_push(&stats, mono, got);
         ml_spectrum_push(spec, mono, got);
+        ml_blocks_push_float(blocks, mono, got);
         done += (int64_t)got;
         ml_measure_progress(seg, done, &next, &shown);
     }
@@ -476,6 +490,8 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
         }
     }
     ml_measure_add_audio(rep, &ar, ok);
+    if (o->plot)
+        ml_plots_audio(o->plot, spec, &ar, ok);
     const double peak = fmax(fabs(stats.min), fabs(stats.max));
     ml_measure_add(rep, "audio.rms_dbfs",
                    stats.sumsq > 0 ? ml_power_dbfs(stats.sumsq / (double)stats.count) : NAN);
@@ -487,9 +503,11 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
                        (unsigned long long)stats.clipped);
     if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
+    ml_blocks_report(blocks, rep, NULL);
 done:
     free(buf);
     free(mono);
+    ml_blocks_destroy(blocks);
     ml_spectrum_destroy(spec);
     return rc;
 }
@@ -598,25 +616,49 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
     return rc;
 }
 
+int ml_measure_analyse(ml_measure_opts *o, ml_report *rep)
+{
+    ml_segment seg;
+    memset(rep, 0, sizeof *rep);
+    int rc = open_segment(o, &seg);
+    if (rc == 0)
+        rc = ml_measure_run(o, &seg, rep);
+    ml_source_close(seg.src);
+    return rc;
+}
+
 int ml_cmd_measure(int argc, char **argv)
 {
+    char cmdline[1024];
+    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
     ml_measure_opts o;
-    int rc = ml_measure_parse(argc, argv, &o, false);
+    int rc = ml_measure_parse(argc, argv, &o, 1);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
+    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
+        return rc;
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
+    const char *extra[2] = {o.plot_path, o.report_path};
+    for (int i = 0; i < 2; i++)
+        if (extra[i] && (ml_same_file(extra[i], o.input) || (o.limits_path && ml_same_file(extra[i], o.limits_path))
+                         || (o.carrier_reference && ml_same_file(extra[i], o.carrier_reference))))
+            return ml_cli_error("%s: refusing to overwrite an input file", extra[i]);
+
     static ml_report rep;
-    memset(&rep, 0, sizeof rep);
-    ml_segment seg;
-    rc = open_segment(&o, &seg);
+    ml_plot_data pd;
+    ml_plot_data_init(&pd);
+    if (o.plot_path || o.report_path)
+        o.plot = &pd;
+    rc = ml_measure_analyse(&o, &rep);
     if (rc == 0)
-        rc = ml_measure_run(&o, &seg, &rep);
-    if (rc == 0)
-        rc = ml_measure_write(&o, &rep);
+        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+    ml_plot_data_free(&pd);
+    if (rc != 0)
+        return rc;
+    rc = ml_measure_write(&o, &rep);
     if (rc == 0)
         rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
-    ml_source_close(seg.src);
     return rc;
 }

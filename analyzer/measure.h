@@ -11,6 +11,7 @@
 #include "analyzer/limits.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
+#include "io/plot.h"
 #include "io/report.h"
 #include "io/source.h"
 
@@ -51,6 +52,10 @@ typedef struct {
     ml_report_format format;
     const char *output_path;
     ml_live_opts live;
+    const char *input2;       /* compare: the second input B                                */
+    const char *plot_path;    /* --plot FILE (.png, .svg, .pdf) or NULL                      */
+    const char *report_path;  /* --report FILE.pdf or NULL                                   */
+    ml_plot_data *plot;       /* filled with the pictures' data when not NULL               */
 } ml_measure_opts;
 
 /* The analysed segment of an open source. */
@@ -64,13 +69,18 @@ typedef struct {
     bool failed;              /* ... because of a device fault (message already printed)     */
 } ml_segment;
 
+/* Parses the options and ninputs input files into o (1: measure, 2: compare, 0: live, which also
+ * takes the capture options); 0, -1 after --help, or
+ * an exit status (error printed). argv[0] names the command in messages. */
+int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs);
+/* Analyses o->input into rep (limits applied when o->limits); 0 or an exit status (error printed). */
+int ml_measure_analyse(ml_measure_opts *o, ml_report *rep);
+
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
 void ml_measure_add(ml_report *r, const char *name, double value);
 /* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
-/* Parses measure's options (live false: one FILE argument) or live's (live true: no FILE, plus
- * the capture options). 0 ok, -1 help printed, else an exit status (error printed). */
-int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, bool live);
+
 /* Loads --limits and refuses outputs that name an input; 0 or an exit status. */
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits);
 /* Resolves the kind, runs its pipeline on the open segment and applies the limits. */

@@ -21,6 +21,8 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/measure.h"
+#include "analyzer/plots.h"
+#include "analyzer/uncertainty.h"
 #include "dsp/am.h"
 #include "dsp/metrics.h"
 #include "dsp/rf.h"
@@ -340,6 +342,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     float *buf = NULL, *ref = NULL, *mono = NULL;
     double complex *z = NULL;
     ml_am_output out = {0};
+    ml_blocks *blocks = NULL;
     if (rc_cfg.nfft == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
     if ((st = ml_spectrum_create(&rc_cfg, &rf)) != ML_OK || (st = ml_am_create(&ac_cfg, &am)) != ML_OK) {
@@ -360,6 +363,14 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         rc = ml_cli_error("%s: %s", o->input, ml_strerror(st));
         goto done;
     }
+    ml_audio_config bcfg = o->audio; /* the demodulated audio's band, as in step 4 */
+    bcfg.band_hi_hz = fmin(bcfg.band_hi_hz, bw);
+    if ((blocks = ml_blocks_create(&ac_spec, &bcfg)) == NULL) {
+        rc = ml_cli_error("%s: out of memory", o->input);
+        goto done;
+    }
+    if (o->plot)
+        ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
     buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     ref = malloc(ML_BLOCK_FRAMES * sizeof *ref);
     mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
@@ -394,6 +405,11 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         }
         ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &out, &nout);
         feed(rf, aud, &out, nout, iq, inv_c);
+        ml_blocks_push(blocks, out.env, out.modulated, nout);
+        if (o->plot) {
+            ml_plots_input(o->plot, done_frames, o->reference_channel > 0 ? ref : NULL, got);
+            ml_plots_envelope(o->plot, out.env, nout);
+        }
         done_frames += (int64_t)got;
         ml_measure_progress(seg, done_frames, &next, &shown);
     }
@@ -401,6 +417,9 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     size_t nout = 0;
     ml_am_finish(am, &out, &nout);
     feed(rf, aud, &out, nout, iq, inv_c);
+    ml_blocks_push(blocks, out.env, out.modulated, nout);
+    if (o->plot)
+        ml_plots_envelope(o->plot, out.env, nout);
     ml_am_result ar;
     if (ml_am_get_result(am, &ar) != ML_OK) {
         rc = ml_cli_error("%s: no envelope could be measured", o->input);
@@ -569,7 +588,12 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (stats[0].clipped + stats[1].clipped > 0)
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)(stats[0].clipped + stats[1].clipped));
+    ml_blocks_report(blocks, rep, NULL);
+    if (o->plot)
+        ml_plots_modulation(o->plot, rf, f_car, c * c * fsp, fm, bw, o->limits && o->limits->has_mask ? &o->limits->mask : NULL,
+                            c_prov / c, emax / c, emin / c, ac_cfg.pinch_rel);
 done:
+    ml_blocks_destroy(blocks);
     free(buf);
     free(ref);
     free(mono);

@@ -30,6 +30,8 @@ typedef struct {
     int decimals;     /* digits after the point in text and CSV                        */
     bool valid;       /* false: not measurable here (JSON null, text "n/a")            */
     double value;
+    bool has_u;       /* an uncertainty was estimated (analyzer/uncertainty.h)         */
+    double u;         /* half-width of its 95 % interval, in the metric's unit          */
 } ml_metric;
 
 typedef struct {
@@ -72,6 +74,8 @@ typedef struct {
     double start_s, analysed_s;
     char limits_path[1024];  /* "" when none                                               */
     char analysis[320];      /* method summary: window, nfft, segments                     */
+    size_t u_blocks;         /* blocks behind the uncertainties (0: none estimated)         */
+    double u_block_s;        /* length of one block in seconds                              */
     size_t nmetrics;
     ml_metric metrics[ML_REPORT_MAX_METRICS];
     size_t ntables;

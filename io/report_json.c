@@ -88,6 +88,24 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
         }
         json_object_set_new(p, leaf, arr);
     }
+    if (r->u_blocks > 0) {
+        /* the 95 % half-widths, nested like the metrics themselves */
+        json_t *uroot = json_object();
+        for (size_t i = 0; i < r->nmetrics; i++) {
+            const ml_metric *m = &r->metrics[i];
+            if (!m->valid || !m->has_u)
+                continue;
+            char leaf[64];
+            json_t *p = parent_of(uroot, m->name, leaf, sizeof leaf);
+            json_object_set_new(p, leaf, number(m->u, m->decimals + 1));
+        }
+        json_object_set_new(root, "uncertainty", uroot);
+        json_t *um = json_object();
+        json_object_set_new(um, "blocks", json_integer((json_int_t)r->u_blocks));
+        json_object_set_new(um, "block_s", number(r->u_block_s, 3));
+        json_object_set_new(um, "coverage", json_real(0.95));
+        json_object_set_new(root, "uncertainty_method", um);
+    }
     json_t *checks = json_array();
     for (size_t i = 0; i < r->nchecks; i++) {
         const ml_check *c = &r->checks[i];

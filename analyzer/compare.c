@@ -1,0 +1,347 @@
+/* The compare command: two recordings (or saved JSON reports) metric by metric, with verdicts.
+ * SPDX-License-Identifier: MIT
+ *
+ * Verdict of one metric (README "Comparing two measurements"): the difference d = B - A is
+ * "same" when |d| <= U + T, where U = sqrt(uA^2 + uB^2) combines the two 95 % half-widths
+ * (analyzer/uncertainty.h; 0 for a side without an estimate) with a floor of half the displayed
+ * resolution, and T is the --tolerance for that metric (default 0). Otherwise the registry's
+ * direction decides: lower-is-better metrics are "better" when d < 0, higher-is-better ones when
+ * d > 0, "worse" the other way. A metric without a direction that a profile limits is judged by
+ * its distance to the profile's target (the middle of a min..max range, else the one limit);
+ * without a target it is "changed". Exit status 1 when a counted metric is "worse": every metric
+ * without --limits, only the limited ones with a profile.
+ */
+#define _POSIX_C_SOURCE 200809L
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "analyzer/cli.h"
+#include "analyzer/commands.h"
+#include "analyzer/limits.h"
+#include "analyzer/measure.h"
+#include "analyzer/output.h"
+#include "analyzer/plots.h"
+#include "analyzer/registry.h"
+#include "io/compare.h"
+
+#define MAX_TOLERANCES 64
+
+typedef struct {
+    char metric[64]; /* full dotted name, "" = every metric */
+    double value;
+} tolerance;
+
+static void compare_usage(FILE *f)
+{
+    fprintf(f,
+            "usage: modlens compare [options] A B\n"
+            "\n"
+            "Compares two measurements of the same kind of signal, metric by metric: B against A (for\n"
+            "example a build after a change against the one before). A and B are recordings, measured\n"
+            "here with the same options, or JSON reports saved by 'modlens measure --format json'.\n"
+            "\n"
+            "  --tolerance X             a difference within the measurement uncertainty plus X (in the\n"
+            "                            metric's unit) counts as the same, for every metric\n"
+            "  --tolerance METRIC=X      the same for one metric only (repeatable; overrides X)\n"
+            "  --limits FILE             check A and B against a profile; only its metrics then decide\n"
+            "                            the exit status; modulation peaks are judged by their distance\n"
+            "                            to the profile's limit\n"
+            "  --format text|json|csv    comparison format (default text)\n"
+            "  --output FILE             write the comparison to FILE (default standard output)\n"
+            "  --plot FILE               A and B spectra overlaid and the metric table (.png .svg .pdf)\n"
+            "  --report FILE.pdf         a PDF record of the comparison\n"
+            "  measure's analysis options (see 'modlens measure --help') apply to both recordings.\n"
+            "\n"
+            "Exit status: 0 B is not worse than A beyond the uncertainty (plus tolerance) on any compared\n"
+            "metric, 1 it is worse on at least one, 2 usage or input error.\n\n%s",
+            ml_cli_safety);
+}
+
+/* Moves --tolerance arguments out of argv into tol[]; returns the new argc or -1 (error printed). */
+static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol)
+{
+    int out = 0;
+    *ntol = 0;
+    for (int i = 0; i < argc; i++) {
+        const char *val = NULL;
+        if (strcmp(argv[i], "--tolerance") == 0) {
+            if (i + 1 >= argc) {
+                ml_cli_error("--tolerance needs a value (try 'modlens compare --help')");
+                return -1;
+            }
+            val = argv[++i];
+        } else if (strncmp(argv[i], "--tolerance=", 12) == 0) {
+            val = argv[i] + 12;
+        } else {
+            argv[out++] = argv[i];
+            continue;
+        }
+        if (*ntol >= MAX_TOLERANCES) {
+            ml_cli_error("--tolerance: at most %d may be given", MAX_TOLERANCES);
+            return -1;
+        }
+        tolerance *t = &tol[(*ntol)++];
+        t->metric[0] = '\0';
+        const char *eq = strchr(val, '=');
+        const char *num = val;
+        if (eq) {
+            char name[64];
+            snprintf(name, sizeof name, "%.*s", (int)(eq - val), val);
+            int amb = 0;
+            const ml_metric_def *d = ml_registry_lookup(name, &amb);
+            if (d == NULL) {
+                ml_cli_error("--tolerance: '%s' is %s metric", name, amb ? "an ambiguous" : "not a known");
+                return -1;
+            }
+            snprintf(t->metric, sizeof t->metric, "%s", d->name);
+            num = eq + 1;
+        }
+        if (!ml_cli_number(num, &t->value) || t->value < 0) {
+            ml_cli_error("--tolerance: '%s' is not a number >= 0 (or METRIC=number)", val);
+            return -1;
+        }
+    }
+    return out;
+}
+
+static double tolerance_for(const tolerance *tol, size_t ntol, const char *metric)
+{
+    double all = 0;
+    for (size_t i = 0; i < ntol; i++)
+        if (tol[i].metric[0] == '\0')
+            all = tol[i].value;
+    for (size_t i = 0; i < ntol; i++)
+        if (strcmp(tol[i].metric, metric) == 0)
+            return tol[i].value;
+    return all;
+}
+
+/* True when the file's first non-blank byte opens a JSON object. */
+static bool looks_like_json(const char *path)
+{
+    FILE *f = fopen(path, "rb");
+    if (f == NULL)
+        return false;
+    int c;
+    do
+        c = fgetc(f);
+    while (c == ' ' || c == '\t' || c == '\r' || c == '\n');
+    fclose(f);
+    return c == '{';
+}
+
+/* One side: a saved report (limits re-applied) or a fresh measurement. */
+static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_plot_data *plot, bool *measured)
+{
+    *measured = false;
+    if (looks_like_json(path)) {
+        char err[512];
+        ml_status st = ml_report_read_json(path, rep, err, sizeof err);
+        if (st != ML_OK)
+            return ml_cli_error("%s: %s", path, err);
+        for (size_t i = 0; i < rep->nmetrics; i++) {
+            const ml_metric_def *d = ml_registry_lookup(rep->metrics[i].name, NULL);
+            if (d && strcmp(d->name, rep->metrics[i].name) == 0) {
+                rep->metrics[i].unit = d->unit;
+                rep->metrics[i].decimals = d->decimals;
+            }
+        }
+        if (o->limits)
+            ml_limits_apply(o->limits, rep);
+        return 0;
+    }
+    ml_measure_opts one = *o;
+    one.input = path;
+    one.plot = plot;
+    *measured = true;
+    return ml_measure_analyse(&one, rep);
+}
+
+static const ml_limit *limit_for(const ml_limits *l, const char *metric)
+{
+    for (size_t i = 0; l && i < l->n; i++)
+        if (strcmp(l->items[i].metric, metric) == 0)
+            return &l->items[i];
+    return NULL;
+}
+
+static void judge(ml_compare_row *r, const ml_metric_def *d, const ml_limit *lim, double u, double tol)
+{
+    if (!r->a_valid || !r->b_valid) {
+        r->verdict = "n/a";
+        return;
+    }
+    r->difference = r->b - r->a;
+    const double floor_u = 0.5 * pow(10.0, -r->decimals); /* below the displayed resolution */
+    r->uncertainty = fmax(u, floor_u) + tol;
+    if (fabs(r->difference) <= r->uncertainty) {
+        r->verdict = "same";
+        return;
+    }
+    if (d->better == ML_BETTER_LOWER) {
+        r->verdict = r->difference < 0 ? "better" : "worse";
+    } else if (d->better == ML_BETTER_HIGHER) {
+        r->verdict = r->difference > 0 ? "better" : "worse";
+    } else if (lim && (lim->has_min || lim->has_max)) {
+        const double target = lim->has_min && lim->has_max ? 0.5 * (lim->min + lim->max)
+                              : lim->has_max                ? lim->max
+                                                            : lim->min;
+        const double da = fabs(r->a - target), db = fabs(r->b - target);
+        r->verdict = fabs(db - da) <= r->uncertainty ? "same" : db < da ? "better" : "worse";
+    } else {
+        r->verdict = "changed";
+    }
+}
+
+static void fill_limit(ml_compare_row *row, const ml_report *a, const ml_report *b)
+{
+    for (size_t i = 0; i < a->nchecks; i++)
+        if (strcmp(a->checks[i].metric, row->metric) == 0) {
+            const ml_check *c = &a->checks[i];
+            row->has_limit = true;
+            row->a_pass = c->pass;
+            if (c->has_min && c->has_max)
+                snprintf(row->limit, sizeof row->limit, "%.*f..%.*f", c->decimals, c->min, c->decimals, c->max);
+            else if (c->has_min)
+                snprintf(row->limit, sizeof row->limit, ">= %.*f", c->decimals, c->min);
+            else
+                snprintf(row->limit, sizeof row->limit, "<= %.*f", c->decimals, c->max);
+        }
+    for (size_t i = 0; i < b->nchecks; i++)
+        if (strcmp(b->checks[i].metric, row->metric) == 0)
+            row->b_pass = b->checks[i].pass;
+}
+
+static void add_row(ml_comparison *c, const ml_measure_opts *o, const char *name, const tolerance *tol,
+                    size_t ntol)
+{
+    const ml_metric_def *d = ml_registry_lookup(name, NULL);
+    if (d == NULL || strcmp(d->name, name) != 0 || c->nrows >= ML_REPORT_MAX_METRICS)
+        return;
+    for (size_t i = 0; i < c->nrows; i++)
+        if (strcmp(c->rows[i].metric, name) == 0)
+            return;
+    ml_compare_row *r = &c->rows[c->nrows++];
+    memset(r, 0, sizeof *r);
+    snprintf(r->metric, sizeof r->metric, "%s", name);
+    r->unit = d->unit;
+    r->decimals = d->decimals;
+    const ml_metric *ma = NULL, *mb = NULL;
+    for (size_t i = 0; i < c->a->nmetrics; i++)
+        if (strcmp(c->a->metrics[i].name, name) == 0)
+            ma = &c->a->metrics[i];
+    for (size_t i = 0; i < c->b->nmetrics; i++)
+        if (strcmp(c->b->metrics[i].name, name) == 0)
+            mb = &c->b->metrics[i];
+    r->a_valid = ma && ma->valid;
+    r->b_valid = mb && mb->valid;
+    r->a = r->a_valid ? ma->value : 0;
+    r->b = r->b_valid ? mb->value : 0;
+    const double ua = r->a_valid && ma->has_u ? ma->u : 0, ub = r->b_valid && mb->has_u ? mb->u : 0;
+    const ml_limit *lim = limit_for(o->limits, name);
+    judge(r, d, lim, sqrt(ua * ua + ub * ub), tolerance_for(tol, ntol, name));
+    r->counted = o->limits ? lim != NULL : true;
+    if (r->counted && strcmp(r->verdict, "worse") == 0)
+        c->nworse++;
+    fill_limit(r, c->a, c->b);
+}
+
+static void note(ml_comparison *c, const char *fmt, const char *a, const char *b)
+{
+    if (c->nnotes >= ML_REPORT_MAX_NOTES)
+        return;
+    char buf[2200];
+    snprintf(buf, sizeof buf, fmt, a, b);
+    snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.199s", buf);
+}
+
+int ml_cmd_compare(int argc, char **argv)
+{
+    for (int i = 1; i < argc; i++)
+        if (strcmp(argv[i], "--help") == 0 || strcmp(argv[i], "-h") == 0) {
+            compare_usage(stdout);
+            return ML_EXIT_OK;
+        }
+    char cmdline[1024];
+    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
+    static tolerance tol[MAX_TOLERANCES];
+    size_t ntol = 0;
+    argc = take_tolerances(argc, argv, tol, &ntol);
+    if (argc < 0)
+        return ML_EXIT_USAGE;
+    ml_measure_opts o;
+    int rc = ml_measure_parse(argc, argv, &o, 2);
+    if (rc != 0)
+        return rc < 0 ? ML_EXIT_OK : rc;
+    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
+        return rc;
+    static ml_limits limits;
+    char err[512];
+    if (o.limits_path) {
+        if (ml_limits_load(o.limits_path, &limits, err, sizeof err) != ML_OK)
+            return ml_cli_error("%s: %s", o.limits_path, err);
+        o.limits = &limits;
+    }
+    const char *outs[3] = {o.output_path, o.plot_path, o.report_path};
+    const char *ins[4] = {o.input, o.input2, o.limits_path, o.carrier_reference};
+    for (int i = 0; i < 3; i++)
+        for (int j = 0; outs[i] && j < 4; j++)
+            if (ins[j] && ml_same_file(outs[i], ins[j]))
+                return ml_cli_error("%s: refusing to overwrite an input file", outs[i]);
+
+    static ml_report ra, rb;
+    static ml_comparison cmp;
+    ml_plot_data pa, pb;
+    ml_plot_data_init(&pa);
+    ml_plot_data_init(&pb);
+    bool ma = false, mb = false;
+    rc = load_side(&o, o.input, &ra, &pa, &ma);
+    if (rc == 0)
+        rc = load_side(&o, o.input2, &rb, &pb, &mb);
+    if (rc != 0)
+        goto done;
+    memset(&cmp, 0, sizeof cmp);
+    cmp.a = &ra;
+    cmp.b = &rb;
+    if (o.limits_path)
+        snprintf(cmp.limits_path, sizeof cmp.limits_path, "%s", o.limits_path);
+    for (size_t i = 0; i < ra.nmetrics; i++)
+        add_row(&cmp, &o, ra.metrics[i].name, tol, ntol);
+    for (size_t i = 0; i < rb.nmetrics; i++)
+        add_row(&cmp, &o, rb.metrics[i].name, tol, ntol);
+    if (strcmp(ra.kind, rb.kind) != 0)
+        note(&cmp, "A was measured as %s and B as %s: only the metrics both have are compared", ra.kind, rb.kind);
+    if (ra.u_blocks < 3)
+        note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
+             "A", "");
+    if (rb.u_blocks < 3)
+        note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
+             "B", "");
+    if ((o.plot_path || o.report_path) && (!ma || !mb))
+        note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
+    rc = ml_plots_write_compare(o.plot_path, o.report_path, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
+    if (rc != 0)
+        goto done;
+
+    ml_output out;
+    if (!ml_output_open(&out, o.output_path, err, sizeof err)) {
+        rc = ml_cli_error("%s: %s", o.output_path, err);
+        goto done;
+    }
+    if (ml_compare_write(out.f, &cmp, o.format) != ML_OK) {
+        ml_output_abort(&out);
+        rc = ml_cli_error("%s: cannot write the comparison", o.output_path ? o.output_path : "standard output");
+        goto done;
+    }
+    if (!ml_output_commit(&out, err, sizeof err)) {
+        rc = ml_cli_error("%s: %s", o.output_path, err);
+        goto done;
+    }
+    rc = cmp.nworse > 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
+done:
+    ml_plot_data_free(&pa);
+    ml_plot_data_free(&pb);
+    return rc;
+}

@@ -1,0 +1,51 @@
+/* The measurement pictures and PDF records from the analyzer's side: filling ml_plot_data while
+ * the pipelines stream (bounded memory), and writing --plot and --report files safely.
+ * SPDX-License-Identifier: MIT
+ */
+#ifndef ML_ANALYZER_PLOTS_H
+#define ML_ANALYZER_PLOTS_H
+
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#include "dsp/metrics.h"
+#include "dsp/rf.h"
+#include "dsp/spectrum.h"
+#include "io/compare.h"
+#include "io/plot.h"
+#include "io/report.h"
+
+/* Audio spectrum (dBFS per bin, log axis over the band) with fundamental, harmonics and hum. */
+void ml_plots_audio(ml_plot_data *p, const ml_spectrum *spec, const ml_audio_result *a, bool ok);
+
+/* Envelope window: nframes of the segment at rate; the window starts in the middle of the
+ * segment and holds at most 0.1 s (ML_PLOT_MAX_ENV samples). edge: ml_am_edge (envelope
+ * sample k belongs to input sample edge + k). with_ref: a reference channel is kept too. */
+void ml_plots_begin_envelope(ml_plot_data *p, int64_t nframes, double rate_hz, size_t edge, bool with_ref);
+/* Input samples first .. first + n - 1 of the segment; ref[n] the reference channel or NULL. */
+void ml_plots_input(ml_plot_data *p, int64_t first, const float *ref, size_t n);
+/* The next n envelope samples (any unit; scaled in ml_plots_modulation). */
+void ml_plots_envelope(ml_plot_data *p, const double *env, size_t n);
+
+/* Capture spectrum in dBc re carrier_power, linear axis around the carrier, with carrier,
+ * sidebands at +-fm, occupied bandwidth and mask (may be NULL); the envelope scaled by
+ * env_scale into units of Ec, and the peak readings / Ec. */
+void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, double carrier_power, double fm_hz,
+                         double bw_hz, const ml_mask *mask, double env_scale, double emax, double emin,
+                         double pinch_rel);
+
+/* "modlens measure --kind iq file.wav" from argv (before getopt permutes it). */
+void ml_plots_cmdline(int argc, char **argv, char *buf, size_t len);
+
+/* Checks --plot / --report names (type by extension); 0 or an exit status (error printed). */
+int ml_plots_check_paths(const char *plot_path, const char *report_path);
+
+/* Writes the --plot and --report files of a measurement; 0 or an exit status. */
+int ml_plots_write_measure(const char *plot_path, const char *report_path, const ml_report *r,
+                           const ml_plot_data *p, const char *cmdline);
+/* The same for a comparison (a, b may be NULL: a side read from JSON has no spectrum). */
+int ml_plots_write_compare(const char *plot_path, const char *report_path, const ml_comparison *c,
+                           const ml_plot_data *a, const ml_plot_data *b, const char *cmdline);
+
+#endif

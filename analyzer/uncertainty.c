@@ -1,0 +1,161 @@
+/* Block estimates of the audio figures and their 95 % intervals.
+ * SPDX-License-Identifier: MIT
+ *
+ * References: [gum:2008] and [welford:1962], full entries in dsp/uncert.h.
+ */
+#include "analyzer/uncertainty.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "dsp/uncert.h"
+
+/* The figures estimated per block, in report order; the aliases below reuse them. */
+enum {
+    U_F_HZ, U_F_DBFS, U_THD_PCT, U_THD_DB, U_THDN_PCT, U_THDN_DB, U_SINAD, U_SNR, U_ENOB, U_NOISE,
+    U_HUM_DBFS, U_HUM_DBC, U_COUNT
+};
+static const char *const names[U_COUNT] = {
+    "audio.fundamental_hz", "audio.fundamental_dbfs", "audio.thd_pct", "audio.thd_db", "audio.thdn_pct",
+    "audio.thdn_db", "audio.sinad_db", "audio.snr_db", "audio.enob_bits", "audio.noise_dbfs",
+    "hum.level_dbfs", "hum.level_dbc",
+};
+/* if/iq report the demodulated audio's figures under these names too (README) */
+static const struct { const char *name; int src; } aliases[] = {
+    {"modulation.envelope_thd_pct", U_THD_PCT},
+    {"modulation.hum_db", U_HUM_DBFS},
+    {"modulation.noise_db", U_NOISE},
+};
+
+struct ml_blocks {
+    ml_spectrum *spec;
+    ml_audio_config cfg;
+    size_t nfft, hop, keep;  /* keep = nfft - hop samples carried into the next block        */
+    double *ring;            /* the last `keep` samples                                      */
+    unsigned long long total, last_bad, block_first;
+    bool any_bad;
+    size_t need;             /* samples until the block's last segment completes              */
+    ml_running acc[U_COUNT];
+};
+
+ml_blocks *ml_blocks_create(const ml_spectrum_config *sc, const ml_audio_config *cfg)
+{
+    ml_blocks *q = calloc(1, sizeof *q);
+    if (q == NULL)
+        return NULL;
+    ml_spectrum_config c = *sc;
+    c.complex_input = 0;
+    q->cfg = *cfg;
+    q->nfft = c.nfft;
+    q->hop = c.hop;
+    q->keep = c.nfft - c.hop;
+    q->ring = calloc(q->keep ? q->keep : 1, sizeof *q->ring);
+    if (q->ring == NULL || ml_spectrum_create(&c, &q->spec) != ML_OK) {
+        ml_blocks_destroy(q);
+        return NULL;
+    }
+    q->need = q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop;
+    for (int i = 0; i < U_COUNT; i++)
+        ml_running_reset(&q->acc[i]);
+    return q;
+}
+
+void ml_blocks_destroy(ml_blocks *q)
+{
+    if (q == NULL)
+        return;
+    ml_spectrum_destroy(q->spec);
+    free(q->ring);
+    free(q);
+}
+
+/* The figures of one complete block; the same formulas as the whole report (analyzer/measure.c). */
+static void finish_block(ml_blocks *q)
+{
+    ml_audio_result a;
+    if (!q->any_bad && ml_audio_analyze(q->spec, &q->cfg, &a) == ML_OK) {
+        const double p1 = a.fundamental_power, sinad = ml_ratio_db(p1, a.band_power - p1);
+        double v[U_COUNT];
+        v[U_F_HZ] = a.fundamental_hz;
+        v[U_F_DBFS] = ml_power_dbfs(p1);
+        v[U_THD_PCT] = ml_ratio_pct(a.distortion_power, p1);
+        v[U_THD_DB] = ml_ratio_db(a.distortion_power, p1);
+        v[U_THDN_PCT] = ml_ratio_pct(a.band_power - p1, p1);
+        v[U_THDN_DB] = -sinad;
+        v[U_SINAD] = sinad;
+        v[U_SNR] = ml_ratio_db(p1, a.noise_power);
+        v[U_ENOB] = ml_enob_bits(sinad);
+        v[U_NOISE] = ml_power_dbfs(a.noise_power);
+        v[U_HUM_DBFS] = ml_power_dbfs(a.hum_power);
+        v[U_HUM_DBC] = ml_ratio_db(a.hum_power, p1);
+        for (int i = 0; i < U_COUNT; i++)
+            ml_running_push(&q->acc[i], v[i]);
+    }
+    /* the next block starts with the overlap of the last segment, oldest sample first */
+    ml_spectrum_reset(q->spec);
+    const size_t start = (size_t)(q->total % q->keep);
+    ml_spectrum_push_double(q->spec, q->ring + start, q->keep - start);
+    ml_spectrum_push_double(q->spec, q->ring, start);
+    q->block_first = q->total - q->keep;
+    q->any_bad = q->last_bad > q->block_first; /* last_bad is one past the last untagged sample */
+    q->need = ML_BLOCK_SEGMENTS * q->hop;
+}
+
+void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, size_t n)
+{
+    size_t i = 0;
+    while (i < n) {
+        const size_t take = n - i < q->need ? n - i : q->need;
+        ml_spectrum_push_double(q->spec, x + i, take);
+        for (size_t j = i; j < i + take; j++) {
+            q->ring[(size_t)(q->total % q->keep)] = x[j];
+            if (tag && !tag[j]) {
+                q->any_bad = true;
+                q->last_bad = q->total + 1; /* one past the untagged sample */
+            }
+            q->total++;
+        }
+        q->need -= take;
+        i += take;
+        if (q->need == 0)
+            finish_block(q);
+    }
+}
+
+void ml_blocks_push_float(ml_blocks *q, const float *x, size_t n)
+{
+    double tmp[512];
+    for (size_t i = 0; i < n; i += 512) {
+        const size_t m = n - i < 512 ? n - i : 512;
+        for (size_t j = 0; j < m; j++)
+            tmp[j] = x[i + j];
+        ml_blocks_push(q, tmp, NULL, m);
+    }
+}
+
+void ml_blocks_report(const ml_blocks *q, ml_report *r, size_t *nblocks)
+{
+    size_t n = (size_t)q->acc[U_F_HZ].n;
+    if (nblocks)
+        *nblocks = n;
+    for (size_t i = 0; i < r->nmetrics; i++) {
+        ml_metric *m = &r->metrics[i];
+        int src = -1;
+        for (int k = 0; k < U_COUNT; k++)
+            if (strcmp(m->name, names[k]) == 0)
+                src = k;
+        for (size_t k = 0; k < sizeof aliases / sizeof aliases[0]; k++)
+            if (strcmp(m->name, aliases[k].name) == 0)
+                src = aliases[k].src;
+        if (src < 0 || !m->valid)
+            continue;
+        const double u = ml_running_u95(&q->acc[src]);
+        if (isfinite(u)) {
+            m->has_u = true;
+            m->u = u;
+        }
+    }
+    r->u_blocks = n;
+    r->u_block_s = (double)(ML_BLOCK_SEGMENTS * q->hop) / ml_spectrum_rate_hz(q->spec);
+}
