@@ -18,6 +18,7 @@
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
 #include "analyzer/output.h"
+#include "analyzer/plots.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
 
@@ -216,13 +217,23 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
 
 int ml_cmd_live(int argc, char **argv)
 {
+    char cmdline[1024];
+    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
     ml_measure_opts o;
     int rc = ml_measure_parse(argc, argv, &o, 0);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
+    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
+        return rc;
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
+    const char *extra[2] = {o.plot_path, o.report_path};
+    for (int i = 0; i < 2; i++)
+        if (extra[i] && ((o.limits_path && ml_same_file(extra[i], o.limits_path))
+                         || (o.carrier_reference && ml_same_file(extra[i], o.carrier_reference))
+                         || (o.live.save_path && strcmp(extra[i], o.live.save_path) == 0)))
+            return ml_cli_error("%s: refusing to overwrite an input or the capture file", extra[i]);
     long nch = o.live.channels;
     if (nch == 0) {
         nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
@@ -300,6 +311,10 @@ int ml_cmd_live(int argc, char **argv)
     }
     static ml_report rep;
     memset(&rep, 0, sizeof rep);
+    ml_plot_data pd;
+    ml_plot_data_init(&pd);
+    if (o.plot_path || o.report_path)
+        o.plot = &pd;
     if (rc == 0)
         rc = ml_measure_run(&o, &seg, &rep);
     ml_source_stop(seg.src);
@@ -330,12 +345,15 @@ int ml_cmd_live(int argc, char **argv)
             ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
         if (ls.underflow_frames > 0 && o.live.play)
             ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
-        rc = ml_measure_write(&o, &rep);
+        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        if (rc == 0)
+            rc = ml_measure_write(&o, &rep);
         if (rc == 0)
             rc = seg.failed ? ML_EXIT_USAGE
                             : strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     }
     g_live = NULL;
+    ml_plot_data_free(&pd);
     ml_source_close(seg.src);
     ml_synth_destroy(feed.syn);
     return rc;

@@ -84,8 +84,9 @@ def main():
                 feed = srv.feed(feeder, "feed", name)
                 nch = sf.info(name).channels
                 save = name.replace(".wav", "-live.wav")
+                png = name.replace(".wav", "-live.png")
                 rc, rep, err = live_json(srv, exe, ["--device", "feed", "--channels", str(nch), "--kind", kind,
-                                                    "--seconds", "4", "--save", save])
+                                                    "--seconds", "4", "--save", save, "--plot", png])
                 feed.terminate()
                 feed.wait()
                 ck.check(f"{name}: live exits 0", rc == 0 and rep is not None, err.strip())
@@ -97,6 +98,10 @@ def main():
                          and rep["live"]["lost_frames"] == 0, str(rep["live"]))
                 ck.close(f"{name}: captured 4 s", rep["input"]["duration_s"], 4.0, 1e-9)
                 compare(ck, name, rep, ref, keys)
+                with open(png, "rb") as f:
+                    head = f.read(8)
+                ck.check(f"{name}: --plot works live (a PNG file)", head == b"\x89PNG\r\n\x1a\n"
+                         and os.path.getsize(png) > 10000, str(head))
                 info = sf.info(save)
                 ck.check(f"{name}: --save holds every captured frame", info.frames == rep["input"]["frames"]
                          and info.channels == nch and info.samplerate == 48000, str(info))
