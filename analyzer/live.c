@@ -228,12 +228,6 @@ int ml_cmd_live(int argc, char **argv)
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-    const char *extra[2] = {o.plot_path, o.report_path};
-    for (int i = 0; i < 2; i++)
-        if (extra[i] && ((o.limits_path && ml_same_file(extra[i], o.limits_path))
-                         || (o.carrier_reference && ml_same_file(extra[i], o.carrier_reference))
-                         || (o.live.save_path && strcmp(extra[i], o.live.save_path) == 0)))
-            return ml_cli_error("%s: refusing to overwrite an input or the capture file", extra[i]);
     long nch = o.live.channels;
     if (nch == 0) {
         nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);

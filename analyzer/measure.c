@@ -568,16 +568,20 @@ int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
             return ml_cli_error("%s: %s", o->limits_path, err);
         o->limits = limits;
     }
-    const char *outs[2] = {o->output_path, o->live.save_path};
+    /* nothing written may replace an input, and no two outputs may share a file */
+    const char *outs[4] = {o->output_path, o->live.save_path, o->plot_path, o->report_path};
+    const char *what[4] = {"the report", "the capture", "the plot", "the PDF report"};
     const char *ins[3] = {o->live.enabled ? NULL : o->input, o->limits_path, o->carrier_reference};
-    for (int i = 0; i < 2; i++)
+    for (int i = 0; i < 4; i++) {
+        if (outs[i] == NULL || strcmp(outs[i], "-") == 0)
+            continue;
         for (int j = 0; j < 3; j++)
-            if (outs[i] && ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file with %s", outs[i],
-                                    i == 0 ? "the report" : "the capture");
-    if (o->output_path && o->live.save_path && strcmp(o->output_path, "-") != 0
-        && (strcmp(o->output_path, o->live.save_path) == 0 || ml_same_file(o->output_path, o->live.save_path)))
-        return ml_cli_error("%s: --output and --save name the same file", o->output_path);
+            if (ins[j] && ml_same_file(outs[i], ins[j]))
+                return ml_cli_error("%s: refusing to overwrite an input file with %s", outs[i], what[i]);
+        for (int j = 0; j < i; j++)
+            if (outs[j] && (strcmp(outs[i], outs[j]) == 0 || ml_same_file(outs[i], outs[j])))
+                return ml_cli_error("%s: %s and %s would be the same file", outs[i], what[j], what[i]);
+    }
     return 0;
 }
 
@@ -640,11 +644,6 @@ int ml_cmd_measure(int argc, char **argv)
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-    const char *extra[2] = {o.plot_path, o.report_path};
-    for (int i = 0; i < 2; i++)
-        if (extra[i] && (ml_same_file(extra[i], o.input) || (o.limits_path && ml_same_file(extra[i], o.limits_path))
-                         || (o.carrier_reference && ml_same_file(extra[i], o.carrier_reference))))
-            return ml_cli_error("%s: refusing to overwrite an input file", extra[i]);
 
     static ml_report rep;
     ml_plot_data pd;

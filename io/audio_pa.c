@@ -11,6 +11,7 @@
 #include <fcntl.h>
 #include <math.h>
 #include <portaudio.h>
+#include <stdarg.h>
 #include <stdatomic.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -46,6 +47,28 @@ static PaError init_quiet(void)
     if (nul >= 0)
         close(nul);
     return e;
+}
+
+/* snprintf into a caller's optional detail buffer (NULL: nothing to say). */
+static void say(char *detail, size_t len, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
+static void say(char *detail, size_t len, const char *fmt, ...)
+{
+    if (detail == NULL || len == 0)
+        return;
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(detail, len, fmt, ap);
+    va_end(ap);
+}
+
+/* Output side of a callback: n frames from the ring, silence (counted) for what is missing. */
+static void pour(ml_ring *r, void *output, size_t n, size_t ch, atomic_uint_least64_t *underflows)
+{
+    const size_t m = ml_ring_pop(r, output, n);
+    if (m < n) {
+        memset((float *)output + m * ch, 0, (n - m) * ch * sizeof(float));
+        atomic_fetch_add_explicit(underflows, n - m, memory_order_relaxed);
+    }
 }
 
 static double now_s(void)
@@ -99,13 +122,13 @@ static ml_status find_device(const char *spec, bool input, PaDeviceIndex *out, c
     const char *dir = input ? "input" : "output";
     const int count = Pa_GetDeviceCount();
     if (count <= 0) {
-        snprintf(detail, len, "no audio devices found (no sound card, and no audio server running)");
+        say(detail, len, "no audio devices found (no sound card, and no audio server running)");
         return ML_EDEVICE;
     }
     if (spec == NULL) {
         const PaDeviceIndex d = input ? Pa_GetDefaultInputDevice() : Pa_GetDefaultOutputDevice();
         if (d == paNoDevice) {
-            snprintf(detail, len, "there is no default %s device", dir);
+            say(detail, len, "there is no default %s device", dir);
             return ML_EDEVICE;
         }
         *out = d;
@@ -116,7 +139,7 @@ static ml_status find_device(const char *spec, bool input, PaDeviceIndex *out, c
     if (all_digits(spec)) {
         const long i = strtol(spec, NULL, 10);
         if (i >= count) {
-            snprintf(detail, len, "no audio device with index %s (there are %d; see 'modlens devices')", spec, count);
+            say(detail, len, "no audio device with index %s (there are %d; see 'modlens devices')", spec, count);
             return ML_EDEVICE;
         }
         found = (PaDeviceIndex)i;
@@ -142,17 +165,17 @@ static ml_status find_device(const char *spec, bool input, PaDeviceIndex *out, c
             }
     }
     if (matches == 0) {
-        snprintf(detail, len, "no %s device named '%s' (see 'modlens devices')", dir, spec);
+        say(detail, len, "no %s device named '%s' (see 'modlens devices')", dir, spec);
         return ML_EDEVICE;
     }
     if (matches > 1) {
-        snprintf(detail, len, "'%s' names %d %s devices; give the full name or the index (see 'modlens devices')",
+        say(detail, len, "'%s' names %d %s devices; give the full name or the index (see 'modlens devices')",
                  spec, matches, dir);
         return ML_EDEVICE;
     }
     const PaDeviceInfo *d = Pa_GetDeviceInfo(found);
     if (d == NULL || (input ? d->maxInputChannels : d->maxOutputChannels) <= 0) {
-        snprintf(detail, len, "device %s ('%s') has no %s channels", spec, d ? d->name : "?", dir);
+        say(detail, len, "device %s ('%s') has no %s channels", spec, d ? d->name : "?", dir);
         return ML_EDEVICE;
     }
     *out = found;
@@ -166,7 +189,7 @@ static ml_status stream_params(PaDeviceIndex d, bool input, int channels, PaStre
     const PaDeviceInfo *info = Pa_GetDeviceInfo(d);
     const int max = input ? info->maxInputChannels : info->maxOutputChannels;
     if (channels < 1 || channels > max) {
-        snprintf(detail, len, "device '%s' has %d %s channel%s; %d asked for", info->name, max,
+        say(detail, len, "device '%s' has %d %s channel%s; %d asked for", info->name, max,
                  input ? "input" : "output", max == 1 ? "" : "s", channels);
         return ML_EDEVICE;
     }
@@ -187,12 +210,12 @@ static ml_status open_stream(PaStream **stream, const PaStreamParameters *in, co
     if (e == paFormatIsSupported)
         e = Pa_OpenStream(stream, in, out, rate, BUFFER_FRAMES, paClipOff, cb, user);
     if (e == paInvalidSampleRate) {
-        snprintf(detail, len, "device '%s' refuses %.0f Hz (its default rate is %.0f Hz)", info->name, rate,
+        say(detail, len, "device '%s' refuses %.0f Hz (its default rate is %.0f Hz)", info->name, rate,
                  info->defaultSampleRate);
         return ML_EDEVICE;
     }
     if (e != paNoError) {
-        snprintf(detail, len, "device '%s' cannot open a stream at %.0f Hz: %s", info->name, rate,
+        say(detail, len, "device '%s' cannot open a stream at %.0f Hz: %s", info->name, rate,
                  Pa_GetErrorText(e));
         return ML_EDEVICE;
     }
@@ -203,18 +226,13 @@ static ml_status open_stream(PaStream **stream, const PaStreamParameters *in, co
 
 ml_status ml_audio_list(ml_audio_device *out, size_t cap, size_t *n, char *detail, size_t detail_len)
 {
-    char scratch[8];
-    if (detail == NULL) {
-        detail = scratch;
-        detail_len = sizeof scratch;
-    }
-    detail[0] = '\0';
+    say(detail, detail_len, "%s", "");
     if ((out == NULL && cap > 0) || n == NULL)
         return ML_EINVAL;
     *n = 0;
     const PaError e = init_quiet();
     if (e != paNoError) {
-        snprintf(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         return ML_EDEVICE;
     }
     const int count = Pa_GetDeviceCount();
@@ -240,17 +258,12 @@ ml_status ml_audio_list(ml_audio_device *out, size_t cap, size_t *n, char *detai
 
 ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, char *detail, size_t detail_len)
 {
-    char scratch[8];
-    if (detail == NULL) {
-        detail = scratch;
-        detail_len = sizeof scratch;
-    }
-    detail[0] = '\0';
+    say(detail, detail_len, "%s", "");
     if (rate_hz == NULL)
         return ML_EINVAL;
     const PaError e = init_quiet();
     if (e != paNoError) {
-        snprintf(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         return ML_EDEVICE;
     }
     PaDeviceIndex d;
@@ -297,13 +310,8 @@ static int live_callback(const void *input, void *output, unsigned long n, const
     const size_t k = ml_ring_push(&q->in, input, n); /* NULL input (none delivered) pushes silence */
     if (k < n)
         atomic_fetch_add_explicit(&q->lost, n - k, memory_order_relaxed);
-    if (output) {
-        const size_t m = ml_ring_pop(&q->out, output, n);
-        if (m < n) {
-            memset((float *)output + m * q->out_ch, 0, (n - m) * q->out_ch * sizeof(float));
-            atomic_fetch_add_explicit(&q->underflows, n - m, memory_order_relaxed);
-        }
-    }
+    if (output)
+        pour(&q->out, output, n, q->out_ch, &q->underflows);
     return paContinue;
 }
 
@@ -473,19 +481,14 @@ ml_live_config ml_live_config_default(void)
 
 ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *detail, size_t detail_len)
 {
-    char scratch[256];
-    if (detail == NULL) {
-        detail = scratch;
-        detail_len = sizeof scratch;
-    }
-    detail[0] = '\0';
+    say(detail, detail_len, "%s", "");
     if (out == NULL)
         return ML_EINVAL;
     *out = NULL;
     if (cfg == NULL || cfg->channels < 1 || cfg->channels > 64 || cfg->rate_hz < 0 || !(cfg->head_s >= 0)
         || !(cfg->stall_s > 0)
         || (cfg->fill && (cfg->output_channels < 1 || cfg->output_channels > 64))) {
-        snprintf(detail, detail_len, "invalid capture configuration");
+        say(detail, detail_len, "invalid capture configuration");
         return ML_EINVAL;
     }
     ml_source *s = calloc(1, sizeof *s);
@@ -507,7 +510,7 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
     ml_status st = ML_EDEVICE;
     PaError e = init_quiet();
     if (e != paNoError) {
-        snprintf(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         goto fail;
     }
     q->pa_up = true;
@@ -523,7 +526,7 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
         if ((st = find_device(cfg->output_device, false, &dout, detail, detail_len)) != ML_OK)
             goto fail;
         if (Pa_GetDeviceInfo(dout)->hostApi != di->hostApi) {
-            snprintf(detail, detail_len, "the input '%s' and output '%s' belong to different audio systems; "
+            say(detail, detail_len, "the input '%s' and output '%s' belong to different audio systems; "
                      "play and capture need one full-duplex stream", di->name, Pa_GetDeviceInfo(dout)->name);
             st = ML_EDEVICE;
             goto fail;
@@ -566,7 +569,7 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
     live_top_up(q);
     e = Pa_StartStream(q->stream);
     if (e != paNoError) {
-        snprintf(detail, detail_len, "device '%s' cannot start: %s", di->name, Pa_GetErrorText(e));
+        say(detail, detail_len, "device '%s' cannot start: %s", di->name, Pa_GetErrorText(e));
         st = ML_EDEVICE;
         goto fail;
     }
@@ -619,27 +622,18 @@ static int play_callback(const void *input, void *output, unsigned long n, const
     (void)ti;
     (void)flags;
     ml_player *p = user;
-    const size_t m = ml_ring_pop(&p->ring, output, n);
-    if (m < n) {
-        memset((float *)output + m * p->ch, 0, (n - m) * p->ch * sizeof(float));
-        atomic_fetch_add_explicit(&p->underflows, n - m, memory_order_relaxed);
-    }
+    pour(&p->ring, output, n, p->ch, &p->underflows);
     return paContinue;
 }
 
 ml_status ml_player_open(const ml_player_config *cfg, ml_player **out, char *detail, size_t detail_len)
 {
-    char scratch[256];
-    if (detail == NULL) {
-        detail = scratch;
-        detail_len = sizeof scratch;
-    }
-    detail[0] = '\0';
+    say(detail, detail_len, "%s", "");
     if (out == NULL)
         return ML_EINVAL;
     *out = NULL;
     if (cfg == NULL || !(cfg->rate_hz > 0) || cfg->channels < 1 || cfg->channels > 64) {
-        snprintf(detail, detail_len, "invalid playback configuration");
+        say(detail, detail_len, "invalid playback configuration");
         return ML_EINVAL;
     }
     ml_player *p = calloc(1, sizeof *p);
@@ -652,7 +646,7 @@ ml_status ml_player_open(const ml_player_config *cfg, ml_player **out, char *det
     ml_status st = ML_EDEVICE;
     PaError e = init_quiet();
     if (e != paNoError) {
-        snprintf(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         goto fail;
     }
     p->pa_up = true;

@@ -5,6 +5,7 @@ contributor guide: the server must run before the program under test initialises
 JACK_DEFAULT_SERVER selects it; --port-max 64 keeps its shared memory small; --no-realtime for
 unprivileged test runs; tear down the feeder first, then the server.
 """
+import json
 import os
 import shutil
 import signal
@@ -58,6 +59,14 @@ class Server:
 
     def run(self, args, timeout=120, **kw):
         return subprocess.run(args, env=self.env, capture_output=True, text=True, timeout=timeout, **kw)
+
+    def live_json(self, exe, args):
+        """Runs `exe live --format json args...`; returns (status, parsed report or None, stderr)."""
+        p = self.run([exe, "live", "--format", "json"] + list(args))
+        try:
+            return p.returncode, json.loads(p.stdout), p.stderr
+        except ValueError:
+            return p.returncode, None, p.stderr
 
     def popen(self, args, **kw):
         return subprocess.Popen(args, env=self.env, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, **kw)

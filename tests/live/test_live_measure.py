@@ -19,7 +19,6 @@ sys.dont_write_bytecode = True
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "e2e"))
 
-import json  # noqa: E402
 
 import soundfile as sf  # noqa: E402
 
@@ -33,12 +32,6 @@ def tone(exe, args):
         sys.exit("tone failed: " + p.stderr)
 
 
-def live_json(srv, exe, args):
-    p = srv.run([exe, "live", "--format", "json"] + args)
-    try:
-        return p.returncode, json.loads(p.stdout), p.stderr
-    except ValueError:
-        return p.returncode, None, p.stderr
 
 
 def db(x):
@@ -85,7 +78,7 @@ def main():
                 nch = sf.info(name).channels
                 save = name.replace(".wav", "-live.wav")
                 png = name.replace(".wav", "-live.png")
-                rc, rep, err = live_json(srv, exe, ["--device", "feed", "--channels", str(nch), "--kind", kind,
+                rc, rep, err = srv.live_json(exe, ["--device", "feed", "--channels", str(nch), "--kind", kind,
                                                     "--seconds", "4", "--save", save, "--plot", png])
                 feed.terminate()
                 feed.wait()

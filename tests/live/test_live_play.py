@@ -10,7 +10,6 @@ generator's own residue is below -140 dB). Round-trip latency through the loopba
 1280 frames (measured for this set-up; see the live-audio testing notes in DEVELOPERS.md); with
 a 512-frame period, 768 frames.
 """
-import json
 import os
 import sys
 
@@ -22,12 +21,6 @@ import e2e_common as E  # noqa: E402
 import jackserver as J  # noqa: E402
 
 
-def live_json(srv, exe, args):
-    p = srv.run([exe, "live", "--format", "json"] + args)
-    try:
-        return p.returncode, json.loads(p.stdout), p.stderr
-    except ValueError:
-        return p.returncode, None, p.stderr
 
 
 def main():
@@ -37,7 +30,7 @@ def main():
         for period, latency in [(1024, 1280), (512, 768)]:
             with J.Server(rate=48000, period=period) as srv:
                 for freq, level in [(1000, -6.0), (3150, -20.0)]:
-                    rc, rep, err = live_json(srv, exe, ["--device", "loopback", "--output-device", "loopback",
+                    rc, rep, err = srv.live_json(exe, ["--device", "loopback", "--output-device", "loopback",
                                                         "--play-tone", f"{freq},{level}", "--seconds", "3",
                                                         "--kind", "audio"])
                     tag = f"period {period}, {freq} Hz"
