@@ -223,8 +223,6 @@ int ml_cmd_live(int argc, char **argv)
     int rc = ml_measure_parse(argc, argv, &o, 0);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
-        return rc;
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;

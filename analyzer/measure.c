@@ -562,6 +562,9 @@ int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 {
     char err[512];
+    int rc = ml_plots_check_paths(o->plot_path, o->report_path);
+    if (rc != 0)
+        return rc;
     if (o->limits_path) {
         ml_status st = ml_limits_load(o->limits_path, limits, err, sizeof err);
         if (st != ML_OK)
@@ -639,8 +642,6 @@ int ml_cmd_measure(int argc, char **argv)
     int rc = ml_measure_parse(argc, argv, &o, 1);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
-        return rc;
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;

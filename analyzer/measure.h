@@ -81,7 +81,8 @@ void ml_measure_add(ml_report *r, const char *name, double value);
 /* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
 
-/* Loads --limits and refuses outputs that name an input; 0 or an exit status. */
+/* Checks the --plot/--report names, loads --limits, refuses outputs that name an input or each
+ * other; 0 or an exit status (error printed). */
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits);
 /* Resolves the kind, runs its pipeline on the open segment and applies the limits. */
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
