@@ -478,6 +478,12 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (acfg.band_lo_hz < acfg.band_hi_hz
         && !(acfg.tone_hz > 0 && (acfg.tone_hz < acfg.band_lo_hz || acfg.tone_hz > acfg.band_hi_hz)))
         aok = ml_audio_analyze(aud, &acfg, &au) == ML_OK;
+    /* the demodulated audio is in units of C: its total power is about 1 */
+    const char *residue = aok ? ml_measure_no_signal(&au, 1.0) : NULL;
+    if (residue != NULL) {
+        aok = false;
+        ml_report_note(rep, "no modulation in the demodulated audio band: %s", residue);
+    }
     if (!aok)
         memset(&au, 0, sizeof au);
 
