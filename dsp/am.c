@@ -266,17 +266,25 @@ static void envelope_sample(ml_am *q, double complex y, double complex x, double
         /* the cubic's coefficients once per interval (complex times real: no complex product) */
         const double complex c0 = 2.0 * p1, c1 = -p0 + p2, c2 = 2.0 * p0 - 5.0 * p1 + 4.0 * p2 - p3,
                              c3 = -p0 + 3.0 * p1 - 3.0 * p2 + p3;
+        /* the four values first (independent: the square roots overlap), then their extremes */
+        double v[OVERSAMPLE];
         for (int k = 0; k < OVERSAMPLE; k++) {
             const double t = (double)k / OVERSAMPLE, t2 = t * t, t3 = t2 * t;
-            const double v = mag(0.5 * (c0 + c1 * t + c2 * t2 + c3 * t3));
-            if (v > q->emax_abs)
-                q->emax_abs = v;
-            if (v < q->emin_abs)
-                q->emin_abs = v;
-            if (v < lowest)
-                lowest = v;
-            q->pending[q->npending++] = v;
+            const double re = 0.5 * (creal(c0) + creal(c1) * t + creal(c2) * t2 + creal(c3) * t3);
+            const double im = 0.5 * (cimag(c0) + cimag(c1) * t + cimag(c2) * t2 + cimag(c3) * t3);
+            v[k] = sqrt(re * re + im * im);
         }
+        double hi = q->emax_abs, lo = q->emin_abs;
+        double *pend = q->pending + q->npending;
+        for (int k = 0; k < OVERSAMPLE; k++) {
+            hi = v[k] > hi ? v[k] : hi;
+            lo = v[k] < lo ? v[k] : lo;
+            lowest = v[k] < lowest ? v[k] : lowest;
+            pend[k] = v[k];
+        }
+        q->emax_abs = hi;
+        q->emin_abs = lo;
+        q->npending += OVERSAMPLE;
     }
     q->produced++;
     q->sum_all += e;
