@@ -28,6 +28,10 @@
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
+#ifndef CMPLX /* C11; glibc's <complex.h> defines it for GCC only, clang has the same builtin */
+#define CMPLX(x, y) __builtin_complex((double)(x), (double)(y))
+#endif
+
 #define PREFIX_S 4.0          /* seconds looked at to find the carrier                        */
 #define MAX_BANDWIDTH_HZ 10000.0
 #define INDEX_TOLERANCE 0.02  /* envelope vs spectral index disagreement worth a note          */
