@@ -37,6 +37,7 @@ static void say(char *err, size_t errlen, const char *fmt, ...)
     va_end(ap);
 }
 
+/* The reason, as one printable line: names and jansson's token excerpts may hold any byte. */
 static ml_status fail(ctx *c, const char *fmt, ...)
 {
     if (c->err != NULL && c->errlen > 0) {
@@ -44,6 +45,9 @@ static ml_status fail(ctx *c, const char *fmt, ...)
         va_start(ap, fmt);
         vsnprintf(c->err, c->errlen, fmt, ap);
         va_end(ap);
+        for (char *p = c->err; *p; p++)
+            if ((unsigned char)*p < 0x20 || (unsigned char)*p == 0x7f)
+                *p = '?';
     }
     return ML_EFORMAT;
 }
