@@ -211,6 +211,10 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
         snprintf(err, errlen, "is a directory, not a limits profile");
         return ML_EIO;
     }
+    if (stat(path, &st) == 0 && !S_ISREG(st.st_mode)) { /* a FIFO or device could block forever */
+        snprintf(err, errlen, "not a regular file");
+        return ML_EIO;
+    }
     FILE *f = fopen(path, "r");
     if (f == NULL) {
         snprintf(err, errlen, "%s", strerror(errno));
@@ -230,6 +234,9 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
     if (rc != 0) {
         char line[160];
         nth_line(f, rc, line, sizeof line);
+        for (char *ch = line; *ch; ch++) /* one printable line, whatever the file holds */
+            if ((unsigned char)*ch < 0x20 || (unsigned char)*ch >= 0x7f)
+                *ch = '?';
         fclose(f);
         snprintf(err, errlen, "line %d: '%.100s' is not a 'key = value' line or a [section] header", rc, line);
         return ML_EFORMAT;

@@ -362,6 +362,10 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
     r->analysed_s = (double)seg->nframes / rate;
     if (o->limits_path)
         snprintf(r->limits_path, sizeof r->limits_path, "%s", o->limits_path);
+    if (seg->info->cut_short)
+        ml_report_note(r, "the file is cut short: its header announces more samples than it holds; the %lld "
+                          "frames present were analysed",
+                       (long long)seg->info->frames);
 }
 
 int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
@@ -405,6 +409,19 @@ void ml_measure_progress_end(bool shown)
 {
     if (shown)
         fprintf(stderr, "\r%*s\r", 30, "");
+}
+
+const char *ml_measure_no_signal(const ml_audio_result *a, double total_power)
+{
+    /* Float samples carry a 24-bit mantissa (rounding about 150 dB below the signal) and the
+     * flat-top window leaks 248 dB down: a band more than 200 dB below the whole input's power
+     * holds only rounding residue and leakage (DC alone, or an unmodulated carrier). */
+    if (!(a->band_power > 1e-20 * total_power))
+        return "nothing but rounding residue, more than 200 dB below the input's power";
+    /* the report's levels stop at -300 dB (dsp/metrics.h): below that a figure would be wrong */
+    if (!(a->fundamental_power > 1e-30 * 0.5))
+        return "the strongest component lies below -300 dBFS, the lowest level reported";
+    return NULL;
 }
 
 size_t ml_measure_nfft(double rate_hz, int64_t nframes)
@@ -474,6 +491,10 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     ml_measure_describe(rep, o, seg, "audio", reason);
     ml_audio_result ar;
     st = ml_audio_analyze(spec, &o->audio, &ar);
+    const char *residue = st == ML_OK ? ml_measure_no_signal(&ar, stats.count ? stats.sumsq / (double)stats.count : 0)
+                                      : NULL;
+    if (residue != NULL)
+        st = ML_ENOSIGNAL;
     const bool ok = st == ML_OK;
     snprintf(rep->analysis, sizeof rep->analysis,
              "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz", ml_window_name(o->window),
@@ -482,8 +503,8 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
         if (stats.sumsq == 0)
             ml_report_note(rep, "input is silent: every analysed sample is zero");
         else if (st == ML_ENOSIGNAL)
-            ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (DC only?)", o->audio.band_lo_hz,
-                           o->audio.band_hi_hz);
+            ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->audio.band_lo_hz,
+                           o->audio.band_hi_hz, residue ? residue : "DC only?");
         else {
             rc = ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
             goto done;

@@ -23,11 +23,16 @@
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
+#include "analyzer/worker.h"
 #include "dsp/am.h"
 #include "dsp/metrics.h"
 #include "dsp/rf.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
+
+#ifndef CMPLX /* C11; glibc's <complex.h> defines it for GCC only, clang has the same builtin */
+#define CMPLX(x, y) __builtin_complex((double)(x), (double)(y))
+#endif
 
 #define PREFIX_S 4.0          /* seconds looked at to find the carrier                        */
 #define MAX_BANDWIDTH_HZ 10000.0
@@ -35,6 +40,7 @@
 #define QUIET_MIN_S 0.1       /* unmodulated time needed before C is taken from it            */
 #define CARRIER_SEARCH_HZ 200.0 /* capture range around a nominal --carrier                     */
 #define CARRIER_MIN_REL 1e-3  /* a carrier is at most 60 dB below the strongest component      */
+#define BATCH_FRAMES (8 * ML_BLOCK_FRAMES) /* frames per hand-over to the spectrum thread         */
 
 /* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped), ref (may be NULL). */
 static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z,
@@ -77,6 +83,32 @@ static void feed(ml_spectrum *rf, ml_spectrum *aud, const ml_am_output *out, siz
     for (size_t i = 0; i < n; i++)
         out->env[i] *= inv_c;
     ml_spectrum_push_tagged(aud, out->env, out->modulated, n);
+}
+
+/* The streamed pass runs on two threads: this one reads, filters and demodulates a batch while
+ * the worker feeds the previous batch's output to the two spectra (feed is the larger half of
+ * the work). Batches are fed in order, so the figures do not depend on timing. */
+typedef struct {
+    ml_spectrum *rf, *aud;
+    bool iq;
+    double inv_c;
+    ml_blocks *blocks;     /* per-block audio figures for the uncertainty                     */
+    ml_plot_data *plot;    /* envelope window for --plot, or NULL                             */
+} feed_ctx;
+
+typedef struct {
+    ml_am_output out;
+    size_t n;
+} feed_batch;
+
+static void feed_job(void *ctx, void *batch)
+{
+    const feed_ctx *f = ctx;
+    feed_batch *b = batch;
+    feed(f->rf, f->aud, &b->out, b->n, f->iq, f->inv_c);
+    ml_blocks_push(f->blocks, b->out.env, b->out.modulated, b->n);
+    if (f->plot)
+        ml_plots_envelope(f->plot, b->out.env, b->n);
 }
 
 /* Spectrum of the first `frames` frames of the segment, then seeks back to its start. */
@@ -341,7 +373,8 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ml_am *am = NULL;
     float *buf = NULL, *ref = NULL, *mono = NULL;
     double complex *z = NULL;
-    ml_am_output out = {0};
+    feed_batch batch[2] = {{{0}, 0}, {{0}, 0}};
+    ml_worker *worker = NULL;
     ml_blocks *blocks = NULL;
     if (rc_cfg.nfft == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
@@ -371,29 +404,35 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     if (o->plot)
         ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
-    buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
-    ref = malloc(ML_BLOCK_FRAMES * sizeof *ref);
-    mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
-    z = malloc(ML_BLOCK_FRAMES * sizeof *z);
-    out.cap = ml_am_output_cap(am, ML_BLOCK_FRAMES);
-    out.env = malloc(out.cap * sizeof *out.env);
-    out.in = malloc(out.cap * sizeof *out.in);
-    out.modulated = malloc(out.cap);
-    if (buf == NULL || ref == NULL || mono == NULL || z == NULL || out.env == NULL || out.in == NULL
-        || out.modulated == NULL) {
+    buf = malloc(BATCH_FRAMES * nch * sizeof *buf);
+    ref = malloc(BATCH_FRAMES * sizeof *ref);
+    mono = malloc(BATCH_FRAMES * sizeof *mono);
+    z = malloc(BATCH_FRAMES * sizeof *z);
+    bool nomem = buf == NULL || ref == NULL || mono == NULL || z == NULL;
+    for (int k = 0; k < 2; k++) {
+        ml_am_output *out = &batch[k].out;
+        out->cap = ml_am_output_cap(am, BATCH_FRAMES);
+        out->env = malloc(out->cap * sizeof *out->env);
+        out->in = malloc(out->cap * sizeof *out->in);
+        out->modulated = malloc(out->cap);
+        nomem = nomem || out->env == NULL || out->in == NULL || out->modulated == NULL;
+    }
+    if (nomem) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
+    feed_ctx fctx = {rf, aud, iq, 1.0 / c_prov, blocks, o->plot};
+    worker = ml_worker_start(feed_job, &fctx); /* NULL: feed runs on this thread */
+    int k = 0;
     ml_stats stats[2];
     ml_stats_init(&stats[0], info->bits);
     ml_stats_init(&stats[1], info->bits);
     int64_t done_frames = 0, next = 0;
     bool shown = false;
-    const double inv_c = 1.0 / c_prov;
     while (done_frames < seg->nframes) {
-        size_t want = seg->nframes - done_frames < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done_frames)
-                                                                   : ML_BLOCK_FRAMES;
-        size_t got = 0, nout = 0;
+        size_t want = seg->nframes - done_frames < BATCH_FRAMES ? (size_t)(seg->nframes - done_frames)
+                                                                : BATCH_FRAMES;
+        size_t got = 0;
         rc = ml_measure_read(o, seg, buf, want, &got, done_frames);
         if (rc != 0)
             goto done;
@@ -403,23 +442,20 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
                 mono[i] = (float)(c == 0 ? creal(z[i]) : cimag(z[i]));
             ml_stats_push(&stats[c], mono, got);
         }
-        ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &out, &nout);
-        feed(rf, aud, &out, nout, iq, inv_c);
-        ml_blocks_push(blocks, out.env, out.modulated, nout);
-        if (o->plot) {
+        if (o->plot) /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_plots_input(o->plot, done_frames, o->reference_channel > 0 ? ref : NULL, got);
-            ml_plots_envelope(o->plot, out.env, nout);
-        }
+        /* batch k was last handed over two submissions ago: submit waited for it to finish */
+        ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &batch[k].out, &batch[k].n);
+        ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
+        k ^= 1;
         done_frames += (int64_t)got;
         ml_measure_progress(seg, done_frames, &next, &shown);
     }
     ml_measure_progress_end(shown);
-    size_t nout = 0;
-    ml_am_finish(am, &out, &nout);
-    feed(rf, aud, &out, nout, iq, inv_c);
-    ml_blocks_push(blocks, out.env, out.modulated, nout);
-    if (o->plot)
-        ml_plots_envelope(o->plot, out.env, nout);
+    ml_am_finish(am, &batch[k].out, &batch[k].n);
+    ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
+    ml_worker_stop(worker);
+    worker = NULL;
     ml_am_result ar;
     if (ml_am_get_result(am, &ar) != ML_OK) {
         rc = ml_cli_error("%s: no envelope could be measured", o->input);
@@ -466,6 +502,12 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (acfg.band_lo_hz < acfg.band_hi_hz
         && !(acfg.tone_hz > 0 && (acfg.tone_hz < acfg.band_lo_hz || acfg.tone_hz > acfg.band_hi_hz)))
         aok = ml_audio_analyze(aud, &acfg, &au) == ML_OK;
+    /* the demodulated audio is in units of C: its total power is about 1 */
+    const char *residue = aok ? ml_measure_no_signal(&au, 1.0) : NULL;
+    if (residue != NULL) {
+        aok = false;
+        ml_report_note(rep, "no modulation in the demodulated audio band: %s", residue);
+    }
     if (!aok)
         memset(&au, 0, sizeof au);
 
@@ -593,14 +635,17 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         ml_plots_modulation(o->plot, rf, f_car, c * c * fsp, fm, bw, o->limits && o->limits->has_mask ? &o->limits->mask : NULL,
                             c_prov / c, emax / c, emin / c, ac_cfg.pinch_rel);
 done:
+    ml_worker_stop(worker); /* waits for a batch in flight before the buffers go */
     ml_blocks_destroy(blocks);
     free(buf);
     free(ref);
     free(mono);
     free(z);
-    free(out.env);
-    free(out.in);
-    free(out.modulated);
+    for (int b = 0; b < 2; b++) {
+        free(batch[b].out.env);
+        free(batch[b].out.in);
+        free(batch[b].out.modulated);
+    }
     ml_am_destroy(am);
     ml_spectrum_destroy(rf);
     ml_spectrum_destroy(aud);

@@ -57,7 +57,9 @@ struct ml_am {
     /* events */
     double thr_in, thr_good, thr_pos_in, thr_pos_out;
     bool in_low, in_pos, have_prev;
-    double phase_before, low_min, prev_env, prev_phase;
+    double low_min, prev_env;
+    double complex y_before, prev_y; /* baseband before the low run, and the previous one: their
+                                        phases are only taken when an event test needs them     */
     uint64_t pinch_events, reversal_events, positive_over;
     /* trapezoid sums */
     double sa, se, saa, sae, see;
@@ -175,7 +177,8 @@ void ml_am_reset(ml_am *q)
     q->emax_abs = 0;
     q->emin_abs = INFINITY;
     q->in_low = q->in_pos = q->have_prev = false;
-    q->phase_before = q->low_min = q->prev_env = q->prev_phase = 0;
+    q->low_min = q->prev_env = 0;
+    q->y_before = q->prev_y = 0;
     q->pinch_events = q->reversal_events = q->positive_over = 0;
     q->sa = q->se = q->saa = q->sae = q->see = 0;
     q->ntrap = 0;
@@ -225,10 +228,30 @@ static void end_block(ml_am *q)
     q->npending = 0;
 }
 
+/* |z|: sqrt(re^2 + im^2) instead of hypot (same value within 1 ulp; envelopes are far from the
+ * overflow and underflow limits hypot guards against), several times faster. */
+static inline double mag(double complex z)
+{
+    const double re = creal(z), im = cimag(z);
+    return sqrt(re * re + im * im);
+}
+
+/* Whether |phase(y) - phase(y0)|, wrapped into [0, pi], exceeds pi/2: the same as
+ * cos(phase(y) - phase(y0)) < 0, i.e. Re(y conj(y0)) < 0, with no arctangent. A zero sample has
+ * phase 0 (as carg(0) = 0), so it stands in as 1. */
+static bool phase_reversed(double complex y, double complex y0)
+{
+    if (y == 0)
+        y = 1;
+    if (y0 == 0)
+        y0 = 1;
+    return creal(y) * creal(y0) + cimag(y) * cimag(y0) < 0;
+}
+
 /* One baseband sample y (envelope |y|), its input sample x and aligned reference a. */
 static void envelope_sample(ml_am *q, double complex y, double complex x, double a)
 {
-    const double e = cabs(y), ph = carg(y);
+    const double e = mag(y);
     q->blk_env[q->block_fill] = e;
     q->blk_in[q->block_fill] = x;
     /* oversampled values of the interval h[1]..h[2]: the complex baseband is interpolated
@@ -240,18 +263,28 @@ static void envelope_sample(ml_am *q, double complex y, double complex x, double
     double lowest = e;
     if (q->produced >= 3) {
         const double complex p0 = q->h[0], p1 = q->h[1], p2 = q->h[2], p3 = q->h[3];
+        /* the cubic's coefficients once per interval (complex times real: no complex product) */
+        const double complex c0 = 2.0 * p1, c1 = -p0 + p2, c2 = 2.0 * p0 - 5.0 * p1 + 4.0 * p2 - p3,
+                             c3 = -p0 + 3.0 * p1 - 3.0 * p2 + p3;
+        /* the four values first (independent: the square roots overlap), then their extremes */
+        double v[OVERSAMPLE];
         for (int k = 0; k < OVERSAMPLE; k++) {
             const double t = (double)k / OVERSAMPLE, t2 = t * t, t3 = t2 * t;
-            const double v = cabs(0.5 * ((2.0 * p1) + (-p0 + p2) * t + (2.0 * p0 - 5.0 * p1 + 4.0 * p2 - p3) * t2
-                                         + (-p0 + 3.0 * p1 - 3.0 * p2 + p3) * t3));
-            if (v > q->emax_abs)
-                q->emax_abs = v;
-            if (v < q->emin_abs)
-                q->emin_abs = v;
-            if (v < lowest)
-                lowest = v;
-            q->pending[q->npending++] = v;
+            const double re = 0.5 * (creal(c0) + creal(c1) * t + creal(c2) * t2 + creal(c3) * t3);
+            const double im = 0.5 * (cimag(c0) + cimag(c1) * t + cimag(c2) * t2 + cimag(c3) * t3);
+            v[k] = sqrt(re * re + im * im);
         }
+        double hi = q->emax_abs, lo = q->emin_abs;
+        double *pend = q->pending + q->npending;
+        for (int k = 0; k < OVERSAMPLE; k++) {
+            hi = v[k] > hi ? v[k] : hi;
+            lo = v[k] < lo ? v[k] : lo;
+            lowest = v[k] < lowest ? v[k] : lowest;
+            pend[k] = v[k];
+        }
+        q->emax_abs = hi;
+        q->emin_abs = lo;
+        q->npending += OVERSAMPLE;
     }
     q->produced++;
     q->sum_all += e;
@@ -269,25 +302,24 @@ static void envelope_sample(ml_am *q, double complex y, double complex x, double
         if (!q->in_low) {
             q->in_low = true;
             q->low_min = INFINITY;
-            q->phase_before = q->have_prev ? q->prev_phase : ph;
+            q->y_before = q->have_prev ? q->prev_y : y;
         }
         if (lowest < q->low_min)
             q->low_min = lowest;
     } else {
-        const double jump = fabs(remainder(ph - (q->in_low ? q->phase_before : q->prev_phase), 2.0 * ML_PI));
         if (q->in_low) {
-            if (jump > ML_PI / 2)
+            if (phase_reversed(y, q->y_before))
                 q->reversal_events++;
             else if (q->low_min < q->thr_in)
                 q->pinch_events++;
             q->in_low = false;
         } else if (q->have_prev && q->prev_env < 0.5 * q->cfg.carrier_ref && e < 0.5 * q->cfg.carrier_ref
-                   && jump > ML_PI / 2) {
+                   && phase_reversed(y, q->prev_y)) {
             q->reversal_events++;
         }
     }
     q->prev_env = e;
-    q->prev_phase = ph;
+    q->prev_y = y;
     q->have_prev = true;
     if (!q->in_pos && e > q->thr_pos_in) {
         q->in_pos = true;
@@ -334,9 +366,20 @@ static ml_status process(ml_am *q, const double complex *z, const float *ref, si
         double cyc = fmod((double)q->in_count * f, 1.0);
         double complex rot = cexp(-2.0 * ML_PI * I * cyc) * gain;
         const double complex step = cexp(-2.0 * ML_PI * I * f);
+        /* products written out: C's complex '*' also handles infinities (C11 Annex G), which
+         * costs a call per sample; these operands are always finite */
+        const double sr = creal(step), si = cimag(step);
+        double rr = creal(rot), ri = cimag(rot);
         for (size_t i = 0; i < m; i++) {
-            q->mixed[i] = z ? z[done + i] * rot : 0.0;
-            rot *= step;
+            if (z) {
+                const double zr = creal(z[done + i]), zi = cimag(z[done + i]);
+                q->mixed[i] = CMPLX(zr * rr - zi * ri, zr * ri + zi * rr);
+            } else {
+                q->mixed[i] = 0.0;
+            }
+            const double nr = rr * sr - ri * si;
+            ri = rr * si + ri * sr;
+            rr = nr;
         }
         ml_status st = ml_cfir_push(q->filter, q->mixed, m, q->filtered);
         if (st != ML_OK)
@@ -344,7 +387,7 @@ static ml_status process(ml_am *q, const double complex *z, const float *ref, si
         for (size_t i = 0; i < m; i++) {
             uint64_t t = q->in_count + i; /* input index of this output: t - latency */
             /* the rings hold the last ref_len samples; the one latency ago lines up */
-            const size_t old = (q->ref_pos + 1) % q->ref_len;
+            const size_t old = q->ref_pos + 1 == q->ref_len ? 0 : q->ref_pos + 1;
             float a = 0.0f;
             if (q->cfg.has_reference) {
                 q->ref_ring[q->ref_pos] = ref ? ref[done + i] : 0.0f;

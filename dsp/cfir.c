@@ -311,8 +311,11 @@ static void transform(ml_cfir *q)
 {
     const size_t n = q->nfft, hist = q->ntaps - 1;
     fftw_execute(q->fwd);
-    for (size_t k = 0; k < n; k++)
-        q->work[k] *= q->resp[k];
+    for (size_t k = 0; k < n; k++) { /* written out: no C11 Annex G infinity handling needed */
+        const double a = creal(q->work[k]), b = cimag(q->work[k]);
+        const double c = creal(q->resp[k]), d = cimag(q->resp[k]);
+        q->work[k] = CMPLX(a * c - b * d, a * d + b * c);
+    }
     fftw_execute(q->inv);
     memcpy(q->in, q->in + q->block, hist * sizeof *q->in); /* L > M - 1: the ranges are disjoint */
     q->fill = 0;

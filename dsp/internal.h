@@ -8,6 +8,12 @@
 
 #define ML_PI 3.14159265358979323846
 
+/* C11's CMPLX: glibc's <complex.h> defines it for GCC only; clang has the same builtin. */
+#include <complex.h>
+#ifndef CMPLX
+#define CMPLX(x, y) __builtin_complex((double)(x), (double)(y))
+#endif
+
 /* 10*log10(x) with a floor so that zero power gives a finite, very low number. */
 double ml_db10(double x);
 

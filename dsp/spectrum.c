@@ -179,12 +179,20 @@ static void transform(ml_spectrum *q)
         if (selected)
             q->sel[k] += p;
     }
+    /* X_i conj(X_{i-1}) written out: C's complex product would also handle infinities (C11
+     * Annex G) at a call per bin; spectra of finite samples are finite */
     if (q->segments > 0)
-        for (size_t k = 0; k < q->nbins; k++)
-            q->xacc[k] += q->out[k] * conj(q->prev[k]);
+        for (size_t k = 0; k < q->nbins; k++) {
+            const double a = creal(q->out[k]), b = cimag(q->out[k]);
+            const double c = creal(q->prev[k]), d = cimag(q->prev[k]);
+            q->xacc[k] += CMPLX(a * c + b * d, b * c - a * d);
+        }
     if (selected && q->prev_sel)
-        for (size_t k = 0; k < q->nbins; k++)
-            q->xsel[k] += q->out[k] * conj(q->prev[k]);
+        for (size_t k = 0; k < q->nbins; k++) {
+            const double a = creal(q->out[k]), b = cimag(q->out[k]);
+            const double c = creal(q->prev[k]), d = cimag(q->prev[k]);
+            q->xsel[k] += CMPLX(a * c + b * d, b * c - a * d);
+        }
     memcpy(q->prev, q->out, q->nbins * sizeof *q->out);
     q->segments++;
     q->nsel += (size_t)selected;

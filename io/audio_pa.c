@@ -39,7 +39,15 @@ static PaError init_quiet(void)
     const int nul = open("/dev/null", O_WRONLY);
     if (saved >= 0 && nul >= 0)
         dup2(nul, STDERR_FILENO);
-    const PaError e = Pa_Initialize();
+    PaError e = Pa_Initialize();
+    /* An audio server that is busy (a loaded machine) can miss PortAudio's connection attempt,
+     * which then lists no devices; two more tries, 0.3 s apart, before believing there are none. */
+    for (int tries = 0; tries < 2 && e == paNoError && Pa_GetDeviceCount() <= 0; tries++) {
+        Pa_Terminate();
+        struct timespec t = {0, 300000000L};
+        nanosleep(&t, NULL);
+        e = Pa_Initialize();
+    }
     if (saved >= 0) {
         dup2(saved, STDERR_FILENO);
         close(saved);

@@ -23,6 +23,8 @@ typedef struct {
                             float files (their mantissa)                             */
     bool is_float;       /* samples stored as floating point                         */
     char format[64];     /* short description, for example "WAV 24-bit PCM"          */
+    bool cut_short;      /* the header announces more sample data than the file holds
+                            (a recording cut off); frames counts what is there        */
 } ml_source_info;
 
 /* Opens an audio file (any format libsndfile reads: WAV, FLAC, AIFF, ...).

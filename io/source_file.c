@@ -138,6 +138,20 @@ ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, s
     s->info.channels = fi.channels;
     s->info.frames = fi.frames;
     describe(&fi, &s->info);
+    /* libsndfile reads what is there and notes the shortfall in its log, as
+     * "data : <announced> (should be <present>)" */
+    char log[2048] = "";
+    sf_command(sf, SFC_GET_LOG_INFO, log, sizeof log);
+    for (const char *l = log; *l != '\0';) {
+        const char *eol = strchr(l, '\n');
+        if (strncmp(l, "data", 4) == 0) {
+            const char *sb = strstr(l, "(should be");
+            s->info.cut_short = sb != NULL && (eol == NULL || sb < eol);
+        }
+        if (eol == NULL)
+            break;
+        l = eol + 1;
+    }
     /* Integer files read as float are scaled by 1/2^(bits-1) by default: full scale = +-1.0. */
     *out = s;
     return ML_OK;

@@ -26,6 +26,10 @@ import soundfile as sf
 
 RATE = 48000
 RUN_TIMEOUT_S = 120  # the largest file here is 10 s of audio: about a second of work
+# MODLENS_WRAP (for example "valgrind ...") goes in front of every modlens command, with more time
+WRAP = os.environ.get("MODLENS_WRAP", "").split()
+if WRAP:
+    RUN_TIMEOUT_S *= 10
 
 failures = []
 count = 0
@@ -46,7 +50,7 @@ def close(name, got, want, tol, reason):
 
 
 def run(exe, args):
-    return subprocess.run([exe, "tone"] + args, capture_output=True, text=True, timeout=RUN_TIMEOUT_S)
+    return subprocess.run(WRAP + [exe, "tone"] + args, capture_output=True, text=True, timeout=RUN_TIMEOUT_S)
 
 
 def make(exe, args, path, name):

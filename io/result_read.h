@@ -1,0 +1,67 @@
+/* Reading a saved measurement back: the JSON report of `modlens measure --format json`.
+ * SPDX-License-Identifier: MIT
+ *
+ * The report is flattened into a list of items in document order:
+ *  - every metric, by its dotted name ("audio.thd_pct", "carrier.cnr_db"): a finite number, or
+ *    null (not measured);
+ *  - every text field of a metric group ("modulation.overmodulation_kind"), as text;
+ *  - every scalar of the "input" object ("input.path", "input.kind", "input.sample_rate_hz",
+ *    "input.frames", ...), numbers as numbers and strings as text.
+ * Tables (arrays such as audio.harmonics), "checks", "notes", "analysis" and "limits" are
+ * validated but not listed; "verdict" goes to ml_result.verdict.
+ *
+ * Validation is strict: the text must be one JSON object without duplicate keys; "input" must be
+ * an object with a string "path", a "kind" of audio, if or iq, a finite "sample_rate_hz" > 0 and
+ * integer "channels" >= 1 and "frames" >= 0; every other member except the listed ones must be an
+ * object (a metric group) whose members are numbers, null, strings, arrays of objects of numbers
+ * and null, or such objects nested once more; names are at most ML_RESULT_NAME_MAX - 1 bytes
+ * when dotted; "verdict", when present, is "pass", "fail" or "unchecked"; at least one metric.
+ * Anything else is ML_EFORMAT with a one-line reason in err (with line and column for JSON syntax).
+ */
+#ifndef ML_IO_RESULT_READ_H
+#define ML_IO_RESULT_READ_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "dsp/status.h"
+
+#define ML_RESULT_NAME_MAX 96
+#define ML_RESULT_TEXT_MAX 1024
+#define ML_RESULT_MAX_ITEMS 512
+#define ML_RESULT_MAX_BYTES ((size_t)16 << 20) /* larger files are refused */
+
+typedef enum { ML_RESULT_NUMBER, ML_RESULT_NULL, ML_RESULT_TEXT } ml_result_type;
+
+typedef struct {
+    char name[ML_RESULT_NAME_MAX]; /* dotted name                                            */
+    ml_result_type type;
+    double value;                  /* ML_RESULT_NUMBER: finite; else 0                         */
+    char text[ML_RESULT_TEXT_MAX]; /* ML_RESULT_TEXT: the string (cut at TEXT_MAX - 1 bytes)   */
+} ml_result_item;
+
+typedef struct ml_result ml_result;
+
+/* Parses len bytes of JSON text (need not be NUL-terminated). On success *out is a new result
+ * (free with ml_result_destroy). On failure *out is NULL, the status is ML_EFORMAT (content),
+ * ML_ENOMEM, or ML_EINVAL (NULL arguments), and err[errlen] holds the reason. */
+ml_status ml_result_parse(const char *data, size_t len, ml_result **out, char *err, size_t errlen);
+
+/* Reads and parses a file: as ml_result_parse, plus ML_EIO when it cannot be read (a directory,
+ * not a regular file, missing, unreadable) and ML_EFORMAT when it is empty or larger than
+ * ML_RESULT_MAX_BYTES. */
+ml_status ml_result_read_file(const char *path, ml_result **out, char *err, size_t errlen);
+
+void ml_result_destroy(ml_result *r);
+
+/* Number of items, and item i (0 <= i < count; NULL out of range). */
+size_t ml_result_count(const ml_result *r);
+const ml_result_item *ml_result_item_at(const ml_result *r, size_t i);
+
+/* The item with this dotted name, or NULL. */
+const ml_result_item *ml_result_find(const ml_result *r, const char *name);
+
+/* "pass", "fail", "unchecked", or "" when the report has no verdict. */
+const char *ml_result_verdict(const ml_result *r);
+
+#endif

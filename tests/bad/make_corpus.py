@@ -1,0 +1,138 @@
+#!/usr/bin/python3
+"""Writes the bad-input corpus into tests/bad/files/ (deterministic: fixed seeds, no clock).
+
+Usage: /usr/bin/python3 tests/bad/make_corpus.py [FOLDER]
+
+The files are committed; run this only to add or change one, then commit the result. Inputs that
+cannot be committed (a FIFO, a directory, an unreadable file) are made by run_corpus.py at test
+time. cases.txt says what modlens must do with each file.
+"""
+import os
+import struct
+import sys
+
+import numpy as np
+import soundfile as sf
+
+FS = 8000  # small files: 8 kHz keeps every capture a few kB
+
+
+def wav_header(channels, rate, bits, nframes, fmt_tag=1, riff_size=None, data_size=None):
+    """A canonical 44-byte WAV header (RIFF, fmt , data), every field overridable."""
+    block = channels * bits // 8
+    data = nframes * block if data_size is None else data_size
+    riff = 36 + data if riff_size is None else riff_size
+    return (b"RIFF" + struct.pack("<I", riff & 0xFFFFFFFF) + b"WAVE" + b"fmt " + struct.pack("<I", 16)
+            + struct.pack("<HHIIHH", fmt_tag, channels & 0xFFFF, rate & 0xFFFFFFFF,
+                          (rate * block) & 0xFFFFFFFF, block & 0xFFFF, bits)
+            + b"data" + struct.pack("<I", data & 0xFFFFFFFF))
+
+
+def tone(seconds, f=1000.0, a=0.5, rate=FS):
+    t = np.arange(int(round(seconds * rate))) / rate
+    return a * np.sin(2 * np.pi * f * t)
+
+
+def am(seconds, fc, rate, m=0.5, fm=400.0, iq=False):
+    t = np.arange(int(round(seconds * rate))) / rate
+    env = 0.4 * (1 + m * np.sin(2 * np.pi * fm * t))
+    if iq:
+        return np.stack([env * np.cos(2 * np.pi * fc * t), env * np.sin(2 * np.pi * fc * t)], axis=1)
+    return env * np.cos(2 * np.pi * fc * t)
+
+
+def main():
+    out = sys.argv[1] if len(sys.argv) > 1 else os.path.join(os.path.dirname(os.path.abspath(__file__)), "files")
+    os.makedirs(out, exist_ok=True)
+
+    def p(name):
+        return os.path.join(out, name)
+
+    def raw(name, data):
+        with open(p(name), "wb") as f:
+            f.write(data)
+
+    good = tone(1.0)
+    pcm = (np.round(good * 32767)).astype("<i2").tobytes()
+    sf.write(p("good.wav"), good, FS, subtype="PCM_16")
+    # headers cut short or corrupted
+    raw("trunc-riff-only.wav", b"RIFF")
+    raw("trunc-12.wav", wav_header(1, FS, 16, 8000)[:12])
+    raw("trunc-30.wav", wav_header(1, FS, 16, 8000)[:30])
+    raw("trunc-header-only.wav", wav_header(1, FS, 16, 8000))
+    raw("data-cut-short.wav", wav_header(1, FS, 16, 8000) + pcm[:4000])
+    raw("bad-format-tag.wav", wav_header(1, FS, 16, 8000, fmt_tag=0x7777) + pcm)
+    raw("zero-channels.wav", wav_header(0, FS, 16, 8000) + pcm)
+    raw("zero-rate.wav", wav_header(1, 0, 16, 8000) + pcm)
+    raw("bits-zero.wav", wav_header(1, FS, 0, 8000) + pcm)
+    raw("garbage.wav", bytes(np.random.default_rng(3).integers(0, 256, 4096, dtype=np.uint8)))
+    raw("riff-not-wave.wav", b"RIFF" + struct.pack("<I", 100) + b"AVI " + bytes(100))
+    # zero and one frame
+    raw("zero-frames.wav", wav_header(1, FS, 16, 0))
+    sf.write(p("one-frame.wav"), np.array([0.25]), FS, subtype="PCM_16")
+    sf.write(p("short-100.wav"), tone(100 / FS), FS, subtype="PCM_16")
+    # absurd channel counts
+    sf.write(p("channels-100.wav"), np.zeros((400, 100)), FS, subtype="PCM_16")
+    raw("channels-65535.wav", wav_header(65535, FS, 16, 1) + bytes(2 * 65535))
+    # rates too low for the chosen kind
+    sf.write(p("if-8k.wav"), am(1.0, 3000.0, FS), FS, subtype="PCM_16")
+    sf.write(p("iq-8k.wav"), am(1.0, 1000.0, FS, iq=True), FS, subtype="PCM_16")
+    sf.write(p("rate-1hz.wav"), np.zeros(300), 1, subtype="PCM_16")
+    # non-finite float samples
+    for name, v in (("nan.wav", np.nan), ("posinf.wav", np.inf), ("neginf.wav", -np.inf)):
+        x = good.copy()
+        x[777] = v
+        sf.write(p(name), x, FS, subtype="FLOAT")
+    x = good.copy()
+    x[-1] = np.nan
+    sf.write(p("nan-last.wav"), x, FS, subtype="DOUBLE")
+    xq = am(1.0, 1000.0, FS, iq=True)
+    xq[1000, 1] = np.nan
+    sf.write(p("iq-nan-q.wav"), xq, FS, subtype="FLOAT")
+    # awkward but valid
+    sf.write(p("silent.wav"), np.zeros(2 * FS), FS, subtype="PCM_16")
+    sf.write(p("silent-stereo.wav"), np.zeros((2 * FS, 2)), FS, subtype="PCM_16")
+    sf.write(p("dc-only.wav"), np.full(2 * FS, 0.25), FS, subtype="PCM_16")
+    sf.write(p("square-fullscale.wav"), np.where(np.sin(2 * np.pi * 1000 * np.arange(FS) / FS + 0.1) >= 0, 1.0, -1.0),
+             FS, subtype="FLOAT")
+    sf.write(p("clipped.wav"), np.clip(1.5 * tone(1.0, a=1.0), -1, 1), FS, subtype="PCM_16")
+    sf.write(p("beyond-fullscale.wav"), 4.0 * tone(1.0), FS, subtype="FLOAT")
+    sf.write(p("tiny-level.wav"), 1e-30 * tone(1.0), FS, subtype="FLOAT")
+    sf.write(p("noise-only.wav"), np.random.default_rng(5).normal(0, 0.1, FS), FS, subtype="PCM_16")
+    sf.write(p("nyquist-tone.wav"), np.where(np.arange(FS) % 2 == 0, 0.5, -0.5), FS, subtype="PCM_16")
+    sf.write(p("good-iq.wav"), am(1.0, 1000.0, 48000, iq=True), 48000, subtype="PCM_16")
+    sf.write(p("unmodulated-iq.wav"), am(1.0, 1000.0, 48000, m=0.0, iq=True), 48000, subtype="PCM_16")
+    with open(p("text.wav"), "w") as f:
+        f.write("not a recording\n" * 40)
+
+    # limits profiles with every kind of mistake
+    lim = {
+        "lim-unknown-key.ini": "thd_pct_max = 1\nbogus_metric_max = 3\n",
+        "lim-not-number.ini": "thd_pct_max = one\n",
+        "lim-nan.ini": "thd_pct_max = nan\n",
+        "lim-inf.ini": "snr_db_min = inf\n",
+        "lim-trailing.ini": "thd_pct_max = 1.0 %\n",
+        "lim-empty-value.ini": "thd_pct_max =\n",
+        "lim-repeated.ini": "thd_pct_max = 1\n[audio]\nthd_pct_max = 2\n",
+        "lim-min-above-max.ini": "snr_db_min = 60\nsnr_db_max = 50\n",
+        "lim-no-suffix.ini": "thd_pct = 1\n",
+        "lim-syntax.ini": "[audio]\nthis line has no equals sign\n",
+        "lim-bad-section.ini": "[audio\nthd_pct_max = 1\n",
+        "lim-empty.ini": "; only a comment\n",
+        "lim-mask-unordered.ini": "[mask]\npoints = 20000:-35, 10000:-25\n",
+        "lim-mask-garbage.ini": "[mask]\npoints = 10000-25\n",
+        "lim-mask-rbw-neg.ini": "[mask]\npoints = 10000:-25, 20000:-35\nrbw_hz = -5\n",
+        "lim-wrong-group.ini": "[hum]\nthd_pct_max = 1\n",
+        "lim-huge-number.ini": "thd_pct_max = 1e999\n",
+        "lim-long-line.ini": "thd_pct_max = " + "1" * 5000 + "\n",
+    }
+    for name, text in lim.items():
+        with open(p(name), "w") as f:
+            f.write(text)
+    raw("lim-binary.ini", bytes(np.random.default_rng(9).integers(0, 256, 512, dtype=np.uint8)))
+    with open(p("lim-good.ini"), "w") as f:
+        f.write("[audio]\nthd_pct_max = 1\n")
+
+
+if __name__ == "__main__":
+    main()
