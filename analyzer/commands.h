@@ -6,5 +6,6 @@
 
 int ml_cmd_measure(int argc, char **argv);
 int ml_cmd_tone(int argc, char **argv);
+int ml_cmd_log(int argc, char **argv);
 
 #endif

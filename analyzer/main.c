@@ -21,6 +21,7 @@ static void usage(FILE *f)
             "commands:\n"
             "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
             "  tone           write a test signal to a file\n"
+            "  log            log levels, hum, noise and interference events for hours (CSV)\n"
             "\n"
             "'modlens COMMAND --help' describes each command.\n\n%s",
             ml_cli_safety);
@@ -45,5 +46,7 @@ int main(int argc, char **argv)
         return ml_cmd_measure(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)
         return ml_cmd_tone(argc - 1, argv + 1);
+    if (strcmp(cmd, "log") == 0)
+        return ml_cmd_log(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);
 }

@@ -15,7 +15,8 @@ struct ml_impulse {
     ml_impulse_config cfg;
     ml_floor *floor;
     size_t frame_n, gap_n, max_n, judge_n;
-    double acc, frame_peak; /* sum of squares and largest |x| of the current frame */
+    double acc, frame_peak; /* sum of squares (differenced) and largest |x| of the current frame */
+    double x1, x2;          /* the two previous input samples                                   */
     size_t acc_n;
     int64_t frame;          /* index of the current frame */
     bool active;
@@ -26,7 +27,7 @@ struct ml_impulse {
 ml_impulse_config ml_impulse_config_default(double rate_hz)
 {
     return (ml_impulse_config){.rate_hz = rate_hz, .frame_s = 0.001, .floor_s = 1.0, .threshold_db = 20.0,
-                               .min_level_dbfs = -100.0, .gap_s = 0.005, .max_s = 0.2};
+                               .min_level_dbfs = -100.0, .gap_s = 0.005, .max_s = 0.2, .order = 2};
 }
 
 ml_status ml_impulse_create(const ml_impulse_config *cfg, ml_impulse **out)
@@ -36,7 +37,8 @@ ml_status ml_impulse_create(const ml_impulse_config *cfg, ml_impulse **out)
     if (cfg == NULL || !(cfg->rate_hz > 0) || !(cfg->frame_s * cfg->rate_hz >= 1) || !(cfg->frame_s <= 0.1)
         || !(cfg->floor_s >= 10 * cfg->frame_s) || !(cfg->floor_s / cfg->frame_s <= (double)(1 << 24))
         || !(cfg->threshold_db > 0) || !isfinite(cfg->min_level_dbfs) || !(cfg->gap_s >= 0)
-        || !(cfg->gap_s < 1e6) || !(cfg->max_s >= cfg->frame_s) || !(cfg->max_s < 1e6))
+        || !(cfg->gap_s < 1e6) || !(cfg->max_s >= cfg->frame_s) || !(cfg->max_s < 1e6) || cfg->order < 0
+        || cfg->order > 2)
         return ML_EINVAL;
     ml_impulse *q = calloc(1, sizeof *q);
     if (q == NULL)
@@ -75,6 +77,7 @@ void ml_impulse_reset(ml_impulse *q)
         return;
     ml_floor_reset(q->floor);
     q->acc = q->frame_peak = 0;
+    q->x1 = q->x2 = 0;
     q->acc_n = 0;
     q->frame = 0;
     q->active = false;
@@ -133,7 +136,10 @@ ml_status ml_impulse_push(ml_impulse *q, const float *x, size_t n, ml_event *ev,
     bool ok = true;
     for (size_t i = 0; i < n; i++) {
         const double v = x[i];
-        q->acc += v * v;
+        const double d = q->cfg.order == 0 ? v : q->cfg.order == 1 ? v - q->x1 : v - 2.0 * q->x1 + q->x2;
+        q->x2 = q->x1;
+        q->x1 = v;
+        q->acc += d * d;
         if (fabs(v) > q->frame_peak)
             q->frame_peak = fabs(v);
         if (++q->acc_n == q->frame_n) {
@@ -308,4 +314,9 @@ double ml_change_get_baseline(const ml_change *q)
     if (q == NULL)
         return NAN;
     return q->state == CH_IDLE ? ml_floor_get_level(q->base) : q->ev.baseline_db;
+}
+
+int ml_change_get_state(const ml_change *q)
+{
+    return q == NULL || q->state == CH_IDLE ? 0 : q->state == CH_PENDING ? 1 : 2;
 }

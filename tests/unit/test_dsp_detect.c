@@ -45,9 +45,11 @@ static const size_t clicks[] = {70000, 120011, 200000};
 
 START_TEST(impulses_found_at_their_times)
 {
-    /* Analytic: a 0.5 click in a 48-sample frame gives a mean square of 0.25/48 (-19.8 dBFS)
-     * against the noise's 1e-6 (-57 dBFS): 37 dB over the floor, above the 20 dB threshold; each
-     * starts in the frame holding it, so start = click / 48 exactly and start time within 1 ms. The
+    /* Analytic: the second difference of a 0.5 click is 0.5, -1, 0.5, all in the click's frame
+     * (the clicks sit at least 3 samples before a frame's end): mean square 1.5/48 (-12.0 dBFS),
+     * against the differenced noise's 6e-6 (the difference's power gain for white noise is
+     * 1 + 4 + 1; -49.2 dBFS): 37 dB over the floor, above the 20 dB threshold. Each starts in the
+     * frame holding it, so start = click / 48 exactly and the start time is within 1 ms. The
      * tone burst lasts 0.5 s > max_s = 0.2 s: no impulse. The noise alone: the level of a frame of
      * 48 Gaussian samples exceeds its median by 20 dB (x 100) with negligible probability. */
     float *x = noisy(clicks, 3, 1);
@@ -62,11 +64,13 @@ START_TEST(impulses_found_at_their_times)
         ck_assert_int_eq(ev[i].start, (int64_t)(clicks[i] / 48));
         ck_assert_int_eq(ev[i].end, ev[i].start + 1);
         ck_assert_double_eq_tol(ev[i].peak_abs, 0.5, 1e-6);
-        /* 10 lg((0.25/48 + 1e-6) / 0.5) = -19.82 dBFS; 0.5 dB covers the noise in the frame */
-        ck_assert_double_eq_tol(ev[i].peak_db, -19.82, 0.5);
+        /* 10 lg((1.5/48 + 6e-6) / 0.5) = -12.04 dBFS; 0.5 dB covers the noise in the frame */
+        ck_assert_double_eq_tol(ev[i].peak_db, -12.04, 0.5);
         ck_assert_double_eq_tol(ev[i].rise_db, ev[i].peak_db - ev[i].baseline_db, 1e-9);
-        /* floor: median frame level of the noise, near 10 lg(1e-6/0.5) = -57.0 (within 0.5 dB) */
-        ck_assert_double_eq_tol(ev[i].baseline_db, -57.0, 0.5);
+        /* floor: median frame level of the differenced noise, near 10 lg(6e-6/0.5) = -49.2 dBFS;
+         * 0.5 dB: the median of a 48-sample mean square lies ~0.1 dB below its mean, plus the
+         * 0.1 dB histogram step */
+        ck_assert_double_eq_tol(ev[i].baseline_db, -49.2, 0.5);
     }
     ml_impulse_destroy(q);
     free(x);
@@ -132,6 +136,29 @@ START_TEST(impulse_config_rejected)
     c = ml_impulse_config_default(RATE);
     c.max_s = 0;
     ck_assert_int_eq(ml_impulse_create(&c, &q), ML_EINVAL);
+    c = ml_impulse_config_default(RATE);
+    c.order = 3;
+    ck_assert_int_eq(ml_impulse_create(&c, &q), ML_EINVAL);
+}
+
+START_TEST(impulse_under_a_loud_tone)
+{
+    /* A -20 dBFS 1 kHz tone hides a 0.5 click in the plain level (+3 dB), but its second difference
+     * is (2 sin(pi/48))^4 = 1.7e-4 (-37.6 dB) of it, so the click again stands ~37 dB over the
+     * floor: found with order 2, missed with order 0 (where it is only 3 dB above). */
+    float *x = noisy(clicks, 3, 0);
+    for (size_t i = 0; i < NS; i++)
+        x[i] += (float)(0.1 * sin(2 * TS_PI * 1000.0 * (double)i / RATE));
+    for (int order = 0; order <= 2; order += 2) {
+        ml_impulse_config c = ml_impulse_config_default(RATE);
+        c.order = order;
+        ml_impulse *q = NULL;
+        ck_assert_int_eq(ml_impulse_create(&c, &q), ML_OK);
+        ml_event ev[16];
+        ck_assert_uint_eq(run_impulse(q, x, NS, 4096, ev, 16), order == 2 ? 3 : 0);
+        ml_impulse_destroy(q);
+    }
+    free(x);
 }
 END_TEST
 
@@ -232,6 +259,7 @@ int main(void)
     tcase_add_test(tc, impulse_block_invariance_and_reset);
     tcase_add_test(tc, impulse_close_clicks_merge_and_cap);
     tcase_add_test(tc, impulse_config_rejected);
+    tcase_add_test(tc, impulse_under_a_loud_tone);
     tcase_add_test(tc, change_rise_found_spike_ignored);
     tcase_add_test(tc, change_fall_finish_and_max);
     tcase_add_test(tc, change_config_rejected);
