@@ -172,7 +172,7 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
 #define XT(t) (X0 + ((t) - tmin) / (tmax - tmin) * (X1 - X0))
 #define YL(v) (ly1 - ((v) - lmin) / (lmax - lmin) * (ly1 - ly0))
     cairo_set_source_rgb(cr, 0, 0, 0);
-    text(cr, X0, 24, spec && spec->title ? spec->title : "level history", 0);
+    text(cr, X0, 16, spec && spec->title ? spec->title : "level history", 0);
     /* grid and axes */
     cairo_set_line_width(cr, 1);
     for (double v = lmin; v <= lmax; v += 10) {
@@ -255,7 +255,7 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
         cairo_set_source_rgb(cr, 0, 0, 0);
         text(cr, X1 - 282 + 100 * k, 20, series[k].name, 0);
     }
-    text(cr, X0 + 260, 24, "events: impulse (red ticks), hum (orange), noise (violet), carrier-loss (grey)", 0);
+    text(cr, X0, 33, "events: impulse (red ticks), hum (orange), noise (violet), carrier-loss (grey)", 0);
     /* spectrogram */
     const ml_history *h = spec ? spec->sgram : NULL;
     const size_t nc = ml_history_get_count(h), nr = ml_history_get_rows(h);
