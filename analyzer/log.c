@@ -21,6 +21,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/log.h"
 #include "analyzer/measure.h"
 #include "analyzer/output.h"
 #include "dsp/am.h"
@@ -48,20 +49,6 @@ static const char EVENT_HEADER[] = "start_utc,start_offset_s,end_offset_s,kind,p
 enum { K_IMPULSE, K_HUM, K_NOISE, K_CARRIER, K_GAP, K_END, K_COUNT };
 static const char *const KIND_NAME[K_COUNT] = {"impulse", "hum", "noise", "carrier-loss", "gap", "input-end"};
 
-typedef struct {
-    const char *input;      /* file path, or NULL with a device                   */
-    const char *device;     /* --device NAME|INDEX                                 */
-    double device_rate_hz;  /* --rate (live)                                      */
-    long device_channels;   /* --channels (live)                                  */
-    const char *out, *events, *plot;
-    double interval_s, seconds, rotate_h, pace;
-    bool have_start;
-    double start_utc;       /* --start-time, seconds since 1970 UTC               */
-    ml_kind kind;
-    long channel;
-    double carrier_hz, bandwidth_hz, mains_hz;
-    double impulse_db, hum_db, noise_db, loss_db;
-} log_opts;
 
 static volatile sig_atomic_t g_stop = 0;
 
@@ -137,7 +124,7 @@ static void format_utc(double t, char *b, size_t n)
     snprintf(b, n, "%s.%03ldZ", day, ms % 1000);
 }
 
-static int parse_log(int argc, char **argv, log_opts *o)
+int ml_log_parse(int argc, char **argv, ml_log_opts *o)
 {
     enum { O_DEVICE = 256, O_RATE, O_CHANNELS, O_KIND, O_CHANNEL, O_START, O_SECONDS, O_OUT, O_EVENTS,
            O_INTERVAL, O_ROTATE, O_PLOT, O_IMP, O_HUM, O_NOISE, O_LOSS, O_MAINS, O_CARRIER, O_BW, O_PACE };
@@ -262,7 +249,7 @@ static int parse_log(int argc, char **argv, log_opts *o)
 
 /* The one place that turns options into an input; everything after works on any ml_source.
  * *start_utc: UTC of the input's first frame. 0 or an exit status (error printed). */
-static int open_input(const log_opts *o, ml_source **src, double *start_utc)
+static int open_input(const ml_log_opts *o, ml_source **src, double *start_utc)
 {
     *src = NULL;
     if (o->device) /* live capture is wired in here by the live-input work */
@@ -297,7 +284,7 @@ typedef struct {
 } summary_event;
 
 typedef struct {
-    const log_opts *o;
+    const ml_log_opts *o;
     ml_source *src;
     const ml_source_info *info;
     double rate, start_utc, offset0_s; /* offset_s = offset0_s + pos / rate                 */
@@ -387,12 +374,12 @@ static void insert_before_ext(const char *path, const char *ins, char *out, size
         snprintf(out, n, "%.*s%s%s", (int)(dot - path), path, ins, dot);
 }
 
-static int64_t period_of(const log_opts *o, double utc)
+static int64_t period_of(const ml_log_opts *o, double utc)
 {
     return o->rotate_h > 0 ? (int64_t)floor(utc / (o->rotate_h * 3600.0)) : 0;
 }
 
-static void paths_for(const log_opts *o, int64_t period, char *rows, char *events, size_t n)
+static void paths_for(const ml_log_opts *o, int64_t period, char *rows, char *events, size_t n)
 {
     char base[1100];
     if (o->rotate_h > 0) {
@@ -1113,20 +1100,33 @@ static void pace(const logger *L, const struct timespec *t0, int64_t frames)
 
 int ml_cmd_log(int argc, char **argv)
 {
-    log_opts o;
-    int rc = parse_log(argc, argv, &o);
+    ml_log_opts o;
+    int rc = ml_log_parse(argc, argv, &o);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
+    ml_source *src = NULL;
+    double start_utc = 0;
+    rc = open_input(&o, &src, &start_utc);
+    if (rc == 0)
+        rc = ml_log_run(&o, src, start_utc);
+    ml_source_close(src);
+    return rc;
+}
+
+int ml_log_run(const ml_log_opts *opts, ml_source *src, double start_utc)
+{
+    const ml_log_opts o = *opts;
+    int rc = 0;
     static logger L;
     memset(&L, 0, sizeof L);
+    g_stop = 0;
     L.o = &o;
+    L.src = src;
+    L.start_utc = start_utc;
     L.carrier_bin = -1;
     L.carrier_hz = o.carrier_hz;
     L.mains_hz = o.mains_hz;
     L.skip_events_until = -INFINITY;
-    rc = open_input(&o, &L.src, &L.start_utc);
-    if (rc != 0)
-        goto done;
     L.info = ml_source_get_info(L.src);
     L.rate = L.info->rate_hz;
     L.nch = (size_t)L.info->channels;
@@ -1291,6 +1291,5 @@ int ml_cmd_log(int argc, char **argv)
     }
 done:
     free_objects(&L);
-    ml_source_close(L.src);
     return rc;
 }
