@@ -573,19 +573,51 @@ static int push_changes(logger *L, const double value[3], const double level[3])
 
 /* ---- spectra --------------------------------------------------------------------------------- */
 
-static int cmp_double(const void *a, const void *b)
+/* The k-th smallest of x[n] (0-based), reordering x: Hoare's selection, O(n) on average. */
+static double select_kth(double *x, size_t n, size_t k)
 {
-    const double x = *(const double *)a, y = *(const double *)b;
-    return (x > y) - (x < y);
+    size_t lo = 0, hi = n - 1;
+    while (lo < hi) {
+        const double pivot = x[lo + (hi - lo) / 2];
+        size_t i = lo, j = hi;
+        while (i <= j) {
+            while (x[i] < pivot)
+                i++;
+            while (x[j] > pivot)
+                j--;
+            if (i <= j) {
+                const double t = x[i];
+                x[i] = x[j];
+                x[j] = t;
+                i++;
+                if (j == 0)
+                    break;
+                j--;
+            }
+        }
+        if (k <= j)
+            hi = j;
+        else if (k >= i)
+            lo = i;
+        else
+            return x[k];
+    }
+    return x[k];
 }
 
-/* Median of x[n] (reorders x). */
+/* Median of x[n] (reorders x); NAN for n == 0. */
 static double median(double *x, size_t n)
 {
     if (n == 0)
         return NAN;
-    qsort(x, n, sizeof *x, cmp_double);
-    return n % 2 ? x[n / 2] : 0.5 * (x[n / 2 - 1] + x[n / 2]);
+    const double upper = select_kth(x, n, n / 2);
+    if (n % 2)
+        return upper;
+    double lower = x[0]; /* after selection every x[i < n/2] <= upper: the largest of them */
+    for (size_t i = 1; i < n / 2; i++)
+        if (x[i] > lower)
+            lower = x[i];
+    return 0.5 * (lower + upper);
 }
 
 /* Median of psd[] over bins lo..hi (inclusive), as a density in dBFS/Hz. */

@@ -14,6 +14,8 @@ struct ml_floor {
     uint32_t *ring; /* bin index of each held value */
     uint32_t *hist;
     size_t nbins, head, count;
+    size_t qb;    /* the quantile's bin, kept up to date by push: a cursor, so a query is O(1) and */
+    size_t below; /* a push moves it only as far as the values moved it; below = values in bins < qb */
 };
 
 ml_floor_config ml_floor_config_default(size_t window)
@@ -59,6 +61,21 @@ void ml_floor_reset(ml_floor *q)
         return;
     memset(q->hist, 0, q->nbins * sizeof *q->hist);
     q->head = q->count = 0;
+    q->qb = q->below = 0;
+}
+
+/* Moves the cursor to the smallest bin b with (values in bins <= b) >= quantile * count. */
+static void seek_quantile(ml_floor *q)
+{
+    const double need = q->cfg.quantile * (double)q->count;
+    while (q->qb > 0 && (double)q->below >= need) {
+        q->qb--;
+        q->below -= q->hist[q->qb];
+    }
+    while (q->qb + 1 < q->nbins && (double)(q->below + q->hist[q->qb]) < need) {
+        q->below += q->hist[q->qb];
+        q->qb++;
+    }
 }
 
 ml_status ml_floor_push(ml_floor *q, const double *v, size_t n)
@@ -73,14 +90,21 @@ ml_status ml_floor_push(ml_floor *q, const double *v, size_t n)
             b = 0;
         if (b > (double)(q->nbins - 1))
             b = (double)(q->nbins - 1);
-        if (q->count == q->cfg.window)
-            q->hist[q->ring[q->head]]--;
-        else
+        if (q->count == q->cfg.window) {
+            const size_t old = q->ring[q->head];
+            q->hist[old]--;
+            if (old < q->qb)
+                q->below--;
+        } else {
             q->count++;
+        }
         q->ring[q->head] = (uint32_t)b;
         q->hist[(size_t)b]++;
+        if ((size_t)b < q->qb)
+            q->below++;
         q->head = (q->head + 1) % q->cfg.window;
     }
+    seek_quantile(q);
     return ML_OK;
 }
 
@@ -88,15 +112,7 @@ double ml_floor_get_level(const ml_floor *q)
 {
     if (q == NULL || q->count == 0)
         return NAN;
-    /* the smallest bin b with (values in bins 0..b) >= q * count */
-    const double need = q->cfg.quantile * (double)q->count;
-    size_t acc = 0;
-    for (size_t b = 0; b < q->nbins; b++) {
-        acc += q->hist[b];
-        if ((double)acc >= need)
-            return q->cfg.lo_db + ((double)b + 0.5) * q->cfg.step_db;
-    }
-    return q->cfg.lo_db + ((double)q->nbins - 0.5) * q->cfg.step_db;
+    return q->cfg.lo_db + ((double)q->qb + 0.5) * q->cfg.step_db;
 }
 
 size_t ml_floor_get_count(const ml_floor *q)
