@@ -151,6 +151,15 @@ ml_status ml_impulse_push(ml_impulse *q, const float *x, size_t n, ml_event *ev,
     return ok ? ML_OK : ML_EINVAL;
 }
 
+bool ml_impulse_get_open(const ml_impulse *q, int64_t *start_frame)
+{
+    if (q == NULL || !q->active || (size_t)(q->frame - q->burst.start) > q->max_n)
+        return false;
+    if (start_frame)
+        *start_frame = q->burst.start;
+    return true;
+}
+
 ml_status ml_impulse_finish(ml_impulse *q, ml_event *ev, size_t cap, size_t *nev)
 {
     if (q == NULL || nev == NULL || (cap > 0 && ev == NULL))

@@ -26,6 +26,7 @@
 #ifndef ML_DSP_DETECT_H
 #define ML_DSP_DETECT_H
 
+#include <stdbool.h>
 #include <stddef.h>
 #include <stdint.h>
 
@@ -66,6 +67,9 @@ size_t ml_impulse_frame_samples(const ml_impulse *q);
  * suffices. ML_EINVAL when cap is too small for what ended (those impulses are then lost).
  * Never allocates. */
 ml_status ml_impulse_push(ml_impulse *q, const float *x, size_t n, ml_event *ev, size_t cap, size_t *nev);
+/* True while a burst is open (not yet closed or dropped), with its first frame in *start_frame
+ * (may be NULL). A burst already longer than max_s is not reported (it cannot be an impulse). */
+bool ml_impulse_get_open(const ml_impulse *q, int64_t *start_frame);
 /* End of input: an impulse still open is closed (at most one goes to ev[cap]). */
 ml_status ml_impulse_finish(ml_impulse *q, ml_event *ev, size_t cap, size_t *nev);
 
