@@ -77,7 +77,7 @@ static void log_usage(FILE *f)
             "  --out FILE              interval rows (CSV); an existing log is continued, not overwritten\n"
             "  --events FILE           events (CSV; default: --out with -events before the extension)\n"
             "  --interval S            row interval in seconds, 0.05 .. 86400 (default 1)\n"
-            "  --rotate-hours H        start new files every H hours of UTC time (name-YYYYMMDDTHHMMSSZ.csv)\n"
+            "  --rotate-hours H        new files every H hours of UTC time (NAME-YYYYMMDDTHHMMSSZ.csv)\n"
             "  --plot FILE.png         at the end, draw the level history with events and a spectrogram\n"
             "detection:\n"
             "  --impulse-db DB         impulse: 1 ms level above the median of the last second (20)\n"
@@ -181,7 +181,8 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
             break;
         case O_START:
             if (!parse_utc(optarg, &o->start_utc))
-                return ml_cli_error("--start-time: '%s' is not a UTC time YYYY-MM-DDTHH:MM:SS[.fff]Z", optarg);
+                return ml_cli_error("--start-time: '%s' is not a UTC time YYYY-MM-DDTHH:MM:SS[.fff]Z",
+                                    optarg);
             o->have_start = true;
             break;
         case O_SECONDS:
@@ -205,7 +206,10 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
         case O_IMP: case O_HUM: case O_NOISE: case O_LOSS:
             if (!ml_cli_number(optarg, &v) || v <= 0 || v > 200)
                 return ml_cli_error("%s: '%s' is not a level in dB, 0 < DB <= 200", argv[optind - 1], optarg);
-            *(ch == O_IMP ? &o->impulse_db : ch == O_HUM ? &o->hum_db : ch == O_NOISE ? &o->noise_db : &o->loss_db) = v;
+            *(ch == O_IMP     ? &o->impulse_db
+              : ch == O_HUM   ? &o->hum_db
+              : ch == O_NOISE ? &o->noise_db
+                              : &o->loss_db) = v;
             break;
         case O_MAINS:
             if (strcmp(optarg, "50") == 0) o->mains_hz = 50;
@@ -295,10 +299,8 @@ typedef struct {
     int64_t pos;           /* frames since the input's start, lost frames included          */
     int64_t origin;        /* pos of the first interval's start                              */
     int64_t ival_frames, step_len;
-    int64_t ival_index;    /* intervals since origin                                         */
     int64_t ipos;          /* frames into the current interval                               */
     size_t steps_per_ival; /* K                                                              */
-    int64_t gstep;         /* steps completed (or skipped) since origin                      */
 
     /* objects */
     ml_aweight *aw;
@@ -462,8 +464,8 @@ static void fmt_num(char *b, size_t n, double v, int decimals)
         b[0] = '\0';
 }
 
-static int write_event(logger *L, int kind, int64_t start_pos, int64_t end_pos, double peak_dbfs, double rise_db,
-                       const char *detail)
+static int write_event(logger *L, int kind, int64_t start_pos, int64_t end_pos, double peak_dbfs,
+                       double rise_db, const char *detail)
 {
     const double s = offset_of(L, start_pos), e = offset_of(L, end_pos);
     if (kind != K_END && s <= L->skip_events_until)
@@ -516,8 +518,8 @@ static int impulse_events(logger *L, size_t n)
             L->imp_counted = -1; /* counted when the row of the interval it started in was written */
         else
             L->impulses++;
-        int rc = write_event(L, K_IMPULSE, sp, L->imp_base + e->end * fr, 20.0 * log10(e->peak_abs), e->rise_db,
-                             "");
+        int rc = write_event(L, K_IMPULSE, sp, L->imp_base + e->end * fr, 20.0 * log10(e->peak_abs),
+                             e->rise_db, "");
         if (rc != 0)
             return rc;
     }
@@ -538,7 +540,8 @@ static int change_events(logger *L, int which, size_t n)
     for (size_t i = 0; i < n; i++) {
         const ml_event *e = &L->ev[i];
         char det[120];
-        snprintf(det, sizeof det, "%s %.1f dB from baseline %.1f dB", what[which], e->rise_db, e->baseline_db);
+        snprintf(det, sizeof det, "%s %.1f dB from baseline %.1f dB", what[which], e->rise_db,
+                 e->baseline_db);
         int rc = write_event(L, kind[which], step_pos(L, e->start), step_pos(L, e->end), L->chg_peak[which],
                              e->rise_db, det);
         if (rc != 0)
@@ -568,7 +571,8 @@ static int push_changes(logger *L, const double value[3], const double level[3])
         }
         if (ml_change_get_state(L->chg[w]) == 0)
             L->chg_peak[w] = NAN;
-        else if (out && isfinite(level[w]) && (!isfinite(L->chg_peak[w]) || dir * (level[w] - L->chg_peak[w]) > 0))
+        else if (out && isfinite(level[w])
+                 && (!isfinite(L->chg_peak[w]) || dir * (level[w] - L->chg_peak[w]) > 0))
             L->chg_peak[w] = level[w];
     }
     return 0;
@@ -703,7 +707,8 @@ static void setup_carrier(logger *L, const double *psd)
 static int step_done(logger *L)
 {
     double value[3] = {NAN, NAN, NAN}, level[3] = {NAN, NAN, NAN};
-    if (L->spec && ml_spectrum_segments(L->spec) > 0 && ml_spectrum_get_psd(L->spec, L->psd, L->nbins) == ML_OK) {
+    if (L->spec && ml_spectrum_segments(L->spec) > 0
+        && ml_spectrum_get_psd(L->spec, L->psd, L->nbins) == ML_OK) {
         for (size_t k = 0; k < L->nbins; k++)
             L->psd_sum[k] += L->psd[k];
         L->nspectra++;
@@ -714,7 +719,8 @@ static int step_done(logger *L)
         level[1] = L->step_n > 0 ? ml_power_dbfs(L->step_sumsq / (double)L->step_n) : NAN;
         if (!L->is_complex && L->mains_hz > 0) {
             ml_audio_result hr;
-            if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, L->mains_hz, HUM_N, &hr) == ML_OK && hr.nhum > 0) {
+            if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, L->mains_hz, HUM_N, &hr) == ML_OK
+                && hr.nhum > 0) {
                 /* hum over floor: the hum power against what the floor alone puts in its lobes */
                 const double floor_lobes = pow(10.0, fl / 10.0) * L->fs_power * L->bin_hz
                                            * (double)(2 * L->lobe + 1) * (double)hr.nhum;
@@ -734,7 +740,6 @@ static int step_done(logger *L)
         ml_spectrum_reset(L->spec);
     L->step_sumsq = 0;
     L->step_n = 0;
-    L->gstep++;
     return push_changes(L, value, level);
 }
 
@@ -757,9 +762,12 @@ static void sgram_push(logger *L, double t0, double t1)
     const double nfft = (double)ml_spectrum_nfft(L->spec);
     for (size_t b = 0; b < SG_ROWS; b++) {
         const double half = L->is_complex ? L->rate / SG_ROWS / 2 : 0;
-        double fa = L->is_complex ? L->band_hz[b] - half : (b == 0 ? L->band_hz[0] : sqrt(L->band_hz[b - 1] * L->band_hz[b]));
-        double fb = L->is_complex ? L->band_hz[b] + half
-                                  : (b + 1 == SG_ROWS ? L->rate / 2 : sqrt(L->band_hz[b] * L->band_hz[b + 1]));
+        /* band edges: halfway (geometrically for log bands) to the neighbouring centres */
+        const double lo_c = b == 0 ? L->band_hz[0] : L->band_hz[b - 1];
+        const double hi_c = b + 1 == SG_ROWS ? L->rate / 2 : L->band_hz[b + 1];
+        const double fa = L->is_complex ? L->band_hz[b] - half : (b == 0 ? lo_c : sqrt(lo_c * L->band_hz[b]));
+        const double fb = L->is_complex ? L->band_hz[b] + half
+                                        : (b + 1 == SG_ROWS ? hi_c : sqrt(L->band_hz[b] * hi_c));
         long ka = lround(fa / L->bin_hz), kb = lround(fb / L->bin_hz);
         if (kb < ka)
             kb = ka;
@@ -886,9 +894,9 @@ static int write_row(logger *L)
     fmt_num(c[10], 24, mneg, 2);
     for (int i = 0; i < HUM_N; i++)
         fmt_num(hs[i], 24, h[i], 2);
-    snprintf(line, sizeof line, "%s,%.3f,%.3f,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%ld,%.3f,%s,%s,%s,%s,%s", utcs,
-             off, dur, c[0], c[1], c[2], c[3], c[4], c[5], hs[0], hs[1], hs[2], hs[3], hs[4], hs[5], c[6],
-             L->impulses, (double)L->lost_frames / L->rate, c[7], c[8], c[9], c[10], L->note);
+    snprintf(line, sizeof line, "%s,%.3f,%.3f,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%s,%ld,%.3f,%s,%s,%s,%s,%s",
+             utcs, off, dur, c[0], c[1], c[2], c[3], c[4], c[5], hs[0], hs[1], hs[2], hs[3], hs[4], hs[5],
+             c[6], L->impulses, (double)L->lost_frames / L->rate, c[7], c[8], c[9], c[10], L->note);
     if (ml_logfile_write_line(L->rows, line) != ML_OK) {
         L->wrote_error = true;
         return ml_cli_error("%s: cannot write: %s", L->rows_path, strerror(errno));
@@ -968,7 +976,6 @@ static int advance(logger *L, const float *buf, size_t n)
             int rc = write_row(L);
             if (rc != 0)
                 return rc;
-            L->ival_index++;
             L->ipos = 0;
             reset_interval(L);
             if (L->spec)
@@ -999,7 +1006,8 @@ static int finish(logger *L, const char *end_note)
 
 static void print_summary(const logger *L, FILE *f, const char *why)
 {
-    fprintf(f, "log: %ld rows in %s, events in %s (%s)\n", L->rows_written, L->rows_path, L->events_path, why);
+    fprintf(f, "log: %ld rows in %s, events in %s (%s)\n", L->rows_written, L->rows_path, L->events_path,
+            why);
     fprintf(f, "events:");
     for (int k = 0; k < K_COUNT; k++)
         fprintf(f, " %s %ld%s", KIND_NAME[k], L->count[k], k + 1 < K_COUNT ? "," : "\n");
@@ -1189,8 +1197,10 @@ int ml_log_run(const ml_log_opts *opts, ml_source *src, double start_utc)
         goto done;
     }
     if (L.is_complex || L.is_if) {
-        if (!isnan(o.carrier_hz) && !(fabs(o.carrier_hz) < L.rate / 2 && (L.is_complex || o.carrier_hz > 0))) {
-            rc = ml_cli_error("--carrier %.1f Hz is outside the input's band (rate %.0f Hz)", o.carrier_hz, L.rate);
+        if (!isnan(o.carrier_hz)
+            && !(fabs(o.carrier_hz) < L.rate / 2 && (L.is_complex || o.carrier_hz > 0))) {
+            rc = ml_cli_error("--carrier %.1f Hz is outside the input's band (rate %.0f Hz)", o.carrier_hz,
+                              L.rate);
             goto done;
         }
     }

@@ -20,7 +20,8 @@ struct ml_floor {
 
 ml_floor_config ml_floor_config_default(size_t window)
 {
-    return (ml_floor_config){.window = window, .quantile = 0.5, .lo_db = -200.0, .hi_db = 20.0, .step_db = 0.1};
+    return (ml_floor_config){
+        .window = window, .quantile = 0.5, .lo_db = -200.0, .hi_db = 20.0, .step_db = 0.1};
 }
 
 ml_status ml_floor_create(const ml_floor_config *cfg, ml_floor **out)

@@ -3,8 +3,9 @@
  *
  * The values are kept in a ring of N and counted in a histogram of step_db wide bins between lo_db
  * and hi_db (values outside are clamped to the edges); a cursor on the quantile's bin follows the
- * pushes, so a push costs O(1) plus the cursor's move and a query O(1); memory is fixed at create. The quantile is the lowest bin edge below which
- * lies at least the share q of the values, read at the bin's centre (resolution step_db). The
+ * pushes, so a push costs O(1) plus the cursor's move and a query O(1); memory is fixed at create.
+ * The quantile is the lowest bin below whose upper edge lies at least the share q of the values,
+ * read at the bin's centre (resolution step_db). The
  * median (q = 0.5) ignores anything that occupies less than half of the window: short bursts do
  * not raise the floor.
  */

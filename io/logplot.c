@@ -234,7 +234,8 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
         bucket *b;
         double r, g, bl;
         const char *name;
-    } series[3] = {{pb, 0.6, 0.6, 0.6, "peak"}, {rb, 0.1, 0.3, 0.8, "rms"}, {ab, 0.1, 0.6, 0.2, "A-weighted"}};
+    } series[3] = {
+        {pb, 0.6, 0.6, 0.6, "peak"}, {rb, 0.1, 0.3, 0.8, "rms"}, {ab, 0.1, 0.6, 0.2, "A-weighted"}};
     for (int k = 0; k < 3; k++) {
         cairo_set_source_rgb(cr, series[k].r, series[k].g, series[k].bl);
         bool pen = false;
@@ -296,8 +297,8 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
             snprintf(b, sizeof b, "%.0f", spec->band_hz[row]);
             text(cr, X0 - 6, sy1 - (double)(row + 0.5) / (double)nr * (sy1 - sy0) + 4, b, 1);
         }
-        snprintf(b, sizeof b, "spectrogram, Hz (%s axis; colour %.0f .. %.0f dB)", spec->log_freq ? "log" : "linear",
-                 dmin, dmax);
+        snprintf(b, sizeof b, "spectrogram, Hz (%s axis; colour %.0f .. %.0f dB)",
+                 spec->log_freq ? "log" : "linear", dmin, dmax);
         text(cr, X0, sy0 - 8, b, 0);
         (void)f0;
         (void)f1;
