@@ -1006,8 +1006,8 @@ static int finish(logger *L, const char *end_note)
 
 static void print_summary(const logger *L, FILE *f, const char *why)
 {
-    fprintf(f, "log: %ld rows in %s, events in %s (%s)\n", L->rows_written, L->rows_path, L->events_path,
-            why);
+    fprintf(f, "log: %ld rows written (%s); rows in %s, events in %s\n", L->rows_written, why, L->rows_path,
+            L->events_path);
     fprintf(f, "events:");
     for (int k = 0; k < K_COUNT; k++)
         fprintf(f, " %s %ld%s", KIND_NAME[k], L->count[k], k + 1 < K_COUNT ? "," : "\n");
