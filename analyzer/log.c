@@ -39,6 +39,8 @@
 #define WORST_N 5     /* worst events kept for the summary                 */
 #define EV_CAP 1024   /* events returned by one detector push               */
 #define SG_ROWS 128   /* spectrogram bands                                   */
+#define IMPULSE_MERGE_S 0.5      /* impulses closer than this merge into one event */
+#define IMPULSE_MERGE_MAX_S 10.0 /* longest merged impulse event                  */
 
 static const char ROW_HEADER[] =
     "start_utc,offset_s,duration_s,rms_dbfs,peak_dbfs,a_weighted_dbfs,crest_db,mains_hz,hum_dbfs,"
@@ -288,6 +290,12 @@ typedef struct {
 } summary_event;
 
 typedef struct {
+    int64_t start, end;       /* pos of the first impulse's start, the last one's end          */
+    double peak_dbfs, rise_db; /* largest of the merged impulses                              */
+    long n;                   /* impulses merged; 0 = none pending                             */
+} merged_impulses;
+
+typedef struct {
     const ml_log_opts *o;
     ml_source *src;
     const ml_source_info *info;
@@ -307,6 +315,7 @@ typedef struct {
     ml_impulse *imp;
     int64_t imp_base;      /* pos of the impulse detector's frame 0                          */
     int64_t imp_counted;   /* pos of an open impulse already counted in a written row, or -1 */
+    merged_impulses mi;    /* impulse event still open to merging                            */
     ml_change *chg[3];     /* hum, noise, carrier-loss                                       */
     double chg_peak[3];
     ml_spectrum *spec;
@@ -446,9 +455,9 @@ static int open_outputs(logger *L, int64_t period, char *last_row, size_t last_l
     st = ml_logfile_open(L->events_path, EVENT_HEADER, &L->events, last_ev, sizeof last_ev, err, sizeof err);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", L->events_path, err);
-    char f[64];
+    /* events are written when they end, so not in start order: the latest start of any line */
     double v;
-    if (last_ev[0] && csv_field(last_ev, 1, f, sizeof f) && ml_cli_number(f, &v) && v > L->skip_events_until)
+    if (last_ev[0] && ml_logfile_max_field(L->events_path, 1, &v) == ML_OK && v > L->skip_events_until)
         L->skip_events_until = v;
     L->period = period;
     return 0;
@@ -508,21 +517,48 @@ static int write_event(logger *L, int kind, int64_t start_pos, int64_t end_pos, 
     return 0;
 }
 
+/* Writes the merged impulse event and forgets it. */
+static int flush_impulses(logger *L)
+{
+    if (L->mi.n == 0)
+        return 0;
+    char det[64];
+    snprintf(det, sizeof det, "%ld impulse%s", L->mi.n, L->mi.n == 1 ? "" : "s");
+    L->mi.n = 0;
+    return write_event(L, K_IMPULSE, L->mi.start, L->mi.end, L->mi.peak_dbfs, L->mi.rise_db, det);
+}
+
+/* Impulses from the detector: each counts in its interval's row; impulses following each other
+ * within IMPULSE_MERGE_S merge into one event (up to IMPULSE_MERGE_MAX_S long), so a buzzing
+ * dimmer makes one event per few seconds, not a hundred lines per second. */
 static int impulse_events(logger *L, size_t n)
 {
     const int64_t fr = (int64_t)ml_impulse_frame_samples(L->imp);
+    const int64_t merge = (int64_t)llround(IMPULSE_MERGE_S * L->rate);
+    const int64_t cap = (int64_t)llround(IMPULSE_MERGE_MAX_S * L->rate);
     for (size_t i = 0; i < n; i++) {
         const ml_event *e = &L->ev[i];
-        int64_t sp = L->imp_base + e->start * fr;
+        const int64_t sp = L->imp_base + e->start * fr, ep = L->imp_base + e->end * fr;
         if (sp == L->imp_counted)
             L->imp_counted = -1; /* counted when the row of the interval it started in was written */
         else
             L->impulses++;
-        int rc = write_event(L, K_IMPULSE, sp, L->imp_base + e->end * fr, 20.0 * log10(e->peak_abs),
-                             e->rise_db, "");
+        const double pk = 20.0 * log10(e->peak_abs);
+        if (L->mi.n > 0 && sp - L->mi.end <= merge && ep - L->mi.start <= cap) {
+            L->mi.end = ep;
+            L->mi.n++;
+            L->mi.peak_dbfs = fmax(L->mi.peak_dbfs, pk);
+            L->mi.rise_db = fmax(L->mi.rise_db, e->rise_db);
+            continue;
+        }
+        int rc = flush_impulses(L);
         if (rc != 0)
             return rc;
+        L->mi = (merged_impulses){sp, ep, pk, e->rise_db, 1};
     }
+    /* a merged event is written once no impulse can join it any more */
+    if (L->mi.n > 0 && L->pos - L->mi.end > merge)
+        return flush_impulses(L);
     return 0;
 }
 
@@ -992,6 +1028,8 @@ static int finish(logger *L, const char *end_note)
     int rc = 0;
     ml_impulse_finish(L->imp, L->ev, EV_CAP, &nev);
     rc = impulse_events(L, nev);
+    if (rc == 0)
+        rc = flush_impulses(L);
     for (int w = 0; w < 3 && rc == 0; w++)
         if (L->chg[w]) {
             ml_change_finish(L->chg[w], L->ev, EV_CAP, &nev);
@@ -1294,6 +1332,8 @@ int ml_log_run(const ml_log_opts *opts, ml_source *src, double start_utc)
             size_t nev = 0;
             ml_impulse_finish(L.imp, L.ev, EV_CAP, &nev);
             rc = impulse_events(&L, nev);
+            if (rc == 0)
+                rc = flush_impulses(&L);
             char det[80];
             snprintf(det, sizeof det, "%llu frames lost (input overflow)", (unsigned long long)lost);
             if (rc == 0)

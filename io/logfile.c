@@ -181,6 +181,41 @@ const char *ml_logfile_path(const ml_logfile *f)
     return f ? f->path : "";
 }
 
+ml_status ml_logfile_max_field(const char *path, int column, double *max)
+{
+    FILE *fp = fopen(path, "rb");
+    if (fp == NULL)
+        return ML_EIO;
+    char line[LINE_MAX_BYTES + 2];
+    bool header = true, found = false, complete = true;
+    while (fgets(line, sizeof line, fp)) {
+        const bool was_complete = complete;
+        complete = strchr(line, '\n') != NULL;
+        if (!was_complete || header) { /* the rest of a long line, or the header */
+            header = header && !complete;
+            continue;
+        }
+        if (!complete)
+            break; /* a partial last line does not count */
+        const char *p = line;
+        for (int i = 0; i < column && p; i++) {
+            p = strchr(p, ',');
+            if (p)
+                p++;
+        }
+        if (p == NULL)
+            continue;
+        char *end;
+        const double v = strtod(p, &end);
+        if (end != p && (*end == ',' || *end == '\n' || *end == '\r') && (!found || v > *max)) {
+            *max = v;
+            found = true;
+        }
+    }
+    fclose(fp);
+    return found ? ML_OK : ML_ENOSIGNAL;
+}
+
 bool ml_logfile_has_rows(const char *path)
 {
     FILE *fp = fopen(path, "rb");

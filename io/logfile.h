@@ -34,6 +34,11 @@ void ml_logfile_close(ml_logfile *f);
 /* The path given to open. */
 const char *ml_logfile_path(const ml_logfile *f);
 
+/* Largest number in field `column` (0-based, comma-separated) of the complete lines after the
+ * header, streamed (any file size, fixed memory). ML_ENOSIGNAL when no line has a number there,
+ * ML_EIO when path cannot be read. */
+ml_status ml_logfile_max_field(const char *path, int column, double *max);
+
 /* True when path exists and holds at least one complete line after its header. */
 bool ml_logfile_has_rows(const char *path);
 

@@ -139,6 +139,25 @@ def main():
             d = float(r["a_weighted_dbfs"]) - float(r["rms_dbfs"])
             c.check("A-weighted minus rms at %.0f Hz within %.1f .. %+.1f dB of %.2f" % (f, lo, hi, table),
                     rc == 0 and table + lo <= d <= table + hi, "%.3f dB" % d)
+
+        # a buzz: 0.3 clicks every 10 ms from 10 s to 12 s (a dimmer's noise): 200 impulses, counted
+        # 100 per 1 s row, merged into one event (impulses under 0.5 s apart merge). (Being regular,
+        # its spectrum is lines 100 Hz apart: the median bin, the noise floor, hardly moves.)
+        rng = np.random.default_rng(8)
+        y = rng.normal(0, 1e-3, 20 * FS)
+        buzz = [int(round((10.0 + 0.01 * k) * FS)) + 7 for k in range(200)]
+        y[buzz] += 0.3
+        E.write("buzz.wav", y, FS, "FLOAT")
+        rc, _, err = log(exe, ["--out", "buzz.csv", "buzz.wav"])
+        rows = read_csv("buzz.csv")
+        ev = read_csv("buzz-events.csv")
+        imp = [e for e in ev if e["kind"] == "impulse"]
+        c.check("buzz: one merged impulse event", rc == 0 and len(imp) == 1, str(imp))
+        if imp:
+            c.check("buzz: 200 impulses in it", imp[0]["detail"] == "200 impulses", imp[0]["detail"])
+            c.close("buzz: start", float(imp[0]["start_offset_s"]), buzz[0] / FS, 0.002, "1 ms frames")
+            c.close("buzz: end", float(imp[0]["end_offset_s"]), buzz[-1] / FS, 0.003, "its last frame")
+        c.check("buzz: 100 impulses in each of its rows", [int(r["impulses"]) for r in rows[9:13]] == [0, 100, 100, 0])
     c.finish()
 
 

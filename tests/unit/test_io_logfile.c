@@ -77,6 +77,13 @@ START_TEST(reopen_returns_last_line_and_cuts_partial)
     f = open_ok(last, 2);
     ck_assert_str_eq(last, "5");
     ml_logfile_close(f);
+    /* the largest number of a column over every complete line, whatever their order */
+    double mx = 0;
+    ck_assert_int_eq(ml_logfile_max_field(path, 0, &mx), ML_OK);
+    ck_assert_double_eq(mx, 5.0);
+    ck_assert_int_eq(ml_logfile_max_field(path, 1, &mx), ML_OK);
+    ck_assert_double_eq(mx, 6.0);
+    ck_assert_int_eq(ml_logfile_max_field(path, 7, &mx), ML_ENOSIGNAL);
 }
 END_TEST
 
