@@ -1214,6 +1214,12 @@ int ml_log_run(const ml_log_opts *opts, ml_source *src, double start_utc)
     static logger L;
     memset(&L, 0, sizeof L);
     g_stop = 0;
+    /* from the start, so that a signal during set-up also ends the log cleanly */
+    struct sigaction sa;
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_signal;
+    sigaction(SIGINT, &sa, NULL);
+    sigaction(SIGTERM, &sa, NULL);
     L.o = &o;
     L.src = src;
     L.start_utc = start_utc;
@@ -1295,12 +1301,6 @@ int ml_log_run(const ml_log_opts *opts, ml_source *src, double start_utc)
         }
     }
     L.imp_base = L.pos;
-
-    struct sigaction sa;
-    memset(&sa, 0, sizeof sa);
-    sa.sa_handler = on_signal;
-    sigaction(SIGINT, &sa, NULL);
-    sigaction(SIGTERM, &sa, NULL);
 
     struct timespec t0;
     clock_gettime(CLOCK_MONOTONIC, &t0);

@@ -3,7 +3,7 @@
 Usage: /usr/bin/python3 test_log_restart.py /path/to/modlens
 
 A 40 s file is logged at 0.5 s intervals, read at 8 times real time (--pace, a documented testing
-option) and killed with SIGKILL mid-way: the CSV must parse and end with a complete row. A partial
+option) and, once its CSV holds some rows, killed with SIGKILL mid-way: the CSV must parse and end with a complete row. A partial
 line is then appended by hand (as a kill inside a write would leave) and the same command is run
 again: it must cut the partial line, keep one header, and continue so that the rows are exactly
 those of an uninterrupted run. SIGTERM must end a run cleanly with the summary; --rotate-hours
@@ -37,6 +37,18 @@ def rows_of(path):
         return list(csv.reader(f))
 
 
+def wait_rows(path, n, proc):
+    """Waits (at most 30 s, polling) until path holds n lines or proc ended: no fixed sleeps."""
+    deadline = time.monotonic() + 30
+    while time.monotonic() < deadline and proc.poll() is None:
+        if os.path.exists(path):
+            with open(path, "rb") as f:
+                if f.read().count(b"\n") >= n:
+                    return True
+        time.sleep(0.02)
+    return False
+
+
 def clean(*names):
     for n in names:
         if os.path.exists(n):
@@ -59,7 +71,8 @@ def main():
 
         p = subprocess.Popen([exe, "log", "--out", "k.csv", "--pace", "8"] + common,
                              stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-        time.sleep(2.0)
+        c.check("paced log under way", wait_rows("k.csv", 12, p))
+        time.sleep(0.3)  # lands anywhere in an interval; the run has about 4 s to go
         p.send_signal(signal.SIGKILL)
         p.wait(timeout=10)
         c.check("killed by SIGKILL", p.returncode == -signal.SIGKILL, str(p.returncode))
@@ -89,7 +102,8 @@ def main():
 
         p = subprocess.Popen([exe, "log", "--out", "t.csv", "--pace", "8"] + common,
                              stdout=subprocess.PIPE, stderr=subprocess.PIPE)
-        time.sleep(1.5)
+        c.check("paced log under way (2)", wait_rows("t.csv", 8, p))
+        time.sleep(0.2)
         p.send_signal(signal.SIGTERM)
         out, err = p.communicate(timeout=10)
         t = rows_of("t.csv")
