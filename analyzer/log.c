@@ -753,15 +753,23 @@ static int step_done(logger *L)
         const double fl = floor_dbfs_hz(L, L->psd, lo, hi);
         value[1] = fl;
         level[1] = L->step_n > 0 ? ml_power_dbfs(L->step_sumsq / (double)L->step_n) : NAN;
-        if (!L->is_complex && L->mains_hz > 0) {
-            ml_audio_result hr;
-            if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, L->mains_hz, HUM_N, &hr) == ML_OK
-                && hr.nhum > 0) {
-                /* hum over floor: the hum power against what the floor alone puts in its lobes */
+        if (!L->is_complex) {
+            /* hum over floor: the hum power against what the floor alone puts in its lobes; until
+             * the mains frequency is known, the larger of the 50 and 60 Hz figures */
+            const double cand[2] = {50.0, 60.0};
+            for (int j = 0; j < 2; j++) {
+                if (L->mains_hz > 0 && cand[j] != L->mains_hz)
+                    continue;
+                ml_audio_result hr;
+                if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, cand[j], HUM_N, &hr) != ML_OK || hr.nhum == 0)
+                    continue;
                 const double floor_lobes = pow(10.0, fl / 10.0) * L->fs_power * L->bin_hz
                                            * (double)(2 * L->lobe + 1) * (double)hr.nhum;
-                value[0] = 10.0 * log10(fmax(hr.hum_power, 1e-300) / fmax(floor_lobes, 1e-300));
-                level[0] = ml_power_dbfs(hr.hum_power);
+                const double r = 10.0 * log10(fmax(hr.hum_power, 1e-300) / fmax(floor_lobes, 1e-300));
+                if (isnan(value[0]) || r > value[0]) {
+                    value[0] = r;
+                    level[0] = ml_power_dbfs(hr.hum_power);
+                }
             }
         }
         if (L->is_if || L->is_complex) {
@@ -861,6 +869,7 @@ static int write_row(logger *L)
         if (rc != 0)
             return rc;
     }
+    double row_mains = NAN;
     double rms = NAN, pk = NAN, aw = NAN, crest = NAN, hum = NAN, h[HUM_N], fl = NAN, car = NAN, cnr = NAN,
            mpos = NAN, mneg = NAN;
     for (int i = 0; i < HUM_N; i++)
@@ -879,9 +888,20 @@ static int write_row(logger *L)
         floor_band(L, &lo, &hi);
         if (!L->is_complex) {
             ml_audio_result hr;
-            if (L->mains_hz == 0 && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 0, HUM_N, &hr) == ML_OK)
-                L->mains_hz = hr.mains_hz; /* chosen once, from the first interval */
-            if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, L->mains_hz, HUM_N, &hr) == ML_OK) {
+            double mains = L->mains_hz;
+            if (mains == 0) {
+                /* not given: the frequency whose first four multiples hold more power in this
+                 * interval; fixed for the rest of the log once one leads by 6 dB */
+                ml_audio_result h50, h60;
+                if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 50, 4, &h50) == ML_OK
+                    && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 60, 4, &h60) == ML_OK) {
+                    mains = h60.hum_power > h50.hum_power ? 60.0 : 50.0;
+                    if (h50.hum_power > 4.0 * h60.hum_power || h60.hum_power > 4.0 * h50.hum_power)
+                        L->mains_hz = mains;
+                }
+            }
+            row_mains = mains;
+            if (mains > 0 && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, mains, HUM_N, &hr) == ML_OK) {
                 hum = ml_power_dbfs(hr.hum_power);
                 for (size_t i = 0; i < hr.nhum; i++)
                     if (hr.hum[i].order >= 1 && hr.hum[i].order <= HUM_N)
@@ -921,7 +941,7 @@ static int write_row(logger *L)
     fmt_num(c[1], 24, pk, 2);
     fmt_num(c[2], 24, aw, 2);
     fmt_num(c[3], 24, crest, 2);
-    fmt_num(c[4], 24, L->nspectra > 0 && !L->is_complex ? L->mains_hz : NAN, 0);
+    fmt_num(c[4], 24, row_mains, 0);
     fmt_num(c[5], 24, hum, 2);
     fmt_num(c[6], 24, fl, 2);
     fmt_num(c[7], 24, car, 2);

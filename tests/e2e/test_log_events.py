@@ -117,7 +117,9 @@ def main():
             got = [num(r[name]) for r in rows[31:44]]
             c.check("%s = %.2f dBFS (31..44 s)" % (name, 20 * math.log10(amp)),
                     all(g is not None and abs(g - 20 * math.log10(amp)) <= 0.2 for g in got), str(got[:3]))
-        c.check("mains 50 Hz", all(r["mains_hz"] == "50" for r in rows))
+        # before the hum (30 s) the noise alone decides, row by row; the 50 Hz hum then fixes it
+        c.check("mains 50 Hz from the hum on", all(r["mains_hz"] == "50" for r in rows[30:]))
+        c.check("mains 50 or 60 before", all(r["mains_hz"] in ("50", "60") for r in rows[:30]))
         # noise floor: one-sided density sigma^2/(fs/2) = 4.17e-11 /Hz = -100.8 dBFS/Hz; the median
         # of an average of 5 Hann periodograms (chi-square, 10 degrees of freedom) lies 0.30 dB below
         # the mean: -101.1; 0.4 dB for the spread of one interval's estimate
