@@ -447,6 +447,8 @@ static int open_outputs(logger *L, int64_t period, char *last_row, size_t last_l
     ml_logfile_close(L->events);
     L->rows = L->events = NULL;
     paths_for(L->o, period, L->rows_path, L->events_path, sizeof L->rows_path);
+    if (strcmp(L->rows_path, L->events_path) == 0 || ml_same_file(L->rows_path, L->events_path))
+        return ml_cli_error("%s: --out and --events name the same file", L->rows_path);
     if (L->o->input && (ml_same_file(L->rows_path, L->o->input) || ml_same_file(L->events_path, L->o->input)))
         return ml_cli_error("%s: refusing to write the log over the input file", L->rows_path);
     ml_status st = ml_logfile_open(L->rows_path, ROW_HEADER, &L->rows, last_row, last_len, err, sizeof err);

@@ -160,6 +160,21 @@ def main():
             c.close("buzz: start", float(imp[0]["start_offset_s"]), buzz[0] / FS, 0.002, "1 ms frames")
             c.close("buzz: end", float(imp[0]["end_offset_s"]), buzz[-1] / FS, 0.003, "its last frame")
         c.check("buzz: 100 impulses in each of its rows", [int(r["impulses"]) for r in rows[9:13]] == [0, 100, 100, 0])
+
+        # 60 Hz mains: hum (2e-3 at 60 Hz and 180 Hz) from 8 s of a 20 s file of noise
+        t = np.arange(20 * FS) / FS
+        y = np.random.default_rng(9).normal(0, 1e-3, 20 * FS)
+        y[t >= 8] += 2e-3 * (np.sin(2 * np.pi * 60 * t[t >= 8]) + np.sin(2 * np.pi * 180 * t[t >= 8]))
+        E.write("hum60.wav", y, FS, "FLOAT")
+        rc, _, err = log(exe, ["--out", "h60.csv", "hum60.wav"])
+        rows = read_csv("h60.csv")
+        ev = read_csv("h60-events.csv")
+        c.check("60 Hz: mains 60 from the hum on", rc == 0 and all(r["mains_hz"] == "60" for r in rows[8:]))
+        hum = [e for e in ev if e["kind"] == "hum"]
+        c.check("60 Hz: one hum event from 8 s, nothing else", len(hum) == 1 and len(ev) == 1
+                and abs(float(hum[0]["start_offset_s"]) - 8) <= 1, str(ev))
+        # analytic: 20 lg 2e-3 = -53.98 dBFS; 0.2 dB for the noise inside the lobe
+        c.close("60 Hz: hum_h1_dbfs", float(rows[12]["hum_h1_dbfs"]), -53.98, 0.2)
     c.finish()
 
 

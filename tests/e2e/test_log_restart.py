@@ -141,7 +141,8 @@ def main():
                 ("live input", ["--out", "m.csv", "--device", "default"], "live input is not available"),
                 ("foreign csv", ["--out", "other.csv", "long.wav"], "different columns"),
                 ("no --out", ["long.wav"], "--out"),
-                ("bad interval", ["--out", "m.csv", "--interval", "0", "long.wav"], "--interval")):
+                ("bad interval", ["--out", "m.csv", "--interval", "0", "long.wav"], "--interval"),
+                ("same rows and events", ["--out", "m.csv", "--events", "m.csv", "long.wav"], "same file")):
             rc, out, err = log(exe, args)
             lines = err.strip().splitlines()
             c.check("bad input: " + name, rc == 2 and len(lines) == 1 and lines[0].startswith("modlens: ")
