@@ -1020,7 +1020,11 @@ static int advance(logger *L, const float *buf, size_t n)
             L->data_frames += (int64_t)m;
         } else {
             L->lost_frames += (int64_t)m;
-            ml_spectrum_reset(L->spec); /* no spectrum spans a gap */
+            /* no spectrum, filter or envelope spans a gap */
+            ml_spectrum_reset(L->spec);
+            ml_aweight_reset(L->aw);
+            if (L->am)
+                ml_am_reset(L->am);
         }
         L->pos += (int64_t)m;
         L->ipos += (int64_t)m;

@@ -51,10 +51,13 @@ def main():
             # 0.05 dB for the lobe's noise and rounding
             c.check(kind + ": carrier -10.46 dBFS", all(abs(float(r["carrier_dbfs"]) + 10.46) <= 0.05 for r in steady),
                     str([r["carrier_dbfs"] for r in steady[:3]]))
-            # analytic CNR in the default 2 x 5 kHz channel: carrier power 0.09 (iq) or 0.045 (if);
-            # noise density 2e-8/48 kHz (iq) or 1e-8/24 kHz (if): 73.3 / 70.3 dB; the channel noise
-            # is a median bin (chi-square, 10 d.o.f.: 0.30 dB under the mean), so +0.3; 0.5 dB spread
-            want = (73.3 if kind == "iq" else 70.3) + 0.3
+            # analytic CNR in the default channel carrier +- B: B = 5 kHz for iq; for if the widest
+            # that fits below the carrier with the channel filter's 1 kHz transition and 100 Hz to
+            # spare, 4.9 kHz. Carrier power 0.09 (iq) or 0.045 (if); noise density 2e-8 / 48 kHz (iq)
+            # or 1e-8 / 24 kHz (if). The channel noise is a median bin (chi-square with 10 degrees
+            # of freedom: 0.30 dB under the mean), so +0.3 dB; 0.5 dB for the estimate's spread
+            b, pc, dens = (5000.0, 0.09, 2e-8 / 48000) if kind == "iq" else (4900.0, 0.045, 1e-8 / 24000)
+            want = 10 * math.log10(pc / (dens * 2 * b)) + 0.3
             cn = [float(r["cnr_db"]) for r in steady]
             c.check(kind + ": cnr %.1f dB" % want, all(abs(v - want) <= 0.5 for v in cn),
                     "%.2f .. %.2f" % (min(cn), max(cn)))
