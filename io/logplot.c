@@ -138,7 +138,12 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
     lmin = floor(lmin / 10) * 10 - 10;
     lmax = ceil(lmax / 10) * 10 + 5;
     /* pass 2: buckets */
-    static bucket rb[NB], ab[NB], pb[NB];
+    bucket *rb = malloc(3 * NB * sizeof *rb), *ab = rb + NB, *pb = rb + 2 * NB;
+    if (rb == NULL) {
+        fclose(f);
+        snprintf(err, err_len, "out of memory");
+        return ML_ENOMEM;
+    }
     for (int i = 0; i < NB; i++)
         rb[i] = ab[i] = pb[i] = (bucket){INFINITY, -INFINITY, 0, 0};
     rewind(f);
@@ -304,6 +309,7 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
         (void)f1;
     }
     cairo_destroy(cr);
+    free(rb);
     cairo_status_t cs = cairo_surface_write_to_png(s, png);
     cairo_surface_destroy(s);
     if (cs != CAIRO_STATUS_SUCCESS) {

@@ -25,7 +25,7 @@ typedef struct {
 
 /* Writes png from rows_csv (columns offset_s, rms_dbfs, peak_dbfs, a_weighted_dbfs by name) and
  * events_csv (start_offset_s, end_offset_s, kind). ML_EIO (cannot read or write; detail in err),
- * ML_EFORMAT (a CSV lacks those columns), ML_ENOSIGNAL (no rows). */
+ * ML_EFORMAT (a CSV lacks those columns), ML_ENOSIGNAL (no rows), ML_ENOMEM. */
 ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *events_csv,
                            const ml_logplot_spec *spec, char *err, size_t err_len);
 
