@@ -24,6 +24,7 @@ static void usage(FILE *f)
             "  live           capture from a sound card, then analyse as measure does\n"
             "  devices        list the sound-card inputs and outputs\n"
             "  tone           write a test signal to a file, or play it\n"
+            "  log            log levels, hum, noise and interference events for hours (CSV)\n"
             "\n"
             "'modlens COMMAND --help' describes each command.\n\n%s",
             ml_cli_safety);
@@ -54,5 +55,7 @@ int main(int argc, char **argv)
         return ml_cmd_compare(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)
         return ml_cmd_tone(argc - 1, argv + 1);
+    if (strcmp(cmd, "log") == 0)
+        return ml_cmd_log(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);
 }

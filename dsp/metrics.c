@@ -89,6 +89,52 @@ static size_t nearest_bin(double hz, double bin_hz)
     return (size_t)floor(hz / bin_hz + 0.5);
 }
 
+/* Hum: choose 50 or 60 Hz (mains 0) by the larger sum over the first four multiples, then measure
+ * each multiple clear of DC, the fundamental and the harmonics. m NULL: only DC is excluded. */
+static void measure_hum(const double *psd, const unsigned char *m, size_t nbins, size_t lobe, double enbw,
+                        double bin_hz, double mains, int hum_harmonics, ml_audio_result *out)
+{
+    if (mains == 0) {
+        double sum[2] = {0, 0};
+        const double cand[2] = {50.0, 60.0};
+        for (int j = 0; j < 2; j++)
+            for (int mlt = 1; mlt <= 4; mlt++) {
+                size_t c = nearest_bin(mlt * cand[j], bin_hz);
+                if (c + lobe >= nbins || (m ? collides(m, nbins, c, lobe) : c < 2 * lobe))
+                    continue;
+                sum[j] += component_power(psd, nbins, c, lobe, enbw);
+            }
+        mains = sum[1] > sum[0] ? 60.0 : 50.0;
+        out->mains_detected = true;
+    }
+    out->mains_hz = mains;
+    for (int mlt = 1; mlt <= hum_harmonics && out->nhum < ML_MAX_HUM; mlt++) {
+        double fh = mlt * mains;
+        size_t c = nearest_bin(fh, bin_hz);
+        if (c + lobe >= nbins)
+            break;
+        if (m ? collides(m, nbins, c, lobe) : c < 2 * lobe)
+            continue;
+        double p = component_power(psd, nbins, c, lobe, enbw);
+        out->hum[out->nhum++] = (ml_component){.order = mlt, .frequency_hz = fh, .power = p};
+        out->hum_power += p;
+    }
+}
+
+ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t nbins, double mains_hz,
+                             int hum_harmonics, ml_audio_result *out)
+{
+    if (spec == NULL || psd == NULL || out == NULL || nbins != ml_spectrum_nbins(spec)
+        || ml_spectrum_is_complex(spec) || hum_harmonics < 1 || hum_harmonics > ML_MAX_HUM
+        || !(mains_hz == 0 || mains_hz == 50 || mains_hz == 60))
+        return ML_EINVAL;
+    *out = (ml_audio_result){0};
+    out->bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec);
+    measure_hum(psd, NULL, nbins, ml_spectrum_lobe_bins(spec), ml_spectrum_enbw_bins(spec), out->bin_hz,
+                mains_hz, hum_harmonics, out);
+    return ML_OK;
+}
+
 ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, ml_audio_result *out)
 {
     if (spec == NULL || cfg == NULL || out == NULL)
@@ -213,33 +259,7 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         out->distortion_power += out->harmonics[i].power;
     }
 
-    /* Hum: choose 50 or 60 Hz by the larger sum over the first four multiples, then measure */
-    double mains = cfg->mains_hz;
-    if (mains == 0) {
-        double sum[2] = {0, 0};
-        const double cand[2] = {50.0, 60.0};
-        for (int j = 0; j < 2; j++)
-            for (int mlt = 1; mlt <= 4; mlt++) {
-                size_t c = nearest_bin(mlt * cand[j], bin_hz);
-                if (c + lobe >= nbins || collides(m, nbins, c, lobe))
-                    continue;
-                sum[j] += component_power(psd, nbins, c, lobe, enbw);
-            }
-        mains = sum[1] > sum[0] ? 60.0 : 50.0;
-        out->mains_detected = true;
-    }
-    out->mains_hz = mains;
-    for (int mlt = 1; mlt <= cfg->hum_harmonics && out->nhum < ML_MAX_HUM; mlt++) {
-        double fh = mlt * mains;
-        size_t c = nearest_bin(fh, bin_hz);
-        if (c + lobe >= nbins)
-            break;
-        if (collides(m, nbins, c, lobe))
-            continue;
-        double p = component_power(psd, nbins, c, lobe, enbw);
-        out->hum[out->nhum++] = (ml_component){.order = mlt, .frequency_hz = fh, .power = p};
-        out->hum_power += p;
-    }
+    measure_hum(psd, m, nbins, lobe, enbw, bin_hz, cfg->mains_hz, cfg->hum_harmonics, out);
     st = ML_OK;
 done:
     free(psd);

@@ -70,6 +70,13 @@ ml_audio_config ml_audio_config_default(void);
  * (about 9 bytes per bin, freed before return) cannot be allocated. */
 ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, ml_audio_result *out);
 
+/* Hum alone, for a spectrum without a test tone: psd[nbins] from ml_spectrum_get_psd(spec) (real
+ * input). Components at m * mains_hz (m = 1..hum_harmonics) whose lobe clears DC, each measured as
+ * above (noise in its lobe included); mains_hz 0 chooses 50 or 60 as above. Fills only bin_hz,
+ * mains_hz, mains_detected, nhum, hum[] and hum_power of out. Never allocates. ML_EINVAL. */
+ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t nbins, double mains_hz,
+                             int hum_harmonics, ml_audio_result *out);
+
 /* Derived figures, all finite for positive inputs (ratios of powers). */
 double ml_ratio_pct(double num_power, double den_power);  /* 100 sqrt(num/den) */
 double ml_ratio_db(double num_power, double den_power);   /* 10 lg(num/den), >= -300 */

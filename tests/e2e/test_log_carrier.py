@@ -1,0 +1,81 @@
+"""End-to-end test of `modlens log --kind iq|if`: carrier level, CNR, modulation peaks, carrier loss.
+
+Usage: /usr/bin/python3 test_log_carrier.py /path/to/modlens
+
+A 20 s capture, 48 kHz: a 6 kHz carrier of amplitude 0.3 modulated 50 % by a 400 Hz tone, with
+white noise, whose carrier drops by 40 dB from 10 s to 12 s; as I/Q (complex exponential, noise
+sigma 1e-4 per component) and as a real IF (cosine, noise sigma 1e-4).
+"""
+import csv
+import math
+import os
+import subprocess
+import sys
+
+sys.dont_write_bytecode = True
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+
+import numpy as np  # noqa: E402
+
+import e2e_common as E  # noqa: E402
+
+FS = 48000
+T = 20
+FC = 6000.0
+
+
+def make():
+    rng = np.random.default_rng(2)
+    t = np.arange(T * FS) / FS
+    env = 0.3 * (1 + 0.5 * np.sin(2 * np.pi * 400 * t))
+    env[(t >= 10) & (t < 12)] *= 0.01
+    z = env * np.exp(2j * np.pi * FC * t) + rng.normal(0, 1e-4, T * FS) + 1j * rng.normal(0, 1e-4, T * FS)
+    E.write("iq.wav", np.stack([z.real, z.imag], 1).astype(np.float32), FS, "FLOAT")
+    E.write("if.wav", (env * np.cos(2 * np.pi * FC * t) + rng.normal(0, 1e-4, T * FS)).astype(np.float32),
+            FS, "FLOAT")
+
+
+def main():
+    exe = E.modlens_path()
+    c = E.Checker("log carrier")
+    with E.scratch():
+        make()
+        for kind in ("iq", "if"):
+            p = subprocess.run([exe, "log", "--kind", kind, "--out", kind + ".csv", kind + ".wav"],
+                               capture_output=True, timeout=E.RUN_TIMEOUT_S)
+            c.check(kind + ": exit 0", p.returncode == 0, p.stderr.decode().strip())
+            rows = list(csv.DictReader(open(kind + ".csv")))
+            ev = list(csv.DictReader(open(kind + "-events.csv")))
+            steady = [r for r in rows if float(r["offset_s"]) < 9 or float(r["offset_s"]) >= 13]
+            # analytic: the carrier line's amplitude is the mean envelope 0.3: 20 lg 0.3 = -10.46 dBFS;
+            # 0.05 dB for the lobe's noise and rounding
+            c.check(kind + ": carrier -10.46 dBFS", all(abs(float(r["carrier_dbfs"]) + 10.46) <= 0.05 for r in steady),
+                    str([r["carrier_dbfs"] for r in steady[:3]]))
+            # analytic CNR in the default channel carrier +- B: B = 5 kHz for iq; for if the widest
+            # that fits below the carrier with the channel filter's 1 kHz transition and 100 Hz to
+            # spare, 4.9 kHz. Carrier power 0.09 (iq) or 0.045 (if); noise density 2e-8 / 48 kHz (iq)
+            # or 1e-8 / 24 kHz (if). The channel noise is a median bin (chi-square with 10 degrees
+            # of freedom: 0.30 dB under the mean), so +0.3 dB; 0.5 dB for the estimate's spread
+            b, pc, dens = (5000.0, 0.09, 2e-8 / 48000) if kind == "iq" else (4900.0, 0.045, 1e-8 / 24000)
+            want = 10 * math.log10(pc / (dens * 2 * b)) + 0.3
+            cn = [float(r["cnr_db"]) for r in steady]
+            c.check(kind + ": cnr %.1f dB" % want, all(abs(v - want) <= 0.5 for v in cn),
+                    "%.2f .. %.2f" % (min(cn), max(cn)))
+            # analytic: 50 % modulation; 0.5 % for the noise on the envelope's extremes
+            mp = [float(r["mod_pos_peak_pct"]) for r in steady[1:]]
+            mn = [float(r["mod_neg_peak_pct"]) for r in steady[1:]]
+            c.check(kind + ": positive peaks 50 %", all(abs(v - 50) <= 0.5 for v in mp), "%.2f .. %.2f" % (min(mp), max(mp)))
+            c.check(kind + ": negative peaks 50 %", all(abs(v - 50) <= 0.5 for v in mn), "%.2f .. %.2f" % (min(mn), max(mn)))
+            loss = [e for e in ev if e["kind"] == "carrier-loss"]
+            c.check(kind + ": one carrier-loss event and nothing else", len(loss) == 1 and len(ev) == 1, str(ev))
+            if loss:
+                c.close(kind + ": loss start", float(loss[0]["start_offset_s"]), 10.0, 1.0, "one interval")
+                c.close(kind + ": loss end", float(loss[0]["end_offset_s"]), 12.0, 1.0, "one interval")
+                c.close(kind + ": loss depth", float(loss[0]["rise_db"]), -40.0, 0.5,
+                        "analytic 20 lg 0.01; 0.5 dB for the noise in the lobe at -50 dBFS")
+            c.check(kind + ": hum columns", all((r["hum_dbfs"] == "") == (kind == "iq") for r in rows))
+    c.finish()
+
+
+if __name__ == "__main__":
+    main()
