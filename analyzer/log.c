@@ -1,7 +1,7 @@
 /* The log command: hours-long noise and interference logging, one CSV row per interval plus events.
  * SPDX-License-Identifier: MIT
  *
- * argv -> options -> one input (open_input: a file now, a live device later) -> streamed
+ * argv -> options -> one input (open_input: a file or a live device) -> streamed
  * per-interval measurements and event detection -> append-safe CSV files -> summary (and plot).
  * Everything after open_input works on any ml_source: unknown length (frames == -1), lost frames
  * (ml_source_lost_frames before/after each read: a marked gap) and a read error mid-stream (the
@@ -31,6 +31,7 @@
 #include "dsp/metrics.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
+#include "io/audio.h"
 #include "io/logfile.h"
 #include "io/logplot.h"
 #include "io/source.h"
@@ -258,8 +259,22 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
 static int open_input(const ml_log_opts *o, ml_source **src, double *start_utc)
 {
     *src = NULL;
-    if (o->device) /* live capture is wired in here by the live-input work */
-        return ml_cli_error("%s: live input is not available in this build", o->device);
+    if (o->device) {
+        ml_live_config lc = ml_live_config_default();
+        lc.device = strcmp(o->device, "default") == 0 ? NULL : o->device;
+        lc.rate_hz = o->device_rate_hz;
+        lc.channels = (int)(o->device_channels > 0 ? o->device_channels
+                                                   : o->channel + (o->kind == ML_KIND_IQ ? 1 : 0));
+        lc.head_s = 0; /* the logger reads straight through */
+        char err[512] = "";
+        ml_status st = ml_source_open_live(&lc, src, err, sizeof err);
+        if (st != ML_OK)
+            return ml_cli_error("%s: %s", o->device, err);
+        struct timespec now;
+        clock_gettime(CLOCK_REALTIME, &now);
+        *start_utc = (double)now.tv_sec + 1e-9 * (double)now.tv_nsec;
+        return 0;
+    }
     char err[512] = "";
     ml_status st = ml_source_open_file(o->input, src, err, sizeof err);
     if (st != ML_OK)
