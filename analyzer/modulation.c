@@ -398,7 +398,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     ml_audio_config bcfg = o->audio; /* the demodulated audio's band, as in step 4 */
     bcfg.band_hi_hz = fmin(bcfg.band_hi_hz, bw);
-    if ((blocks = ml_blocks_create(&ac_spec, &bcfg)) == NULL) {
+    if ((blocks = ml_blocks_create(&ac_spec, &bcfg)) == NULL || ml_blocks_set_peaks(blocks, ac_cfg.hold_s) != ML_OK) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
@@ -631,6 +631,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)(stats[0].clipped + stats[1].clipped));
     ml_blocks_report(blocks, rep, NULL);
+    ml_blocks_report_peaks(blocks, rep, 100.0 * c_prov / c);
     if (o->plot)
         ml_plots_modulation(o->plot, rf, f_car, c * c * fsp, fm, bw, o->limits && o->limits->has_mask ? &o->limits->mask : NULL,
                             c_prov / c, emax / c, emin / c, ac_cfg.pinch_rel);

@@ -28,6 +28,13 @@ static const struct { const char *name; int src; } aliases[] = {
     {"modulation.noise_db", U_NOISE},
 };
 
+/* Peak readings per block (if/iq): the same hold-share quantiles as the whole envelope's
+ * (dsp/am.h), from a histogram of the block's samples (not oversampled: only the spread across
+ * blocks is used, not the level). PEAK_BINS over 0 .. PEAK_RANGE x (x = E / provisional C). */
+#define PEAK_BINS 8192
+#define PEAK_RANGE 4.0
+enum { P_EMAX, P_EMIN, P_INDEX, P_COUNT };
+
 struct ml_blocks {
     ml_spectrum *spec;
     ml_audio_config cfg;
@@ -37,7 +44,36 @@ struct ml_blocks {
     bool any_bad;
     size_t need;             /* samples until the block's last segment completes              */
     ml_running acc[U_COUNT];
+    double hold_share;       /* > 0: peak readings per block (ml_blocks_set_peaks)            */
+    uint32_t *hist;          /* PEAK_BINS counts of the current block                         */
+    uint64_t hist_n;
+    ml_running peak[P_COUNT];
 };
+
+/* Level below which a share `share` of the block's samples lies (bin upper edge). */
+static double hist_quantile(const ml_blocks *q, double share)
+{
+    const double want = share * (double)q->hist_n;
+    double seen = 0;
+    for (size_t b = 0; b < PEAK_BINS; b++) {
+        seen += q->hist[b];
+        if (seen >= want && seen > 0)
+            return (double)(b + 1) * (PEAK_RANGE / PEAK_BINS);
+    }
+    return PEAK_RANGE;
+}
+
+ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share)
+{
+    if (q == NULL || !(hold_share > 0 && hold_share < 0.5))
+        return ML_EINVAL;
+    if (q->hist == NULL && (q->hist = calloc(PEAK_BINS, sizeof *q->hist)) == NULL)
+        return ML_ENOMEM;
+    q->hold_share = hold_share;
+    for (int i = 0; i < P_COUNT; i++)
+        ml_running_reset(&q->peak[i]);
+    return ML_OK;
+}
 
 ml_blocks *ml_blocks_create(const ml_spectrum_config *sc, const ml_audio_config *cfg)
 {
@@ -67,6 +103,7 @@ void ml_blocks_destroy(ml_blocks *q)
         return;
     ml_spectrum_destroy(q->spec);
     free(q->ring);
+    free(q->hist);
     free(q);
 }
 
@@ -92,6 +129,16 @@ static void finish_block(ml_blocks *q)
         for (int i = 0; i < U_COUNT; i++)
             ml_running_push(&q->acc[i], v[i]);
     }
+    if (q->hist && !q->any_bad && q->hist_n > 0) {
+        const double emax = hist_quantile(q, 1.0 - q->hold_share), emin = hist_quantile(q, q->hold_share);
+        ml_running_push(&q->peak[P_EMAX], emax);
+        ml_running_push(&q->peak[P_EMIN], emin);
+        ml_running_push(&q->peak[P_INDEX], (emax - emin) / (emax + emin));
+    }
+    if (q->hist) {
+        memset(q->hist, 0, PEAK_BINS * sizeof *q->hist);
+        q->hist_n = 0;
+    }
     /* the next block starts with the overlap of the last segment, oldest sample first */
     ml_spectrum_reset(q->spec);
     const size_t start = (size_t)(q->total % q->keep);
@@ -110,6 +157,11 @@ void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, siz
         ml_spectrum_push_double(q->spec, x + i, take);
         for (size_t j = i; j < i + take; j++) {
             q->ring[(size_t)(q->total % q->keep)] = x[j];
+            if (q->hist) {
+                const double b = x[j] * (PEAK_BINS / PEAK_RANGE);
+                q->hist[b <= 0 ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++;
+                q->hist_n++;
+            }
             if (tag && !tag[j]) {
                 q->any_bad = true;
                 q->last_bad = q->total + 1; /* one past the untagged sample */
@@ -158,4 +210,24 @@ void ml_blocks_report(const ml_blocks *q, ml_report *r, size_t *nblocks)
     }
     r->u_blocks = n;
     r->u_block_s = (double)(ML_BLOCK_SEGMENTS * q->hop) / ml_spectrum_rate_hz(q->spec);
+}
+
+void ml_blocks_report_peaks(const ml_blocks *q, ml_report *r, double pct_per_unit)
+{
+    if (q->hist == NULL)
+        return;
+    const struct { const char *name; int src; double scale; } map[] = {
+        {"modulation.positive_peak_pct", P_EMAX, pct_per_unit},
+        {"modulation.negative_peak_pct", P_EMIN, pct_per_unit},
+        {"modulation.index", P_INDEX, 1.0},
+    };
+    for (size_t k = 0; k < sizeof map / sizeof map[0]; k++)
+        for (size_t i = 0; i < r->nmetrics; i++) {
+            ml_metric *m = &r->metrics[i];
+            const double u = map[k].scale * ml_running_u95(&q->peak[map[k].src]);
+            if (strcmp(m->name, map[k].name) == 0 && m->valid && isfinite(u)) {
+                m->has_u = true;
+                m->u = u;
+            }
+        }
 }

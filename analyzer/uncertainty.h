@@ -15,6 +15,7 @@
 
 #include <stdbool.h>
 #include <stddef.h>
+#include <stdint.h>
 
 #include "dsp/metrics.h"
 #include "dsp/spectrum.h"
@@ -43,5 +44,12 @@ void ml_blocks_push_float(ml_blocks *q, const float *x, size_t n);
 /* Sets the uncertainty of every valid metric of r that the blocks estimate (modulation aliases
  * included) and records the method in r; blocks used in *nblocks (may be NULL). */
 void ml_blocks_report(const ml_blocks *q, ml_report *r, size_t *nblocks);
+
+/* if/iq: also estimates the peak readings per block, with hold share hold_share (0 .. 0.5) of
+ * the samples beyond each reading, as dsp/am.h defines them. ML_EINVAL, ML_ENOMEM. */
+ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share);
+/* Sets the uncertainties of modulation.positive_peak_pct and negative_peak_pct (block spread of
+ * the readings in pushed units times pct_per_unit: 100 C_prov / C) and of modulation.index. */
+void ml_blocks_report_peaks(const ml_blocks *q, ml_report *r, double pct_per_unit);
 
 #endif

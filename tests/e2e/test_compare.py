@@ -130,6 +130,30 @@ def main():
                      and err.startswith("modlens: ") and what in err and out == "", repr(err))
             ck.check("error %s: input untouched" % " ".join(args), open("a.wav", "rb").read() == before)
 
+        # if/iq: two captures of one transmitter differing only in their noise read "same" on the
+        # modulation figures (now with block intervals); 80 % against 83 % depth reads "worse"/
+        # "changed" on the peaks and the index (a 3 % step is about 100 times their interval).
+        def iq(name, depth, seed):
+            p = subprocess.run([exe, "tone", "--carrier", "3000", "--iq", "--depth", str(depth), "--cnr", "40",
+                                "--seconds", "10", "--seed", str(seed), "--bits", "32f", "--out", name],
+                               capture_output=True, timeout=E.RUN_TIMEOUT_S)
+            assert p.returncode == 0, p.stderr
+        iq("m1.wav", 0.8, 1)
+        iq("m2.wav", 0.8, 2)
+        iq("m3.wav", 0.83, 3)
+        rc, rep, _, err = compare(exe, ["--format", "json", "m1.wav", "m2.wav"])
+        v = verdicts(rep)
+        for k in ("modulation.index", "modulation.positive_peak_pct", "modulation.negative_peak_pct"):
+            ck.check("iq noise only: %s same" % k, v.get(k) == "same", str(v.get(k)))
+        unc = {m["metric"]: m["uncertainty"] for m in rep["metrics"]} if rep else {}
+        ck.check("iq: peaks and index carry an uncertainty", all(
+            isinstance(unc.get(k), float) and unc[k] > 0 for k in ("modulation.index", "modulation.positive_peak_pct")),
+            str({k: unc.get(k) for k in ("modulation.index", "modulation.positive_peak_pct")}))
+        rc, rep, _, err = compare(exe, ["--format", "json", "m1.wav", "m3.wav"])
+        v = verdicts(rep)
+        for k in ("modulation.index", "modulation.positive_peak_pct", "modulation.negative_peak_pct"):
+            ck.check("iq depth 0.80 -> 0.83: %s not same" % k, v.get(k) not in ("same", None), str(v.get(k)))
+
         # uncertainty coverage
         snr_true = 10 * np.log10(0.125 / (1e-6 * 19980 / 24000))
         got, us = [], []
