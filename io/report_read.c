@@ -1,102 +1,74 @@
-/* Reads back a JSON measurement report (io/report_json.c writes it) for comparisons.
+/* Reads back a JSON measurement report (io/report_json.c writes it) for comparisons, through the
+ * strict saved-result reader (io/result_read.h, the one that is fuzzed).
  * SPDX-License-Identifier: MIT
  */
-#include <errno.h>
-#include <jansson.h>
 #include <string.h>
 
 #include "io/compare.h"
+#include "io/result_read.h"
 
-static bool skipped(const char *key)
+/* Copies src into dst[n], cut to fit. */
+static void copy(char *dst, size_t n, const char *src)
 {
-    return strcmp(key, "input") == 0 || strcmp(key, "checks") == 0 || strcmp(key, "uncertainty") == 0
-           || strcmp(key, "uncertainty_method") == 0 || strcmp(key, "notes") == 0;
+    size_t k = strlen(src);
+    if (k >= n)
+        k = n - 1;
+    memcpy(dst, src, k);
+    dst[k] = '\0';
 }
 
-/* Every number or null below obj becomes a metric named prefix.key... */
-static void walk(json_t *obj, const char *prefix, ml_report *r)
+static bool starts(const char *s, const char *prefix)
 {
-    const char *key;
-    json_t *v;
-    json_object_foreach(obj, key, v)
-    {
-        if (prefix[0] == '\0' && skipped(key))
-            continue;
-        char name[64];
-        if (snprintf(name, sizeof name, "%s%s%s", prefix, prefix[0] ? "." : "", key) >= (int)sizeof name)
-            continue;
-        if (json_is_object(v))
-            walk(v, name, r);
-        else if (json_is_number(v))
-            ml_report_add(r, name, "", 3, json_number_value(v));
-        else if (json_is_null(v))
-            ml_report_add_missing(r, name, "", 3);
-        else if (json_is_string(v) && prefix[0])
-            ml_report_add_text(r, name, json_string_value(v));
-    }
-}
-
-static json_t *at(json_t *root, const char *dotted)
-{
-    char buf[64];
-    snprintf(buf, sizeof buf, "%s", dotted);
-    json_t *v = root;
-    for (char *tok = strtok(buf, "."); tok && v; tok = strtok(NULL, "."))
-        v = json_object_get(v, tok);
-    return v;
+    return strncmp(s, prefix, strlen(prefix)) == 0;
 }
 
 ml_status ml_report_read_json(const char *path, ml_report *r, char *err, size_t errlen)
 {
     memset(r, 0, sizeof *r);
-    FILE *f = fopen(path, "r");
-    if (f == NULL) {
-        snprintf(err, errlen, "%s", strerror(errno));
-        return ML_EIO;
-    }
-    json_error_t je;
-    json_t *root = json_loadf(f, 0, &je);
-    fclose(f);
-    if (root == NULL) {
-        snprintf(err, errlen, "not a JSON report: line %d: %s", je.line, je.text);
-        return ML_EFORMAT;
-    }
-    json_t *in = json_object_get(root, "input");
-    if (!json_is_object(root) || !json_is_object(in) || !json_is_string(json_object_get(in, "kind"))) {
-        json_decref(root);
-        snprintf(err, errlen, "not a modlens measurement report (no input description)");
-        return ML_EFORMAT;
-    }
-    const char *s = json_string_value(json_object_get(in, "path"));
-    snprintf(r->path, sizeof r->path, "%s", s ? s : path);
-    snprintf(r->kind, sizeof r->kind, "%s", json_string_value(json_object_get(in, "kind")));
-    s = json_string_value(json_object_get(in, "kind_reason"));
-    snprintf(r->kind_reason, sizeof r->kind_reason, "%s", s ? s : "");
-    s = json_string_value(json_object_get(in, "format"));
-    snprintf(r->format, sizeof r->format, "%s", s ? s : "");
-    s = json_string_value(json_object_get(root, "analysis"));
-    snprintf(r->analysis, sizeof r->analysis, "%s", s ? s : "");
-    r->sample_rate_hz = json_number_value(json_object_get(in, "sample_rate_hz"));
-    r->channels = (int)json_integer_value(json_object_get(in, "channels"));
-    r->channel = (int)json_integer_value(json_object_get(in, "channel"));
-    r->frames = json_integer_value(json_object_get(in, "frames"));
-    r->duration_s = json_number_value(json_object_get(in, "duration_s"));
-    r->start_s = json_number_value(json_object_get(in, "start_s"));
-    r->analysed_s = json_number_value(json_object_get(in, "analysed_s"));
-    walk(root, "", r);
-    json_t *uroot = json_object_get(root, "uncertainty");
-    for (size_t i = 0; json_is_object(uroot) && i < r->nmetrics; i++) {
-        json_t *u = at(uroot, r->metrics[i].name);
-        if (json_is_number(u)) {
-            r->metrics[i].has_u = true;
-            r->metrics[i].u = json_number_value(u);
+    ml_result *res = NULL;
+    ml_status st = ml_result_read_file(path, &res, err, errlen);
+    if (st != ML_OK)
+        return st;
+    copy(r->path, sizeof r->path, path);
+    const size_t n = ml_result_count(res);
+    for (size_t i = 0; i < n; i++) { /* the input description and the metrics */
+        const ml_result_item *it = ml_result_item_at(res, i);
+        const char *name = it->name;
+        const double v = it->value;
+        if (starts(name, "input.")) {
+            const char *k = name + strlen("input.");
+            if (it->type == ML_RESULT_TEXT) {
+                if (strcmp(k, "path") == 0) copy(r->path, sizeof r->path, it->text);
+                else if (strcmp(k, "kind") == 0) copy(r->kind, sizeof r->kind, it->text);
+                else if (strcmp(k, "kind_reason") == 0) copy(r->kind_reason, sizeof r->kind_reason, it->text);
+                else if (strcmp(k, "format") == 0) copy(r->format, sizeof r->format, it->text);
+            } else if (it->type == ML_RESULT_NUMBER) {
+                if (strcmp(k, "sample_rate_hz") == 0) r->sample_rate_hz = v;
+                else if (strcmp(k, "channels") == 0) r->channels = (int)v;
+                else if (strcmp(k, "channel") == 0) r->channel = (int)v;
+                else if (strcmp(k, "frames") == 0) r->frames = (int64_t)v;
+                else if (strcmp(k, "duration_s") == 0) r->duration_s = v;
+                else if (strcmp(k, "start_s") == 0) r->start_s = v;
+                else if (strcmp(k, "analysed_s") == 0) r->analysed_s = v;
+            }
+        } else if (starts(name, "uncertainty_method.")) {
+            if (strcmp(name, "uncertainty_method.blocks") == 0) r->u_blocks = (size_t)v;
+            else if (strcmp(name, "uncertainty_method.block_s") == 0) r->u_block_s = v;
+        } else if (!starts(name, "uncertainty.") && strlen(name) < sizeof r->metrics[0].name) {
+            if (it->type == ML_RESULT_NUMBER) ml_report_add(r, name, "", 3, v);
+            else if (it->type == ML_RESULT_NULL) ml_report_add_missing(r, name, "", 3);
+            else ml_report_add_text(r, name, it->text);
         }
     }
-    json_t *um = json_object_get(root, "uncertainty_method");
-    if (json_is_object(um)) {
-        r->u_blocks = (size_t)json_integer_value(json_object_get(um, "blocks"));
-        r->u_block_s = json_number_value(json_object_get(um, "block_s"));
+    for (size_t i = 0; i < r->nmetrics; i++) { /* then each metric's interval, where saved */
+        char uname[ML_RESULT_NAME_MAX];
+        snprintf(uname, sizeof uname, "uncertainty.%s", r->metrics[i].name);
+        const ml_result_item *u = ml_result_find(res, uname);
+        if (u && u->type == ML_RESULT_NUMBER) {
+            r->metrics[i].has_u = true;
+            r->metrics[i].u = u->value;
+        }
     }
-    json_decref(root);
+    ml_result_destroy(res);
     return ML_OK;
 }
