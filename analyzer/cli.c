@@ -7,6 +7,7 @@
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
+#include <string.h>
 #include <stdlib.h>
 
 bool ml_cli_number(const char *s, double *v)
@@ -41,3 +42,28 @@ const char ml_cli_safety[] =
     "proper RF sampler or attenuator and a downconverter or receiver, keep the input within the\n"
     "card's rated level, and isolate mains-powered and valve equipment (high voltage inside).\n"
     "Observe RF exposure limits and transmit only as your licence and local regulations permit.\n";
+
+int ml_cli_mains(const char *arg, double *mains_hz)
+{
+    if (strcmp(arg, "50") == 0)
+        *mains_hz = 50;
+    else if (strcmp(arg, "60") == 0)
+        *mains_hz = 60;
+    else
+        return ml_cli_error("--mains: '%s' is not 50 or 60", arg);
+    return 0;
+}
+
+int ml_cli_carrier(const char *arg, double *carrier_hz)
+{
+    return ml_cli_number(arg, carrier_hz) ? 0 : ml_cli_error("--carrier: '%s' is not a frequency in Hz", arg);
+}
+
+int ml_cli_bandwidth(const char *arg, double *bandwidth_hz)
+{
+    double v;
+    if (!ml_cli_number(arg, &v) || v < 100)
+        return ml_cli_error("--bandwidth: '%s' is not a bandwidth in Hz >= 100", arg);
+    *bandwidth_hz = v;
+    return 0;
+}

@@ -17,6 +17,12 @@ bool ml_cli_int(const char *s, long *v);
 /* Prints "modlens: <message>" to stderr (one line). Returns ML_EXIT_USAGE. */
 int ml_cli_error(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
+/* Option values shared by the commands; each returns 0, or prints "--NAME: ..." and returns
+ * ML_EXIT_USAGE. */
+int ml_cli_mains(const char *arg, double *mains_hz);       /* "50" or "60"                  */
+int ml_cli_carrier(const char *arg, double *carrier_hz);   /* any finite frequency in Hz     */
+int ml_cli_bandwidth(const char *arg, double *bandwidth_hz); /* >= 100 Hz                    */
+
 /* The safety paragraph shown by every --help. */
 extern const char ml_cli_safety[];
 

@@ -155,7 +155,7 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
     o->loss_db = 10.0;
     opterr = 0;
     optind = 1;
-    int ch;
+    int ch, rc;
     double v;
     long n;
     while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
@@ -215,19 +215,16 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
                               : &o->loss_db) = v;
             break;
         case O_MAINS:
-            if (strcmp(optarg, "50") == 0) o->mains_hz = 50;
-            else if (strcmp(optarg, "60") == 0) o->mains_hz = 60;
-            else return ml_cli_error("--mains: '%s' is not 50 or 60", optarg);
+            if ((rc = ml_cli_mains(optarg, &o->mains_hz)) != 0)
+                return rc;
             break;
         case O_CARRIER:
-            if (!ml_cli_number(optarg, &v))
-                return ml_cli_error("--carrier: '%s' is not a frequency in Hz", optarg);
-            o->carrier_hz = v;
+            if ((rc = ml_cli_carrier(optarg, &o->carrier_hz)) != 0)
+                return rc;
             break;
         case O_BW:
-            if (!ml_cli_number(optarg, &v) || v < 100)
-                return ml_cli_error("--bandwidth: '%s' is not a bandwidth in Hz >= 100", optarg);
-            o->bandwidth_hz = v;
+            if ((rc = ml_cli_bandwidth(optarg, &o->bandwidth_hz)) != 0)
+                return rc;
             break;
         case O_PACE:
             if (!ml_cli_number(optarg, &v) || v <= 0)

@@ -143,7 +143,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     o->peak_hold_ms = 5.0;
     opterr = 0;
     optind = 1;
-    int ch;
+    int ch, rc;
     double v;
     long n;
     while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
@@ -192,9 +192,8 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             o->audio.harmonics = (int)n;
             break;
         case 'm':
-            if (strcmp(optarg, "50") == 0) o->audio.mains_hz = 50;
-            else if (strcmp(optarg, "60") == 0) o->audio.mains_hz = 60;
-            else return ml_cli_error("--mains: '%s' is not 50 or 60", optarg);
+            if ((rc = ml_cli_mains(optarg, &o->audio.mains_hz)) != 0)
+                return rc;
             break;
         case 'w': {
             int found = 0;
@@ -208,14 +207,12 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             break;
         }
         case O_CARRIER:
-            if (!ml_cli_number(optarg, &v))
-                return ml_cli_error("--carrier: '%s' is not a frequency in Hz", optarg);
-            o->carrier_hz = v;
+            if ((rc = ml_cli_carrier(optarg, &o->carrier_hz)) != 0)
+                return rc;
             break;
         case O_BANDWIDTH:
-            if (!ml_cli_number(optarg, &v) || v < 100)
-                return ml_cli_error("--bandwidth: '%s' is not a bandwidth in Hz >= 100", optarg);
-            o->bandwidth_hz = v;
+            if ((rc = ml_cli_bandwidth(optarg, &o->bandwidth_hz)) != 0)
+                return rc;
             break;
         case O_CREF: o->carrier_reference = optarg; break;
         case O_HOLD:

@@ -589,22 +589,32 @@ static void white(cairo_t *cr)
     cairo_paint(cr);
 }
 
+/* A white page of w x h with the title font set, ready to draw on. */
+static ml_status page_open(canvas *cv, FILE *f, const char *path, double w, double h, cairo_t **cr)
+{
+    ml_status st = canvas_open(cv, f, path, w, h);
+    if (st != ML_OK) {
+        if (cv->type >= 0)
+            cairo_surface_destroy(cv->s);
+        return st;
+    }
+    *cr = cairo_create(cv->s);
+    white(*cr);
+    cairo_select_font_face(*cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+    cairo_set_font_size(*cr, 11);
+    ml_colour(*cr, ML_C_INK);
+    return ML_OK;
+}
+
 ml_status ml_plot_write(FILE *f, const char *path, const ml_plot_data *p, const ml_report *r)
 {
     const double w = 1000, margin = 16;
     const double h = ml_plot_height(p, w - 2 * margin) + 2 * margin + 24;
     canvas cv;
-    ml_status st = canvas_open(&cv, f, path, w, h);
-    if (st != ML_OK) {
-        if (cv.type >= 0)
-            cairo_surface_destroy(cv.s);
+    cairo_t *cr = NULL;
+    ml_status st = page_open(&cv, f, path, w, h, &cr);
+    if (st != ML_OK)
         return st;
-    }
-    cairo_t *cr = cairo_create(cv.s);
-    white(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, 11);
-    ml_colour(cr, ML_C_INK);
     char t[1200];
     snprintf(t, sizeof t, "modlens: %s (%s, %.0f Hz, %.3f s)", r->path, r->kind, r->sample_rate_hz, r->analysed_s);
     text_at(cr, margin, margin, t, 0.0, 0.0);
@@ -621,17 +631,10 @@ ml_status ml_plot_write_compare(FILE *f, const char *path, const ml_comparison *
     const double th = (double)(c->nrows + 1) * font * 1.45 + 4;
     const double h = 2 * margin + 24 + (spec ? 0.42 * (w - 2 * margin) : 0) + th;
     canvas cv;
-    ml_status st = canvas_open(&cv, f, path, w, h);
-    if (st != ML_OK) {
-        if (cv.type >= 0)
-            cairo_surface_destroy(cv.s);
+    cairo_t *cr = NULL;
+    ml_status st = page_open(&cv, f, path, w, h, &cr);
+    if (st != ML_OK)
         return st;
-    }
-    cairo_t *cr = cairo_create(cv.s);
-    white(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, 11);
-    ml_colour(cr, ML_C_INK);
     char t[2200];
     snprintf(t, sizeof t, "modlens comparison: A = %s, B = %s", c->a->path, c->b->path);
     text_at(cr, margin, margin, t, 0.0, 0.0);

@@ -5,6 +5,8 @@
  * The source is a test double of the live capture built on io's private vtable (io/internal.h).
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -138,9 +140,5 @@ int main(void)
     TCase *tc = tcase_create("core");
     tcase_add_test(tc, gap_and_vanishing_device);
     suite_add_tcase(su, tc);
-    SRunner *sr = srunner_create(su);
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(su);
 }

@@ -16,6 +16,8 @@
  * [cfr73.1570] 47 CFR 73.1570(b)(1): positive peaks limited to 125 % (REFERENCES.md 7, confirmed).
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <complex.h>
 #include <math.h>
 #include <stdlib.h>
@@ -1007,9 +1009,5 @@ static Suite *am_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(am_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(am_suite());
 }

@@ -7,6 +7,8 @@
  * pyfar); the exact-frequency rule is noted there as well.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -182,9 +184,5 @@ static Suite *aweight_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(aweight_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(aweight_suite());
 }

@@ -9,6 +9,8 @@
  *     Kaiser-windowed sinc, whose values are embedded below next to the command that made them.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <complex.h>
 #include <math.h>
 #include <stdlib.h>
@@ -471,9 +473,5 @@ static Suite *cfir_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(cfir_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(cfir_suite());
 }

@@ -2,6 +2,8 @@
  * SPDX-License-Identifier: MIT
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <math.h>
 #include <stdlib.h>
 
@@ -114,9 +116,5 @@ int main(void)
     tcase_add_test(tc, low_quantile_and_block_invariance);
     tcase_add_test(tc, config_rejected);
     suite_add_tcase(s, tc);
-    SRunner *sr = srunner_create(s);
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(s);
 }

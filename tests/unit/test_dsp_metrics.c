@@ -21,6 +21,8 @@
  * matter for it; 0.5 (-6 dBFS) keeps every test sum below full scale.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -641,9 +643,5 @@ static Suite *metrics_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(metrics_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(metrics_suite());
 }

@@ -23,6 +23,8 @@
  *     (45 kHz: 50 dB, a computed point of REFERENCES.md 7), 60-75 kHz >= 65 dB; 300 Hz RBW.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <complex.h>
 #include <math.h>
 #include <stdbool.h>
@@ -648,9 +650,5 @@ static Suite *rf_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(rf_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(rf_suite());
 }

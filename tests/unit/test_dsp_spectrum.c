@@ -11,6 +11,8 @@
  *     to better than 0.01 Hz on a 10 s clean capture.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <complex.h>
 #include <math.h>
 #include <stdlib.h>
@@ -855,9 +857,5 @@ static Suite *spectrum_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(spectrum_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(spectrum_suite());
 }

@@ -2,6 +2,8 @@
  * SPDX-License-Identifier: MIT
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -228,9 +230,5 @@ static Suite *stats_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(stats_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(stats_suite());
 }

@@ -16,6 +16,8 @@
  * <= 2.2) leaves a margin of about 8.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <complex.h>
 #include <math.h>
 #include <stdlib.h>
@@ -674,9 +676,5 @@ static Suite *synth_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(synth_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(synth_suite());
 }

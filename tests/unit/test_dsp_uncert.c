@@ -5,6 +5,8 @@
  * Debian 12), printed to 10 digits; [gum:2008] table G.2 lists the same values to two decimals.
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <math.h>
 #include <stdlib.h>
 
@@ -67,9 +69,5 @@ int main(void)
     tcase_add_test(tc, running_matches_two_pass);
     tcase_add_test(tc, too_few_estimates);
     suite_add_tcase(s, tc);
-    SRunner *sr = srunner_create(s);
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(s);
 }

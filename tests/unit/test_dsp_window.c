@@ -12,6 +12,8 @@
  * REFERENCES.md 3.1 / 3.2 "computed" columns: periodic windows, 64x zero-padded FFT (numpy).
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <complex.h> /* before fftw3.h: fftw_complex is then double complex */
 #include <fftw3.h>
 #include <math.h>
@@ -265,9 +267,5 @@ static Suite *window_suite(void)
 
 int main(void)
 {
-    SRunner *sr = srunner_create(window_suite());
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(window_suite());
 }

@@ -2,6 +2,8 @@
  * SPDX-License-Identifier: MIT
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -130,9 +132,5 @@ int main(void)
     tcase_add_test(tc, header_only_and_partial_header);
     tcase_add_test(tc, foreign_file_refused_untouched);
     suite_add_tcase(s, tc);
-    SRunner *sr = srunner_create(s);
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(s);
 }

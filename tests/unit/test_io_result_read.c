@@ -3,6 +3,8 @@
  * SPDX-License-Identifier: MIT
  */
 #include <check.h>
+
+#include "tests/unit/ml_check.h"
 #include <stdlib.h>
 #include <string.h>
 
@@ -116,9 +118,5 @@ int main(void)
     tcase_add_test(tc, rejects_malformed_reports);
     tcase_add_test(tc, file_errors);
     suite_add_tcase(s, tc);
-    SRunner *sr = srunner_create(s);
-    srunner_run_all(sr, CK_NORMAL);
-    int failed = srunner_ntests_failed(sr);
-    srunner_free(sr);
-    return failed == 0 ? EXIT_SUCCESS : EXIT_FAILURE;
+    return ml_check_run(s);
 }
