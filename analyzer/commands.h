@@ -9,5 +9,6 @@ int ml_cmd_tone(int argc, char **argv);
 int ml_cmd_devices(int argc, char **argv);
 int ml_cmd_live(int argc, char **argv);
 int ml_cmd_compare(int argc, char **argv);
+int ml_cmd_watch(int argc, char **argv);
 
 #endif
