@@ -61,9 +61,9 @@ ml_status ml_peakhold_push(ml_peakhold *q, double dt_s, double x)
     if (q == NULL || !(dt_s >= 0) || !isfinite(dt_s))
         return ML_EINVAL;
     q->age_s += dt_s;
+    q->x = x; /* NaN: no current reading, so nothing holds the release up */
     if (isnan(x))
         return ML_OK;
-    q->x = x;
     /* a reading at or above what is shown now becomes the new peak (a fresh hold) */
     if (isnan(q->peak) || x >= released(q)) {
         q->peak = x;

@@ -6,7 +6,8 @@
  * linearly by decay_per_s per second, but never below the current reading:
  *     h(t) = max(x(t), peak - decay_per_s * max(0, t - tp - hold_s)).
  * Time advances only by the dt_s given to push, so the result does not depend on how the clock
- * is split into steps for a constant reading. NaN readings (not measured) advance time only.
+ * is split into steps for a constant reading. A NaN reading (not measured) advances time and
+ * leaves no current reading x, so h is then the released peak alone.
  */
 #ifndef ML_DSP_PEAKHOLD_H
 #define ML_DSP_PEAKHOLD_H
