@@ -62,12 +62,15 @@ static void on_stop(int sig)
 }
 
 /* The name a plain line uses: the metric's short name when it is unique in the registry (as a
- * limits profile accepts it), else its full dotted name; both as in measure's JSON. */
+ * limits profile accepts it), else its full dotted name; both as in measure's JSON. The hum
+ * group keeps its name (hum.level_dbfs, hum.level_dbc): "level" alone would say nothing. */
 static const char *plain_name(const char *full)
 {
     const char *dot = strrchr(full, '.');
     int amb = 0;
-    return dot && ml_registry_lookup(dot + 1, &amb) != NULL && !amb ? dot + 1 : full;
+    if (dot == NULL || strncmp(full, "hum.", 4) == 0)
+        return full;
+    return ml_registry_lookup(dot + 1, &amb) != NULL && !amb ? dot + 1 : full;
 }
 
 static void pv(FILE *f, const char *name, const char *fmt, double v)
