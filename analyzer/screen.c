@@ -137,13 +137,12 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
             attron(COLOR_PAIR(1));
         attron(A_BOLD | A_REVERSE);
         mvprintw(9, 1, "%-*s", COLS - 2, "");
-        mvprintw(9, 2, "*** OVERMODULATION *** %s at %.1f s - press r to clear", v->overmod_why, v->overmod_at_s);
+        mvprintw(9, 2, "*** OVERMODULATION *** %.34s at %.1f s (r clears)", v->overmod_why, v->overmod_at_s);
         attroff(A_BOLD | A_REVERSE);
         if (s->color)
             attroff(COLOR_PAIR(1));
     } else {
-        mvprintw(9, 2, "modulation within limits (warning latches at 100 %% negative or %.0f %% positive)",
-                 v->latch_limit_pct);
+        mvprintw(9, 2, "no overmodulation (latches at 100 %% negative or %.0f %% positive)", v->latch_limit_pct);
     }
     char a[32], b[32], c[32];
     num(a, sizeof a, "%.3f Hz", v->have ? r->carrier_hz : NAN);
@@ -227,7 +226,7 @@ void ml_screen_draw(ml_screen *s, const ml_watch_view *v)
         mvprintw(1, 1, "*** OVERMODULATION *** (latched; r clears)");
         attroff(A_BOLD | A_REVERSE);
     }
-    mvhline(LINES - 3, 0, ACS_HLINE, COLS);
+    mvhline(LINES - 3, 0, '-', COLS);
     mvprintw(LINES - 2, 1, "device %.30s | %.0f Hz | %s | elapsed %.1f s | overflows %llu | lost %llu", v->device,
              v->rate_hz, v->kind_name, v->elapsed_s, (unsigned long long)v->overflows,
              (unsigned long long)v->lost_frames);

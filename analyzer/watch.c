@@ -321,7 +321,7 @@ int ml_cmd_watch(int argc, char **argv)
                     v.overmod = true;
                     v.overmod_at_s = (double)frames / rate;
                     snprintf(v.overmod_why, sizeof v.overmod_why, "%s",
-                             pinch ? "carrier pinch-off (negative peak 100 %)" : "positive peak over the limit");
+                             pinch ? "carrier pinch-off" : "positive peak over the limit");
                 }
             }
         }

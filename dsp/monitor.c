@@ -61,13 +61,16 @@ ml_monitor_config ml_monitor_config_default(double rate_hz, ml_monitor_kind kind
     return c;
 }
 
-/* The largest power of two up to the default resolution with two half-overlapping segments in n. */
+/* The largest power of two up to the default resolution with two segments a quarter of it apart
+ * in n (the hop is nfft / 4): a window of 1 s at 48 kHz gets 32768 points (1.5 Hz bins), fine
+ * enough to keep 50 Hz hum out of the flat-top window's DC lobe, and still two segments for the
+ * phase-advance frequency estimate. */
 static size_t nfft_for(double rate_hz, size_t n)
 {
     size_t nfft = ml_spectrum_config_default(rate_hz).nfft;
-    while (nfft > 256 && 2 * nfft > n)
+    while (nfft > 256 && nfft + nfft / 4 > n)
         nfft /= 2;
-    return nfft <= n ? nfft : 0;
+    return nfft + nfft / 4 <= n ? nfft : 0;
 }
 
 static void drop_carrier(ml_monitor *q)
@@ -106,7 +109,7 @@ ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out)
     ml_spectrum_config sc = ml_spectrum_config_default(cfg->rate_hz);
     sc.window = cfg->window;
     sc.nfft = nfft_for(cfg->rate_hz, q->cap);
-    sc.hop = sc.nfft / 2;
+    sc.hop = sc.nfft / 4;
     sc.complex_input = cfg->kind == ML_MONITOR_IQ;
     if (sc.nfft == 0) {
         st = ML_EINVAL;
@@ -235,7 +238,7 @@ static ml_status find_carrier(ml_monitor *q)
     ml_spectrum_config sc = ml_spectrum_config_default(rate);
     sc.window = q->cfg.window;
     sc.nfft = nfft_for(rate, env_n);
-    sc.hop = sc.nfft / 2;
+    sc.hop = sc.nfft / 4;
     if (sc.nfft == 0) {
         drop_carrier(q);
         return ML_ENOSIGNAL;

@@ -145,7 +145,7 @@ def main():
                 ck.check("screen: fits 100x30, key line on the last row",
                          text is not None and text.rstrip("\n").split("\n")[-1].strip().startswith("keys:"))
                 tm.keys("r")
-                text, ok = tm.wait(lambda t: "within limits" in t and clean80(t), 10)
+                text, ok = tm.wait(lambda t: "no overmodulation" in t and clean80(t), 10)
                 ck.check("screen: r clears the latch while the input is clean", ok)
                 text, ok = tm.wait(lambda t: "OVERMODULATION" in t, 12)
                 ck.check("screen: the overmodulated half raises the warning", ok)
