@@ -223,12 +223,13 @@ int ml_cmd_watch(int argc, char **argv)
     seg.live = true;
     const double rate = seg.info->rate_hz;
     g_src = seg.src;
-    struct sigaction sa, old_int, old_term;
+    struct sigaction sa, old_int, old_term, old_hup;
     memset(&sa, 0, sizeof sa);
     sa.sa_handler = on_stop;
     sigemptyset(&sa.sa_mask);
     sigaction(SIGINT, &sa, &old_int);
     sigaction(SIGTERM, &sa, &old_term);
+    sigaction(SIGHUP, &sa, &old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
 
     /* the kind: as measure decides, from the opening second for one channel */
     ml_kind kind = o.kind;
@@ -375,6 +376,7 @@ int ml_cmd_watch(int argc, char **argv)
     ml_source_stop(seg.src);
     sigaction(SIGINT, &old_int, NULL);
     sigaction(SIGTERM, &old_term, NULL);
+    sigaction(SIGHUP, &old_hup, NULL);
     g_src = NULL;
     ml_source_close(seg.src);
     ml_monitor_destroy(mon);
