@@ -167,7 +167,8 @@ ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_
     if (q == NULL || (n > 0 && re == NULL) || (q->cfg.kind == ML_MONITOR_IQ && n > 0 && im == NULL))
         return ML_EINVAL;
     for (size_t i = 0; i < n; i++) {
-        q->ring[q->head] = CMPLX(re[i], q->cfg.kind == ML_MONITOR_IQ ? im[i] : 0.0);
+        /* re + j im without CMPLX (glibc defines it for GCC only); exact for finite samples */
+        q->ring[q->head] = (double)re[i] + (q->cfg.kind == ML_MONITOR_IQ ? (double)im[i] : 0.0) * I;
         q->head = q->head + 1 == q->cap ? 0 : q->head + 1;
     }
     q->pushed += n;
