@@ -22,6 +22,7 @@ static void usage(FILE *f)
             "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
             "  compare A B    compare two measurements (recordings or saved JSON): better, worse, same\n"
             "  live           capture from a sound card, then analyse as measure does\n"
+            "  watch          live meter in the terminal: modulation or distortion, updated 10 times a second\n"
             "  devices        list the sound-card inputs and outputs\n"
             "  tone           write a test signal to a file, or play it\n"
             "  log            log levels, hum, noise and interference events for hours (CSV)\n"
@@ -51,6 +52,8 @@ int main(int argc, char **argv)
         return ml_cmd_devices(argc - 1, argv + 1);
     if (strcmp(cmd, "live") == 0)
         return ml_cmd_live(argc - 1, argv + 1);
+    if (strcmp(cmd, "watch") == 0)
+        return ml_cmd_watch(argc - 1, argv + 1);
     if (strcmp(cmd, "compare") == 0)
         return ml_cmd_compare(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)

@@ -129,7 +129,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
         {"output-device", required_argument, NULL, O_OUTDEV},
         {NULL, 0, NULL, 0},
     };
-    const char *cmd = live ? "live" : argv[0];
+    const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);
     o->live.enabled = live;
     o->live.seconds = 5.0;

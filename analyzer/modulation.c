@@ -231,18 +231,6 @@ int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, doubl
     return 0;
 }
 
-/* Channel filter width: the widest that fits, at most 10 kHz; 0 when nothing sensible fits. */
-static double default_bandwidth(double rate, bool iq, double fc, double *transition)
-{
-    const double nyq = rate / 2;
-    double b = iq ? fmin(MAX_BANDWIDTH_HZ, nyq - fabs(fc)) : fmin(fmin(MAX_BANDWIDTH_HZ, fc), nyq - fc);
-    *transition = fmin(1000.0, 0.25 * b);
-    if (!iq) /* the mixer's image at -2 fc must fall in the stop band: b + t <= 2 fc - b */
-        b = fmin(b, fc - *transition / 2);
-    b = fmin(b, nyq - *transition);
-    return b >= 100.0 ? b : 0.0;
-}
-
 /* Mean envelope of a capture of the unmodulated carrier: its carrier line's amplitude. */
 static int reference_carrier(const ml_measure_opts *o, bool iq, double rate, double fc, double *c)
 {
@@ -335,7 +323,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         return ml_cli_error("%s: no carrier found%s", o->input, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
 
     double transition = 0;
-    double bw = default_bandwidth(rate, iq, fc, &transition);
+    double bw = ml_am_default_bandwidth(rate, iq, fc, MAX_BANDWIDTH_HZ, &transition);
     if (o->bandwidth_hz > 0) {
         if (o->bandwidth_hz > bw + 1e-9)
             return ml_cli_error("--bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
@@ -525,24 +513,9 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ml_measure_add(rep, "carrier.level_dbfs", a_car > 0 ? 20 * log10(a_car) : NAN);
     ml_measure_add(rep, "carrier.unmodulated_dbfs", 20 * log10(c));
     /* noise in the channel: mean density between the lines of carrier, tone sidebands and hum */
-    double excl[2 + 4 * ML_MAX_HARMONICS + 4 * ML_MAX_HUM];
-    size_t nex = 0;
-    excl[nex++] = f_car;
     const double fm = aok ? au.fundamental_hz : 0;
-    for (int h = 1; aok && h <= acfg.harmonics && h * fm <= bw; h++) {
-        excl[nex++] = f_car + h * fm;
-        excl[nex++] = f_car - h * fm;
-    }
-    for (int h = 1; aok && h <= acfg.hum_harmonics; h++) {
-        excl[nex++] = f_car + h * au.mains_hz;
-        excl[nex++] = f_car - h * au.mains_hz;
-    }
-    double nd = 0;
-    double cnr = NAN;
-    if (ml_rf_noise_density(rf, f_car - bw, f_car + bw, excl, nex, &nd) == ML_OK && nd > 0) {
-        const double nbins_ch = 2 * bw / (rate / (double)rc_cfg.nfft);
-        cnr = 10 * log10(p_car / (nd * nbins_ch));
-    }
+    const double cnr = ml_rf_cnr_db(rf, f_car, p_car, bw, fm, acfg.harmonics, aok ? au.mains_hz : 0,
+                                    acfg.hum_harmonics);
     ml_measure_add(rep, "carrier.cnr_db", cnr);
     ml_measure_add(rep, "carrier.cnr_bandwidth_hz", 2 * bw);
 

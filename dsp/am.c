@@ -66,6 +66,18 @@ struct ml_am {
     uint64_t ntrap;
 };
 
+double ml_am_default_bandwidth(double rate_hz, bool complex_input, double carrier_hz, double max_hz,
+                               double *transition_hz)
+{
+    const double nyq = rate_hz / 2, fc = carrier_hz;
+    double b = complex_input ? fmin(max_hz, nyq - fabs(fc)) : fmin(fmin(max_hz, fc), nyq - fc);
+    *transition_hz = fmin(1000.0, 0.25 * b);
+    if (!complex_input) /* the mixer's image at -2 fc must fall in the stop band: b + t <= 2 fc - b */
+        b = fmin(b, fc - *transition_hz / 2);
+    b = fmin(b, nyq - *transition_hz);
+    return b >= 100.0 ? b : 0.0;
+}
+
 ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double carrier_hz,
                                   double bandwidth_hz, double carrier_ref)
 {

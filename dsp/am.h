@@ -81,6 +81,13 @@ typedef struct {
 ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double carrier_hz,
                                   double bandwidth_hz, double carrier_ref);
 
+/* The widest channel filter that fits around a carrier at carrier_hz sampled at rate_hz, at most
+ * max_hz: for I/Q within the band edge, for real input also clear of 0 Hz and of the mixer's
+ * image at -2 carrier_hz. *transition_hz gets its transition width, min(1000, b / 4). Returns the
+ * one-sided bandwidth, or 0 when less than 100 Hz fits. */
+double ml_am_default_bandwidth(double rate_hz, bool complex_input, double carrier_hz, double max_hz,
+                               double *transition_hz);
+
 /* Designs the channel filter and allocates everything. ML_EINVAL | ML_ENOMEM | ML_EFFT.
  * Not thread-safe (FFTW planner). */
 ml_status ml_am_create(const ml_am_config *cfg, ml_am **out);

@@ -56,4 +56,12 @@ ml_status ml_rf_mask_margin(const ml_spectrum *s, double carrier_hz, double carr
 ml_status ml_rf_noise_density(const ml_spectrum *s, double lo_hz, double hi_hz, const double *exclude,
                               size_t nexclude, double *per_bin);
 
+/* Carrier-to-noise ratio in the channel f_car_hz +- bw_hz: 10 lg(p_car / (nd * 2 bw_hz / bin)),
+ * where p_car is the carrier's power and nd the noise density (ml_rf_noise_density over the
+ * channel) with the lines of the carrier, of the tone's sidebands f_car +- h fm_hz (h = 1 ..
+ * harmonics while h fm_hz <= bw_hz; none when fm_hz <= 0) and of hum f_car +- h mains_hz (h = 1 ..
+ * hum_harmonics; none when mains_hz <= 0) left out. NAN when no noise can be measured. */
+double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double bw_hz, double fm_hz, int harmonics,
+                    double mains_hz, int hum_harmonics);
+
 #endif

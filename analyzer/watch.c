@@ -1,0 +1,389 @@
+/* The watch command: a live modulation and distortion meter in the terminal.
+ * SPDX-License-Identifier: MIT
+ *
+ * Captures as live does, pushes every update's frames (a tenth of a second) into a sliding
+ * window (dsp/monitor.h) that is re-analysed with the measure command's dsp code, keeps the
+ * peak-hold markers (dsp/peakhold.h) and the latched overmodulation warning, and shows them on
+ * a full-screen display (analyzer/screen.c) or, with --plain, as one line of name=value pairs
+ * per update.
+ */
+#define _POSIX_C_SOURCE 200809L
+#include "analyzer/watch.h"
+
+#include <math.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <unistd.h>
+
+#include "analyzer/cli.h"
+#include "analyzer/commands.h"
+#include "analyzer/measure.h"
+#include "analyzer/registry.h"
+#include "dsp/peakhold.h"
+#include "io/audio.h"
+
+#define UPDATE_S 0.1          /* analysis and display period                                 */
+#define DEFAULT_WINDOW_S 1.0
+#define DETECT_S 1.0          /* opening capture looked at by --kind auto for one channel     */
+
+static void watch_usage(FILE *f)
+{
+    fprintf(f,
+            "usage: modlens watch [--plain] [--window-s S] [capture options] [analysis options]\n"
+            "\n"
+            "A live meter: captures from a sound-card input and shows modulation (if/iq) or distortion\n"
+            "(audio) figures, re-analysed every %.0f ms over a sliding window with the same code as\n"
+            "'modlens measure'.\n"
+            "\n"
+            "  --plain                 one line of name=value pairs per update instead of the full-screen\n"
+            "                          display (also when standard output is not a terminal or TERM is\n"
+            "                          dumb)\n"
+            "  --window-s S            length of the analysed window, 0.1..10 s (default %.1f)\n"
+            "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
+            "  --device, --rate, --channels   as for 'modlens live'\n"
+            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
+            "  --mains, --window, --peak-hold-ms, --limits   as for 'modlens measure'\n"
+            "\n"
+            "Peak-hold markers hold a peak for %.0f s, then fall by %.0f %% of modulation per second.\n"
+            "The overmodulation warning latches when the negative peak reaches 100 %% (carrier pinch-off)\n"
+            "or the positive peak exceeds the profile's limit (125 %% without one), until reset.\n"
+            "keys: q quit, r reset holds and counters, space freeze, s readings/spectrum.\n\n%s",
+            1000 * UPDATE_S, DEFAULT_WINDOW_S, ML_WATCH_HOLD_S, ML_WATCH_DECAY_PCT_S, ml_cli_safety);
+}
+
+static ml_source *volatile g_src;
+
+static void on_stop(int sig)
+{
+    (void)sig;
+    ml_source_stop(g_src);
+}
+
+/* The name a plain line uses: the metric's short name when it is unique in the registry (as a
+ * limits profile accepts it), else its full dotted name; both as in measure's JSON. The hum
+ * group keeps its name (hum.level_dbfs, hum.level_dbc): "level" alone would say nothing. */
+static const char *plain_name(const char *full)
+{
+    const char *dot = strrchr(full, '.');
+    int amb = 0;
+    if (dot == NULL || strncmp(full, "hum.", 4) == 0)
+        return full;
+    return ml_registry_lookup(dot + 1, &amb) != NULL && !amb ? dot + 1 : full;
+}
+
+static void pv(FILE *f, const char *name, const char *fmt, double v)
+{
+    fprintf(f, " %s=", plain_name(name));
+    if (isfinite(v))
+        fprintf(f, fmt, v);
+    else
+        fputs("nan", f);
+}
+
+static void plain_line(FILE *f, const ml_watch_view *v)
+{
+    const ml_monitor_result *r = &v->res;
+    fprintf(f, "elapsed_s=%.2f window_s=%.2f", v->elapsed_s, v->window_s);
+    const double n = NAN;
+    if (v->kind == ML_MONITOR_AUDIO) {
+        pv(f, "audio.rms_dbfs", "%.2f", v->have ? r->rms_dbfs : n);
+        pv(f, "audio.fundamental_hz", "%.3f", v->have ? r->fundamental_hz : n);
+        pv(f, "audio.fundamental_dbfs", "%.2f", v->have ? r->fundamental_dbfs : n);
+        pv(f, "audio.thd_pct", "%.4f", v->have ? r->thd_pct : n);
+        pv(f, "audio.thdn_pct", "%.4f", v->have ? r->thdn_pct : n);
+        pv(f, "audio.snr_db", "%.2f", v->have ? r->snr_db : n);
+        pv(f, "audio.sinad_db", "%.2f", v->have ? r->sinad_db : n);
+        pv(f, "hum.level_dbfs", "%.2f", v->have ? r->hum_dbfs : n);
+        pv(f, "hum.level_dbc", "%.2f", v->have ? r->hum_dbc : n);
+    } else {
+        pv(f, "carrier.frequency_hz", "%.3f", v->have ? r->carrier_hz : n);
+        pv(f, "carrier.offset_hz", "%.3f", v->have ? r->carrier_offset_hz : n);
+        pv(f, "carrier.level_dbfs", "%.2f", v->have ? r->carrier_dbfs : n);
+        pv(f, "carrier.cnr_db", "%.2f", v->have ? r->cnr_db : n);
+        pv(f, "modulation.index", "%.4f", v->have ? r->index : n);
+        pv(f, "modulation.positive_peak_pct", "%.2f", v->have ? r->positive_peak_pct : n);
+        pv(f, "modulation.negative_peak_pct", "%.2f", v->have ? r->negative_peak_pct : n);
+        pv(f, "positive_peak_hold_pct", "%.2f", v->pos_hold_pct);
+        pv(f, "negative_peak_hold_pct", "%.2f", v->neg_hold_pct);
+        pv(f, "modulation.envelope_thd_pct", "%.3f", v->have ? r->envelope_thd_pct : n);
+        pv(f, "modulation.hum_db", "%.2f", v->have ? r->mod_hum_db : n);
+        pv(f, "modulation.pinch_off_events", "%.0f", v->have ? (double)r->pinch_events : n);
+        fprintf(f, " overmodulation=%d overmodulated_updates=%llu", v->overmod ? 1 : 0,
+                (unsigned long long)v->overmod_updates);
+    }
+    fprintf(f, " overflows=%llu lost_frames=%llu\n", (unsigned long long)v->overflows,
+            (unsigned long long)v->lost_frames);
+    fflush(f);
+}
+
+/* Own options out of argv (into *plain, *window_s, *seconds_given); the rest goes to measure's
+ * parser. 0, -1 after --help, or an exit status. */
+static int own_options(int argc, char **argv, char **rest, int *nrest, bool *plain, double *window_s,
+                       bool *seconds_given)
+{
+    *nrest = 0;
+    for (int i = 0; i < argc; i++) {
+        const char *a = argv[i];
+        if (i > 0 && (strcmp(a, "--help") == 0 || strcmp(a, "-h") == 0)) {
+            watch_usage(stdout);
+            return -1;
+        }
+        if (i > 0 && strcmp(a, "--plain") == 0) {
+            *plain = true;
+            continue;
+        }
+        if (i > 0 && (strcmp(a, "--window-s") == 0 || strncmp(a, "--window-s=", 11) == 0)) {
+            const char *val = a[10] == '=' ? a + 11 : (i + 1 < argc ? argv[++i] : NULL);
+            if (val == NULL)
+                return ml_cli_error("--window-s needs a value (try 'modlens watch --help')");
+            if (!ml_cli_number(val, window_s) || !(*window_s >= 0.1 && *window_s <= 10))
+                return ml_cli_error("--window-s: '%s' is not a time in seconds, 0.1..10", val);
+            continue;
+        }
+        if (i > 0 && (strcmp(a, "--seconds") == 0 || strncmp(a, "--seconds=", 10) == 0))
+            *seconds_given = true;
+        rest[(*nrest)++] = argv[i];
+    }
+    rest[*nrest] = NULL;
+    return 0;
+}
+
+/* The profile's max for metric, NAN when it has none. */
+static double profile_max(const ml_limits *l, const char *metric)
+{
+    for (size_t i = 0; l && i < l->n; i++)
+        if (strcmp(l->items[i].metric, metric) == 0 && l->items[i].has_max)
+            return l->items[i].max;
+    return NAN;
+}
+
+/* Deinterleaves one update's frames into re (and im for iq). */
+static void split(const float *buf, size_t n, size_t nch, const ml_measure_opts *o, bool iq, float *re, float *im)
+{
+    const size_t c0 = (size_t)(o->channel - 1);
+    for (size_t i = 0; i < n; i++) {
+        const float *fr = buf + i * nch;
+        if (iq) {
+            re[i] = o->swap_iq ? fr[c0 + 1] : fr[c0];
+            im[i] = o->swap_iq ? fr[c0] : fr[c0 + 1];
+        } else {
+            re[i] = fr[c0];
+        }
+    }
+}
+
+static bool want_plain(bool asked)
+{
+    const char *term = getenv("TERM");
+    return asked || !isatty(STDOUT_FILENO) || term == NULL || term[0] == '\0' || strcmp(term, "dumb") == 0;
+}
+
+int ml_cmd_watch(int argc, char **argv)
+{
+    char **rest = calloc((size_t)argc + 1, sizeof *rest);
+    if (rest == NULL)
+        return ml_cli_error("out of memory");
+    bool plain = false, seconds_given = false;
+    double window_s = DEFAULT_WINDOW_S;
+    int nrest = 0;
+    int rc = own_options(argc, argv, rest, &nrest, &plain, &window_s, &seconds_given);
+    ml_measure_opts o;
+    if (rc == 0)
+        rc = ml_measure_parse(nrest, rest, &o, 0);
+    free(rest);
+    if (rc != 0)
+        return rc < 0 ? ML_EXIT_OK : rc;
+    if (o.live.play || o.live.save_path || o.plot_path || o.report_path || o.output_path || o.carrier_reference
+        || o.reference_channel > 0 || o.start_s > 0 || o.duration_s > 0)
+        return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
+                            "--carrier-reference, --reference-channel, --start or --duration (see 'modlens live')");
+    static ml_limits limits;
+    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+        return rc;
+    long nch = o.live.channels;
+    if (nch == 0)
+        nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
+    if (o.channel + (o.kind == ML_KIND_IQ ? 1 : 0) > nch)
+        return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
+
+    ml_live_config lc = ml_live_config_default();
+    lc.device = o.live.device;
+    lc.rate_hz = o.live.rate_hz;
+    lc.channels = (int)nch;
+    lc.head_s = DETECT_S + 1.0; /* the auto-kind look at the opening second seeks back into it */
+    char err[512];
+    ml_segment seg;
+    memset(&seg, 0, sizeof seg);
+    ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", err);
+    seg.info = ml_source_get_info(seg.src);
+    seg.live = true;
+    const double rate = seg.info->rate_hz;
+    g_src = seg.src;
+    struct sigaction sa, old_int, old_term, old_hup;
+    memset(&sa, 0, sizeof sa);
+    sa.sa_handler = on_stop;
+    sigemptyset(&sa.sa_mask);
+    sigaction(SIGINT, &sa, &old_int);
+    sigaction(SIGTERM, &sa, &old_term);
+    sigaction(SIGHUP, &sa, &old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
+
+    /* the kind: as measure decides, from the opening second for one channel */
+    ml_kind kind = o.kind;
+    if (kind == ML_KIND_AUTO) {
+        if (nch - o.channel + 1 >= 2) {
+            kind = ML_KIND_IQ;
+        } else {
+            bool is_if = false;
+            double fc = NAN;
+            char reason[256];
+            seg.nframes = (int64_t)llround(DETECT_S * rate);
+            rc = ml_measure_detect_if(&o, &seg, &is_if, &fc, reason, sizeof reason);
+            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
+        }
+    }
+    ml_monitor_config mc = ml_monitor_config_default(rate, kind == ML_KIND_IQ ? ML_MONITOR_IQ
+                                                           : kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
+    mc.window_s = window_s;
+    mc.window = o.window;
+    mc.audio = o.audio;
+    mc.carrier_hz = o.carrier_hz;
+    mc.bandwidth_hz = o.bandwidth_hz;
+    mc.peak_hold_s = o.peak_hold_ms / 1000.0;
+    static ml_watch_view v;
+    memset(&v, 0, sizeof v);
+    v.pos_limit_pct = profile_max(o.limits, "modulation.positive_peak_pct");
+    v.neg_limit_pct = profile_max(o.limits, "modulation.negative_peak_pct");
+    v.latch_limit_pct = isfinite(v.pos_limit_pct) ? v.pos_limit_pct : mc.positive_limit_pct;
+    mc.positive_limit_pct = v.latch_limit_pct;
+    ml_monitor *mon = NULL;
+    ml_peakhold *hold_pos = NULL, *hold_neg = NULL;
+    const ml_peakhold_config hc = {.hold_s = ML_WATCH_HOLD_S, .decay_per_s = ML_WATCH_DECAY_PCT_S};
+    const size_t upd = (size_t)llround(UPDATE_S * rate);
+    float *buf = malloc(upd * (size_t)nch * sizeof *buf), *re = malloc(upd * sizeof *re), *im = malloc(upd * sizeof *im);
+    if (rc == 0 && (buf == NULL || re == NULL || im == NULL))
+        rc = ml_cli_error("out of memory");
+    if (rc == 0 && ((st = ml_monitor_create(&mc, &mon)) != ML_OK || (st = ml_peakhold_create(&hc, &hold_pos)) != ML_OK
+                    || (st = ml_peakhold_create(&hc, &hold_neg)) != ML_OK))
+        rc = ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
+                          st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
+    ml_screen *scr = NULL;
+    if (rc == 0 && !want_plain(plain) && (scr = ml_screen_open()) == NULL)
+        plain = true;
+
+    ml_live_stats ls;
+    ml_source_live_stats(seg.src, &ls);
+    v.kind = mc.kind;
+    v.kind_name = kind == ML_KIND_IQ ? "iq" : kind == ML_KIND_IF ? "if" : "audio";
+    snprintf(v.device, sizeof v.device, "%s", ls.device_name);
+    v.rate_hz = rate;
+    v.window_s = (double)ml_monitor_window_frames(mon) / rate;
+    v.pos_hold_pct = v.neg_hold_pct = NAN;
+    uint64_t base_over = 0, base_lost = 0, frames = 0;
+    const uint64_t stop_at = seconds_given ? (uint64_t)llround(o.live.seconds * rate) : UINT64_MAX;
+    bool quit = false;
+    while (rc == 0 && !quit && frames < stop_at) {
+        size_t want = upd, got = 0;
+        if (stop_at - frames < want)
+            want = (size_t)(stop_at - frames);
+        st = ml_source_read(seg.src, buf, want, &got);
+        split(buf, got, (size_t)nch, &o, kind == ML_KIND_IQ, re, im);
+        ml_monitor_push(mon, re, im, got);
+        frames += got;
+        if (st != ML_OK) {
+            ml_screen_close(scr);
+            scr = NULL;
+            rc = ml_cli_error("%s: %s", ls.device_name, ml_source_detail(seg.src));
+            break;
+        }
+        if (got < want) /* Ctrl-C or the end */
+            break;
+        ml_monitor_result r;
+        st = ml_monitor_analyse(mon, &r);
+        const bool have = st == ML_OK;
+        if (st == ML_ENOMEM || st == ML_EFFT) {
+            ml_screen_close(scr);
+            scr = NULL;
+            rc = ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
+            break;
+        }
+        const double dt = (double)got / rate;
+        ml_peakhold_push(hold_pos, dt, have ? r.positive_peak_pct : NAN);
+        ml_peakhold_push(hold_neg, dt, have ? r.negative_peak_pct : NAN);
+        if (have && mc.kind != ML_MONITOR_AUDIO) {
+            const bool pinch = r.pinch_events > 0 || r.negative_peak_pct >= 100.0;
+            const bool high = r.positive_peak_pct > v.latch_limit_pct;
+            if (pinch || high) {
+                v.overmod_updates++;
+                if (!v.overmod) {
+                    v.overmod = true;
+                    v.overmod_at_s = (double)frames / rate;
+                    snprintf(v.overmod_why, sizeof v.overmod_why, "%s",
+                             pinch ? "carrier pinch-off" : "positive peak over the limit");
+                }
+            }
+        }
+        ml_source_live_stats(seg.src, &ls);
+        if (!v.frozen) {
+            v.elapsed_s = (double)frames / rate;
+            v.overflows = ls.overflow_events - base_over;
+            v.lost_frames = ls.lost_frames - base_lost;
+            v.have = have;
+            if (have)
+                v.res = r;
+            v.pos_hold_pct = ml_peakhold_get_value(hold_pos);
+            v.neg_hold_pct = ml_peakhold_get_value(hold_neg);
+            v.ncols = 0;
+            if (v.spectrum && scr) {
+                size_t nc = ml_screen_columns(scr);
+                if (ml_monitor_get_columns(mon, v.col_db, nc, &v.col_lo_hz, &v.col_hi_hz) == ML_OK)
+                    v.ncols = nc;
+            }
+        }
+        if (scr == NULL) {
+            if (!v.frozen)
+                plain_line(stdout, &v);
+            continue;
+        }
+        for (int key; (key = ml_screen_key(scr)) != -1;) {
+            if (key == 'q' || key == 'Q') {
+                quit = true;
+            } else if (key == 'r' || key == 'R') {
+                ml_peakhold_reset(hold_pos);
+                ml_peakhold_reset(hold_neg);
+                v.pos_hold_pct = v.neg_hold_pct = NAN;
+                v.overmod = false;
+                v.overmod_updates = 0;
+                base_over = ls.overflow_events;
+                base_lost = ls.lost_frames;
+                v.overflows = v.lost_frames = 0;
+            } else if (key == ' ') {
+                v.frozen = !v.frozen;
+            } else if (key == 's' || key == 'S' || key == '\t') {
+                v.spectrum = !v.spectrum;
+                v.ncols = 0;
+                size_t nc = ml_screen_columns(scr);
+                if (v.spectrum && ml_monitor_get_columns(mon, v.col_db, nc, &v.col_lo_hz, &v.col_hi_hz) == ML_OK)
+                    v.ncols = nc;
+            }
+        }
+        ml_screen_draw(scr, &v);
+    }
+    ml_screen_close(scr);
+    ml_source_stop(seg.src);
+    sigaction(SIGINT, &old_int, NULL);
+    sigaction(SIGTERM, &old_term, NULL);
+    sigaction(SIGHUP, &old_hup, NULL);
+    g_src = NULL;
+    ml_source_close(seg.src);
+    ml_monitor_destroy(mon);
+    ml_peakhold_destroy(hold_pos);
+    ml_peakhold_destroy(hold_neg);
+    free(buf);
+    free(re);
+    free(im);
+    return rc;
+}
