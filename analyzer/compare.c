@@ -254,7 +254,7 @@ static void note(ml_comparison *c, const char *fmt, const char *a, const char *b
         return;
     char buf[2200];
     snprintf(buf, sizeof buf, fmt, a, b);
-    snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.199s", buf);
+    snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.255s", buf);
 }
 
 int ml_cmd_compare(int argc, char **argv)

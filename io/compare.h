@@ -36,7 +36,7 @@ typedef struct {
     ml_compare_row rows[ML_REPORT_MAX_METRICS];
     size_t nworse;          /* counted rows whose verdict is "worse"                        */
     size_t nnotes;
-    char notes[ML_REPORT_MAX_NOTES][200];
+    char notes[ML_REPORT_MAX_NOTES][ML_REPORT_NOTE_LEN];
 } ml_comparison;
 
 ml_status ml_compare_write(FILE *f, const ml_comparison *c, ml_report_format fmt);

@@ -22,6 +22,7 @@
 #define ML_REPORT_MAX_ROWS 64
 #define ML_REPORT_MAX_CHECKS 128
 #define ML_REPORT_MAX_NOTES 16
+#define ML_REPORT_NOTE_LEN 256
 #define ML_REPORT_MAX_TEXTS 16
 
 typedef struct {
@@ -85,7 +86,7 @@ typedef struct {
     size_t nchecks;
     ml_check checks[ML_REPORT_MAX_CHECKS];
     size_t nnotes;
-    char notes[ML_REPORT_MAX_NOTES][256];
+    char notes[ML_REPORT_MAX_NOTES][ML_REPORT_NOTE_LEN];
 } ml_report;
 
 typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_format;

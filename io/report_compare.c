@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "io/compare.h"
+#include "io/report_internal.h"
 
 static void num(char *buf, size_t len, bool valid, double v, int decimals)
 {
@@ -119,14 +120,7 @@ static ml_status write_json(FILE *f, const ml_comparison *c)
     }
     json_object_set_new(root, "metrics", arr);
     json_object_set_new(root, "verdict", json_string(overall(c)));
-    json_t *notes = json_array();
-    for (size_t i = 0; i < c->nnotes; i++)
-        json_array_append_new(notes, json_string(c->notes[i]));
-    json_object_set_new(root, "notes", notes);
-    int rc = json_dumpf(root, f, JSON_INDENT(2) | JSON_PRESERVE_ORDER | JSON_REAL_PRECISION(12));
-    fputc('\n', f);
-    json_decref(root);
-    return rc == 0 && !ferror(f) ? ML_OK : ML_EIO;
+    return ml_report_json_finish(f, root, c->notes, c->nnotes);
 }
 
 static ml_status write_csv(FILE *f, const ml_comparison *c)

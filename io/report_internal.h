@@ -15,4 +15,10 @@ void ml_report_limit_text(const ml_check *c, char *buf, size_t len);
 /* The check on metric (exact dotted name), or NULL. */
 const ml_check *ml_report_check_for(const ml_report *r, const char *metric);
 
+/* The end of every JSON document we write: root gains "notes" (nnotes strings), then it is
+ * written indented, in insertion order, with a newline, and released. ML_EIO when f fails. */
+struct json_t;
+ml_status ml_report_json_finish(FILE *f, struct json_t *root, const char (*notes)[ML_REPORT_NOTE_LEN],
+                                size_t nnotes);
+
 #endif

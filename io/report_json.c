@@ -122,10 +122,15 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
     json_object_set_new(root, "verdict", json_string(ml_report_verdict(r)));
     if (r->limits_path[0])
         json_object_set_new(root, "limits", json_string(r->limits_path));
-    json_t *notes = json_array();
-    for (size_t i = 0; i < r->nnotes; i++)
-        json_array_append_new(notes, json_string(r->notes[i]));
-    json_object_set_new(root, "notes", notes);
+    return ml_report_json_finish(f, root, r->notes, r->nnotes);
+}
+
+ml_status ml_report_json_finish(FILE *f, json_t *root, const char (*notes)[ML_REPORT_NOTE_LEN], size_t nnotes)
+{
+    json_t *arr = json_array();
+    for (size_t i = 0; i < nnotes; i++)
+        json_array_append_new(arr, json_string(notes[i]));
+    json_object_set_new(root, "notes", arr);
     int rc = json_dumpf(root, f, JSON_INDENT(2) | JSON_PRESERVE_ORDER | JSON_REAL_PRECISION(12));
     fputc('\n', f);
     json_decref(root);

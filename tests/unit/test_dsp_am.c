@@ -84,6 +84,15 @@ static void run_free(run_out *o)
 }
 
 /* Pushes z[n] (and ref[n]) in calls of `block` samples, then finishes and reads the result. */
+/* The teardown of one test case: its run's outputs, input, envelope and object. */
+static void free_case(run_out *o, double complex *z, double *e, ml_am *q)
+{
+    run_free(o);
+    free(z);
+    free(e);
+    ml_am_destroy(q);
+}
+
 static run_out run(ml_am *q, const double complex *z, const float *ref, size_t n, size_t block)
 {
     run_out o = {0};
@@ -571,10 +580,7 @@ START_TEST(unmodulated_carrier)
         ck_assert_double_eq_tol(o.r.emin, AMP, 1e-4 * AMP);
         /* the share of time below A / 2 is 0 (every sample is A) and below 2 A it is 1 */
         ck_assert_double_eq_tol(ml_am_fraction_below(q, 2.0 * AMP), 1.0, 1e-12);
-        run_free(&o);
-        free(z);
-        free(e);
-        ml_am_destroy(q);
+        free_case(&o, z, e, q);
     }
 }
 END_TEST
@@ -616,10 +622,7 @@ START_TEST(startup_transient_not_in_statistics)
                               o.r.mean_quiet / AMP);
                 ck_assert_double_eq(ml_am_fraction_below(q, 0.99 * AMP), 0.0);
             }
-            run_free(&o);
-            free(z);
-            free(e);
-            ml_am_destroy(q);
+            free_case(&o, z, e, q);
         }
     }
 }
@@ -676,10 +679,7 @@ START_TEST(tone_modulation)
          * keeps the sign of cos exactly, its gain being positive). Partial quotients from
          * /usr/bin/python3 with fractions.Fraction(997, 192000). */
         ck_assert_double_eq_tol(ml_am_fraction_below(q, AMP), 0.5, 1e-3);
-        run_free(&o);
-        free(z);
-        free(e);
-        ml_am_destroy(q);
+        free_case(&o, z, e, q);
     }
 }
 END_TEST
@@ -735,10 +735,7 @@ START_TEST(lead_in_then_modulation)
          * onset of the tone is continuous (sine phase), so the quiet mean is A within 1e-6 A (the
          * filter's start-up must not count, see startup_transient_not_in_statistics) */
         ck_assert_msg(fabs(r->mean_quiet - AMP) <= 1e-6 * AMP, "carrier %zu: mean_quiet %.9f A", c, r->mean_quiet / AMP);
-        run_free(&o);
-        free(z);
-        free(e);
-        ml_am_destroy(q);
+        free_case(&o, z, e, q);
     }
 }
 END_TEST
@@ -767,10 +764,7 @@ START_TEST(pinch_off_model_b)
         ck_assert_uint_eq(o.r.reversal_events, 0);
         ck_assert_msg(fabs((double)o.r.positive_over - cycles) <= 1.0, "carrier %zu: %llu excursions", c,
                       (unsigned long long)o.r.positive_over);
-        run_free(&o);
-        free(z);
-        free(e);
-        ml_am_destroy(q);
+        free_case(&o, z, e, q);
     }
 }
 END_TEST
@@ -804,10 +798,7 @@ START_TEST(phase_reversal_model_a)
          * negative lobe peaks at |1 - 1.5| = 0.5 and never counts */
         ck_assert_msg(fabs((double)o.r.positive_over - cycles) <= 1.0, "carrier %zu: %llu excursions", c,
                       (unsigned long long)o.r.positive_over);
-        run_free(&o);
-        free(z);
-        free(e);
-        ml_am_destroy(q);
+        free_case(&o, z, e, q);
     }
 }
 END_TEST
@@ -846,10 +837,7 @@ START_TEST(reversal_time_below_level)
         ck_assert_msg(fabs(got - exact) <= 0.02 * exact, "carrier %zu: share %.6e, expected %.6e", c, got, exact);
         /* and the absolute minimum of the interpolated envelope is (nearly) 0 */
         ck_assert_double_le(o.r.emin_abs, eps * AMP);
-        run_free(&o);
-        free(z);
-        free(e);
-        ml_am_destroy(q);
+        free_case(&o, z, e, q);
     }
 }
 END_TEST
@@ -882,10 +870,7 @@ START_TEST(positive_peak_limit)
             else
                 ck_assert_msg(o.r.positive_over == 0, "carrier %zu case %zu: %llu excursions", c, k,
                               (unsigned long long)o.r.positive_over);
-            run_free(&o);
-            free(z);
-            free(e);
-            ml_am_destroy(q);
+            free_case(&o, z, e, q);
         }
     }
 }

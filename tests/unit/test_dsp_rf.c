@@ -85,6 +85,26 @@ static double complex *am_cplx(size_t n, double a, double fc, double m, double f
     return z;
 }
 
+/* A spectrum (nfft points, half overlap) of n samples of single-tone AM: I/Q when cplx, else a
+ * real IF with dc added. */
+static ml_spectrum *am_spectrum(size_t nfft, int cplx, size_t n, double a, double fc, double m, double fm,
+                                double dc)
+{
+    ml_spectrum *q = make(FS, nfft, nfft / 2, cplx);
+    if (cplx) {
+        double complex *z = am_cplx(n, a, fc, m, fm, FS);
+        ck_assert_int_eq(ml_spectrum_push_complex(q, z, n), ML_OK);
+        free(z);
+    } else {
+        double *x = am_real(n, a, fc, m, fm, FS);
+        for (size_t i = 0; i < n; i++)
+            x[i] += dc;
+        ck_assert_int_eq(ml_spectrum_push_double(q, x, n), ML_OK);
+        free(x);
+    }
+    return q;
+}
+
 /* Relative standard deviation of a band estimate over nb bins from nseg non-overlapping
  * segments of Gaussian noise (testsig.h: Isserlis' theorem with the window's spectral
  * correlation; valid for bins away from DC and Nyquist, and for circular complex noise). */
@@ -183,16 +203,7 @@ START_TEST(am_side_frequencies)
         const double m = ms[im];
         for (int cplx = 0; cplx < 2; cplx++) {
             const double fc = cplx ? -3000.0 : 12000.0;
-            ml_spectrum *q = make(FS, nfft, nfft / 2, cplx);
-            if (cplx) {
-                double complex *z = am_cplx(n, a, fc, m, fm, FS);
-                ck_assert_int_eq(ml_spectrum_push_complex(q, z, n), ML_OK);
-                free(z);
-            } else {
-                double *x = am_real(n, a, fc, m, fm, FS);
-                ck_assert_int_eq(ml_spectrum_push_double(q, x, n), ML_OK);
-                free(x);
-            }
+            ml_spectrum *q = am_spectrum(nfft, cplx, n, a, fc, m, fm, 0.0);
             const double c = ml_rf_amplitude(q, fc);
             const double lo = ml_rf_amplitude(q, fc - fm), hi = ml_rf_amplitude(q, fc + fm);
             ck_assert_double_eq_tol(c, a, 1e-6 * a);
@@ -330,18 +341,7 @@ START_TEST(occupied_bandwidth_single_tone_am)
         const double fc = cplx ? -3000.0 : 12000.0;
         for (size_t im = 0; im < 4; im++) {
             const double m = ms[im];
-            ml_spectrum *q = make(FS, nfft, nfft / 2, cplx);
-            if (cplx) {
-                double complex *z = am_cplx(n, a, fc, m, fm, FS);
-                ck_assert_int_eq(ml_spectrum_push_complex(q, z, n), ML_OK);
-                free(z);
-            } else {
-                double *x = am_real(n, a, fc, m, fm, FS);
-                for (size_t i = 0; i < n; i++)
-                    x[i] += 0.05;
-                ck_assert_int_eq(ml_spectrum_push_double(q, x, n), ML_OK);
-                free(x);
-            }
+            ml_spectrum *q = am_spectrum(nfft, cplx, n, a, fc, m, fm, 0.05);
             const double lobe = (double)ml_spectrum_lobe_bins(q) * bw;
             double lo = 0, hi = 0;
             ck_assert_int_eq(ml_rf_occupied_bandwidth(q, 0.99, &lo, &hi), ML_OK);
