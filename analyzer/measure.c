@@ -459,7 +459,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     const size_t nch = (size_t)info->channels;
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
-    ml_blocks *blocks = ml_blocks_create(&sc, &o->audio);
+    ml_blocks *blocks = ml_blocks_create(spec, &sc, &o->audio, false);
     int rc = 0;
     if (buf == NULL || mono == NULL || blocks == NULL) {
         rc = ml_cli_error("%s: out of memory", o->input);
@@ -477,7 +477,6 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
             mono[i] = buf[i * nch + (size_t)(o->channel - 1)];
         ml_stats_push(&stats, mono, got);
         ml_spectrum_push(spec, mono, got);
-        ml_blocks_push_float(blocks, mono, got);
         done += (int64_t)got;
         ml_measure_progress(seg, done, &next, &shown);
     }

@@ -386,7 +386,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     ml_audio_config bcfg = o->audio; /* the demodulated audio's band, as in step 4 */
     bcfg.band_hi_hz = fmin(bcfg.band_hi_hz, bw);
-    if ((blocks = ml_blocks_create(&ac_spec, &bcfg)) == NULL || ml_blocks_set_peaks(blocks, ac_cfg.hold_s) != ML_OK) {
+    if ((blocks = ml_blocks_create(aud, &ac_spec, &bcfg, true)) == NULL || ml_blocks_set_peaks(blocks, ac_cfg.hold_s) != ML_OK) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }

@@ -36,15 +36,19 @@ static const struct { const char *name; int src; } aliases[] = {
 enum { P_EMAX, P_EMIN, P_INDEX, P_COUNT };
 
 struct ml_blocks {
-    ml_spectrum *spec;
+    ml_spectrum *spec;       /* the current block's segments, fed by the whole spectrum's hook  */
+    ml_spectrum *whole;      /* the spectrum whose segments these are                         */
     ml_audio_config cfg;
-    size_t nfft, hop, keep;  /* keep = nfft - hop samples carried into the next block        */
-    double *ring;            /* the last `keep` samples                                      */
+    bool tagged;             /* untagged segments spoil their block                           */
+    size_t nfft, hop, keep;  /* keep = nfft - hop samples shared with the next block           */
+    size_t segs;             /* segments in the current block                                 */
+    bool spec_bad;           /* one of them was not wholly tagged                             */
+    ml_running acc[U_COUNT];
+    /* peak readings (ml_blocks_set_peaks), from the pushed samples: the same blocks in samples */
     unsigned long long total, last_bad, block_first;
     bool any_bad;
     size_t need;             /* samples until the block's last segment completes              */
-    ml_running acc[U_COUNT];
-    double hold_share;       /* > 0: peak readings per block (ml_blocks_set_peaks)            */
+    double hold_share;       /* > 0: peak readings per block                                  */
     uint32_t *hist;          /* PEAK_BINS counts of the current block                         */
     uint64_t hist_n;
     ml_running peak[P_COUNT];
@@ -75,43 +79,18 @@ ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share)
     return ML_OK;
 }
 
-ml_blocks *ml_blocks_create(const ml_spectrum_config *sc, const ml_audio_config *cfg)
+/* The whole spectrum's hook: one more segment of the current block. */
+static void on_segment(void *ctx, const double _Complex *x, const double _Complex *prev, int selected)
 {
-    ml_blocks *q = calloc(1, sizeof *q);
-    if (q == NULL)
-        return NULL;
-    ml_spectrum_config c = *sc;
-    c.complex_input = 0;
-    q->cfg = *cfg;
-    q->nfft = c.nfft;
-    q->hop = c.hop;
-    q->keep = c.nfft - c.hop;
-    q->ring = calloc(q->keep ? q->keep : 1, sizeof *q->ring);
-    if (q->ring == NULL || ml_spectrum_create(&c, &q->spec) != ML_OK) {
-        ml_blocks_destroy(q);
-        return NULL;
-    }
-    q->need = q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop;
-    for (int i = 0; i < U_COUNT; i++)
-        ml_running_reset(&q->acc[i]);
-    return q;
-}
-
-void ml_blocks_destroy(ml_blocks *q)
-{
-    if (q == NULL)
+    ml_blocks *q = ctx;
+    /* a block's first segment has no predecessor in the block: no cross-spectrum term */
+    ml_spectrum_add_segment(q->spec, x, q->segs > 0 ? prev : NULL);
+    if (q->tagged && !selected)
+        q->spec_bad = true;
+    if (++q->segs < ML_BLOCK_SEGMENTS)
         return;
-    ml_spectrum_destroy(q->spec);
-    free(q->ring);
-    free(q->hist);
-    free(q);
-}
-
-/* The figures of one complete block; the same formulas as the whole report (analyzer/measure.c). */
-static void finish_block(ml_blocks *q)
-{
     ml_audio_result a;
-    if (!q->any_bad && ml_audio_analyze(q->spec, &q->cfg, &a) == ML_OK) {
+    if (!q->spec_bad && ml_audio_analyze(q->spec, &q->cfg, &a) == ML_OK) {
         const double p1 = a.fundamental_power, sinad = ml_ratio_db(p1, a.band_power - p1);
         double v[U_COUNT];
         v[U_F_HZ] = a.fundamental_hz;
@@ -129,21 +108,60 @@ static void finish_block(ml_blocks *q)
         for (int i = 0; i < U_COUNT; i++)
             ml_running_push(&q->acc[i], v[i]);
     }
-    if (q->hist && !q->any_bad && q->hist_n > 0) {
+    ml_spectrum_reset(q->spec);
+    q->segs = 0;
+    q->spec_bad = false;
+}
+
+ml_blocks *ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, const ml_audio_config *cfg,
+                            bool tagged)
+{
+    if (whole == NULL || sc == NULL || cfg == NULL || sc->complex_input || ml_spectrum_is_complex(whole)
+        || ml_spectrum_nfft(whole) != sc->nfft || ml_spectrum_window(whole) != sc->window)
+        return NULL;
+    ml_blocks *q = calloc(1, sizeof *q);
+    if (q == NULL)
+        return NULL;
+    q->whole = whole;
+    q->cfg = *cfg;
+    q->tagged = tagged;
+    q->nfft = sc->nfft;
+    q->hop = sc->hop;
+    q->keep = sc->nfft - sc->hop;
+    if (ml_spectrum_create(sc, &q->spec) != ML_OK) {
+        ml_blocks_destroy(q);
+        return NULL;
+    }
+    q->need = q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop;
+    for (int i = 0; i < U_COUNT; i++)
+        ml_running_reset(&q->acc[i]);
+    ml_spectrum_on_segment(whole, on_segment, q);
+    return q;
+}
+
+void ml_blocks_destroy(ml_blocks *q)
+{
+    if (q == NULL)
+        return;
+    if (q->whole)
+        ml_spectrum_on_segment(q->whole, NULL, NULL);
+    ml_spectrum_destroy(q->spec);
+    free(q->hist);
+    free(q);
+}
+
+/* The peak readings of one complete block of samples. */
+static void finish_peaks(ml_blocks *q)
+{
+    if (!q->any_bad && q->hist_n > 0) {
         const double emax = hist_quantile(q, 1.0 - q->hold_share), emin = hist_quantile(q, q->hold_share);
         ml_running_push(&q->peak[P_EMAX], emax);
         ml_running_push(&q->peak[P_EMIN], emin);
         ml_running_push(&q->peak[P_INDEX], (emax - emin) / (emax + emin));
     }
-    if (q->hist) {
-        memset(q->hist, 0, PEAK_BINS * sizeof *q->hist);
-        q->hist_n = 0;
-    }
-    /* the next block starts with the overlap of the last segment, oldest sample first */
-    ml_spectrum_reset(q->spec);
-    const size_t start = (size_t)(q->total % q->keep);
-    ml_spectrum_push_double(q->spec, q->ring + start, q->keep - start);
-    ml_spectrum_push_double(q->spec, q->ring, start);
+    memset(q->hist, 0, PEAK_BINS * sizeof *q->hist);
+    q->hist_n = 0;
+    /* the next block starts with the overlap of the last segment */
     q->block_first = q->total - q->keep;
     q->any_bad = q->last_bad > q->block_first; /* last_bad is one past the last untagged sample */
     q->need = ML_BLOCK_SEGMENTS * q->hop;
@@ -151,38 +169,24 @@ static void finish_block(ml_blocks *q)
 
 void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, size_t n)
 {
+    if (q->hist == NULL)
+        return;
     size_t i = 0;
     while (i < n) {
         const size_t take = n - i < q->need ? n - i : q->need;
-        ml_spectrum_push_double(q->spec, x + i, take);
         for (size_t j = i; j < i + take; j++) {
-            q->ring[(size_t)(q->total % q->keep)] = x[j];
-            if (q->hist) {
-                const double b = x[j] * (PEAK_BINS / PEAK_RANGE);
-                q->hist[b <= 0 ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++;
-                q->hist_n++;
-            }
-            if (tag && !tag[j]) {
-                q->any_bad = true;
-                q->last_bad = q->total + 1; /* one past the untagged sample */
-            }
-            q->total++;
+            const double b = x[j] * (PEAK_BINS / PEAK_RANGE);
+            q->hist[b <= 0 ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++;
+            if (tag && !tag[j])
+                q->last_bad = q->total + j - i + 1; /* one past the untagged sample */
         }
+        q->hist_n += take;
+        q->total += take;
+        q->any_bad = q->any_bad || q->last_bad > q->block_first;
         q->need -= take;
         i += take;
         if (q->need == 0)
-            finish_block(q);
-    }
-}
-
-void ml_blocks_push_float(ml_blocks *q, const float *x, size_t n)
-{
-    double tmp[512];
-    for (size_t i = 0; i < n; i += 512) {
-        const size_t m = n - i < 512 ? n - i : 512;
-        for (size_t j = 0; j < m; j++)
-            tmp[j] = x[i + j];
-        ml_blocks_push(q, tmp, NULL, m);
+            finish_peaks(q);
     }
 }
 

@@ -1,14 +1,14 @@
 /* Measurement uncertainty of the audio figures from their spread across blocks of a recording.
  * SPDX-License-Identifier: MIT
  *
- * The samples that feed the whole-recording spectrum are fed here too. A second spectrum of the
- * same configuration collects `segments` consecutive Welch segments (the very segments the whole
- * spectrum averages: the overlap carries over from one block to the next), then the block's audio
- * figures are computed (dsp/metrics.h) and pushed into running accumulators (dsp/uncert.h), and
- * the block spectrum starts again. Every whole segment therefore belongs to exactly one block, so
- * the whole recording's power spectrum is the mean of the blocks' and the spread of the block
- * figures gives the 95 % interval of the whole figure: u = t(0.975, n - 1) s / sqrt(n) (README
- * "Measurement uncertainty"). Memory: one spectrum and nfft samples, whatever the length.
+ * The whole-recording spectrum hands each of its Welch segments over as it transforms them
+ * (ml_spectrum_on_segment): a block spectrum collects `segments` consecutive segments (the
+ * overlap carries over from one block to the next), then the block's audio figures are computed
+ * (dsp/metrics.h) and pushed into running accumulators (dsp/uncert.h), and the block spectrum
+ * starts again. Every whole segment therefore belongs to exactly one block, so the whole
+ * recording's power spectrum is the mean of the blocks' and the spread of the block figures gives
+ * the 95 % interval of the whole figure: u = t(0.975, n - 1) s / sqrt(n) (README "Measurement
+ * uncertainty"). No segment is transformed twice. Memory: one spectrum, whatever the length.
  */
 #ifndef ML_ANALYZER_UNCERTAINTY_H
 #define ML_ANALYZER_UNCERTAINTY_H
@@ -26,17 +26,20 @@ typedef struct ml_blocks ml_blocks;
 /* Welch segments per block. */
 #define ML_BLOCK_SEGMENTS 2
 
-/* sc: the whole spectrum's configuration (real input); cfg: its audio analysis. Only spectral
- * figures get an interval: time statistics of a block (RMS, DC) also carry the tone's partial
- * period at the block's ends, which the whole recording averages away.
- * NULL on allocation or planning failure. */
-ml_blocks *ml_blocks_create(const ml_spectrum_config *sc, const ml_audio_config *cfg);
+/* whole: the whole-recording spectrum (real input), sc its configuration, cfg its audio analysis.
+ * The blocks follow whole's segments from now on (whole must outlive them and not get another
+ * hook); tagged: a segment not wholly tagged (dsp/spectrum.h) leaves its block out. Only
+ * spectral figures get an interval: time statistics of a block (RMS, DC) also carry the tone's
+ * partial period at the block's ends, which the whole recording averages away.
+ * NULL on a mismatched configuration, allocation or planning failure. */
+ml_blocks *ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, const ml_audio_config *cfg,
+                            bool tagged);
 void ml_blocks_destroy(ml_blocks *q);
 
-/* n samples; tag[i] == 0 marks a sample that must not enter a block estimate (a block holding
- * one is left out); tag NULL: every sample counts. */
+/* Peak readings only (ml_blocks_set_peaks; otherwise a no-op): the n samples that were pushed to
+ * the whole spectrum, with the same tags (tag[i] == 0 leaves the sample's block out; NULL: every
+ * sample counts). */
 void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, size_t n);
-void ml_blocks_push_float(ml_blocks *q, const float *x, size_t n);
 
 /* A gain applied to the whole recording afterwards (ml_spectrum_scale) shifts every block's levels
  * alike, so the spread and u do not change: nothing to correct. */

@@ -43,6 +43,8 @@ struct ml_spectrum {
     double enbw;
     size_t segments;
     fftw_plan plan;
+    ml_spectrum_segment_fn hook; /* called after each transform, or NULL                */
+    void *hook_ctx;
 };
 
 ml_spectrum_config ml_spectrum_config_default(double rate_hz)
@@ -157,45 +159,74 @@ void ml_spectrum_reset(ml_spectrum *q)
     memset(q->xsel, 0, q->nbins * sizeof *q->xsel);
 }
 
+/* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
+ * all segments, and to the selected ones when sel (with psel: the previous segment was selected
+ * too). One pass over the bins: the arrays are larger than the caches for long transforms. */
+static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scale, const fftw_complex *x,
+                                  const fftw_complex *prev, int sel, int psel)
+{
+    const double a = creal(x[k]), b = cimag(x[k]);
+    const double p = (a * a + b * b) * scale;
+    q->acc[k] += p;
+    if (sel)
+        q->sel[k] += p;
+    if (prev) {
+        /* X_i conj(X_{i-1}) written out: C's complex product would also handle infinities (C11
+         * Annex G) at a call per bin; spectra of finite samples are finite */
+        const double c = creal(prev[k]), d = cimag(prev[k]);
+        const fftw_complex xc = CMPLX(a * c + b * d, b * c - a * d);
+        q->xacc[k] += xc;
+        if (sel && psel)
+            q->xsel[k] += xc;
+    }
+}
+
+/* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
+ * all segments, and to the selected ones when sel (with psel: the previous segment was selected
+ * too). One pass over the bins: the arrays are larger than the caches for long transforms. */
+static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex *prev, int sel, int psel)
+{
+    const size_t nb = q->nbins;
+    if (q->cfg.complex_input) {
+        for (size_t k = 0; k < nb; k++)
+            accumulate_bin(q, k, q->scale, x, prev, sel, psel);
+    } else { /* DC and Nyquist have no mirror image: half the one-sided scale */
+        accumulate_bin(q, 0, 0.5 * q->scale, x, prev, sel, psel);
+        for (size_t k = 1; k + 1 < nb; k++)
+            accumulate_bin(q, k, q->scale, x, prev, sel, psel);
+        accumulate_bin(q, nb - 1, 0.5 * q->scale, x, prev, sel, psel);
+    }
+    q->segments++;
+    q->nsel += (size_t)(sel != 0);
+}
+
 /* Transform the full buffer: accumulate power and the cross-spectrum with the previous segment. */
 static void transform(ml_spectrum *q)
 {
     const size_t n = q->cfg.nfft;
     const int cplx = q->cfg.complex_input;
-    if (cplx)
+    const double *restrict w = q->win;
+    if (cplx) {
+        const fftw_complex *restrict src = q->cbuf;
+        fftw_complex *restrict dst = q->cin;
         for (size_t i = 0; i < n; i++)
-            q->cin[i] = q->cbuf[i] * q->win[i];
-    else
+            dst[i] = CMPLX(creal(src[i]) * w[i], cimag(src[i]) * w[i]);
+        fftw_execute_dft(q->plan, q->cin, q->out);
+    } else {
         for (size_t i = 0; i < n; i++)
-            q->in[i] = q->buf[i] * q->win[i];
-    fftw_execute(q->plan);
-    const int selected = q->ntagged == n;
-    for (size_t k = 0; k < q->nbins; k++) {
-        double re = creal(q->out[k]), im = cimag(q->out[k]);
-        double p = (re * re + im * im) * q->scale;
-        if (!cplx && (k == 0 || k == q->nbins - 1))
-            p *= 0.5;
-        q->acc[k] += p;
-        if (selected)
-            q->sel[k] += p;
+            q->in[i] = q->buf[i] * w[i];
+        fftw_execute_dft_r2c(q->plan, q->in, q->out);
     }
-    /* X_i conj(X_{i-1}) written out: C's complex product would also handle infinities (C11
-     * Annex G) at a call per bin; spectra of finite samples are finite */
-    if (q->segments > 0)
-        for (size_t k = 0; k < q->nbins; k++) {
-            const double a = creal(q->out[k]), b = cimag(q->out[k]);
-            const double c = creal(q->prev[k]), d = cimag(q->prev[k]);
-            q->xacc[k] += CMPLX(a * c + b * d, b * c - a * d);
-        }
-    if (selected && q->prev_sel)
-        for (size_t k = 0; k < q->nbins; k++) {
-            const double a = creal(q->out[k]), b = cimag(q->out[k]);
-            const double c = creal(q->prev[k]), d = cimag(q->prev[k]);
-            q->xsel[k] += CMPLX(a * c + b * d, b * c - a * d);
-        }
-    memcpy(q->prev, q->out, q->nbins * sizeof *q->out);
-    q->segments++;
-    q->nsel += (size_t)selected;
+    const int selected = q->ntagged == n;
+    const fftw_complex *prev = q->segments > 0 ? q->prev : NULL;
+    accumulate(q, q->out, prev, selected, q->prev_sel);
+    if (q->hook)
+        q->hook(q->hook_ctx, q->out, prev, selected);
+    /* this segment's spectrum becomes the previous one: swap the buffers (both from fftw_alloc,
+     * so equally aligned for the plan) */
+    fftw_complex *t = q->prev;
+    q->prev = q->out;
+    q->out = t;
     q->prev_sel = selected;
     /* the tags of the samples leaving the buffer */
     for (size_t i = 0; i < q->cfg.hop; i++)
@@ -207,6 +238,23 @@ static void transform(ml_spectrum *q)
     else
         memmove(q->buf, q->buf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->buf);
     q->fill = n - q->cfg.hop;
+}
+
+void ml_spectrum_on_segment(ml_spectrum *q, ml_spectrum_segment_fn fn, void *ctx)
+{
+    if (q == NULL)
+        return;
+    q->hook = fn;
+    q->hook_ctx = ctx;
+}
+
+ml_status ml_spectrum_add_segment(ml_spectrum *q, const double _Complex *x, const double _Complex *prev)
+{
+    if (q == NULL || x == NULL)
+        return ML_EINVAL;
+    accumulate(q, x, prev, 0, 0);
+    q->prev_sel = 0;
+    return ML_OK;
 }
 
 #define PUSH_BODY(BUF, TAG)                                                                        \

@@ -56,6 +56,18 @@ ml_status ml_spectrum_use_selected(ml_spectrum *q, int on);
 /* Segments accumulated as selected. */
 size_t ml_spectrum_selected_segments(const ml_spectrum *q);
 
+/* Called after each segment's transform with its spectrum x (nbins values, unscaled FFT output of
+ * the windowed segment), the previous segment's (NULL for the first since reset) and whether every
+ * sample of the segment was tagged. The arrays are valid during the call only. */
+typedef void (*ml_spectrum_segment_fn)(void *ctx, const double _Complex *x, const double _Complex *prev,
+                                       int selected);
+/* Sets (fn NULL: clears) the hook; it survives reset. */
+void ml_spectrum_on_segment(ml_spectrum *q, ml_spectrum_segment_fn fn, void *ctx);
+/* Accumulates one segment's spectrum x (and its cross-spectrum with prev, when not NULL) as if q
+ * had transformed it itself, as unselected: q must have the configuration of the spectrum that
+ * produced x. Lets one transform feed several accumulations (for example per-block spectra). */
+ml_status ml_spectrum_add_segment(ml_spectrum *q, const double _Complex *x, const double _Complex *prev);
+
 /* Multiplies everything accumulated so far by gain^2, as if the input had been scaled by gain. */
 void ml_spectrum_scale(ml_spectrum *q, double gain);
 
