@@ -29,29 +29,33 @@ struct ml_am {
     size_t startup;          /* half the filter: envelope before it comes from a part-filled filter */
     uint64_t in_count;       /* input samples pushed                                   */
     bool finished;           /* finish was called: no more pushes until reset          */
-    double complex mixed[CHUNK], filtered[CHUNK];
-    /* delay lines of latency + 1 samples: reference channel and input */
+    double complex mixed[CHUNK], filtered[CHUNK], delayed[CHUNK];
+    double complex rot[CHUNK]; /* exp(-2 pi i f k), k < CHUNK: the mixer within a chunk    */
+    float ref_delayed[CHUNK];
+    double env[CHUNK], lowest[CHUNK];
+    double over[OVERSAMPLE * CHUNK];
+    /* delay lines of dly_len >= latency + CHUNK samples: reference channel and input */
     float *ref_ring;
     double complex *in_ring;
-    size_t ref_len, ref_pos;
-    /* the current block's envelope and input samples, released when it is classified */
+    size_t dly_len, dly_pos;
+    /* the current block's samples, carried from one push to the next while it is incomplete */
     double *blk_env;
     double complex *blk_in;
-    const ml_am_output *out; /* where end_block releases samples (NULL: nowhere)        */
+    const ml_am_output *out; /* where samples go during a push or finish              */
     size_t *out_count;
-    /* baseband history for interpolation: h[0] oldest .. h[3] newest */
-    double complex h[4];
+    /* baseband history for interpolation: h[0] oldest .. h[2] newest */
+    double complex h[3];
     uint64_t produced;       /* envelope samples produced                              */
     /* current block */
     size_t block_len, block_fill;
     double block_sum, block_sumsq;
-    double *pending;         /* OVERSAMPLE * block_len interpolated values             */
+    uint16_t *pending;       /* histogram bins of its OVERSAMPLE * block_len interpolated values */
     size_t npending;
     /* totals */
     double sum_all, sum_mod, sum_quiet;
     uint64_t n_mod, n_quiet;
-    uint64_t *hist_all, *hist_mod;
-    uint64_t hist_all_n, hist_mod_n;
+    uint64_t *hist_quiet, *hist_mod; /* oversampled envelope of quiet and of modulated blocks */
+    uint64_t hist_quiet_n, hist_mod_n;
     double hist_scale;       /* bins per unit of envelope                               */
     double emax_abs, emin_abs;
     /* events */
@@ -126,18 +130,21 @@ ml_status ml_am_create(const ml_am_config *cfg, ml_am **out)
     q->startup = (ml_cfir_ntaps(q->filter) - 1) / 2;
     q->block_len = block_len;
     q->pending = malloc(OVERSAMPLE * block_len * sizeof *q->pending);
-    q->hist_all = malloc(HIST_BINS * sizeof *q->hist_all);
+    q->hist_quiet = malloc(HIST_BINS * sizeof *q->hist_quiet);
     q->hist_mod = malloc(HIST_BINS * sizeof *q->hist_mod);
-    q->ref_len = q->latency + 1;
-    q->ref_ring = cfg->has_reference ? malloc(q->ref_len * sizeof *q->ref_ring) : NULL;
-    q->in_ring = malloc(q->ref_len * sizeof *q->in_ring);
+    q->dly_len = q->latency + CHUNK;
+    q->ref_ring = cfg->has_reference ? malloc(q->dly_len * sizeof *q->ref_ring) : NULL;
+    q->in_ring = malloc(q->dly_len * sizeof *q->in_ring);
     q->blk_env = malloc(block_len * sizeof *q->blk_env);
     q->blk_in = malloc(block_len * sizeof *q->blk_in);
-    if (q->pending == NULL || q->hist_all == NULL || q->hist_mod == NULL || q->in_ring == NULL
+    if (q->pending == NULL || q->hist_quiet == NULL || q->hist_mod == NULL || q->in_ring == NULL
         || q->blk_env == NULL || q->blk_in == NULL || (cfg->has_reference && q->ref_ring == NULL)) {
         ml_am_destroy(q);
         return ML_ENOMEM;
     }
+    const double f = cfg->carrier_hz / cfg->rate_hz;
+    for (size_t k = 0; k < CHUNK; k++) /* the phase reduced first: exact for any k */
+        q->rot[k] = cexp(-2.0 * ML_PI * I * fmod((double)k * f, 1.0));
     q->hist_scale = HIST_BINS / (HIST_RANGE * cfg->carrier_ref);
     q->thr_in = cfg->pinch_rel * cfg->carrier_ref;
     q->thr_good = 0.1 * cfg->carrier_ref;
@@ -154,7 +161,7 @@ void ml_am_destroy(ml_am *q)
         return;
     ml_cfir_destroy(q->filter);
     free(q->pending);
-    free(q->hist_all);
+    free(q->hist_quiet);
     free(q->hist_mod);
     free(q->ref_ring);
     free(q->in_ring);
@@ -171,10 +178,10 @@ void ml_am_reset(ml_am *q)
     q->in_count = 0;
     q->finished = false;
     q->produced = 0;
-    q->ref_pos = 0;
+    q->dly_pos = 0;
     if (q->ref_ring)
-        memset(q->ref_ring, 0, q->ref_len * sizeof *q->ref_ring);
-    memset(q->in_ring, 0, q->ref_len * sizeof *q->in_ring);
+        memset(q->ref_ring, 0, q->dly_len * sizeof *q->ref_ring);
+    memset(q->in_ring, 0, q->dly_len * sizeof *q->in_ring);
     q->out = NULL;
     q->out_count = NULL;
     memset(q->h, 0, sizeof q->h);
@@ -183,9 +190,9 @@ void ml_am_reset(ml_am *q)
     q->npending = 0;
     q->sum_all = q->sum_mod = q->sum_quiet = 0;
     q->n_mod = q->n_quiet = 0;
-    memset(q->hist_all, 0, HIST_BINS * sizeof *q->hist_all);
+    memset(q->hist_quiet, 0, HIST_BINS * sizeof *q->hist_quiet);
     memset(q->hist_mod, 0, HIST_BINS * sizeof *q->hist_mod);
-    q->hist_all_n = q->hist_mod_n = 0;
+    q->hist_quiet_n = q->hist_mod_n = 0;
     q->emax_abs = 0;
     q->emin_abs = INFINITY;
     q->in_low = q->in_pos = q->have_prev = false;
@@ -201,6 +208,8 @@ size_t ml_am_latency(const ml_am *q)
     return q ? q->latency : 0;
 }
 
+/* Classifies the current block and releases it: its samples already sit in the output from
+ * *out_count on; their class is written and the count moves past them. */
 static void end_block(ml_am *q)
 {
     if (q->block_fill == 0)
@@ -216,36 +225,20 @@ static void end_block(ml_am *q)
         q->sum_mod += q->block_sum;
         q->n_mod += q->block_fill;
     }
-    for (size_t i = 0; i < q->npending; i++) {
-        double v = q->pending[i] * q->hist_scale;
-        size_t b = v <= 0 ? 0 : v >= HIST_BINS - 1 ? HIST_BINS - 1 : (size_t)v;
-        q->hist_all[b]++;
-        if (!quiet)
-            q->hist_mod[b]++;
-    }
-    q->hist_all_n += q->npending;
-    if (!quiet)
+    q->sum_all += q->block_sum;
+    uint64_t *restrict h = quiet ? q->hist_quiet : q->hist_mod;
+    const uint16_t *restrict b = q->pending;
+    for (size_t i = 0; i < q->npending; i++)
+        h[b[i]]++;
+    if (quiet)
+        q->hist_quiet_n += q->npending;
+    else
         q->hist_mod_n += q->npending;
-    if (q->out != NULL) {
-        size_t c = *q->out_count;
-        for (size_t i = 0; i < q->block_fill; i++, c++) {
-            q->out->env[c] = q->blk_env[i];
-            q->out->in[c] = q->blk_in[i];
-            q->out->modulated[c] = !quiet;
-        }
-        *q->out_count = c;
-    }
+    memset(q->out->modulated + *q->out_count, !quiet, q->block_fill);
+    *q->out_count += q->block_fill;
     q->block_fill = 0;
     q->block_sum = q->block_sumsq = 0;
     q->npending = 0;
-}
-
-/* |z|: sqrt(re^2 + im^2) instead of hypot (same value within 1 ulp; envelopes are far from the
- * overflow and underflow limits hypot guards against), several times faster. */
-static inline double mag(double complex z)
-{
-    const double re = creal(z), im = cimag(z);
-    return sqrt(re * re + im * im);
 }
 
 /* Whether |phase(y) - phase(y0)|, wrapped into [0, pi], exceeds pi/2: the same as
@@ -260,93 +253,145 @@ static bool phase_reversed(double complex y, double complex y0)
     return creal(y) * creal(y0) + cimag(y) * cimag(y0) < 0;
 }
 
-/* One baseband sample y (envelope |y|), its input sample x and aligned reference a. */
-static void envelope_sample(ml_am *q, double complex y, double complex x, double a)
+/* Overmodulation events and positive excursions of n envelope samples e (baseband y, lowest
+ * oversampled value of each sample's interval low). A "low run" is a stretch below 10 % of C.
+ * When it ends, a carrier phase that differs by more than 90 degrees from before the run means
+ * the envelope passed through zero with a phase reversal; otherwise a run that reached below
+ * pinch_rel * C is a carrier pinch-off. A reversal so fast that no sample falls in a run shows as
+ * a phase jump of more than 90 degrees between two consecutive samples below 50 % of C
+ * [haykin:2001]. */
+static void events(ml_am *q, const double complex *y, const double *e, const double *low, size_t n)
 {
-    const double e = mag(y);
-    q->blk_env[q->block_fill] = e;
-    q->blk_in[q->block_fill] = x;
-    /* oversampled values of the interval h[1]..h[2]: the complex baseband is interpolated
-     * [catmull:1974] and then its magnitude taken, so the V of a phase reversal keeps its zero */
-    q->h[0] = q->h[1];
-    q->h[1] = q->h[2];
-    q->h[2] = q->h[3];
-    q->h[3] = y;
-    double lowest = e;
-    if (q->produced >= 3) {
-        const double complex p0 = q->h[0], p1 = q->h[1], p2 = q->h[2], p3 = q->h[3];
-        /* the cubic's coefficients once per interval (complex times real: no complex product) */
-        const double complex c0 = 2.0 * p1, c1 = -p0 + p2, c2 = 2.0 * p0 - 5.0 * p1 + 4.0 * p2 - p3,
-                             c3 = -p0 + 3.0 * p1 - 3.0 * p2 + p3;
-        /* the four values first (independent: the square roots overlap), then their extremes */
-        double v[OVERSAMPLE];
-        for (int k = 0; k < OVERSAMPLE; k++) {
-            const double t = (double)k / OVERSAMPLE, t2 = t * t, t3 = t2 * t;
-            const double re = 0.5 * (creal(c0) + creal(c1) * t + creal(c2) * t2 + creal(c3) * t3);
-            const double im = 0.5 * (cimag(c0) + cimag(c1) * t + cimag(c2) * t2 + cimag(c3) * t3);
-            v[k] = sqrt(re * re + im * im);
-        }
-        double hi = q->emax_abs, lo = q->emin_abs;
-        double *pend = q->pending + q->npending;
-        for (int k = 0; k < OVERSAMPLE; k++) {
-            hi = v[k] > hi ? v[k] : hi;
-            lo = v[k] < lo ? v[k] : lo;
-            lowest = v[k] < lowest ? v[k] : lowest;
-            pend[k] = v[k];
-        }
-        q->emax_abs = hi;
-        q->emin_abs = lo;
-        q->npending += OVERSAMPLE;
-    }
-    q->produced++;
-    q->sum_all += e;
-    q->block_sum += e;
-    q->block_sumsq += e * e;
-    if (++q->block_fill == q->block_len)
-        end_block(q);
-
-    /* Overmodulation events. A "low run" is a stretch below 10 % of C. When it ends, a carrier
-     * phase that differs by more than 90 degrees from before the run means the envelope passed
-     * through zero with a phase reversal; otherwise a run that reached below pinch_rel * C is a
-     * carrier pinch-off. A reversal so fast that no sample falls in a run shows as a phase jump of
-     * more than 90 degrees between two consecutive samples below 50 % of C [haykin:2001]. */
-    if (e < q->thr_good) {
-        if (!q->in_low) {
-            q->in_low = true;
-            q->low_min = INFINITY;
-            q->y_before = q->have_prev ? q->prev_y : y;
-        }
-        if (lowest < q->low_min)
-            q->low_min = lowest;
-    } else {
-        if (q->in_low) {
-            if (phase_reversed(y, q->y_before))
+    const double half = 0.5 * q->cfg.carrier_ref;
+    for (size_t i = 0; i < n; i++) {
+        if (e[i] < q->thr_good) {
+            if (!q->in_low) {
+                q->in_low = true;
+                q->low_min = INFINITY;
+                q->y_before = q->have_prev ? q->prev_y : y[i];
+            }
+            if (low[i] < q->low_min)
+                q->low_min = low[i];
+        } else if (q->in_low) {
+            if (phase_reversed(y[i], q->y_before))
                 q->reversal_events++;
             else if (q->low_min < q->thr_in)
                 q->pinch_events++;
             q->in_low = false;
-        } else if (q->have_prev && q->prev_env < 0.5 * q->cfg.carrier_ref && e < 0.5 * q->cfg.carrier_ref
-                   && phase_reversed(y, q->prev_y)) {
+        } else if (q->have_prev && q->prev_env < half && e[i] < half && phase_reversed(y[i], q->prev_y)) {
             q->reversal_events++;
         }
+        q->prev_env = e[i];
+        q->prev_y = y[i];
+        q->have_prev = true;
+        if (!q->in_pos && e[i] > q->thr_pos_in) {
+            q->in_pos = true;
+            q->positive_over++;
+        } else if (q->in_pos && e[i] < q->thr_pos_out) {
+            q->in_pos = false;
+        }
     }
-    q->prev_env = e;
-    q->prev_y = y;
-    q->have_prev = true;
-    if (!q->in_pos && e > q->thr_pos_in) {
-        q->in_pos = true;
-        q->positive_over++;
-    } else if (q->in_pos && e < q->thr_pos_out) {
-        q->in_pos = false;
+}
+
+/* n <= CHUNK clean baseband samples y (input samples x, aligned reference a) that all belong to
+ * the current block: envelope, oversampled envelope, block sums, events, trapezoid sums. */
+static void envelope_run(ml_am *q, const double complex *y, const double complex *x, const float *a, size_t n)
+{
+    double *restrict e = q->env, *restrict low = q->lowest, *restrict v = q->over;
+    const size_t at = *q->out_count + q->block_fill;
+    double *restrict oe = q->out->env + at;
+    double complex *restrict ox = q->out->in + at;
+    double s = 0, ss = 0;
+    for (size_t i = 0; i < n; i++) {
+        const double re = creal(y[i]), im = cimag(y[i]);
+        e[i] = sqrt(re * re + im * im); /* |y| without hypot: far from overflow and underflow */
+        s += e[i];
+        ss += e[i] * e[i];
+        oe[i] = e[i];
+        ox[i] = x[i];
     }
+    q->block_sum += s;
+    q->block_sumsq += ss;
+    /* Oversampled values of the interval y[j-2]..y[j-1] for sample j (from the fourth sample on):
+     * the complex baseband is interpolated [catmull:1974] and then its magnitude taken, so the V
+     * of a phase reversal keeps its zero. */
+    const size_t skip = q->produced >= 3 ? 0 : 3 - (size_t)q->produced < n ? 3 - (size_t)q->produced : n;
+    for (size_t i = 0; i < skip; i++)
+        low[i] = e[i];
+    double hi = q->emax_abs, lo = q->emin_abs;
+    uint16_t *restrict bins = q->pending + q->npending;
+    const double hs = q->hist_scale;
+    for (size_t i = skip; i < n; i++) {
+        const double complex p0 = i >= 3 ? y[i - 3] : q->h[i], p1 = i >= 2 ? y[i - 2] : q->h[i + 1],
+                             p2 = i >= 1 ? y[i - 1] : q->h[2], p3 = y[i];
+        /* the cubic's coefficients once per interval (complex times real: no complex product) */
+        const double c0r = 2.0 * creal(p1), c1r = creal(p2) - creal(p0),
+                     c2r = 2.0 * creal(p0) - 5.0 * creal(p1) + 4.0 * creal(p2) - creal(p3),
+                     c3r = -creal(p0) + 3.0 * creal(p1) - 3.0 * creal(p2) + creal(p3);
+        const double c0i = 2.0 * cimag(p1), c1i = cimag(p2) - cimag(p0),
+                     c2i = 2.0 * cimag(p0) - 5.0 * cimag(p1) + 4.0 * cimag(p2) - cimag(p3),
+                     c3i = -cimag(p0) + 3.0 * cimag(p1) - 3.0 * cimag(p2) + cimag(p3);
+        double m = e[i];
+        for (int k = 0; k < OVERSAMPLE; k++) {
+            const double t = (double)k / OVERSAMPLE, t2 = t * t, t3 = t2 * t;
+            const double re = 0.5 * (c0r + c1r * t + c2r * t2 + c3r * t3);
+            const double im = 0.5 * (c0i + c1i * t + c2i * t2 + c3i * t3);
+            const double val = sqrt(re * re + im * im);
+            v[OVERSAMPLE * i + k] = val;
+            m = val < m ? val : m;
+        }
+        low[i] = m;
+    }
+    const size_t nv = OVERSAMPLE * (n - skip);
+    const double *restrict vv = v + OVERSAMPLE * skip;
+    /* extremes in OVERSAMPLE lanes (nv is a multiple): no reduction across a vector register */
+    double hl[OVERSAMPLE], ll[OVERSAMPLE];
+    for (int k = 0; k < OVERSAMPLE; k++) {
+        hl[k] = hi;
+        ll[k] = lo;
+    }
+    for (size_t i = 0; i < nv; i += OVERSAMPLE)
+        for (int k = 0; k < OVERSAMPLE; k++) {
+            hl[k] = vv[i + k] > hl[k] ? vv[i + k] : hl[k];
+            ll[k] = vv[i + k] < ll[k] ? vv[i + k] : ll[k];
+        }
+    for (int k = 0; k < OVERSAMPLE; k++) {
+        hi = hl[k] > hi ? hl[k] : hi;
+        lo = ll[k] < lo ? ll[k] : lo;
+    }
+    for (size_t i = 0; i < nv; i++) {
+        const double b = vv[i] * hs; /* clamped to the histogram; a NaN lands in bin 0 */
+        bins[i] = (uint16_t)(int32_t)(b > 0 ? (b < HIST_BINS - 1 ? b : HIST_BINS - 1) : 0);
+    }
+    q->emax_abs = hi;
+    q->emin_abs = lo;
+    q->npending += nv;
+    /* the last three baseband samples carry over */
+    for (size_t i = 0; i < 3; i++) {
+        const size_t back = 3 - i; /* h[i] = the sample `back` before the end */
+        q->h[i] = back <= n ? y[n - back] : q->h[i + n];
+    }
+    q->produced += n;
+    events(q, y, e, low, n);
     if (q->cfg.has_reference) {
-        q->sa += a;
-        q->se += e;
-        q->saa += a * a;
-        q->sae += a * e;
-        q->see += e * e;
-        q->ntrap++;
+        double sa = 0, se = 0, saa = 0, sae = 0, see = 0;
+        for (size_t i = 0; i < n; i++) {
+            sa += a[i];
+            se += e[i];
+            saa += (double)a[i] * a[i];
+            sae += a[i] * e[i];
+            see += e[i] * e[i];
+        }
+        q->sa += sa;
+        q->se += se;
+        q->saa += saa;
+        q->sae += sae;
+        q->see += see;
+        q->ntrap += n;
     }
+    q->block_fill += n;
+    if (q->block_fill == q->block_len)
+        end_block(q);
 }
 
 size_t ml_am_output_cap(const ml_am *q, size_t n)
@@ -365,8 +410,22 @@ static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
            && out->cap >= ml_am_output_cap(q, n);
 }
 
+/* Copies n samples into a delay ring of len at pos, and out the n that entered `delay` earlier. */
+#define DELAY(RING, LEN, POS, DELAY_, SRC, DST, N, ZERO)                                           \
+    do {                                                                                           \
+        size_t w_ = (POS), r_ = (POS) >= (DELAY_) ? (POS) - (DELAY_) : (POS) + (LEN) - (DELAY_);   \
+        for (size_t i_ = 0; i_ < (N); i_++) {                                                      \
+            (RING)[w_] = (SRC) ? (SRC)[i_] : (ZERO);                                               \
+            w_ = w_ + 1 == (LEN) ? 0 : w_ + 1;                                                     \
+        }                                                                                          \
+        for (size_t i_ = 0; i_ < (N); i_++) {                                                      \
+            (DST)[i_] = (RING)[r_];                                                                \
+            r_ = r_ + 1 == (LEN) ? 0 : r_ + 1;                                                     \
+        }                                                                                          \
+    } while (0)
+
 /* Runs n input samples (z == NULL: zeros, for the final flush) through mixer, filter and delay
- * lines, and the clean outputs through envelope_sample. */
+ * lines, and the clean outputs through envelope_run, cut at block ends. */
 static ml_status process(ml_am *q, const double complex *z, const float *ref, size_t n)
 {
     const double f = q->cfg.carrier_hz / q->cfg.rate_hz;
@@ -374,50 +433,66 @@ static ml_status process(ml_am *q, const double complex *z, const float *ref, si
     size_t done = 0;
     while (done < n) {
         size_t m = n - done < CHUNK ? n - done : CHUNK;
-        /* mixer: exact phase from the sample index each chunk, a rotator within it */
-        double cyc = fmod((double)q->in_count * f, 1.0);
-        double complex rot = cexp(-2.0 * ML_PI * I * cyc) * gain;
-        const double complex step = cexp(-2.0 * ML_PI * I * f);
-        /* products written out: C's complex '*' also handles infinities (C11 Annex G), which
-         * costs a call per sample; these operands are always finite */
-        const double sr = creal(step), si = cimag(step);
-        double rr = creal(rot), ri = cimag(rot);
-        for (size_t i = 0; i < m; i++) {
-            if (z) {
-                const double zr = creal(z[done + i]), zi = cimag(z[done + i]);
+        const double complex *zc = z ? z + done : NULL;
+        /* mixer: the chunk's start phase exactly from the sample index, times a table within it
+         * (products written out: C's complex '*' also handles infinities, C11 Annex G, at a call
+         * per sample; these operands are always finite) */
+        const double complex r0 = cexp(-2.0 * ML_PI * I * fmod((double)q->in_count * f, 1.0)) * gain;
+        const double r0r = creal(r0), r0i = cimag(r0);
+        if (zc) {
+            for (size_t i = 0; i < m; i++) {
+                const double tr = creal(q->rot[i]), ti = cimag(q->rot[i]);
+                const double rr = r0r * tr - r0i * ti, ri = r0r * ti + r0i * tr;
+                const double zr = creal(zc[i]), zi = cimag(zc[i]);
                 q->mixed[i] = CMPLX(zr * rr - zi * ri, zr * ri + zi * rr);
-            } else {
-                q->mixed[i] = 0.0;
             }
-            const double nr = rr * sr - ri * si;
-            ri = rr * si + ri * sr;
-            rr = nr;
+        } else {
+            memset(q->mixed, 0, m * sizeof *q->mixed);
         }
         ml_status st = ml_cfir_push(q->filter, q->mixed, m, q->filtered);
         if (st != ML_OK)
             return st;
-        for (size_t i = 0; i < m; i++) {
-            uint64_t t = q->in_count + i; /* input index of this output: t - latency */
-            /* the rings hold the last ref_len samples; the one latency ago lines up */
-            const size_t old = q->ref_pos + 1 == q->ref_len ? 0 : q->ref_pos + 1;
-            float a = 0.0f;
-            if (q->cfg.has_reference) {
-                q->ref_ring[q->ref_pos] = ref ? ref[done + i] : 0.0f;
-                a = q->ref_ring[old];
-            }
-            q->in_ring[q->ref_pos] = z ? z[done + i] : 0.0;
-            const double complex x = q->in_ring[old];
-            q->ref_pos = old;
-            /* output t is input t - latency; it is only clean once the filter's past half holds
-             * input, i.e. from input index startup on */
-            if (t < q->latency + q->startup)
-                continue;
-            envelope_sample(q, q->filtered[i], x, a);
+        /* output t is input t - latency: the delay lines line up its input and reference */
+        DELAY(q->in_ring, q->dly_len, q->dly_pos, q->latency, zc, q->delayed, m, 0.0);
+        if (q->cfg.has_reference) {
+            const float *rc = ref ? ref + done : NULL;
+            DELAY(q->ref_ring, q->dly_len, q->dly_pos, q->latency, rc, q->ref_delayed, m, 0.0f);
+        }
+        q->dly_pos = (q->dly_pos + m) % q->dly_len;
+        /* it is only clean once the filter's past half holds input, i.e. from input index
+         * startup on: outputs with t < latency + startup are left out */
+        const uint64_t clean = q->latency + q->startup;
+        size_t i = q->in_count >= clean ? 0 : clean - q->in_count < m ? (size_t)(clean - q->in_count) : m;
+        while (i < m) {
+            size_t k = m - i, room = q->block_len - q->block_fill;
+            if (k > room)
+                k = room;
+            envelope_run(q, q->filtered + i, q->delayed + i, q->ref_delayed + i, k);
+            i += k;
         }
         q->in_count += m;
         done += m;
     }
     return ML_OK;
+}
+
+/* A push or finish begins: the incomplete block carried over goes to the start of the output. */
+static void begin_output(ml_am *q, const ml_am_output *out, size_t *count)
+{
+    *count = 0;
+    q->out = out;
+    q->out_count = count;
+    memcpy(out->env, q->blk_env, q->block_fill * sizeof *out->env);
+    memcpy(out->in, q->blk_in, q->block_fill * sizeof *out->in);
+}
+
+/* ... and ends: an incomplete block is kept for the next one. */
+static void end_output(ml_am *q)
+{
+    memcpy(q->blk_env, q->out->env + *q->out_count, q->block_fill * sizeof *q->blk_env);
+    memcpy(q->blk_in, q->out->in + *q->out_count, q->block_fill * sizeof *q->blk_in);
+    q->out = NULL;
+    q->out_count = NULL;
 }
 
 ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
@@ -426,12 +501,9 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
     if (q == NULL || count == NULL || !output_ok(q, out, n) || (n > 0 && z == NULL)
         || (q->cfg.has_reference && n > 0 && ref == NULL) || q->finished)
         return ML_EINVAL;
-    *count = 0;
-    q->out = out;
-    q->out_count = count;
+    begin_output(q, out, count);
     ml_status st = process(q, z, ref, n);
-    q->out = NULL;
-    q->out_count = NULL;
+    end_output(q);
     return st;
 }
 
@@ -439,17 +511,14 @@ ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count)
 {
     if (q == NULL || count == NULL || !output_ok(q, out, 0) || q->finished)
         return ML_EINVAL;
-    *count = 0;
-    q->out = out;
-    q->out_count = count;
+    begin_output(q, out, count);
     /* Flush: latency - startup zeros bring out the envelope of the inputs up to n - startup - 1,
      * the last whose filter window lies wholly inside the input; later ones would see the zeros. */
     ml_status st = process(q, NULL, NULL, q->latency - q->startup);
     if (st == ML_OK)
         end_block(q);
+    end_output(q);
     q->finished = true;
-    q->out = NULL;
-    q->out_count = NULL;
     return st;
 }
 
@@ -483,8 +552,9 @@ ml_status ml_am_get_result(const ml_am *q, ml_am_result *out)
     out->mean_modulated = q->n_mod ? q->sum_mod / (double)q->n_mod : 0.0;
     out->mean_quiet = q->n_quiet ? q->sum_quiet / (double)q->n_quiet : 0.0;
     const bool use_mod = q->hist_mod_n > 0;
-    const uint64_t *h = use_mod ? q->hist_mod : q->hist_all;
-    const uint64_t tot = use_mod ? q->hist_mod_n : q->hist_all_n;
+    /* without modulated blocks every block was quiet: all of them are the quiet ones */
+    const uint64_t *h = use_mod ? q->hist_mod : q->hist_quiet;
+    const uint64_t tot = use_mod ? q->hist_mod_n : q->hist_quiet_n;
     /* hold_s per second of signal is the share of time a level must be exceeded to count */
     out->emax = quantile(h, tot, 1.0 - q->cfg.hold_s, q->hist_scale);
     out->emin = quantile(h, tot, q->cfg.hold_s, q->hist_scale);
@@ -514,7 +584,8 @@ ml_status ml_am_get_result(const ml_am *q, ml_am_result *out)
 
 double ml_am_fraction_below(const ml_am *q, double level)
 {
-    if (q == NULL || q->hist_all_n == 0)
+    const uint64_t total = q ? q->hist_quiet_n + q->hist_mod_n : 0;
+    if (total == 0)
         return 0.0;
     double v = level * q->hist_scale;
     if (v <= 0)
@@ -522,8 +593,8 @@ double ml_am_fraction_below(const ml_am *q, double level)
     size_t b = v >= HIST_BINS ? HIST_BINS : (size_t)v;
     double cum = 0.0;
     for (size_t i = 0; i < b; i++)
-        cum += (double)q->hist_all[i];
+        cum += (double)(q->hist_quiet[i] + q->hist_mod[i]);
     if (b < HIST_BINS)
-        cum += (v - (double)b) * (double)q->hist_all[b];
-    return cum / (double)q->hist_all_n;
+        cum += (v - (double)b) * (double)(q->hist_quiet[b] + q->hist_mod[b]);
+    return cum / (double)total;
 }

@@ -26,29 +26,62 @@ void ml_stats_reset(ml_stats *q)
     q->clip_lo = lo;
 }
 
+#define LANES ML_STATS_LANES
+
 void ml_stats_push(ml_stats *q, const float *x, size_t n)
 {
-    for (size_t i = 0; i < n; i++) {
-        double v = x[i];
-        if (!isfinite(v)) {
+    double *restrict s = q->lane_sum, *restrict ss = q->lane_sumsq;
+    size_t i = 0;
+    while (i < n) {
+        /* a run of finite samples goes through the lanes (which vectorise); a non-finite one is
+         * counted and skipped */
+        size_t end = i;
+        while (end < n && isfinite(x[end]))
+            end++;
+        if (end > i && q->count == 0)
+            q->min = q->max = x[i];
+        double lo[LANES], hi[LANES];
+        uint64_t cl[LANES] = {0};
+        for (int k = 0; k < LANES; k++) {
+            lo[k] = q->min;
+            hi[k] = q->max;
+        }
+        const double chi = q->clip_hi, clo = q->clip_lo;
+        size_t j = i, lane = (size_t)(q->count % LANES);
+#define ML_STATS_ADD(k, v)                                                                             do {                                                                                                   s[k] += (v);                                                                                       ss[k] += (v) * (v);                                                                                lo[k] = (v) < lo[k] ? (v) : lo[k];                                                                 hi[k] = (v) > hi[k] ? (v) : hi[k];                                                                 cl[k] += (v) >= chi || (v) <= clo;                                                             } while (0)
+        for (; j < end && lane != 0; j++, lane = (lane + 1) % LANES) {
+            const double v = x[j];
+            ML_STATS_ADD(lane, v);
+        }
+        for (; j + LANES <= end; j += LANES)
+            for (int k = 0; k < LANES; k++) {
+                const double v = x[j + k];
+                ML_STATS_ADD(k, v);
+            }
+        for (int k = 0; j < end; j++, k++) {
+            const double v = x[j];
+            ML_STATS_ADD(k, v);
+        }
+#undef ML_STATS_ADD
+        for (int k = 0; k < LANES; k++) {
+            q->min = lo[k] < q->min ? lo[k] : q->min;
+            q->max = hi[k] > q->max ? hi[k] : q->max;
+            q->clipped += cl[k];
+        }
+        q->count += end - i;
+        i = end;
+        if (i < n) {
             q->nonfinite++;
-            continue;
+            i++;
         }
-        if (q->count == 0) {
-            q->min = v;
-            q->max = v;
-        } else {
-            if (v < q->min)
-                q->min = v;
-            if (v > q->max)
-                q->max = v;
-        }
-        q->count++;
-        q->sum += v;
-        q->sumsq += v * v;
-        if (v >= q->clip_hi || v <= q->clip_lo)
-            q->clipped++;
     }
+    double sum = 0, sumsq = 0;
+    for (int k = 0; k < LANES; k++) {
+        sum += s[k];
+        sumsq += ss[k];
+    }
+    q->sum = sum;
+    q->sumsq = sumsq;
 }
 
 double ml_stats_mean(const ml_stats *q)

@@ -20,7 +20,11 @@ typedef struct {
     double sum;          /* sum of samples                                          */
     double sumsq;        /* sum of squared samples                                  */
     double min, max;     /* extremes (0 before the first sample)                    */
+    /* partial sums: finite sample k goes to lane k % ML_STATS_LANES, and sum and sumsq are the
+     * lanes added in order, so they do not depend on how the samples were split into pushes */
+    double lane_sum[8], lane_sumsq[8];
 } ml_stats;
+#define ML_STATS_LANES 8
 
 /* Clip thresholds for samples normalised to +-1.0 full scale with `bits` bits of resolution
  * (1 LSB = 2^(1-bits)): clipped means at or within 1 LSB of either full-scale code, that is
