@@ -33,7 +33,9 @@ struct ml_am {
     double complex rot[CHUNK]; /* exp(-2 pi i f k), k < CHUNK: the mixer within a chunk    */
     float ref_delayed[CHUNK];
     double env[CHUNK], lowest[CHUNK];
-    double over[OVERSAMPLE * CHUNK];
+    double yr[CHUNK + 3], yi[CHUNK + 3]; /* baseband behind the three samples before         */
+    double over[OVERSAMPLE * CHUNK];     /* oversampled envelope: OVERSAMPLE rows of CHUNK     */
+    double vmin[CHUNK], vmax[CHUNK];     /* their extremes per sample                          */
     /* delay lines of dly_len >= latency + CHUNK samples: reference channel and input */
     float *ref_ring;
     double complex *in_ring;
@@ -295,7 +297,7 @@ static void events(ml_am *q, const double complex *y, const double *e, const dou
 
 /* n <= CHUNK clean baseband samples y (input samples x, aligned reference a) that all belong to
  * the current block: envelope, oversampled envelope, block sums, events, trapezoid sums. */
-static void envelope_run(ml_am *q, const double complex *y, const double complex *x, const float *a, size_t n)
+ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double complex *x, const float *a, size_t n)
 {
     double *restrict e = q->env, *restrict low = q->lowest, *restrict v = q->over;
     const size_t at = *q->out_count + q->block_fill;
@@ -314,54 +316,81 @@ static void envelope_run(ml_am *q, const double complex *y, const double complex
     q->block_sumsq += ss;
     /* Oversampled values of the interval y[j-2]..y[j-1] for sample j (from the fourth sample on):
      * the complex baseband is interpolated [catmull:1974] and then its magnitude taken, so the V
-     * of a phase reversal keeps its zero. */
+     * of a phase reversal keeps its zero. The baseband goes into separate real and imaginary
+     * arrays behind the three samples before, and each of the OVERSAMPLE values into its own
+     * array, so that the loop runs across samples in vector registers. */
     const size_t skip = q->produced >= 3 ? 0 : 3 - (size_t)q->produced < n ? 3 - (size_t)q->produced : n;
-    for (size_t i = 0; i < skip; i++)
-        low[i] = e[i];
-    double hi = q->emax_abs, lo = q->emin_abs;
-    uint16_t *restrict bins = q->pending + q->npending;
-    const double hs = q->hist_scale;
-    for (size_t i = skip; i < n; i++) {
-        const double complex p0 = i >= 3 ? y[i - 3] : q->h[i], p1 = i >= 2 ? y[i - 2] : q->h[i + 1],
-                             p2 = i >= 1 ? y[i - 1] : q->h[2], p3 = y[i];
-        /* the cubic's coefficients once per interval (complex times real: no complex product) */
-        const double c0r = 2.0 * creal(p1), c1r = creal(p2) - creal(p0),
-                     c2r = 2.0 * creal(p0) - 5.0 * creal(p1) + 4.0 * creal(p2) - creal(p3),
-                     c3r = -creal(p0) + 3.0 * creal(p1) - 3.0 * creal(p2) + creal(p3);
-        const double c0i = 2.0 * cimag(p1), c1i = cimag(p2) - cimag(p0),
-                     c2i = 2.0 * cimag(p0) - 5.0 * cimag(p1) + 4.0 * cimag(p2) - cimag(p3),
-                     c3i = -cimag(p0) + 3.0 * cimag(p1) - 3.0 * cimag(p2) + cimag(p3);
-        double m = e[i];
-        for (int k = 0; k < OVERSAMPLE; k++) {
-            const double t = (double)k / OVERSAMPLE, t2 = t * t, t3 = t2 * t;
-            const double re = 0.5 * (c0r + c1r * t + c2r * t2 + c3r * t3);
-            const double im = 0.5 * (c0i + c1i * t + c2i * t2 + c3i * t3);
-            const double val = sqrt(re * re + im * im);
-            v[OVERSAMPLE * i + k] = val;
-            m = val < m ? val : m;
-        }
-        low[i] = m;
+    double *restrict yr = q->yr, *restrict yi = q->yi;
+    for (size_t i = 0; i < 3; i++) {
+        yr[i] = creal(q->h[i]);
+        yi[i] = cimag(q->h[i]);
     }
-    const size_t nv = OVERSAMPLE * (n - skip);
-    const double *restrict vv = v + OVERSAMPLE * skip;
-    /* extremes in OVERSAMPLE lanes (nv is a multiple): no reduction across a vector register */
-    double hl[OVERSAMPLE], ll[OVERSAMPLE];
-    for (int k = 0; k < OVERSAMPLE; k++) {
+    for (size_t i = 0; i < n; i++) {
+        yr[i + 3] = creal(y[i]);
+        yi[i + 3] = cimag(y[i]);
+    }
+    double *restrict v0 = v, *restrict v1 = v + CHUNK, *restrict v2 = v + 2 * CHUNK, *restrict v3 = v + 3 * CHUNK;
+    double *restrict vmin = q->vmin, *restrict vmax = q->vmax;
+    for (size_t i = skip; i < n; i++) {
+        /* the cubic's coefficients once per interval (complex times real: no complex product) */
+        const double c0r = 2.0 * yr[i + 1], c1r = yr[i + 2] - yr[i],
+                     c2r = 2.0 * yr[i] - 5.0 * yr[i + 1] + 4.0 * yr[i + 2] - yr[i + 3],
+                     c3r = -yr[i] + 3.0 * yr[i + 1] - 3.0 * yr[i + 2] + yr[i + 3];
+        const double c0i = 2.0 * yi[i + 1], c1i = yi[i + 2] - yi[i],
+                     c2i = 2.0 * yi[i] - 5.0 * yi[i + 1] + 4.0 * yi[i + 2] - yi[i + 3],
+                     c3i = -yi[i] + 3.0 * yi[i + 1] - 3.0 * yi[i + 2] + yi[i + 3];
+#define ML_AM_OVER(K, OUT)                                                                        \
+    do {                                                                                           \
+        const double t = (double)(K) / OVERSAMPLE, t2 = t * t, t3 = t2 * t;                        \
+        const double re = 0.5 * (c0r + c1r * t + c2r * t2 + c3r * t3);                             \
+        const double im = 0.5 * (c0i + c1i * t + c2i * t2 + c3i * t3);                             \
+        (OUT)[i] = sqrt(re * re + im * im);                                                        \
+    } while (0)
+        ML_AM_OVER(0, v0);
+        ML_AM_OVER(1, v1);
+        ML_AM_OVER(2, v2);
+        ML_AM_OVER(3, v3);
+#undef ML_AM_OVER
+        const double lo01 = v0[i] < v1[i] ? v0[i] : v1[i], lo23 = v2[i] < v3[i] ? v2[i] : v3[i];
+        const double hi01 = v0[i] > v1[i] ? v0[i] : v1[i], hi23 = v2[i] > v3[i] ? v2[i] : v3[i];
+        vmin[i] = lo01 < lo23 ? lo01 : lo23;
+        vmax[i] = hi01 > hi23 ? hi01 : hi23;
+    }
+    for (size_t i = 0; i < skip; i++) /* no interval yet: the sample alone */
+        vmin[i] = vmax[i] = e[i];
+    for (size_t i = 0; i < n; i++)
+        low[i] = e[i] < vmin[i] ? e[i] : vmin[i];
+    /* extremes in lanes: no reduction across a vector register */
+    enum { L = 4 };
+    double hi = q->emax_abs, lo = q->emin_abs, hl[L], ll[L];
+    for (int k = 0; k < L; k++) {
         hl[k] = hi;
         ll[k] = lo;
     }
-    for (size_t i = 0; i < nv; i += OVERSAMPLE)
-        for (int k = 0; k < OVERSAMPLE; k++) {
-            hl[k] = vv[i + k] > hl[k] ? vv[i + k] : hl[k];
-            ll[k] = vv[i + k] < ll[k] ? vv[i + k] : ll[k];
+    size_t i = skip;
+    for (; i + L <= n; i += L)
+        for (int k = 0; k < L; k++) {
+            hl[k] = vmax[i + k] > hl[k] ? vmax[i + k] : hl[k];
+            ll[k] = vmin[i + k] < ll[k] ? vmin[i + k] : ll[k];
         }
-    for (int k = 0; k < OVERSAMPLE; k++) {
+    for (; i < n; i++) {
+        hi = vmax[i] > hi ? vmax[i] : hi;
+        lo = vmin[i] < lo ? vmin[i] : lo;
+    }
+    for (int k = 0; k < L; k++) {
         hi = hl[k] > hi ? hl[k] : hi;
         lo = ll[k] < lo ? ll[k] : lo;
     }
-    for (size_t i = 0; i < nv; i++) {
-        const double b = vv[i] * hs; /* clamped to the histogram; a NaN lands in bin 0 */
-        bins[i] = (uint16_t)(int32_t)(b > 0 ? (b < HIST_BINS - 1 ? b : HIST_BINS - 1) : 0);
+    uint16_t *restrict bins = q->pending + q->npending;
+    const double hs = q->hist_scale;
+    const size_t nv = OVERSAMPLE * (n - skip);
+    for (int k = 0; k < OVERSAMPLE; k++) {
+        const double *restrict vk = v + (size_t)k * CHUNK;
+        uint16_t *restrict bk = bins + (size_t)k * (n - skip);
+        for (size_t j = skip; j < n; j++) {
+            const double b = vk[j] * hs; /* clamped to the histogram; a NaN lands in bin 0 */
+            bk[j - skip] = (uint16_t)(int32_t)(b > 0 ? (b < HIST_BINS - 1 ? b : HIST_BINS - 1) : 0);
+        }
     }
     q->emax_abs = hi;
     q->emin_abs = lo;
@@ -426,7 +455,7 @@ static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
 
 /* Runs n input samples (z == NULL: zeros, for the final flush) through mixer, filter and delay
  * lines, and the clean outputs through envelope_run, cut at block ends. */
-static ml_status process(ml_am *q, const double complex *z, const float *ref, size_t n)
+ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *ref, size_t n)
 {
     const double f = q->cfg.carrier_hz / q->cfg.rate_hz;
     const double gain = q->cfg.complex_input ? 1.0 : 2.0;

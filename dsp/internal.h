@@ -14,6 +14,22 @@
 #define CMPLX(x, y) __builtin_complex((double)(x), (double)(y))
 #endif
 
+/* Hot per-sample loops get an AVX2 version beside the baseline one, chosen when the program
+ * starts (an ifunc): the same operations in wider registers, so the same results (ISO C mode
+ * contracts no multiply-add). Off where the compiler or target lacks it, and under the
+ * sanitizers and the fuzzer, which instrument one version only. */
+#ifdef __has_feature
+#define ML_HAS_FEATURE(x) __has_feature(x)
+#else
+#define ML_HAS_FEATURE(x) 0
+#endif
+#if defined(__x86_64__) && defined(__GNUC__) && !defined(ML_NO_CLONES) && !defined(__SANITIZE_ADDRESS__) \
+    && !ML_HAS_FEATURE(address_sanitizer) && !ML_HAS_FEATURE(undefined_behavior_sanitizer)
+#define ML_HOT __attribute__((target_clones("avx2", "default")))
+#else
+#define ML_HOT
+#endif
+
 /* 10*log10(x) with a floor so that zero power gives a finite, very low number. */
 double ml_db10(double x);
 

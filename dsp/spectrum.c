@@ -184,7 +184,7 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
 /* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
  * all segments, and to the selected ones when sel (with psel: the previous segment was selected
  * too). One pass over the bins: the arrays are larger than the caches for long transforms. */
-static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex *prev, int sel, int psel)
+ML_HOT static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex *prev, int sel, int psel)
 {
     const size_t nb = q->nbins;
     if (q->cfg.complex_input) {
@@ -201,7 +201,7 @@ static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex
 }
 
 /* Transform the full buffer: accumulate power and the cross-spectrum with the previous segment. */
-static void transform(ml_spectrum *q)
+ML_HOT static void transform(ml_spectrum *q)
 {
     const size_t n = q->cfg.nfft;
     const int cplx = q->cfg.complex_input;

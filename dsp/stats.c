@@ -6,6 +6,8 @@
 #include <math.h>
 #include <string.h>
 
+#include "dsp/internal.h"
+
 ml_status ml_stats_init(ml_stats *q, int bits)
 {
     if (q == NULL || bits < 2 || bits > 32)
@@ -28,7 +30,7 @@ void ml_stats_reset(ml_stats *q)
 
 #define LANES ML_STATS_LANES
 
-void ml_stats_push(ml_stats *q, const float *x, size_t n)
+ML_HOT void ml_stats_push(ml_stats *q, const float *x, size_t n)
 {
     double *restrict s = q->lane_sum, *restrict ss = q->lane_sumsq;
     size_t i = 0;
