@@ -350,6 +350,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     rc_cfg.nfft = ml_measure_nfft(rate, seg->nframes);
     rc_cfg.hop = rc_cfg.nfft / 2;
     rc_cfg.complex_input = iq;
+    rc_cfg.single_precision = iq; /* the largest transform; its rounding is far below any figure */
     ml_am_config ac_cfg = ml_am_config_default(rate, iq, fc, bw, c_prov);
     ac_cfg.transition_hz = transition;
     ac_cfg.hold_s = o->peak_hold_ms / 1000.0;

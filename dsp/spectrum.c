@@ -43,6 +43,9 @@ struct ml_spectrum {
     double enbw;
     size_t segments;
     fftw_plan plan;
+    /* single precision (complex input only): the transform in float, accumulated in double */
+    fftwf_complex *fcin, *fout, *fprev;
+    fftwf_plan fplan;
     ml_spectrum_segment_fn hook; /* called after each transform, or NULL                */
     void *hook_ctx;
 };
@@ -70,7 +73,7 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     *out = NULL;
     if (cfg == NULL || !is_pow2(cfg->nfft) || cfg->nfft < 16 || cfg->nfft > ((size_t)1 << 24)
         || cfg->hop == 0 || cfg->hop > cfg->nfft || !(cfg->rate_hz > 0) || !isfinite(cfg->rate_hz)
-        || (unsigned)cfg->window >= ML_WINDOW_COUNT)
+        || (unsigned)cfg->window >= ML_WINDOW_COUNT || (cfg->single_precision && !cfg->complex_input))
         return ML_EINVAL;
     ml_status st = ML_ENOMEM;
     ml_spectrum *q = calloc(1, sizeof *q);
@@ -81,15 +84,26 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     const int cplx = q->cfg.complex_input;
     q->nbins = cplx ? cfg->nfft : cfg->nfft / 2 + 1;
     q->win = malloc(cfg->nfft * sizeof *q->win);
-    if (cplx) {
+    const int single = cfg->single_precision ? 1 : 0;
+    q->cfg.single_precision = single;
+    if (single) {
+        q->cbuf = fftw_alloc_complex(cfg->nfft);
+        q->fcin = fftwf_alloc_complex(cfg->nfft);
+        q->fout = fftwf_alloc_complex(q->nbins);
+        q->fprev = fftwf_alloc_complex(q->nbins);
+        if (q->cbuf == NULL || q->fcin == NULL || q->fout == NULL || q->fprev == NULL)
+            goto fail;
+    } else if (cplx) {
         q->cbuf = fftw_alloc_complex(cfg->nfft);
         q->cin = fftw_alloc_complex(cfg->nfft);
     } else {
         q->buf = malloc(cfg->nfft * sizeof *q->buf);
         q->in = fftw_alloc_real(cfg->nfft);
     }
-    q->out = fftw_alloc_complex(q->nbins);
-    q->prev = fftw_alloc_complex(q->nbins);
+    if (!single) {
+        q->out = fftw_alloc_complex(q->nbins);
+        q->prev = fftw_alloc_complex(q->nbins);
+    }
     q->xacc = fftw_alloc_complex(q->nbins);
     q->acc = malloc(q->nbins * sizeof *q->acc);
     q->xsel = fftw_alloc_complex(q->nbins);
@@ -97,15 +111,18 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     q->tags = calloc(cfg->nfft, 1);
     if (q->xsel == NULL || q->sel == NULL || q->tags == NULL)
         goto fail;
-    if (q->win == NULL || (cplx ? (q->cbuf == NULL || q->cin == NULL) : (q->buf == NULL || q->in == NULL))
-        || q->out == NULL || q->prev == NULL || q->xacc == NULL || q->acc == NULL)
+    if (q->win == NULL || q->xacc == NULL || q->acc == NULL
+        || (!single && ((cplx ? (q->cbuf == NULL || q->cin == NULL) : (q->buf == NULL || q->in == NULL))
+                        || q->out == NULL || q->prev == NULL)))
         goto fail;
     st = ML_EFFT;
-    if (cplx)
+    if (single)
+        q->fplan = fftwf_plan_dft_1d((int)cfg->nfft, q->fcin, q->fout, FFTW_FORWARD, FFTW_ESTIMATE);
+    else if (cplx)
         q->plan = fftw_plan_dft_1d((int)cfg->nfft, q->cin, q->out, FFTW_FORWARD, FFTW_ESTIMATE);
     else
         q->plan = fftw_plan_dft_r2c_1d((int)cfg->nfft, q->in, q->out, FFTW_ESTIMATE);
-    if (q->plan == NULL)
+    if (single ? q->fplan == NULL : q->plan == NULL)
         goto fail;
     ml_window_fill(cfg->window, q->win, cfg->nfft);
     double s = 0.0;
@@ -127,6 +144,11 @@ void ml_spectrum_destroy(ml_spectrum *q)
         return;
     if (q->plan != NULL)
         fftw_destroy_plan(q->plan);
+    if (q->fplan != NULL)
+        fftwf_destroy_plan(q->fplan);
+    fftwf_free(q->fcin);
+    fftwf_free(q->fout);
+    fftwf_free(q->fprev);
     free(q->win);
     free(q->buf);
     fftw_free(q->in);
@@ -162,19 +184,17 @@ void ml_spectrum_reset(ml_spectrum *q)
 /* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
  * all segments, and to the selected ones when sel (with psel: the previous segment was selected
  * too). One pass over the bins: the arrays are larger than the caches for long transforms. */
-static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scale, const fftw_complex *x,
-                                  const fftw_complex *prev, int sel, int psel)
+static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scale, double a, double b,
+                                  const double *c, const double *d, int sel, int psel)
 {
-    const double a = creal(x[k]), b = cimag(x[k]);
     const double p = (a * a + b * b) * scale;
     q->acc[k] += p;
     if (sel)
         q->sel[k] += p;
-    if (prev) {
+    if (c) {
         /* X_i conj(X_{i-1}) written out: C's complex product would also handle infinities (C11
          * Annex G) at a call per bin; spectra of finite samples are finite */
-        const double c = creal(prev[k]), d = cimag(prev[k]);
-        const fftw_complex xc = CMPLX(a * c + b * d, b * c - a * d);
+        const fftw_complex xc = CMPLX(a * *c + b * *d, b * *c - a * *d);
         q->xacc[k] += xc;
         if (sel && psel)
             q->xsel[k] += xc;
@@ -183,22 +203,28 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
 
 /* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
  * all segments, and to the selected ones when sel (with psel: the previous segment was selected
- * too). One pass over the bins: the arrays are larger than the caches for long transforms. */
-ML_HOT static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex *prev, int sel, int psel)
-{
-    const size_t nb = q->nbins;
-    if (q->cfg.complex_input) {
-        for (size_t k = 0; k < nb; k++)
-            accumulate_bin(q, k, q->scale, x, prev, sel, psel);
-    } else { /* DC and Nyquist have no mirror image: half the one-sided scale */
-        accumulate_bin(q, 0, 0.5 * q->scale, x, prev, sel, psel);
-        for (size_t k = 1; k + 1 < nb; k++)
-            accumulate_bin(q, k, q->scale, x, prev, sel, psel);
-        accumulate_bin(q, nb - 1, 0.5 * q->scale, x, prev, sel, psel);
+ * too). One pass over the bins: the arrays are larger than the caches for long transforms.
+ * Instantiated for the double and the single precision transforms. */
+#define ML_ACCUMULATE(NAME, T)                                                                    \
+    ML_HOT static void NAME(ml_spectrum *q, const T *x, const T *prev, int sel, int psel)           \
+    {                                                                                              \
+        const size_t nb = q->nbins;                                                                \
+        for (size_t k = 0; k < nb; k++) {                                                          \
+            /* DC and Nyquist of a real signal have no mirror image: half the one-sided scale */  \
+            const double sc = !q->cfg.complex_input && (k == 0 || k + 1 == nb) ? 0.5 * q->scale    \
+                                                                               : q->scale;         \
+            double c = 0, d = 0;                                                                   \
+            if (prev) {                                                                            \
+                c = creal(prev[k]);                                                                \
+                d = cimag(prev[k]);                                                                \
+            }                                                                                      \
+            accumulate_bin(q, k, sc, creal(x[k]), cimag(x[k]), prev ? &c : NULL, &d, sel, psel);   \
+        }                                                                                          \
+        q->segments++;                                                                             \
+        q->nsel += (size_t)(sel != 0);                                                             \
     }
-    q->segments++;
-    q->nsel += (size_t)(sel != 0);
-}
+ML_ACCUMULATE(accumulate, fftw_complex)
+ML_ACCUMULATE(accumulate_f, fftwf_complex)
 
 /* Transform the full buffer: accumulate power and the cross-spectrum with the previous segment. */
 ML_HOT static void transform(ml_spectrum *q)
@@ -206,6 +232,21 @@ ML_HOT static void transform(ml_spectrum *q)
     const size_t n = q->cfg.nfft;
     const int cplx = q->cfg.complex_input;
     const double *restrict w = q->win;
+    const int selected = q->ntagged == n;
+    if (q->cfg.single_precision) {
+        const fftw_complex *restrict src = q->cbuf;
+        float *restrict dst = (float *)q->fcin; /* fftwf_complex is float[2] or float complex */
+        for (size_t i = 0; i < n; i++) {
+            dst[2 * i] = (float)(creal(src[i]) * w[i]);
+            dst[2 * i + 1] = (float)(cimag(src[i]) * w[i]);
+        }
+        fftwf_execute_dft(q->fplan, q->fcin, q->fout);
+        accumulate_f(q, q->fout, q->segments > 0 ? q->fprev : NULL, selected, q->prev_sel);
+        fftwf_complex *t = q->fprev;
+        q->fprev = q->fout;
+        q->fout = t;
+        goto slide;
+    }
     if (cplx) {
         const fftw_complex *restrict src = q->cbuf;
         fftw_complex *restrict dst = q->cin;
@@ -217,7 +258,6 @@ ML_HOT static void transform(ml_spectrum *q)
             q->in[i] = q->buf[i] * w[i];
         fftw_execute_dft_r2c(q->plan, q->in, q->out);
     }
-    const int selected = q->ntagged == n;
     const fftw_complex *prev = q->segments > 0 ? q->prev : NULL;
     accumulate(q, q->out, prev, selected, q->prev_sel);
     if (q->hook)
@@ -227,6 +267,7 @@ ML_HOT static void transform(ml_spectrum *q)
     fftw_complex *t = q->prev;
     q->prev = q->out;
     q->out = t;
+slide:
     q->prev_sel = selected;
     /* the tags of the samples leaving the buffer */
     for (size_t i = 0; i < q->cfg.hop; i++)

@@ -26,6 +26,10 @@ typedef struct {
     ml_window_type window; /* default ML_WINDOW_HFT248D                                   */
     double rate_hz;        /* sample rate: > 0                                            */
     int complex_input;     /* 0: real samples (push, push_double); 1: I/Q (push_complex)  */
+    int single_precision;  /* complex input only: transform in float (about twice as fast;
+                              its rounding floor lies some 150 dB below a strong tone's bin,
+                              tests/unit/test_dsp_spectrum.c), accumulate in double; the
+                              segment hook is then not called                                */
 } ml_spectrum_config;
 
 /* nfft: the power of two giving bins of about 0.75 Hz at rate_hz (at most 2^18); hop nfft/2. */

@@ -15,6 +15,7 @@
 #include "tests/unit/ml_check.h"
 #include <complex.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -634,6 +635,64 @@ START_TEST(complex_exponential_power_and_frequency)
 }
 END_TEST
 
+START_TEST(single_precision_matches_double)
+{
+    /* The single-precision transform (complex input only) against the double one on the same
+     * 65536-point segments of a complex tone (A = 0.5) and one 120 dB weaker: float carries a
+     * 24-bit significand (2^-24 = 6e-8 relative, IEEE 754), and an FFT's rounding error grows
+     * about as sqrt(log2 N) [textbook result, recalled from memory]. Measured here: the tone's
+     * power agrees to 9e-8 relative and its frequency to 1e-10 Hz; outside the two main lobes
+     * the single floor peaks at 8e-16 of the tone's bin (-151 dB), which moves the weak tone's
+     * lobe power by 0.016 dB. Checked with margin: 1e-5 relative, 1e-5 Hz, a floor below 1e-14
+     * (-140 dB) and the weak tone within 0.05 dB. */
+    enum { nfft = 65536, n = 4 * nfft };
+    const double a = 0.5, f = 1000.3, b = a * 1e-6, fb = -5000.1;
+    double complex *z = cexp_tone(n, a, f, 0.4), *w = cexp_tone(n, b, fb, 1.1);
+    for (size_t i = 0; i < n; i++)
+        z[i] += w[i];
+    ml_spectrum_config c = {.nfft = nfft, .hop = nfft / 2, .window = ML_WINDOW_HFT248D, .rate_hz = FS,
+                            .complex_input = 1, .single_precision = 1};
+    ml_spectrum *s1 = NULL, *d = make_cplx(nfft, nfft / 2);
+    ck_assert_int_eq(ml_spectrum_create(&c, &s1), ML_OK);
+    ck_assert_int_eq(ml_spectrum_push_complex(s1, z, n), ML_OK);
+    ck_assert_int_eq(ml_spectrum_push_complex(d, z, n), ML_OK);
+    double *ps = get_psd(s1), *pd = get_psd(d);
+    const size_t k1 = argmax(pd, nfft), lobe = ml_spectrum_lobe_bins(d);
+    const size_t k2 = (size_t)llround(fb / FS * nfft + nfft) % nfft;
+    ck_assert_double_eq_tol(ps[k1], pd[k1], 1e-5 * pd[k1]);
+    double ws = 0, wd = 0, floor = 0;
+    for (size_t k = 0; k < nfft; k++) {
+        const size_t d1 = (k + nfft - k1) % nfft, d2 = (k + nfft - k2) % nfft;
+        const int in1 = d1 <= lobe || nfft - d1 <= lobe, in2 = d2 <= lobe || nfft - d2 <= lobe;
+        if (in2) {
+            ws += ps[k];
+            wd += pd[k];
+        } else if (!in1 && ps[k] > floor) {
+            floor = ps[k];
+        }
+    }
+    double hs = 0, hd = 0;
+    ck_assert_int_eq(ml_spectrum_get_frequency(s1, k1, &hs), ML_OK);
+    ck_assert_int_eq(ml_spectrum_get_frequency(d, k1, &hd), ML_OK);
+    fprintf(stderr, "single vs double: tone %.3g rel, weak tone %.3g dB, f %.3g Hz, floor %.3g\n",
+            fabs(ps[k1] / pd[k1] - 1), 10 * log10(ws / wd), fabs(hs - hd), floor / pd[k1]);
+    ck_assert_double_eq_tol(10 * log10(ws / wd), 0.0, 0.05);
+    ck_assert_msg(floor < 1e-14 * pd[k1], "single precision floor %.3g of the peak", floor / pd[k1]);
+    ck_assert_double_eq_tol(hs, hd, 1e-5);
+    /* real input has no single-precision transform */
+    c.complex_input = 0;
+    ml_spectrum *r = NULL;
+    ck_assert_int_eq(ml_spectrum_create(&c, &r), ML_EINVAL);
+    ck_assert_ptr_null(r);
+    free(ps);
+    free(pd);
+    free(z);
+    free(w);
+    ml_spectrum_destroy(s1);
+    ml_spectrum_destroy(d);
+}
+END_TEST
+
 START_TEST(complex_block_invariance_and_reset)
 {
     /* As block_invariance, for push_complex: blocks of 1, 7, 4096 give the same PSD (1e-12
@@ -848,6 +907,7 @@ static Suite *spectrum_suite(void)
     tcase_add_test(tc, complex_input_layout_and_entry_points);
     tcase_add_test(tc, complex_exponential_power_and_frequency);
     tcase_add_test(tc, complex_block_invariance_and_reset);
+    tcase_add_test(tc, single_precision_matches_double);
     tcase_add_test(tc, tagged_segments_are_accumulated_separately);
     tcase_add_test(tc, tagged_block_invariance_and_reset);
     tcase_add_test(tc, scale_multiplies_by_gain_squared);
