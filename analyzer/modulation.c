@@ -60,53 +60,77 @@ static void split(const float *buf, size_t got, size_t nch, const ml_measure_opt
     }
 }
 
-/* Feeds the demodulator's output to the spectra: the input samples to the captured signal's
- * spectrum, the envelope in units of the provisional carrier to the audio spectrum, both tagged
- * with their block's class. */
-static void feed(ml_spectrum *rf, ml_spectrum *aud, const ml_am_output *out, size_t n, bool iq, double inv_c)
-{
-    if (iq) {
-        ml_spectrum_push_complex_tagged(rf, out->in, out->modulated, n);
-    } else {
-        for (size_t i = 0; i < n; i++)
-            out->env[i] *= inv_c; /* reuse: the real input goes through a temporary below */
-        double tmp[512];
-        for (size_t i = 0; i < n; i += 512) {
-            size_t m = n - i < 512 ? n - i : 512;
-            for (size_t j = 0; j < m; j++)
-                tmp[j] = creal(out->in[i + j]);
-            ml_spectrum_push_tagged(rf, tmp, out->modulated + i, m);
-        }
-        ml_spectrum_push_tagged(aud, out->env, out->modulated, n);
-        return;
-    }
-    for (size_t i = 0; i < n; i++)
-        out->env[i] *= inv_c;
-    ml_spectrum_push_tagged(aud, out->env, out->modulated, n);
-}
-
 /* The streamed pass runs on two threads: this one reads, filters and demodulates a batch while
- * the worker feeds the previous batch's output to the two spectra (feed is the larger half of
- * the work). Batches are fed in order, so the figures do not depend on timing. */
+ * the worker feeds the previous batch's output to the spectra (feed is the larger half of the
+ * work). Batches are fed in order, so the figures do not depend on timing. */
 typedef struct {
     ml_spectrum *rf, *aud;
     bool iq;
     double inv_c;
     ml_blocks *blocks;     /* per-block audio figures for the uncertainty                     */
     ml_plot_data *plot;    /* envelope window for --plot, or NULL                             */
+    size_t decim;          /* the audio spectrum takes every decim-th envelope sample         */
+    uint64_t env_seen;     /* envelope samples fed so far (the decimation's phase)            */
+    double *denv;          /* the kept samples and their tags, of one batch                   */
+    unsigned char *dtag;
+    ml_stats *stats;       /* of the measured channels (I and Q, or the IF signal)            */
+    size_t nch, col[2];    /* frame width, and the columns stats[0] and stats[1] read         */
+    float *mono;           /* one column of a batch                                           */
 } feed_ctx;
+
+/* Feeds the demodulator's output to the spectra: the input samples to the captured signal's
+ * spectrum, the envelope in units of the provisional carrier (every decim-th sample) to the
+ * audio spectrum and the blocks, all tagged with their block's class. */
+static void feed(feed_ctx *f, const ml_am_output *out, size_t n)
+{
+    if (f->iq) {
+        ml_spectrum_push_complex_tagged(f->rf, out->in, out->modulated, n);
+    } else {
+        double tmp[512];
+        for (size_t i = 0; i < n; i += 512) {
+            size_t m = n - i < 512 ? n - i : 512;
+            for (size_t j = 0; j < m; j++)
+                tmp[j] = creal(out->in[i + j]);
+            ml_spectrum_push_tagged(f->rf, tmp, out->modulated + i, m);
+        }
+    }
+    for (size_t i = 0; i < n; i++)
+        out->env[i] *= f->inv_c;
+    const double *env = out->env;
+    const unsigned char *tag = out->modulated;
+    size_t m = n;
+    if (f->decim > 1) {
+        size_t first = (size_t)((f->decim - f->env_seen % f->decim) % f->decim);
+        m = 0;
+        for (size_t i = first; i < n; i += f->decim, m++) {
+            f->denv[m] = out->env[i];
+            f->dtag[m] = out->modulated[i];
+        }
+        env = f->denv;
+        tag = f->dtag;
+    }
+    f->env_seen += n;
+    ml_spectrum_push_tagged(f->aud, env, tag, m);
+    ml_blocks_push(f->blocks, out->env, out->modulated, n); /* the peak readings: every sample */
+}
 
 typedef struct {
     ml_am_output out;
     size_t n;
+    float *raw;            /* the batch's frames as read, for the capture statistics          */
+    size_t got;
 } feed_batch;
 
 static void feed_job(void *ctx, void *batch)
 {
-    const feed_ctx *f = ctx;
+    feed_ctx *f = ctx;
     feed_batch *b = batch;
-    feed(f->rf, f->aud, &b->out, b->n, f->iq, f->inv_c);
-    ml_blocks_push(f->blocks, b->out.env, b->out.modulated, b->n);
+    for (int c = 0; c < (f->iq ? 2 : 1); c++) {
+        for (size_t i = 0; i < b->got; i++)
+            f->mono[i] = b->raw[i * f->nch + f->col[c]];
+        ml_stats_push(&f->stats[c], f->mono, b->got);
+    }
+    feed(f, &b->out, b->n);
     if (f->plot)
         ml_plots_envelope(f->plot, b->out.env, b->n);
 }
@@ -360,11 +384,15 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
             ac_cfg.positive_limit_pct = o->limits->items[i].max;
     ml_spectrum *rf = NULL, *aud = NULL;
     ml_am *am = NULL;
-    float *buf = NULL, *ref = NULL, *mono = NULL;
+    float *ref = NULL, *mono = NULL;
     double complex *z = NULL;
-    feed_batch batch[2] = {{{0}, 0}, {{0}, 0}};
+    feed_batch batch[2] = {{{0}, 0, NULL, 0}, {{0}, 0, NULL, 0}};
     ml_worker *worker = NULL;
     ml_blocks *blocks = NULL;
+    feed_ctx fctx = {0};
+    ml_stats stats[2];
+    ml_stats_init(&stats[0], info->bits);
+    ml_stats_init(&stats[1], info->bits);
     if (rc_cfg.nfft == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
     if ((st = ml_spectrum_create(&rc_cfg, &rf)) != ML_OK || (st = ml_am_create(&ac_cfg, &am)) != ML_OK) {
@@ -372,9 +400,18 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         goto done;
     }
     const int64_t env_frames = seg->nframes - 2 * (int64_t)ml_am_edge(am);
-    ml_spectrum_config ac_spec = ml_spectrum_config_default(rate);
+    /* The demodulated audio lies below bw + transition (the channel filter's stop band starts
+     * there): when that is below a quarter of the rate, every second envelope sample carries it
+     * whole (Nyquist), and the audio spectrum takes those at the same bin width -- half the
+     * transforms. Only an overmodulated envelope, whose corners reach beyond, aliases a little
+     * more than at the full rate; the envelope statistics keep every sample. */
+    size_t decim = 1;
+    if (bw + transition <= rate / 4 && ml_measure_nfft(rate, env_frames) >= 512
+        && ml_measure_nfft(rate / 2, env_frames / 2) == ml_measure_nfft(rate, env_frames) / 2)
+        decim = 2;
+    ml_spectrum_config ac_spec = ml_spectrum_config_default(rate / (double)decim);
     ac_spec.window = o->window;
-    ac_spec.nfft = ml_measure_nfft(rate, env_frames);
+    ac_spec.nfft = ml_measure_nfft(rate / (double)decim, env_frames / (int64_t)decim);
     ac_spec.hop = ac_spec.nfft / 2;
     if (env_frames <= 0 || ac_spec.nfft == 0) {
         rc = ml_cli_error("%s: %lld frames are too few for the %zu-tap channel filter", o->input,
@@ -387,18 +424,19 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     ml_audio_config bcfg = o->audio; /* the demodulated audio's band, as in step 4 */
     bcfg.band_hi_hz = fmin(bcfg.band_hi_hz, bw);
-    if ((blocks = ml_blocks_create(aud, &ac_spec, &bcfg, true)) == NULL || ml_blocks_set_peaks(blocks, ac_cfg.hold_s) != ML_OK) {
+    if ((blocks = ml_blocks_create(aud, &ac_spec, &bcfg, true)) == NULL || ml_blocks_set_peaks(blocks, ac_cfg.hold_s, decim) != ML_OK) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
     if (o->plot)
         ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
-    buf = malloc(BATCH_FRAMES * nch * sizeof *buf);
     ref = malloc(BATCH_FRAMES * sizeof *ref);
     mono = malloc(BATCH_FRAMES * sizeof *mono);
     z = malloc(BATCH_FRAMES * sizeof *z);
-    bool nomem = buf == NULL || ref == NULL || mono == NULL || z == NULL;
+    bool nomem = ref == NULL || mono == NULL || z == NULL;
     for (int k = 0; k < 2; k++) {
+        batch[k].raw = malloc(BATCH_FRAMES * nch * sizeof *batch[k].raw);
+        nomem = nomem || batch[k].raw == NULL;
         ml_am_output *out = &batch[k].out;
         out->cap = ml_am_output_cap(am, BATCH_FRAMES);
         out->env = malloc(out->cap * sizeof *out->env);
@@ -410,30 +448,35 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
-    feed_ctx fctx = {rf, aud, iq, 1.0 / c_prov, blocks, o->plot};
+    fctx = (feed_ctx){.rf = rf, .aud = aud, .iq = iq, .inv_c = 1.0 / c_prov, .blocks = blocks, .plot = o->plot,
+                      .decim = decim};
+    fctx.denv = malloc((batch[0].out.cap / decim + 1) * sizeof *fctx.denv);
+    fctx.dtag = malloc(batch[0].out.cap / decim + 1);
+    if (fctx.denv == NULL || fctx.dtag == NULL) {
+        rc = ml_cli_error("%s: out of memory", o->input);
+        goto done;
+    }
+    fctx.stats = stats;
+    fctx.nch = nch;
+    fctx.col[0] = (size_t)(o->channel - 1) + (iq && o->swap_iq ? 1 : 0); /* as split() */
+    fctx.col[1] = (size_t)(o->channel - 1) + (o->swap_iq ? 0 : 1);
+    fctx.mono = mono;
     worker = ml_worker_start(feed_job, &fctx); /* NULL: feed runs on this thread */
     int k = 0;
-    ml_stats stats[2];
-    ml_stats_init(&stats[0], info->bits);
-    ml_stats_init(&stats[1], info->bits);
     int64_t done_frames = 0, next = 0;
     bool shown = false;
     while (done_frames < seg->nframes) {
         size_t want = seg->nframes - done_frames < BATCH_FRAMES ? (size_t)(seg->nframes - done_frames)
                                                                 : BATCH_FRAMES;
         size_t got = 0;
-        rc = ml_measure_read(o, seg, buf, want, &got, done_frames);
+        /* batch k was last handed over two submissions ago: submit waited for it to finish */
+        rc = ml_measure_read(o, seg, batch[k].raw, want, &got, done_frames);
         if (rc != 0)
             goto done;
-        split(buf, got, nch, o, iq, z, o->reference_channel > 0 ? ref : NULL);
-        for (int c = 0; c < (iq ? 2 : 1); c++) {
-            for (size_t i = 0; i < got; i++)
-                mono[i] = (float)(c == 0 ? creal(z[i]) : cimag(z[i]));
-            ml_stats_push(&stats[c], mono, got);
-        }
+        batch[k].got = got;
+        split(batch[k].raw, got, nch, o, iq, z, o->reference_channel > 0 ? ref : NULL);
         if (o->plot) /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_plots_input(o->plot, done_frames, o->reference_channel > 0 ? ref : NULL, got);
-        /* batch k was last handed over two submissions ago: submit waited for it to finish */
         ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &batch[k].out, &batch[k].n);
         ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
         k ^= 1;
@@ -442,6 +485,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     ml_measure_progress_end(shown);
     ml_am_finish(am, &batch[k].out, &batch[k].n);
+    batch[k].got = 0;
     ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
     ml_worker_stop(worker);
     worker = NULL;
@@ -611,12 +655,14 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
                             c_prov / c, emax / c, emin / c, ac_cfg.pinch_rel);
 done:
     ml_worker_stop(worker); /* waits for a batch in flight before the buffers go */
+    free(fctx.denv);
+    free(fctx.dtag);
     ml_blocks_destroy(blocks);
-    free(buf);
     free(ref);
     free(mono);
     free(z);
     for (int b = 0; b < 2; b++) {
+        free(batch[b].raw);
         free(batch[b].out.env);
         free(batch[b].out.in);
         free(batch[b].out.modulated);

@@ -49,6 +49,7 @@ struct ml_blocks {
     bool any_bad;
     size_t need;             /* samples until the block's last segment completes              */
     double hold_share;       /* > 0: peak readings per block                                  */
+    size_t per;              /* pushed samples per sample of the whole spectrum               */
     uint32_t *hist;          /* PEAK_BINS counts of the current block                         */
     uint64_t hist_n;
     ml_running peak[P_COUNT];
@@ -67,13 +68,15 @@ static double hist_quantile(const ml_blocks *q, double share)
     return PEAK_RANGE;
 }
 
-ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share)
+ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share, size_t per)
 {
-    if (q == NULL || !(hold_share > 0 && hold_share < 0.5))
+    if (q == NULL || !(hold_share > 0 && hold_share < 0.5) || per < 1 || per > 64)
         return ML_EINVAL;
     if (q->hist == NULL && (q->hist = calloc(PEAK_BINS, sizeof *q->hist)) == NULL)
         return ML_ENOMEM;
     q->hold_share = hold_share;
+    q->per = per;
+    q->need = (q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop) * per;
     for (int i = 0; i < P_COUNT; i++)
         ml_running_reset(&q->peak[i]);
     return ML_OK;
@@ -162,9 +165,9 @@ static void finish_peaks(ml_blocks *q)
     memset(q->hist, 0, PEAK_BINS * sizeof *q->hist);
     q->hist_n = 0;
     /* the next block starts with the overlap of the last segment */
-    q->block_first = q->total - q->keep;
+    q->block_first = q->total - q->keep * q->per;
     q->any_bad = q->last_bad > q->block_first; /* last_bad is one past the last untagged sample */
-    q->need = ML_BLOCK_SEGMENTS * q->hop;
+    q->need = ML_BLOCK_SEGMENTS * q->hop * q->per;
 }
 
 void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, size_t n)

@@ -49,8 +49,11 @@ void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, siz
 void ml_blocks_report(const ml_blocks *q, ml_report *r, size_t *nblocks);
 
 /* if/iq: also estimates the peak readings per block, with hold share hold_share (0 .. 0.5) of
- * the samples beyond each reading, as dsp/am.h defines them. ML_EINVAL, ML_ENOMEM. */
-ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share);
+ * the samples beyond each reading, as dsp/am.h defines them, from samples pushed at `per` (1 ..
+ * 64) times the whole spectrum's rate (the envelope at its full rate when the audio spectrum
+ * takes every per-th sample): the blocks then span per times as many pushed samples. Call before
+ * the first push. ML_EINVAL, ML_ENOMEM. */
+ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share, size_t per);
 /* Sets the uncertainties of modulation.positive_peak_pct and negative_peak_pct (block spread of
  * the readings in pushed units times pct_per_unit: 100 C_prov / C) and of modulation.index. */
 void ml_blocks_report_peaks(const ml_blocks *q, ml_report *r, double pct_per_unit);
