@@ -68,6 +68,12 @@ static double hist_quantile(const ml_blocks *q, double share)
     return PEAK_RANGE;
 }
 
+/* Pushed samples in the first block: its segments' span (later blocks add ML_BLOCK_SEGMENTS hops). */
+static size_t first_block(const ml_blocks *q)
+{
+    return (q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop) * q->per;
+}
+
 ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share, size_t per)
 {
     if (q == NULL || !(hold_share > 0 && hold_share < 0.5) || per < 1 || per > 64)
@@ -76,7 +82,7 @@ ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share, size_t per)
         return ML_ENOMEM;
     q->hold_share = hold_share;
     q->per = per;
-    q->need = (q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop) * per;
+    q->need = first_block(q);
     for (int i = 0; i < P_COUNT; i++)
         ml_running_reset(&q->peak[i]);
     return ML_OK;
@@ -135,7 +141,8 @@ ml_blocks *ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, co
         ml_blocks_destroy(q);
         return NULL;
     }
-    q->need = q->nfft + (ML_BLOCK_SEGMENTS - 1) * q->hop;
+    q->per = 1;
+    q->need = first_block(q);
     for (int i = 0; i < U_COUNT; i++)
         ml_running_reset(&q->acc[i]);
     ml_spectrum_on_segment(whole, on_segment, q);

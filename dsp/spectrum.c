@@ -181,20 +181,19 @@ void ml_spectrum_reset(ml_spectrum *q)
     memset(q->xsel, 0, q->nbins * sizeof *q->xsel);
 }
 
-/* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
- * all segments, and to the selected ones when sel (with psel: the previous segment was selected
- * too). One pass over the bins: the arrays are larger than the caches for long transforms. */
+/* One bin of accumulate below: power a^2 + b^2 (times scale) and, when has_prev, the cross term
+ * with the previous segment's c + id. */
 static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scale, double a, double b,
-                                  const double *c, const double *d, int sel, int psel)
+                                  int has_prev, double c, double d, int sel, int psel)
 {
     const double p = (a * a + b * b) * scale;
     q->acc[k] += p;
     if (sel)
         q->sel[k] += p;
-    if (c) {
+    if (has_prev) {
         /* X_i conj(X_{i-1}) written out: C's complex product would also handle infinities (C11
          * Annex G) at a call per bin; spectra of finite samples are finite */
-        const fftw_complex xc = CMPLX(a * *c + b * *d, b * *c - a * *d);
+        const fftw_complex xc = CMPLX(a * c + b * d, b * c - a * d);
         q->xacc[k] += xc;
         if (sel && psel)
             q->xsel[k] += xc;
@@ -213,12 +212,8 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
             /* DC and Nyquist of a real signal have no mirror image: half the one-sided scale */  \
             const double sc = !q->cfg.complex_input && (k == 0 || k + 1 == nb) ? 0.5 * q->scale    \
                                                                                : q->scale;         \
-            double c = 0, d = 0;                                                                   \
-            if (prev) {                                                                            \
-                c = creal(prev[k]);                                                                \
-                d = cimag(prev[k]);                                                                \
-            }                                                                                      \
-            accumulate_bin(q, k, sc, creal(x[k]), cimag(x[k]), prev ? &c : NULL, &d, sel, psel);   \
+            const double c = prev ? creal(prev[k]) : 0, d = prev ? cimag(prev[k]) : 0;            \
+            accumulate_bin(q, k, sc, creal(x[k]), cimag(x[k]), prev != NULL, c, d, sel, psel);     \
         }                                                                                          \
         q->segments++;                                                                             \
         q->nsel += (size_t)(sel != 0);                                                             \
@@ -226,28 +221,14 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
 ML_ACCUMULATE(accumulate, fftw_complex)
 ML_ACCUMULATE(accumulate_f, fftwf_complex)
 
-/* Transform the full buffer: accumulate power and the cross-spectrum with the previous segment. */
-ML_HOT static void transform(ml_spectrum *q)
+/* The windowed segment in double precision: transform, accumulate, hand it to the hook, and keep
+ * it as the previous one (the buffers swap; both come from fftw_alloc, so equally aligned for the
+ * plan). */
+ML_HOT static void transform_double(ml_spectrum *q, int selected)
 {
     const size_t n = q->cfg.nfft;
-    const int cplx = q->cfg.complex_input;
     const double *restrict w = q->win;
-    const int selected = q->ntagged == n;
-    if (q->cfg.single_precision) {
-        const fftw_complex *restrict src = q->cbuf;
-        float *restrict dst = (float *)q->fcin; /* fftwf_complex is float[2] or float complex */
-        for (size_t i = 0; i < n; i++) {
-            dst[2 * i] = (float)(creal(src[i]) * w[i]);
-            dst[2 * i + 1] = (float)(cimag(src[i]) * w[i]);
-        }
-        fftwf_execute_dft(q->fplan, q->fcin, q->fout);
-        accumulate_f(q, q->fout, q->segments > 0 ? q->fprev : NULL, selected, q->prev_sel);
-        fftwf_complex *t = q->fprev;
-        q->fprev = q->fout;
-        q->fout = t;
-        goto slide;
-    }
-    if (cplx) {
+    if (q->cfg.complex_input) {
         const fftw_complex *restrict src = q->cbuf;
         fftw_complex *restrict dst = q->cin;
         for (size_t i = 0; i < n; i++)
@@ -262,19 +243,46 @@ ML_HOT static void transform(ml_spectrum *q)
     accumulate(q, q->out, prev, selected, q->prev_sel);
     if (q->hook)
         q->hook(q->hook_ctx, q->out, prev, selected);
-    /* this segment's spectrum becomes the previous one: swap the buffers (both from fftw_alloc,
-     * so equally aligned for the plan) */
     fftw_complex *t = q->prev;
     q->prev = q->out;
     q->out = t;
-slide:
+}
+
+/* The same in single precision (complex input only; no hook). */
+ML_HOT static void transform_single(ml_spectrum *q, int selected)
+{
+    const size_t n = q->cfg.nfft;
+    const double *restrict w = q->win;
+    const fftw_complex *restrict src = q->cbuf;
+    float *restrict dst = (float *)q->fcin; /* fftwf_complex is float[2] or float complex */
+    for (size_t i = 0; i < n; i++) {
+        dst[2 * i] = (float)(creal(src[i]) * w[i]);
+        dst[2 * i + 1] = (float)(cimag(src[i]) * w[i]);
+    }
+    fftwf_execute_dft(q->fplan, q->fcin, q->fout);
+    accumulate_f(q, q->fout, q->segments > 0 ? q->fprev : NULL, selected, q->prev_sel);
+    fftwf_complex *t = q->fprev;
+    q->fprev = q->fout;
+    q->fout = t;
+}
+
+/* Transform the full buffer: accumulate power and the cross-spectrum with the previous segment,
+ * then slide the buffer by one hop. */
+static void transform(ml_spectrum *q)
+{
+    const size_t n = q->cfg.nfft;
+    const int selected = q->ntagged == n;
+    if (q->cfg.single_precision)
+        transform_single(q, selected);
+    else
+        transform_double(q, selected);
     q->prev_sel = selected;
     /* the tags of the samples leaving the buffer */
     for (size_t i = 0; i < q->cfg.hop; i++)
         q->ntagged -= q->tags[i];
     memmove(q->tags, q->tags + q->cfg.hop, n - q->cfg.hop);
     /* keep the last nfft - hop samples as the start of the next segment */
-    if (cplx)
+    if (q->cfg.complex_input)
         memmove(q->cbuf, q->cbuf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->cbuf);
     else
         memmove(q->buf, q->buf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->buf);
