@@ -74,25 +74,54 @@ typedef struct {
     double *denv;          /* the kept samples and their tags, of one batch                   */
     unsigned char *dtag;
     ml_stats *stats;       /* of the measured channels (I and Q, or the IF signal)            */
-    size_t nch, col[2];    /* frame width, and the columns stats[0] and stats[1] read         */
-    float *mono;           /* one column of a batch                                           */
+    size_t nch, col[2];    /* frame width, and the columns of I and Q (or of the IF signal)   */
+    /* The captured samples wait here, as read, until the demodulator has classified them (its
+     * envelope comes out a filter delay and up to a block later): a ring of (I, Q) pairs or IF
+     * values. The first `skip` input samples (the channel filter's edge) produce no envelope
+     * and never enter. */
+    float *fifo;
+    size_t fifo_cap, fifo_head, fifo_len; /* in samples */
+    uint64_t skip;
 } feed_ctx;
 
-/* Feeds the demodulator's output to the spectra: the input samples to the captured signal's
- * spectrum, the envelope in units of the provisional carrier (every decim-th sample) to the
- * audio spectrum and the blocks, all tagged with their block's class. */
+/* Appends the measured column(s) of `got` frames to the ring. */
+static void fifo_append(feed_ctx *f, const float *raw, size_t got)
+{
+    size_t i = 0;
+    if (f->skip > 0) {
+        i = got < f->skip ? got : (size_t)f->skip;
+        f->skip -= i;
+    }
+    const size_t w = f->iq ? 2 : 1;
+    size_t at = (f->fifo_head + f->fifo_len) % f->fifo_cap;
+    for (; i < got; i++) {
+        const float *fr = raw + i * f->nch;
+        f->fifo[w * at] = fr[f->col[0]];
+        if (f->iq)
+            f->fifo[w * at + 1] = fr[f->col[1]];
+        at = at + 1 == f->fifo_cap ? 0 : at + 1;
+        f->fifo_len++;
+    }
+}
+
+/* Feeds the demodulator's output to the spectra: the input samples it belongs to (from the ring)
+ * to the captured signal's spectrum, the envelope in units of the provisional carrier (every
+ * decim-th sample) to the audio spectrum and the blocks, all tagged with their block's class. */
 static void feed(feed_ctx *f, const ml_am_output *out, size_t n)
 {
-    if (f->iq) {
-        ml_spectrum_push_complex_tagged(f->rf, out->in, out->modulated, n);
-    } else {
-        double tmp[512];
-        for (size_t i = 0; i < n; i += 512) {
-            size_t m = n - i < 512 ? n - i : 512;
-            for (size_t j = 0; j < m; j++)
-                tmp[j] = creal(out->in[i + j]);
-            ml_spectrum_push_tagged(f->rf, tmp, out->modulated + i, m);
-        }
+    const size_t w = f->iq ? 2 : 1;
+    for (size_t done = 0; done < n;) {
+        size_t m = n - done, run = f->fifo_cap - f->fifo_head;
+        if (m > run)
+            m = run;
+        const float *x = f->fifo + w * f->fifo_head;
+        if (f->iq)
+            ml_spectrum_push_complex_float_tagged(f->rf, x, out->modulated + done, m);
+        else
+            ml_spectrum_push_float_tagged(f->rf, x, out->modulated + done, m);
+        f->fifo_head = (f->fifo_head + m) % f->fifo_cap;
+        f->fifo_len -= m;
+        done += m;
     }
     for (size_t i = 0; i < n; i++)
         out->env[i] *= f->inv_c;
@@ -125,11 +154,9 @@ static void feed_job(void *ctx, void *batch)
 {
     feed_ctx *f = ctx;
     feed_batch *b = batch;
-    for (int c = 0; c < (f->iq ? 2 : 1); c++) {
-        for (size_t i = 0; i < b->got; i++)
-            f->mono[i] = b->raw[i * f->nch + f->col[c]];
-        ml_stats_push(&f->stats[c], f->mono, b->got);
-    }
+    for (int c = 0; c < (f->iq ? 2 : 1); c++)
+        ml_stats_push_strided(&f->stats[c], b->raw + f->col[c], b->got, f->nch);
+    fifo_append(f, b->raw, b->got);
     feed(f, &b->out, b->n);
     if (f->plot)
         ml_plots_envelope(f->plot, b->out.env, b->n);
@@ -384,7 +411,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
             ac_cfg.positive_limit_pct = o->limits->items[i].max;
     ml_spectrum *rf = NULL, *aud = NULL;
     ml_am *am = NULL;
-    float *ref = NULL, *mono = NULL;
+    float *ref = NULL;
     double complex *z = NULL;
     feed_batch batch[2] = {{{0}, 0, NULL, 0}, {{0}, 0, NULL, 0}};
     ml_worker *worker = NULL;
@@ -431,18 +458,17 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (o->plot)
         ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
     ref = malloc(BATCH_FRAMES * sizeof *ref);
-    mono = malloc(BATCH_FRAMES * sizeof *mono);
     z = malloc(BATCH_FRAMES * sizeof *z);
-    bool nomem = ref == NULL || mono == NULL || z == NULL;
+    bool nomem = ref == NULL || z == NULL;
     for (int k = 0; k < 2; k++) {
         batch[k].raw = malloc(BATCH_FRAMES * nch * sizeof *batch[k].raw);
         nomem = nomem || batch[k].raw == NULL;
         ml_am_output *out = &batch[k].out;
         out->cap = ml_am_output_cap(am, BATCH_FRAMES);
         out->env = malloc(out->cap * sizeof *out->env);
-        out->in = malloc(out->cap * sizeof *out->in);
+        out->in = NULL; /* the spectrum takes the samples as read (feed_ctx.fifo) */
         out->modulated = malloc(out->cap);
-        nomem = nomem || out->env == NULL || out->in == NULL || out->modulated == NULL;
+        nomem = nomem || out->env == NULL || out->modulated == NULL;
     }
     if (nomem) {
         rc = ml_cli_error("%s: out of memory", o->input);
@@ -452,7 +478,11 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
                       .decim = decim};
     fctx.denv = malloc((batch[0].out.cap / decim + 1) * sizeof *fctx.denv);
     fctx.dtag = malloc(batch[0].out.cap / decim + 1);
-    if (fctx.denv == NULL || fctx.dtag == NULL) {
+    /* waiting at most: a batch, the filter's delay and an unfinished block (dsp/am.h) */
+    fctx.fifo_cap = ml_am_output_cap(am, BATCH_FRAMES) + ml_am_latency(am);
+    fctx.fifo = malloc(fctx.fifo_cap * (iq ? 2 : 1) * sizeof *fctx.fifo);
+    fctx.skip = ml_am_edge(am);
+    if (fctx.denv == NULL || fctx.dtag == NULL || fctx.fifo == NULL) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
@@ -460,7 +490,6 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     fctx.nch = nch;
     fctx.col[0] = (size_t)(o->channel - 1) + (iq && o->swap_iq ? 1 : 0); /* as split() */
     fctx.col[1] = (size_t)(o->channel - 1) + (o->swap_iq ? 0 : 1);
-    fctx.mono = mono;
     worker = ml_worker_start(feed_job, &fctx); /* NULL: feed runs on this thread */
     int k = 0;
     int64_t done_frames = 0, next = 0;
@@ -657,9 +686,9 @@ done:
     ml_worker_stop(worker); /* waits for a batch in flight before the buffers go */
     free(fctx.denv);
     free(fctx.dtag);
+    free(fctx.fifo);
     ml_blocks_destroy(blocks);
     free(ref);
-    free(mono);
     free(z);
     for (int b = 0; b < 2; b++) {
         free(batch[b].raw);

@@ -32,7 +32,7 @@ struct ml_am {
     double complex mixed[CHUNK], filtered[CHUNK], delayed[CHUNK];
     double complex rot[CHUNK]; /* exp(-2 pi i f k), k < CHUNK: the mixer within a chunk    */
     float ref_delayed[CHUNK];
-    double env[CHUNK], lowest[CHUNK];
+    double lowest[CHUNK];
     double yr[CHUNK + 3], yi[CHUNK + 3]; /* baseband behind the three samples before         */
     double over[OVERSAMPLE * CHUNK];     /* oversampled envelope: OVERSAMPLE rows of CHUNK     */
     double vmin[CHUNK], vmax[CHUNK];     /* their extremes per sample                          */
@@ -230,7 +230,8 @@ static void end_block(ml_am *q)
     q->sum_all += q->block_sum;
     uint64_t *restrict h = quiet ? q->hist_quiet : q->hist_mod;
     const uint16_t *restrict b = q->pending;
-    for (size_t i = 0; i < q->npending; i++)
+    const size_t np = q->npending; /* a local count: h's stores could alias the object's */
+    for (size_t i = 0; i < np; i++)
         h[b[i]]++;
     if (quiet)
         q->hist_quiet_n += q->npending;
@@ -299,21 +300,28 @@ static void events(ml_am *q, const double complex *y, const double *e, const dou
  * the current block: envelope, oversampled envelope, block sums, events, trapezoid sums. */
 ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double complex *x, const float *a, size_t n)
 {
-    double *restrict e = q->env, *restrict low = q->lowest, *restrict v = q->over;
     const size_t at = *q->out_count + q->block_fill;
-    double *restrict oe = q->out->env + at;
-    double complex *restrict ox = q->out->in + at;
-    double s = 0, ss = 0;
-    for (size_t i = 0; i < n; i++) {
-        const double re = creal(y[i]), im = cimag(y[i]);
-        e[i] = sqrt(re * re + im * im); /* |y| without hypot: far from overflow and underflow */
-        s += e[i];
-        ss += e[i] * e[i];
-        oe[i] = e[i];
-        ox[i] = x[i];
+    double *restrict e = q->out->env + at, *restrict low = q->lowest, *restrict v = q->over;
+    const double *restrict yy = (const double *)y; /* C11 6.2.5: a complex is an array of two */
+    for (size_t i = 0; i < n; i++) /* |y| without hypot: far from overflow and underflow */
+        e[i] = sqrt(yy[2 * i] * yy[2 * i] + yy[2 * i + 1] * yy[2 * i + 1]);
+    if (q->out->in != NULL)
+        memcpy(q->out->in + at, x, n * sizeof *x);
+    /* the block's sums in lanes: a single running sum would wait for each addition in turn */
+    enum { L = 4 };
+    double sl[L] = {0}, ssl[L] = {0};
+    size_t i = 0;
+    for (; i + L <= n; i += L)
+        for (int k = 0; k < L; k++) {
+            sl[k] += e[i + k];
+            ssl[k] += e[i + k] * e[i + k];
+        }
+    for (; i < n; i++) {
+        sl[0] += e[i];
+        ssl[0] += e[i] * e[i];
     }
-    q->block_sum += s;
-    q->block_sumsq += ss;
+    q->block_sum += (sl[0] + sl[1]) + (sl[2] + sl[3]);
+    q->block_sumsq += (ssl[0] + ssl[1]) + (ssl[2] + ssl[3]);
     /* Oversampled values of the interval y[j-2]..y[j-1] for sample j (from the fourth sample on):
      * the complex baseband is interpolated [catmull:1974] and then its magnitude taken, so the V
      * of a phase reversal keeps its zero. The baseband goes into separate real and imaginary
@@ -361,13 +369,12 @@ ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double 
     for (size_t i = 0; i < n; i++)
         low[i] = e[i] < vmin[i] ? e[i] : vmin[i];
     /* extremes in lanes: no reduction across a vector register */
-    enum { L = 4 };
     double hi = q->emax_abs, lo = q->emin_abs, hl[L], ll[L];
     for (int k = 0; k < L; k++) {
         hl[k] = hi;
         ll[k] = lo;
     }
-    size_t i = skip;
+    i = skip;
     for (; i + L <= n; i += L)
         for (int k = 0; k < L; k++) {
             hl[k] = vmax[i + k] > hl[k] ? vmax[i + k] : hl[k];
@@ -435,7 +442,7 @@ size_t ml_am_edge(const ml_am *q)
 
 static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
 {
-    return out != NULL && out->env != NULL && out->in != NULL && out->modulated != NULL
+    return out != NULL && out->env != NULL && out->modulated != NULL
            && out->cap >= ml_am_output_cap(q, n);
 }
 
@@ -482,7 +489,8 @@ ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *
         if (st != ML_OK)
             return st;
         /* output t is input t - latency: the delay lines line up its input and reference */
-        DELAY(q->in_ring, q->dly_len, q->dly_pos, q->latency, zc, q->delayed, m, 0.0);
+        if (q->out->in != NULL)
+            DELAY(q->in_ring, q->dly_len, q->dly_pos, q->latency, zc, q->delayed, m, 0.0);
         if (q->cfg.has_reference) {
             const float *rc = ref ? ref + done : NULL;
             DELAY(q->ref_ring, q->dly_len, q->dly_pos, q->latency, rc, q->ref_delayed, m, 0.0f);
@@ -512,14 +520,16 @@ static void begin_output(ml_am *q, const ml_am_output *out, size_t *count)
     q->out = out;
     q->out_count = count;
     memcpy(out->env, q->blk_env, q->block_fill * sizeof *out->env);
-    memcpy(out->in, q->blk_in, q->block_fill * sizeof *out->in);
+    if (out->in != NULL)
+        memcpy(out->in, q->blk_in, q->block_fill * sizeof *out->in);
 }
 
 /* ... and ends: an incomplete block is kept for the next one. */
 static void end_output(ml_am *q)
 {
     memcpy(q->blk_env, q->out->env + *q->out_count, q->block_fill * sizeof *q->blk_env);
-    memcpy(q->blk_in, q->out->in + *q->out_count, q->block_fill * sizeof *q->blk_in);
+    if (q->out->in != NULL)
+        memcpy(q->blk_in, q->out->in + *q->out_count, q->block_fill * sizeof *q->blk_in);
     q->out = NULL;
     q->out_count = NULL;
 }

@@ -100,7 +100,9 @@ size_t ml_am_latency(const ml_am *q);
 size_t ml_am_edge(const ml_am *q);
 
 /* Output arrays of one push or finish: env[cap] envelope, in[cap] the input sample it belongs
- * to, modulated[cap] its block's class; *count gets the number written. */
+ * to, modulated[cap] its block's class; *count gets the number written. in may be NULL when the
+ * caller does not need the inputs (then they are not delayed at all); it must then be NULL in
+ * every push and finish since the create or the last reset. */
 typedef struct {
     double *env;
     double complex *in;

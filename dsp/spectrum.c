@@ -45,6 +45,8 @@ struct ml_spectrum {
     fftw_plan plan;
     /* single precision (complex input only): the transform in float, accumulated in double */
     fftwf_complex *fcin, *fout, *fprev;
+    float *fcbuf;       /* nfft most recent samples as (re, im) pairs (instead of cbuf)     */
+    float *fwin;        /* the window in float                                           */
     fftwf_plan fplan;
     ml_spectrum_segment_fn hook; /* called after each transform, or NULL                */
     void *hook_ctx;
@@ -87,11 +89,12 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     const int single = cfg->single_precision ? 1 : 0;
     q->cfg.single_precision = single;
     if (single) {
-        q->cbuf = fftw_alloc_complex(cfg->nfft);
+        q->fcbuf = fftwf_alloc_real(2 * cfg->nfft);
+        q->fwin = fftwf_alloc_real(cfg->nfft);
         q->fcin = fftwf_alloc_complex(cfg->nfft);
         q->fout = fftwf_alloc_complex(q->nbins);
         q->fprev = fftwf_alloc_complex(q->nbins);
-        if (q->cbuf == NULL || q->fcin == NULL || q->fout == NULL || q->fprev == NULL)
+        if (q->fcbuf == NULL || q->fwin == NULL || q->fcin == NULL || q->fout == NULL || q->fprev == NULL)
             goto fail;
     } else if (cplx) {
         q->cbuf = fftw_alloc_complex(cfg->nfft);
@@ -125,6 +128,8 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     if (single ? q->fplan == NULL : q->plan == NULL)
         goto fail;
     ml_window_fill(cfg->window, q->win, cfg->nfft);
+    for (size_t i = 0; single && i < cfg->nfft; i++)
+        q->fwin[i] = (float)q->win[i];
     double s = 0.0;
     for (size_t i = 0; i < cfg->nfft; i++)
         s += q->win[i];
@@ -149,6 +154,8 @@ void ml_spectrum_destroy(ml_spectrum *q)
     fftwf_free(q->fcin);
     fftwf_free(q->fout);
     fftwf_free(q->fprev);
+    fftwf_free(q->fcbuf);
+    fftwf_free(q->fwin);
     free(q->win);
     free(q->buf);
     fftw_free(q->in);
@@ -200,6 +207,20 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
     }
 }
 
+/* While every segment so far was selected, the selected sums equal the sums of all segments,
+ * addition for addition, so they are not written: sel and xsel are filled from acc and xacc
+ * when the first segment that is not selected arrives. */
+static int sel_is_all(const ml_spectrum *q)
+{
+    return q->nsel == q->segments;
+}
+
+static void split_selected(ml_spectrum *q)
+{
+    memcpy(q->sel, q->acc, q->nbins * sizeof *q->sel);
+    memcpy(q->xsel, q->xacc, q->nbins * sizeof *q->xsel);
+}
+
 /* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
  * all segments, and to the selected ones when sel (with psel: the previous segment was selected
  * too). One pass over the bins: the arrays are larger than the caches for long transforms.
@@ -208,6 +229,11 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
     ML_HOT static void NAME(ml_spectrum *q, const T *x, const T *prev, int sel, int psel)           \
     {                                                                                              \
         const size_t nb = q->nbins;                                                                \
+        const int same = sel_is_all(q);                                                            \
+        if (!sel && same && q->segments > 0)                                                       \
+            split_selected(q);                                                                     \
+        if (same) /* still the same sums: only acc and xacc are written */                         \
+            sel = psel = 0;                                                                        \
         for (size_t k = 0; k < nb; k++) {                                                          \
             /* DC and Nyquist of a real signal have no mirror image: half the one-sided scale */  \
             const double sc = !q->cfg.complex_input && (k == 0 || k + 1 == nb) ? 0.5 * q->scale    \
@@ -215,11 +241,21 @@ static inline void accumulate_bin(ml_spectrum *restrict q, size_t k, double scal
             const double c = prev ? creal(prev[k]) : 0, d = prev ? cimag(prev[k]) : 0;            \
             accumulate_bin(q, k, sc, creal(x[k]), cimag(x[k]), prev != NULL, c, d, sel, psel);     \
         }                                                                                          \
-        q->segments++;                                                                             \
-        q->nsel += (size_t)(sel != 0);                                                             \
     }
-ML_ACCUMULATE(accumulate, fftw_complex)
+ML_ACCUMULATE(accumulate_d, fftw_complex)
 ML_ACCUMULATE(accumulate_f, fftwf_complex)
+
+static void count_segment(ml_spectrum *q, int sel)
+{
+    q->segments++;
+    q->nsel += (size_t)(sel != 0);
+}
+
+static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex *prev, int sel, int psel)
+{
+    accumulate_d(q, x, prev, sel, psel);
+    count_segment(q, sel);
+}
 
 /* The windowed segment in double precision: transform, accumulate, hand it to the hook, and keep
  * it as the previous one (the buffers swap; both come from fftw_alloc, so equally aligned for the
@@ -252,15 +288,16 @@ ML_HOT static void transform_double(ml_spectrum *q, int selected)
 ML_HOT static void transform_single(ml_spectrum *q, int selected)
 {
     const size_t n = q->cfg.nfft;
-    const double *restrict w = q->win;
-    const fftw_complex *restrict src = q->cbuf;
+    const float *restrict w = q->fwin;
+    const float *restrict src = q->fcbuf;
     float *restrict dst = (float *)q->fcin; /* fftwf_complex is float[2] or float complex */
     for (size_t i = 0; i < n; i++) {
-        dst[2 * i] = (float)(creal(src[i]) * w[i]);
-        dst[2 * i + 1] = (float)(cimag(src[i]) * w[i]);
+        dst[2 * i] = src[2 * i] * w[i];
+        dst[2 * i + 1] = src[2 * i + 1] * w[i];
     }
     fftwf_execute_dft(q->fplan, q->fcin, q->fout);
     accumulate_f(q, q->fout, q->segments > 0 ? q->fprev : NULL, selected, q->prev_sel);
+    count_segment(q, selected);
     fftwf_complex *t = q->fprev;
     q->fprev = q->fout;
     q->fout = t;
@@ -282,7 +319,9 @@ static void transform(ml_spectrum *q)
         q->ntagged -= q->tags[i];
     memmove(q->tags, q->tags + q->cfg.hop, n - q->cfg.hop);
     /* keep the last nfft - hop samples as the start of the next segment */
-    if (q->cfg.complex_input)
+    if (q->cfg.single_precision)
+        memmove(q->fcbuf, q->fcbuf + 2 * q->cfg.hop, 2 * (n - q->cfg.hop) * sizeof *q->fcbuf);
+    else if (q->cfg.complex_input)
         memmove(q->cbuf, q->cbuf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->cbuf);
     else
         memmove(q->buf, q->buf + q->cfg.hop, (n - q->cfg.hop) * sizeof *q->buf);
@@ -306,7 +345,9 @@ ml_status ml_spectrum_add_segment(ml_spectrum *q, const double _Complex *x, cons
     return ML_OK;
 }
 
-#define PUSH_BODY(BUF, TAG)                                                                        \
+/* Appends n samples: STORE(d, j) writes sample j of the caller's array to buffer index d; tag
+ * (NULL: none) marks the selected ones. Transforms each time the buffer is full. */
+#define PUSH_BODY(STORE, TAG)                                                                      \
     if (q == NULL || (x == NULL && n > 0))                                                         \
         return ML_EINVAL;                                                                          \
     size_t i = 0;                                                                                  \
@@ -314,12 +355,9 @@ ml_status ml_spectrum_add_segment(ml_spectrum *q, const double _Complex *x, cons
         size_t take = q->cfg.nfft - q->fill;                                                       \
         if (take > n - i)                                                                          \
             take = n - i;                                                                          \
-        for (size_t j = 0; j < take; j++) {                                                        \
-            q->BUF[q->fill + j] = x[i + j];                                                        \
-            unsigned char t_ = (TAG) ? ((TAG)[i + j] != 0) : 0;                                     \
-            q->tags[q->fill + j] = t_;                                                             \
-            q->ntagged += t_;                                                                      \
-        }                                                                                          \
+        for (size_t j = 0; j < take; j++)                                                          \
+            STORE(q->fill + j, i + j);                                                             \
+        store_tags(q, (TAG) ? (TAG) + i : NULL, take);                                             \
         q->fill += take;                                                                           \
         i += take;                                                                                 \
         if (q->fill == q->cfg.nfft)                                                                \
@@ -327,12 +365,31 @@ ml_status ml_spectrum_add_segment(ml_spectrum *q, const double _Complex *x, cons
     }                                                                                              \
     return ML_OK;
 
+/* Tags of the next n samples (from index fill on); tag NULL: none selected. */
+static void store_tags(ml_spectrum *q, const unsigned char *tag, size_t n)
+{
+    unsigned char *restrict t = q->tags + q->fill;
+    if (tag == NULL) {
+        memset(t, 0, n);
+        return;
+    }
+    size_t count = 0;
+    for (size_t j = 0; j < n; j++) {
+        t[j] = tag[j] != 0;
+        count += t[j];
+    }
+    q->ntagged += count;
+}
+
+#define STORE_REAL(d, j) (q->buf[d] = x[j])
+#define STORE_CPLX(d, j) (q->cbuf[d] = x[j])
+#define STORE_PAIR_AS_CPLX(d, j) (q->cbuf[d] = CMPLX(x[2 * (j)], x[2 * (j) + 1]))
+#define STORE_CPLX_AS_PAIR(d, j) (q->fcbuf[2 * (d)] = (float)creal(x[j]), q->fcbuf[2 * (d) + 1] = (float)cimag(x[j]))
+#define STORE_PAIR(d, j) (q->fcbuf[2 * (d)] = x[2 * (j)], q->fcbuf[2 * (d) + 1] = x[2 * (j) + 1])
+
 ml_status ml_spectrum_push(ml_spectrum *q, const float *x, size_t n)
 {
-    if (q != NULL && q->cfg.complex_input)
-        return ML_EINVAL;
-    const unsigned char *tag = NULL;
-    PUSH_BODY(buf, tag)
+    return ml_spectrum_push_float_tagged(q, x, NULL, n);
 }
 
 ml_status ml_spectrum_push_double(ml_spectrum *q, const double *x, size_t n)
@@ -344,7 +401,14 @@ ml_status ml_spectrum_push_tagged(ml_spectrum *q, const double *x, const unsigne
 {
     if (q != NULL && q->cfg.complex_input)
         return ML_EINVAL;
-    PUSH_BODY(buf, tag)
+    PUSH_BODY(STORE_REAL, tag)
+}
+
+ml_status ml_spectrum_push_float_tagged(ml_spectrum *q, const float *x, const unsigned char *tag, size_t n)
+{
+    if (q != NULL && q->cfg.complex_input)
+        return ML_EINVAL;
+    PUSH_BODY(STORE_REAL, tag)
 }
 
 ml_status ml_spectrum_push_complex(ml_spectrum *q, const double _Complex *x, size_t n)
@@ -355,9 +419,23 @@ ml_status ml_spectrum_push_complex(ml_spectrum *q, const double _Complex *x, siz
 ml_status ml_spectrum_push_complex_tagged(ml_spectrum *q, const double _Complex *x, const unsigned char *tag,
                                           size_t n)
 {
-    if (q != NULL && !q->cfg.complex_input)
+    if (q == NULL || !q->cfg.complex_input)
         return ML_EINVAL;
-    PUSH_BODY(cbuf, tag)
+    if (q->cfg.single_precision) {
+        PUSH_BODY(STORE_CPLX_AS_PAIR, tag)
+    }
+    PUSH_BODY(STORE_CPLX, tag)
+}
+
+ml_status ml_spectrum_push_complex_float_tagged(ml_spectrum *q, const float *x, const unsigned char *tag,
+                                                size_t n)
+{
+    if (q == NULL || !q->cfg.complex_input)
+        return ML_EINVAL;
+    if (q->cfg.single_precision) {
+        PUSH_BODY(STORE_PAIR, tag)
+    }
+    PUSH_BODY(STORE_PAIR_AS_CPLX, tag)
 }
 
 ml_status ml_spectrum_use_selected(ml_spectrum *q, int on)
@@ -380,11 +458,14 @@ void ml_spectrum_scale(ml_spectrum *q, double gain)
     if (q == NULL)
         return;
     const double g2 = gain * gain;
+    const int same = sel_is_all(q);
     for (size_t k = 0; k < q->nbins; k++) {
         q->acc[k] *= g2;
         q->xacc[k] *= g2;
-        q->sel[k] *= g2;
-        q->xsel[k] *= g2;
+        if (!same) {
+            q->sel[k] *= g2;
+            q->xsel[k] *= g2;
+        }
     }
 }
 
@@ -458,7 +539,7 @@ ml_status ml_spectrum_get_psd(const ml_spectrum *q, double *psd, size_t nbins)
 
 const double *ml_spectrum_sum(const ml_spectrum *q)
 {
-    return q ? (q->use_sel ? q->sel : q->acc) : NULL;
+    return q ? (q->use_sel && !sel_is_all(q) ? q->sel : q->acc) : NULL;
 }
 
 ml_status ml_spectrum_get_frequency(const ml_spectrum *q, size_t k, double *hz)
@@ -470,7 +551,7 @@ ml_status ml_spectrum_get_frequency(const ml_spectrum *q, size_t k, double *hz)
         return ML_ENOSIGNAL;
     const double n = (double)q->cfg.nfft, hop = (double)q->cfg.hop;
     const double *acc = ml_spectrum_sum(q);
-    const fftw_complex *xacc = q->use_sel ? q->xsel : q->xacc;
+    const fftw_complex *xacc = q->use_sel && !sel_is_all(q) ? q->xsel : q->xacc;
     double delta;
     if (segs >= 2 && cabs(xacc[k]) > 0) {
         /* X_i[k] advances by 2 pi f hop / fs per segment [flanagan:1966]; the bin centre accounts

@@ -26,10 +26,10 @@ typedef struct {
     ml_window_type window; /* default ML_WINDOW_HFT248D                                   */
     double rate_hz;        /* sample rate: > 0                                            */
     int complex_input;     /* 0: real samples (push, push_double); 1: I/Q (push_complex)  */
-    int single_precision;  /* complex input only: transform in float (about twice as fast;
-                              its rounding floor lies some 150 dB below a strong tone's bin,
-                              tests/unit/test_dsp_spectrum.c), accumulate in double; the
-                              segment hook is then not called                                */
+    int single_precision;  /* complex input only: keep the samples and transform in float
+                              (about twice as fast; its rounding floor lies some 150 dB below
+                              a strong tone's bin, tests/unit/test_dsp_spectrum.c),
+                              accumulate in double; the segment hook is then not called      */
 } ml_spectrum_config;
 
 /* nfft: the power of two giving bins of about 0.75 Hz at rate_hz (at most 2^18); hop nfft/2. */
@@ -54,6 +54,11 @@ ml_status ml_spectrum_push_complex(ml_spectrum *q, const double _Complex *z, siz
 ml_status ml_spectrum_push_tagged(ml_spectrum *q, const double *x, const unsigned char *tag, size_t n);
 ml_status ml_spectrum_push_complex_tagged(ml_spectrum *q, const double _Complex *z, const unsigned char *tag,
                                           size_t n);
+/* Samples as read from a file: n real values (real input), or n (re, im) pairs of 2n floats
+ * (complex input only; ML_EINVAL otherwise). */
+ml_status ml_spectrum_push_float_tagged(ml_spectrum *q, const float *x, const unsigned char *tag, size_t n);
+ml_status ml_spectrum_push_complex_float_tagged(ml_spectrum *q, const float *iq, const unsigned char *tag,
+                                                size_t n);
 /* Getters read the selected-only accumulators (on != 0) or all segments (on == 0, the default).
  * ML_ENOSIGNAL (and no switch) when on and no segment was wholly tagged. */
 ml_status ml_spectrum_use_selected(ml_spectrum *q, int on);

@@ -33,6 +33,9 @@ typedef struct {
 ml_status ml_stats_init(ml_stats *q, int bits);
 void ml_stats_reset(ml_stats *q); /* keeps the thresholds */
 void ml_stats_push(ml_stats *q, const float *x, size_t n);
+/* The same for the n samples x[0], x[stride], x[2 stride], ... (one channel of interleaved
+ * frames: stride = channels); stride >= 1. Never allocates. */
+void ml_stats_push_strided(ml_stats *q, const float *x, size_t n, size_t stride);
 
 double ml_stats_mean(const ml_stats *q); /* 0 when empty */
 double ml_stats_rms(const ml_stats *q);  /* 0 when empty */
