@@ -33,9 +33,10 @@ struct ml_am {
     double complex rot[CHUNK]; /* exp(-2 pi i f k), k < CHUNK: the mixer within a chunk    */
     float ref_delayed[CHUNK];
     double lowest[CHUNK];
-    double yr[CHUNK + 3], yi[CHUNK + 3]; /* baseband behind the three samples before         */
-    double over[OVERSAMPLE * CHUNK];     /* oversampled envelope: OVERSAMPLE rows of CHUNK     */
-    double vmin[CHUNK], vmax[CHUNK];     /* their extremes per sample                          */
+    /* the oversampled envelope in single precision, in units of carrier_ref (see envelope_run) */
+    float yr[CHUNK + 3], yi[CHUNK + 3];  /* baseband behind the three samples before         */
+    float over[OVERSAMPLE * CHUNK];      /* oversampled envelope: OVERSAMPLE rows of CHUNK     */
+    float vmin[CHUNK], vmax[CHUNK];      /* their extremes per sample                          */
     /* delay lines of dly_len >= latency + CHUNK samples: reference channel and input */
     float *ref_ring;
     double complex *in_ring;
@@ -301,7 +302,8 @@ static void events(ml_am *q, const double complex *y, const double *e, const dou
 ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double complex *x, const float *a, size_t n)
 {
     const size_t at = *q->out_count + q->block_fill;
-    double *restrict e = q->out->env + at, *restrict low = q->lowest, *restrict v = q->over;
+    double *restrict e = q->out->env + at, *restrict low = q->lowest;
+    float *restrict v = q->over;
     const double *restrict yy = (const double *)y; /* C11 6.2.5: a complex is an array of two */
     for (size_t i = 0; i < n; i++) /* |y| without hypot: far from overflow and underflow */
         e[i] = sqrt(yy[2 * i] * yy[2 * i] + yy[2 * i + 1] * yy[2 * i + 1]);
@@ -326,76 +328,86 @@ ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double 
      * the complex baseband is interpolated [catmull:1974] and then its magnitude taken, so the V
      * of a phase reversal keeps its zero. The baseband goes into separate real and imaginary
      * arrays behind the three samples before, and each of the OVERSAMPLE values into its own
-     * array, so that the loop runs across samples in vector registers. */
+     * array, so that the loop runs across samples in vector registers. These values only go into
+     * the histograms (bins of 6e-5 carrier_ref), the extremes and the pinch-off test, so they are
+     * computed in single precision (relative rounding 6e-8, far below the interpolation's own
+     * error) in units of carrier_ref (so that no envelope level under- or overflows a float):
+     * twice the values per vector register. */
     const size_t skip = q->produced >= 3 ? 0 : 3 - (size_t)q->produced < n ? 3 - (size_t)q->produced : n;
-    double *restrict yr = q->yr, *restrict yi = q->yi;
+    const double inv_c = 1.0 / q->cfg.carrier_ref, c_ref = q->cfg.carrier_ref;
+    float *restrict yr = q->yr, *restrict yi = q->yi;
     for (size_t i = 0; i < 3; i++) {
-        yr[i] = creal(q->h[i]);
-        yi[i] = cimag(q->h[i]);
+        yr[i] = (float)(creal(q->h[i]) * inv_c);
+        yi[i] = (float)(cimag(q->h[i]) * inv_c);
     }
     for (size_t i = 0; i < n; i++) {
-        yr[i + 3] = creal(y[i]);
-        yi[i + 3] = cimag(y[i]);
+        yr[i + 3] = (float)(yy[2 * i] * inv_c);
+        yi[i + 3] = (float)(yy[2 * i + 1] * inv_c);
     }
-    double *restrict v0 = v, *restrict v1 = v + CHUNK, *restrict v2 = v + 2 * CHUNK, *restrict v3 = v + 3 * CHUNK;
-    double *restrict vmin = q->vmin, *restrict vmax = q->vmax;
+    float *restrict v0 = v, *restrict v1 = v + CHUNK, *restrict v2 = v + 2 * CHUNK, *restrict v3 = v + 3 * CHUNK;
+    float *restrict vmin = q->vmin, *restrict vmax = q->vmax;
     for (size_t i = skip; i < n; i++) {
         /* the cubic's coefficients once per interval (complex times real: no complex product) */
-        const double c0r = 2.0 * yr[i + 1], c1r = yr[i + 2] - yr[i],
-                     c2r = 2.0 * yr[i] - 5.0 * yr[i + 1] + 4.0 * yr[i + 2] - yr[i + 3],
-                     c3r = -yr[i] + 3.0 * yr[i + 1] - 3.0 * yr[i + 2] + yr[i + 3];
-        const double c0i = 2.0 * yi[i + 1], c1i = yi[i + 2] - yi[i],
-                     c2i = 2.0 * yi[i] - 5.0 * yi[i + 1] + 4.0 * yi[i + 2] - yi[i + 3],
-                     c3i = -yi[i] + 3.0 * yi[i + 1] - 3.0 * yi[i + 2] + yi[i + 3];
+        const float c0r = 2.0f * yr[i + 1], c1r = yr[i + 2] - yr[i],
+                    c2r = 2.0f * yr[i] - 5.0f * yr[i + 1] + 4.0f * yr[i + 2] - yr[i + 3],
+                    c3r = -yr[i] + 3.0f * yr[i + 1] - 3.0f * yr[i + 2] + yr[i + 3];
+        const float c0i = 2.0f * yi[i + 1], c1i = yi[i + 2] - yi[i],
+                    c2i = 2.0f * yi[i] - 5.0f * yi[i + 1] + 4.0f * yi[i + 2] - yi[i + 3],
+                    c3i = -yi[i] + 3.0f * yi[i + 1] - 3.0f * yi[i + 2] + yi[i + 3];
 #define ML_AM_OVER(K, OUT)                                                                        \
     do {                                                                                           \
-        const double t = (double)(K) / OVERSAMPLE, t2 = t * t, t3 = t2 * t;                        \
-        const double re = 0.5 * (c0r + c1r * t + c2r * t2 + c3r * t3);                             \
-        const double im = 0.5 * (c0i + c1i * t + c2i * t2 + c3i * t3);                             \
-        (OUT)[i] = sqrt(re * re + im * im);                                                        \
+        const float t = (float)(K) / OVERSAMPLE, t2 = t * t, t3 = t2 * t;                          \
+        const float re = 0.5f * (c0r + c1r * t + c2r * t2 + c3r * t3);                             \
+        const float im = 0.5f * (c0i + c1i * t + c2i * t2 + c3i * t3);                             \
+        (OUT)[i] = sqrtf(re * re + im * im);                                                       \
     } while (0)
         ML_AM_OVER(0, v0);
         ML_AM_OVER(1, v1);
         ML_AM_OVER(2, v2);
         ML_AM_OVER(3, v3);
 #undef ML_AM_OVER
-        const double lo01 = v0[i] < v1[i] ? v0[i] : v1[i], lo23 = v2[i] < v3[i] ? v2[i] : v3[i];
-        const double hi01 = v0[i] > v1[i] ? v0[i] : v1[i], hi23 = v2[i] > v3[i] ? v2[i] : v3[i];
+        const float lo01 = v0[i] < v1[i] ? v0[i] : v1[i], lo23 = v2[i] < v3[i] ? v2[i] : v3[i];
+        const float hi01 = v0[i] > v1[i] ? v0[i] : v1[i], hi23 = v2[i] > v3[i] ? v2[i] : v3[i];
         vmin[i] = lo01 < lo23 ? lo01 : lo23;
         vmax[i] = hi01 > hi23 ? hi01 : hi23;
     }
     for (size_t i = 0; i < skip; i++) /* no interval yet: the sample alone */
-        vmin[i] = vmax[i] = e[i];
-    for (size_t i = 0; i < n; i++)
-        low[i] = e[i] < vmin[i] ? e[i] : vmin[i];
+        vmin[i] = vmax[i] = (float)(e[i] * inv_c);
+    for (size_t i = 0; i < n; i++) {
+        const double m = (double)vmin[i] * c_ref;
+        low[i] = e[i] < m ? e[i] : m;
+    }
     /* extremes in lanes: no reduction across a vector register */
-    double hi = q->emax_abs, lo = q->emin_abs, hl[L], ll[L];
-    for (int k = 0; k < L; k++) {
-        hl[k] = hi;
-        ll[k] = lo;
+    enum { LF = 8 };
+    float hl[LF], ll[LF];
+    for (int k = 0; k < LF; k++) {
+        hl[k] = 0.0f;
+        ll[k] = INFINITY;
     }
     i = skip;
-    for (; i + L <= n; i += L)
-        for (int k = 0; k < L; k++) {
+    for (; i + LF <= n; i += LF)
+        for (int k = 0; k < LF; k++) {
             hl[k] = vmax[i + k] > hl[k] ? vmax[i + k] : hl[k];
             ll[k] = vmin[i + k] < ll[k] ? vmin[i + k] : ll[k];
         }
     for (; i < n; i++) {
-        hi = vmax[i] > hi ? vmax[i] : hi;
-        lo = vmin[i] < lo ? vmin[i] : lo;
+        hl[0] = vmax[i] > hl[0] ? vmax[i] : hl[0];
+        ll[0] = vmin[i] < ll[0] ? vmin[i] : ll[0];
     }
-    for (int k = 0; k < L; k++) {
-        hi = hl[k] > hi ? hl[k] : hi;
-        lo = ll[k] < lo ? ll[k] : lo;
+    double hi = q->emax_abs, lo = q->emin_abs;
+    for (int k = 0; k < LF; k++) {
+        const double h = (double)hl[k] * c_ref, l = (double)ll[k] * c_ref;
+        hi = h > hi ? h : hi;
+        lo = l < lo ? l : lo;
     }
     uint16_t *restrict bins = q->pending + q->npending;
-    const double hs = q->hist_scale;
+    const float hs = (float)(HIST_BINS / HIST_RANGE); /* bins per carrier_ref: a power of two */
     const size_t nv = OVERSAMPLE * (n - skip);
     for (int k = 0; k < OVERSAMPLE; k++) {
-        const double *restrict vk = v + (size_t)k * CHUNK;
+        const float *restrict vk = v + (size_t)k * CHUNK;
         uint16_t *restrict bk = bins + (size_t)k * (n - skip);
         for (size_t j = skip; j < n; j++) {
-            const double b = vk[j] * hs; /* clamped to the histogram; a NaN lands in bin 0 */
+            const float b = vk[j] * hs; /* clamped to the histogram; a NaN lands in bin 0 */
             bk[j - skip] = (uint16_t)(int32_t)(b > 0 ? (b < HIST_BINS - 1 ? b : HIST_BINS - 1) : 0);
         }
     }

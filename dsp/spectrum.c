@@ -224,9 +224,11 @@ static void split_selected(ml_spectrum *q)
 /* Adds segment spectrum x (and its cross-spectrum with prev, when not NULL) to the accumulators of
  * all segments, and to the selected ones when sel (with psel: the previous segment was selected
  * too). One pass over the bins: the arrays are larger than the caches for long transforms.
- * Instantiated for the double and the single precision transforms. */
-#define ML_ACCUMULATE(NAME, T)                                                                    \
-    ML_HOT static void NAME(ml_spectrum *q, const T *x, const T *prev, int sel, int psel)           \
+ * Instantiated for the double and the single precision transforms (R: the type of their real
+ * and imaginary parts). The usual case -- a previous segment and no selected sums to write --
+ * has a loop of its own over plain arrays, which vectorises; its arithmetic is accumulate_bin's. */
+#define ML_ACCUMULATE(NAME, T, R)                                                                 \
+    ML_HOT static void NAME(ml_spectrum *q, const T *x_, const T *prev_, int sel, int psel)         \
     {                                                                                              \
         const size_t nb = q->nbins;                                                                \
         const int same = sel_is_all(q);                                                            \
@@ -234,16 +236,31 @@ static void split_selected(ml_spectrum *q)
             split_selected(q);                                                                     \
         if (same) /* still the same sums: only acc and xacc are written */                         \
             sel = psel = 0;                                                                        \
-        for (size_t k = 0; k < nb; k++) {                                                          \
-            /* DC and Nyquist of a real signal have no mirror image: half the one-sided scale */  \
-            const double sc = !q->cfg.complex_input && (k == 0 || k + 1 == nb) ? 0.5 * q->scale    \
-                                                                               : q->scale;         \
-            const double c = prev ? creal(prev[k]) : 0, d = prev ? cimag(prev[k]) : 0;            \
-            accumulate_bin(q, k, sc, creal(x[k]), cimag(x[k]), prev != NULL, c, d, sel, psel);     \
+        const R *restrict x = (const R *)x_, *restrict pv = (const R *)prev_;                      \
+        /* DC and Nyquist of a real signal have no mirror image: half the one-sided scale */      \
+        const size_t lo = q->cfg.complex_input ? 0 : 1, hi = q->cfg.complex_input ? nb : nb - 1;   \
+        size_t k = lo;                                                                             \
+        if (pv != NULL && !sel) {                                                                  \
+            double *restrict acc = q->acc, *restrict xa = (double *)q->xacc;                       \
+            const double sc = q->scale;                                                            \
+            for (; k < hi; k++) {                                                                  \
+                const double a = x[2 * k], b = x[2 * k + 1], c = pv[2 * k], d = pv[2 * k + 1];     \
+                acc[k] += (a * a + b * b) * sc;                                                    \
+                xa[2 * k] += a * c + b * d;                                                        \
+                xa[2 * k + 1] += b * c - a * d;                                                    \
+            }                                                                                      \
+        }                                                                                          \
+        for (; k < hi; k++)                                                                        \
+            accumulate_bin(q, k, q->scale, x[2 * k], x[2 * k + 1], pv != NULL, pv ? pv[2 * k] : 0,  \
+                           pv ? pv[2 * k + 1] : 0, sel, psel);                                     \
+        for (size_t e = 0; lo == 1 && e < 2; e++) {                                                \
+            const size_t ke = e == 0 ? 0 : nb - 1;                                                 \
+            accumulate_bin(q, ke, 0.5 * q->scale, x[2 * ke], x[2 * ke + 1], pv != NULL,            \
+                           pv ? pv[2 * ke] : 0, pv ? pv[2 * ke + 1] : 0, sel, psel);               \
         }                                                                                          \
     }
-ML_ACCUMULATE(accumulate_d, fftw_complex)
-ML_ACCUMULATE(accumulate_f, fftwf_complex)
+ML_ACCUMULATE(accumulate_d, fftw_complex, double)
+ML_ACCUMULATE(accumulate_f, fftwf_complex, float)
 
 static void count_segment(ml_spectrum *q, int sel)
 {
