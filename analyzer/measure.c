@@ -5,7 +5,6 @@
 #include "analyzer/measure.h"
 
 #include <getopt.h>
-#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -385,14 +384,10 @@ int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_
     if (*got < want && !seg->live)
         return ml_cli_error("%s: file ends early: %lld of %lld frames could be read", o->input,
                             (long long)(done + (int64_t)*got), (long long)seg->nframes);
-    const size_t nch = (size_t)seg->info->channels, n = *got * nch;
-    int bad = 0; /* checked without an early exit, so that the loop vectorises */
-    for (size_t i = 0; i < n; i++)
-        bad |= !(fabsf(buf[i]) <= FLT_MAX);
-    for (size_t i = 0; bad && i < n; i++)
-        if (!isfinite(buf[i]))
-            return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)",
-                                o->input, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
+    const size_t nch = (size_t)seg->info->channels, n = *got * nch, i = ml_first_nonfinite(buf, n);
+    if (i < n)
+        return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)",
+                            o->input, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
     return 0;
 }
 

@@ -47,16 +47,19 @@ static void split(const float *buf, size_t got, size_t nch, const ml_measure_opt
                   float *ref)
 {
     const size_t c0 = (size_t)(o->channel - 1);
-    for (size_t i = 0; i < got; i++) {
-        const float *fr = buf + i * nch;
-        if (iq) {
-            double a = fr[c0], b = fr[c0 + 1];
-            z[i] = o->swap_iq ? CMPLX(b, a) : CMPLX(a, b);
-        } else {
-            z[i] = CMPLX(fr[c0], 0.0);
-        }
-        if (ref)
-            ref[i] = fr[o->reference_channel - 1];
+    /* one plain loop per case */
+    if (iq) {
+        const size_t ci = o->swap_iq ? c0 + 1 : c0, cq = o->swap_iq ? c0 : c0 + 1;
+        for (size_t i = 0; i < got; i++)
+            z[i] = CMPLX(buf[i * nch + ci], buf[i * nch + cq]);
+    } else {
+        for (size_t i = 0; i < got; i++)
+            z[i] = CMPLX(buf[i * nch + c0], 0.0);
+    }
+    if (ref) {
+        const size_t cr = (size_t)(o->reference_channel - 1);
+        for (size_t i = 0; i < got; i++)
+            ref[i] = buf[i * nch + cr];
     }
 }
 
@@ -92,15 +95,24 @@ static void fifo_append(feed_ctx *f, const float *raw, size_t got)
         i = got < f->skip ? got : (size_t)f->skip;
         f->skip -= i;
     }
-    const size_t w = f->iq ? 2 : 1;
-    size_t at = (f->fifo_head + f->fifo_len) % f->fifo_cap;
-    for (; i < got; i++) {
-        const float *fr = raw + i * f->nch;
-        f->fifo[w * at] = fr[f->col[0]];
-        if (f->iq)
-            f->fifo[w * at + 1] = fr[f->col[1]];
-        at = at + 1 == f->fifo_cap ? 0 : at + 1;
-        f->fifo_len++;
+    const size_t nch = f->nch, c0 = f->col[0], c1 = f->col[1];
+    while (i < got) {
+        /* up to the ring's end at a time, in plain loops */
+        const size_t at = (f->fifo_head + f->fifo_len) % f->fifo_cap;
+        const size_t m = got - i < f->fifo_cap - at ? got - i : f->fifo_cap - at;
+        const float *restrict fr = raw + i * nch;
+        float *restrict dst = f->fifo + (f->iq ? 2 : 1) * at;
+        if (f->iq) {
+            for (size_t j = 0; j < m; j++) {
+                dst[2 * j] = fr[j * nch + c0];
+                dst[2 * j + 1] = fr[j * nch + c1];
+            }
+        } else {
+            for (size_t j = 0; j < m; j++)
+                dst[j] = fr[j * nch + c0];
+        }
+        f->fifo_len += m;
+        i += m;
     }
 }
 

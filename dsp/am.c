@@ -266,35 +266,51 @@ static bool phase_reversed(double complex y, double complex y0)
  * [haykin:2001]. */
 static void events(ml_am *q, const double complex *y, const double *e, const double *low, size_t n)
 {
-    const double half = 0.5 * q->cfg.carrier_ref;
+    /* the state in locals for the loop: stores through q could alias the arrays read */
+    const double half = 0.5 * q->cfg.carrier_ref, thr_good = q->thr_good, thr_in = q->thr_in;
+    const double thr_pos_in = q->thr_pos_in, thr_pos_out = q->thr_pos_out;
+    bool in_low = q->in_low, in_pos = q->in_pos, have_prev = q->have_prev;
+    double low_min = q->low_min, prev_env = q->prev_env;
+    double complex y_before = q->y_before, prev_y = q->prev_y;
+    uint64_t reversals = 0, pinches = 0, over = 0;
     for (size_t i = 0; i < n; i++) {
-        if (e[i] < q->thr_good) {
-            if (!q->in_low) {
-                q->in_low = true;
-                q->low_min = INFINITY;
-                q->y_before = q->have_prev ? q->prev_y : y[i];
+        if (e[i] < thr_good) {
+            if (!in_low) {
+                in_low = true;
+                low_min = INFINITY;
+                y_before = have_prev ? prev_y : y[i];
             }
-            if (low[i] < q->low_min)
-                q->low_min = low[i];
-        } else if (q->in_low) {
-            if (phase_reversed(y[i], q->y_before))
-                q->reversal_events++;
-            else if (q->low_min < q->thr_in)
-                q->pinch_events++;
-            q->in_low = false;
-        } else if (q->have_prev && q->prev_env < half && e[i] < half && phase_reversed(y[i], q->prev_y)) {
-            q->reversal_events++;
+            if (low[i] < low_min)
+                low_min = low[i];
+        } else if (in_low) {
+            if (phase_reversed(y[i], y_before))
+                reversals++;
+            else if (low_min < thr_in)
+                pinches++;
+            in_low = false;
+        } else if (have_prev && prev_env < half && e[i] < half && phase_reversed(y[i], prev_y)) {
+            reversals++;
         }
-        q->prev_env = e[i];
-        q->prev_y = y[i];
-        q->have_prev = true;
-        if (!q->in_pos && e[i] > q->thr_pos_in) {
-            q->in_pos = true;
-            q->positive_over++;
-        } else if (q->in_pos && e[i] < q->thr_pos_out) {
-            q->in_pos = false;
+        prev_env = e[i];
+        prev_y = y[i];
+        have_prev = true;
+        if (!in_pos && e[i] > thr_pos_in) {
+            in_pos = true;
+            over++;
+        } else if (in_pos && e[i] < thr_pos_out) {
+            in_pos = false;
         }
     }
+    q->in_low = in_low;
+    q->in_pos = in_pos;
+    q->have_prev = have_prev;
+    q->low_min = low_min;
+    q->prev_env = prev_env;
+    q->y_before = y_before;
+    q->prev_y = prev_y;
+    q->reversal_events += reversals;
+    q->pinch_events += pinches;
+    q->positive_over += over;
 }
 
 /* n <= CHUNK clean baseband samples y (input samples x, aligned reference a) that all belong to

@@ -30,6 +30,14 @@
 #define ML_HOT
 #endif
 
+/* A helper that must be inlined into its (ML_HOT) caller, so that it is compiled for the caller's
+ * instruction set. */
+#if defined(__GNUC__)
+#define ML_INLINE inline __attribute__((always_inline))
+#else
+#define ML_INLINE inline
+#endif
+
 /* 10*log10(x) with a floor so that zero power gives a finite, very low number. */
 double ml_db10(double x);
 

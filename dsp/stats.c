@@ -30,21 +30,20 @@ void ml_stats_reset(ml_stats *q)
 }
 
 #define LANES ML_STATS_LANES
-#define RUN 256 /* samples checked for finiteness at a time */
+#define RUN 256 /* samples gathered and checked at a time */
 
-/* Length of the leading run of finite samples among x[0], x[stride], ... (n of them): checked
- * RUN at a time with no early exit, so the check vectorises; only a run holding a non-finite
- * sample is scanned one by one. */
-static size_t finite_run(const float *x, size_t n, size_t stride)
+size_t ml_first_nonfinite(const float *x, size_t n)
 {
     size_t i = 0;
     while (i < n) {
+        /* RUN at a time with no early exit, so that the check vectorises; only a run that holds
+         * a non-finite sample is scanned one by one */
         const size_t m = n - i < RUN ? n - i : RUN;
         int bad = 0;
         for (size_t j = 0; j < m; j++)
-            bad |= !(fabsf(x[(i + j) * stride]) <= FLT_MAX); /* NaN and infinities */
+            bad |= !(fabsf(x[i + j]) <= FLT_MAX); /* NaN and infinities */
         if (bad) {
-            while (isfinite(x[i * stride]))
+            while (isfinite(x[i]))
                 i++;
             return i;
         }
@@ -53,15 +52,17 @@ static size_t finite_run(const float *x, size_t n, size_t stride)
     return n;
 }
 
-/* Adds n finite samples x[0], x[stride], ... to the lanes, the first to lane q->count % LANES. */
-static inline void add_finite(ml_stats *q, const float *x, size_t n, size_t stride)
+/* Adds n <= RUN finite contiguous samples to the lanes, the first to lane q->count % LANES. */
+static ML_INLINE void add_finite(ml_stats *q, const double *x, size_t n)
 {
-    double *restrict s = q->lane_sum, *restrict ss = q->lane_sumsq;
     if (n > 0 && q->count == 0)
         q->min = q->max = x[0];
-    double lo[LANES], hi[LANES];
+    /* the lanes in local arrays, so that the compiler keeps them in vector registers */
+    double s[LANES], ss[LANES], lo[LANES], hi[LANES];
     uint64_t cl[LANES] = {0};
     for (int k = 0; k < LANES; k++) {
+        s[k] = q->lane_sum[k];
+        ss[k] = q->lane_sumsq[k];
         lo[k] = q->min;
         hi[k] = q->max;
     }
@@ -73,23 +74,58 @@ static inline void add_finite(ml_stats *q, const float *x, size_t n, size_t stri
         ss[k] += (v) * (v);                                                                        \
         lo[k] = (v) < lo[k] ? (v) : lo[k];                                                         \
         hi[k] = (v) > hi[k] ? (v) : hi[k];                                                         \
-        cl[k] += (v) >= chi || (v) <= clo;                                                         \
+        cl[k] += (uint64_t)(((v) >= chi) | ((v) <= clo));                                          \
     } while (0)
     for (; j < n && lane != 0; j++, lane = (lane + 1) % LANES) {
-        const double v = x[j * stride];
+        const double v = x[j];
         ML_STATS_ADD(lane, v);
     }
+#if defined(__GNUC__) && LANES == 8
+    /* The same per-lane operations in vector registers (GNU C vector extensions, also in clang):
+     * compilers do not vectorise these lane-wise reductions themselves. */
+    typedef double v4d __attribute__((vector_size(32)));
+    typedef long long v4i __attribute__((vector_size(32)));
+    if (j + LANES <= n) {
+        v4d vs[2], vss[2], vlo[2], vhi[2];
+        v4i vcl[2] = {{0, 0, 0, 0}, {0, 0, 0, 0}};
+        memcpy(vs, s, sizeof vs);
+        memcpy(vss, ss, sizeof vss);
+        memcpy(vlo, lo, sizeof vlo);
+        memcpy(vhi, hi, sizeof vhi);
+        const v4d vchi = {chi, chi, chi, chi}, vclo = {clo, clo, clo, clo};
+        for (; j + LANES <= n; j += LANES)
+            for (int h = 0; h < 2; h++) {
+                v4d v;
+                memcpy(&v, x + j + 4 * h, sizeof v);
+                vs[h] += v;
+                vss[h] += v * v;
+                const v4i below = v < vlo[h], above = v > vhi[h];
+                vlo[h] = (v4d)((below & (v4i)v) | (~below & (v4i)vlo[h]));
+                vhi[h] = (v4d)((above & (v4i)v) | (~above & (v4i)vhi[h]));
+                vcl[h] -= (v >= vchi) | (v <= vclo); /* a true comparison is -1 */
+            }
+        memcpy(s, vs, sizeof vs);
+        memcpy(ss, vss, sizeof vss);
+        memcpy(lo, vlo, sizeof vlo);
+        memcpy(hi, vhi, sizeof vhi);
+        for (int k = 0; k < LANES; k++)
+            cl[k] += (uint64_t)vcl[k / 4][k % 4];
+    }
+#else
     for (; j + LANES <= n; j += LANES)
         for (int k = 0; k < LANES; k++) {
-            const double v = x[(j + k) * stride];
+            const double v = x[j + k];
             ML_STATS_ADD(k, v);
         }
+#endif
     for (int k = 0; j < n; j++, k++) {
-        const double v = x[j * stride];
+        const double v = x[j];
         ML_STATS_ADD(k, v);
     }
 #undef ML_STATS_ADD
     for (int k = 0; k < LANES; k++) {
+        q->lane_sum[k] = s[k];
+        q->lane_sumsq[k] = ss[k];
         q->min = lo[k] < q->min ? lo[k] : q->min;
         q->max = hi[k] > q->max ? hi[k] : q->max;
         q->clipped += cl[k];
@@ -99,18 +135,31 @@ static inline void add_finite(ml_stats *q, const float *x, size_t n, size_t stri
 
 ML_HOT void ml_stats_push_strided(ml_stats *q, const float *x, size_t n, size_t stride)
 {
+    double buf[RUN];
     size_t i = 0;
     while (i < n) {
-        /* a run of finite samples goes through the lanes (which vectorise); a non-finite one is
-         * counted and skipped. RUN at a time, so the samples are still in cache for the lanes. */
+        /* RUN samples gathered into a contiguous run of doubles; its finite samples go through
+         * the lanes (which vectorise), a non-finite one is counted and skipped */
         const size_t m = n - i < RUN ? n - i : RUN;
-        const size_t run = finite_run(x + i * stride, m, stride);
-        add_finite(q, x + i * stride, run, stride);
-        i += run;
-        if (run < m) {
-            q->nonfinite++;
-            i++;
+        int bad = 0;
+        for (size_t j = 0; j < m; j++) {
+            buf[j] = x[(i + j) * stride];
+            bad |= !(fabs(buf[j]) <= DBL_MAX);
         }
+        size_t j = 0;
+        while (j < m) {
+            size_t run = m - j;
+            if (bad)
+                for (run = 0; j + run < m && isfinite(buf[j + run]); run++)
+                    ;
+            add_finite(q, buf + j, run);
+            j += run;
+            if (j < m) {
+                q->nonfinite++;
+                j++;
+            }
+        }
+        i += m;
     }
     double sum = 0, sumsq = 0;
     for (int k = 0; k < LANES; k++) {

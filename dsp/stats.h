@@ -37,6 +37,9 @@ void ml_stats_push(ml_stats *q, const float *x, size_t n);
  * frames: stride = channels); stride >= 1. Never allocates. */
 void ml_stats_push_strided(ml_stats *q, const float *x, size_t n, size_t stride);
 
+/* Index of the first NaN or infinite value among x[0..n-1], or n when all are finite. */
+size_t ml_first_nonfinite(const float *x, size_t n);
+
 double ml_stats_mean(const ml_stats *q); /* 0 when empty */
 double ml_stats_rms(const ml_stats *q);  /* 0 when empty */
 
