@@ -418,6 +418,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ac_cfg.transition_hz = transition;
     ac_cfg.hold_s = o->peak_hold_ms / 1000.0;
     ac_cfg.has_reference = o->reference_channel > 0;
+    ac_cfg.single_precision = true; /* rounding near a float capture's own resolution (dsp/cfir.h) */
     for (size_t i = 0; o->limits && i < o->limits->n; i++)
         if (strcmp(o->limits->items[i].metric, "modulation.positive_peak_pct") == 0 && o->limits->items[i].has_max)
             ac_cfg.positive_limit_pct = o->limits->items[i].max;

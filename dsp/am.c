@@ -101,6 +101,7 @@ ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double car
         .pinch_rel = 0.01,
         .positive_limit_pct = 125.0,
         .has_reference = false,
+        .single_precision = false,
     };
     return c;
 }
@@ -123,7 +124,8 @@ ml_status ml_am_create(const ml_am_config *cfg, ml_am **out)
         return ML_ENOMEM;
     q->cfg = *cfg;
     ml_cfir_config fc = {.rate_hz = cfg->rate_hz, .cutoff_hz = cfg->bandwidth_hz,
-                         .transition_hz = cfg->transition_hz, .stop_db = 100.0};
+                         .transition_hz = cfg->transition_hz, .stop_db = 100.0,
+                         .single_precision = cfg->single_precision};
     ml_status st = ml_cfir_create(&fc, &q->filter);
     if (st != ML_OK) {
         free(q);

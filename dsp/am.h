@@ -59,6 +59,8 @@ typedef struct {
     double pinch_rel;          /* pinch-off level, fraction of carrier_ref (default 0.01)          */
     double positive_limit_pct; /* positive peak limit for counting excursions (default 125)        */
     bool has_reference;        /* a reference channel is pushed alongside                         */
+    bool single_precision;     /* channel filter transforms in float (dsp/cfir.h: about half the
+                                  time, rounding some 140 dB below the signal); default false      */
 } ml_am_config;
 
 typedef struct {

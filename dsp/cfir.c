@@ -52,6 +52,9 @@ struct ml_cfir {
     fftw_complex *resp; /* DFT of the zero-padded taps, divided by N                   */
     fftw_plan fwd;      /* in -> work                                                  */
     fftw_plan inv;      /* work -> work                                                */
+    /* single precision: the same buffers and plans in float (the double ones stay NULL) */
+    fftwf_complex *fin, *fwork, *fresp;
+    fftwf_plan ffwd, finv;
 };
 
 ml_cfir_config ml_cfir_config_default(double rate_hz, double cutoff_hz)
@@ -260,6 +263,31 @@ ml_status ml_cfir_create(const ml_cfir_config *cfg, ml_cfir **out)
     for (size_t i = 0; i < q->nfft; i++)
         q->in[i] = i < m ? q->taps[i] / (double)q->nfft : 0.0;
     fftw_execute_dft(q->fwd, q->in, q->resp);
+    if (cfg->single_precision) {
+        /* the response is computed in double and rounded once; the double buffers go */
+        st = ML_ENOMEM;
+        q->fin = fftwf_alloc_complex(q->nfft);
+        q->fwork = fftwf_alloc_complex(q->nfft);
+        q->fresp = fftwf_alloc_complex(q->nfft);
+        if (q->fin == NULL || q->fwork == NULL || q->fresp == NULL)
+            goto fail;
+        for (size_t k = 0; k < q->nfft; k++) {
+            ((float *)q->fresp)[2 * k] = (float)creal(q->resp[k]);
+            ((float *)q->fresp)[2 * k + 1] = (float)cimag(q->resp[k]);
+        }
+        st = ML_EFFT;
+        q->ffwd = fftwf_plan_dft_1d((int)q->nfft, q->fin, q->fwork, FFTW_FORWARD, FFTW_ESTIMATE);
+        q->finv = fftwf_plan_dft_1d((int)q->nfft, q->fwork, q->fwork, FFTW_BACKWARD, FFTW_ESTIMATE);
+        if (q->ffwd == NULL || q->finv == NULL)
+            goto fail;
+        fftw_destroy_plan(q->fwd);
+        fftw_destroy_plan(q->inv);
+        q->fwd = q->inv = NULL;
+        fftw_free(q->in);
+        fftw_free(q->work);
+        fftw_free(q->resp);
+        q->in = q->work = q->resp = NULL;
+    }
     ml_cfir_reset(q);
     *out = q;
     return ML_OK;
@@ -276,6 +304,13 @@ void ml_cfir_destroy(ml_cfir *q)
         fftw_destroy_plan(q->fwd);
     if (q->inv != NULL)
         fftw_destroy_plan(q->inv);
+    if (q->ffwd != NULL)
+        fftwf_destroy_plan(q->ffwd);
+    if (q->finv != NULL)
+        fftwf_destroy_plan(q->finv);
+    fftwf_free(q->fin);
+    fftwf_free(q->fwork);
+    fftwf_free(q->fresp);
     fftw_free(q->in);
     fftw_free(q->work);
     fftw_free(q->resp);
@@ -289,8 +324,13 @@ void ml_cfir_reset(ml_cfir *q)
         return;
     /* zero history = silence before the first input; zero work = the outputs of that silence,
      * handed out during the first block */
-    memset(q->in, 0, q->nfft * sizeof *q->in);
-    memset(q->work, 0, q->nfft * sizeof *q->work);
+    if (q->cfg.single_precision) {
+        memset(q->fin, 0, q->nfft * sizeof *q->fin);
+        memset(q->fwork, 0, q->nfft * sizeof *q->fwork);
+    } else {
+        memset(q->in, 0, q->nfft * sizeof *q->in);
+        memset(q->work, 0, q->nfft * sizeof *q->work);
+    }
     q->fill = 0;
 }
 
@@ -321,6 +361,33 @@ static void transform(ml_cfir *q)
     q->fill = 0;
 }
 
+/* The same in single precision. */
+ML_HOT static void transform_single(ml_cfir *q)
+{
+    const size_t n = q->nfft, hist = q->ntaps - 1;
+    fftwf_execute(q->ffwd);
+    float *restrict w = (float *)q->fwork;
+    const float *restrict r = (const float *)q->fresp;
+    for (size_t k = 0; k < n; k++) {
+        const float a = w[2 * k], b = w[2 * k + 1], c = r[2 * k], d = r[2 * k + 1];
+        w[2 * k] = a * c - b * d;
+        w[2 * k + 1] = a * d + b * c;
+    }
+    fftwf_execute(q->finv);
+    memcpy(q->fin, q->fin + q->block, hist * sizeof *q->fin);
+    q->fill = 0;
+}
+
+/* Rounds x[n] into the float input buffer at d and widens the float outputs at s into y[n]. */
+ML_HOT static void exchange_single(float *restrict d, const float *restrict s, const double *restrict x,
+                                   double *restrict y, size_t n)
+{
+    for (size_t i = 0; i < 2 * n; i++)
+        d[i] = (float)x[i];
+    for (size_t i = 0; i < 2 * n; i++)
+        y[i] = s[i];
+}
+
 ml_status ml_cfir_push(ml_cfir *q, const double complex *x, size_t n, double complex *y)
 {
     if (q == NULL || (n > 0 && (x == NULL || y == NULL)))
@@ -331,12 +398,17 @@ ml_status ml_cfir_push(ml_cfir *q, const double complex *x, size_t n, double com
         size_t take = q->block - q->fill;
         if (take > n - i)
             take = n - i;
-        memcpy(q->in + hist + q->fill, x + i, take * sizeof *x);
-        memcpy(y + i, q->work + hist + q->fill, take * sizeof *y);
+        if (q->cfg.single_precision) {
+            exchange_single((float *)(q->fin + hist + q->fill), (const float *)(q->fwork + hist + q->fill),
+                            (const double *)(x + i), (double *)(y + i), take);
+        } else {
+            memcpy(q->in + hist + q->fill, x + i, take * sizeof *x);
+            memcpy(y + i, q->work + hist + q->fill, take * sizeof *y);
+        }
         q->fill += take;
         i += take;
         if (q->fill == q->block)
-            transform(q);
+            q->cfg.single_precision ? transform_single(q) : transform(q);
     }
     return ML_OK;
 }
