@@ -42,9 +42,8 @@
 #define CARRIER_MIN_REL 1e-3  /* a carrier is at most 60 dB below the strongest component      */
 #define BATCH_FRAMES (8 * ML_BLOCK_FRAMES) /* frames per hand-over to the spectrum thread         */
 
-/* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped), ref (may be NULL). */
-static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z,
-                  float *ref)
+/* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped). */
+static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z)
 {
     const size_t c0 = (size_t)(o->channel - 1);
     /* one plain loop per case */
@@ -55,11 +54,6 @@ static void split(const float *buf, size_t got, size_t nch, const ml_measure_opt
     } else {
         for (size_t i = 0; i < got; i++)
             z[i] = CMPLX(buf[i * nch + c0], 0.0);
-    }
-    if (ref) {
-        const size_t cr = (size_t)(o->reference_channel - 1);
-        for (size_t i = 0; i < got; i++)
-            ref[i] = buf[i * nch + cr];
     }
 }
 
@@ -76,7 +70,6 @@ typedef struct {
     uint64_t env_seen;     /* envelope samples fed so far (the decimation's phase)            */
     double *denv;          /* the kept samples and their tags, of one batch                   */
     unsigned char *dtag;
-    ml_stats *stats;       /* of the measured channels (I and Q, or the IF signal)            */
     size_t nch, col[2];    /* frame width, and the columns of I and Q (or of the IF signal)   */
     /* The captured samples wait here, as read, until the demodulator has classified them (its
      * envelope comes out a filter delay and up to a block later): a ring of (I, Q) pairs or IF
@@ -158,7 +151,7 @@ static void feed(feed_ctx *f, const ml_am_output *out, size_t n)
 typedef struct {
     ml_am_output out;
     size_t n;
-    float *raw;            /* the batch's frames as read, for the capture statistics          */
+    float *raw;            /* the batch's frames as read, for the captured signal's spectrum  */
     size_t got;
 } feed_batch;
 
@@ -166,8 +159,6 @@ static void feed_job(void *ctx, void *batch)
 {
     feed_ctx *f = ctx;
     feed_batch *b = batch;
-    for (int c = 0; c < (f->iq ? 2 : 1); c++)
-        ml_stats_push_strided(&f->stats[c], b->raw + f->col[c], b->got, f->nch);
     fifo_append(f, b->raw, b->got);
     feed(f, &b->out, b->n);
     if (f->plot)
@@ -200,14 +191,12 @@ static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_
     if (buf == NULL || z == NULL || mono == NULL)
         rc = ml_cli_error("%s: out of memory", o->input);
     int64_t done = 0;
-    ml_measure_opts plain = *o;
-    plain.reference_channel = 0;
     while (rc == 0 && done < frames) {
         size_t want = frames - done < ML_BLOCK_FRAMES ? (size_t)(frames - done) : ML_BLOCK_FRAMES, got = 0;
         rc = ml_measure_read(o, seg, buf, want, &got, done);
         if (rc != 0)
             break;
-        split(buf, got, nch, &plain, iq, z, NULL);
+        split(buf, got, nch, o, iq, z);
         if (iq) {
             ml_spectrum_push_complex(*out, z, got);
         } else {
@@ -425,7 +414,6 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ml_spectrum *rf = NULL, *aud = NULL;
     ml_am *am = NULL;
     float *ref = NULL;
-    double complex *z = NULL;
     feed_batch batch[2] = {{{0}, 0, NULL, 0}, {{0}, 0, NULL, 0}};
     ml_worker *worker = NULL;
     ml_blocks *blocks = NULL;
@@ -471,8 +459,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (o->plot)
         ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
     ref = malloc(BATCH_FRAMES * sizeof *ref);
-    z = malloc(BATCH_FRAMES * sizeof *z);
-    bool nomem = ref == NULL || z == NULL;
+    bool nomem = ref == NULL;
     for (int k = 0; k < 2; k++) {
         batch[k].raw = malloc(BATCH_FRAMES * nch * sizeof *batch[k].raw);
         nomem = nomem || batch[k].raw == NULL;
@@ -499,11 +486,13 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
-    fctx.stats = stats;
     fctx.nch = nch;
     fctx.col[0] = (size_t)(o->channel - 1) + (iq && o->swap_iq ? 1 : 0); /* as split() */
     fctx.col[1] = (size_t)(o->channel - 1) + (o->swap_iq ? 0 : 1);
     worker = ml_worker_start(feed_job, &fctx); /* NULL: feed runs on this thread */
+    /* the demodulator reads its columns straight from the frames (as split() would give them) */
+    ml_am_frames frames = {.stride = nch, .re = fctx.col[0], .im = fctx.col[1],
+                           .ref = o->reference_channel > 0 ? (size_t)(o->reference_channel - 1) : 0};
     int k = 0;
     int64_t done_frames = 0, next = 0;
     bool shown = false;
@@ -516,10 +505,15 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         if (rc != 0)
             goto done;
         batch[k].got = got;
-        split(batch[k].raw, got, nch, o, iq, z, o->reference_channel > 0 ? ref : NULL);
-        if (o->plot) /* the reference channel's window; the envelope's goes in on the feed thread */
+        frames.data = batch[k].raw;
+        for (int c = 0; c < (iq ? 2 : 1); c++) /* here: the two threads' shares stay balanced */
+            ml_stats_push_strided(&stats[c], batch[k].raw + fctx.col[c], got, nch);
+        if (o->plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
+            for (size_t i = 0; o->reference_channel > 0 && i < got; i++)
+                ref[i] = batch[k].raw[i * nch + (size_t)(o->reference_channel - 1)];
             ml_plots_input(o->plot, done_frames, o->reference_channel > 0 ? ref : NULL, got);
-        ml_am_push(am, z, o->reference_channel > 0 ? ref : NULL, got, &batch[k].out, &batch[k].n);
+        }
+        ml_am_push_frames(am, &frames, got, &batch[k].out, &batch[k].n);
         ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
         k ^= 1;
         done_frames += (int64_t)got;
@@ -702,7 +696,6 @@ done:
     free(fctx.fifo);
     ml_blocks_destroy(blocks);
     free(ref);
-    free(z);
     for (int b = 0; b < 2; b++) {
         free(batch[b].raw);
         free(batch[b].out.env);

@@ -30,6 +30,8 @@ struct ml_am {
     uint64_t in_count;       /* input samples pushed                                   */
     bool finished;           /* finish was called: no more pushes until reset          */
     double complex mixed[CHUNK], filtered[CHUNK], delayed[CHUNK];
+    double complex zin[CHUNK];  /* a chunk of ml_am_push_frames input, and its reference        */
+    float refin[CHUNK];
     double complex rot[CHUNK]; /* exp(-2 pi i f k), k < CHUNK: the mixer within a chunk    */
     float ref_delayed[CHUNK];
     double lowest[CHUNK];
@@ -492,7 +494,8 @@ static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
 
 /* Runs n input samples (z == NULL: zeros, for the final flush) through mixer, filter and delay
  * lines, and the clean outputs through envelope_run, cut at block ends. */
-ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *ref, size_t n)
+ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *ref, const ml_am_frames *fr,
+                                size_t n)
 {
     const double f = q->cfg.carrier_hz / q->cfg.rate_hz;
     const double gain = q->cfg.complex_input ? 1.0 : 2.0;
@@ -500,6 +503,22 @@ ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *
     while (done < n) {
         size_t m = n - done < CHUNK ? n - done : CHUNK;
         const double complex *zc = z ? z + done : NULL;
+        const float *rc = ref ? ref + done : NULL;
+        if (fr != NULL) { /* the chunk's columns out of the frames */
+            const float *restrict d = fr->data + done * fr->stride;
+            const size_t st = fr->stride, re = fr->re, im = fr->im;
+            if (q->cfg.complex_input) {
+                for (size_t i = 0; i < m; i++)
+                    q->zin[i] = CMPLX(d[i * st + re], d[i * st + im]);
+            } else {
+                for (size_t i = 0; i < m; i++)
+                    q->zin[i] = CMPLX(d[i * st + re], 0.0);
+            }
+            for (size_t i = 0; q->cfg.has_reference && i < m; i++)
+                q->refin[i] = d[i * st + fr->ref];
+            zc = q->zin;
+            rc = q->cfg.has_reference ? q->refin : NULL;
+        }
         /* mixer: the chunk's start phase exactly from the sample index, times a table within it
          * (products written out: C's complex '*' also handles infinities, C11 Annex G, at a call
          * per sample; these operands are always finite) */
@@ -521,10 +540,8 @@ ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *
         /* output t is input t - latency: the delay lines line up its input and reference */
         if (q->out->in != NULL)
             DELAY(q->in_ring, q->dly_len, q->dly_pos, q->latency, zc, q->delayed, m, 0.0);
-        if (q->cfg.has_reference) {
-            const float *rc = ref ? ref + done : NULL;
+        if (q->cfg.has_reference)
             DELAY(q->ref_ring, q->dly_len, q->dly_pos, q->latency, rc, q->ref_delayed, m, 0.0f);
-        }
         q->dly_pos = (q->dly_pos + m) % q->dly_len;
         /* it is only clean once the filter's past half holds input, i.e. from input index
          * startup on: outputs with t < latency + startup are left out */
@@ -571,7 +588,20 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
         || (q->cfg.has_reference && n > 0 && ref == NULL) || q->finished)
         return ML_EINVAL;
     begin_output(q, out, count);
-    ml_status st = process(q, z, ref, n);
+    ml_status st = process(q, z, ref, NULL, n);
+    end_output(q);
+    return st;
+}
+
+ml_status ml_am_push_frames(ml_am *q, const ml_am_frames *in, size_t n, const ml_am_output *out, size_t *count)
+{
+    if (q == NULL || count == NULL || !output_ok(q, out, n) || q->finished
+        || (n > 0 && (in == NULL || in->data == NULL || in->stride == 0 || in->re >= in->stride
+                      || (q->cfg.complex_input && in->im >= in->stride)
+                      || (q->cfg.has_reference && in->ref >= in->stride))))
+        return ML_EINVAL;
+    begin_output(q, out, count);
+    ml_status st = process(q, NULL, NULL, in, n);
     end_output(q);
     return st;
 }
@@ -583,7 +613,7 @@ ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count)
     begin_output(q, out, count);
     /* Flush: latency - startup zeros bring out the envelope of the inputs up to n - startup - 1,
      * the last whose filter window lies wholly inside the input; later ones would see the zeros. */
-    ml_status st = process(q, NULL, NULL, q->latency - q->startup);
+    ml_status st = process(q, NULL, NULL, NULL, q->latency - q->startup);
     if (st == ML_OK)
         end_block(q);
     end_output(q);

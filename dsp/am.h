@@ -122,6 +122,17 @@ size_t ml_am_output_cap(const ml_am *q, size_t n);
 ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
                      size_t *count);
 
+/* The same for n frames of interleaved float samples as read from a file: frame i holds the
+ * real part at data[i * stride + re], for complex input the imaginary part at
+ * data[i * stride + im], and with has_reference the reference at data[i * stride + ref]
+ * (columns < stride). Gives exactly what ml_am_push gives for the same values, without the
+ * caller splitting the columns first. ML_EINVAL as ml_am_push, or for a column outside the frame. */
+typedef struct {
+    const float *data;
+    size_t stride, re, im, ref;
+} ml_am_frames;
+ml_status ml_am_push_frames(ml_am *q, const ml_am_frames *in, size_t n, const ml_am_output *out, size_t *count);
+
 /* Flushes the channel filter, classifies and releases the last partial block. Call once at the
  * end, before get_result; afterwards push and finish return ML_EINVAL until reset.
  * out->cap must be at least ml_am_output_cap(q, 0). */

@@ -491,6 +491,54 @@ START_TEST(block_invariance)
         ck_assert_mem_eq(noin.mod, o[2].mod, o[2].n);
         assert_same_result(&noin.r, &o[2].r, 0.0);
         run_free(&noin);
+        /* the same values as interleaved float frames (reference, I, Q, and a spare column):
+         * ml_am_push_frames gives exactly what ml_am_push gives */
+        float *fr = malloc(4 * n * sizeof *fr);
+        double complex *zf = malloc(n * sizeof *zf);
+        ck_assert(fr != NULL && zf != NULL);
+        for (size_t i = 0; i < n; i++) {
+            fr[4 * i] = ref[i];
+            fr[4 * i + 1] = (float)creal(z[i]);
+            fr[4 * i + 2] = (float)cimag(z[i]);
+            fr[4 * i + 3] = 99.0f;
+            zf[i] = CMPLX(fr[4 * i + 1], cases[c].cplx ? fr[4 * i + 2] : 0.0);
+        }
+        q = make(&cfg);
+        run_out by_z = run_keep(q, zf, ref, n, blocks[2], false);
+        ml_am_destroy(q);
+        q = make(&cfg);
+        const size_t cap = ml_am_output_cap(q, blocks[2]);
+        double *env = malloc((by_z.n + cap) * sizeof *env);
+        unsigned char *mod = malloc(by_z.n + cap);
+        ck_assert(env != NULL && mod != NULL);
+        const ml_am_frames bad = {.data = fr, .stride = 4, .re = 1, .im = 4, .ref = 0};
+        ml_am_output one = {.env = env, .in = NULL, .modulated = mod, .cap = cap};
+        size_t cnt = 0, got = 0;
+        ck_assert_int_eq(ml_am_push_frames(q, &bad, 1, &one, &cnt), cases[c].cplx ? ML_EINVAL : ML_OK);
+        ml_am_reset(q);
+        for (size_t i = 0; i < n + blocks[2]; i += blocks[2]) { /* the last step finishes */
+            ml_am_output part = {.env = env + got, .in = NULL, .modulated = mod + got, .cap = cap};
+            if (i < n) {
+                const size_t take = n - i < blocks[2] ? n - i : blocks[2];
+                const ml_am_frames in = {.data = fr + 4 * i, .stride = 4, .re = 1, .im = 2, .ref = 0};
+                ck_assert_int_eq(ml_am_push_frames(q, &in, take, &part, &cnt), ML_OK);
+            } else {
+                ck_assert_int_eq(ml_am_finish(q, &part, &cnt), ML_OK);
+            }
+            got += cnt;
+        }
+        ml_am_result rf;
+        ck_assert_int_eq(ml_am_get_result(q, &rf), ML_OK);
+        ck_assert_uint_eq(got, by_z.n);
+        ck_assert_mem_eq(env, by_z.env, got * sizeof *env);
+        ck_assert_mem_eq(mod, by_z.mod, got);
+        assert_same_result(&rf, &by_z.r, 0.0);
+        ml_am_destroy(q);
+        run_free(&by_z);
+        free(env);
+        free(mod);
+        free(fr);
+        free(zf);
         for (size_t b = 0; b < 3; b++)
             run_free(&o[b]);
         free(z);
