@@ -95,7 +95,9 @@ static void fifo_append(feed_ctx *f, const float *raw, size_t got)
         const size_t m = got - i < f->fifo_cap - at ? got - i : f->fifo_cap - at;
         const float *restrict fr = raw + i * nch;
         float *restrict dst = f->fifo + (f->iq ? 2 : 1) * at;
-        if (f->iq) {
+        if (f->iq && nch == 2 && c0 == 0 && c1 == 1) { /* the frames are the pairs */
+            memcpy(dst, fr, 2 * m * sizeof *dst);
+        } else if (f->iq) {
             for (size_t j = 0; j < m; j++) {
                 dst[2 * j] = fr[j * nch + c0];
                 dst[2 * j + 1] = fr[j * nch + c1];

@@ -32,7 +32,7 @@ void ml_stats_reset(ml_stats *q)
 #define LANES ML_STATS_LANES
 #define RUN 256 /* samples gathered and checked at a time */
 
-size_t ml_first_nonfinite(const float *x, size_t n)
+ML_HOT size_t ml_first_nonfinite(const float *x, size_t n)
 {
     size_t i = 0;
     while (i < n) {
