@@ -41,6 +41,7 @@
 #define CARRIER_SEARCH_HZ 200.0 /* capture range around a nominal --carrier                     */
 #define CARRIER_MIN_REL 1e-3  /* a carrier is at most 60 dB below the strongest component      */
 #define BATCH_FRAMES (8 * ML_BLOCK_FRAMES) /* frames per hand-over to the spectrum thread         */
+#define NBATCH (ML_WORKER_DEPTH + 1)       /* batch buffers used in turn (analyzer/worker.h)       */
 
 /* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped). */
 static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z)
@@ -416,7 +417,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ml_spectrum *rf = NULL, *aud = NULL;
     ml_am *am = NULL;
     float *ref = NULL;
-    feed_batch batch[2] = {{{0}, 0, NULL, 0}, {{0}, 0, NULL, 0}};
+    feed_batch batch[NBATCH] = {{{0}, 0, NULL, 0}};
     ml_worker *worker = NULL;
     ml_blocks *blocks = NULL;
     feed_ctx fctx = {0};
@@ -462,7 +463,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_am_edge(am), o->reference_channel > 0);
     ref = malloc(BATCH_FRAMES * sizeof *ref);
     bool nomem = ref == NULL;
-    for (int k = 0; k < 2; k++) {
+    for (int k = 0; k < NBATCH; k++) {
         batch[k].raw = malloc(BATCH_FRAMES * nch * sizeof *batch[k].raw);
         nomem = nomem || batch[k].raw == NULL;
         ml_am_output *out = &batch[k].out;
@@ -502,7 +503,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         size_t want = seg->nframes - done_frames < BATCH_FRAMES ? (size_t)(seg->nframes - done_frames)
                                                                 : BATCH_FRAMES;
         size_t got = 0;
-        /* batch k was last handed over two submissions ago: submit waited for it to finish */
+        /* batch k was last handed over NBATCH submissions ago: submit waited for it to finish */
         rc = ml_measure_read(o, seg, batch[k].raw, want, &got, done_frames);
         if (rc != 0)
             goto done;
@@ -517,7 +518,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         }
         ml_am_push_frames(am, &frames, got, &batch[k].out, &batch[k].n);
         ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
-        k ^= 1;
+        k = (k + 1) % NBATCH;
         done_frames += (int64_t)got;
         ml_measure_progress(seg, done_frames, &next, &shown);
     }
@@ -698,7 +699,7 @@ done:
     free(fctx.fifo);
     ml_blocks_destroy(blocks);
     free(ref);
-    for (int b = 0; b < 2; b++) {
+    for (int b = 0; b < NBATCH; b++) {
         free(batch[b].raw);
         free(batch[b].out.env);
         free(batch[b].out.in);

@@ -13,8 +13,8 @@ struct ml_worker {
     pthread_cond_t cond;
     ml_worker_fn fn;
     void *ctx;
-    void *batch; /* handed over, not yet taken; NULL when none */
-    bool busy;   /* a batch is handed over or running          */
+    void *queue[ML_WORKER_DEPTH]; /* submitted batches in order, queue[head] the oldest          */
+    size_t head, count;           /* count: submitted and not finished, the running one included */
     bool quit;
 };
 
@@ -23,16 +23,16 @@ static void *run(void *arg)
     ml_worker *w = arg;
     pthread_mutex_lock(&w->lock);
     for (;;) {
-        while (w->batch == NULL && !w->quit)
+        while (w->count == 0 && !w->quit)
             pthread_cond_wait(&w->cond, &w->lock);
-        if (w->batch == NULL) /* quit with nothing pending */
+        if (w->count == 0) /* quit with nothing pending */
             break;
-        void *b = w->batch;
-        w->batch = NULL;
+        void *b = w->queue[w->head];
         pthread_mutex_unlock(&w->lock);
         w->fn(w->ctx, b);
         pthread_mutex_lock(&w->lock);
-        w->busy = false;
+        w->head = (w->head + 1) % ML_WORKER_DEPTH;
+        w->count--;
         pthread_cond_broadcast(&w->cond);
     }
     pthread_mutex_unlock(&w->lock);
@@ -64,9 +64,10 @@ ml_worker *ml_worker_start(ml_worker_fn fn, void *ctx)
     return w;
 }
 
-static void wait_idle(ml_worker *w)
+/* Waits (lock held) until at most `left` batches are outstanding. */
+static void wait_until(ml_worker *w, size_t left)
 {
-    while (w->busy)
+    while (w->count > left)
         pthread_cond_wait(&w->cond, &w->lock);
 }
 
@@ -77,9 +78,9 @@ void ml_worker_submit(ml_worker *w, ml_worker_fn fn, void *ctx, void *batch)
         return;
     }
     pthread_mutex_lock(&w->lock);
-    wait_idle(w);
-    w->batch = batch;
-    w->busy = true;
+    wait_until(w, ML_WORKER_DEPTH - 1);
+    w->queue[(w->head + w->count) % ML_WORKER_DEPTH] = batch;
+    w->count++;
     pthread_cond_broadcast(&w->cond);
     pthread_mutex_unlock(&w->lock);
 }
@@ -89,7 +90,7 @@ void ml_worker_wait(ml_worker *w)
     if (w == NULL)
         return;
     pthread_mutex_lock(&w->lock);
-    wait_idle(w);
+    wait_until(w, 0);
     pthread_mutex_unlock(&w->lock);
 }
 
@@ -98,7 +99,7 @@ void ml_worker_stop(ml_worker *w)
     if (w == NULL)
         return;
     pthread_mutex_lock(&w->lock);
-    wait_idle(w);
+    wait_until(w, 0);
     w->quit = true;
     pthread_cond_broadcast(&w->cond);
     pthread_mutex_unlock(&w->lock);

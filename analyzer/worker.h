@@ -1,15 +1,19 @@
 /* A second thread for the second half of a streamed pipeline.
  * SPDX-License-Identifier: MIT
  *
- * The caller computes one batch while the worker consumes the previous one (double buffering):
- * ml_worker_submit hands a batch over once the worker has finished the one before, so with two
- * alternating batch buffers the caller never writes a buffer the worker still reads. Batches are
- * consumed in submission order, one at a time, so results do not depend on timing.
+ * The caller computes one batch while the worker consumes earlier ones: up to ML_WORKER_DEPTH
+ * submitted batches wait or run on the worker, and ml_worker_submit blocks while that many are
+ * outstanding. With ML_WORKER_DEPTH + 1 batch buffers used in turn, the caller never writes a
+ * buffer the worker may still read, and either side can run ahead of the other by a few batches
+ * when their costs vary from batch to batch. Batches are consumed in submission order, one at a
+ * time, so results do not depend on timing.
  */
 #ifndef ML_ANALYZER_WORKER_H
 #define ML_ANALYZER_WORKER_H
 
 #include <stdbool.h>
+
+#define ML_WORKER_DEPTH 3
 
 typedef struct ml_worker ml_worker;
 typedef void (*ml_worker_fn)(void *ctx, void *batch);
@@ -18,7 +22,8 @@ typedef void (*ml_worker_fn)(void *ctx, void *batch);
  * could be started (the caller then runs fn itself). */
 ml_worker *ml_worker_start(ml_worker_fn fn, void *ctx);
 
-/* Waits until the previous batch is done, then hands over this one and returns at once.
+/* Waits until fewer than ML_WORKER_DEPTH batches are outstanding, then hands over this one and
+ * returns at once.
  * w == NULL: runs fn(ctx, batch) in the calling thread. */
 void ml_worker_submit(ml_worker *w, ml_worker_fn fn, void *ctx, void *batch);
 
