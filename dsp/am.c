@@ -278,6 +278,20 @@ static void events(ml_am *q, const double complex *y, const double *e, const dou
     double complex y_before = q->y_before, prev_y = q->prev_y;
     uint64_t reversals = 0, pinches = 0, over = 0;
     for (size_t i = 0; i < n; i++) {
+        if (!in_low && have_prev) {
+            /* A run of samples at or above half the carrier that leave the positive excursion
+             * state as it is changes nothing but the previous sample: passed over in one scan. */
+            const double top = in_pos ? INFINITY : thr_pos_in, bottom = in_pos ? fmax(half, thr_pos_out) : half;
+            size_t j = i;
+            while (j < n && e[j] >= bottom && e[j] <= top)
+                j++;
+            if (j > i) {
+                prev_env = e[j - 1];
+                prev_y = y[j - 1];
+                i = j - 1;
+                continue;
+            }
+        }
         if (e[i] < thr_good) {
             if (!in_low) {
                 in_low = true;
@@ -330,18 +344,8 @@ ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double 
     if (q->out->in != NULL)
         memcpy(q->out->in + at, x, n * sizeof *x);
     /* the block's sums in lanes: a single running sum would wait for each addition in turn */
-    enum { L = 4 };
-    double sl[L] = {0}, ssl[L] = {0};
-    size_t i = 0;
-    for (; i + L <= n; i += L)
-        for (int k = 0; k < L; k++) {
-            sl[k] += e[i + k];
-            ssl[k] += e[i + k] * e[i + k];
-        }
-    for (; i < n; i++) {
-        sl[0] += e[i];
-        ssl[0] += e[i] * e[i];
-    }
+    double sl[4] = {0}, ssl[4] = {0};
+    ml_lanes_sum4(e, n, sl, ssl);
     q->block_sum += (sl[0] + sl[1]) + (sl[2] + sl[3]);
     q->block_sumsq += (ssl[0] + ssl[1]) + (ssl[2] + ssl[3]);
     /* Oversampled values of the interval y[j-2]..y[j-1] for sample j (from the fourth sample on):
@@ -397,23 +401,14 @@ ML_HOT static void envelope_run(ml_am *q, const double complex *y, const double 
         const double m = (double)vmin[i] * c_ref;
         low[i] = e[i] < m ? e[i] : m;
     }
-    /* extremes in lanes: no reduction across a vector register */
+    /* extremes in lanes: the lowest of vmin, the highest of vmax */
     enum { LF = 8 };
     float hl[LF], ll[LF];
     for (int k = 0; k < LF; k++) {
         hl[k] = 0.0f;
         ll[k] = INFINITY;
     }
-    i = skip;
-    for (; i + LF <= n; i += LF)
-        for (int k = 0; k < LF; k++) {
-            hl[k] = vmax[i + k] > hl[k] ? vmax[i + k] : hl[k];
-            ll[k] = vmin[i + k] < ll[k] ? vmin[i + k] : ll[k];
-        }
-    for (; i < n; i++) {
-        hl[0] = vmax[i] > hl[0] ? vmax[i] : hl[0];
-        ll[0] = vmin[i] < ll[0] ? vmin[i] : ll[0];
-    }
+    ml_lanes_minmax8f(vmin + skip, vmax + skip, n - skip, ll, hl);
     double hi = q->emax_abs, lo = q->emin_abs;
     for (int k = 0; k < LF; k++) {
         const double h = (double)hl[k] * c_ref, l = (double)ll[k] * c_ref;

@@ -38,6 +38,81 @@
 #define ML_INLINE inline
 #endif
 
+#include <string.h>
+
+/* Reductions in lanes: element i goes to lane i % lanes, each lane accumulates in index order, so
+ * the results are those of the plain loops in the #else branches whatever the vector width.
+ * Compilers do not vectorise such lane-wise reductions themselves (they may not reorder a
+ * floating-point sum, and do not see that the lanes already are the order): GNU C vector
+ * extensions (GCC and clang) do it here. */
+#if defined(__GNUC__)
+typedef double ml_v4d __attribute__((vector_size(32)));
+typedef float ml_v8f __attribute__((vector_size(32)));
+typedef long long ml_v4i __attribute__((vector_size(32)));
+typedef int ml_v8i __attribute__((vector_size(32)));
+#endif
+
+/* s[k] += x[i], ss[k] += x[i]^2 for i % 4 == k, i < n (whole groups of 4; the rest into lane 0). */
+static ML_INLINE void ml_lanes_sum4(const double *x, size_t n, double s[4], double ss[4])
+{
+    size_t i = 0;
+#if defined(__GNUC__)
+    ml_v4d vs, vss;
+    memcpy(&vs, s, sizeof vs);
+    memcpy(&vss, ss, sizeof vss);
+    for (; i + 4 <= n; i += 4) {
+        ml_v4d v;
+        memcpy(&v, x + i, sizeof v);
+        vs += v;
+        vss += v * v;
+    }
+    memcpy(s, &vs, sizeof vs);
+    memcpy(ss, &vss, sizeof vss);
+#else
+    for (; i + 4 <= n; i += 4)
+        for (int k = 0; k < 4; k++) {
+            s[k] += x[i + k];
+            ss[k] += x[i + k] * x[i + k];
+        }
+#endif
+    for (; i < n; i++) {
+        s[0] += x[i];
+        ss[0] += x[i] * x[i];
+    }
+}
+
+/* lo[k] = min(lo[k], a[i]) and hi[k] = max(hi[k], b[i]) for i % 8 == k (the rest into lane 0);
+ * a NaN is passed over. */
+static ML_INLINE void ml_lanes_minmax8f(const float *a, const float *b, size_t n, float lo[8], float hi[8])
+{
+    size_t i = 0;
+#if defined(__GNUC__)
+    ml_v8f vlo, vhi;
+    memcpy(&vlo, lo, sizeof vlo);
+    memcpy(&vhi, hi, sizeof vhi);
+    for (; i + 8 <= n; i += 8) {
+        ml_v8f va, vb;
+        memcpy(&va, a + i, sizeof va);
+        memcpy(&vb, b + i, sizeof vb);
+        const ml_v8i below = va < vlo, above = vb > vhi;
+        vlo = (ml_v8f)((below & (ml_v8i)va) | (~below & (ml_v8i)vlo));
+        vhi = (ml_v8f)((above & (ml_v8i)vb) | (~above & (ml_v8i)vhi));
+    }
+    memcpy(lo, &vlo, sizeof vlo);
+    memcpy(hi, &vhi, sizeof vhi);
+#else
+    for (; i + 8 <= n; i += 8)
+        for (int k = 0; k < 8; k++) {
+            lo[k] = a[i + k] < lo[k] ? a[i + k] : lo[k];
+            hi[k] = b[i + k] > hi[k] ? b[i + k] : hi[k];
+        }
+#endif
+    for (; i < n; i++) {
+        lo[0] = a[i] < lo[0] ? a[i] : lo[0];
+        hi[0] = b[i] > hi[0] ? b[i] : hi[0];
+    }
+}
+
 /* 10*log10(x) with a floor so that zero power gives a finite, very low number. */
 double ml_db10(double x);
 
