@@ -184,12 +184,16 @@ void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, siz
     size_t i = 0;
     while (i < n) {
         const size_t take = n - i < q->need ? n - i : q->need;
+        uint32_t *restrict h = q->hist; /* a local pointer: the counts could alias q's fields */
         for (size_t j = i; j < i + take; j++) {
             const double b = x[j] * (PEAK_BINS / PEAK_RANGE);
-            q->hist[b <= 0 ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++;
-            if (tag && !tag[j])
-                q->last_bad = q->total + j - i + 1; /* one past the untagged sample */
+            h[b <= 0 ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++;
         }
+        for (size_t j = i + take; tag && j > i; j--)
+            if (!tag[j - 1]) { /* the last untagged sample of the run */
+                q->last_bad = q->total + j - i; /* one past it */
+                break;
+            }
         q->hist_n += take;
         q->total += take;
         q->any_bad = q->any_bad || q->last_bad > q->block_first;
