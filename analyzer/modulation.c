@@ -42,6 +42,27 @@
 #define CARRIER_MIN_REL 1e-3  /* a carrier is at most 60 dB below the strongest component      */
 #define BATCH_FRAMES (8 * ML_BLOCK_FRAMES) /* frames per hand-over to the spectrum thread         */
 #define NBATCH (ML_WORKER_DEPTH + 1)       /* batch buffers used in turn (analyzer/worker.h)       */
+/* Largest sample magnitude the pass takes: its channel filter, captured spectrum and oversampled
+ * envelope compute in single precision (largest float 3.4e38), and a 65536-point transform of
+ * samples of 1e30 stays below 1e35. Full scale is 1: this is 600 dB above it. */
+#define MAX_LEVEL 1e30
+
+/* An error naming the first sample of the measured columns beyond MAX_LEVEL in a batch of `got`
+ * frames read from frame `done` of the segment on; 0 when there is none. */
+static int level_error(const ml_measure_opts *o, const ml_segment *seg, const float *raw, size_t got, size_t nch,
+                       const size_t col[2], bool iq, int64_t done)
+{
+    for (size_t i = 0; i < got; i++)
+        for (int c = 0; c < (iq ? 2 : 1); c++) {
+            const float v = raw[i * nch + col[c]];
+            if (fabsf(v) > MAX_LEVEL)
+                return ml_cli_error("%s: frame %lld, channel %zu: sample %.3g lies beyond +-%.0e (full scale is 1), "
+                                    "more than the modulation analysis takes",
+                                    o->input, (long long)(seg->first + done + (int64_t)i), col[c] + 1, (double)v,
+                                    MAX_LEVEL);
+        }
+    return 0;
+}
 
 /* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped). */
 static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z)
@@ -509,8 +530,15 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
             goto done;
         batch[k].got = got;
         frames.data = batch[k].raw;
-        for (int c = 0; c < (iq ? 2 : 1); c++) /* here: the two threads' shares stay balanced */
+        for (int c = 0; c < (iq ? 2 : 1); c++) { /* here: the two threads' shares stay balanced */
             ml_stats_push_strided(&stats[c], batch[k].raw + fctx.col[c], got, nch);
+            if (fmax(-stats[c].min, stats[c].max) > MAX_LEVEL) {
+                rc = level_error(o, seg, batch[k].raw, got, nch, fctx.col, iq, done_frames);
+                if (rc == 0) /* an earlier batch's sample: reported there, so never */
+                    rc = ml_cli_error("%s: a sample lies beyond +-%.0e", o->input, MAX_LEVEL);
+                goto done;
+            }
+        }
         if (o->plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
             for (size_t i = 0; o->reference_channel > 0 && i < got; i++)
                 ref[i] = batch[k].raw[i * nch + (size_t)(o->reference_channel - 1)];

@@ -187,7 +187,7 @@ void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, siz
         uint32_t *restrict h = q->hist; /* a local pointer: the counts could alias q's fields */
         for (size_t j = i; j < i + take; j++) {
             const double b = x[j] * (PEAK_BINS / PEAK_RANGE);
-            h[b <= 0 ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++;
+            h[!(b > 0) ? 0 : b >= PEAK_BINS - 1 ? PEAK_BINS - 1 : (size_t)b]++; /* a NaN to bin 0 */
         }
         for (size_t j = i + take; tag && j > i; j--)
             if (!tag[j - 1]) { /* the last untagged sample of the run */

@@ -89,6 +89,11 @@ def main():
     xq = am(1.0, 1000.0, FS, iq=True)
     xq[1000, 1] = np.nan
     sf.write(p("iq-nan-q.wav"), xq, FS, subtype="FLOAT")
+    # finite float samples far beyond full scale: the if/iq pass computes in single precision
+    xq = am(1.0, 1000.0, 48000, iq=True)
+    xq[1500, 0] = 1e35
+    sf.write(p("iq-huge.wav"), xq, 48000, subtype="FLOAT")
+    sf.write(p("iq-loud.wav"), 1e20 * am(1.0, 1000.0, 48000, iq=True), 48000, subtype="FLOAT")
     # awkward but valid
     sf.write(p("silent.wav"), np.zeros(2 * FS), FS, subtype="PCM_16")
     sf.write(p("silent-stereo.wav"), np.zeros((2 * FS, 2)), FS, subtype="PCM_16")

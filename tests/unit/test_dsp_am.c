@@ -25,6 +25,7 @@
 
 #include "dsp/am.h"
 #include "dsp/cfir.h"
+#include "dsp/internal.h" /* CMPLX, as dsp/am.c builds its complex inputs */
 #include "testsig.h"
 
 #define FS 48000.0
