@@ -47,8 +47,8 @@
  * samples of 1e30 stays below 1e35. Full scale is 1: this is 600 dB above it. */
 #define MAX_LEVEL 1e30
 
-/* An error naming the first sample of the measured columns beyond MAX_LEVEL in a batch of `got`
- * frames read from frame `done` of the segment on; 0 when there is none. */
+/* The error for a sample beyond MAX_LEVEL in the measured columns of a batch of `got` frames read
+ * from frame `done` of the segment on, naming the first such sample. */
 static int level_error(const ml_measure_opts *o, const ml_segment *seg, const float *raw, size_t got, size_t nch,
                        const size_t col[2], bool iq, int64_t done)
 {
@@ -61,21 +61,29 @@ static int level_error(const ml_measure_opts *o, const ml_segment *seg, const fl
                                     o->input, (long long)(seg->first + done + (int64_t)i), col[c] + 1, (double)v,
                                     MAX_LEVEL);
         }
-    return 0;
+    return ml_cli_error("%s: a sample lies beyond +-%.0e", o->input, MAX_LEVEL);
+}
+
+/* The frame columns (0-based) of I and Q, or of the IF signal in col[0]. */
+static void columns(const ml_measure_opts *o, bool iq, size_t col[2])
+{
+    const size_t c0 = (size_t)(o->channel - 1);
+    col[0] = c0 + (iq && o->swap_iq ? 1 : 0);
+    col[1] = c0 + (o->swap_iq ? 0 : 1);
 }
 
 /* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped). */
 static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z)
 {
-    const size_t c0 = (size_t)(o->channel - 1);
+    size_t col[2];
+    columns(o, iq, col);
     /* one plain loop per case */
     if (iq) {
-        const size_t ci = o->swap_iq ? c0 + 1 : c0, cq = o->swap_iq ? c0 : c0 + 1;
         for (size_t i = 0; i < got; i++)
-            z[i] = CMPLX(buf[i * nch + ci], buf[i * nch + cq]);
+            z[i] = CMPLX(buf[i * nch + col[0]], buf[i * nch + col[1]]);
     } else {
         for (size_t i = 0; i < got; i++)
-            z[i] = CMPLX(buf[i * nch + c0], 0.0);
+            z[i] = CMPLX(buf[i * nch + col[0]], 0.0);
     }
 }
 
@@ -511,8 +519,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         goto done;
     }
     fctx.nch = nch;
-    fctx.col[0] = (size_t)(o->channel - 1) + (iq && o->swap_iq ? 1 : 0); /* as split() */
-    fctx.col[1] = (size_t)(o->channel - 1) + (o->swap_iq ? 0 : 1);
+    columns(o, iq, fctx.col);
     worker = ml_worker_start(feed_job, &fctx); /* NULL: feed runs on this thread */
     /* the demodulator reads its columns straight from the frames (as split() would give them) */
     ml_am_frames frames = {.stride = nch, .re = fctx.col[0], .im = fctx.col[1],
@@ -534,8 +541,6 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
             ml_stats_push_strided(&stats[c], batch[k].raw + fctx.col[c], got, nch);
             if (fmax(-stats[c].min, stats[c].max) > MAX_LEVEL) {
                 rc = level_error(o, seg, batch[k].raw, got, nch, fctx.col, iq, done_frames);
-                if (rc == 0) /* an earlier batch's sample: reported there, so never */
-                    rc = ml_cli_error("%s: a sample lies beyond +-%.0e", o->input, MAX_LEVEL);
                 goto done;
             }
         }

@@ -50,6 +50,13 @@ typedef double ml_v4d __attribute__((vector_size(32)));
 typedef float ml_v8f __attribute__((vector_size(32)));
 typedef long long ml_v4i __attribute__((vector_size(32)));
 typedef int ml_v8i __attribute__((vector_size(32)));
+
+/* Lane-wise a < b ? a : b and a > b ? a : b (b where a is NaN), as the plain comparisons give,
+ * for a vector type VT whose comparisons give the integer vector type IT. Macros, not functions:
+ * a function taking or returning these types would depend on the instruction set for its ABI.
+ * The arguments are evaluated twice. */
+#define ML_VMIN(VT, IT, a, b) ((VT)((((IT)((a) < (b))) & (IT)(a)) | (~((IT)((a) < (b))) & (IT)(b))))
+#define ML_VMAX(VT, IT, a, b) ((VT)((((IT)((a) > (b))) & (IT)(a)) | (~((IT)((a) > (b))) & (IT)(b))))
 #endif
 
 /* s[k] += x[i], ss[k] += x[i]^2 for i % 4 == k, i < n (whole groups of 4; the rest into lane 0). */
@@ -94,9 +101,8 @@ static ML_INLINE void ml_lanes_minmax8f(const float *a, const float *b, size_t n
         ml_v8f va, vb;
         memcpy(&va, a + i, sizeof va);
         memcpy(&vb, b + i, sizeof vb);
-        const ml_v8i below = va < vlo, above = vb > vhi;
-        vlo = (ml_v8f)((below & (ml_v8i)va) | (~below & (ml_v8i)vlo));
-        vhi = (ml_v8f)((above & (ml_v8i)vb) | (~above & (ml_v8i)vhi));
+        vlo = ML_VMIN(ml_v8f, ml_v8i, va, vlo);
+        vhi = ML_VMAX(ml_v8f, ml_v8i, vb, vhi);
     }
     memcpy(lo, &vlo, sizeof vlo);
     memcpy(hi, &vhi, sizeof vhi);

@@ -231,7 +231,7 @@ static void split_selected(ml_spectrum *q)
     ML_HOT static void NAME(ml_spectrum *q, const T *x_, const T *prev_, int sel, int psel)         \
     {                                                                                              \
         const size_t nb = q->nbins;                                                                \
-        const int same = sel_is_all(q);                                                            \
+        const int same = sel_is_all(q), selected = sel != 0;                                       \
         if (!sel && same && q->segments > 0)                                                       \
             split_selected(q);                                                                     \
         if (same) /* still the same sums: only acc and xacc are written */                         \
@@ -258,21 +258,11 @@ static void split_selected(ml_spectrum *q)
             accumulate_bin(q, ke, 0.5 * q->scale, x[2 * ke], x[2 * ke + 1], pv != NULL,            \
                            pv ? pv[2 * ke] : 0, pv ? pv[2 * ke + 1] : 0, sel, psel);               \
         }                                                                                          \
+        q->segments++;                                                                             \
+        q->nsel += (size_t)selected;                                                               \
     }
-ML_ACCUMULATE(accumulate_d, fftw_complex, double)
+ML_ACCUMULATE(accumulate, fftw_complex, double)
 ML_ACCUMULATE(accumulate_f, fftwf_complex, float)
-
-static void count_segment(ml_spectrum *q, int sel)
-{
-    q->segments++;
-    q->nsel += (size_t)(sel != 0);
-}
-
-static void accumulate(ml_spectrum *q, const fftw_complex *x, const fftw_complex *prev, int sel, int psel)
-{
-    accumulate_d(q, x, prev, sel, psel);
-    count_segment(q, sel);
-}
 
 /* The windowed segment in double precision: transform, accumulate, hand it to the hook, and keep
  * it as the previous one (the buffers swap; both come from fftw_alloc, so equally aligned for the
@@ -314,7 +304,6 @@ ML_HOT static void transform_single(ml_spectrum *q, int selected)
     }
     fftwf_execute_dft(q->fplan, q->fcin, q->fout);
     accumulate_f(q, q->fout, q->segments > 0 ? q->fprev : NULL, selected, q->prev_sel);
-    count_segment(q, selected);
     fftwf_complex *t = q->fprev;
     q->fprev = q->fout;
     q->fout = t;

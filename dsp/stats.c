@@ -81,27 +81,24 @@ static ML_INLINE void add_finite(ml_stats *q, const double *x, size_t n)
         ML_STATS_ADD(lane, v);
     }
 #if defined(__GNUC__) && LANES == 8
-    /* The same per-lane operations in vector registers (GNU C vector extensions, also in clang):
-     * compilers do not vectorise these lane-wise reductions themselves. */
-    typedef double v4d __attribute__((vector_size(32)));
-    typedef long long v4i __attribute__((vector_size(32)));
+    /* The same per-lane operations in vector registers (dsp/internal.h): compilers do not
+     * vectorise these lane-wise reductions themselves. */
     if (j + LANES <= n) {
-        v4d vs[2], vss[2], vlo[2], vhi[2];
-        v4i vcl[2] = {{0, 0, 0, 0}, {0, 0, 0, 0}};
+        ml_v4d vs[2], vss[2], vlo[2], vhi[2];
+        ml_v4i vcl[2] = {{0, 0, 0, 0}, {0, 0, 0, 0}};
         memcpy(vs, s, sizeof vs);
         memcpy(vss, ss, sizeof vss);
         memcpy(vlo, lo, sizeof vlo);
         memcpy(vhi, hi, sizeof vhi);
-        const v4d vchi = {chi, chi, chi, chi}, vclo = {clo, clo, clo, clo};
+        const ml_v4d vchi = {chi, chi, chi, chi}, vclo = {clo, clo, clo, clo};
         for (; j + LANES <= n; j += LANES)
             for (int h = 0; h < 2; h++) {
-                v4d v;
+                ml_v4d v;
                 memcpy(&v, x + j + 4 * h, sizeof v);
                 vs[h] += v;
                 vss[h] += v * v;
-                const v4i below = v < vlo[h], above = v > vhi[h];
-                vlo[h] = (v4d)((below & (v4i)v) | (~below & (v4i)vlo[h]));
-                vhi[h] = (v4d)((above & (v4i)v) | (~above & (v4i)vhi[h]));
+                vlo[h] = ML_VMIN(ml_v4d, ml_v4i, v, vlo[h]);
+                vhi[h] = ML_VMAX(ml_v4d, ml_v4i, v, vhi[h]);
                 vcl[h] -= (v >= vchi) | (v <= vclo); /* a true comparison is -1 */
             }
         memcpy(s, vs, sizeof vs);
