@@ -2,7 +2,7 @@
  * SPDX-License-Identifier: MIT
  *
  * References: [iec61672:2013] IEC 61672-1:2013 Annex E, eqs. E.1 and E.6, pole frequencies
- * f1..f4 (E.4; values as listed in ../shared/REFERENCES.md section 1.1).
+ * f1..f4 (E.4; values as listed in docs/references.md section 1.1).
  * [oppenheim:2010] A. V. Oppenheim, R. W. Schafer, Discrete-Time Signal Processing, 3rd ed.,
  * section 7.2 (bilinear transformation and frequency pre-warping).
  */

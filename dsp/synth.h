@@ -2,7 +2,7 @@
  * I/Q), with harmonic distortion, mains hum and white Gaussian noise, produced in blocks.
  * SPDX-License-Identifier: MIT
  *
- * Level rule (AES17-2015 3.12.1, REFERENCES.md section 5): a full-scale sine reads 0 dBFS, so a tone
+ * Level rule (AES17-2015 3.12.1, docs/references.md section 5): a full-scale sine reads 0 dBFS, so a tone
  * of level L dBFS has amplitude 10^(L/20) and r.m.s. 10^(L/20)/sqrt(2). Noise of level L dBFS has
  * the same r.m.s. as that sine: sigma = 10^(L/20)/sqrt(2) per channel, white over the full band
  * 0 .. rate/2 (for I/Q: independent noise of that sigma in I and in Q).
@@ -10,7 +10,7 @@
  * Every periodic component is a sine of zero phase at frame 0: a tone of amplitude A at f Hz is
  * A sin(2 pi f n / rate), its harmonic k at c dBc is A 10^(c/20) sin(2 pi k f n / rate).
  *
- * AM (REFERENCES.md section 6, [haykin:2001] sec. 3.1): s(n) = A g(e(n)) cos(2 pi fc n / rate) for a
+ * AM (docs/references.md section 6, [haykin:2001] sec. 3.1): s(n) = A g(e(n)) cos(2 pi fc n / rate) for a
  * real IF (one channel), or I + jQ = A g(e(n)) exp(j 2 pi fc n / rate) for I/Q (two channels, I then
  * Q; fc may be zero or negative). A = 10^(L/20) is the peak of the unmodulated carrier (for a real
  * IF its level is L dBFS by the rule above; for I/Q |I + jQ| = A). The envelope is

@@ -6,7 +6,7 @@ Signal: 1 s of unmodulated carrier (C = A = 0.4), then 4 s with the envelope
     e(t) = 1 + 1.2 x   for x > 0,    1 + 0.9 x   for x <= 0,    x = cos(2 pi 997 t + 0.4),
 as a real IF at 12 kHz and as I/Q at -2.5 kHz (a negative carrier frequency).
 
-Analytic values (47 CFR 73.14 as in REFERENCES.md 6, README "Modulation"):
+Analytic values (47 CFR 73.14 as in docs/references.md 6, README "Modulation"):
  - Emax = 1 + 1.2 = 2.2 C, Emin = 1 - 0.9 = 0.1 C: positive peak 120 %, negative peak 90 %,
    index (2.2 - 0.1)/(2.2 + 0.1) = 0.91304.
  - Carrier shift = 100 (mean e - 1) = 100 mean(1.2 max(x,0) + 0.9 min(x,0)) over a period.

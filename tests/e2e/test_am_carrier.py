@@ -12,7 +12,7 @@ unmodulated lead-in unless said otherwise. What each part checks, and against wh
     without it, the pair is (Q, I) = conj(z) * j, whose frequency is the mirror -1500 Hz.
  4. IF envelope against |scipy.signal.hilbert(x)| of the same file (independent analytic signal),
     with README's peak readings (0.1 % quantiles of the 4x oversampled modulated envelope).
- 5. Occupied bandwidth (REFERENCES.md 6.2): 2 fm for m >= 0.142, the carrier lobe alone below.
+ 5. Occupied bandwidth (docs/references.md 6.2): 2 fm for m >= 0.142, the carrier lobe alone below.
  6. Emission mask ([mask] section, README): margins against an added spur, analytic.
  7. --carrier-reference FILE with a different amplitude than the capture's carrier: C comes
     from the file (analytic peaks and shift).
@@ -127,7 +127,7 @@ def main():
                      100 * (float(mod.mean()) - c) / c, 0.03,
                      "mean |hilbert| modulated vs C (0 analytically; 0.03 pp: partial cycles at the ends)")
 
-        # 5. occupied bandwidth (REFERENCES.md 6.2): each side frequency holds
+        # 5. occupied bandwidth (docs/references.md 6.2): each side frequency holds
         # (m^2/4)/(1 + m^2/2) of the power; >= 0.5 % (99 % OBW = 2 fm) iff m >= 0.14213.
         # Tolerance: the spectrum spreads each line over its lobe of +-12 bins (8.79 Hz); the
         # 0.5 % edge falls inside the outermost line's lobe, so each edge is within 8.79 Hz of

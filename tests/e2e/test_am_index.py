@@ -8,7 +8,7 @@ Signal (tests/e2e/am_signals.py): 1 s of unmodulated carrier, then 4 s of
 with A = 0.4, fm = 997 Hz (not a divisor of the 48 kHz rate, so no sample-locked pattern), for
 m = 0.3, 0.5, 0.8, 0.95. The lead-in gives modlens the true unmodulated carrier C = A.
 
-Expected values (REFERENCES.md 6, Haykin ch. 3 / Newnes 8.3.1):
+Expected values (docs/references.md 6, Haykin ch. 3 / Newnes 8.3.1):
  - envelope A(1 + m cos): Emax = A(1 + m), Emin = A(1 - m), so (Emax - Emin)/(Emax + Emin) = m;
  - side frequencies of amplitude m A / 2 each at fc +- fm, carrier A: (U + L)/A = m;
  - 47 CFR 73.14 peaks: 100 (Emax - C)/C = 100 m = 100 (C - Emin)/C;
@@ -86,7 +86,7 @@ def main():
                 ck.close(tag + " index (envelope)", g("modulation.index"), m, 0.001,
                          "(Emax-Emin)/(Emax+Emin) of A(1+m cos)")
                 ck.close(tag + " index_spectral", g("modulation.index_spectral"), m, 0.001,
-                         "REFERENCES.md 6: side frequencies m A/2 each")
+                         "docs/references.md 6: side frequencies m A/2 each")
                 ck.close(tag + " positive_peak_pct", g("modulation.positive_peak_pct"), 100 * m, 0.1,
                          "47 CFR 73.14: 100 (Emax - C)/C = 100 m")
                 ck.close(tag + " negative_peak_pct", g("modulation.negative_peak_pct"), 100 * m, 0.1,

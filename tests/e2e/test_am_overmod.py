@@ -2,7 +2,7 @@
 
 Usage: /usr/bin/python3 test_am_overmod.py /path/to/modlens
 
-Models (REFERENCES.md 6.1):
+Models (docs/references.md 6.1):
   A, phase reversal: complex baseband s(t) = 1 + m cos(w t + 0.4) (signed: the carrier flips by
      180 degrees where s < 0), envelope |s|;
   B, carrier pinch-off: baseband max(0, 1 + m cos(w t + 0.4)), envelope the same.
@@ -52,13 +52,13 @@ K_SYNTH = int(11500.0 // FM)            # harmonics synthesised into the test si
 FC = {"if": S.FC_IF, "iq": -4321.0}
 GRID = 1 << 16                          # points per period for the Fourier-series references
 
-# REFERENCES.md 6.1 table (65 536-point FFT of one period, THD = harmonics 2..50 / fundamental,
+# docs/references.md 6.1 table (65 536-point FFT of one period, THD = harmonics 2..50 / fundamental,
 # DC = mean envelope re unmodulated carrier), model B carrier shift from the same table.
 PUBLISHED = {  # (m, model): (DC, THD 2..50 as a ratio)
     (1.25, "A"): (1.06780, 0.1493), (1.25, "B"): (1.03390, 0.0706),
     (1.50, "A"): (1.17632, 0.2838), (1.50, "B"): (1.08816, 0.1244),
 }
-PUBLISHED_SHIFT_B = {1.25: 3.39, 1.50: 8.82}  # REFERENCES.md 6.1 "Carrier shift implied by Model B"
+PUBLISHED_SHIFT_B = {1.25: 3.39, 1.50: 8.82}  # docs/references.md 6.1 "Carrier shift implied by Model B"
 
 
 def model_period(m, model):
@@ -91,13 +91,13 @@ def references(m, model):
 def main():
     exe = E.modlens_path()
     ck = E.Checker("test_am_overmod")
-    # Oracle check: the numpy Fourier-series code reproduces the published REFERENCES.md 6.1
+    # Oracle check: the numpy Fourier-series code reproduces the published docs/references.md 6.1
     # table (to its printed precision: DC 5 decimals, THD 4 decimals).
     for (m, model), (dc, thd50) in PUBLISHED.items():
         r = references(m, model)
-        ck.close("oracle m=%.2f model %s: DC = REFERENCES.md 6.1" % (m, model), r["dc_ideal"], dc, 0.5e-5,
+        ck.close("oracle m=%.2f model %s: DC = docs/references.md 6.1" % (m, model), r["dc_ideal"], dc, 0.5e-5,
                  "table rounding")
-        ck.close("oracle m=%.2f model %s: THD 2..50 = REFERENCES.md 6.1" % (m, model), r["thd50_ideal"] / 100,
+        ck.close("oracle m=%.2f model %s: THD 2..50 = docs/references.md 6.1" % (m, model), r["thd50_ideal"] / 100,
                  thd50, 0.5e-4, "table rounding")
     with E.scratch():
         for kind in ("if", "iq"):
@@ -198,14 +198,14 @@ def main():
                     # vs the ideal envelope's harmonics 2..10: plus the band-limiting effect.
                     tol10 = max(abs(x - r["thd10_ideal"]) for x in r["thd_bl"]) + 0.001 * r["thd10_ideal"]
                     ck.close(tag + " envelope_thd_pct vs ideal 2..10 (numpy)", thd, r["thd10_ideal"], tol10,
-                             "REFERENCES.md 6.1 method, harmonics 2..10")
+                             "docs/references.md 6.1 method, harmonics 2..10")
                     # vs the published 2..50 value: modlens counts 2..10 only, so it reads low by
                     # thd50 - thd10 of the ideal envelope at most; plus band-limiting, the
                     # table's 4-decimal rounding (0.005 pp) and the 0.1 % slack.
                     pub = PUBLISHED[(m, model)][1] * 100
                     tol50 = (r["thd50_ideal"] - r["thd10_ideal"]) + (tol10 - 0.001 * r["thd10_ideal"]) \
                         + 0.005 + 0.001 * pub
-                    ck.close(tag + " envelope_thd_pct vs REFERENCES.md 6.1 (THD 2..50)", thd, pub, tol50,
+                    ck.close(tag + " envelope_thd_pct vs docs/references.md 6.1 (THD 2..50)", thd, pub, tol50,
                              "LNTwww Ex. 2.7 / computed table")
 
                     # Carrier shift: 100 (mean envelope - C)/C.
@@ -229,12 +229,12 @@ def main():
                     if model == "B":
                         pub_shift = PUBLISHED_SHIFT_B[m]
                         tol = max(abs(x - ideal_shift) for x in r["shift_bl"]) + partial + 0.005 + 0.005
-                        ck.close(tag + " carrier_shift_pct vs REFERENCES.md 6.1", shift, pub_shift, tol,
+                        ck.close(tag + " carrier_shift_pct vs docs/references.md 6.1", shift, pub_shift, tol,
                                  "published model B shift; tolerance = band-limiting + partial cycle + "
                                  "0.005 start-up + 0.005 rounding of the table")
                     else:
                         ck.close(tag + " carrier_shift_pct = mean|1 + m cos| - 1", shift, ideal_shift,
-                                 partial + 0.005, "numpy ideal (REFERENCES.md 6.1 DC %.5f)" % PUBLISHED[(m, model)][0])
+                                 partial + 0.005, "numpy ideal (docs/references.md 6.1 DC %.5f)" % PUBLISHED[(m, model)][0])
     ck.finish()
 
 

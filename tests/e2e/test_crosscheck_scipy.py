@@ -10,7 +10,7 @@ Two oracles, both computed here without modlens code:
     file), same definitions: the figures must agree to the precision of the JSON report.
  2. The truth of the synthetic signal: THD from the generated harmonic amplitudes, and the
     fundamental's level and frequency from a least-squares sine fit (IEEE Std 1057 3-parameter
-    fit at a known frequency, refined by the 4-parameter iteration; REFERENCES.md section 4).
+    fit at a known frequency, refined by the 4-parameter iteration; docs/references.md section 4).
 """
 import math
 import os
@@ -25,7 +25,7 @@ from scipy import signal  # noqa: E402
 
 import e2e_common as E  # noqa: E402
 
-# HFT248D coefficients, Heinzel, Ruediger, Schilling (2002), as listed in REFERENCES.md 3.2.
+# HFT248D coefficients, Heinzel, Ruediger, Schilling (2002), as listed in docs/references.md 3.2.
 HFT248D = [1, 1.985844164102, 1.791176438506, 1.282075284005, 0.667777530266, 0.240160796576,
            0.056656381764, 0.008134974479, 0.000624544650, 0.000019808998, 0.000000132974]
 LOBE = len(HFT248D) + 1  # dsp/spectrum.h: a tone's lobe is +-(terms + 1) bins
@@ -305,7 +305,7 @@ def main():
                      "IEEE 1057 4-parameter fit; segment-phase and fit noise")
             ck.close(name + " sine fit frequency = generated", f_fit, cs["f"], 1e-5 + 4 * nb["f_fit"],
                      "oracle sanity: the fit recovers the synthesis frequency")
-            # HFT248D amplitude flatness +-0.0009 dB (REFERENCES.md 3.2) and the noise.
+            # HFT248D amplitude flatness +-0.0009 dB (docs/references.md 3.2) and the noise.
             ck.close(name + " fundamental_dbfs = sine fit", E.get(rep, "audio.fundamental_dbfs"),
                      E.dbfs(a_fit), 1e-3 + 4 * math.hypot(nb["lvl_ml"], nb["lvl_fit"]),
                      "IEEE 1057 3-parameter fit amplitude; flatness and noise")

@@ -127,7 +127,7 @@ def main():
         c.check("noise floor -101.1 dBFS/Hz (0..30 s, intervals without clicks)", all(abs(v + 101.1) <= 0.4 for v in fl),
                 "%.2f .. %.2f" % (min(fl), max(fl)))
 
-        # A-weighted level: IEC 61672-1 Table 3 (REFERENCES.md 1.2): 100 Hz -19.1, 10 kHz -2.5 dB.
+        # A-weighted level: IEC 61672-1 Table 3 (docs/references.md 1.2): 100 Hz -19.1, 10 kHz -2.5 dB.
         # 100 Hz: the filter is within 0.04 dB of the standard's formula there (-19.14; unit test
         # test_dsp_aweight), so 0.1 dB; 10 kHz: the class-1 limits +2.0/-3.0 dB.
         t = np.arange(5 * FS) / FS

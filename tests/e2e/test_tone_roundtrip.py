@@ -6,11 +6,11 @@ Every expected value is analytic from the generation parameters (derivation besi
 a published value named beside it; every tolerance has its reason. modlens measure is not used.
 
 References:
-[AES17] AES17-2015 3.12.1: a full-scale sine reads 0 dBFS (REFERENCES.md section 5).
+[AES17] AES17-2015 3.12.1: a full-scale sine reads 0 dBFS (docs/references.md section 5).
 [haykin] S. Haykin, Communication Systems, 4th ed., sec. 3.1: envelope A(1 + m cos), modulation
-    index (Emax - Emin)/(Emax + Emin) (REFERENCES.md section 6, "confirmed").
+    index (Emax - Emin)/(Emax + Emin) (docs/references.md section 6, "confirmed").
 [scipy-hilbert] scipy.signal.hilbert is FFT based, exact for records of whole periods
-    (REFERENCES.md section 9 and pitfall 5).
+    (docs/references.md section 9 and pitfall 5).
 """
 import math
 import os

@@ -7,13 +7,13 @@
  * References:
  * [haykin:2001] S. Haykin, Communication Systems, 4th ed., Wiley 2001, ch. 3, sec. 3.1: the AM
  *     signal A_c[1 + mu cos(2 pi f_m t)] cos(2 pi f_c t) has the envelope A_c(1 + mu cos(2 pi f_m t))
- *     for mu <= 1 (REFERENCES.md 6, "AM signal", confirmed secondary).
+ *     for mu <= 1 (docs/references.md 6, "AM signal", confirmed secondary).
  * [newnes] Newnes Radio and RF Engineer's Pocket Book, sec. 8.3.1: mu = (E_max - E_min) /
- *     (E_max + E_min), carrier A_c = (E_max + E_min) / 2 (REFERENCES.md 6, confirmed).
- * [refs61] REFERENCES.md 6.1: model A (ideal envelope |1 + mu cos|, the carrier's phase reverses
+ *     (E_max + E_min), carrier A_c = (E_max + E_min) / 2 (docs/references.md 6, confirmed).
+ * [refs61] docs/references.md 6.1: model A (ideal envelope |1 + mu cos|, the carrier's phase reverses
  *     where 1 + mu cos < 0, visible in I/Q as a 180 degree jump) and model B (pinch-off,
  *     max(0, 1 + mu cos)).
- * [cfr73.1570] 47 CFR 73.1570(b)(1): positive peaks limited to 125 % (REFERENCES.md 7, confirmed).
+ * [cfr73.1570] 47 CFR 73.1570(b)(1): positive peaks limited to 125 % (docs/references.md 7, confirmed).
  */
 #include <check.h>
 

@@ -3,7 +3,7 @@
  *
  * References: [iec61672:2013] IEC 61672-1:2013 Table 3 (A weighting and class-1 acceptance limits
  * at the exact base-10 one-third-octave frequencies 1000 * 10^((n - 30)/10)), as transcribed in
- * ../shared/REFERENCES.md section 1.2 (confirmed third-party transcriptions: jmrplens/phonometry,
+ * docs/references.md section 1.2 (confirmed third-party transcriptions: jmrplens/phonometry,
  * pyfar); the exact-frequency rule is noted there as well.
  */
 #include <check.h>
@@ -36,7 +36,7 @@ static const struct {
     {20000, -9.3, 3.0, NO_LIMIT},
 };
 
-/* The exact base-10 frequency 1000 * 10^(n/10) of a nominal one-third-octave label (REFERENCES.md 1.1). */
+/* The exact base-10 frequency 1000 * 10^(n/10) of a nominal one-third-octave label (docs/references.md 1.1). */
 static double exact_hz(double nominal)
 {
     return 1000.0 * pow(10.0, round(10.0 * log10(nominal / 1000.0)) / 10.0);
@@ -78,7 +78,7 @@ START_TEST(midband_matches_table_closely)
 {
     /* Up to 2 kHz at 96 kHz the pre-warped bilinear image differs from the analogue curve by at most
      * 0.018 dB (independent scipy computation: signal.bilinear_zpk of the same pre-warped poles,
-     * sosfreqz, normalised at 1 kHz), and the curve from Table 3 by at most 0.05 dB (REFERENCES.md
+     * sosfreqz, normalised at 1 kHz), and the curve from Table 3 by at most 0.05 dB (docs/references.md
      * 1.2 "test rule"): 0.1 dB. (Above, per-pole pre-warping lifts the response by up to 0.16 dB
      * at 96 kHz and 0.85 dB at 44.1 kHz near 8 kHz: still class 1, checked above.) */
     ml_aweight *q = make(96000);

@@ -6,10 +6,10 @@
  * ENBW 5.6512 bins, lobe +-12 bins) and ml_audio_analyze.
  *
  * References:
- * [ieee1241:2000] IEEE Std 1241-2000: SINAD eq. 94, ENOB eq. 102 (REFERENCES.md 4, confirmed);
- *     ideal N-bit quantisation of a full-scale sine: SNR = 6.0206 N + 1.7609 dB (REFERENCES.md 4,
+ * [ieee1241:2000] IEEE Std 1241-2000: SINAD eq. 94, ENOB eq. 102 (docs/references.md 4, confirmed);
+ *     ideal N-bit quantisation of a full-scale sine: SNR = 6.0206 N + 1.7609 dB (docs/references.md 4,
  *     derivation; 98.09 dB for 16 bits).
- * [heinzel:2002] HFT248D: sidelobes -248.4 dB, NENBW 5.6512 (REFERENCES.md 3.2, confirmed).
+ * [heinzel:2002] HFT248D: sidelobes -248.4 dB, NENBW 5.6512 (docs/references.md 3.2, confirmed).
  * Project requirement (issue): THD within 0.1 dB from -20 to -120 dB; hum level within 0.1 dB.
  *
  * Float32 floor, used in several tolerances: a float carries 24 significant bits, so rounding a
@@ -227,7 +227,7 @@ START_TEST(sinad_enob_ideal_16bit)
     /* A 997 Hz sine of amplitude 32767 codes, rounded to integer codes (clipped to -32768..32767,
      * never active at this amplitude) and scaled by 1/32768. 997 Hz is not a sub-multiple of
      * 48 kHz, so the rounding error is noise-like and close to uniform with power LSB^2/12 over
-     * 0..fs/2. [ieee1241:2000] (REFERENCES.md 4): SINAD = 6.0206*16 + 1.7609 = 98.0905 dB for a
+     * 0..fs/2. [ieee1241:2000] (docs/references.md 4): SINAD = 6.0206*16 + 1.7609 = 98.0905 dB for a
      * full-scale (32768-code) sine; corrections, both analytic:
      *   amplitude 32767 instead of 32768: 20 lg(32767/32768) = -0.00027 dB;
      *   B - P1 leaves out the DC lobe (12 bins) and the fundamental's lobe (25 bins) of the 32768
@@ -478,7 +478,7 @@ END_TEST
 
 START_TEST(config_default_values)
 {
-    /* dsp/metrics.h: band 20 Hz..20 kHz (AES17, REFERENCES.md 5), tone auto, 10 harmonics,
+    /* dsp/metrics.h: band 20 Hz..20 kHz (AES17, docs/references.md 5), tone auto, 10 harmonics,
      * mains auto, 6 hum multiples. */
     ml_audio_config c = ml_audio_config_default();
     ck_assert_double_eq(c.band_lo_hz, 20.0);
@@ -599,8 +599,8 @@ START_TEST(derived_figure_helpers)
     ck_assert_double_eq_tol(ml_power_dbfs(0.5), 0.0, 1e-12);          /* full-scale sine: 0 dBFS */
     ck_assert_double_eq_tol(ml_power_dbfs(0.125), -6.0206, 1e-4);     /* amplitude 0.5: 20 lg 0.5 */
     ck_assert_double_eq_tol(ml_ratio_db(0.0, 1.0), -300.0, 1e-12);    /* floor by contract        */
-    ck_assert_double_eq_tol(ml_enob_bits(98.0905), 16.0, 1e-4);       /* REFERENCES.md 4          */
-    /* REFERENCES.md 4 example: SINAD 62 dB -> "about 10 bits" (electrotopic.com, confirmed);
+    ck_assert_double_eq_tol(ml_enob_bits(98.0905), 16.0, 1e-4);       /* docs/references.md 4          */
+    /* docs/references.md 4 example: SINAD 62 dB -> "about 10 bits" (electrotopic.com, confirmed);
      * exactly (62 - 10 lg 1.5)/(20 lg 2) = 10.00549 (the table's "10.006 (exact)" is 10.0055
      * rounded up; 1e-4 here is the rounding of the constants 1.7609/6.0206 in the contract). */
     ck_assert_double_eq_tol(ml_enob_bits(62.0), (62.0 - 10.0 * log10(1.5)) / (20.0 * log10(2.0)), 1e-4);

@@ -9,7 +9,7 @@
  *     of A[1 + m cos(2 pi fm t)] cos(2 pi fc t) is A(1 + m cos(2 pi fm t)) for m <= 1.
  * [newnes] Newnes Radio and RF Engineer's Pocket Book, sec. 8.3.1: m = (Emax - Emin)/(Emax + Emin).
  * [cfr73.14] 47 CFR 73.14: positive peak 100 (Emax - C)/C, negative 100 (C - Emin)/C.
- * [refs61] REFERENCES.md 6.1, model B: pinch-off, envelope max(0, 1 + m cos).
+ * [refs61] docs/references.md 6.1, model B: pinch-off, envelope max(0, 1 + m cos).
  */
 #include <check.h>
 #include <complex.h>

@@ -12,15 +12,15 @@
  * References:
  * [heinzel:2002] G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density estimation
  *     by the Discrete Fourier transform (DFT)", MPI fuer Gravitationsphysik, 2002: HFT248D,
- *     sidelobes -248.4 dB, ENBW 5.6512 bins (REFERENCES.md 3.2, confirmed).
+ *     sidelobes -248.4 dB, ENBW 5.6512 bins (docs/references.md 3.2, confirmed).
  * [haykin:2001] S. Haykin, Communication Systems, 4th ed., ch. 3: side frequencies of single-tone
- *     AM have amplitude mu A_c / 2 each at f_c +- f_m (-7.96 dBc at mu = 0.8; REFERENCES.md 6).
+ *     AM have amplitude mu A_c / 2 each at f_c +- f_m (-7.96 dBc at mu = 0.8; docs/references.md 6).
  * [sm328] ITU-R SM.328 / Radio Regulations No. 1.153: occupied bandwidth, 0.5 % of the total
- *     mean power outside each edge (REFERENCES.md 7). REFERENCES.md 6.2 (computed): each side
+ *     mean power outside each edge (docs/references.md 7). docs/references.md 6.2 (computed): each side
  *     frequency holds mu^2/4 / (1 + mu^2/2) of the total power, >= 0.5 % only for mu >= 0.14213.
- * [cfr73.44] 47 CFR 73.44(b) (REFERENCES.md 7, confirmed): emissions 10.2-20 kHz from the carrier
+ * [cfr73.44] 47 CFR 73.44(b) (docs/references.md 7, confirmed): emissions 10.2-20 kHz from the carrier
  *     >= 25 dB below the unmodulated carrier, 20-30 kHz >= 35 dB, 30-60 kHz >= 5 + 1 dB/kHz
- *     (45 kHz: 50 dB, a computed point of REFERENCES.md 7), 60-75 kHz >= 65 dB; 300 Hz RBW.
+ *     (45 kHz: 50 dB, a computed point of docs/references.md 7), 60-75 kHz >= 65 dB; 300 Hz RBW.
  */
 #include <check.h>
 
@@ -194,7 +194,7 @@ END_TEST
 START_TEST(am_side_frequencies)
 {
     /* Single-tone AM: carrier A, side frequencies m A / 2 at fc +- fm [haykin:2001]; the ratio is
-     * m / 2 (m = 0.8: -7.96 dBc, REFERENCES.md 6). The lobes (+-12 bins = 70 Hz) are 1 kHz apart,
+     * m / 2 (m = 0.8: -7.96 dBc, docs/references.md 6). The lobes (+-12 bins = 70 Hz) are 1 kHz apart,
      * so each reading is its component alone: 1e-6 relative (file header). Real IF (fc 12 kHz) and
      * I/Q (fc -3 kHz). Outside the spectrum the reading is 0 (dsp/rf.h). */
     const size_t nfft = 8192, n = 16 * 8192;
@@ -210,7 +210,7 @@ START_TEST(am_side_frequencies)
             ck_assert_double_eq_tol(lo / c, m / 2.0, 1e-6);
             ck_assert_double_eq_tol(hi / c, m / 2.0, 1e-6);
             if (m == 0.8)
-                ck_assert_double_eq_tol(20.0 * log10(lo / c), -7.96, 0.005); /* REFERENCES.md 6, 2 decimals */
+                ck_assert_double_eq_tol(20.0 * log10(lo / c), -7.96, 0.005); /* docs/references.md 6, 2 decimals */
             /* between the components there is nothing (the lobes are 12 bins; 500 Hz is 85 away) */
             ck_assert_double_le(ml_rf_amplitude(q, fc + 500.0), 1e-9 * a);
             ck_assert_double_eq(ml_rf_amplitude(q, 30000.0), 0.0);
@@ -320,7 +320,7 @@ START_TEST(occupied_bandwidth_single_tone_am)
 {
     /* [sm328]: 0.5 % of the total power lies below the lower edge and 0.5 % above the upper one.
      * Each side frequency of single-tone AM holds mu^2/4 / (1 + mu^2/2) of the total
-     * (REFERENCES.md 6.2), >= 0.5 % exactly when mu >= 0.14213 (mu^2 = 0.005 / 0.2475, checked
+     * (docs/references.md 6.2), >= 0.5 % exactly when mu >= 0.14213 (mu^2 = 0.005 / 0.2475, checked
      * below).
      *  - mu = 0.8 (12.1 %) and 0.15 (0.55 %): the 0.5 % below the lower edge is reached inside the
      *    lower side frequency's window lobe, so the edge lies within that lobe: |lo - (fc - fm)| <=
@@ -328,12 +328,12 @@ START_TEST(occupied_bandwidth_single_tone_am)
      *    spectral picture of a tone, smeared over its lobe by the window: "about one lobe".
      *  - mu = 0.1 (0.249 %) and 0.13 (0.42 %): the lower side frequency holds less than 0.5 %, so
      *    the edge is reached only inside the carrier's lobe: both edges within +-70 Hz of fc, the
-     *    band collapses to the carrier (REFERENCES.md 6.2).
+     *    band collapses to the carrier (docs/references.md 6.2).
      * Real IF at 12 kHz with fm = 1 kHz, plus a DC offset of 0.05 (a sound card's) that dsp/rf.h
      * leaves out (it would hold 0.7 % of the power at mu = 0.8 and pull the lower edge to 0 Hz);
      * and I/Q at fc = -3 kHz. */
     const double mu_min = sqrt(0.005 / (0.25 - 0.0025));
-    ck_assert_double_eq_tol(mu_min, 0.14213, 5e-6); /* REFERENCES.md 6.2 */
+    ck_assert_double_eq_tol(mu_min, 0.14213, 5e-6); /* docs/references.md 6.2 */
     const size_t nfft = 8192, n = 16 * 8192;
     const double a = 0.4, fm = 1000.0, bw = FS / (double)nfft;
     const double ms[] = {0.8, 0.15, 0.13, 0.1};
@@ -447,7 +447,7 @@ START_TEST(mask_margin_flat_and_step)
      * of +-51 bins is wider than the lobe), so margin = limit - spur level exactly (Parseval, as
      * for the component readings): within 0.05 dB (the brief), in fact rounding.
      * The step at 20 kHz (repeated offset): -25 dBc below it, -35 above ([cfr73.44]; the 20 kHz
-     * point itself is ambiguous, REFERENCES.md 7, so spurs sit 1 kHz to either side, where every
+     * point itself is ambiguous, docs/references.md 7, so spurs sit 1 kHz to either side, where every
      * window holding them lies on one side of the step). worst_offset_hz is signed: negative for
      * a spur below the carrier, within the RBW half-width (150 Hz) of it.
      * I/Q at 192 kHz with the carrier at 0 Hz (the mask unscaled: offsets up to 75 kHz fit in
@@ -491,7 +491,7 @@ END_TEST
 
 START_TEST(mask_margin_sloped_segment)
 {
-    /* [cfr73.44] 30-60 kHz: limit -(5 + f_kHz) dBc, 45 kHz -> -50 dBc (REFERENCES.md 7). A spur
+    /* [cfr73.44] 30-60 kHz: limit -(5 + f_kHz) dBc, 45 kHz -> -50 dBc (docs/references.md 7). A spur
      * of -55 dBc at -45 kHz (below the carrier) is 5 dB inside at its own offset. But the mask is
      * read at every bin whose 300 Hz window holds the spur: a window centred up to
      * 51 - (lobe edge) bins further out still holds nearly all of it, where the limit is lower.
@@ -503,7 +503,7 @@ START_TEST(mask_margin_sloped_segment)
      * 0.05 dB tolerance. Real at 48 kHz with the mask scaled by 1/4 (4 dB/kHz): spur at -11.25 kHz,
      * limit at 11.25 kHz + 46 bins = -50.539, margin 4.461 (worst at 4 or 5 bins: 0.001 dB apart).
      * Bin powers and the search: /usr/bin/python3 with numpy, HFT248D coefficients of
-     * REFERENCES.md 3.2, N = 65536: W = |fft(w)|^2 / sum; for e in 0..15 minimise
+     * docs/references.md 3.2, N = 65536: W = |fft(w)|^2 / sum; for e in 0..15 minimise
      * -slope * (51 - e) * 2.9297 + 10 lg(1 / (1 - sum(W[e+1 : N/2]))): slope 0.001 dB/Hz -> e = 5,
      * -0.1341 dB; 0.004 dB/Hz -> e = 4, -0.5391 dB. The spurs sit on bin centres (45 kHz =
      * 15360 bins) as in that computation. */

@@ -4,9 +4,9 @@
  * References:
  * [heinzel:2002] G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density estimation
  *     by the Discrete Fourier transform (DFT) ...", MPI fuer Gravitationsphysik, 2002; flatness
- *     of HFT248D +-0.0009 dB, HFT144D +-0.0021 dB (REFERENCES.md 3.2, confirmed rows).
+ *     of HFT248D +-0.0009 dB, HFT144D +-0.0021 dB (docs/references.md 3.2, confirmed rows).
  * [harris:1978] F. J. Harris, Proc. IEEE 66(1):51-83, 1978, Table 1: Hann scallop loss 1.42 dB
- *     (REFERENCES.md 3.1; computed 1.4236 dB).
+ *     (docs/references.md 3.1; computed 1.4236 dB).
  * [ieee1241:2000] IEEE Std 1241-2000 / IEEE Std 1057: the project issue asks for the tone frequency
  *     to better than 0.01 Hz on a 10 s clean capture.
  */
@@ -372,7 +372,7 @@ START_TEST(hann_scallop_loss)
     /* A tone half-way between two bins reads low by the scallop loss in each of them. Hann, for
      * large N: W(1/2)/W(0) = [0.5 sinc(1/2) + 0.25 (sinc(1/2) - sinc(3/2))] / 0.5 = 8/(3 pi)
      * (the neighbouring Dirichlet kernels enter with opposite phase), i.e. 1.4236 dB
-     * ([harris:1978] Table 1: 1.42 dB; REFERENCES.md computed 1.4236). Power ratio (8/(3 pi))^2.
+     * ([harris:1978] Table 1: 1.42 dB; docs/references.md computed 1.4236). Power ratio (8/(3 pi))^2.
      * Tolerance 1e-5 relative: the finite-N kernel differs from sinc by O(1/N^2) = 6e-8 at
      * N = 4096; float rounding ~1e-15. A bin-centred tone reads A^2/2 in its bin (exact). */
     const double bin = FS / KS_NFFT, a = 0.5, p_true = a * a / 2.0;

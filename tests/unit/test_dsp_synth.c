@@ -3,12 +3,12 @@
  * SPDX-License-Identifier: MIT
  *
  * References:
- * [AES17] AES17-2015 3.12.1: a full-scale sine reads 0 dBFS (REFERENCES.md section 5, row
+ * [AES17] AES17-2015 3.12.1: a full-scale sine reads 0 dBFS (docs/references.md section 5, row
  *     "0 dBFS definition").
  * [haykin:2001] S. Haykin, Communication Systems, 4th ed., sec. 3.1: side-frequency amplitude
- *     mu A_c / 2 and total power P_c (1 + mu^2 / 2) (REFERENCES.md section 6, "confirmed").
+ *     mu A_c / 2 and total power P_c (1 + mu^2 / 2) (docs/references.md section 6, "confirmed").
  * [lntwww:2.7] LNTwww (TU Muenchen), Exercise 2.7 "Is the Modulation Depth Too High?": envelope
- *     |4 + 5 cos| (mu = 1.25): K2 = 0.102, K3 = 0.082 (REFERENCES.md 6.1, "confirmed").
+ *     |4 + 5 cos| (mu = 1.25): K2 = 0.102, K3 = 0.082 (docs/references.md 6.1, "confirmed").
  *
  * Tolerance conventions used below. Samples are floats: each holds its double value to within
  * 2^-24 relative (6e-8 for |x| <= 1). A DFT amplitude (2/N)|sum x e^-jwn| of the rounding error is
@@ -287,7 +287,7 @@ END_TEST
 
 START_TEST(overmod_pinch_off_envelope)
 {
-    /* m = 1.5, pinch-off: |I + jQ| = A max(0, 1 + 1.5 sin th) per frame (REFERENCES.md 6.1, model
+    /* m = 1.5, pinch-off: |I + jQ| = A max(0, 1 + 1.5 sin th) per frame (docs/references.md 6.1, model
      * B). The envelope is exactly 0 (carrier cut off) where sin th < -2/3, a fraction
      * (pi - 2 asin(2/3)) / (2 pi) = 0.2677 of the time; with th = 2 pi i / 48 that is i = 30..42,
      * 13 of 48 frames (0.2708, within one frame, 1/48, of the continuous value). The count of
@@ -312,7 +312,7 @@ START_TEST(overmod_phase_reversal)
 {
     /* m = 1.5, reversal: (I + jQ) e^{-j 2 pi fc n / rate} = A (1 + 1.5 sin th), a real, signed
      * envelope: negative (carrier phase flipped by 180 degrees) where 1 + 1.5 sin th < 0
-     * (REFERENCES.md 6.1, model A). 1e-6 per sample (header). */
+     * (docs/references.md 6.1, model A). 1e-6 per sample (header). */
     ml_synth_config c = am_config(3000, 1.5, true);
     c.overmod = ML_OVERMOD_REVERSE;
     float *z = gen(&c, N1S);
@@ -338,7 +338,7 @@ END_TEST
 START_TEST(overmod_reversal_matches_published_distortion)
 {
     /* [lntwww:2.7]: ideal envelope |1 + 1.25 cos| (= |4 + 5 cos| / 4) has K2 = H2/H1 = 0.102 and
-     * K3 = 0.082 (published to 3 decimals; exact values 0.1022 and 0.0819, REFERENCES.md 6.1).
+     * K3 = 0.082 (published to 3 decimals; exact values 0.1022 and 0.0819, docs/references.md 6.1).
      * fc = 0 in I/Q gives |I + jQ| = A |e| directly; sine instead of cosine only shifts phases.
      * rate 192 kHz puts 192 samples in a period, so harmonics that fold back onto 2 and 3 kHz are
      * above the 189th, below 1e-5 of H1 for an envelope with a kink (amplitudes fall as 1/k^2).

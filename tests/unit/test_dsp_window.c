@@ -4,12 +4,12 @@
  * References:
  * [harris:1978] F. J. Harris, "On the use of windows for harmonic analysis with the discrete
  *     Fourier transform", Proc. IEEE 66(1):51-83, Jan. 1978, Table 1 (values as listed in
- *     REFERENCES.md 3.1, where the Harris column is marked "from memory", partly confirmed).
+ *     docs/references.md 3.1, where the Harris column is marked "from memory", partly confirmed).
  * [heinzel:2002] G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density estimation
  *     by the Discrete Fourier transform (DFT), including a comprehensive list of window functions
  *     and some new flat-top windows", MPI fuer Gravitationsphysik, 2002 (values as listed in
- *     REFERENCES.md 3.2, "confirmed" rows).
- * REFERENCES.md 3.1 / 3.2 "computed" columns: periodic windows, 64x zero-padded FFT (numpy).
+ *     docs/references.md 3.2, "confirmed" rows).
+ * docs/references.md 3.1 / 3.2 "computed" columns: periodic windows, 64x zero-padded FFT (numpy).
  */
 #include <check.h>
 
@@ -21,11 +21,11 @@
 
 #include "dsp/window.h"
 
-#define N_FOM 4096 /* the length REFERENCES.md 3.1 used for its computed columns */
+#define N_FOM 4096 /* the length docs/references.md 3.1 used for its computed columns */
 
 /* Coefficients c_k of w = sum (-1)^k c_k cos(2 pi k n / N), copied from the sources named in
  * dsp/window.h ([harris:1978] Table 1; [heinzel:2002] HFT144D, HFT248D; identical to the
- * REFERENCES.md 3.2 rows). Used for the analytic figures of merit below. */
+ * docs/references.md 3.2 rows). Used for the analytic figures of merit below. */
 typedef struct {
     ml_window_type type;
     size_t nterms;
@@ -128,7 +128,7 @@ START_TEST(figures_of_merit_published)
         double cg, cg_tol, enbw, enbw_tol;
         const char *src;
     } pub[] = {
-        /* [harris:1978] Table 1 rectangular: CG 1.00, ENBW 1.00 (REFERENCES.md 3.1) */
+        /* [harris:1978] Table 1 rectangular: CG 1.00, ENBW 1.00 (docs/references.md 3.1) */
         {ML_WINDOW_RECT, 1.00, 0.005, 1.00, 0.005, "harris rect"},
         /* [harris:1978] Table 1 Hanning: CG 0.50, ENBW 1.50; [heinzel:2002] NENBW 1.5 (3.2) */
         {ML_WINDOW_HANN, 0.50, 0.005, 1.50, 0.005, "harris hann"},
@@ -136,7 +136,7 @@ START_TEST(figures_of_merit_published)
         {ML_WINDOW_BLACKMAN_HARRIS, 0.36, 0.005, 2.00, 0.005, "harris bh4"},
         /* [heinzel:2002] Blackman-Harris 92 dB: NENBW 2.0044 (3.2); CG = c0 = 0.35875 (coefficient) */
         {ML_WINDOW_BLACKMAN_HARRIS, 0.35875, 5e-6, 2.0044, 5e-5, "heinzel bh92"},
-        /* [heinzel:2002] HFT144D: NENBW 4.5386; unnormalised, CG = c0 = 1 (REFERENCES.md 3.2 note) */
+        /* [heinzel:2002] HFT144D: NENBW 4.5386; unnormalised, CG = c0 = 1 (docs/references.md 3.2 note) */
         {ML_WINDOW_HFT144D, 1.0, 5e-5, 4.5386, 5e-5, "heinzel hft144d"},
         /* [heinzel:2002] HFT248D: NENBW 5.6512; CG = c0 = 1 */
         {ML_WINDOW_HFT248D, 1.0, 5e-5, 5.6512, 5e-5, "heinzel hft248d"},
@@ -172,7 +172,7 @@ END_TEST
  * PAD_SL times so f is sampled every 1/PAD_SL bin. The DTFT of a K-term cosine window is
  * W(f) = sum_k +-c_k/2 (D(f - k) + D(f + k)) with D the Dirichlet kernel, zero at every nonzero
  * integer bin, so W vanishes at every integer |f| >= K: the sidelobe region starts at K bins.
- * (REFERENCES.md computed PSLL the same way; the values below confirm it.) */
+ * (docs/references.md computed PSLL the same way; the values below confirm it.) */
 static double psll_db(ml_window_type type)
 {
     const size_t m = N_SL * PAD_SL, nb = m / 2 + 1;
@@ -198,7 +198,7 @@ static double psll_db(ml_window_type type)
 
 START_TEST(highest_sidelobe_levels)
 {
-    /* Oracle: REFERENCES.md 3.1/3.2 "computed PSLL" column (periodic, 64x zero-padded):
+    /* Oracle: docs/references.md 3.1/3.2 "computed PSLL" column (periodic, 64x zero-padded):
      * Hann -31.47 (published: [harris:1978] -32, [heinzel:2002] 31.5), Blackman-Harris -92.01
      * (published -92 / 92.0), HFT144D -144.05 ([heinzel:2002] 144.1), HFT248D -248.39
      * ([heinzel:2002] 248.4). Tolerance 0.01 dB = rounding of the table (0.005) + the 1/64-bin
@@ -213,7 +213,7 @@ START_TEST(highest_sidelobe_levels)
         ml_window_type type;
         double psll_db;
     } ref[] = {
-        {ML_WINDOW_RECT, -13.26}, /* REFERENCES.md 3.1 computed; [harris:1978] -13 */
+        {ML_WINDOW_RECT, -13.26}, /* docs/references.md 3.1 computed; [harris:1978] -13 */
         {ML_WINDOW_HANN, -31.47},
         {ML_WINDOW_BLACKMAN_HARRIS, -92.01},
         {ML_WINDOW_HFT144D, -144.05},
