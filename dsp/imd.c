@@ -126,7 +126,8 @@ static int product(const spec_view *v, double hz, int n, double margin, ml_imd_p
         return 0;
     const double pw = lobe_power(v, c), nz = noise_lobe_power(v, c);
     *p = (ml_imd_product){.frequency_hz = hz, .n = n, .amplitude = sqrt(2.0 * pw),
-                          .noise_amplitude = sqrt(2.0 * nz), .upper_bound = pw < nz * pow(10.0, margin / 10.0)};
+                          .noise_amplitude = sqrt(2.0 * nz),
+                          .upper_bound = pw < nz * pow(10.0, margin / 10.0)};
     return 1;
 }
 

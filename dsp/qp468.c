@@ -149,8 +149,8 @@ static int design(ml_qp468 *q)
     q->s[0] = (biquad){{1.0, 0.0, -1.0}, {1.0, -(r0 + r1), r0 * r1}, 0, 0};
     for (int i = 0; i < 2; i++) {
         const double complex p = cexp(CMPLX(P_CPLX_RE[i] * T, P_CPLX_IM[i] * T));
-        q->s[1 + i] = (biquad){{1.0, 0.0, 0.0}, {1.0, -2.0 * creal(p), creal(p) * creal(p) + cimag(p) * cimag(p)},
-                               0, 0};
+        const double m2 = creal(p) * creal(p) + cimag(p) * cimag(p);
+        q->s[1 + i] = (biquad){{1.0, 0.0, 0.0}, {1.0, -2.0 * creal(p), m2}, 0, 0};
     }
     const size_t kk = fs < 64000 ? 8 : 3;
     q->ntaps = 2 * kk - 1;

@@ -121,7 +121,8 @@ ml_status ml_steps_create(const ml_steps_config *cfg, ml_steps **out)
     q->out = fftw_alloc_complex(q->nfft / 2 + 1);
     q->fifo = malloc((q->hold + 1) * sizeof *q->fifo);
     q->steps = malloc(cfg->max_steps * sizeof *q->steps);
-    if (q->w == NULL || q->ring == NULL || q->in == NULL || q->out == NULL || q->fifo == NULL || q->steps == NULL)
+    if (q->w == NULL || q->ring == NULL || q->in == NULL || q->out == NULL || q->fifo == NULL
+        || q->steps == NULL)
         goto fail;
     double s2 = 0.0;
     for (size_t n = 0; n < q->F; n++) {
@@ -259,7 +260,8 @@ static void analyse_frame(ml_steps *q)
     fi.lev_db = fi.pt > 0 ? 10.0 * log10(fi.pt / 0.5) : -INFINITY;
     fi.x = q->out[kp];
     const double rest = (tot - pt) * q->scale;
-    int tonal = fi.pt > 0 && fi.pt >= pow(10.0, q->cfg.tonal_db / 10.0) * rest && fi.lev_db >= q->cfg.min_level_dbfs;
+    int tonal = fi.pt > 0 && fi.pt >= pow(10.0, q->cfg.tonal_db / 10.0) * rest
+                && fi.lev_db >= q->cfg.min_level_dbfs;
     if (tonal) {
         q->loudest_db = fmax(q->loudest_db, fi.lev_db);
         tonal = fi.lev_db >= q->loudest_db - q->cfg.pause_db;
@@ -356,7 +358,8 @@ ml_step_plan ml_step_plan_default(void)
 static int plan_ok(const ml_step_plan *p, double rate_hz)
 {
     if (p == NULL || !(rate_hz > 0) || p->nfreqs < 1 || p->nfreqs > ML_STEP_PLAN_MAX_FREQS || p->nlevels < 1
-        || p->nlevels > ML_STEP_PLAN_MAX_LEVELS || !in_range(p->step_s, 0.05, 3600) || !in_range(p->pause_s, 0, 3600))
+        || p->nlevels > ML_STEP_PLAN_MAX_LEVELS || !in_range(p->step_s, 0.05, 3600)
+        || !in_range(p->pause_s, 0, 3600))
         return 0;
     for (size_t i = 0; i < p->nfreqs; i++)
         if (!(p->freqs_hz[i] > 0 && p->freqs_hz[i] < rate_hz / 2))
@@ -390,7 +393,8 @@ ml_status ml_step_plan_to_synth(const ml_step_plan *p, double rate_hz, ml_synth_
     return ML_OK;
 }
 
-ml_status ml_step_plan_schedule(const ml_step_plan *p, double rate_hz, ml_step_expect *out, size_t cap, size_t *n)
+ml_status ml_step_plan_schedule(const ml_step_plan *p, double rate_hz, ml_step_expect *out, size_t cap,
+                                size_t *n)
 {
     if (!plan_ok(p, rate_hz) || out == NULL || n == NULL || cap < p->nfreqs * p->nlevels)
         return ML_EINVAL;

@@ -93,7 +93,8 @@ START_TEST(plan_read_back_without_options)
                       "step %zu: %llu..%llu outside %llu..%llu", i, (unsigned long long)s.measure_start,
                       (unsigned long long)s.measure_end, (unsigned long long)e[i].start,
                       (unsigned long long)e[i].end);
-        ck_assert_msg(fabs(s.frequency_hz / e[i].frequency_hz - 1) < 1e-4, "step %zu: %.4f Hz", i, s.frequency_hz);
+        ck_assert_msg(fabs(s.frequency_hz / e[i].frequency_hz - 1) < 1e-4, "step %zu: %.4f Hz", i,
+                      s.frequency_hz);
         ck_assert_msg(fabs(s.level_dbfs - e[i].level_dbfs) < 0.05, "step %zu: %.3f dBFS", i, s.level_dbfs);
         ck_assert(s.level_spread_db < 0.1 && s.nframes >= 3);
     }
@@ -203,7 +204,8 @@ START_TEST(filtered_recording_levels_and_thd)
         sc.window = ML_WINDOW_BLACKMAN_HARRIS;
         ml_spectrum *sp = NULL;
         ck_assert_int_eq(ml_spectrum_create(&sc, &sp), ML_OK);
-        ck_assert_int_eq(ml_spectrum_push(sp, x + s.measure_start, (size_t)(s.measure_end - s.measure_start)), ML_OK);
+        const size_t len = (size_t)(s.measure_end - s.measure_start);
+        ck_assert_int_eq(ml_spectrum_push(sp, x + s.measure_start, len), ML_OK);
         ml_audio_config ac = ml_audio_config_default();
         ac.tone_hz = s.frequency_hz;
         ml_audio_result r;
@@ -217,11 +219,11 @@ START_TEST(filtered_recording_levels_and_thd)
     const size_t ref = 3; /* 1 kHz at -12 dBFS */
     for (size_t i = 0; i < ne; i++) {
         const double want = (eg[i] + el[i]) - (eg[ref] + el[ref]);
-        ck_assert_msg(fabs((lev[i] - lev[ref]) - want) <= 0.1, "step %zu (%g Hz): %.3f dB re 1 kHz, want %.3f", i,
-                      ef[i], lev[i] - lev[ref], want);
+        ck_assert_msg(fabs((lev[i] - lev[ref]) - want) <= 0.1, "step %zu (%g Hz): %.3f dB re 1 kHz (%.3f)",
+                      i, ef[i], lev[i] - lev[ref], want);
         if (et[i] > 0.01)
-            ck_assert_msg(fabs(20 * log10(thd[i] / et[i])) <= 0.3, "step %zu (%g Hz): THD %.4f %%, want %.4f", i,
-                          ef[i], thd[i], et[i]);
+            ck_assert_msg(fabs(20 * log10(thd[i] / et[i])) <= 0.3, "step %zu (%g Hz): THD %.4f %%, want %.4f",
+                          i, ef[i], thd[i], et[i]);
     }
     ml_steps_destroy(q);
     free(x);
@@ -238,7 +240,8 @@ START_TEST(plan_functions)
     size_t n = 0;
     ck_assert_int_eq(ml_step_plan_to_synth(&p, 48000, st, 32, &n), ML_OK);
     ck_assert_uint_eq(n, 32);
-    ck_assert(st[0].freq_hz == 31.5 && st[0].level_dbfs == -10 && st[1].freq_hz == 0 && st[16].level_dbfs == -30);
+    ck_assert(st[0].freq_hz == 31.5 && st[0].level_dbfs == -10 && st[1].freq_hz == 0);
+    ck_assert(st[16].level_dbfs == -30);
     ml_step_expect e[16];
     ck_assert_int_eq(ml_step_plan_schedule(&p, 48000, e, 16, &n), ML_OK);
     ck_assert_uint_eq(e[9].start, 9 * 48000);
