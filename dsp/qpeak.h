@@ -48,9 +48,9 @@
  *    without the meter's memory).
  * For an unmodulated carrier at L dBFS all four read L (after settling). For pulses of equal area
  * the quasi-peak reading follows the standard's pulse-response table within its tolerances (see
- * tests/unit/test_dsp_qpeak.c: 1000 Hz +4.49, 20 Hz -6.61, 10 Hz -10.59, 2 Hz -21.15, 1 Hz
- * -23.46 dB re 100 Hz at 48 kHz, Band B), and the average reading is proportional to the
- * repetition rate.
+ * tests/unit/test_dsp_qpeak.c: 1000 Hz +4.49, 20 Hz -6.62, 10 Hz -10.61, 2 Hz -21.18, 1 Hz
+ * -23.49 dB re 100 Hz for a real IF at 48 kHz, Band B; within 0.03 dB of that at 96 and 192 kHz
+ * and for I/Q), and the average reading is proportional to the repetition rate.
  *
  * The meters start at rest after create and reset: their readings settle within
  * ml_qpeak_get_settle_frames() frames (latency plus 8 meter_s: a step is then within 0.3 % =
