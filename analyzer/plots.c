@@ -6,6 +6,7 @@
 
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 #include <time.h>
 
@@ -162,11 +163,26 @@ void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, d
     p->has_trapezoid = p->ref != NULL && p->nenv >= 2;
 }
 
+/* The whole command line of this run (malloc, kept to the end): the callers' buffers are fixed,
+ * and the PDF record must show it all. */
+static char *whole_cmdline;
+
 void ml_plots_cmdline(int argc, char **argv, char *buf, size_t len)
 {
-    size_t n = (size_t)snprintf(buf, len, "modlens");
-    for (int i = 0; i < argc && n < len; i++)
-        n += (size_t)snprintf(buf + n, len - n, " %s", argv[i]);
+    size_t need = sizeof "modlens";
+    for (int i = 0; i < argc; i++)
+        need += 1 + strlen(argv[i]);
+    free(whole_cmdline);
+    whole_cmdline = malloc(need);
+    size_t n = (size_t)snprintf(buf, len, "modlens"), w = 0;
+    if (whole_cmdline)
+        w = (size_t)snprintf(whole_cmdline, need, "modlens");
+    for (int i = 0; i < argc; i++) {
+        if (n < len)
+            n += (size_t)snprintf(buf + n, len - n, " %s", argv[i]);
+        if (whole_cmdline)
+            w += (size_t)snprintf(whole_cmdline + w, need - w, " %s", argv[i]);
+    }
 }
 
 int ml_plots_check_paths(const char *plot_path, const char *report_path)
@@ -205,10 +221,13 @@ static int write_one(const char *path, const job *j)
     now_text(when, sizeof when);
     ml_plot_data empty;
     ml_plot_data_init(&empty);
+    const char *cmd = j->cmdline; /* the whole line where the caller's copy was cut */
+    if (whole_cmdline && cmd && strncmp(whole_cmdline, cmd, strlen(cmd)) == 0)
+        cmd = whole_cmdline;
     ml_status st;
     if (j->pdf_record)
-        st = j->c ? ml_compare_write_pdf(out.f, j->c, j->p, j->b, j->cmdline, when, ML_VERSION)
-                  : ml_report_write_pdf(out.f, j->r, j->p ? j->p : &empty, j->cmdline, when, ML_VERSION);
+        st = j->c ? ml_compare_write_pdf(out.f, j->c, j->p, j->b, cmd, when, ML_VERSION)
+                  : ml_report_write_pdf(out.f, j->r, j->p ? j->p : &empty, cmd, when, ML_VERSION);
     else
         st = j->c ? ml_plot_write_compare(out.f, path, j->c, j->p, j->b)
                   : ml_plot_write(out.f, path, j->p ? j->p : &empty, j->r);

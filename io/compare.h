@@ -4,6 +4,13 @@
  *
  * The analyzer fills the rows (values, difference, uncertainty and verdict come from it); the
  * writers only lay them out. Writers never exit; they return ML_EIO when the stream fails.
+ *
+ * CSV (ML_FORMAT_CSV): like the measurement's, no header row, fixed columns in the order of
+ * ML_COMPARE_CSV_COLUMNS (new ones only ever appended), RFC 4180 quoting, LF line ends. Every
+ * row carries both files and their kinds, then row_kind: "metric" (one compared figure: the
+ * values, b - a, its uncertainty, the verdict, whether it counts for the exit status ("yes" /
+ * "no"), the limits and each side's margin and pass/fail where a limit applies), "note" (in the
+ * text column) and one "verdict" row ("worse" or "not worse", in the text column).
  */
 #ifndef ML_IO_COMPARE_H
 #define ML_IO_COMPARE_H
@@ -13,6 +20,10 @@
 
 #include "dsp/status.h"
 #include "io/report.h"
+
+#define ML_COMPARE_CSV_COLUMNS                                                                        \
+    "file_a,file_b,kind_a,kind_b,row_kind,metric,unit,a,b,difference,uncertainty,verdict,counted,"   \
+    "lower_limit,upper_limit,margin_a,margin_b,pass_a,pass_b,text"
 
 typedef struct {
     char metric[64];     /* dotted name                                                   */
@@ -31,7 +42,7 @@ typedef struct {
 
 typedef struct {
     const ml_report *a, *b; /* the two reports (input description, checks, notes)           */
-    char limits_path[1024];
+    char limits_path[ML_REPORT_PATH_LEN];
     size_t nrows;
     ml_compare_row rows[ML_REPORT_MAX_METRICS];
     size_t nworse;          /* counted rows whose verdict is "worse"                        */
@@ -40,6 +51,8 @@ typedef struct {
 } ml_comparison;
 
 ml_status ml_compare_write(FILE *f, const ml_comparison *c, ml_report_format fmt);
+/* The comparison CSV's header line (ML_COMPARE_CSV_COLUMNS and a newline). ML_EIO when f fails. */
+ml_status ml_compare_write_csv_header(FILE *f);
 
 /* Reads a JSON report written by measure: the input description, every number under a
  * dotted path outside "input", "checks", "uncertainty" and arrays (unit "" and 3 decimals: the

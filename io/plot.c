@@ -615,7 +615,7 @@ ml_status ml_plot_write(FILE *f, const char *path, const ml_plot_data *p, const 
     ml_status st = page_open(&cv, f, path, w, h, &cr);
     if (st != ML_OK)
         return st;
-    char t[1200];
+    char t[ML_REPORT_PATH_LEN + 200];
     snprintf(t, sizeof t, "modlens: %s (%s, %.0f Hz, %.3f s)", r->path, r->kind, r->sample_rate_hz, r->analysed_s);
     text_at(cr, margin, margin, t, 0.0, 0.0);
     ml_draw_pictures(cr, margin, margin + 24, w - 2 * margin, p);
@@ -635,7 +635,7 @@ ml_status ml_plot_write_compare(FILE *f, const char *path, const ml_comparison *
     ml_status st = page_open(&cv, f, path, w, h, &cr);
     if (st != ML_OK)
         return st;
-    char t[2200];
+    char t[2 * ML_REPORT_PATH_LEN + 200];
     snprintf(t, sizeof t, "modlens comparison: A = %s, B = %s", c->a->path, c->b->path);
     text_at(cr, margin, margin, t, 0.0, 0.0);
     double y = margin + 24;

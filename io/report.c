@@ -3,6 +3,7 @@
  */
 #include "io/report.h"
 
+#include <ctype.h>
 #include <math.h>
 #include <stdarg.h>
 #include <string.h>
@@ -25,6 +26,132 @@ ml_metric *ml_report_add(ml_report *r, const char *name, const char *unit, int d
 ml_metric *ml_report_add_missing(ml_report *r, const char *name, const char *unit, int decimals)
 {
     return ml_report_add(r, name, unit, decimals, NAN);
+}
+
+ml_metric *ml_report_add_missing_why(ml_report *r, const char *name, const char *unit, int decimals,
+                                     const char *reason)
+{
+    ml_metric *m = ml_report_add(r, name, unit, decimals, NAN);
+    if (m && reason)
+        snprintf(m->reason, sizeof m->reason, "%s", reason);
+    return m;
+}
+
+/* The metric of this exact dotted name, or NULL. */
+static ml_metric *exact(ml_report *r, const char *name)
+{
+    for (size_t i = 0; name && i < r->nmetrics; i++)
+        if (strcmp(r->metrics[i].name, name) == 0)
+            return &r->metrics[i];
+    return NULL;
+}
+
+ml_metric *ml_report_unmeasured(ml_report *r, const char *name, const char *fmt, ...)
+{
+    ml_metric *m = exact(r, name);
+    if (m == NULL)
+        return NULL;
+    m->valid = false;
+    m->value = 0.0;
+    m->has_u = false;
+    m->u = 0.0;
+    m->bound = ML_BOUND_NONE;
+    m->qualifier[0] = '\0';
+    m->reason[0] = '\0';
+    if (fmt) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(m->reason, sizeof m->reason, fmt, ap);
+        va_end(ap);
+    }
+    return m;
+}
+
+ml_metric *ml_report_qualify(ml_report *r, const char *name, const char *fmt, ...)
+{
+    ml_metric *m = exact(r, name);
+    if (m == NULL || !m->valid)
+        return NULL;
+    m->qualifier[0] = '\0';
+    if (fmt) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
+        va_end(ap);
+    }
+    return m;
+}
+
+ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const char *fmt, ...)
+{
+    ml_metric *m = exact(r, name);
+    if (m == NULL || !m->valid || (bound != ML_BOUND_NONE && bound != ML_BOUND_UPPER && bound != ML_BOUND_LOWER))
+        return NULL;
+    m->bound = bound;
+    if (fmt) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
+        va_end(ap);
+    }
+    return m;
+}
+
+void ml_report_settings(ml_report *r, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(r->settings, sizeof r->settings, fmt, ap);
+    va_end(ap);
+}
+
+const char *ml_report_bound_name(ml_bound b)
+{
+    return b == ML_BOUND_UPPER ? "upper" : b == ML_BOUND_LOWER ? "lower" : "";
+}
+
+void ml_report_number(char *buf, size_t len, double v, int decimals, bool plus)
+{
+    if (len == 0)
+        return;
+    if (!isfinite(v)) {
+        buf[0] = '\0';
+        return;
+    }
+    if (decimals < 0)
+        decimals = 0;
+    snprintf(buf, len, plus ? "%+.*f" : "%.*f", decimals, v);
+    /* all digits zero: print the zero of that precision without a sign */
+    if (buf[0] == '-' || buf[0] == '+') {
+        bool zero = true;
+        for (const char *p = buf + 1; *p && zero; p++)
+            zero = *p == '0' || *p == '.';
+        if (zero)
+            memmove(buf, buf + 1, strlen(buf));
+    }
+}
+
+void ml_report_unsign_zeros(char *dst, size_t len, const char *src)
+{
+    if (len == 0)
+        return;
+    size_t o = 0;
+    for (size_t i = 0; src[i] && o + 1 < len; i++) {
+        /* "-0", "-0.0", "-0.000" standing alone (after a space, '=', '(' ... and not before a
+         * digit) is a negative zero: drop the sign. Names such as "take-0.wav" are left alone. */
+        if (src[i] == '-' && src[i + 1] == '0' && (i == 0 || strchr(" =(:,[<>~\t", src[i - 1]) != NULL)) {
+            size_t j = i + 2;
+            if (src[j] == '.')
+                for (j++; src[j] == '0'; j++)
+                    ;
+            const unsigned char next = (unsigned char)src[j];
+            if (src[j - 1] != '.' && !isalnum(next) && next != '_' && next != '.' && next != '-') {
+                continue; /* skip the '-' */
+            }
+        }
+        dst[o++] = src[i];
+    }
+    dst[o] = '\0';
 }
 
 void ml_report_add_text(ml_report *r, const char *name, const char *value)
@@ -75,12 +202,15 @@ const char *ml_report_verdict(const ml_report *r)
 
 void ml_report_limit_text(const ml_check *c, char *buf, size_t len)
 {
+    char lo[40], hi[40];
+    ml_report_number(lo, sizeof lo, c->min, c->decimals, false);
+    ml_report_number(hi, sizeof hi, c->max, c->decimals, false);
     if (c->has_min && c->has_max)
-        snprintf(buf, len, "%.*f..%.*f", c->decimals, c->min, c->decimals, c->max);
+        snprintf(buf, len, "%s..%s", lo, hi);
     else if (c->has_min)
-        snprintf(buf, len, ">= %.*f", c->decimals, c->min);
+        snprintf(buf, len, ">= %s", lo);
     else if (c->has_max)
-        snprintf(buf, len, "<= %.*f", c->decimals, c->max);
+        snprintf(buf, len, "<= %s", hi);
     else
         buf[0] = '\0';
 }
@@ -107,4 +237,87 @@ ml_status ml_report_write(FILE *f, const ml_report *r, ml_report_format fmt)
     if (st == ML_OK && (fflush(f) != 0 || ferror(f)))
         st = ML_EIO;
     return st;
+}
+
+ml_status ml_report_write_csv_header(FILE *f)
+{
+    if (f == NULL)
+        return ML_EINVAL;
+    fputs(ML_REPORT_CSV_COLUMNS "\n", f);
+    return fflush(f) == 0 && !ferror(f) ? ML_OK : ML_EIO;
+}
+
+void ml_csv_field(FILE *f, const char *s, char sep)
+{
+    if (s[strcspn(s, ",\"\r\n")] != '\0') {
+        fputc('"', f);
+        for (const char *p = s; *p; p++) {
+            if (*p == '"')
+                fputc('"', f);
+            fputc(*p, f);
+        }
+        fputc('"', f);
+    } else {
+        fputs(s, f);
+    }
+    if (sep)
+        fputc(sep, f);
+}
+
+static bool has_mark(const ml_metric *m)
+{
+    return m->valid ? (m->bound != ML_BOUND_NONE || m->qualifier[0]) : m->reason[0] != '\0';
+}
+
+int ml_report_mark(const ml_report *r, size_t i)
+{
+    if (i >= r->nmetrics || !has_mark(&r->metrics[i]))
+        return 0;
+    int n = 0;
+    for (size_t k = 0; k <= i; k++)
+        n += has_mark(&r->metrics[k]);
+    return n;
+}
+
+void ml_report_why_text(const ml_metric *m, char *buf, size_t len)
+{
+    char t[ML_REPORT_WHY_LEN];
+    if (!m->valid) {
+        ml_report_unsign_zeros(t, sizeof t, m->reason);
+        snprintf(buf, len, "not measured: %s", t);
+        return;
+    }
+    ml_report_unsign_zeros(t, sizeof t, m->qualifier);
+    const char *b = m->bound == ML_BOUND_UPPER ? "upper bound" : m->bound == ML_BOUND_LOWER ? "lower bound" : "";
+    if (t[0] && b[0] && strstr(t, b) == NULL)
+        snprintf(buf, len, "%s (%s)", t, b);
+    else
+        snprintf(buf, len, "%s", t[0] ? t : b);
+}
+
+void ml_report_value_text(const ml_metric *m, char *buf, size_t len)
+{
+    if (!m->valid) {
+        snprintf(buf, len, "n/a");
+        return;
+    }
+    char v[48];
+    ml_report_number(v, sizeof v, m->value, m->decimals, false);
+    snprintf(buf, len, "%s%s", m->bound == ML_BOUND_UPPER ? "< " : m->bound == ML_BOUND_LOWER ? "> " : "", v);
+}
+
+void ml_report_u_text(const ml_metric *m, char *buf, size_t len)
+{
+    if (len == 0)
+        return;
+    buf[0] = '\0';
+    if (!m->valid || !m->has_u || !isfinite(m->u))
+        return;
+    const int d = (m->decimals < 0 ? 0 : m->decimals) + 1;
+    char n[48];
+    ml_report_number(n, sizeof n, m->u, d, false);
+    if (strspn(n, "0.") == strlen(n)) /* below the printed precision: say so, not "+- 0.000" */
+        snprintf(buf, len, "+- <%.*f", d, pow(10.0, -d));
+    else
+        snprintf(buf, len, "+- %s", n);
 }

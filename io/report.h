@@ -4,7 +4,38 @@
  * A report is a flat list of metrics with dotted names ("audio.thd_pct"), tables attached to a
  * dotted path ("audio.harmonics"), limit checks, notes and an input description. The JSON
  * writer nests the dotted names into objects; the text writer prints a table; the CSV writer
- * prints one row per metric. Writers never exit; they return ML_EIO when the stream fails.
+ * prints one row per figure. Writers never exit; they return ML_EIO when the stream fails.
+ *
+ * Honest figures. A metric that could not be measured is not a number: it is null in JSON, an
+ * empty value in CSV and "n/a" in text, and it may carry a short reason (why not). A measured
+ * metric may carry a qualifier (how to read it: "noise-limited", "resolution-limited", ...) and
+ * may be a bound: ML_BOUND_UPPER means the true value is at most the one given (text "< 0.30"),
+ * ML_BOUND_LOWER at least (text "> 60.0"). Where they appear:
+ *   JSON  the value stays a number (or null) at its dotted name; three objects nested like the
+ *         metrics themselves (as "uncertainty" is) carry the rest, always present, empty when
+ *         unused: "reasons" {"hum": {"level_dbc": "capture shorter than 0.4 s"}}, "qualifiers"
+ *         {"audio": {"thd_pct": "noise-limited: upper bound"}} and "bounds" {"audio":
+ *         {"thd_pct": "upper"}} ("upper" or "lower").
+ *   text  "n/a" or "< 0.3000" with a mark "[1]" beside the value; the marks are explained under
+ *         the metric table ("[1] audio.thd_pct: noise-limited: upper bound").
+ *   CSV   the columns "bound", "qualifier" and "reason" of the figure's row (ml_report_write_csv).
+ *   PDF   as text.
+ * Numbers are printed to the metric's decimals, and a value that rounds to zero at that precision
+ * prints as 0 (never "-0.00") in every format.
+ *
+ * CSV shape (ML_FORMAT_CSV): NO header row, so that `cat *.csv` of many runs is one table; the
+ * columns are fixed, in the order of ML_REPORT_CSV_COLUMNS (ml_report_write_csv_header prints
+ * that line), and new columns are only ever added at the end. Every row carries the input file,
+ * its kind and the analysed segment (start and length in seconds), then what the row is:
+ *   row_kind  "metric" (one figure), "cell" (a table cell, name "audio.harmonics[2].level_dbc"),
+ *             "text" (a text field), "input" (a line of the input description: format,
+ *             sample_rate_hz, ...), "note" (one note, in the text column), "verdict" (the
+ *             report's verdict: pass, fail or unchecked, in the text column).
+ *   value     a number or empty (metric not measured); uncertainty the 95 % half-width or empty;
+ *   lower_limit, upper_limit, margin: numbers or empty (margin positive inside the limits);
+ *   verdict   "pass" / "fail" for a checked figure, else empty.
+ * Fields are quoted as RFC 4180 asks (a field holding a comma, a double quote, CR or LF is put in
+ * double quotes, inner quotes doubled); lines end in LF.
  */
 #ifndef ML_IO_REPORT_H
 #define ML_IO_REPORT_H
@@ -24,6 +55,21 @@
 #define ML_REPORT_MAX_NOTES 16
 #define ML_REPORT_NOTE_LEN 256
 #define ML_REPORT_MAX_TEXTS 16
+#define ML_REPORT_PATH_LEN 4096   /* PATH_MAX of Linux: a path is never cut in the model       */
+#define ML_REPORT_WHY_LEN 128     /* a reason or qualifier, including the terminating NUL      */
+#define ML_REPORT_SETTINGS_LEN 512
+
+/* The header line of the CSV report (without the newline), which the report never prints itself. */
+#define ML_REPORT_CSV_COLUMNS                                                                        \
+    "file,input_kind,start_s,duration_s,row_kind,name,value,unit,uncertainty,bound,lower_limit,"     \
+    "upper_limit,margin,verdict,qualifier,reason,text"
+
+/* How a measured value bounds the true one. */
+typedef enum {
+    ML_BOUND_NONE = 0, /* the value is an estimate of the true value                            */
+    ML_BOUND_UPPER,    /* the true value is at most the value ("< 0.30 %": e.g. below the noise) */
+    ML_BOUND_LOWER     /* the true value is at least the value ("> 60.0 dB")                      */
+} ml_bound;
 
 typedef struct {
     char name[64];    /* dotted JSON path, e.g. "audio.thd_pct"                       */
@@ -33,6 +79,9 @@ typedef struct {
     double value;
     bool has_u;       /* an uncertainty was estimated (analyzer/uncertainty.h)         */
     double u;         /* half-width of its 95 % interval, in the metric's unit          */
+    ml_bound bound;   /* valid only: whether value bounds the true value                */
+    char qualifier[ML_REPORT_WHY_LEN]; /* valid only: how to read it; "" none                  */
+    char reason[ML_REPORT_WHY_LEN];    /* !valid only: why it was not measured; "" not given  */
 } ml_metric;
 
 typedef struct {
@@ -63,7 +112,7 @@ typedef struct {
 
 typedef struct {
     /* input */
-    char path[1024];
+    char path[ML_REPORT_PATH_LEN];
     char kind[16];           /* "audio", "if", "iq"                                       */
     char kind_reason[160];   /* why that kind                                              */
     char format[64];
@@ -73,8 +122,10 @@ typedef struct {
     int64_t frames;
     double duration_s;
     double start_s, analysed_s;
-    char limits_path[1024];  /* "" when none                                               */
+    char limits_path[ML_REPORT_PATH_LEN]; /* "" when none                                   */
     char analysis[320];      /* method summary: window, nfft, segments                     */
+    char settings[ML_REPORT_SETTINGS_LEN]; /* settings and calibration in force ("" none):
+                                * printed in every format when set (ml_report_settings)     */
     size_t u_blocks;         /* blocks behind the uncertainties (0: none estimated)         */
     double u_block_s;        /* length of one block in seconds                              */
     size_t nmetrics;
@@ -91,10 +142,33 @@ typedef struct {
 
 typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_format;
 
-/* Appends a metric; returns a pointer to it (NULL when full). value NaN/inf marks it invalid. */
+/* Appends a metric; returns a pointer to it (NULL when full). value NaN/inf marks it invalid
+ * (not measured, no reason given: prefer ml_report_add_missing_why). */
 ml_metric *ml_report_add(ml_report *r, const char *name, const char *unit, int decimals, double value);
 /* Appends a metric that could not be measured. */
 ml_metric *ml_report_add_missing(ml_report *r, const char *name, const char *unit, int decimals);
+/* Appends a metric that could not be measured, with the reason (a short phrase, e.g. "capture
+ * shorter than 0.4 s: the mains line is not resolved"; cut to ML_REPORT_WHY_LEN - 1 bytes;
+ * NULL or "" gives none). NULL when the report is full. */
+ml_metric *ml_report_add_missing_why(ml_report *r, const char *name, const char *unit, int decimals,
+                                     const char *reason);
+/* Withdraws the metric of this exact dotted name: it becomes not measured (value, uncertainty,
+ * bound and qualifier dropped) with the reason printf(fmt, ...). Call it before the limits are
+ * applied, so that a check sees the metric as not measured. NULL when there is no such metric. */
+ml_metric *ml_report_unmeasured(ml_report *r, const char *name, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+/* Sets the qualifier of the measured metric of this exact dotted name to printf(fmt, ...) (e.g.
+ * "noise-limited: the harmonics are not above the noise"); the bound is left as it is. NULL when
+ * there is no such metric or it is not measured. */
+ml_metric *ml_report_qualify(ml_report *r, const char *name, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+/* Makes the measured metric of this exact dotted name a bound (ML_BOUND_UPPER: the true value is
+ * at most value; ML_BOUND_LOWER: at least) and sets its qualifier to printf(fmt, ...) (fmt NULL
+ * keeps the qualifier). NULL when there is no such metric or it is not measured. */
+ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const char *fmt, ...)
+    __attribute__((format(printf, 4, 5)));
+/* Sets the settings and calibration in force (printf(fmt, ...); "" clears it). */
+void ml_report_settings(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 /* Appends a text-valued field (JSON string at the dotted name; a line in the text header). */
 void ml_report_add_text(ml_report *r, const char *name, const char *value);
 /* Finds a metric by dotted name, or by its last component when that is unique; NULL if absent. */
@@ -105,6 +179,18 @@ void ml_report_note(ml_report *r, const char *fmt, ...) __attribute__((format(pr
 /* "pass" when every check passed, "fail" when one failed, "unchecked" without checks. */
 const char *ml_report_verdict(const ml_report *r);
 
+/* "upper", "lower" or "" for a bound. */
+const char *ml_report_bound_name(ml_bound b);
+
+/* v printed with `decimals` digits after the point ("%.*f") into buf[len], except that a value
+ * that rounds to zero at that precision prints without a sign ("0.00", never "-0.00"). plus: a
+ * '+' before positive values (as "%+.*f", zero still unsigned). A value that is not finite gives
+ * "". Every writer prints its numbers through this. */
+void ml_report_number(char *buf, size_t len, double v, int decimals, bool plus);
+
 ml_status ml_report_write(FILE *f, const ml_report *r, ml_report_format fmt);
+/* The CSV header line (ML_REPORT_CSV_COLUMNS and a newline), for the one header of a table made
+ * of many CSV reports. ML_EIO when f fails. */
+ml_status ml_report_write_csv_header(FILE *f);
 
 #endif

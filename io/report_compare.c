@@ -1,4 +1,5 @@
-/* Comparison writers: text table, JSON (one entry per metric), CSV.
+/* Comparison writers: text table, JSON (one entry per metric), CSV (no header row, as the
+ * measurement's: io/compare.h).
  * SPDX-License-Identifier: MIT
  */
 #include <jansson.h>
@@ -11,19 +12,31 @@
 static void num(char *buf, size_t len, bool valid, double v, int decimals)
 {
     if (valid)
-        snprintf(buf, len, "%.*f", decimals, v);
+        ml_report_number(buf, len, v, decimals, false);
     else
         snprintf(buf, len, "n/a");
 }
 
 static json_t *jnum(bool valid, double v, int decimals)
 {
-    if (!valid || !isfinite(v))
-        return json_null();
-    if (decimals == 0 && fabs(v) < 9e15)
-        return json_integer((json_int_t)llround(v));
-    const double scale = pow(10.0, decimals + 3); /* as the measure report: no false digits */
-    return json_real(round(v * scale) / scale);
+    return valid ? ml_report_json_number(v, decimals) : json_null(); /* as the measure report */
+}
+
+/* The limit check on this row's metric: A's, else B's (both sides get the same limits). */
+static const ml_check *check_of(const ml_comparison *c, const ml_compare_row *r)
+{
+    const ml_check *k = c->a ? ml_report_check_for(c->a, r->metric) : NULL;
+    return k ? k : c->b ? ml_report_check_for(c->b, r->metric) : NULL;
+}
+
+/* The row's limit as text ("<= 1.0000"), from the check where there is one. */
+static void limit_text(const ml_comparison *c, const ml_compare_row *r, char *buf, size_t len)
+{
+    const ml_check *k = check_of(c, r);
+    if (k)
+        ml_report_limit_text(k, buf, len);
+    else
+        snprintf(buf, len, "%s", r->limit);
 }
 
 static const char *overall(const ml_comparison *c)
@@ -54,19 +67,25 @@ static ml_status write_text(FILE *f, const ml_comparison *c)
         num(b, sizeof b, r->b_valid, r->b, r->decimals);
         const bool both = r->a_valid && r->b_valid;
         if (both)
-            snprintf(d, sizeof d, "%+.*f", r->decimals, r->difference);
+            ml_report_number(d, sizeof d, r->difference, r->decimals, true);
         else
             snprintf(d, sizeof d, "n/a");
         num(u, sizeof u, both, r->uncertainty, r->decimals + 1);
         fprintf(f, "%-*s %13s %13s %12s %11s  %-5s %-8s", w, r->metric, a, b, d, u, r->unit, r->verdict);
-        if (lim && r->has_limit)
-            fprintf(f, " %-16s %-4s %-4s", r->limit, r->a_pass ? "PASS" : "FAIL", r->b_pass ? "PASS" : "FAIL");
+        if (lim && r->has_limit) {
+            char lt[96];
+            limit_text(c, r, lt, sizeof lt);
+            fprintf(f, " %-16s %-4s %-4s", lt, r->a_pass ? "PASS" : "FAIL", r->b_pass ? "PASS" : "FAIL");
+        }
         fputc('\n', f);
     }
     if (c->nnotes) {
         fprintf(f, "\nnotes\n");
-        for (size_t i = 0; i < c->nnotes; i++)
-            fprintf(f, "  - %s\n", c->notes[i]);
+        for (size_t i = 0; i < c->nnotes; i++) {
+            char t[ML_REPORT_NOTE_LEN];
+            ml_report_unsign_zeros(t, sizeof t, c->notes[i]);
+            fprintf(f, "  - %s\n", t);
+        }
     }
     size_t counted = 0;
     for (size_t i = 0; i < c->nrows; i++)
@@ -112,7 +131,9 @@ static ml_status write_json(FILE *f, const ml_comparison *c)
         json_object_set_new(o, "unit", json_string(r->unit));
         json_object_set_new(o, "counted", json_boolean(r->counted));
         if (r->has_limit) {
-            json_object_set_new(o, "limit", json_string(r->limit));
+            char lt[96];
+            limit_text(c, r, lt, sizeof lt);
+            json_object_set_new(o, "limit", json_string(lt));
             json_object_set_new(o, "a_pass", json_boolean(r->a_pass));
             json_object_set_new(o, "b_pass", json_boolean(r->b_pass));
         }
@@ -123,24 +144,76 @@ static ml_status write_json(FILE *f, const ml_comparison *c)
     return ml_report_json_finish(f, root, c->notes, c->nnotes);
 }
 
+/* A limit as the user gave it: enough digits to be that number again, no negative zero. */
+static void limit_number(char *buf, size_t len, bool has, double v)
+{
+    if (has)
+        snprintf(buf, len, "%.15g", v == 0 ? 0.0 : v);
+    else
+        buf[0] = '\0';
+}
+
+/* One row in the column order of ML_COMPARE_CSV_COLUMNS (fields: the columns after row_kind). */
+static void csv_row(FILE *f, const ml_comparison *c, const char *row_kind, const char *const *fields, size_t n)
+{
+    ml_csv_field(f, c->a->path, ',');
+    ml_csv_field(f, c->b->path, ',');
+    ml_csv_field(f, c->a->kind, ',');
+    ml_csv_field(f, c->b->kind, ',');
+    ml_csv_field(f, row_kind, ',');
+    for (size_t i = 0; i < n; i++)
+        ml_csv_field(f, fields[i] ? fields[i] : "", i + 1 < n ? ',' : '\n');
+}
+
+enum { COLS_AFTER_KIND = 15 }; /* metric .. text */
+
 static ml_status write_csv(FILE *f, const ml_comparison *c)
 {
-    fprintf(f, "metric,a,b,difference,uncertainty,verdict,unit\n");
     for (size_t i = 0; i < c->nrows; i++) {
         const ml_compare_row *r = &c->rows[i];
         const bool both = r->a_valid && r->b_valid;
-        char a[32] = "", b[32] = "", d[32] = "", u[32] = "";
+        char a[48] = "", b[48] = "", d[48] = "", u[48] = "", lo[40] = "", hi[40] = "", ma[48] = "", mb[48] = "";
         if (r->a_valid)
-            snprintf(a, sizeof a, "%.*f", r->decimals, r->a);
+            ml_report_number(a, sizeof a, r->a, r->decimals, false);
         if (r->b_valid)
-            snprintf(b, sizeof b, "%.*f", r->decimals, r->b);
+            ml_report_number(b, sizeof b, r->b, r->decimals, false);
         if (both) {
-            snprintf(d, sizeof d, "%.*f", r->decimals, r->difference);
-            snprintf(u, sizeof u, "%.*f", r->decimals + 1, r->uncertainty);
+            ml_report_number(d, sizeof d, r->difference, r->decimals, false);
+            ml_report_number(u, sizeof u, r->uncertainty, r->decimals + 1, false);
         }
-        fprintf(f, "%s,%s,%s,%s,%s,%s,%s\n", r->metric, a, b, d, u, r->verdict, r->unit);
+        const ml_check *k = check_of(c, r);
+        const ml_check *ka = ml_report_check_for(c->a, r->metric), *kb = ml_report_check_for(c->b, r->metric);
+        if (k) {
+            limit_number(lo, sizeof lo, k->has_min, k->min);
+            limit_number(hi, sizeof hi, k->has_max, k->max);
+        }
+        if (ka && ka->valid)
+            ml_report_number(ma, sizeof ma, ka->margin, ka->decimals, false);
+        if (kb && kb->valid)
+            ml_report_number(mb, sizeof mb, kb->margin, kb->decimals, false);
+        const char *pa = r->has_limit ? (r->a_pass ? "pass" : "fail") : "";
+        const char *pb = r->has_limit ? (r->b_pass ? "pass" : "fail") : "";
+        const char *fields[COLS_AFTER_KIND] = {r->metric, r->unit, a, b, d, u, r->verdict,
+                                               r->counted ? "yes" : "no", lo, hi, ma, mb, pa, pb, ""};
+        csv_row(f, c, "metric", fields, COLS_AFTER_KIND);
     }
+    for (size_t i = 0; i < c->nnotes; i++) {
+        char t[ML_REPORT_NOTE_LEN];
+        ml_report_unsign_zeros(t, sizeof t, c->notes[i]);
+        const char *fields[COLS_AFTER_KIND] = {[COLS_AFTER_KIND - 1] = t};
+        csv_row(f, c, "note", fields, COLS_AFTER_KIND);
+    }
+    const char *fields[COLS_AFTER_KIND] = {[COLS_AFTER_KIND - 1] = overall(c)};
+    csv_row(f, c, "verdict", fields, COLS_AFTER_KIND);
     return ferror(f) ? ML_EIO : ML_OK;
+}
+
+ml_status ml_compare_write_csv_header(FILE *f)
+{
+    if (f == NULL)
+        return ML_EINVAL;
+    fputs(ML_COMPARE_CSV_COLUMNS "\n", f);
+    return fflush(f) == 0 && !ferror(f) ? ML_OK : ML_EIO;
 }
 
 ml_status ml_compare_write(FILE *f, const ml_comparison *c, ml_report_format fmt)

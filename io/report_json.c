@@ -32,16 +32,48 @@ static json_t *parent_of(json_t *root, const char *path, char *leaf, size_t leaf
     return obj;
 }
 
-/* Rounds to the displayed precision plus three digits, so JSON carries no false digits. */
-static json_t *number(double v, int decimals)
+/* Rounds to the displayed precision plus three digits, so JSON carries no false digits; a value
+ * that rounds to zero is 0, never -0. */
+json_t *ml_report_json_number(double v, int decimals)
 {
     if (!isfinite(v))
         return json_null();
-    if (decimals == 0 && fabs(v) < 9e15)
+    if (decimals <= 0 && fabs(v) < 9e15)
         return json_integer((json_int_t)llround(v));
     double scale = pow(10.0, decimals + 3);
     double r = round(v * scale) / scale;
-    return isfinite(r) ? json_real(r) : json_real(v);
+    if (!isfinite(r))
+        r = v;
+    return json_real(r == 0 ? 0.0 : r);
+}
+
+#define number ml_report_json_number
+
+/* A JSON string of free text, its negative zeros unsigned. */
+static json_t *text(const char *s)
+{
+    char t[ML_REPORT_SETTINGS_LEN + 320];
+    ml_report_unsign_zeros(t, sizeof t, s);
+    return json_string(t);
+}
+
+/* The "reasons", "qualifiers" or "bounds" object: one string per metric that has one, nested
+ * like the metrics. */
+static json_t *whys(const ml_report *r, int which)
+{
+    json_t *root = json_object();
+    for (size_t i = 0; i < r->nmetrics; i++) {
+        const ml_metric *m = &r->metrics[i];
+        const char *s = which == 0   ? (m->valid ? "" : m->reason)
+                        : which == 1 ? (m->valid ? m->qualifier : "")
+                                     : (m->valid ? ml_report_bound_name(m->bound) : "");
+        if (s[0] == '\0')
+            continue;
+        char leaf[64];
+        json_t *p = parent_of(root, m->name, leaf, sizeof leaf);
+        json_object_set_new(p, leaf, text(s));
+    }
+    return root;
 }
 
 ml_status ml_report_write_json(FILE *f, const ml_report *r)
@@ -53,7 +85,7 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
     json_object_set_new(root, "input", in);
     json_object_set_new(in, "path", json_string(r->path));
     json_object_set_new(in, "kind", json_string(r->kind));
-    json_object_set_new(in, "kind_reason", json_string(r->kind_reason));
+    json_object_set_new(in, "kind_reason", text(r->kind_reason));
     json_object_set_new(in, "format", json_string(r->format));
     json_object_set_new(in, "sample_rate_hz", json_real(r->sample_rate_hz));
     json_object_set_new(in, "channels", json_integer(r->channels));
@@ -63,7 +95,12 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
     json_object_set_new(in, "start_s", number(r->start_s, 6));
     json_object_set_new(in, "analysed_s", number(r->analysed_s, 6));
     if (r->analysis[0])
-        json_object_set_new(root, "analysis", json_string(r->analysis));
+        json_object_set_new(root, "analysis", text(r->analysis));
+    if (r->settings[0]) { /* an object, so that a saved report's reader sees a group of text */
+        json_t *set = json_object();
+        json_object_set_new(set, "in_force", text(r->settings));
+        json_object_set_new(root, "settings", set);
+    }
     for (size_t i = 0; i < r->nmetrics; i++) {
         const ml_metric *m = &r->metrics[i];
         char leaf[64];
@@ -73,7 +110,7 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
     for (size_t i = 0; i < r->ntexts; i++) {
         char leaf[64];
         json_t *p = parent_of(root, r->texts[i].name, leaf, sizeof leaf);
-        json_object_set_new(p, leaf, json_string(r->texts[i].value));
+        json_object_set_new(p, leaf, text(r->texts[i].value));
     }
     for (size_t t = 0; t < r->ntables; t++) {
         const ml_table *tb = &r->tables[t];
@@ -106,14 +143,17 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
         json_object_set_new(um, "coverage", json_real(0.95));
         json_object_set_new(root, "uncertainty_method", um);
     }
+    json_object_set_new(root, "reasons", whys(r, 0));
+    json_object_set_new(root, "qualifiers", whys(r, 1));
+    json_object_set_new(root, "bounds", whys(r, 2));
     json_t *checks = json_array();
     for (size_t i = 0; i < r->nchecks; i++) {
         const ml_check *c = &r->checks[i];
         json_t *o = json_object();
         json_object_set_new(o, "metric", json_string(c->metric));
         json_object_set_new(o, "value", c->valid ? number(c->value, c->decimals) : json_null());
-        json_object_set_new(o, "min", c->has_min ? json_real(c->min) : json_null());
-        json_object_set_new(o, "max", c->has_max ? json_real(c->max) : json_null());
+        json_object_set_new(o, "min", c->has_min ? json_real(c->min == 0 ? 0.0 : c->min) : json_null());
+        json_object_set_new(o, "max", c->has_max ? json_real(c->max == 0 ? 0.0 : c->max) : json_null());
         json_object_set_new(o, "pass", json_boolean(c->pass));
         json_object_set_new(o, "margin", c->valid ? number(c->margin, c->decimals) : json_null());
         json_array_append_new(checks, o);
@@ -129,7 +169,7 @@ ml_status ml_report_json_finish(FILE *f, json_t *root, const char (*notes)[ML_RE
 {
     json_t *arr = json_array();
     for (size_t i = 0; i < nnotes; i++)
-        json_array_append_new(arr, json_string(notes[i]));
+        json_array_append_new(arr, text(notes[i]));
     json_object_set_new(root, "notes", arr);
     int rc = json_dumpf(root, f, JSON_INDENT(2) | JSON_PRESERVE_ORDER | JSON_REAL_PRECISION(12));
     fputc('\n', f);

@@ -1,5 +1,6 @@
 /* Reads back a JSON measurement report (io/report_json.c writes it) for comparisons, through the
- * strict saved-result reader (io/result_read.h, the one that is fuzzed).
+ * strict saved-result reader (io/result_read.h, the one that is fuzzed): the metrics with their
+ * uncertainties, reasons, qualifiers and bounds, and the settings in force.
  * SPDX-License-Identifier: MIT
  */
 #include <string.h>
@@ -54,20 +55,36 @@ ml_status ml_report_read_json(const char *path, ml_report *r, char *err, size_t 
         } else if (starts(name, "uncertainty_method.")) {
             if (strcmp(name, "uncertainty_method.blocks") == 0) r->u_blocks = (size_t)v;
             else if (strcmp(name, "uncertainty_method.block_s") == 0) r->u_block_s = v;
-        } else if (!starts(name, "uncertainty.") && strlen(name) < sizeof r->metrics[0].name) {
+        } else if (strcmp(name, "settings.in_force") == 0 && it->type == ML_RESULT_TEXT) {
+            copy(r->settings, sizeof r->settings, it->text);
+        } else if (!starts(name, "uncertainty.") && !starts(name, "reasons.") && !starts(name, "qualifiers.")
+                   && !starts(name, "bounds.") && !starts(name, "settings.")
+                   && strlen(name) < sizeof r->metrics[0].name) {
             if (it->type == ML_RESULT_NUMBER) ml_report_add(r, name, "", 3, v);
             else if (it->type == ML_RESULT_NULL) ml_report_add_missing(r, name, "", 3);
             else ml_report_add_text(r, name, it->text);
         }
     }
-    for (size_t i = 0; i < r->nmetrics; i++) { /* then each metric's interval, where saved */
-        char uname[ML_RESULT_NAME_MAX];
-        snprintf(uname, sizeof uname, "uncertainty.%s", r->metrics[i].name);
-        const ml_result_item *u = ml_result_find(res, uname);
+    for (size_t i = 0; i < r->nmetrics; i++) { /* then each metric's interval and why, where saved */
+        ml_metric *m = &r->metrics[i];
+        char key[ML_RESULT_NAME_MAX];
+        snprintf(key, sizeof key, "uncertainty.%s", m->name);
+        const ml_result_item *u = ml_result_find(res, key);
         if (u && u->type == ML_RESULT_NUMBER) {
-            r->metrics[i].has_u = true;
-            r->metrics[i].u = u->value;
+            m->has_u = true;
+            m->u = u->value;
         }
+        snprintf(key, sizeof key, "reasons.%s", m->name);
+        if ((u = ml_result_find(res, key)) != NULL && u->type == ML_RESULT_TEXT && !m->valid)
+            copy(m->reason, sizeof m->reason, u->text);
+        snprintf(key, sizeof key, "qualifiers.%s", m->name);
+        if ((u = ml_result_find(res, key)) != NULL && u->type == ML_RESULT_TEXT && m->valid)
+            copy(m->qualifier, sizeof m->qualifier, u->text);
+        snprintf(key, sizeof key, "bounds.%s", m->name);
+        if ((u = ml_result_find(res, key)) != NULL && u->type == ML_RESULT_TEXT && m->valid)
+            m->bound = strcmp(u->text, "upper") == 0 ? ML_BOUND_UPPER
+                       : strcmp(u->text, "lower") == 0 ? ML_BOUND_LOWER
+                                                       : ML_BOUND_NONE;
     }
     ml_result_destroy(res);
     return ML_OK;

@@ -1,51 +1,96 @@
-/* Human-readable report: input summary, metric table with limits, tables, notes, verdict.
+/* Human-readable report: input summary, metric table with uncertainties and limits, the marks'
+ * explanations, tables, notes, verdict.
  * SPDX-License-Identifier: MIT
  */
 #include <string.h>
 
 #include "io/report_internal.h"
 
-static void value_text(char *buf, size_t len, bool valid, double v, int decimals)
+static void header(FILE *f, const ml_report *r)
 {
-    if (valid)
-        snprintf(buf, len, "%.*f", decimals, v);
-    else
-        snprintf(buf, len, "n/a");
-}
-
-ml_status ml_report_write_text(FILE *f, const ml_report *r)
-{
+    char t[ML_REPORT_SETTINGS_LEN + 320];
     fprintf(f, "modlens measurement of %s\n", r->path);
     fprintf(f, "  input     %s, %.0f Hz, %d channel%s (analysed: %d), %.3f s (%lld frames)\n", r->format,
             r->sample_rate_hz, r->channels, r->channels == 1 ? "" : "s", r->channel, r->duration_s,
             (long long)r->frames);
     fprintf(f, "  segment   %.3f s from %.3f s\n", r->analysed_s, r->start_s);
-    fprintf(f, "  kind      %s (%s)\n", r->kind, r->kind_reason);
-    if (r->analysis[0])
-        fprintf(f, "  analysis  %s\n", r->analysis);
+    ml_report_unsign_zeros(t, sizeof t, r->kind_reason);
+    fprintf(f, "  kind      %s (%s)\n", r->kind, t);
+    if (r->analysis[0]) {
+        ml_report_unsign_zeros(t, sizeof t, r->analysis);
+        fprintf(f, "  analysis  %s\n", t);
+    }
+    if (r->settings[0]) {
+        ml_report_unsign_zeros(t, sizeof t, r->settings);
+        fprintf(f, "  settings  %s\n", t);
+    }
     if (r->limits_path[0])
         fprintf(f, "  limits    %s\n", r->limits_path);
-    for (size_t i = 0; i < r->ntexts; i++)
-        fprintf(f, "  %-32s %s\n", r->texts[i].name, r->texts[i].value);
-    int w = 32; /* name column: as wide as the longest name */
+    bool with_u = false;
     for (size_t i = 0; i < r->nmetrics; i++)
-        if ((int)strlen(r->metrics[i].name) > w)
-            w = (int)strlen(r->metrics[i].name);
-    fprintf(f, "\n%-*s %14s  %-5s %-16s %-6s %s\n", w, "metric", "value", "unit", "limit", "result", "margin");
+        with_u |= r->metrics[i].valid && r->metrics[i].has_u;
+    if (with_u)
+        fprintf(f, "  +-        the 95 %% interval from the spread over %zu blocks of %.2f s\n", r->u_blocks,
+                r->u_block_s);
+    for (size_t i = 0; i < r->ntexts; i++) {
+        ml_report_unsign_zeros(t, sizeof t, r->texts[i].value);
+        fprintf(f, "  %-32s %s\n", r->texts[i].name, t);
+    }
+}
+
+static void metrics(FILE *f, const ml_report *r)
+{
+    int w = 32; /* name column: as wide as the longest name */
+    bool with_u = false, with_mark = false;
     for (size_t i = 0; i < r->nmetrics; i++) {
         const ml_metric *m = &r->metrics[i];
-        char val[48], lim[48] = "", margin[48] = "";
+        if ((int)strlen(m->name) > w)
+            w = (int)strlen(m->name);
+        with_u |= m->valid && m->has_u;
+        with_mark |= ml_report_mark(r, i) > 0;
+    }
+    /* the uncertainty and mark columns only when some metric has one */
+    const int uw = with_u ? 12 : 0, mw = with_mark ? 5 : 0;
+    fprintf(f, "\n%-*s %14s%-*s%-*s  %-5s %-16s %-6s %s\n", w, "metric", "value", mw, "", uw, with_u ? " +-" : "",
+            "unit", "limit", "result", "margin");
+    for (size_t i = 0; i < r->nmetrics; i++) {
+        const ml_metric *m = &r->metrics[i];
+        char val[64], u[48] = "", mark[16] = "", lim[96] = "", margin[48] = "";
         const char *res = "";
-        value_text(val, sizeof val, m->valid, m->value, m->decimals);
+        ml_report_value_text(m, val, sizeof val);
+        if (m->valid && m->has_u) {
+            u[0] = ' ';
+            ml_report_u_text(m, u + 1, sizeof u - 1);
+        }
+        const int k = ml_report_mark(r, i);
+        if (k > 0)
+            snprintf(mark, sizeof mark, " [%d]", k);
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
             res = c->pass ? "PASS" : "FAIL";
             if (c->valid)
-                snprintf(margin, sizeof margin, "%+.*f", c->decimals, c->margin);
+                ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
         }
-        fprintf(f, "%-*s %14s  %-5s %-16s %-6s %s\n", w, m->name, val, m->unit, lim, res, margin);
+        fprintf(f, "%-*s %14s%-*s%-*s  %-5s %-16s %-6s %s\n", w, m->name, val, mw, mark, uw, u, m->unit, lim, res,
+                margin);
     }
+    bool any = false;
+    for (size_t i = 0; i < r->nmetrics; i++) {
+        const int k = ml_report_mark(r, i);
+        if (k == 0)
+            continue;
+        if (!any)
+            fputc('\n', f);
+        any = true;
+        char why[ML_REPORT_WHY_LEN + 32];
+        ml_report_why_text(&r->metrics[i], why, sizeof why);
+        fprintf(f, "  [%d] %s: %s\n", k, r->metrics[i].name, why);
+    }
+}
+
+static void tables(FILE *f, const ml_report *r)
+{
     for (size_t t = 0; t < r->ntables; t++) {
         const ml_table *tb = &r->tables[t];
         fprintf(f, "\n%s (%s)\n ", tb->title, tb->path);
@@ -56,15 +101,28 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
             fprintf(f, "  (none within the band)\n");
         for (size_t i = 0; i < tb->nrows; i++) {
             fputc(' ', f);
-            for (size_t c = 0; c < tb->ncols; c++)
-                fprintf(f, " %14.*f", tb->decimals[c], tb->cell[i][c]);
+            for (size_t c = 0; c < tb->ncols; c++) {
+                char n[48];
+                ml_report_number(n, sizeof n, tb->cell[i][c], tb->decimals[c], false);
+                fprintf(f, " %14s", n[0] ? n : "n/a");
+            }
             fputc('\n', f);
         }
     }
+}
+
+ml_status ml_report_write_text(FILE *f, const ml_report *r)
+{
+    header(f, r);
+    metrics(f, r);
+    tables(f, r);
     if (r->nnotes) {
         fprintf(f, "\nnotes\n");
-        for (size_t i = 0; i < r->nnotes; i++)
-            fprintf(f, "  - %s\n", r->notes[i]);
+        for (size_t i = 0; i < r->nnotes; i++) {
+            char t[ML_REPORT_NOTE_LEN];
+            ml_report_unsign_zeros(t, sizeof t, r->notes[i]);
+            fprintf(f, "  - %s\n", t);
+        }
     }
     size_t failed = 0;
     for (size_t i = 0; i < r->nchecks; i++)

@@ -152,3 +152,33 @@ def finite_json_text(text):
     except ValueError:
         return False
     return not bad
+
+
+def csv_columns():
+    """The CSV report's columns as README.md documents them (the header line that starts with
+    "file,input_kind,"): the report itself has no header row (io/report.h)."""
+    readme = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "README.md")
+    with open(readme, encoding="utf-8") as f:
+        for line in f:
+            if line.strip().startswith("file,input_kind,"):
+                return line.strip().split(",")
+    raise RuntimeError("README.md documents no CSV header line")
+
+
+def csv_rows(text):
+    """The rows of a CSV report as dicts keyed by the documented columns; a row whose field count
+    differs from the columns raises ValueError."""
+    import csv
+    import io
+    cols = csv_columns()
+    rows = []
+    for r in csv.reader(io.StringIO(text)):
+        if len(r) != len(cols):
+            raise ValueError("row of %d fields, %d columns: %r" % (len(r), len(cols), r))
+        rows.append(dict(zip(cols, r)))
+    return rows
+
+
+def csv_metrics(text):
+    """{name: row} of the metric rows of a CSV report."""
+    return {r["name"]: r for r in csv_rows(text) if r["row_kind"] == "metric"}

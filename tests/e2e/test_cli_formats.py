@@ -7,8 +7,6 @@ as 16/24-bit and float WAV, 16/24-bit FLAC and 16/24-bit AIFF; every report must
 required keys and agree with the analytic truth of the signal. Text and CSV must agree with JSON.
 Then --channel, --start/--duration, --tone, --band, --harmonics and --mains on purpose-made files.
 """
-import csv
-import io
 import math
 import os
 import re
@@ -169,30 +167,38 @@ def check_text_csv(ck, exe, path, rep):
     metrics = scalar_metrics(rep)
     rc, out, err = E.run(exe, ["--format", "csv", path])
     ck.check("csv exit 0", rc == 0, err.strip())
-    rows = list(csv.reader(io.StringIO(out)))
-    ck.check("csv header", rows and rows[0] == ["metric", "value", "unit", "limit", "result"], repr(rows[:1]))
-    byname = {r[0]: r for r in rows[1:] if r}
-    ck.check("csv rows have 5 fields", all(len(r) == 5 for r in rows if r))
+    # no header row (README "Reports"): every row is data, with every documented column
+    try:
+        rows = E.csv_rows(out)
+    except ValueError as e:
+        rows = []
+        ck.check("csv rows have every documented column", False, str(e))
+    ck.check("csv: no header row, file and kind on every row", rows != [] and all(
+        r["file"] == path and r["input_kind"] == rep["input"]["kind"] and r["row_kind"] != "row_kind"
+        for r in rows), repr(rows[:1]))
+    byname = {r["name"]: r for r in rows if r["row_kind"] == "metric"}
     bad = []
     for k, v in metrics.items():
         r = byname.get(k)
         if r is None:
             bad.append((k, "missing"))
         elif v is None:
-            if r[1] != "":
-                bad.append((k, r[1]))
-        elif abs(float(r[1]) - v) > 0.5 * 10 ** -decimals_of(r[1]) + 1e-9:
-            bad.append((k, r[1], v))
+            if r["value"] != "":
+                bad.append((k, r["value"]))
+        elif abs(float(r["value"]) - v) > 0.5 * 10 ** -decimals_of(r["value"]) + 1e-9:
+            bad.append((k, r["value"], v))
     ck.check("csv metric values = JSON (to the printed precision)", not bad, repr(bad))
     units = {"audio.fundamental_hz": "Hz", "audio.fundamental_dbfs": "dBFS", "audio.thd_pct": "%",
              "audio.thd_db": "dB", "audio.snr_db": "dB", "audio.enob_bits": "bits", "hum.level_dbc": "dBc"}
-    ck.check("csv units", all(byname.get(k, [""] * 3)[2] == u for k, u in units.items()),
-             repr({k: byname.get(k, [""] * 3)[2] for k in units}))
-    ck.check("csv limit/result empty without limits", all(r[3] == "" and r[4] == "" for r in rows[1:] if r))
+    ck.check("csv units", all(byname.get(k, {}).get("unit") == u for k, u in units.items()),
+             repr({k: byname.get(k, {}).get("unit") for k in units}))
+    ck.check("csv limits/verdict empty without limits", all(
+        r["lower_limit"] == r["upper_limit"] == r["margin"] == r["verdict"] == "" for r in byname.values()))
+    cells = {r["name"]: r for r in rows if r["row_kind"] == "cell"}
     tab = []
     for i, hrow in enumerate(rep["audio"]["harmonics"]):
-        r = byname.get("audio.harmonics[%d].level_dbc" % i)
-        if r is None or abs(float(r[1]) - hrow["level_dbc"]) > 0.5 * 10 ** -decimals_of(r[1]) + 1e-9:
+        r = cells.get("audio.harmonics[%d].level_dbc" % i)
+        if r is None or abs(float(r["value"]) - hrow["level_dbc"]) > 0.5 * 10 ** -decimals_of(r["value"]) + 1e-9:
             tab.append(i)
     ck.check("csv harmonic table = JSON", not tab, repr(tab))
 
@@ -228,11 +234,14 @@ def check_text_csv(ck, exe, path, rep):
                  and c1["pass"] is False, repr(c1))
         ck.check("limits: verdict fail", rj["verdict"] == "fail")
     rc, out, err = E.run(exe, ["--format", "csv", "--limits", "lim.ini", path])
-    byname = {r[0]: r for r in csv.reader(io.StringIO(out)) if r}
-    ck.check("limits: csv thd row PASS", byname.get("audio.thd_pct", [""] * 5)[3:] == ["<= 2.0000", "PASS"],
-             repr(byname.get("audio.thd_pct")))
-    ck.check("limits: csv snr row FAIL", byname.get("audio.snr_db", [""] * 5)[3:] == [">= 90.00", "FAIL"],
-             repr(byname.get("audio.snr_db")))
+    byname = E.csv_metrics(out)
+    thd, snr = byname.get("audio.thd_pct", {}), byname.get("audio.snr_db", {})
+    ck.check("limits: csv thd row pass, upper limit 2, margin 2 - value",
+             thd.get("lower_limit") == "" and thd.get("upper_limit") == "2" and thd.get("verdict") == "pass"
+             and abs(float(thd.get("margin") or "nan") - (2 - rep["audio"]["thd_pct"])) < 1e-4, repr(thd))
+    ck.check("limits: csv snr row fail, lower limit 90, margin value - 90",
+             snr.get("lower_limit") == "90" and snr.get("upper_limit") == "" and snr.get("verdict") == "fail"
+             and abs(float(snr.get("margin") or "nan") - (rep["audio"]["snr_db"] - 90)) < 0.01, repr(snr))
     rc, out, err = E.run(exe, ["--limits", "lim.ini", path])
     ck.check("limits: text rows PASS/FAIL",
              re.search(r"^audio\.thd_pct\s.*\bPASS\b", out, re.M) is not None

@@ -20,6 +20,8 @@ Signals (numpy, fixed seeds, 48 kHz float): x = 0.5 sin(w t) + white noise of RM
    below. Too wide an interval is caught by the width: u / sd(captures) must be about
    t(0.975, n-1) E[s]/sigma ~ 2.2..2.6 for n = 6 blocks; 1.5..3.5 allows the spread of 40 captures.
 """
+import csv
+import io
 import json
 import os
 import subprocess
@@ -118,7 +120,10 @@ def main():
         ck.check("--tolerance thd_pct=1: same, exit 0", rc == 0 and verdicts(rep).get("audio.thd_pct") == "same",
                  "rc=%d" % rc)
         rc, _, out, _ = compare(exe, ["--format", "csv", "a.wav", "b.wav"])
-        ck.check("csv header", out.splitlines()[0] == "metric,a,b,difference,uncertainty,verdict,unit")
+        rows = list(csv.reader(io.StringIO(out)))
+        ck.check("csv: no header, 20 columns, both files on every row, a verdict row last",
+                 rows and all(len(r) == 20 and r[0] == "a.wav" and r[1] == "b.wav" for r in rows)
+                 and rows[-1][4] == "verdict" and rows[-1][19] in ("worse", "not worse"), repr(rows[:1]))
 
         # errors: exit 2, one line naming the file
         for args, what in ((["a.wav", "missing.wav"], "missing.wav"), (["a.wav"], "compare"),

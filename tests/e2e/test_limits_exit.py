@@ -11,8 +11,6 @@ error -- a profile error is one stderr line naming the file, the line number and
 Measured signal: 1 kHz at -6.0206 dBFS with a 2nd harmonic at -40 dBc (THD = 1 %), 60 Hz hum
 at -60 dBFS, white noise rms 1e-4; 3 s at 48 kHz, 24-bit.
 """
-import csv
-import io
 import os
 import re
 import sys
@@ -128,9 +126,9 @@ def check_pass_fail(ck, exe, wav):
     ck.check("failing profile text: verdict FAIL (1 of 2)",
              re.search(r"^verdict: FAIL \(1 of 2 checks passed\)", out, re.M) is not None)
     rc, out, err = E.run(exe, ["--format", "csv", "--limits", "fail.ini", wav])
-    rows = {r[0]: r for r in csv.reader(io.StringIO(out)) if r}
-    ck.check("failing profile csv: exit 1, FAIL row", rc == 1 and rows.get("audio.thd_pct", [])[3:] == ["<= 0.5000", "FAIL"],
-             repr(rows.get("audio.thd_pct")))
+    row = E.csv_metrics(out).get("audio.thd_pct", {})
+    ck.check("failing profile csv: exit 1, fail row with its upper limit",
+             rc == 1 and row.get("upper_limit") == "0.5" and row.get("verdict") == "fail", repr(row))
     # --output: the report is still written when a check fails
     rc, out, err = E.run(exe, ["--format", "json", "--limits", "fail.ini", "--output", "fail.json", wav])
     ck.check("failing profile --output: exit 1, file written, stdout empty",

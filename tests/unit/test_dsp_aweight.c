@@ -3,8 +3,8 @@
  *
  * References: [iec61672:2013] IEC 61672-1:2013 Table 3 (A weighting and class-1 acceptance limits
  * at the exact base-10 one-third-octave frequencies 1000 * 10^((n - 30)/10)), as transcribed in
- * docs/references.md section 1.2 (confirmed third-party transcriptions: jmrplens/phonometry,
- * pyfar); the exact-frequency rule is noted there as well.
+ * docs/references.md section 1.2 (confirmed: third-party transcriptions); the exact-frequency
+ * rule is in 1.1 and in section 10, pitfall 1.
  */
 #include <check.h>
 

@@ -601,8 +601,8 @@ START_TEST(derived_figure_helpers)
     ck_assert_double_eq_tol(ml_ratio_db(0.0, 1.0), -300.0, 1e-12);    /* floor by contract        */
     ck_assert_double_eq_tol(ml_enob_bits(98.0905), 16.0, 1e-4);       /* docs/references.md 4          */
     /* docs/references.md 4 example: SINAD 62 dB -> "about 10 bits" (electrotopic.com, confirmed);
-     * exactly (62 - 10 lg 1.5)/(20 lg 2) = 10.00549 (the table's "10.006 (exact)" is 10.0055
-     * rounded up; 1e-4 here is the rounding of the constants 1.7609/6.0206 in the contract). */
+     * exactly (62 - 10 lg 1.5)/(20 lg 2) = 10.0055 (10.005 to three decimals, as the file gives it;
+     * 1e-4 here is the rounding of the constants 1.7609/6.0206 in the contract). */
     ck_assert_double_eq_tol(ml_enob_bits(62.0), (62.0 - 10.0 * log10(1.5)) / (20.0 * log10(2.0)), 1e-4);
     ck_assert_double_eq_tol(ml_enob_bits(62.0), 10.0, 0.01);
     ck_assert_double_eq(ml_ratio_pct(0.0, 1.0), 0.0);

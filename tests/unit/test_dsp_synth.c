@@ -338,7 +338,7 @@ END_TEST
 START_TEST(overmod_reversal_matches_published_distortion)
 {
     /* [lntwww:2.7]: ideal envelope |1 + 1.25 cos| (= |4 + 5 cos| / 4) has K2 = H2/H1 = 0.102 and
-     * K3 = 0.082 (published to 3 decimals; exact values 0.1022 and 0.0819, docs/references.md 6.1).
+     * K3 = 0.082 (published to 3 decimals; exact values 0.1023 and 0.0819, docs/references.md 6.1).
      * fc = 0 in I/Q gives |I + jQ| = A |e| directly; sine instead of cosine only shifts phases.
      * rate 192 kHz puts 192 samples in a period, so harmonics that fold back onto 2 and 3 kHz are
      * above the 189th, below 1e-5 of H1 for an envelope with a kink (amplitudes fall as 1/k^2).
