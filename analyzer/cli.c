@@ -3,6 +3,8 @@
  */
 #include "analyzer/cli.h"
 
+#include "io/printable.h"
+
 #include <errno.h>
 #include <math.h>
 #include <stdarg.h>
@@ -28,12 +30,23 @@ bool ml_cli_int(const char *s, long *v)
 
 int ml_cli_error(const char *fmt, ...)
 {
+    /* formatted whole, then made printable: file names, profile keys and values, device names
+     * and option values reach the terminal only as escapes (io/printable.h), on one line */
     va_list ap;
     va_start(ap, fmt);
-    fputs("modlens: ", stderr);
-    vfprintf(stderr, fmt, ap);
-    fputc('\n', stderr);
+    char small[512], *text = small;
+    const int n = vsnprintf(small, sizeof small, fmt, ap);
     va_end(ap);
+    if (n >= (int)sizeof small && (text = malloc((size_t)n + 1)) != NULL) {
+        va_start(ap, fmt);
+        vsnprintf(text, (size_t)n + 1, fmt, ap);
+        va_end(ap);
+    }
+    char *shown = ml_printable_dup(text ? text : small);
+    fprintf(stderr, "modlens: %s\n", shown ? shown : "(out of memory)");
+    free(shown);
+    if (text != small)
+        free(text);
     return ML_EXIT_USAGE;
 }
 

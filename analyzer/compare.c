@@ -21,10 +21,10 @@
 #include "analyzer/commands.h"
 #include "analyzer/limits.h"
 #include "analyzer/measure.h"
-#include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "io/compare.h"
+#include "io/output.h"
 
 #define MAX_TOLERANCES 64
 
@@ -275,21 +275,10 @@ int ml_cmd_compare(int argc, char **argv)
     int rc = ml_measure_parse(argc, argv, &o, 2);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
-        return rc;
     static ml_limits limits;
-    char err[512];
-    if (o.limits_path) {
-        if (ml_limits_load(o.limits_path, &limits, err, sizeof err) != ML_OK)
-            return ml_cli_error("%s: %s", o.limits_path, err);
-        o.limits = &limits;
-    }
-    const char *outs[3] = {o.output_path, o.plot_path, o.report_path};
-    const char *ins[4] = {o.input, o.input2, o.limits_path, o.carrier_reference};
-    for (int i = 0; i < 3; i++)
-        for (int j = 0; outs[i] && j < 4; j++)
-            if (ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file", outs[i]);
+    ml_measure_outputs outs; /* --plot X --output X, or any output naming an input: refused here */
+    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
+        return rc;
 
     static ml_report ra, rb;
     static ml_comparison cmp;
@@ -321,26 +310,29 @@ int ml_cmd_compare(int argc, char **argv)
              "B", "");
     if ((o.plot_path || o.report_path) && (!ma || !mb))
         note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
-    rc = ml_plots_write_compare(o.plot_path, o.report_path, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
+    rc = ml_plots_write_compare(outs.plot, outs.pdf, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
     if (rc != 0)
         goto done;
-
-    ml_output out;
-    if (!ml_output_open(&out, o.output_path, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.output_path, err);
+    FILE *f = NULL;
+    char err[512];
+    if (ml_output_begin(outs.report, &f, err, sizeof err) != ML_OK) {
+        rc = ml_cli_error("%s: %s", ml_output_path(outs.report), err);
         goto done;
     }
-    if (ml_compare_write(out.f, &cmp, o.format) != ML_OK) {
-        ml_output_abort(&out);
-        rc = ml_cli_error("%s: cannot write the comparison", o.output_path ? o.output_path : "standard output");
+    if (ml_compare_write(f, &cmp, o.format) != ML_OK) {
+        ml_output_discard(outs.report);
+        rc = ml_cli_error("%s: cannot write the comparison", ml_output_path(outs.report));
         goto done;
     }
-    if (!ml_output_commit(&out, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.output_path, err);
+    if (ml_output_end(outs.report, err, sizeof err) != ML_OK) {
+        rc = ml_cli_error("%s: %s", ml_output_path(outs.report), err);
         goto done;
     }
+    if ((rc = ml_measure_commit(&outs)) != 0) /* all or nothing */
+        goto done;
     rc = cmp.nworse > 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
 done:
+    ml_measure_outputs_free(&outs);
     ml_plot_data_free(&pa);
     ml_plot_data_free(&pb);
     return rc;

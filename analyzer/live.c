@@ -17,10 +17,10 @@
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
-#include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
+#include "io/output.h"
 
 #define PREROLL_S 0.25     /* silence played before the tone, so its onset can be found       */
 #define NOISE_S 0.1        /* opening capture that sets the onset threshold (before any tone)  */
@@ -215,6 +215,8 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
     return 0;
 }
 
+static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const char *cmdline);
+
 int ml_cmd_live(int argc, char **argv)
 {
     char cmdline[1024];
@@ -224,8 +226,41 @@ int ml_cmd_live(int argc, char **argv)
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
     static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+    ml_measure_outputs outs;
+    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
         return rc;
+    rc = live_capture(&o, &outs, cmdline);
+    ml_measure_outputs_free(&outs); /* whatever was not published goes */
+    return rc;
+}
+
+/* Publishes the outputs: all of them when everything was written; otherwise only the capture,
+ * which --save keeps whenever frames arrived, even when the analysis failed. */
+static int live_publish(ml_measure_outputs *outs, bool written, uint64_t captured, int rc)
+{
+    char err[512];
+    if (outs->save != NULL) {
+        if (ml_output_end(outs->save, err, sizeof err) != ML_OK) {
+            ml_cli_error("%s: %s", ml_output_path(outs->save), err);
+            written = false;
+            rc = rc == 0 || rc == ML_EXIT_FAIL ? ML_EXIT_USAGE : rc;
+        } else if (captured == 0) {
+            ml_output_discard(outs->save);
+        }
+    }
+    if (!written) {
+        ml_output_discard(outs->report);
+        ml_output_discard(outs->plot);
+        ml_output_discard(outs->pdf);
+    }
+    const int crc = ml_measure_commit(outs);
+    return crc != 0 && (rc == 0 || rc == ML_EXIT_FAIL) ? crc : rc;
+}
+
+static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const char *cmdline)
+{
+    ml_measure_opts o = *op;
+    int rc = 0;
     long nch = o.live.channels;
     if (nch == 0) {
         nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
@@ -240,7 +275,11 @@ int ml_cmd_live(int argc, char **argv)
     lc.rate_hz = o.live.rate_hz;
     lc.channels = (int)nch;
     lc.head_s = HEAD_S + (o.live.play ? PREROLL_S + ONSET_WAIT_S : 0);
-    lc.save_path = o.live.save_path;
+    FILE *save = NULL; /* the capture goes to its output's temporary, by descriptor */
+    char err[512];
+    if (outs->save != NULL && ml_output_begin(outs->save, &save, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", ml_output_path(outs->save), err);
+    lc.save_fd = save ? fileno(save) : -1;
     tone_feed feed = {NULL, 0, 0};
     if (o.live.play) {
         /* the generator needs the rate: the input device's default unless --rate */
@@ -263,7 +302,6 @@ int ml_cmd_live(int argc, char **argv)
         lc.fill = feed_tone;
         lc.fill_ctx = &feed;
     }
-    char err[512];
     ml_segment seg;
     memset(&seg, 0, sizeof seg);
     ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
@@ -314,7 +352,9 @@ int ml_cmd_live(int argc, char **argv)
     sigaction(SIGTERM, &old_term, NULL);
 
     ml_live_stats ls;
+    memset(&ls, 0, sizeof ls);
     ml_source_live_stats(seg.src, &ls);
+    bool written = false;
     if (rc == 0) {
         snprintf(rep.path, sizeof rep.path, "live:%s", ls.device_name);
         rep.frames = (int64_t)ls.captured_frames;
@@ -337,16 +377,17 @@ int ml_cmd_live(int argc, char **argv)
             ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
         if (ls.underflow_frames > 0 && o.live.play)
             ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
-        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        rc = ml_plots_write_measure(outs->plot, outs->pdf, &rep, &pd, cmdline);
         if (rc == 0)
-            rc = ml_measure_write(&o, &rep);
+            rc = ml_measure_write(&o, &rep, outs->report);
+        written = rc == 0;
         if (rc == 0)
             rc = seg.failed ? ML_EXIT_USAGE
                             : strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     }
     g_live = NULL;
     ml_plot_data_free(&pd);
-    ml_source_close(seg.src);
+    ml_source_close(seg.src); /* completes the capture file */
     ml_synth_destroy(feed.syn);
-    return rc;
+    return live_publish(outs, written, ls.captured_frames, rc);
 }

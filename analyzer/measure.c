@@ -13,12 +13,12 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
-#include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "analyzer/uncertainty.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
+#include "io/output.h"
 
 static void measure_usage(FILE *f)
 {
@@ -560,24 +560,25 @@ static int open_segment(ml_measure_opts *o, ml_segment *seg)
     return 0;
 }
 
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
+int ml_measure_write(const ml_measure_opts *o, const ml_report *rep, ml_output *report)
 {
     char err[512];
-    ml_output out;
-    if (!ml_output_open(&out, o->output_path, err, sizeof err))
-        return ml_cli_error("%s: %s", o->output_path, err);
-    if (ml_report_write(out.f, rep, o->format) != ML_OK) {
-        ml_output_abort(&out);
-        return ml_cli_error("%s: cannot write the report", o->output_path ? o->output_path : "standard output");
+    FILE *f = NULL;
+    if (ml_output_begin(report, &f, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", ml_output_path(report), err);
+    if (ml_report_write(f, rep, o->format) != ML_OK) {
+        ml_output_discard(report);
+        return ml_cli_error("%s: cannot write the report", ml_output_path(report));
     }
-    if (!ml_output_commit(&out, err, sizeof err))
-        return ml_cli_error("%s: %s", o->output_path, err);
+    if (ml_output_end(report, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", ml_output_path(report), err);
     return 0;
 }
 
-int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_measure_outputs *outs)
 {
     char err[512];
+    memset(outs, 0, sizeof *outs);
     int rc = ml_plots_check_paths(o->plot_path, o->report_path);
     if (rc != 0)
         return rc;
@@ -588,20 +589,40 @@ int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
         o->limits = limits;
     }
     /* nothing written may replace an input, and no two outputs may share a file */
-    const char *outs[4] = {o->output_path, o->live.save_path, o->plot_path, o->report_path};
-    const char *what[4] = {"the report", "the capture", "the plot", "the PDF report"};
-    const char *ins[3] = {o->live.enabled ? NULL : o->input, o->limits_path, o->carrier_reference};
-    for (int i = 0; i < 4; i++) {
-        if (outs[i] == NULL || strcmp(outs[i], "-") == 0)
-            continue;
-        for (int j = 0; j < 3; j++)
-            if (ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file with %s", outs[i], what[i]);
-        for (int j = 0; j < i; j++)
-            if (outs[j] && (strcmp(outs[i], outs[j]) == 0 || ml_same_file(outs[i], outs[j])))
-                return ml_cli_error("%s: %s and %s would be the same file", outs[i], what[j], what[i]);
+    ml_output_set *set = NULL;
+    if (ml_output_set_create(&set) != ML_OK)
+        return ml_cli_error("out of memory");
+    outs->set = set;
+    ml_output_set_input(set, o->live.enabled ? NULL : o->input, o->input2 ? "recording A" : "the recording");
+    ml_output_set_input(set, o->input2, "recording B");
+    ml_output_set_input(set, o->limits_path, "the limits profile");
+    ml_output_set_input(set, o->carrier_reference, "the carrier reference");
+    ml_output_set_add(set, o->output_path ? o->output_path : "-", "the report (--output)", ML_OUTPUT_STDOUT_OK,
+                      &outs->report);
+    ml_output_set_add(set, o->live.save_path, "the capture (--save)", 0, &outs->save);
+    ml_output_set_add(set, o->plot_path, "the pictures (--plot)", 0, &outs->plot);
+    ml_output_set_add(set, o->report_path, "the PDF record (--report)", 0, &outs->pdf);
+    const char *bad = "";
+    if (ml_output_set_check(set, &bad, err, sizeof err) != ML_OK) {
+        ml_measure_outputs_free(outs);
+        return ml_cli_error("%s: %s", bad, err);
     }
     return 0;
+}
+
+int ml_measure_commit(ml_measure_outputs *outs)
+{
+    char err[512];
+    const char *bad = "";
+    if (ml_output_set_commit(outs->set, &bad, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", bad, err);
+    return 0;
+}
+
+void ml_measure_outputs_free(ml_measure_outputs *outs)
+{
+    ml_output_set_destroy(outs->set);
+    memset(outs, 0, sizeof *outs);
 }
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
@@ -659,7 +680,8 @@ int ml_cmd_measure(int argc, char **argv)
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
     static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+    ml_measure_outputs outs;
+    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
         return rc;
 
     static ml_report rep;
@@ -669,11 +691,13 @@ int ml_cmd_measure(int argc, char **argv)
         o.plot = &pd;
     rc = ml_measure_analyse(&o, &rep);
     if (rc == 0)
-        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        rc = ml_plots_write_measure(outs.plot, outs.pdf, &rep, &pd, cmdline);
+    if (rc == 0)
+        rc = ml_measure_write(&o, &rep, outs.report);
+    if (rc == 0) /* all or nothing: published only when everything was written */
+        rc = ml_measure_commit(&outs);
+    ml_measure_outputs_free(&outs);
     ml_plot_data_free(&pd);
-    if (rc != 0)
-        return rc;
-    rc = ml_measure_write(&o, &rep);
     if (rc == 0)
         rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     return rc;

@@ -200,7 +200,10 @@ int ml_cmd_watch(int argc, char **argv)
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
                             "--carrier-reference, --reference-channel, --start or --duration (see 'modlens live')");
     static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+    ml_measure_outputs outs; /* watch writes no file: only the checks and the profile */
+    rc = ml_measure_prepare(&o, &limits, &outs);
+    ml_measure_outputs_free(&outs);
+    if (rc != 0)
         return rc;
     long nch = o.live.channels;
     if (nch == 0)
