@@ -23,6 +23,7 @@
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
+#include "analyzer/saved.h"
 #include "io/compare.h"
 #include "io/output.h"
 
@@ -138,16 +139,9 @@ static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_pl
     *measured = false;
     if (looks_like_json(path)) {
         char err[512];
-        ml_status st = ml_report_read_json(path, rep, err, sizeof err);
+        ml_status st = ml_saved_read(path, rep, err, sizeof err); /* typed by the registry */
         if (st != ML_OK)
             return ml_cli_error("%s: %s", path, err);
-        for (size_t i = 0; i < rep->nmetrics; i++) {
-            const ml_metric_def *d = ml_registry_lookup(rep->metrics[i].name, NULL);
-            if (d && strcmp(d->name, rep->metrics[i].name) == 0) {
-                rep->metrics[i].unit = d->unit;
-                rep->metrics[i].decimals = d->decimals;
-            }
-        }
         if (o->limits)
             ml_limits_apply(o->limits, rep);
         return 0;
