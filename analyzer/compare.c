@@ -99,8 +99,8 @@ static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol)
             snprintf(t->metric, sizeof t->metric, "%s", d->name);
             num = eq + 1;
         }
-        if (!ml_cli_number(num, &t->value) || t->value < 0) {
-            ml_cli_error("--tolerance: '%s' is not a number >= 0 (or METRIC=number)", val);
+        if (!ml_cli_number(num, &t->value) || t->value < 0 || t->value > 1e15) {
+            ml_cli_error("--tolerance: '%s' is not a number 0..1e15 (or METRIC=number)", val);
             return -1;
         }
     }

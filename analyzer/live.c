@@ -57,8 +57,8 @@ int ml_cmd_devices(int argc, char **argv)
             else return ml_cli_error("--format: '%s' is not text or json", optarg);
             break;
         case 'h': devices_usage(stdout); return ML_EXIT_OK;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens devices --help')", argv[optind - 1]);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens devices --help')", argv[optind - 1]);
+        case ':': case '?': return ml_cli_bad_option(ch, argv, "devices");
+        default: return ml_cli_error("devices: unhandled option");
         }
     }
     if (optind < argc)

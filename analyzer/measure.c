@@ -146,7 +146,10 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     int ch, rc;
     double v;
     long n;
-    while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
+    int li = -1;
+    while ((li = -1, ch = getopt_long(argc, argv, ":h", longopts, &li)) != -1) {
+        if (!live && ch >= O_DEVICE) /* named from the table: argv[optind - 1] may be its value */
+            return ml_cli_error("--%s belongs to 'modlens live', not %s", li >= 0 ? longopts[li].name : "?", cmd);
         switch (ch) {
         case 'k':
             if (strcmp(optarg, "auto") == 0) o->kind = ML_KIND_AUTO;
@@ -168,13 +171,14 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             break;
         case O_SWAP: o->swap_iq = true; break;
         case 's':
-            if (!ml_cli_number(optarg, &v) || v < 0)
-                return ml_cli_error("--start: '%s' is not a time in seconds >= 0", optarg);
+            if (!ml_cli_number(optarg, &v) || v < 0 || v > ML_CLI_MAX_SECONDS)
+                return ml_cli_error("--start: '%s' is not a time in seconds, 0..%.0f", optarg, ML_CLI_MAX_SECONDS);
             o->start_s = v;
             break;
         case 'd':
-            if (!ml_cli_number(optarg, &v) || v <= 0)
-                return ml_cli_error("--duration: '%s' is not a time in seconds > 0", optarg);
+            if (!ml_cli_number(optarg, &v) || v <= 0 || v > ML_CLI_MAX_SECONDS)
+                return ml_cli_error("--duration: '%s' is not a time in seconds, 0 < S <= %.0f", optarg,
+                                    ML_CLI_MAX_SECONDS);
             o->duration_s = v;
             break;
         case 'b':
@@ -253,11 +257,9 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
                 return ml_cli_error("--play-tone: '%s' is not FREQ[,LEVEL] (Hz > 0, dBFS -120..0)", optarg);
             break;
         case 'h': (live ? ml_live_usage : measure_usage)(stdout); return -1;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens %s --help')", argv[optind - 1], cmd);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", argv[optind - 1], cmd);
+        case ':': case '?': return ml_cli_bad_option(ch, argv, cmd);
+        default: return ml_cli_error("%s: unhandled option", cmd);
         }
-        if (!live && ch >= O_DEVICE)
-            return ml_cli_error("%s belongs to 'modlens live', not measure", argv[optind - 1]);
     }
     if (live) {
         if (optind < argc)
@@ -501,7 +503,11 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
             ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->audio.band_lo_hz,
                            o->audio.band_hi_hz, residue ? residue : "DC only?");
         else {
-            rc = ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
+            rc = st == ML_EINVAL /* the only input-dependent cause: the band is too narrow for the bins */
+                     ? ml_cli_error("%s: the band %.1f..%.1f Hz holds too few spectrum bins of %.1f Hz to analyse "
+                                    "(the sample rate is %.0f Hz); widen --band or give a longer recording",
+                                    o->input, o->audio.band_lo_hz, o->audio.band_hi_hz, rate / (double)sc.nfft, rate)
+                     : ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
             goto done;
         }
     }
@@ -550,11 +556,14 @@ static int open_segment(ml_measure_opts *o, ml_segment *seg)
     if (o->reference_channel > info->channels)
         return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", o->input,
                             o->reference_channel, info->channels, info->channels == 1 ? "" : "s");
-    seg->first = (int64_t)llround(o->start_s * rate);
-    seg->nframes = o->duration_s < 0 ? info->frames - seg->first : (int64_t)llround(o->duration_s * rate);
-    if (seg->first >= info->frames || seg->first + seg->nframes > info->frames)
+    /* in double first: no --start or --duration may overflow a frame count (round = llround) */
+    const double first = round(o->start_s * rate), total = (double)info->frames;
+    const double n = o->duration_s < 0 ? total - first : round(o->duration_s * rate);
+    if (!(first < total) || !(first + n <= total))
         return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", o->input,
                             o->start_s, o->duration_s < 0 ? 0.0 : o->duration_s, (double)info->frames / rate);
+    seg->first = (int64_t)first;
+    seg->nframes = (int64_t)n;
     if (seg->first > 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
         return ml_cli_error("%s: cannot seek to %.3f s: %s", o->input, o->start_s, ml_source_detail(seg->src));
     return 0;

@@ -337,8 +337,8 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         case O_FORCE: o->force = true; break;
         case O_DEVICE: o->device = optarg; break;
         case 'h': tone_usage(stdout); return -1;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens tone --help')", argv[optind - 1]);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens tone --help')", argv[optind - 1]);
+        case ':': case '?': return ml_cli_bad_option(ch, argv, "tone");
+        default: return ml_cli_error("tone: unhandled option");
         }
     }
     if (optind < argc)
