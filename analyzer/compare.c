@@ -26,6 +26,7 @@
 #include "analyzer/saved.h"
 #include "io/compare.h"
 #include "io/output.h"
+#include "io/printable.h"
 
 #define MAX_TOLERANCES 64
 
@@ -289,7 +290,7 @@ int ml_cmd_compare(int argc, char **argv)
     cmp.a = &ra;
     cmp.b = &rb;
     if (o.limits_path)
-        snprintf(cmp.limits_path, sizeof cmp.limits_path, "%s", o.limits_path);
+        ml_printable(cmp.limits_path, sizeof cmp.limits_path, o.limits_path);
     for (size_t i = 0; i < ra.nmetrics; i++)
         add_row(&cmp, &o, ra.metrics[i].name, tol, ntol);
     for (size_t i = 0; i < rb.nmetrics; i++)

@@ -21,6 +21,7 @@
 #include "dsp/synth.h"
 #include "io/audio.h"
 #include "io/output.h"
+#include "io/printable.h"
 
 #define PREROLL_S 0.25     /* silence played before the tone, so its onset can be found       */
 #define NOISE_S 0.1        /* opening capture that sets the onset threshold (before any tone)  */
@@ -93,10 +94,14 @@ int ml_cmd_devices(int argc, char **argv)
         printf("no audio devices found (no sound card, and no audio server running)\n");
     } else {
         printf("%5s  %-32s %-26s %4s %4s %9s\n", "index", "name", "host API", "in", "out", "rate_hz");
-        for (size_t i = 0; i < n; i++)
+        for (size_t i = 0; i < n; i++) {
+            char name[4 * sizeof dev[i].name], api[4 * sizeof dev[i].host_api]; /* the system's text */
+            ml_printable(name, sizeof name, dev[i].name);
+            ml_printable(api, sizeof api, dev[i].host_api);
             printf("%c%c%3d  %-32s %-26s %4d %4d %9.0f\n", dev[i].default_input ? '>' : ' ',
-                   dev[i].default_output ? '<' : ' ', dev[i].index, dev[i].name, dev[i].host_api,
-                   dev[i].max_input_channels, dev[i].max_output_channels, dev[i].default_rate_hz);
+                   dev[i].default_output ? '<' : ' ', dev[i].index, name, api, dev[i].max_input_channels,
+                   dev[i].max_output_channels, dev[i].default_rate_hz);
+        }
     }
     return fflush(stdout) == 0 && !ferror(stdout) ? ML_EXIT_OK : ml_cli_error("cannot write the list");
 }
@@ -356,7 +361,9 @@ static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const cha
     ml_source_live_stats(seg.src, &ls);
     bool written = false;
     if (rc == 0) {
-        snprintf(rep.path, sizeof rep.path, "live:%s", ls.device_name);
+        char dev[sizeof ls.device_name + 8];
+        snprintf(dev, sizeof dev, "live:%s", ls.device_name);
+        ml_printable(rep.path, sizeof rep.path, dev); /* device names are the system's text */
         rep.frames = (int64_t)ls.captured_frames;
         rep.duration_s = (double)ls.captured_frames / rate;
         rep.analysed_s = (double)seg.nframes / rate;

@@ -19,6 +19,7 @@
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 #include "io/output.h"
+#include "io/printable.h"
 
 static void measure_usage(FILE *f)
 {
@@ -348,7 +349,7 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
                          const char *reason)
 {
     const double rate = seg->info->rate_hz;
-    snprintf(r->path, sizeof r->path, "%s", o->input);
+    ml_printable(r->path, sizeof r->path, o->input); /* escaped, and a cut one ends in "..." */
     snprintf(r->kind, sizeof r->kind, "%s", kind);
     snprintf(r->kind_reason, sizeof r->kind_reason, "%s", reason);
     snprintf(r->format, sizeof r->format, "%s", seg->info->format);
@@ -360,7 +361,7 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
     r->start_s = (double)seg->first / rate;
     r->analysed_s = (double)seg->nframes / rate;
     if (o->limits_path)
-        snprintf(r->limits_path, sizeof r->limits_path, "%s", o->limits_path);
+        ml_printable(r->limits_path, sizeof r->limits_path, o->limits_path);
     if (seg->info->cut_short)
         ml_report_note(r, "the file is cut short: its header announces more samples than it holds; the %lld "
                           "frames present were analysed",

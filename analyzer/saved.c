@@ -54,6 +54,18 @@ ml_status ml_saved_read(const char *path, ml_report *rep, char *err, size_t errl
         return st;
     if ((st = ml_report_read_json(path, rep, err, errlen)) != ML_OK)
         return st;
+    /* the saved texts come from a file: printable from here on (io/printable.h) */
+    char tmp[sizeof rep->path];
+    ml_printable(tmp, sizeof tmp, rep->path);
+    memcpy(rep->path, tmp, sizeof tmp);
+    ml_printable(tmp, sizeof rep->kind_reason, rep->kind_reason);
+    memcpy(rep->kind_reason, tmp, sizeof rep->kind_reason);
+    ml_printable(tmp, sizeof rep->format, rep->format);
+    memcpy(rep->format, tmp, sizeof rep->format);
+    for (size_t i = 0; i < rep->ntexts; i++) {
+        ml_printable(tmp, sizeof rep->texts[i].value, rep->texts[i].value);
+        memcpy(rep->texts[i].value, tmp, sizeof rep->texts[i].value);
+    }
     for (size_t i = 0; i < rep->nmetrics; i++) {
         const ml_metric_def *d = ml_registry_lookup(rep->metrics[i].name, NULL);
         if (d && strcmp(d->name, rep->metrics[i].name) == 0) {

@@ -23,6 +23,7 @@
 #include "analyzer/registry.h"
 #include "dsp/peakhold.h"
 #include "io/audio.h"
+#include "io/printable.h"
 
 #define UPDATE_S 0.1          /* analysis and display period                                 */
 #define DEFAULT_WINDOW_S 1.0
@@ -281,7 +282,7 @@ int ml_cmd_watch(int argc, char **argv)
     ml_source_live_stats(seg.src, &ls);
     v.kind = mc.kind;
     v.kind_name = kind == ML_KIND_IQ ? "iq" : kind == ML_KIND_IF ? "if" : "audio";
-    snprintf(v.device, sizeof v.device, "%s", ls.device_name);
+    ml_printable(v.device, sizeof v.device, ls.device_name);
     v.rate_hz = rate;
     v.window_s = (double)ml_monitor_window_frames(mon) / rate;
     v.pos_hold_pct = v.neg_hold_pct = NAN;
