@@ -11,6 +11,7 @@
 #define _POSIX_C_SOURCE 200809L
 #include <errno.h>
 #include <fcntl.h>
+#include <stdbool.h>
 #include <sndfile.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -95,6 +96,28 @@ static void describe(const SF_INFO *fi, ml_source_info *info)
         snprintf(info->format, sizeof info->format, "%s %d-bit %s", major, bits, sub);
 }
 
+/* A header without a sample count (libsndfile then reports SF_COUNT_MAX frames, e.g. a FLAC
+ * stream whose STREAMINFO says 0 samples): the frames are counted by reading them once, in
+ * blocks of at most 64 Ki samples, and the file is rewound. False when that fails. */
+static bool count_frames(SNDFILE *sf, SF_INFO *fi)
+{
+    const sf_count_t block = fi->channels < 65536 ? 65536 / fi->channels : 1;
+    float *buf = malloc((size_t)block * (size_t)fi->channels * sizeof *buf);
+    if (buf == NULL)
+        return false;
+    sf_count_t total = 0, n;
+    while ((n = sf_readf_float(sf, buf, block)) > 0 && total <= ((sf_count_t)1 << 53))
+        total += n;
+    free(buf);
+    if (n < 0 || total > ((sf_count_t)1 << 53))
+        return false;
+    /* nothing to rewind when nothing was there (a header-only stream cannot seek at all) */
+    if (total > 0 && (sf_error(sf) != SF_ERR_NO_ERROR || sf_seek(sf, 0, SEEK_SET) != 0))
+        return false;
+    fi->frames = total;
+    return true;
+}
+
 ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, size_t detail_len)
 {
     *out = NULL;
@@ -146,6 +169,13 @@ ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, s
         close(fd);
         if (detail)
             snprintf(detail, detail_len, "header gives %d channels at %d Hz", fi.channels, fi.samplerate);
+        return ML_EFORMAT;
+    }
+    if (fi.frames > ((sf_count_t)1 << 53) && !count_frames(sf, &fi)) {
+        sf_close(sf);
+        close(fd);
+        if (detail)
+            snprintf(detail, detail_len, "the header gives no length and the frames cannot be counted");
         return ML_EFORMAT;
     }
     file_impl *impl = malloc(sizeof *impl);
