@@ -90,9 +90,11 @@ static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol)
         const char *num = val;
         if (eq) {
             char name[64];
-            snprintf(name, sizeof name, "%.*s", (int)(eq - val), val);
             int amb = 0;
-            const ml_metric_def *d = ml_registry_lookup(name, &amb);
+            const ml_metric_def *d = eq - val < (ptrdiff_t)sizeof name
+                                         ? (snprintf(name, sizeof name, "%.*s", (int)(eq - val), val),
+                                            ml_registry_lookup(name, &amb))
+                                         : (snprintf(name, sizeof name, "%.40s...", val), NULL);
             if (d == NULL) {
                 ml_cli_error("--tolerance: '%s' is %s metric", name, amb ? "an ambiguous" : "not a known");
                 return -1;

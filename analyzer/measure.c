@@ -64,7 +64,8 @@ static void measure_usage(FILE *f)
 static int parse_band(const char *s, ml_measure_opts *o)
 {
     char buf[64];
-    snprintf(buf, sizeof buf, "%s", s);
+    if (snprintf(buf, sizeof buf, "%s", s) >= (int)sizeof buf) /* never a number cut short */
+        return 0;
     char *colon = strchr(buf, ':');
     if (colon == NULL)
         return 0;
@@ -81,7 +82,8 @@ static int parse_band(const char *s, ml_measure_opts *o)
 static int parse_play(const char *s, ml_live_opts *l)
 {
     char buf[64];
-    snprintf(buf, sizeof buf, "%s", s);
+    if (snprintf(buf, sizeof buf, "%s", s) >= (int)sizeof buf) /* never a number cut short */
+        return 0;
     char *comma = strchr(buf, ',');
     if (comma)
         *comma = '\0';
