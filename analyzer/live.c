@@ -371,8 +371,11 @@ static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const cha
         ml_measure_add(&rep, "live.overflows", (double)ls.overflow_events);
         ml_measure_add(&rep, "live.latency_ms", latency >= 0 ? 1000.0 * (double)latency / rate : NAN);
         ml_measure_add(&rep, "live.latency_frames", latency >= 0 ? (double)latency : NAN);
-        ml_report_add_text(&rep, "live.device", ls.device_name);
-        ml_report_add_text(&rep, "live.host_api", ls.host_api);
+        char shown[4 * sizeof ls.device_name];
+        ml_printable(shown, sizeof shown, ls.device_name);
+        ml_report_add_text(&rep, "live.device", shown);
+        ml_printable(shown, sizeof shown, ls.host_api);
+        ml_report_add_text(&rep, "live.host_api", shown);
         ml_report_add_text(&rep, "live.complete", seg.ended_early ? "no" : "yes");
         if (seg.ended_early)
             ml_report_note(&rep, "capture incomplete: %s after %.3f s of %.3f s", seg.failed ? "the device failed"

@@ -12,7 +12,7 @@ paths, redirections, control bytes in file names, several commands) are here.
 """
 import json
 import os
-import re
+import struct
 import subprocess
 import sys
 
@@ -184,6 +184,17 @@ def check_dates(ck, exe):
                 os.unlink(f)
 
 
+def check_header_only(ck, exe):
+    # FLAC: "fLaC", one STREAMINFO block (last, 34 bytes) for 8 kHz mono 16-bit, 0 samples, no frames
+    info = struct.pack(">HH", 4096, 4096) + bytes(6) + struct.pack(">Q", (8000 << 44) | (15 << 36))
+    with open("empty.flac", "wb") as f:
+        f.write(b"fLaC" + bytes([0x80, 0, 0, 34]) + info + bytes(16))
+    before = listing()
+    rc, out_text, err = run(exe, ["log", "--out", "rows.csv", "empty.flac"])
+    ck.check("log of a header-only FLAC: 'no audio frames', exit 2, nothing written", one_error(rc, err)
+             and "no audio frames" in err and listing() == before, err.strip())
+
+
 def main():
     exe = E.modlens_path()
     ck = E.Checker("test_safety")
@@ -195,6 +206,7 @@ def main():
         check_all_or_nothing(ck, exe, good)
         check_printable(ck, exe, good)
         check_dates(ck, exe)
+        check_header_only(ck, exe)
     ck.finish()
 
 
