@@ -3,7 +3,10 @@
  */
 #include "analyzer/cli.h"
 
+#include "io/printable.h"
+
 #include <errno.h>
+#include <getopt.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
@@ -26,14 +29,89 @@ bool ml_cli_int(const char *s, long *v)
     return end != s && *end == '\0' && errno == 0;
 }
 
+static bool digits(const char *s, int n, int *v)
+{
+    *v = 0;
+    for (int i = 0; i < n; i++) {
+        if (s[i] < '0' || s[i] > '9')
+            return false;
+        *v = 10 * *v + (s[i] - '0');
+    }
+    return true;
+}
+
+/* Days from 1970-01-01 to y-m-d in the proleptic Gregorian calendar: the era arithmetic of
+ * H. Hinnant, "chrono-Compatible Low-Level Date Algorithms" (days_from_civil). */
+static long days_from_civil(long y, long m, long d)
+{
+    y -= m <= 2;
+    const long era = y / 400;
+    const long yoe = y - era * 400;
+    const long doy = (153 * (m + (m > 2 ? -3 : 9)) + 2) / 5 + d - 1;
+    const long doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+    return era * 146097 + doe - 719468;
+}
+
+bool ml_cli_utc(const char *s, double *t)
+{
+    int y, mo, d, h, mi, sec;
+    if (strlen(s) < 20 || !digits(s, 4, &y) || s[4] != '-' || !digits(s + 5, 2, &mo) || s[7] != '-'
+        || !digits(s + 8, 2, &d) || s[10] != 'T' || !digits(s + 11, 2, &h) || s[13] != ':'
+        || !digits(s + 14, 2, &mi) || s[16] != ':' || !digits(s + 17, 2, &sec))
+        return false;
+    const char *p = s + 19;
+    double frac = 0, scale = 0.1;
+    if (*p == '.') {
+        int n = 0;
+        for (p++; *p >= '0' && *p <= '9'; p++, n++, scale /= 10)
+            frac += (*p - '0') * scale;
+        if (n < 1 || n > 9)
+            return false;
+    }
+    if (strcmp(p, "Z") != 0)
+        return false;
+    static const int mdays[12] = {31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31};
+    const bool leap = (y % 4 == 0 && y % 100 != 0) || y % 400 == 0;
+    if (y < 1970 || mo < 1 || mo > 12 || d < 1 || d > mdays[mo - 1] + (mo == 2 && leap) || h > 23 || mi > 59
+        || sec > 59)
+        return false;
+    *t = (double)days_from_civil(y, mo, d) * 86400.0 + h * 3600.0 + mi * 60.0 + sec + frac;
+    return true;
+}
+
+int ml_cli_bad_option(int ch, char **argv, const char *cmd)
+{
+    /* a missing value: getopt has stepped past the option, whatever its form */
+    if (ch == ':')
+        return ml_cli_error("%s needs a value (try 'modlens %s --help')", argv[optind - 1], cmd);
+    /* an unknown short option inside a cluster ("-xq") leaves optind on the cluster: name it by
+     * optopt; an unknown long option has optopt 0 and is the argument just passed */
+    if (optopt > 0 && optopt < 256) {
+        char name[3] = {'-', (char)optopt, '\0'};
+        return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", name, cmd);
+    }
+    return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", argv[optind - 1], cmd);
+}
+
 int ml_cli_error(const char *fmt, ...)
 {
+    /* formatted whole, then made printable: file names, profile keys and values, device names
+     * and option values reach the terminal only as escapes (io/printable.h), on one line */
     va_list ap;
     va_start(ap, fmt);
-    fputs("modlens: ", stderr);
-    vfprintf(stderr, fmt, ap);
-    fputc('\n', stderr);
+    char small[512], *text = small;
+    const int n = vsnprintf(small, sizeof small, fmt, ap);
     va_end(ap);
+    if (n >= (int)sizeof small && (text = malloc((size_t)n + 1)) != NULL) {
+        va_start(ap, fmt);
+        vsnprintf(text, (size_t)n + 1, fmt, ap);
+        va_end(ap);
+    }
+    char *shown = ml_printable_dup(text ? text : small);
+    fprintf(stderr, "modlens: %s\n", shown ? shown : "(out of memory)");
+    free(shown);
+    if (text != small)
+        free(text);
     return ML_EXIT_USAGE;
 }
 

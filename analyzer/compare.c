@@ -21,10 +21,12 @@
 #include "analyzer/commands.h"
 #include "analyzer/limits.h"
 #include "analyzer/measure.h"
-#include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
+#include "analyzer/saved.h"
 #include "io/compare.h"
+#include "io/output.h"
+#include "io/printable.h"
 
 #define MAX_TOLERANCES 64
 
@@ -88,9 +90,11 @@ static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol)
         const char *num = val;
         if (eq) {
             char name[64];
-            snprintf(name, sizeof name, "%.*s", (int)(eq - val), val);
             int amb = 0;
-            const ml_metric_def *d = ml_registry_lookup(name, &amb);
+            const ml_metric_def *d = eq - val < (ptrdiff_t)sizeof name
+                                         ? (snprintf(name, sizeof name, "%.*s", (int)(eq - val), val),
+                                            ml_registry_lookup(name, &amb))
+                                         : (snprintf(name, sizeof name, "%.40s...", val), NULL);
             if (d == NULL) {
                 ml_cli_error("--tolerance: '%s' is %s metric", name, amb ? "an ambiguous" : "not a known");
                 return -1;
@@ -98,8 +102,8 @@ static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol)
             snprintf(t->metric, sizeof t->metric, "%s", d->name);
             num = eq + 1;
         }
-        if (!ml_cli_number(num, &t->value) || t->value < 0) {
-            ml_cli_error("--tolerance: '%s' is not a number >= 0 (or METRIC=number)", val);
+        if (!ml_cli_number(num, &t->value) || t->value < 0 || t->value > 1e15) {
+            ml_cli_error("--tolerance: '%s' is not a number 0..1e15 (or METRIC=number)", val);
             return -1;
         }
     }
@@ -138,16 +142,9 @@ static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_pl
     *measured = false;
     if (looks_like_json(path)) {
         char err[512];
-        ml_status st = ml_report_read_json(path, rep, err, sizeof err);
+        ml_status st = ml_saved_read(path, rep, err, sizeof err); /* typed by the registry */
         if (st != ML_OK)
             return ml_cli_error("%s: %s", path, err);
-        for (size_t i = 0; i < rep->nmetrics; i++) {
-            const ml_metric_def *d = ml_registry_lookup(rep->metrics[i].name, NULL);
-            if (d && strcmp(d->name, rep->metrics[i].name) == 0) {
-                rep->metrics[i].unit = d->unit;
-                rep->metrics[i].decimals = d->decimals;
-            }
-        }
         if (o->limits)
             ml_limits_apply(o->limits, rep);
         return 0;
@@ -275,21 +272,10 @@ int ml_cmd_compare(int argc, char **argv)
     int rc = ml_measure_parse(argc, argv, &o, 2);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
-        return rc;
     static ml_limits limits;
-    char err[512];
-    if (o.limits_path) {
-        if (ml_limits_load(o.limits_path, &limits, err, sizeof err) != ML_OK)
-            return ml_cli_error("%s: %s", o.limits_path, err);
-        o.limits = &limits;
-    }
-    const char *outs[3] = {o.output_path, o.plot_path, o.report_path};
-    const char *ins[4] = {o.input, o.input2, o.limits_path, o.carrier_reference};
-    for (int i = 0; i < 3; i++)
-        for (int j = 0; outs[i] && j < 4; j++)
-            if (ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file", outs[i]);
+    ml_measure_outputs outs; /* --plot X --output X, or any output naming an input: refused here */
+    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
+        return rc;
 
     static ml_report ra, rb;
     static ml_comparison cmp;
@@ -306,7 +292,7 @@ int ml_cmd_compare(int argc, char **argv)
     cmp.a = &ra;
     cmp.b = &rb;
     if (o.limits_path)
-        snprintf(cmp.limits_path, sizeof cmp.limits_path, "%s", o.limits_path);
+        ml_printable(cmp.limits_path, sizeof cmp.limits_path, o.limits_path);
     for (size_t i = 0; i < ra.nmetrics; i++)
         add_row(&cmp, &o, ra.metrics[i].name, tol, ntol);
     for (size_t i = 0; i < rb.nmetrics; i++)
@@ -321,26 +307,29 @@ int ml_cmd_compare(int argc, char **argv)
              "B", "");
     if ((o.plot_path || o.report_path) && (!ma || !mb))
         note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
-    rc = ml_plots_write_compare(o.plot_path, o.report_path, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
+    rc = ml_plots_write_compare(outs.plot, outs.pdf, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
     if (rc != 0)
         goto done;
-
-    ml_output out;
-    if (!ml_output_open(&out, o.output_path, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.output_path, err);
+    FILE *f = NULL;
+    char err[512];
+    if (ml_output_begin(outs.report, &f, err, sizeof err) != ML_OK) {
+        rc = ml_cli_error("%s: %s", ml_output_path(outs.report), err);
         goto done;
     }
-    if (ml_compare_write(out.f, &cmp, o.format) != ML_OK) {
-        ml_output_abort(&out);
-        rc = ml_cli_error("%s: cannot write the comparison", o.output_path ? o.output_path : "standard output");
+    if (ml_compare_write(f, &cmp, o.format) != ML_OK) {
+        ml_output_discard(outs.report);
+        rc = ml_cli_error("%s: cannot write the comparison", ml_output_path(outs.report));
         goto done;
     }
-    if (!ml_output_commit(&out, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.output_path, err);
+    if (ml_output_end(outs.report, err, sizeof err) != ML_OK) {
+        rc = ml_cli_error("%s: %s", ml_output_path(outs.report), err);
         goto done;
     }
+    if ((rc = ml_measure_commit(&outs)) != 0) /* all or nothing */
+        goto done;
     rc = cmp.nworse > 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
 done:
+    ml_measure_outputs_free(&outs);
     ml_plot_data_free(&pa);
     ml_plot_data_free(&pb);
     return rc;

@@ -1,87 +1,72 @@
-/* Limits profiles: parsing (inih) and checking.
+/* Limits profiles: parsing and checking.
  * SPDX-License-Identifier: MIT
+ *
+ * The reader is our own (it replaced inih, whose lines stop at 199 bytes: a longer line was
+ * split, and the tail of a long comment became a key). Lines may be of any length; the file is
+ * refused above 1 MiB.
  */
+#define _POSIX_C_SOURCE 200809L
 #include "analyzer/limits.h"
 
 #include <errno.h>
-#include <ini.h>
+#include <fcntl.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "analyzer/registry.h"
+#include "io/printable.h"
+
+#define MAX_BYTES ((off_t)1 << 20) /* a profile is a few hundred bytes; larger files are refused */
+#define MAX_LIMIT 1e15             /* |limit| in the metric's unit: counts stay exact integers  */
+#define MAX_OFFSET_HZ 1e9
+#define MAX_DBC 1000.0
 
 typedef struct {
-    FILE *f;
     int line;
-} line_reader;
-
-typedef struct {
-    line_reader rd;
     ml_limits *out;
     char *err;
     size_t errlen;
     bool failed;
+    bool seen_points, seen_rbw, seen_name, seen_description; /* keys that may appear once */
 } parse_ctx;
-
-/* fgets-like reader that counts lines, so the handler knows the line it is given. */
-static char *read_line(char *str, int num, void *stream)
-{
-    line_reader *rd = stream;
-    char *s = fgets(str, num, rd->f);
-    if (s != NULL) {
-        rd->line++;
-        /* inih would read an indented line as the continuation of the previous value */
-        size_t lead = strspn(s, " \t");
-        if (lead > 0)
-            memmove(s, s + lead, strlen(s + lead) + 1);
-    }
-    return s;
-}
-
-/* Line n of f without its end-of-line (for error messages); "" when absent. */
-static void nth_line(FILE *f, int n, char *buf, size_t len)
-{
-    buf[0] = '\0';
-    rewind(f);
-    for (int i = 1; i <= n && fgets(buf, (int)len, f) != NULL; i++)
-        if (i == n) {
-            buf[strcspn(buf, "\r\n")] = '\0';
-            return;
-        }
-    buf[0] = '\0';
-}
 
 static void fail(parse_ctx *c, const char *fmt, const char *a, const char *b)
 {
     if (c->failed)
         return;
     c->failed = true;
-    char msg[256];
+    char msg[512], line[600];
     snprintf(msg, sizeof msg, fmt, a, b);
-    snprintf(c->err, c->errlen, "line %d: %s", c->rd.line, msg);
+    snprintf(line, sizeof line, "line %d: %s", c->line, msg);
+    ml_printable(c->err, c->errlen, line); /* keys and values may hold any byte */
 }
 
-static bool parse_number(const char *s, double *v)
+/* A finite number with nothing after it but blanks, and |v| <= max; a reason for the error
+ * message otherwise. */
+static const char *parse_number(const char *s, double max, double *v)
 {
     char *end = NULL;
     errno = 0;
     *v = strtod(s, &end);
-    if (end == s || errno != 0 || !isfinite(*v))
-        return false;
+    if (end == s || errno == ERANGE || !isfinite(*v))
+        return "is not a number";
     while (*end == ' ' || *end == '\t')
         end++;
-    return *end == '\0';
+    if (*end != '\0')
+        return "is not a number";
+    if (fabs(*v) > max)
+        return "is out of range";
+    return NULL;
 }
 
 /* "OFFSET:DBC, OFFSET:DBC, ..." with ascending offsets >= 0. */
-static bool parse_mask_points(parse_ctx *c, const char *name, const char *value)
+static bool mask_points(parse_ctx *c, const char *name, char *buf)
 {
     ml_mask *m = &c->out->mask;
-    char buf[512];
-    snprintf(buf, sizeof buf, "%s", value);
     m->npoints = 0;
     for (char *save = NULL, *tok = strtok_r(buf, ",", &save); tok; tok = strtok_r(NULL, ",", &save)) {
         while (*tok == ' ' || *tok == '\t')
@@ -93,8 +78,9 @@ static bool parse_mask_points(parse_ctx *c, const char *name, const char *value)
             return false;
         }
         *colon = '\0';
-        if (!parse_number(tok, &off) || !parse_number(colon + 1, &dbc) || off < 0) {
-            fail(c, "key '%s': '%s' is not OFFSET_HZ:DBC with OFFSET_HZ >= 0", name, tok);
+        if (parse_number(tok, MAX_OFFSET_HZ, &off) != NULL || parse_number(colon + 1, MAX_DBC, &dbc) != NULL
+            || off < 0) {
+            fail(c, "key '%s': '%s' is not OFFSET_HZ:DBC with 0 <= OFFSET_HZ <= 1e9 and |DBC| <= 1000", name, tok);
             return false;
         }
         if (m->npoints >= ML_MASK_MAX_POINTS) {
@@ -117,16 +103,41 @@ static bool parse_mask_points(parse_ctx *c, const char *name, const char *value)
     return true;
 }
 
+static bool parse_mask_points(parse_ctx *c, const char *name, const char *value)
+{
+    char *buf = strdup(value); /* a line of any length */
+    if (buf == NULL) {
+        fail(c, "out of memory%s%s", "", "");
+        return false;
+    }
+    const bool ok = mask_points(c, name, buf);
+    free(buf);
+    return ok;
+}
+
+/* A key that may appear once in its section: false (error set) the second time. */
+static bool once(parse_ctx *c, bool *seen, const char *section, const char *name)
+{
+    if (*seen) {
+        fail(c, "key '%s': given twice in [%s]", name, section);
+        return false;
+    }
+    *seen = true;
+    return true;
+}
+
 static int handler(void *user, const char *section, const char *name, const char *value)
 {
     parse_ctx *c = user;
     if (strcmp(section, "mask") == 0) {
         if (strcmp(name, "points") == 0)
-            return parse_mask_points(c, name, value) ? 1 : 0;
+            return once(c, &c->seen_points, section, name) && parse_mask_points(c, name, value) ? 1 : 0;
         if (strcmp(name, "rbw_hz") == 0) {
             double v;
-            if (!parse_number(value, &v) || v <= 0) {
-                fail(c, "key '%s': '%s' is not a bandwidth in Hz > 0", name, value);
+            if (!once(c, &c->seen_rbw, section, name))
+                return 0;
+            if (parse_number(value, MAX_OFFSET_HZ, &v) != NULL || v <= 0) {
+                fail(c, "key '%s': '%s' is not a bandwidth in Hz, 0 < rbw_hz <= 1e9", name, value);
                 return 0;
             }
             c->out->mask.rbw_hz = v;
@@ -137,11 +148,17 @@ static int handler(void *user, const char *section, const char *name, const char
     }
     if (strcmp(section, "profile") == 0) {
         if (strcmp(name, "name") == 0) {
+            if (!once(c, &c->seen_name, section, name))
+                return 0;
+            if (strlen(value) >= sizeof c->out->name) {
+                fail(c, "key '%s': longer than %s bytes", name, "127");
+                return 0;
+            }
             snprintf(c->out->name, sizeof c->out->name, "%s", value);
             return 1;
         }
         if (strcmp(name, "description") == 0)
-            return 1;
+            return once(c, &c->seen_description, section, name) ? 1 : 0;
         fail(c, "key '%s': unknown key in [profile] (expected name or description)%s", name, "");
         return 0;
     }
@@ -153,10 +170,13 @@ static int handler(void *user, const char *section, const char *name, const char
         return 0;
     }
     char base[128];
-    if (section[0] != '\0' && strcmp(section, "limits") != 0)
-        snprintf(base, sizeof base, "%s.%.*s", section, (int)(len - 4), name);
-    else
-        snprintf(base, sizeof base, "%.*s", (int)(len - 4), name);
+    const int bn = section[0] != '\0' && strcmp(section, "limits") != 0
+                       ? snprintf(base, sizeof base, "%s.%.*s", section, (int)(len - 4), name)
+                       : snprintf(base, sizeof base, "%.*s", (int)(len - 4), name);
+    if (bn < 0 || bn >= (int)sizeof base) { /* no metric name is that long */
+        fail(c, "key '%s': unknown metric (the name is too long)%s", name, "");
+        return 0;
+    }
     int ambiguous = 0;
     const ml_metric_def *def = ml_registry_lookup(base, &ambiguous);
     if (def == NULL) {
@@ -167,8 +187,11 @@ static int handler(void *user, const char *section, const char *name, const char
         return 0;
     }
     double v;
-    if (!parse_number(value, &v)) {
-        fail(c, "key '%s': '%s' is not a number", name, value);
+    const char *why = parse_number(value, MAX_LIMIT, &v);
+    if (why != NULL) {
+        fail(c, strcmp(why, "is out of range") == 0 ? "key '%s': '%s' is out of range (|limit| <= 1e15)"
+                                                    : "key '%s': '%s' is not a number",
+             name, value);
         return 0;
     }
     ml_limit *l = NULL;
@@ -202,26 +225,111 @@ static int handler(void *user, const char *section, const char *name, const char
     return 1;
 }
 
+static bool blank(char ch)
+{
+    return ch == ' ' || ch == '\t';
+}
+
+static void rtrim(char *s)
+{
+    size_t n = strlen(s);
+    while (n > 0 && (blank(s[n - 1]) || s[n - 1] == '\r' || s[n - 1] == '\n'))
+        s[--n] = '\0';
+}
+
+/* One line of the profile (len bytes with its newline, of any length): a comment, a [section] header
+ * or a key = value line. A value ends at " ;" (an inline comment); ";" and "#" at the start of a
+ * line begin a comment line. false when parsing must stop (the error is set). */
+static bool parse_line(parse_ctx *c, char *line, size_t len, char *section, size_t seclen)
+{
+    if (memchr(line, '\0', len) != NULL) {
+        fail(c, "holds a NUL byte: not a text line%s%s", "", "");
+        return false;
+    }
+    if (c->line == 1 && strncmp(line, "\xef\xbb\xbf", 3) == 0) /* a UTF-8 byte order mark */
+        line += 3;
+    while (blank(*line))
+        line++;
+    rtrim(line);
+    if (*line == '\0' || *line == ';' || *line == '#')
+        return true;
+    if (*line == '[') {
+        char *end = strchr(line, ']');
+        char *rest = end ? end + 1 : NULL;
+        while (rest && blank(*rest))
+            rest++;
+        if (end == NULL || (*rest != '\0' && *rest != ';' && *rest != '#')) {
+            fail(c, "'%.100s' is not a 'key = value' line or a [section] header%s", line, "");
+            return false;
+        }
+        *end = '\0';
+        char *name = line + 1;
+        while (blank(*name))
+            name++;
+        rtrim(name);
+        if (strlen(name) >= seclen) {
+            fail(c, "section [%.100s] is not known%s", name, "");
+            return false;
+        }
+        snprintf(section, seclen, "%s", name);
+        return true;
+    }
+    char *eq = strchr(line, '=');
+    if (eq == NULL || eq == line) {
+        fail(c, "'%.100s' is not a 'key = value' line or a [section] header%s", line, "");
+        return false;
+    }
+    *eq = '\0';
+    rtrim(line);
+    char *value = eq + 1;
+    for (char *p = value; *p; p++)
+        if (*p == ';' && (p == value || blank(p[-1]))) {
+            *p = '\0';
+            break;
+        }
+    while (blank(*value))
+        value++;
+    rtrim(value);
+    return handler(c, section, line, value) == 1;
+}
+
 ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t errlen)
 {
     memset(out, 0, sizeof *out);
-    snprintf(out->path, sizeof out->path, "%s", path);
-    struct stat st;
-    if (stat(path, &st) == 0 && S_ISDIR(st.st_mode)) {
-        snprintf(err, errlen, "is a directory, not a limits profile");
-        return ML_EIO;
-    }
-    if (stat(path, &st) == 0 && !S_ISREG(st.st_mode)) { /* a FIFO or device could block forever */
-        snprintf(err, errlen, "not a regular file");
-        return ML_EIO;
-    }
-    FILE *f = fopen(path, "r");
-    if (f == NULL) {
+    /* O_NONBLOCK: a FIFO must not block the open (it is refused below) */
+    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
+    if (fd < 0) {
         snprintf(err, errlen, "%s", strerror(errno));
         return ML_EIO;
     }
-    parse_ctx c = {.rd = {f, 0}, .out = out, .err = err, .errlen = errlen};
-    int rc = ini_parse_stream(read_line, &c.rd, handler, &c);
+    struct stat st;
+    const char *problem = NULL;
+    if (fstat(fd, &st) != 0)
+        problem = strerror(errno);
+    else if (S_ISDIR(st.st_mode))
+        problem = "is a directory, not a limits profile";
+    else if (!S_ISREG(st.st_mode)) /* a FIFO or device could block forever */
+        problem = "not a regular file";
+    else if (st.st_size > MAX_BYTES)
+        problem = "larger than 1 MiB: not a limits profile";
+    FILE *f = problem ? NULL : fdopen(fd, "r");
+    if (f == NULL) {
+        snprintf(err, errlen, "%s", problem ? problem : strerror(errno));
+        close(fd);
+        return problem && strstr(problem, "MiB") ? ML_EFORMAT : ML_EIO;
+    }
+    fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) & ~O_NONBLOCK);
+    parse_ctx c = {.out = out, .err = err, .errlen = errlen};
+    char section[64] = "";
+    char *line = NULL;
+    size_t cap = 0;
+    ssize_t n;
+    while (!c.failed && (n = getline(&line, &cap, f)) >= 0) {
+        c.line++;
+        if (!parse_line(&c, line, (size_t)n, section, sizeof section))
+            break;
+    }
+    free(line);
     if (ferror(f) != 0) {
         fclose(f);
         snprintf(err, errlen, "read error");
@@ -229,16 +337,6 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
     }
     if (c.failed) {
         fclose(f);
-        return ML_EFORMAT;
-    }
-    if (rc != 0) {
-        char line[160];
-        nth_line(f, rc, line, sizeof line);
-        for (char *ch = line; *ch; ch++) /* one printable line, whatever the file holds */
-            if ((unsigned char)*ch < 0x20 || (unsigned char)*ch >= 0x7f)
-                *ch = '?';
-        fclose(f);
-        snprintf(err, errlen, "line %d: '%.100s' is not a 'key = value' line or a [section] header", rc, line);
         return ML_EFORMAT;
     }
     fclose(f);

@@ -1,18 +1,22 @@
 /* Limits profiles: INI files of <metric>_min / <metric>_max keys, checked against a report.
  * SPDX-License-Identifier: MIT
  *
- * Syntax (inih): "key = value" lines, ";" or "#" comments, optional [section] headers.
+ * Syntax: "key = value" lines, [section] headers, comment lines starting with ";" or "#", and
+ * inline comments after " ;" (a ";" that follows a blank). Lines may be of any length (the file
+ * at most 1 MiB); blanks around keys, values and section names are ignored.
  *  - Outside a section, or in [limits], a key names a metric by its dotted name
  *    ("audio.thd_pct_max") or by its short name when unique ("thd_pct_max").
  *  - In a section named after a metric group ([audio], [hum], ...) the short name is taken
  *    within that group ("level_dbc_max" in [hum] is hum.level_dbc).
- *  - [profile] holds free-text "name" and "description" keys.
+ *  - [profile] holds free-text "name" (at most 127 bytes) and "description" keys.
  *  - [mask] gives an emission mask for if/iq captures: "points = OFFSET_HZ:DBC, ..." (offsets
- *    ascending from the carrier, levels in dB re the unmodulated carrier; a repeated offset makes
- *    a step) and "rbw_hz" (resolution bandwidth the levels refer to, default 300). A mask adds
- *    the check spectrum.mask_margin_db >= 0 unless the profile limits that metric itself.
- * Every other key, a value that is not a finite number, a repeated key, or min > max for one
- * metric is an error naming the file, line and key.
+ *    ascending from the carrier, 0..1e9 Hz, levels in dB re the unmodulated carrier, |DBC| <=
+ *    1000; a repeated offset makes a step) and "rbw_hz" (resolution bandwidth the levels refer
+ *    to, 0 < rbw_hz <= 1e9, default 300). A mask adds the check spectrum.mask_margin_db >= 0
+ *    unless the profile limits that metric itself.
+ * Every other key, a line that is neither, a value that is not a finite number or is beyond
+ * +-1e15, a key repeated in any section (a limit counts once whatever its spelling), or min > max
+ * for one metric is an error naming the file, line and key.
  */
 #ifndef ML_ANALYZER_LIMITS_H
 #define ML_ANALYZER_LIMITS_H
@@ -33,7 +37,6 @@ typedef struct {
 } ml_limit;
 
 typedef struct {
-    char path[1024];
     char name[128];
     size_t n;
     ml_limit items[ML_MAX_LIMITS];

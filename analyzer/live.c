@@ -17,10 +17,11 @@
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
-#include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
+#include "io/output.h"
+#include "io/printable.h"
 
 #define PREROLL_S 0.25     /* silence played before the tone, so its onset can be found       */
 #define NOISE_S 0.1        /* opening capture that sets the onset threshold (before any tone)  */
@@ -57,8 +58,8 @@ int ml_cmd_devices(int argc, char **argv)
             else return ml_cli_error("--format: '%s' is not text or json", optarg);
             break;
         case 'h': devices_usage(stdout); return ML_EXIT_OK;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens devices --help')", argv[optind - 1]);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens devices --help')", argv[optind - 1]);
+        case ':': case '?': return ml_cli_bad_option(ch, argv, "devices");
+        default: return ml_cli_error("devices: unhandled option");
         }
     }
     if (optind < argc)
@@ -93,10 +94,14 @@ int ml_cmd_devices(int argc, char **argv)
         printf("no audio devices found (no sound card, and no audio server running)\n");
     } else {
         printf("%5s  %-32s %-26s %4s %4s %9s\n", "index", "name", "host API", "in", "out", "rate_hz");
-        for (size_t i = 0; i < n; i++)
+        for (size_t i = 0; i < n; i++) {
+            char name[4 * sizeof dev[i].name], api[4 * sizeof dev[i].host_api]; /* the system's text */
+            ml_printable(name, sizeof name, dev[i].name);
+            ml_printable(api, sizeof api, dev[i].host_api);
             printf("%c%c%3d  %-32s %-26s %4d %4d %9.0f\n", dev[i].default_input ? '>' : ' ',
-                   dev[i].default_output ? '<' : ' ', dev[i].index, dev[i].name, dev[i].host_api,
-                   dev[i].max_input_channels, dev[i].max_output_channels, dev[i].default_rate_hz);
+                   dev[i].default_output ? '<' : ' ', dev[i].index, name, api, dev[i].max_input_channels,
+                   dev[i].max_output_channels, dev[i].default_rate_hz);
+        }
     }
     return fflush(stdout) == 0 && !ferror(stdout) ? ML_EXIT_OK : ml_cli_error("cannot write the list");
 }
@@ -215,6 +220,8 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
     return 0;
 }
 
+static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const char *cmdline);
+
 int ml_cmd_live(int argc, char **argv)
 {
     char cmdline[1024];
@@ -224,8 +231,41 @@ int ml_cmd_live(int argc, char **argv)
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
     static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+    ml_measure_outputs outs;
+    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
         return rc;
+    rc = live_capture(&o, &outs, cmdline);
+    ml_measure_outputs_free(&outs); /* whatever was not published goes */
+    return rc;
+}
+
+/* Publishes the outputs: all of them when everything was written; otherwise only the capture,
+ * which --save keeps whenever frames arrived, even when the analysis failed. */
+static int live_publish(ml_measure_outputs *outs, bool written, uint64_t captured, int rc)
+{
+    char err[512];
+    if (outs->save != NULL) {
+        if (ml_output_end(outs->save, err, sizeof err) != ML_OK) {
+            ml_cli_error("%s: %s", ml_output_path(outs->save), err);
+            written = false;
+            rc = rc == 0 || rc == ML_EXIT_FAIL ? ML_EXIT_USAGE : rc;
+        } else if (captured == 0) {
+            ml_output_discard(outs->save);
+        }
+    }
+    if (!written) {
+        ml_output_discard(outs->report);
+        ml_output_discard(outs->plot);
+        ml_output_discard(outs->pdf);
+    }
+    const int crc = ml_measure_commit(outs);
+    return crc != 0 && (rc == 0 || rc == ML_EXIT_FAIL) ? crc : rc;
+}
+
+static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const char *cmdline)
+{
+    ml_measure_opts o = *op;
+    int rc = 0;
     long nch = o.live.channels;
     if (nch == 0) {
         nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
@@ -240,7 +280,11 @@ int ml_cmd_live(int argc, char **argv)
     lc.rate_hz = o.live.rate_hz;
     lc.channels = (int)nch;
     lc.head_s = HEAD_S + (o.live.play ? PREROLL_S + ONSET_WAIT_S : 0);
-    lc.save_path = o.live.save_path;
+    FILE *save = NULL; /* the capture goes to its output's temporary, by descriptor */
+    char err[512];
+    if (outs->save != NULL && ml_output_begin(outs->save, &save, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", ml_output_path(outs->save), err);
+    lc.save_fd = save ? fileno(save) : -1;
     tone_feed feed = {NULL, 0, 0};
     if (o.live.play) {
         /* the generator needs the rate: the input device's default unless --rate */
@@ -263,7 +307,6 @@ int ml_cmd_live(int argc, char **argv)
         lc.fill = feed_tone;
         lc.fill_ctx = &feed;
     }
-    char err[512];
     ml_segment seg;
     memset(&seg, 0, sizeof seg);
     ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
@@ -314,9 +357,13 @@ int ml_cmd_live(int argc, char **argv)
     sigaction(SIGTERM, &old_term, NULL);
 
     ml_live_stats ls;
+    memset(&ls, 0, sizeof ls);
     ml_source_live_stats(seg.src, &ls);
+    bool written = false;
     if (rc == 0) {
-        snprintf(rep.path, sizeof rep.path, "live:%s", ls.device_name);
+        char dev[sizeof ls.device_name + 8];
+        snprintf(dev, sizeof dev, "live:%s", ls.device_name);
+        ml_printable(rep.path, sizeof rep.path, dev); /* device names are the system's text */
         rep.frames = (int64_t)ls.captured_frames;
         rep.duration_s = (double)ls.captured_frames / rate;
         rep.analysed_s = (double)seg.nframes / rate;
@@ -324,8 +371,11 @@ int ml_cmd_live(int argc, char **argv)
         ml_measure_add(&rep, "live.overflows", (double)ls.overflow_events);
         ml_measure_add(&rep, "live.latency_ms", latency >= 0 ? 1000.0 * (double)latency / rate : NAN);
         ml_measure_add(&rep, "live.latency_frames", latency >= 0 ? (double)latency : NAN);
-        ml_report_add_text(&rep, "live.device", ls.device_name);
-        ml_report_add_text(&rep, "live.host_api", ls.host_api);
+        char shown[4 * sizeof ls.device_name];
+        ml_printable(shown, sizeof shown, ls.device_name);
+        ml_report_add_text(&rep, "live.device", shown);
+        ml_printable(shown, sizeof shown, ls.host_api);
+        ml_report_add_text(&rep, "live.host_api", shown);
         ml_report_add_text(&rep, "live.complete", seg.ended_early ? "no" : "yes");
         if (seg.ended_early)
             ml_report_note(&rep, "capture incomplete: %s after %.3f s of %.3f s", seg.failed ? "the device failed"
@@ -337,16 +387,17 @@ int ml_cmd_live(int argc, char **argv)
             ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
         if (ls.underflow_frames > 0 && o.live.play)
             ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
-        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        rc = ml_plots_write_measure(outs->plot, outs->pdf, &rep, &pd, cmdline);
         if (rc == 0)
-            rc = ml_measure_write(&o, &rep);
+            rc = ml_measure_write(&o, &rep, outs->report);
+        written = rc == 0;
         if (rc == 0)
             rc = seg.failed ? ML_EXIT_USAGE
                             : strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     }
     g_live = NULL;
     ml_plot_data_free(&pd);
-    ml_source_close(seg.src);
+    ml_source_close(seg.src); /* completes the capture file */
     ml_synth_destroy(feed.syn);
-    return rc;
+    return live_publish(outs, written, ls.captured_frames, rc);
 }

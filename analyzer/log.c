@@ -98,18 +98,8 @@ static void log_usage(FILE *f)
             ml_cli_safety);
 }
 
-/* "YYYY-MM-DDTHH:MM:SS[.fff]Z" -> seconds since 1970 UTC. */
-static bool parse_utc(const char *s, double *t)
-{
-    int y, mo, d, h, mi, n = 0;
-    double sec;
-    if (sscanf(s, "%4d-%2d-%2dT%2d:%2d:%lf%n", &y, &mo, &d, &h, &mi, &sec, &n) != 6 || strcmp(s + n, "Z") != 0
-        || mo < 1 || mo > 12 || d < 1 || d > 31 || h > 23 || mi > 59 || !(sec >= 0 && sec < 61) || y < 1970)
-        return false;
-    struct tm tm = {.tm_year = y - 1900, .tm_mon = mo - 1, .tm_mday = d, .tm_hour = h, .tm_min = mi};
-    *t = (double)timegm(&tm) + sec;
-    return true;
-}
+/* "YYYY-MM-DDTHH:MM:SS[.fff]Z" -> seconds since 1970 UTC (a real calendar date: analyzer/cli.h). */
+static bool parse_utc(const char *s, double *t) { return ml_cli_utc(s, t); }
 
 static void format_utc(double t, char *b, size_t n)
 {

@@ -13,12 +13,13 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
-#include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "analyzer/uncertainty.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
+#include "io/output.h"
+#include "io/printable.h"
 
 static void measure_usage(FILE *f)
 {
@@ -63,7 +64,8 @@ static void measure_usage(FILE *f)
 static int parse_band(const char *s, ml_measure_opts *o)
 {
     char buf[64];
-    snprintf(buf, sizeof buf, "%s", s);
+    if (snprintf(buf, sizeof buf, "%s", s) >= (int)sizeof buf) /* never a number cut short */
+        return 0;
     char *colon = strchr(buf, ':');
     if (colon == NULL)
         return 0;
@@ -80,7 +82,8 @@ static int parse_band(const char *s, ml_measure_opts *o)
 static int parse_play(const char *s, ml_live_opts *l)
 {
     char buf[64];
-    snprintf(buf, sizeof buf, "%s", s);
+    if (snprintf(buf, sizeof buf, "%s", s) >= (int)sizeof buf) /* never a number cut short */
+        return 0;
     char *comma = strchr(buf, ',');
     if (comma)
         *comma = '\0';
@@ -146,7 +149,10 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     int ch, rc;
     double v;
     long n;
-    while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
+    int li = -1;
+    while ((li = -1, ch = getopt_long(argc, argv, ":h", longopts, &li)) != -1) {
+        if (!live && ch >= O_DEVICE) /* named from the table: argv[optind - 1] may be its value */
+            return ml_cli_error("--%s belongs to 'modlens live', not %s", li >= 0 ? longopts[li].name : "?", cmd);
         switch (ch) {
         case 'k':
             if (strcmp(optarg, "auto") == 0) o->kind = ML_KIND_AUTO;
@@ -168,13 +174,14 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             break;
         case O_SWAP: o->swap_iq = true; break;
         case 's':
-            if (!ml_cli_number(optarg, &v) || v < 0)
-                return ml_cli_error("--start: '%s' is not a time in seconds >= 0", optarg);
+            if (!ml_cli_number(optarg, &v) || v < 0 || v > ML_CLI_MAX_SECONDS)
+                return ml_cli_error("--start: '%s' is not a time in seconds, 0..%.0f", optarg, ML_CLI_MAX_SECONDS);
             o->start_s = v;
             break;
         case 'd':
-            if (!ml_cli_number(optarg, &v) || v <= 0)
-                return ml_cli_error("--duration: '%s' is not a time in seconds > 0", optarg);
+            if (!ml_cli_number(optarg, &v) || v <= 0 || v > ML_CLI_MAX_SECONDS)
+                return ml_cli_error("--duration: '%s' is not a time in seconds, 0 < S <= %.0f", optarg,
+                                    ML_CLI_MAX_SECONDS);
             o->duration_s = v;
             break;
         case 'b':
@@ -253,11 +260,9 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
                 return ml_cli_error("--play-tone: '%s' is not FREQ[,LEVEL] (Hz > 0, dBFS -120..0)", optarg);
             break;
         case 'h': (live ? ml_live_usage : measure_usage)(stdout); return -1;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens %s --help')", argv[optind - 1], cmd);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", argv[optind - 1], cmd);
+        case ':': case '?': return ml_cli_bad_option(ch, argv, cmd);
+        default: return ml_cli_error("%s: unhandled option", cmd);
         }
-        if (!live && ch >= O_DEVICE)
-            return ml_cli_error("%s belongs to 'modlens live', not measure", argv[optind - 1]);
     }
     if (live) {
         if (optind < argc)
@@ -346,7 +351,7 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
                          const char *reason)
 {
     const double rate = seg->info->rate_hz;
-    snprintf(r->path, sizeof r->path, "%s", o->input);
+    ml_printable(r->path, sizeof r->path, o->input); /* escaped, and a cut one ends in "..." */
     snprintf(r->kind, sizeof r->kind, "%s", kind);
     snprintf(r->kind_reason, sizeof r->kind_reason, "%s", reason);
     snprintf(r->format, sizeof r->format, "%s", seg->info->format);
@@ -358,7 +363,7 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
     r->start_s = (double)seg->first / rate;
     r->analysed_s = (double)seg->nframes / rate;
     if (o->limits_path)
-        snprintf(r->limits_path, sizeof r->limits_path, "%s", o->limits_path);
+        ml_printable(r->limits_path, sizeof r->limits_path, o->limits_path);
     if (seg->info->cut_short)
         ml_report_note(r, "the file is cut short: its header announces more samples than it holds; the %lld "
                           "frames present were analysed",
@@ -501,7 +506,11 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
             ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->audio.band_lo_hz,
                            o->audio.band_hi_hz, residue ? residue : "DC only?");
         else {
-            rc = ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
+            rc = st == ML_EINVAL /* the only input-dependent cause: the band is too narrow for the bins */
+                     ? ml_cli_error("%s: the band %.1f..%.1f Hz holds too few spectrum bins of %.1f Hz to analyse "
+                                    "(the sample rate is %.0f Hz); widen --band or give a longer recording",
+                                    o->input, o->audio.band_lo_hz, o->audio.band_hi_hz, rate / (double)sc.nfft, rate)
+                     : ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
             goto done;
         }
     }
@@ -550,34 +559,38 @@ static int open_segment(ml_measure_opts *o, ml_segment *seg)
     if (o->reference_channel > info->channels)
         return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", o->input,
                             o->reference_channel, info->channels, info->channels == 1 ? "" : "s");
-    seg->first = (int64_t)llround(o->start_s * rate);
-    seg->nframes = o->duration_s < 0 ? info->frames - seg->first : (int64_t)llround(o->duration_s * rate);
-    if (seg->first >= info->frames || seg->first + seg->nframes > info->frames)
+    /* in double first: no --start or --duration may overflow a frame count (round = llround) */
+    const double first = round(o->start_s * rate), total = (double)info->frames;
+    const double n = o->duration_s < 0 ? total - first : round(o->duration_s * rate);
+    if (!(first < total) || !(first + n <= total))
         return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", o->input,
                             o->start_s, o->duration_s < 0 ? 0.0 : o->duration_s, (double)info->frames / rate);
+    seg->first = (int64_t)first;
+    seg->nframes = (int64_t)n;
     if (seg->first > 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
         return ml_cli_error("%s: cannot seek to %.3f s: %s", o->input, o->start_s, ml_source_detail(seg->src));
     return 0;
 }
 
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
+int ml_measure_write(const ml_measure_opts *o, const ml_report *rep, ml_output *report)
 {
     char err[512];
-    ml_output out;
-    if (!ml_output_open(&out, o->output_path, err, sizeof err))
-        return ml_cli_error("%s: %s", o->output_path, err);
-    if (ml_report_write(out.f, rep, o->format) != ML_OK) {
-        ml_output_abort(&out);
-        return ml_cli_error("%s: cannot write the report", o->output_path ? o->output_path : "standard output");
+    FILE *f = NULL;
+    if (ml_output_begin(report, &f, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", ml_output_path(report), err);
+    if (ml_report_write(f, rep, o->format) != ML_OK) {
+        ml_output_discard(report);
+        return ml_cli_error("%s: cannot write the report", ml_output_path(report));
     }
-    if (!ml_output_commit(&out, err, sizeof err))
-        return ml_cli_error("%s: %s", o->output_path, err);
+    if (ml_output_end(report, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", ml_output_path(report), err);
     return 0;
 }
 
-int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_measure_outputs *outs)
 {
     char err[512];
+    memset(outs, 0, sizeof *outs);
     int rc = ml_plots_check_paths(o->plot_path, o->report_path);
     if (rc != 0)
         return rc;
@@ -588,20 +601,40 @@ int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
         o->limits = limits;
     }
     /* nothing written may replace an input, and no two outputs may share a file */
-    const char *outs[4] = {o->output_path, o->live.save_path, o->plot_path, o->report_path};
-    const char *what[4] = {"the report", "the capture", "the plot", "the PDF report"};
-    const char *ins[3] = {o->live.enabled ? NULL : o->input, o->limits_path, o->carrier_reference};
-    for (int i = 0; i < 4; i++) {
-        if (outs[i] == NULL || strcmp(outs[i], "-") == 0)
-            continue;
-        for (int j = 0; j < 3; j++)
-            if (ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file with %s", outs[i], what[i]);
-        for (int j = 0; j < i; j++)
-            if (outs[j] && (strcmp(outs[i], outs[j]) == 0 || ml_same_file(outs[i], outs[j])))
-                return ml_cli_error("%s: %s and %s would be the same file", outs[i], what[j], what[i]);
+    ml_output_set *set = NULL;
+    if (ml_output_set_create(&set) != ML_OK)
+        return ml_cli_error("out of memory");
+    outs->set = set;
+    ml_output_set_input(set, o->live.enabled ? NULL : o->input, o->input2 ? "recording A" : "the recording");
+    ml_output_set_input(set, o->input2, "recording B");
+    ml_output_set_input(set, o->limits_path, "the limits profile");
+    ml_output_set_input(set, o->carrier_reference, "the carrier reference");
+    ml_output_set_add(set, o->output_path ? o->output_path : "-", "the report (--output)", ML_OUTPUT_STDOUT_OK,
+                      &outs->report);
+    ml_output_set_add(set, o->live.save_path, "the capture (--save)", 0, &outs->save);
+    ml_output_set_add(set, o->plot_path, "the pictures (--plot)", 0, &outs->plot);
+    ml_output_set_add(set, o->report_path, "the PDF record (--report)", 0, &outs->pdf);
+    const char *bad = "";
+    if (ml_output_set_check(set, &bad, err, sizeof err) != ML_OK) {
+        ml_measure_outputs_free(outs);
+        return ml_cli_error("%s: %s", bad, err);
     }
     return 0;
+}
+
+int ml_measure_commit(ml_measure_outputs *outs)
+{
+    char err[512];
+    const char *bad = "";
+    if (ml_output_set_commit(outs->set, &bad, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", bad, err);
+    return 0;
+}
+
+void ml_measure_outputs_free(ml_measure_outputs *outs)
+{
+    ml_output_set_destroy(outs->set);
+    memset(outs, 0, sizeof *outs);
 }
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
@@ -659,7 +692,8 @@ int ml_cmd_measure(int argc, char **argv)
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
     static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+    ml_measure_outputs outs;
+    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
         return rc;
 
     static ml_report rep;
@@ -669,11 +703,13 @@ int ml_cmd_measure(int argc, char **argv)
         o.plot = &pd;
     rc = ml_measure_analyse(&o, &rep);
     if (rc == 0)
-        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        rc = ml_plots_write_measure(outs.plot, outs.pdf, &rep, &pd, cmdline);
+    if (rc == 0)
+        rc = ml_measure_write(&o, &rep, outs.report);
+    if (rc == 0) /* all or nothing: published only when everything was written */
+        rc = ml_measure_commit(&outs);
+    ml_measure_outputs_free(&outs);
     ml_plot_data_free(&pd);
-    if (rc != 0)
-        return rc;
-    rc = ml_measure_write(&o, &rep);
     if (rc == 0)
         rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     return rc;

@@ -11,6 +11,7 @@
 #include "analyzer/limits.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
+#include "io/output.h"
 #include "io/plot.h"
 #include "io/report.h"
 #include "io/source.h"
@@ -81,13 +82,29 @@ void ml_measure_add(ml_report *r, const char *name, double value);
 /* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
 
-/* Checks the --plot/--report names, loads --limits, refuses outputs that name an input or each
- * other; 0 or an exit status (error printed). */
-int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits);
+/* The files a measure, live or compare run writes (io/output.h): registered and checked before
+ * any work by ml_measure_prepare, written into temporaries, published together by
+ * ml_measure_commit only when the run succeeded. A member is NULL when not asked for; report is
+ * standard output when there is no --output. */
+typedef struct {
+    ml_output_set *set;
+    ml_output *report, *plot, *pdf, *save;
+} ml_measure_outputs;
+
+/* Checks the --plot/--report names, loads --limits, registers the inputs (the recordings, the
+ * profile, the carrier reference) and every output, and refuses any output that cannot or must
+ * not be written; 0 or an exit status (error printed). On 0, outs holds the checked outputs:
+ * release them with ml_measure_outputs_free on every path. */
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_measure_outputs *outs);
+/* Publishes every output written so far (io/output.h); 0 or an exit status (error printed). */
+int ml_measure_commit(ml_measure_outputs *outs);
+/* Removes what was not published and frees the set (safe after a commit, and twice). */
+void ml_measure_outputs_free(ml_measure_outputs *outs);
 /* Resolves the kind, runs its pipeline on the open segment and applies the limits. */
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
-/* Writes the report to --output (or standard output) completely or not at all. */
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep);
+/* Writes the report into its output's temporary (published by ml_measure_commit); 0 or an exit
+ * status (error printed; the output is then discarded). */
+int ml_measure_write(const ml_measure_opts *o, const ml_report *rep, ml_output *report);
 /* live's --help (analyzer/live.c). */
 void ml_live_usage(FILE *f);
 /* Fills the report's input description. */

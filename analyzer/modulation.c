@@ -456,7 +456,12 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (rc_cfg.nfft == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
     if ((st = ml_spectrum_create(&rc_cfg, &rf)) != ML_OK || (st = ml_am_create(&ac_cfg, &am)) != ML_OK) {
-        rc = ml_cli_error("%s: cannot set up the analysis: %s", o->input, ml_strerror(st));
+        rc = st == ML_EINVAL /* the options were checked: what is left is the rate against the filter */
+                 ? ml_cli_error("%s: cannot set up the modulation analysis at %.0f Hz: a %.0f Hz channel filter with "
+                                "a %.0f Hz transition would be too long at this sample rate; resample the capture "
+                                "to a lower rate",
+                                o->input, rate, bw, transition)
+                 : ml_cli_error("%s: cannot set up the modulation analysis: %s", o->input, ml_strerror(st));
         goto done;
     }
     const int64_t env_frames = seg->nframes - 2 * (int64_t)ml_am_edge(am);

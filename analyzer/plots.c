@@ -11,7 +11,7 @@
 #include <time.h>
 
 #include "analyzer/cli.h"
-#include "analyzer/output.h"
+#include "io/output.h"
 
 #ifndef ML_VERSION
 #define ML_VERSION "0.0.0"
@@ -212,11 +212,12 @@ typedef struct {
     bool pdf_record;
 } job;
 
-static int write_one(const char *path, const job *j)
+static int write_one(ml_output *o, const job *j)
 {
     char err[512], when[64];
-    ml_output out;
-    if (!ml_output_open(&out, path, err, sizeof err))
+    const char *path = ml_output_path(o);
+    FILE *f = NULL;
+    if (ml_output_begin(o, &f, err, sizeof err) != ML_OK)
         return ml_cli_error("%s: %s", path, err);
     now_text(when, sizeof when);
     ml_plot_data empty;
@@ -226,39 +227,39 @@ static int write_one(const char *path, const job *j)
         cmd = whole_cmdline;
     ml_status st;
     if (j->pdf_record)
-        st = j->c ? ml_compare_write_pdf(out.f, j->c, j->p, j->b, cmd, when, ML_VERSION)
-                  : ml_report_write_pdf(out.f, j->r, j->p ? j->p : &empty, cmd, when, ML_VERSION);
+        st = j->c ? ml_compare_write_pdf(f, j->c, j->p, j->b, cmd, when, ML_VERSION)
+                  : ml_report_write_pdf(f, j->r, j->p ? j->p : &empty, cmd, when, ML_VERSION);
     else
-        st = j->c ? ml_plot_write_compare(out.f, path, j->c, j->p, j->b)
-                  : ml_plot_write(out.f, path, j->p ? j->p : &empty, j->r);
+        st = j->c ? ml_plot_write_compare(f, path, j->c, j->p, j->b)
+                  : ml_plot_write(f, path, j->p ? j->p : &empty, j->r);
     if (st != ML_OK) {
-        ml_output_abort(&out);
+        ml_output_discard(o);
         return ml_cli_error("%s: cannot draw the %s: %s", path, j->pdf_record ? "report" : "pictures",
                             ml_strerror(st));
     }
-    if (!ml_output_commit(&out, err, sizeof err))
+    if (ml_output_end(o, err, sizeof err) != ML_OK)
         return ml_cli_error("%s: %s", path, err);
     return 0;
 }
 
-int ml_plots_write_measure(const char *plot_path, const char *report_path, const ml_report *r,
-                           const ml_plot_data *p, const char *cmdline)
+int ml_plots_write_measure(ml_output *plot, ml_output *pdf, const ml_report *r, const ml_plot_data *p,
+                           const char *cmdline)
 {
     int rc = 0;
-    if (plot_path)
-        rc = write_one(plot_path, &(job){.r = r, .p = p, .cmdline = cmdline});
-    if (rc == 0 && report_path)
-        rc = write_one(report_path, &(job){.r = r, .p = p, .cmdline = cmdline, .pdf_record = true});
+    if (plot)
+        rc = write_one(plot, &(job){.r = r, .p = p, .cmdline = cmdline});
+    if (rc == 0 && pdf)
+        rc = write_one(pdf, &(job){.r = r, .p = p, .cmdline = cmdline, .pdf_record = true});
     return rc;
 }
 
-int ml_plots_write_compare(const char *plot_path, const char *report_path, const ml_comparison *c,
-                           const ml_plot_data *a, const ml_plot_data *b, const char *cmdline)
+int ml_plots_write_compare(ml_output *plot, ml_output *pdf, const ml_comparison *c, const ml_plot_data *a,
+                           const ml_plot_data *b, const char *cmdline)
 {
     int rc = 0;
-    if (plot_path)
-        rc = write_one(plot_path, &(job){.c = c, .p = a, .b = b, .cmdline = cmdline});
-    if (rc == 0 && report_path)
-        rc = write_one(report_path, &(job){.c = c, .p = a, .b = b, .cmdline = cmdline, .pdf_record = true});
+    if (plot)
+        rc = write_one(plot, &(job){.c = c, .p = a, .b = b, .cmdline = cmdline});
+    if (rc == 0 && pdf)
+        rc = write_one(pdf, &(job){.c = c, .p = a, .b = b, .cmdline = cmdline, .pdf_record = true});
     return rc;
 }

@@ -13,6 +13,7 @@
 #include "dsp/rf.h"
 #include "dsp/spectrum.h"
 #include "io/compare.h"
+#include "io/output.h"
 #include "io/plot.h"
 #include "io/report.h"
 
@@ -41,11 +42,13 @@ void ml_plots_cmdline(int argc, char **argv, char *buf, size_t len);
 /* Checks --plot / --report names (type by extension); 0 or an exit status (error printed). */
 int ml_plots_check_paths(const char *plot_path, const char *report_path);
 
-/* Writes the --plot and --report files of a measurement; 0 or an exit status. */
-int ml_plots_write_measure(const char *plot_path, const char *report_path, const ml_report *r,
-                           const ml_plot_data *p, const char *cmdline);
+/* Writes the --plot and --report files of a measurement into their outputs' temporaries
+ * (io/output.h; either may be NULL), published later by the caller's commit; 0 or an exit status
+ * (error printed, the failed output discarded). */
+int ml_plots_write_measure(ml_output *plot, ml_output *pdf, const ml_report *r, const ml_plot_data *p,
+                           const char *cmdline);
 /* The same for a comparison (a, b may be NULL: a side read from JSON has no spectrum). */
-int ml_plots_write_compare(const char *plot_path, const char *report_path, const ml_comparison *c,
-                           const ml_plot_data *a, const ml_plot_data *b, const char *cmdline);
+int ml_plots_write_compare(ml_output *plot, ml_output *pdf, const ml_comparison *c, const ml_plot_data *a,
+                           const ml_plot_data *b, const char *cmdline);
 
 #endif

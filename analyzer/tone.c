@@ -2,7 +2,8 @@
  * SPDX-License-Identifier: MIT
  *
  * The output goes to a temporary file beside --out and is renamed into place only when it is
- * complete, so a bad option, a write error or an interrupt never leaves a partial file.
+ * complete (io/output.h), so a bad option, a write error or an interrupt never leaves a partial
+ * file; an existing file is replaced only with --force.
  */
 #define _POSIX_C_SOURCE 200809L
 #include <getopt.h>
@@ -16,9 +17,9 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
-#include "analyzer/output.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
+#include "io/output.h"
 #include "io/sink.h"
 
 #define BLOCK_FRAMES 4096
@@ -30,7 +31,7 @@ typedef struct {
     ml_synth_config syn;
     bool freq_given, level_given, level2_given, two_tone, silence, carrier_given;
     bool depth_given, pos_given, neg_given, mod_given, overmod_given, iq_given, lead_given, cnr_given;
-    bool hum_level_given, hum_depth_given, seconds_given, allow_clip, play;
+    bool hum_level_given, hum_depth_given, seconds_given, allow_clip, play, force;
     double depth;
     double seconds;
     long rate_hz;
@@ -86,6 +87,7 @@ static void tone_usage(FILE *f)
             "  --seed N               noise seed, 0..2^63-1 (default 1); same seed, same file\n"
             "  --allow-clip           allow peaks above full scale (PCM clips, float keeps them)\n"
             "  --out FILE             output file; written via a temporary, then renamed\n"
+            "  --force                replace FILE when it exists (a regular file only)\n"
             "playback:\n"
             "  --play                 play the signal instead of writing a file (see 'modlens devices')\n"
             "  --device NAME|INDEX    output device (default: the default output); its rate must\n"
@@ -156,7 +158,7 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
 {
     enum { O_FREQ = 256, O_LEVEL, O_LEVEL2, O_HARM, O_TWO, O_STEP, O_SILENCE, O_CARRIER, O_DEPTH, O_MODF,
            O_POS, O_NEG, O_OVERMOD, O_IQ, O_LEAD, O_NOISE, O_CNR, O_HUM, O_HUML, O_HUMD, O_HUMH, O_SECONDS,
-           O_RATE, O_BITS, O_SEED, O_CLIP, O_OUT, O_PLAY, O_DEVICE };
+           O_RATE, O_BITS, O_SEED, O_CLIP, O_OUT, O_PLAY, O_DEVICE, O_FORCE };
     static const struct option longopts[] = {
         {"freq", required_argument, NULL, O_FREQ},         {"level", required_argument, NULL, O_LEVEL},
         {"level2", required_argument, NULL, O_LEVEL2},     {"harmonic", required_argument, NULL, O_HARM},
@@ -173,7 +175,7 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         {"seed", required_argument, NULL, O_SEED},         {"allow-clip", no_argument, NULL, O_CLIP},
         {"out", required_argument, NULL, O_OUT},           {"help", no_argument, NULL, 'h'},
         {"play", no_argument, NULL, O_PLAY},               {"device", required_argument, NULL, O_DEVICE},
-        {NULL, 0, NULL, 0},
+        {"force", no_argument, NULL, O_FORCE},             {NULL, 0, NULL, 0},
     };
     memset(o, 0, sizeof *o);
     o->rate_hz = 48000;
@@ -332,10 +334,11 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         case O_CLIP: o->allow_clip = true; break;
         case O_OUT: o->out = optarg; break;
         case O_PLAY: o->play = true; break;
+        case O_FORCE: o->force = true; break;
         case O_DEVICE: o->device = optarg; break;
         case 'h': tone_usage(stdout); return -1;
-        case ':': return ml_cli_error("%s needs a value (try 'modlens tone --help')", argv[optind - 1]);
-        default: return ml_cli_error("unknown option '%s' (try 'modlens tone --help')", argv[optind - 1]);
+        case ':': case '?': return ml_cli_bad_option(ch, argv, "tone");
+        default: return ml_cli_error("tone: unhandled option");
         }
     }
     if (optind < argc)
@@ -599,6 +602,8 @@ static int play_main(tone_opts *o)
     return rc;
 }
 
+static int tone_write(tone_opts *op, const ml_sink_config *scp, ml_output_set *set, ml_output *out);
+
 int ml_cmd_tone(int argc, char **argv)
 {
     tone_opts o;
@@ -612,6 +617,8 @@ int ml_cmd_tone(int argc, char **argv)
         return ml_cli_error("--play and --out exclude each other");
     if (!o.play && o.device)
         return ml_cli_error("--device needs --play");
+    if (o.play && o.force)
+        return ml_cli_error("--force applies to --out, not to --play");
     if (o.play)
         return play_main(&o);
     /* Output name and format first: nothing is generated for an unwritable request. */
@@ -626,6 +633,33 @@ int ml_cmd_tone(int argc, char **argv)
     char err[512];
     if (ml_sink_check(&sc, err, sizeof err) != ML_OK)
         return ml_cli_error("%s: %s", o.out, err);
+    ml_output_set *set = NULL;
+    ml_output *out = NULL;
+    const char *bad = "";
+    if (ml_output_set_create(&set) != ML_OK || ml_output_set_add(set, o.out, "the signal (--out)", 0, &out) != ML_OK) {
+        ml_output_set_destroy(set);
+        return ml_cli_error("out of memory");
+    }
+    if (ml_output_set_check(set, &bad, err, sizeof err) != ML_OK) {
+        ml_output_set_destroy(set);
+        return ml_cli_error("%s: %s", bad, err);
+    }
+    if (ml_output_exists(out) && !o.force) {
+        ml_output_set_destroy(set);
+        return ml_cli_error("%s: the file exists; give --force to replace it", o.out);
+    }
+    rc = tone_write(&o, &sc, set, out);
+    ml_output_set_destroy(set); /* removes the temporary unless it was published */
+    return rc;
+}
+
+/* Generates the signal into the checked output and publishes it; an exit status. */
+static int tone_write(tone_opts *op, const ml_sink_config *scp, ml_output_set *set, ml_output *out)
+{
+    tone_opts o = *op;
+    const ml_sink_config sc = *scp;
+    char err[512];
+    int rc;
 
     ml_synth_config *s = &o.syn;
     uint64_t nframes = (uint64_t)llround(o.seconds * (double)o.rate_hz);
@@ -643,15 +677,14 @@ int ml_cmd_tone(int argc, char **argv)
         return ml_cli_error("%s: %.0f s do not fit in a WAV file (4 GiB); use a .flac name or fewer "
                             "--seconds", o.out, (double)nframes / (double)o.rate_hz);
     }
-    ml_output out;
-    if (!ml_output_open(&out, o.out, err, sizeof err)) {
+    FILE *f = NULL;
+    if (ml_output_begin(out, &f, err, sizeof err) != ML_OK) {
         ml_synth_destroy(syn);
         return ml_cli_error("%s: %s", o.out, err);
     }
     ml_sink *sink = NULL;
-    ml_status st = ml_sink_open_fd(fileno(out.f), &sc, &sink, err, sizeof err);
+    ml_status st = ml_sink_open_fd(fileno(f), &sc, &sink, err, sizeof err);
     if (st != ML_OK) {
-        ml_output_abort(&out);
         ml_synth_destroy(syn);
         return ml_cli_error("%s: %s%s%s", o.out, ml_strerror(st), err[0] ? ": " : "", err);
     }
@@ -664,13 +697,14 @@ int ml_cmd_tone(int argc, char **argv)
         ml_cli_error("%s: %s: %s", o.out, ml_strerror(st), err);
         rc = ML_EXIT_FAIL;
     }
-    if (rc == ML_EXIT_OK) {
-        if (!ml_output_commit(&out, err, sizeof err)) { /* removes the temporary itself */
-            ml_cli_error("%s: %s", o.out, err);
-            rc = ML_EXIT_FAIL;
-        }
-    } else {
-        ml_output_abort(&out);
+    if (rc == ML_EXIT_OK && ml_output_end(out, err, sizeof err) != ML_OK) {
+        ml_cli_error("%s: %s", o.out, err);
+        rc = ML_EXIT_FAIL;
+    }
+    const char *bad = "";
+    if (rc == ML_EXIT_OK && ml_output_set_commit(set, &bad, err, sizeof err) != ML_OK) {
+        ml_cli_error("%s: %s", bad, err);
+        rc = ML_EXIT_FAIL;
     }
     sigaction(SIGINT, &old_int, NULL);
     sigaction(SIGTERM, &old_term, NULL);

@@ -23,6 +23,7 @@
 #include "analyzer/registry.h"
 #include "dsp/peakhold.h"
 #include "io/audio.h"
+#include "io/printable.h"
 
 #define UPDATE_S 0.1          /* analysis and display period                                 */
 #define DEFAULT_WINDOW_S 1.0
@@ -200,7 +201,10 @@ int ml_cmd_watch(int argc, char **argv)
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
                             "--carrier-reference, --reference-channel, --start or --duration (see 'modlens live')");
     static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+    ml_measure_outputs outs; /* watch writes no file: only the checks and the profile */
+    rc = ml_measure_prepare(&o, &limits, &outs);
+    ml_measure_outputs_free(&outs);
+    if (rc != 0)
         return rc;
     long nch = o.live.channels;
     if (nch == 0)
@@ -278,7 +282,7 @@ int ml_cmd_watch(int argc, char **argv)
     ml_source_live_stats(seg.src, &ls);
     v.kind = mc.kind;
     v.kind_name = kind == ML_KIND_IQ ? "iq" : kind == ML_KIND_IF ? "if" : "audio";
-    snprintf(v.device, sizeof v.device, "%s", ls.device_name);
+    ml_printable(v.device, sizeof v.device, ls.device_name);
     v.rate_hz = rate;
     v.window_s = (double)ml_monitor_window_frames(mon) / rate;
     v.pos_hold_pct = v.neg_hold_pct = NAN;

@@ -61,8 +61,11 @@ typedef struct {
     double head_s;            /* seconds kept after the latest forward seek so that a reader
                                  may seek back into them (default 5)                          */
     double stall_s;           /* no frames for this long means the device is gone (default 2) */
-    const char *save_path;    /* NULL, or a WAV file receiving every captured frame as it is
-                                 read (32-bit float; complete after each write)               */
+    int save_fd;              /* -1 (the default): none; else an open, seekable descriptor of
+                                 a new file that receives every captured frame as it is read
+                                 as WAV (32-bit float; complete after each write). The caller
+                                 owns it (io/output.h gives one) and closes it after
+                                 ml_source_close, which completes the file                   */
     /* Playback on the same full-duplex stream (frame k played and frame k captured belong to the
        same callback, so their difference is the round trip). */
     ml_audio_fill_fn fill;       /* the signal to play; NULL: capture only                    */
@@ -77,7 +80,7 @@ ml_live_config ml_live_config_default(void);
  * device and host API, reads block until the frames asked for have arrived. ml_source_read
  * returns *got < nframes at the planned end, after ml_source_stop, or after a device fault; a
  * fault also returns ML_EIO with the reason in ml_source_detail (frames read before it stay
- * valid). Seeking forward discards frames (they still go to save_path); seeking back is allowed
+ * valid). Seeking forward discards frames (they still go to save_fd); seeking back is allowed
  * into the head_s seconds kept after the latest forward seek, else ML_EINVAL.
  * Errors: ML_EDEVICE (no audio system, no such device, channel count or rate refused), ML_EIO
  * (save file), ML_ENOMEM, ML_EINVAL; the reason goes to detail[detail_len]. Allocates. */

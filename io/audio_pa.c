@@ -484,6 +484,7 @@ ml_live_config ml_live_config_default(void)
     c.frames = -1;
     c.head_s = 5.0;
     c.stall_s = 2.0;
+    c.save_fd = -1;
     return c;
 }
 
@@ -567,10 +568,10 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
     snprintf(q->names.device_name, sizeof q->names.device_name, "%s", di->name);
     snprintf(q->names.host_api, sizeof q->names.host_api, "%s", h ? h->name : "?");
     snprintf(s->info.format, sizeof s->info.format, "live capture, %.40s", h ? h->name : "?");
-    if (cfg->save_path) {
+    if (cfg->save_fd >= 0) {
         ml_sink_config sc = ml_sink_config_default((int)lround(rate), cfg->channels);
         sc.encoding = ML_SINK_FLOAT;
-        if ((st = ml_sink_open_file(cfg->save_path, &sc, &q->save, detail, detail_len)) != ML_OK)
+        if ((st = ml_sink_open_fd(cfg->save_fd, &sc, &q->save, detail, detail_len)) != ML_OK)
             goto fail;
         ml_sink_set_durable(q->save);
     }

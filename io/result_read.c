@@ -88,12 +88,20 @@ static bool join(char *out, const char *prefix, const char *key)
     return n > 0 && n < ML_RESULT_NAME_MAX;
 }
 
+/* A number within +-ML_RESULT_MAX_MAGNITUDE (a 2^63 or 1e300 "count" is not one). */
 static bool finite_number(const json_t *v, double *x)
 {
     if (!json_is_number(v))
         return false;
     *x = json_number_value(v);
-    return isfinite(*x);
+    return isfinite(*x) && fabs(*x) <= ML_RESULT_MAX_MAGNITUDE;
+}
+
+/* A whole number lo..hi (as JSON integer or real: 3.0 is 3), for fields read into integers. */
+static bool whole_number(const json_t *v, double lo, double hi)
+{
+    double x;
+    return finite_number(v, &x) && x == floor(x) && x >= lo && x <= hi;
 }
 
 /* a table: an array of objects whose members are numbers or null */
@@ -109,7 +117,7 @@ static ml_status check_table(ctx *c, const char *name, const json_t *arr)
         double x;
         json_object_foreach((json_t *)row, k, v) {
             if (!json_is_null(v) && !finite_number(v, &x))
-                return fail(c, "'%s' row %zu: '%.40s' is not a number or null", name, i + 1, k);
+                return fail(c, "'%s' row %zu: '%.40s' is not a number within +-1e15 or null", name, i + 1, k);
         }
     }
     return ML_OK;
@@ -131,7 +139,9 @@ static ml_status walk_group(ctx *c, const char *prefix, const json_t *obj, int d
             ++*metrics;
         } else if (json_is_number(v)) {
             if (!finite_number(v, &x))
-                return fail(c, "'%s' is not a finite number", name);
+                return fail(c, "'%s' is not a finite number within +-1e15", name);
+            if (strcmp(name, "uncertainty_method.blocks") == 0 && !whole_number(v, 0, ML_RESULT_MAX_MAGNITUDE))
+                return fail(c, "'%s' is not a whole number >= 0", name);
             st = add(c, name, ML_RESULT_NUMBER, x, NULL);
             ++*metrics;
         } else if (json_is_string(v)) {
@@ -162,12 +172,15 @@ static ml_status walk_input(ctx *c, const json_t *in)
     const char *ks = json_string_value(kind);
     if (ks == NULL || (strcmp(ks, "audio") != 0 && strcmp(ks, "if") != 0 && strcmp(ks, "iq") != 0))
         return fail(c, "input.kind is not audio, if or iq");
-    if (!finite_number(rate, &x) || !(x > 0))
-        return fail(c, "input.sample_rate_hz is not a rate in Hz > 0");
-    if (!json_is_integer(ch) || json_integer_value(ch) < 1)
-        return fail(c, "input.channels is not an integer >= 1");
-    if (!json_is_integer(fr) || json_integer_value(fr) < 0)
-        return fail(c, "input.frames is not an integer >= 0");
+    const json_t *one = json_object_get(in, "channel");
+    if (!finite_number(rate, &x) || !(x > 0) || x > 2147483647.0)
+        return fail(c, "input.sample_rate_hz is not a rate in Hz, 0 < rate <= 2147483647");
+    if (!json_is_integer(ch) || !whole_number(ch, 1, 65535))
+        return fail(c, "input.channels is not an integer 1..65535");
+    if (!json_is_integer(fr) || !whole_number(fr, 0, ML_RESULT_MAX_MAGNITUDE))
+        return fail(c, "input.frames is not an integer 0..1e15");
+    if (one != NULL && !whole_number(one, 1, (double)json_integer_value(ch)))
+        return fail(c, "input.channel is not a channel number 1..input.channels");
     const char *k;
     const json_t *v;
     json_object_foreach((json_t *)in, k, v) {
@@ -182,7 +195,7 @@ static ml_status walk_input(ctx *c, const json_t *in)
         else if (json_is_null(v))
             st = add(c, name, ML_RESULT_NULL, 0, NULL);
         else
-            return fail(c, "'%s' is not a number, text or null", name);
+            return fail(c, "'%s' is not a number within +-1e15, text or null", name);
         if (st != ML_OK)
             return st;
     }

@@ -11,11 +11,16 @@
  * validated but not listed; "verdict" goes to ml_result.verdict.
  *
  * Validation is strict: the text must be one JSON object without duplicate keys; "input" must be
- * an object with a string "path", a "kind" of audio, if or iq, a finite "sample_rate_hz" > 0 and
- * integer "channels" >= 1 and "frames" >= 0; every other member except the listed ones must be an
+ * an object with a string "path", a "kind" of audio, if or iq, a "sample_rate_hz" in
+ * 0 < x <= 2147483647, integer "channels" 1..65535 and "frames" 0..1e15, and when present a
+ * whole "channel" 1..channels; every other member except the listed ones must be an
  * object (a metric group) whose members are numbers, null, strings, arrays of objects of numbers
- * and null, or such objects nested once more; names are at most ML_RESULT_NAME_MAX - 1 bytes
- * when dotted; "verdict", when present, is "pass", "fail" or "unchecked"; at least one metric.
+ * and null, or such objects nested once more; every number anywhere is finite and within
+ * +-ML_RESULT_MAX_MAGNITUDE (so that it converts to any count or frame position without
+ * overflow); "uncertainty_method.blocks", when present, is a whole number >= 0; names are at
+ * most ML_RESULT_NAME_MAX - 1 bytes when dotted; "verdict", when present, is "pass", "fail" or
+ * "unchecked"; at least one metric. Which names must be numbers (the metric registry) is the
+ * caller's check (analyzer/saved.h).
  * Anything else is ML_EFORMAT with a one-line reason in err (with line and column for JSON syntax).
  */
 #ifndef ML_IO_RESULT_READ_H
@@ -30,6 +35,7 @@
 #define ML_RESULT_TEXT_MAX 1024
 #define ML_RESULT_MAX_ITEMS 512
 #define ML_RESULT_MAX_BYTES ((size_t)16 << 20) /* larger files are refused */
+#define ML_RESULT_MAX_MAGNITUDE 1e15           /* |number| bound: exact in a double      */
 
 typedef enum { ML_RESULT_NUMBER, ML_RESULT_NULL, ML_RESULT_TEXT } ml_result_type;
 

@@ -1,21 +1,34 @@
 /* Audio-file input through libsndfile.
  * SPDX-License-Identifier: MIT
  *
- * References: libsndfile API documentation (sf_open, sf_readf_float normalisation to +-1.0,
+ * References: libsndfile API documentation (sf_open_fd, sf_readf_float normalisation to +-1.0,
  * SFC_SET_SCALE_FLOAT_INT_READ, sf_seek).
+ *
+ * The file is opened here and handed to libsndfile by descriptor: sf_open refuses paths of 1024
+ * bytes or more ("Supplied filename too long"), and the checks (a regular file, not empty) are
+ * made on the descriptor that is then read, so nothing can swap the file in between.
  */
+#define _POSIX_C_SOURCE 200809L
 #include <errno.h>
+#include <fcntl.h>
+#include <stdbool.h>
 #include <sndfile.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "io/internal.h"
 
+typedef struct {
+    SNDFILE *sf;
+    int fd; /* ours: libsndfile is told not to close it */
+} file_impl;
+
 static ml_status file_read(ml_source *s, float *buf, size_t nframes, size_t *got)
 {
-    SNDFILE *sf = s->impl;
+    SNDFILE *sf = ((file_impl *)s->impl)->sf;
     sf_count_t n = sf_readf_float(sf, buf, (sf_count_t)nframes);
     if (n < 0 || (n < (sf_count_t)nframes && sf_error(sf) != SF_ERR_NO_ERROR)) {
         snprintf(s->detail, sizeof s->detail, "%s", sf_strerror(sf));
@@ -29,8 +42,9 @@ static ml_status file_seek(ml_source *s, int64_t frame)
 {
     if (s->info.frames >= 0 && frame > s->info.frames)
         return ML_EINVAL;
-    if (sf_seek(s->impl, (sf_count_t)frame, SEEK_SET) < 0) {
-        snprintf(s->detail, sizeof s->detail, "%s", sf_strerror(s->impl));
+    SNDFILE *sf = ((file_impl *)s->impl)->sf;
+    if (sf_seek(sf, (sf_count_t)frame, SEEK_SET) < 0) {
+        snprintf(s->detail, sizeof s->detail, "%s", sf_strerror(sf));
         return ML_EINVAL;
     }
     return ML_OK;
@@ -38,8 +52,12 @@ static ml_status file_seek(ml_source *s, int64_t frame)
 
 static void file_close(ml_source *s)
 {
-    if (s->impl)
-        sf_close(s->impl);
+    file_impl *f = s->impl;
+    if (f == NULL)
+        return;
+    sf_close(f->sf);
+    close(f->fd);
+    free(f);
 }
 
 static const ml_source_ops file_ops = {file_read, file_seek, NULL, file_close};
@@ -78,6 +96,28 @@ static void describe(const SF_INFO *fi, ml_source_info *info)
         snprintf(info->format, sizeof info->format, "%s %d-bit %s", major, bits, sub);
 }
 
+/* A header without a sample count (libsndfile then reports SF_COUNT_MAX frames, e.g. a FLAC
+ * stream whose STREAMINFO says 0 samples): the frames are counted by reading them once, in
+ * blocks of at most 64 Ki samples, and the file is rewound. False when that fails. */
+static bool count_frames(SNDFILE *sf, SF_INFO *fi)
+{
+    const sf_count_t block = fi->channels < 65536 ? 65536 / fi->channels : 1;
+    float *buf = malloc((size_t)block * (size_t)fi->channels * sizeof *buf);
+    if (buf == NULL)
+        return false;
+    sf_count_t total = 0, n;
+    while ((n = sf_readf_float(sf, buf, block)) > 0 && total <= ((sf_count_t)1 << 53))
+        total += n;
+    free(buf);
+    if (n < 0 || total > ((sf_count_t)1 << 53))
+        return false;
+    /* nothing to rewind when nothing was there (a header-only stream cannot seek at all) */
+    if (total > 0 && (sf_error(sf) != SF_ERR_NO_ERROR || sf_seek(sf, 0, SEEK_SET) != 0))
+        return false;
+    fi->frames = total;
+    return true;
+}
+
 ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, size_t detail_len)
 {
     *out = NULL;
@@ -85,55 +125,72 @@ ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, s
         detail[0] = '\0';
     if (path == NULL)
         return ML_EINVAL;
-    struct stat stb;
-    if (stat(path, &stb) != 0) {
+    /* O_NONBLOCK: opening a FIFO must not wait for a writer (it is refused just below) */
+    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
+    if (fd < 0) {
         if (detail)
             snprintf(detail, detail_len, "%s", strerror(errno));
         return ML_EIO;
     }
-    if (S_ISDIR(stb.st_mode)) {
-        if (detail)
-            snprintf(detail, detail_len, "is a directory");
-        return ML_EIO;
+    struct stat stb;
+    const char *problem = NULL;
+    ml_status bad = ML_EIO;
+    if (fstat(fd, &stb) != 0)
+        problem = strerror(errno);
+    else if (S_ISDIR(stb.st_mode))
+        problem = "is a directory";
+    else if (!S_ISREG(stb.st_mode))
+        problem = "not a regular file";
+    else if (stb.st_size == 0) {
+        problem = "the file is empty";
+        bad = ML_EFORMAT;
+    } else {
+        const int fl = fcntl(fd, F_GETFL);
+        if (fl < 0 || fcntl(fd, F_SETFL, fl & ~O_NONBLOCK) != 0)
+            problem = strerror(errno);
     }
-    if (!S_ISREG(stb.st_mode)) {
+    if (problem != NULL) {
         if (detail)
-            snprintf(detail, detail_len, "not a regular file");
-        return ML_EIO;
-    }
-    if (stb.st_size == 0) {
-        if (detail)
-            snprintf(detail, detail_len, "the file is empty");
-        return ML_EFORMAT;
+            snprintf(detail, detail_len, "%s", problem);
+        close(fd);
+        return bad;
     }
     SF_INFO fi;
     memset(&fi, 0, sizeof fi);
-    SNDFILE *sf = sf_open(path, SFM_READ, &fi);
+    SNDFILE *sf = sf_open_fd(fd, SFM_READ, &fi, SF_FALSE);
     if (sf == NULL) {
-        FILE *f = fopen(path, "rb");
-        if (f == NULL) {
-            if (detail)
-                snprintf(detail, detail_len, "%s", strerror(errno));
-            return ML_EIO;
-        }
-        fclose(f);
         if (detail)
             snprintf(detail, detail_len, "%s", sf_strerror(NULL));
+        close(fd);
         return ML_EFORMAT;
     }
     if (fi.channels < 1 || fi.samplerate < 1 || fi.frames < 0) {
         sf_close(sf);
+        close(fd);
         if (detail)
             snprintf(detail, detail_len, "header gives %d channels at %d Hz", fi.channels, fi.samplerate);
         return ML_EFORMAT;
     }
-    ml_source *s = calloc(1, sizeof *s);
-    if (s == NULL) {
+    if (fi.frames > ((sf_count_t)1 << 53) && !count_frames(sf, &fi)) {
         sf_close(sf);
+        close(fd);
+        if (detail)
+            snprintf(detail, detail_len, "the header gives no length and the frames cannot be counted");
+        return ML_EFORMAT;
+    }
+    file_impl *impl = malloc(sizeof *impl);
+    ml_source *s = calloc(1, sizeof *s);
+    if (s == NULL || impl == NULL) {
+        free(s);
+        free(impl);
+        sf_close(sf);
+        close(fd);
         return ML_ENOMEM;
     }
+    impl->sf = sf;
+    impl->fd = fd;
     s->ops = &file_ops;
-    s->impl = sf;
+    s->impl = impl;
     s->info.rate_hz = fi.samplerate;
     s->info.channels = fi.channels;
     s->info.frames = fi.frames;

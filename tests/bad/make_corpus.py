@@ -134,6 +134,59 @@ def main():
     for name, text in lim.items():
         with open(p(name), "w") as f:
             f.write(text)
+    # lines past inih's old 199-byte limit: the tail of the comment must stay a comment (it names
+    # a check good.wav would fail), and a 30-point mask is one line
+    lim_more = {
+        "lim-long-comment.ini": "; " + "x" * 197 + " snr_db_min = 500\n[audio]\nthd_pct_max = 5\n",
+        "lim-long-mask.ini": "[mask]\npoints = " + ", ".join("%d:10" % (500 * i) for i in range(30)) + "\n",
+        "lim-mask-repeated.ini": "[mask]\npoints = 1000:0, 2000:-10\npoints = 1000:0\n",
+        "lim-rbw-repeated.ini": "[mask]\npoints = 1000:0, 2000:-10\nrbw_hz = 300\nrbw_hz = 100\n",
+        "lim-profile-repeated.ini": "[profile]\nname = a\nname = b\n[audio]\nthd_pct_max = 5\n",
+        "lim-limit-1e300.ini": "thd_pct_max = 1e300\n",
+        "lim-mask-offset-huge.ini": "[mask]\npoints = 0:0, 1e300:-25\n",
+        "lim-name-long.ini": "[profile]\nname = " + "n" * 200 + "\n[audio]\nthd_pct_max = 5\n",
+        "lim-control-bytes.ini": "thd\x1b]0;x\x07_max = 1\n",
+    }
+    for name, text in lim_more.items():
+        with open(p(name), "w") as f:
+            f.write(text)
+    raw("lim-bom-crlf.ini", b"\xef\xbb\xbf[audio]\r\nthd_pct_max = 5 ; inline comment\r\n")
+
+    # saved JSON reports for compare: one valid, and numbers that would overflow or mislead
+    import json
+    base = {"input": {"path": "x.wav", "kind": "audio", "kind_reason": "--kind audio", "format": "WAV 16-bit PCM",
+                      "sample_rate_hz": 8000.0, "channels": 1, "channel": 1, "frames": 8000, "duration_s": 1.0,
+                      "start_s": 0.0, "analysed_s": 1.0},
+            "audio": {"thd_pct": 0.01, "thd_db": -80.0, "clipped_samples": 0}, "verdict": "unchecked"}
+
+    def report(name, change=None, text=None):
+        r = json.loads(json.dumps(base))
+        if change:
+            change(r)
+        with open(p(name), "w") as f:
+            f.write(text if text is not None else json.dumps(r, indent=2))
+
+    report("rep-good.json")
+    report("rep-text-thd.json", lambda r: r["audio"].__setitem__("thd_pct", "0.01"))
+    report("rep-count-1e300.json", lambda r: r["audio"].__setitem__("clipped_samples", 1e300))
+    report("rep-neg-count.json", lambda r: r["audio"].__setitem__("clipped_samples", -3))
+    report("rep-channels-huge.json", lambda r: r["input"].__setitem__("channels", 2 ** 62))
+    report("rep-frames-2p63.json", text=json.dumps(base).replace('"frames": 8000', '"frames": 9223372036854775807'))
+    # a FLAC file with a header and no frames; a rate so high that 20..20000 Hz is under one bin
+    # FLAC format: "fLaC", then the last metadata block (flag 0x80, type 0 STREAMINFO, 34 bytes):
+    # block sizes 4096, frame sizes unknown (0), 8000 Hz, 1 channel, 16 bits, 0 samples, no MD5
+    info = struct.pack(">HH", 4096, 4096) + bytes(6) + struct.pack(">Q", (FS << 44) | (0 << 41) | (15 << 36))
+    raw("header-only.flac", b"fLaC" + bytes([0x80, 0, 0, 34]) + info + bytes(16))
+    # a FLAC stream with frames whose STREAMINFO gives 0 samples (written without going back):
+    # libsndfile reports an unknown length; the frames are counted instead
+    sf.write(p("flac-no-length.flac"), tone(1.0), FS, subtype="PCM_16", format="FLAC")
+    with open(p("flac-no-length.flac"), "r+b") as f:
+        f.seek(8 + 10)  # STREAMINFO's last 8 bytes before the MD5: rate, channels, bits, 36-bit total
+        q = struct.unpack(">Q", f.read(8))[0] & ~((1 << 36) - 1)
+        f.seek(8 + 10)
+        f.write(struct.pack(">Q", q))
+    raw("hirate.wav", wav_header(1, 2147483647, 16, 4000) + (np.round(0.5 * np.sin(0.1 * np.arange(4000)) * 32767)
+                                                                .astype("<i2").tobytes()))
     raw("lim-binary.ini", bytes(np.random.default_rng(9).integers(0, 256, 512, dtype=np.uint8)))
     with open(p("lim-good.ini"), "w") as f:
         f.write("[audio]\nthd_pct_max = 1\n")

@@ -1,6 +1,10 @@
 #!/usr/bin/python3
 """Runs the bad-input corpus (cases.txt over files/) against the modlens executable.
 
+Arguments run as `modlens measure ARGS`, or `modlens compare ...` / `modlens tone ...` when the
+first word is that command (error outcomes only). Besides the regular files' contents, the kind
+of every entry of the scratch folder (file, FIFO, device, link and its target) must not change.
+
 Usage: /usr/bin/python3 tests/bad/run_corpus.py /path/to/modlens
 
 Each case prints one PASS/FAIL line; the script exits 1 when any failed. A crash (a signal), a
@@ -14,6 +18,7 @@ import os
 import re
 import shlex
 import shutil
+import stat
 import subprocess
 import sys
 import tempfile
@@ -44,9 +49,11 @@ def digest_tree(d):
     h = {}
     for name in sorted(os.listdir(d)):
         p = os.path.join(d, name)
+        st = os.lstat(p)
+        h[name] = (stat.S_IFMT(st.st_mode), os.readlink(p) if os.path.islink(p) else None)
         if os.path.isfile(p) and not os.path.islink(p) and os.access(p, os.R_OK) and name != "unreadable.wav":
             with open(p, "rb") as f:
-                h[name] = hashlib.sha256(f.read()).hexdigest()
+                h[name] += (hashlib.sha256(f.read()).hexdigest(),)
     return h
 
 
@@ -77,6 +84,15 @@ def main():
                 os.chmod(os.path.join(root, fn), 0o644)
         os.mkfifo(os.path.join(work, "fifo.wav"))
         os.mkdir(os.path.join(work, "adir.wav"))
+        # links: to an input, to nothing, and to a device node (made here when allowed, else the
+        # system's null device, which an unprivileged process cannot replace anyway)
+        os.symlink("good.wav", os.path.join(work, "link-good.wav"))
+        os.symlink("nowhere.json", os.path.join(work, "dangling.json"))
+        os.symlink("nowhere.wav", os.path.join(work, "dangling.wav"))
+        try:
+            os.mknod(os.path.join(work, "node.dev"), 0o666 | stat.S_IFCHR, os.makedev(1, 3))
+        except OSError:
+            os.symlink("/dev/null", os.path.join(work, "node.dev"))
         shutil.copy(os.path.join(work, "good.wav"), os.path.join(work, "unreadable.wav"))
         os.chmod(os.path.join(work, "unreadable.wav"), 0)
         out = os.path.join(work, "out")
@@ -92,8 +108,9 @@ def main():
         def run(args):
             drop = as_root and "unreadable.wav" in args
             pre = (lambda: (os.setgid(NOBODY), os.setuid(NOBODY))) if drop else None
+            cmd = ["measure"] + args if args[:1] not in (["compare"], ["tone"]) else args
             try:
-                p = subprocess.run(wrap + [exe_nobody if drop else exe, "measure"] + args, cwd=work, capture_output=True,
+                p = subprocess.run(wrap + [exe_nobody if drop else exe] + cmd, cwd=work, capture_output=True,
                                    timeout=TIMEOUT_S, preexec_fn=pre)
             except subprocess.TimeoutExpired:
                 return None, "", "timeout"
@@ -103,7 +120,9 @@ def main():
             before = digest_tree(work)
             problems = []
             if kind == "error":
-                full = args if "--output" in args else ["--output", "out/report.json"] + args
+                full = args if "--output" in args or args[:1] == ["tone"] else \
+                    (args[:1] + ["--output", "out/report.json"] + args[1:] if args[:1] == ["compare"]
+                     else ["--output", "out/report.json"] + args)
                 rc, so, se = run(full)
                 lines = se.splitlines()
                 if rc != 2:
@@ -117,6 +136,8 @@ def main():
                 if os.listdir(out) or os.path.exists(os.path.join(work, "nofolder")):
                     problems.append("something was written: %r" % os.listdir(out))
             else:
+                if args[:1] in (["compare"], ["tone"]):
+                    sys.exit("cases.txt: %s: only error outcomes for compare and tone" % name)
                 want = 0 if kind == "report" else 1
                 rc, so, se = run(["--format", "json", "--output", "out/report.json"] + args)
                 text = ""
@@ -141,7 +162,8 @@ def main():
                 problems.append("an input file changed")
             count += 1
             ok = not problems
-            print("%s %s: modlens measure %s%s" % ("PASS" if ok else "FAIL", name, " ".join(args),
+            print("%s %s: modlens %s%s" % ("PASS" if ok else "FAIL", name,
+                                           " ".join(args if args[:1] in (["compare"], ["tone"]) else ["measure"] + args),
                                                   "" if ok else " -- " + "; ".join(problems)), flush=True)
             if not ok:
                 failed.append(name)

@@ -47,6 +47,19 @@ def main():
                          and needle in p.stderr, p.stderr.strip())
                 ck.check(f"{what}: no output, no --save file", p.stdout == "" and not os.path.exists("never.wav"))
 
+            # the analysis fails after frames arrived: --save keeps the capture (published under its
+            # name), while the report and the picture are not written; no temporary is left behind
+            p = srv.run([exe, "live", "--device", "feed", "--kind", "if", "--carrier", "20000", "--seconds", "2",
+                         "--save", "kept.wav", "--plot", "kept.png", "--output", "kept.json"])
+            ck.check("analysis fails after capture: exit 2, one line, no report", p.returncode == 2
+                     and one_line(p.stderr) and p.stdout == "" and not os.path.exists("kept.json")
+                     and not os.path.exists("kept.png"), p.stderr.strip())
+            kept = sf.info("kept.wav") if os.path.exists("kept.wav") else None
+            ck.check("analysis fails after capture: --save kept, a valid WAV", kept is not None and kept.frames > 0,
+                     str(kept))
+            ck.check("no temporaries left", not [f for f in os.listdir(".") if f.startswith(("kept.", "never."))
+                                                 and f not in ("kept.wav",)], str(sorted(os.listdir("."))))
+
             # Ctrl-C after about 2 s of a 10 s capture: the part captured is analysed
             live = srv.popen([exe, "live", "--device", "feed", "--kind", "iq", "--seconds", "10", "--format", "json",
                               "--save", "int.wav"])

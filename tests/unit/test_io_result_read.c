@@ -97,6 +97,46 @@ START_TEST(rejects_malformed_reports)
 }
 END_TEST
 
+/* Numbers that would overflow a conversion later (frame counts and positions are int64_t,
+ * channels int, block counts size_t): refused with a reason naming the key. 2^63 - 1 is the
+ * largest JSON integer jansson accepts; as a double it rounds to 2^63, which no int64_t holds. */
+START_TEST(rejects_numbers_out_of_range)
+{
+#define IN(ch, fr) "\"input\": {\"path\": \"x\", \"kind\": \"audio\", \"sample_rate_hz\": 48000, " \
+                   "\"channels\": " ch ", \"frames\": " fr
+    static const struct {
+        const char *text, *key;
+    } bad[] = {
+        {"{" IN("1", "9223372036854775807") "}, \"audio\": {\"thd_pct\": 1}}", "input.frames"},
+        {"{" IN("4611686018427387904", "1") "}, \"audio\": {\"thd_pct\": 1}}", "input.channels"},
+        {"{" IN("2", "1") ", \"channel\": 3}, \"audio\": {\"thd_pct\": 1}}", "input.channel"},
+        {"{" IN("2", "1") ", \"channel\": 1.5}, \"audio\": {\"thd_pct\": 1}}", "input.channel"},
+        {"{" IN("1", "1") ", \"duration_s\": 1e300}, \"audio\": {\"thd_pct\": 1}}", "input.duration_s"},
+        {"{" IN("1", "1") "}, \"audio\": {\"clipped_samples\": 1e300}}", "audio.clipped_samples"},
+        {"{" IN("1", "1") "}, \"audio\": {\"thd_pct\": -2e15}}", "audio.thd_pct"},
+        {"{" IN("1", "1") "}, \"audio\": {\"thd_pct\": 1}, \"uncertainty_method\": {\"blocks\": -1}}",
+         "uncertainty_method.blocks"},
+        {"{" IN("1", "1") "}, \"audio\": {\"thd_pct\": 1}, \"uncertainty_method\": {\"blocks\": 2.5}}",
+         "uncertainty_method.blocks"},
+        {"{" IN("1", "1") "}, \"audio\": {\"harmonics\": [{\"order\": 1e300}]}}", "audio.harmonics"},
+    };
+#undef IN
+    for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        ml_result *r = NULL;
+        char err[256] = "";
+        ml_status st = ml_result_parse(bad[i].text, strlen(bad[i].text), &r, err, sizeof err);
+        ck_assert_msg(st == ML_EFORMAT, "case %zu accepted: %s", i, bad[i].text);
+        ck_assert_msg(strstr(err, bad[i].key) != NULL, "case %zu: '%s' does not name %s", i, err, bad[i].key);
+    }
+    /* the bounds themselves are accepted */
+    static const char edge[] = "{" INPUT ", \"audio\": {\"clipped_samples\": 1e15, \"thd_pct\": -1e15}, "
+                               "\"uncertainty_method\": {\"blocks\": 3}}";
+    ml_result *r = parse_ok(edge);
+    ck_assert_double_eq(ml_result_find(r, "audio.clipped_samples")->value, 1e15);
+    ml_result_destroy(r);
+}
+END_TEST
+
 START_TEST(file_errors)
 {
     ml_result *r = NULL;
@@ -116,6 +156,7 @@ int main(void)
     TCase *tc = tcase_create("parse");
     tcase_add_test(tc, flattens_metrics_texts_and_input);
     tcase_add_test(tc, rejects_malformed_reports);
+    tcase_add_test(tc, rejects_numbers_out_of_range);
     tcase_add_test(tc, file_errors);
     suite_add_tcase(s, tc);
     return ml_check_run(s);
