@@ -3,7 +3,7 @@
 DEVELOPERS.md ("The manual page and the completion read --help") allows, including a command
 the real program does not have. The tests of the manual page generator and of the bash completion
 run it to check their rules on a fixed text. FAKE_MODLENS_LOG names a file that gets one line per
-call; FAKE_MODLENS_BROKEN=1 makes every call fail."""
+call; FAKE_MODLENS_BROKEN=1 makes every call fail; FAKE_MODLENS_ODD=1 drops gamma's usage line."""
 import os
 import sys
 
@@ -46,7 +46,7 @@ input:
 output:
   --out=FILE               where the report goes
   --dir DIR                a folder
-  --level DBFS             a level, default -12
+  --level DBFS             a level, default -12 ± 0.5
 
 Exit status: 0 fine, 1 not fine, 2 usage error.
 
@@ -100,7 +100,10 @@ def main(argv):
         sys.stdout.write(MAIN)
         return 0
     if len(args) == 2 and args[1] == "--help" and args[0] in HELP:
-        sys.stdout.write(HELP[args[0]])
+        text = HELP[args[0]]
+        if args[0] == "gamma" and os.environ.get("FAKE_MODLENS_ODD") == "1":
+            text = text.split("\n", 2)[2]
+        sys.stdout.write(text)
         return 0
     sys.stderr.write("modlens: this stand-in only answers --help and --version\n")
     return 2

@@ -142,6 +142,8 @@ def built_page(c, exe, page, template, generator, root):
         g = helpdoc.run([sys.executable, generator, exe, template, fresh])
         same = g.returncode == 0 and strip_date(open(fresh).read()) == strip_date(open(page).read())
         c.check("the built page is up to date with the executable's --help", same, g.stderr.strip())
+        c.check("every --help is in the layout the generator reads (no warning)", g.stderr.strip() == "",
+                g.stderr.strip())
 
 
 def strip_date(roff):
@@ -216,11 +218,23 @@ def generator_rules(c, generator, template):
                 "\\fB\\-\\-mode\\fR \\fBfast\\fR|\\fBslow\\fR|\\fBexact\\fR" in roff
                 and "\\fB\\-\\-count\\fR \\fIN\\fR" in roff)
         c.check("fake: a negative number set with a minus sign", "default \\-12" in roff)
+        c.check("fake: a character outside ASCII as a glyph escape, rendered",
+                "\\[u00B1]" in roff and "-12 \u00b1 0.5" in text, "")
+        c.check("fake: no warning on a help in the layout", r1.stderr.strip() == "", r1.stderr.strip())
         c.check("fake: the safety paragraph once (under SAFETY), not per command",
                 roff.count("proper RF sampler or attenuator.") == 1 and "proper RF sampler" in sec.get("SAFETY", ""))
         c.check("fake: EXIT STATUS lists alpha and beta, not gamma",
                 "modlens alpha" in sec.get("EXIT STATUS", "") and "modlens beta" in sec.get("EXIT STATUS", "")
                 and "modlens gamma" not in sec.get("EXIT STATUS", ""))
+
+        # a help out of the layout: a warning naming it, the page still written
+        out4 = os.path.join(d, "d.1")
+        r = helpdoc.run([sys.executable, generator, fake, template, out4], env=dict(env, FAKE_MODLENS_ODD="1"))
+        c.check("fake gamma without its usage line: exit 0, one warning naming gamma, the page written with it",
+                r.returncode == 0 and r.stderr.strip().splitlines() == [
+                    "gen-manpage: warning: gamma: --help does not begin with 'usage: '"]
+                and os.path.exists(out4) and "--quick" in normal(render(out4).stdout),
+                "rc %d, %r" % (r.returncode, r.stderr))
 
         # failures: one line, exit 1, no page
         out3 = os.path.join(d, "c.1")
