@@ -43,7 +43,10 @@ def real_program(c, exe, script):
                 queries += [[cmd, o, ""], [cmd, o + "=", ], [cmd, o, "=", ""], [cmd, o, values[0][:1]]]
                 what += [("values", cmd, o, values, ""), ("values=", cmd, o, values, o + "="),
                          ("values = ", cmd, o, values, ""), ("values prefix", cmd, o, values, "")]
+            lists = helpdoc.value_lists(text, names)
             for o, meta in helpdoc.metavar_options(text, names).items():
+                if o in lists:
+                    continue  # shown with its values elsewhere: those are offered
                 if "FILE" in meta:
                     queries.append([cmd, o, "alp"])
                     what.append(("file", cmd, o))
