@@ -15,6 +15,7 @@ static void usage(FILE *f)
 {
     fprintf(f,
             "usage: modlens COMMAND [options]\n"
+            "       modlens --help | --version\n"
             "\n"
             "Turns a sound card recording into modulation-quality and distortion figures for AM radio.\n"
             "\n"
@@ -26,6 +27,10 @@ static void usage(FILE *f)
             "  devices        list the sound-card inputs and outputs\n"
             "  tone           write a test signal to a file, or play it\n"
             "  log            log levels, hum, noise and interference events for hours (CSV)\n"
+            "\n"
+            "options:\n"
+            "  --help         this summary (also -h or help)\n"
+            "  --version      the program's name and version\n"
             "\n"
             "'modlens COMMAND --help' describes each command.\n\n%s",
             ml_cli_safety);
