@@ -45,7 +45,7 @@ def main():
         c.check("the installed executable runs: modlens --version", v.returncode == 0 and v.stdout.startswith("modlens "),
                 v.stdout.strip() + v.stderr.strip())
         c.check("the installed page is the built one",
-                filecmp.cmp(path["page"], os.path.join(build, "doc", "modlens.1"), shallow=False))
+                filecmp.cmp(path["page"], os.path.join(build, "docs", "modlens.1"), shallow=False))
 
         env = dict(os.environ, MANWIDTH="80")
         env.pop("MANPATH", None)
