@@ -10,6 +10,7 @@
  */
 #include "dsp/window.h"
 
+#include <complex.h>
 #include <math.h>
 
 #include "dsp/internal.h"
@@ -50,6 +51,46 @@ ml_status ml_window_fill(ml_window_type type, double *w, size_t n)
         w[i] = acc;
     }
     return ML_OK;
+}
+
+size_t ml_window_coefficients(ml_window_type type, double *c, size_t max)
+{
+    if ((unsigned)type >= ML_WINDOW_COUNT || c == NULL)
+        return 0;
+    const window_def *d = &defs[type];
+    for (size_t k = 0; k < d->nterms && k < max; k++)
+        c[k] = d->c[k];
+    return d->nterms;
+}
+
+/* sum_{j=0}^{n-1} exp(-2 pi i x j / n) = exp(-i pi x (n-1)/n) sin(pi x) / sin(pi x / n); n where x
+ * is a multiple of n, 0 at the other whole numbers. With x = i + f (i whole, |f| <= 1/2) the
+ * factors (-1)^i of exp(-i pi x) and sin(pi x) cancel, so only f and x/n enter the sines and
+ * exponentials: no loss of precision at large x. */
+static double complex dirichlet(double x, double n)
+{
+    const double i = nearbyint(x), f = x - i;
+    if (f == 0.0)
+        return remainder(x, n) == 0.0 ? CMPLX(n, 0.0) : CMPLX(0.0, 0.0);
+    return cexp(CMPLX(0.0, ML_PI * (x / n - f))) * (sin(ML_PI * f) / sin(ML_PI * x / n));
+}
+
+double ml_window_leakage(ml_window_type type, size_t n, double offset_bins)
+{
+    if ((unsigned)type >= ML_WINDOW_COUNT || n < 2 || !isfinite(offset_bins))
+        return 0.0;
+    /* w[j] = sum_k (-1)^k c_k cos(2 pi k j / n) = sum_k (-1)^k c_k (e^{+} + e^{-}) / 2 (k >= 1), so
+     * W(nu) = c_0 D(nu) + sum_{k>=1} (-1)^k c_k / 2 (D(nu - k) + D(nu + k)), D the kernel above */
+    const window_def *d = &defs[type];
+    const double dn = (double)n;
+    double complex w = d->c[0] * dirichlet(offset_bins, dn), w0 = d->c[0] * dn;
+    for (size_t k = 1; k < d->nterms; k++) {
+        const double a = (k % 2 ? -0.5 : 0.5) * d->c[k];
+        w += a * (dirichlet(offset_bins - (double)k, dn) + dirichlet(offset_bins + (double)k, dn));
+        w0 += a * (dirichlet(-(double)k, dn) + dirichlet((double)k, dn));
+    }
+    const double r = cabs(w) / cabs(w0);
+    return r * r;
 }
 
 size_t ml_window_terms(ml_window_type type)

@@ -455,12 +455,15 @@ START_TEST(hum_skips_fundamental_and_harmonics)
 {
     /* Contract: hum components overlapping the fundamental or a harmonic are not measured.
      * Tone at 150 Hz (harmonics 300, 450, ...) with 50 Hz mains forced: of the multiples 1..6,
-     * 150 Hz (3) is the fundamental and 300 Hz (6) its 2nd harmonic, so orders 1, 2, 4, 5 remain. */
+     * 150 Hz (3) is the fundamental and 300 Hz (6) its 2nd harmonic, so orders 1, 2, 4, 5 remain.
+     * The tone is declared (tone_hz): a line at a low multiple of the mains is hum unless the
+     * configuration says it is the tone (dsp/metrics.h, "tone or no tone"). */
     double *x = zeros(N_DET);
     ts_add_sine(x, N_DET, 0.5, 150.0, FS, 0.0);
     ts_add_sine(x, N_DET, 1e-3, 50.0, FS, 0.0);
     ml_audio_config cfg = ml_audio_config_default();
     cfg.mains_hz = 50.0;
+    cfg.tone_hz = 150.0;
     ml_audio_result r;
     ck_assert_int_eq(analyse(x, N_DET, &cfg, &r), ML_OK);
     free(x);
