@@ -40,12 +40,13 @@ static const char *const why_text[ML_WHY_COUNT] = {
     [ML_WHY_TONE_WEAK] = "the declared tone does not stand clear of the noise",
     [ML_WHY_TONE_DC] = "the tone is not resolved from DC: its level includes any DC offset",
     [ML_WHY_NO_HARMONIC_IN_BAND] = "no harmonic of the tone lies inside the band",
+    [ML_WHY_HARMONICS_UNRESOLVED] = "the tone is too low for the resolution: its harmonics are not resolved from it",
     [ML_WHY_HARMONICS_IN_NOISE] = "noise-limited: the harmonics do not stand above the noise (upper bound)",
     [ML_WHY_AT_FLOOR] = "at the analysis' own floor (window leakage and rounding): a bound",
     [ML_WHY_OUT_OF_RANGE] = "beyond the reportable range: a bound at its limit",
     [ML_WHY_HUM_UNRESOLVED] = "the capture is too short to tell the mains frequency from DC",
     [ML_WHY_HUM_UNDER_TONE] = "every mains multiple falls on the tone or one of its harmonics",
-    [ML_WHY_HUM_PARTIAL] = "the mains fundamental is not resolved from DC: its multiples only (lower bound)",
+    [ML_WHY_HUM_PARTIAL] = "not every mains multiple is resolved (from DC or from each other): a lower bound",
     [ML_WHY_HUM_IN_NOISE] = "no mains line stands above the noise (upper bound)",
     [ML_WHY_MAINS_NONE] = "no mains line stands above the noise",
     [ML_WHY_MAINS_GIVEN] = "mains frequency as configured",
@@ -257,16 +258,44 @@ static double joint_upper(const ctx *x, const ml_component *c, const double *nu_
 
 /* ---- mains lines --------------------------------------------------------------------------- */
 
+/* The frequency of a line near bin c0 (within +-tol bins), from the phase advance between segments
+ * (ml_spectrum_get_frequency). The estimate at a bin is unambiguous only for a line within a bin
+ * of it (hop <= nfft/2), so only bins whose own estimate lies within 0.6 bin of them are trusted;
+ * of those, the strongest bin's. False when none is (a line too weak against the noise in its
+ * bins, or fewer than two segments). */
+static bool line_frequency(const ctx *x, size_t c0, size_t tol, double *hz)
+{
+    if (ml_spectrum_segments(x->spec) < 2)
+        return false;
+    size_t best = NONE_BIN;
+    double fb = 0.0;
+    for (size_t k = c0 > tol + 1 ? c0 - tol - 1 : 1; k <= c0 + tol + 1 && k + 1 < x->nbins; k++) {
+        double f;
+        if (ml_spectrum_get_frequency(x->spec, k, &f) != ML_OK || fabs(f / x->bin_hz - (double)k) > 0.6)
+            continue;
+        if (best == NONE_BIN || x->psd[k] > x->psd[best]) {
+            best = k;
+            fb = f;
+        }
+    }
+    if (best == NONE_BIN)
+        return false;
+    *hz = fb;
+    return true;
+}
+
 typedef struct {
     double mains;
     size_t n;                    /* slots measured                                             */
     ml_component comp[ML_MAX_HUM];
     size_t bin[ML_MAX_HUM];
     double nu_noise[ML_MAX_HUM];
-    double f_est[ML_MAX_HUM];    /* measured frequency of each slot's line                      */
+    double f_est[ML_MAX_HUM];    /* measured frequency of each slot's line (nominal if unknown)  */
+    bool f_known[ML_MAX_HUM];    /* f_est was measured                                           */
     bool fund_resolved;          /* order 1 clears DC                                          */
     bool any_resolvable;         /* some order clears DC                                       */
     bool any_under_tone;         /* some order that clears DC lies on the tone or a harmonic   */
+    bool multiples_unresolved;   /* some order's lobe overlaps the previous order's            */
     double det_power;            /* line power of the mains lines, multiples of 300 Hz left out */
     double det_power_all;        /* the same with them                                         */
     double first4;               /* power (noise included) of orders 1..4                       */
@@ -286,11 +315,15 @@ typedef struct {
  *    the base's within a quarter bin or 0.2 %, and it is less than 6 dB above the base: a line at
  *    a higher multiple that is stronger than that is a tone (the 6 dB rule of the header).
  * The others keep their figures but are not above_noise (not measured as hum). */
-static void scan_hum(const ctx *x, double mains, int h, size_t avoid, hum_scan *s)
+static void scan_hum(const ctx *x, double mains, int h, size_t avoid, double f_avoid, int avoid_harmonics,
+                     hum_scan *s)
 {
     *s = (hum_scan){.mains = mains};
+    /* the strongest line (avoid, at f_avoid) is a mains line of this family, or its harmonics
+     * (orders 2..avoid_harmonics) are no mains lines */
+    const double m_av = f_avoid > 0 ? nearbyint(f_avoid / mains) : 0.0;
+    const bool avoid_in = m_av >= 1 && m_av <= h && fabs(f_avoid - m_av * mains) <= HUM_TOL * m_av * mains;
     s->fund_resolved = ml_spectrum_clears_dc(x->spec, nearest_bin(mains, x->bin_hz));
-    const bool phase = ml_spectrum_segments(x->spec) >= 2;
     int low[2] = {0, 0}; /* the two lowest orders that clear DC */
     for (int mlt = 1; mlt <= h && s->n < ML_MAX_HUM; mlt++) {
         const double f = mlt * mains;
@@ -299,6 +332,10 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, hum_scan *
             break;
         if (!ml_spectrum_clears_dc(x->spec, c0))
             continue;
+        if (s->n > 0 && c0 < s->bin[s->n - 1] + 2 * x->lobe + 1) {
+            s->multiples_unresolved = true; /* inside the previous line's lobe */
+            continue;
+        }
         s->any_resolvable = true;
         if (low[0] == 0)
             low[0] = mlt;
@@ -321,6 +358,11 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, hum_scan *
         }
         if (avoid != NONE_BIN && dist(cpk, avoid) > 1 && dist(c0, avoid) <= 2 * x->lobe)
             continue;
+        if (avoid != NONE_BIN && !avoid_in) {
+            const double hh = nearbyint(f / f_avoid);
+            if (hh >= 2 && hh <= avoid_harmonics && dist(c0, nearest_bin(hh * f_avoid, x->bin_hz)) <= x->lobe)
+                continue;
+        }
         ml_component *o = &s->comp[s->n];
         line_stats(x, c, Z_LINE, o, &s->nu_noise[s->n]);
         if (!o->above_noise && dist(cpk, c0) > 1 && !(x->m != NULL && collides(x->m, x->nbins, cpk, x->lobe))) {
@@ -336,9 +378,8 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, hum_scan *
         o->order = mlt;
         o->frequency_hz = f;
         s->f_est[s->n] = f;
-        if (phase && cpk > 0 && cpk + 1 < x->nbins)
-            ml_spectrum_get_frequency(x->spec, cpk, &s->f_est[s->n]);
-        if (fabs(s->f_est[s->n] - f) > HUM_TOL * f)
+        s->f_known[s->n] = line_frequency(x, c0, tolb, &s->f_est[s->n]);
+        if (s->f_known[s->n] && fabs(s->f_est[s->n] - f) > HUM_TOL * f)
             o->above_noise = false; /* a line, but not within 1 % of this multiple */
         s->bin[s->n] = c;
         if (mlt <= 4)
@@ -364,8 +405,8 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, hum_scan *
         if (!o->above_noise)
             continue;
         if (i != base && o->order != low[0] && o->order != low[1]) {
-            const double tol = fmax(0.25 * x->bin_hz, 0.002 * o->frequency_hz);
-            if (fabs(s->f_est[i] - o->order * fm) > tol || o->line_power >= 4.0 * s->base_power) {
+            const double tol = fmax(0.5 * x->bin_hz, 0.002 * o->frequency_hz);
+            if ((s->f_known[i] && fabs(s->f_est[i] - o->order * fm) > tol) || o->line_power >= 4.0 * s->base_power) {
                 o->above_noise = false;
                 continue;
             }
@@ -466,13 +507,13 @@ ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t 
     double mains = mains_hz;
     if (mains == 0) {
         hum_scan s50, s60;
-        scan_hum(&x, 50.0, 4, NONE_BIN, &s50);
-        scan_hum(&x, 60.0, 4, NONE_BIN, &s60);
+        scan_hum(&x, 50.0, 4, NONE_BIN, 0.0, 0, &s50);
+        scan_hum(&x, 60.0, 4, NONE_BIN, 0.0, 0, &s60);
         mains = s60.first4 > s50.first4 ? 60.0 : 50.0;
         out->mains_detected = true;
     }
     hum_scan s;
-    scan_hum(&x, mains, hum_harmonics, NONE_BIN, &s);
+    scan_hum(&x, mains, hum_harmonics, NONE_BIN, 0.0, 0, &s);
     out->mains_hz = mains;
     out->nhum = s.n;
     for (size_t i = 0; i < s.n; i++) {
@@ -480,6 +521,12 @@ ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t 
         out->hum_power += s.comp[i].power;
     }
     return ML_OK;
+}
+
+/* The bin of the first harmonic listed in out. */
+static size_t hbin_first(const ml_audio_result *out, double bin_hz)
+{
+    return nearest_bin(out->harmonics[0].frequency_hz, bin_hz);
 }
 
 /* ---- the analysis ---------------------------------------------------------------------------- */
@@ -618,7 +665,7 @@ static void measure_pass(ctx *xp, const ml_audio_config *cfg, size_t kf, double 
     }
     hum_scan fin;
     mark_nominal(m, xc, mains, cfg->hum_harmonics, BIN_EXCL);
-    scan_hum(xc, mains, cfg->hum_harmonics, NONE_BIN, &fin);
+    scan_hum(xc, mains, cfg->hum_harmonics, NONE_BIN, 0.0, 0, &fin);
     for (size_t k = 0; k < nbins; k++)
         if (m[k] == BIN_EXCL)
             m[k] = (k < klo || k > khi) ? BIN_OUT : BIN_NOISE;
@@ -660,6 +707,8 @@ static void measure_pass(ctx *xp, const ml_audio_config *cfg, size_t kf, double 
             line_stats(xc, hbin[i], Z_LINE, h, &nu_h[i]);
             h->order = order;
             h->frequency_hz = fh;
+            if (hbin[i] < kf + 2 * lobe + 1) /* its lobe overlaps the fundamental's */
+                h->above_noise = false;
             out->distortion_power += h->power;
         }
     }
@@ -749,9 +798,9 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
     /* 2. mains lines: each family scanned with the first look's marks */
     hum_scan s50 = {0}, s60 = {0};
     if (cfg->mains_hz != 60)
-        scan_hum(&x, 50.0, cfg->hum_harmonics, ks, &s50);
+        scan_hum(&x, 50.0, cfg->hum_harmonics, ks, f_strong, cfg->harmonics, &s50);
     if (cfg->mains_hz != 50)
-        scan_hum(&x, 60.0, cfg->hum_harmonics, ks, &s60);
+        scan_hum(&x, 60.0, cfg->hum_harmonics, ks, f_strong, cfg->harmonics, &s60);
     const hum_scan *fam = NULL; /* the family whose lines stand above the noise */
     if (cfg->mains_hz == 50)
         fam = &s50;
@@ -864,6 +913,8 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         F->thd = fig(ML_FIG_NONE, NAN, notone);
     else if (out->nharmonics == 0)
         F->thd = fig(ML_FIG_NONE, NAN, ML_WHY_NO_HARMONIC_IN_BAND);
+    else if (hbin_first(out, bin_hz) < kf + 2 * lobe + 1)
+        F->thd = fig(ML_FIG_NONE, NAN, ML_WHY_HARMONICS_UNRESOLVED);
     else {
         double dmeas = 0.0;
         size_t nhid = 0;
@@ -905,44 +956,31 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
     if (tone)
         F->snr = fig(flip(F->noise.state), p1 / F->noise.value, F->noise.why);
 
-    /* hum and mains */
+    /* hum and mains: the final scan's lines; bounds where none stands above the noise */
     const double lobe_floor = x.floor_bin * (double)(2 * lobe + 1) / enbw;
-    if (!s50.any_resolvable && !s60.any_resolvable && !(fam && fam->any_resolvable)) {
+    const ml_figure given = fig(ML_FIG_MEASURED, cfg->mains_hz, ML_WHY_MAINS_GIVEN);
+    if (!s50.any_resolvable && !s60.any_resolvable && !fin.any_resolvable) {
         F->hum = fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNRESOLVED);
-        F->mains_hz = fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNRESOLVED);
-    } else if (!mains_found) {
-        /* either family could hide hum below the noise: the larger bound of the two */
-        double u = 0.0;
-        if (cfg->mains_hz > 0)
-            u = joint_upper(&x, fin.comp, fin.nu_noise, fin.n, true);
-        else {
+        F->mains_hz = cfg->mains_hz > 0 ? given : fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNRESOLVED);
+    } else if (fin.ndet > 0) {
+        double h = 0.0;
+        for (size_t i = 0; i < fin.n; i++)
+            if (fin.comp[i].above_noise)
+                h += fin.comp[i].line_power;
+        F->hum = fin.fund_resolved && !fin.multiples_unresolved ? fig(ML_FIG_MEASURED, h, ML_WHY_OK)
+                                                                 : fig(ML_FIG_LOWER, h, ML_WHY_HUM_PARTIAL);
+        F->mains_hz = cfg->mains_hz > 0 ? given : fig(ML_FIG_MEASURED, mains, ML_WHY_OK);
+    } else if (fin.n == 0 && fin.any_under_tone) {
+        F->hum = fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNDER_TONE);
+        F->mains_hz = cfg->mains_hz > 0 ? given : fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNDER_TONE);
+    } else {
+        /* hidden in the noise: the measured family's bound, or (none found) the larger of both */
+        double u = joint_upper(&x, fin.comp, fin.nu_noise, fin.n, true);
+        if (cfg->mains_hz == 0 && !mains_found)
             u = fmax(joint_upper(&x, s50.comp, s50.nu_noise, s50.n, true),
                      joint_upper(&x, s60.comp, s60.nu_noise, s60.n, true));
-        }
-        if (fin.n == 0 && fin.any_under_tone && cfg->mains_hz > 0)
-            F->hum = fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNDER_TONE);
-        else
-            F->hum = fig(ML_FIG_UPPER, fmax(u, lobe_floor), ML_WHY_HUM_IN_NOISE);
-        F->mains_hz = cfg->mains_hz > 0 ? fig(ML_FIG_MEASURED, cfg->mains_hz, ML_WHY_MAINS_GIVEN)
-                                        : fig(ML_FIG_NONE, NAN, ML_WHY_MAINS_NONE);
-    } else {
-        double h = 0.0;
-        size_t ndet = 0;
-        for (size_t i = 0; i < fin.n; i++)
-            if (fin.comp[i].above_noise) {
-                h += fin.comp[i].line_power;
-                ndet++;
-            }
-        if (fin.n == 0)
-            F->hum = fig(ML_FIG_NONE, NAN, fin.any_under_tone ? ML_WHY_HUM_UNDER_TONE : ML_WHY_HUM_UNRESOLVED);
-        else if (ndet == 0) /* the lines found first fell on the tone: what is left is in the noise */
-            F->hum = fig(ML_FIG_UPPER, fmax(joint_upper(&x, fin.comp, fin.nu_noise, fin.n, true), lobe_floor),
-                         ML_WHY_HUM_IN_NOISE);
-        else if (!fin.fund_resolved)
-            F->hum = fig(ML_FIG_LOWER, h, ML_WHY_HUM_PARTIAL);
-        else
-            F->hum = fig(ML_FIG_MEASURED, h, ML_WHY_OK);
-        F->mains_hz = fig(ML_FIG_MEASURED, mains, cfg->mains_hz > 0 ? ML_WHY_MAINS_GIVEN : ML_WHY_OK);
+        F->hum = fig(ML_FIG_UPPER, fmax(u, lobe_floor), ML_WHY_HUM_IN_NOISE);
+        F->mains_hz = cfg->mains_hz > 0 ? given : fig(ML_FIG_NONE, NAN, ML_WHY_MAINS_NONE);
     }
     if (tone && F->hum.state != ML_FIG_NONE)
         F->hum_rel = fig(F->hum.state, F->hum.value / p1, F->hum.why);
@@ -978,18 +1016,20 @@ done:
 
 /* ---- the analysis transform ---------------------------------------------------------------- */
 
-/* The mains fundamental f resolved from DC by a window of nterms terms at nfft points: the rule of
- * ml_spectrum_clears_dc with DC removal, c >= lobe + 1, lobe = terms + 1. */
-static bool resolves(size_t nterms, size_t nfft, double rate_hz, double f)
+/* The mains f resolved by a window of nterms terms at nfft points: its fundamental clears DC (the
+ * rule of ml_spectrum_clears_dc with DC removal, c >= lobe + 1, lobe = terms + 1) and, when
+ * spaced, its multiples each other (f at least 2 lobe + 1 bins). */
+static bool resolves(size_t nterms, size_t nfft, double rate_hz, double f, bool spaced)
 {
-    return nearest_bin(f, rate_hz / (double)nfft) >= nterms + 2;
+    const double bins = f / (rate_hz / (double)nfft);
+    return nearest_bin(f, rate_hz / (double)nfft) >= nterms + 2 && (!spaced || bins >= (double)(2 * nterms + 3));
 }
 
 /* The smallest power of two >= 256 at which a window of nterms terms resolves f. */
-static size_t min_nfft(size_t nterms, double rate_hz, double f)
+static size_t min_nfft(size_t nterms, double rate_hz, double f, bool spaced)
 {
     size_t n = 256;
-    while (!resolves(nterms, n, rate_hz, f) && n < ((size_t)1 << 24))
+    while (!resolves(nterms, n, rate_hz, f, spaced) && n < ((size_t)1 << 24))
         n *= 2;
     return n;
 }
@@ -1006,47 +1046,51 @@ ml_status ml_audio_plan_transform(double rate_hz, int64_t nframes, ml_window_typ
     ml_spectrum_config sc = ml_spectrum_config_default(rate_hz);
     sc.window = preferred;
     sc.remove_dc = 1;
+    const size_t nmax = sc.nfft;
     /* first choice: three half-overlapping segments, as for any capture */
-    size_t nfft = sc.nfft;
+    size_t nfft = nmax;
     while (nfft > 256 && 2 * (int64_t)nfft > nframes)
         nfft /= 2;
     *out = (ml_audio_plan){0};
     const size_t pterms = ml_window_terms(preferred);
-    if (resolves(pterms, nfft, rate_hz, f)) {
+    if (resolves(pterms, nfft, rate_hz, f, true)) {
         sc.nfft = nfft;
         sc.hop = nfft / 2;
         out->spectrum = sc;
-        out->hum_resolved = true;
+        out->hum_resolved = out->hum_fundamental_resolved = true;
         return ML_OK;
     }
-    /* then the preferred window and the narrower-lobed ones, at the shortest nfft that resolves */
+    /* then the preferred window and the narrower-lobed ones, at the shortest nfft that resolves
+     * the multiples from each other and, failing that, the fundamental from DC */
     const ml_window_type order[] = {preferred, ML_WINDOW_HFT144D, ML_WINDOW_BLACKMAN_HARRIS, ML_WINDOW_HANN};
     int64_t need = INT64_MAX;
-    for (size_t i = 0; i < sizeof order / sizeof order[0]; i++) {
-        const size_t terms = ml_window_terms(order[i]);
-        if (i > 0 && terms >= pterms)
-            continue;
-        const size_t n = min_nfft(terms, rate_hz, f);
-        if ((int64_t)n + 1 < need)
-            need = (int64_t)n + 1;
-        if ((int64_t)n + 1 > nframes || n > sc.nfft)
-            continue;
-        int64_t hop = (nframes - (int64_t)n) / 2;
-        if (hop > (int64_t)(n / 2))
-            hop = (int64_t)(n / 2);
-        if (hop < 1)
-            hop = 1;
-        sc.window = order[i];
-        sc.nfft = n;
-        sc.hop = (size_t)hop;
-        out->spectrum = sc;
-        out->hum_resolved = true;
-        return ML_OK;
-    }
+    for (int spaced = 1; spaced >= 0; spaced--)
+        for (size_t i = 0; i < sizeof order / sizeof order[0]; i++) {
+            const size_t terms = ml_window_terms(order[i]);
+            if (i > 0 && terms >= pterms)
+                continue;
+            const size_t n = min_nfft(terms, rate_hz, f, spaced);
+            if (spaced && (int64_t)n + 1 < need)
+                need = (int64_t)n + 1;
+            if ((int64_t)n + 1 > nframes || n > nmax)
+                continue;
+            int64_t hop = (nframes - (int64_t)n) / 2;
+            if (hop > (int64_t)(n / 2))
+                hop = (int64_t)(n / 2);
+            if (hop < 1)
+                hop = 1;
+            sc.window = order[i];
+            sc.nfft = n;
+            sc.hop = (size_t)hop;
+            out->spectrum = sc;
+            out->hum_resolved = spaced;
+            out->hum_fundamental_resolved = true;
+            out->hum_min_frames = spaced ? 0 : need;
+            return ML_OK;
+        }
     sc.nfft = nfft;
     sc.hop = nfft / 2;
     out->spectrum = sc;
-    out->hum_resolved = false;
     out->hum_min_frames = need;
     return ML_OK;
 }

@@ -10,7 +10,9 @@
  *    lobe's bins / ENBW (the noise inside the lobe is part of it, and so are lobe bins outside the
  *    band or in DC's lobe). Without a tone, P1 = 0 and no harmonics are measured.
  *  - harmonic h (2..harmonics, while h*f1 <= band_hi and < Nyquist): the same, around h*f1;
- *    `power` of a harmonic buried in noise therefore reads the noise power of its lobe.
+ *    `power` of a harmonic buried in noise therefore reads the noise power of its lobe. When f1
+ *    is less than 2 lobe + 1 bins, the harmonics' lobes overlap the fundamental's: they are
+ *    listed but never above_noise, and THD is not measurable (ML_WHY_HARMONICS_UNRESOLVED).
  *  - noise density nd: the mean power per bin over the band's bins that are neither DC (bins
  *    below lobe), the fundamental nor a harmonic. Noise N = nd * (band bins above DC) / ENBW: the
  *    excluded bins are filled in at the same density. Hum counts as noise in N; N_nohum is the
@@ -20,9 +22,9 @@
  *    a 20 Hz tone whose lobe reaches below the band included). THD+N = sqrt(R/P1).
  *  - D = sum of harmonic powers; THD = sqrt(D/P1); SINAD = 10 lg(P1/R); SNR = 10 lg(P1/N);
  *    ENOB = (SINAD - 1.7609)/6.0206 (IEEE Std 1241-2000 eq. 94 and 102, full-scale sine).
- *  - hum: components at m * mains_hz (m = 1..hum_harmonics) that do not overlap the fundamental
- *    or a harmonic, and whose lobe clears DC (ml_spectrum_clears_dc), each measured like a
- *    harmonic; hum_power = the sum of their `power`.
+ *  - hum: components at m * mains_hz (m = 1..hum_harmonics) that do not overlap the fundamental,
+ *    a harmonic or the previous multiple, and whose lobe clears DC (ml_spectrum_clears_dc), each
+ *    measured like a harmonic; hum_power = the sum of their `power`.
  *
  * Honest readings. Every line (harmonic, hum component) also carries the noise expected in its
  * lobe (the local noise density: the mean over noise bins within a sixth of an octave on either
@@ -88,6 +90,8 @@ typedef enum {
     ML_WHY_TONE_WEAK,           /* forced tone that is not clear of the noise (qualifier)           */
     ML_WHY_TONE_DC,             /* the tone's lobe reaches DC's: its level includes DC (qualifier)  */
     ML_WHY_NO_HARMONIC_IN_BAND, /* THD: not even the 2nd harmonic lies inside the band              */
+    ML_WHY_HARMONICS_UNRESOLVED,/* THD: the tone is too low for the resolution: its harmonics' lobes
+                                   overlap its own (segments too short)                             */
     ML_WHY_HARMONICS_IN_NOISE,  /* THD: harmonics do not stand above the noise: upper bound         */
     ML_WHY_AT_FLOOR,            /* noise within 6 dB of the analysis' own floor: a bound            */
     ML_WHY_OUT_OF_RANGE,        /* beyond ML_FIGURE_DB_LIMIT or 0..32 bits: a bound at the limit    */
@@ -212,24 +216,29 @@ ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t 
                              int hum_harmonics, ml_audio_result *out);
 
 /* The analysis transform for a capture of nframes frames at rate_hz (the audio measurement's
- * spectrum): the window and nfft such that the mains fundamental's lobe clears DC (with DC
- * removal, ml_spectrum_clears_dc) and at least two segments fit (the frequency estimate needs the
- * phase advance between two), hop <= nfft/2.
+ * spectrum), such that the mains lines are resolved: the fundamental's lobe clears DC (with DC
+ * removal: ml_spectrum_clears_dc) and the multiples' lobes each other (mains at least 2 lobe + 1
+ * bins), with at least two segments (the frequency estimate needs the phase advance between
+ * two) and hop <= nfft/2.
  *  - First choice, as for long captures: the preferred window, the largest power of two up to
  *    ml_spectrum_config_default's nfft with three half-overlapping segments (2 nfft <= nframes),
- *    at least 256; kept when it resolves the mains.
+ *    at least 256; kept when it resolves the mains lines.
  *  - Otherwise the preferred window, then each window of fewer terms (HFT144D, Blackman-Harris,
- *    Hann: narrower lobes, more leakage), at the smallest nfft that resolves the mains, if
+ *    Hann: narrower lobes, more leakage), at the smallest nfft that resolves them, if
  *    nframes >= nfft + 1; hop = min(nfft/2, (nframes - nfft)/2), at least 1 (three segments when
  *    the capture allows).
- *  - Otherwise the first choice, with hum_resolved false: hum is not measurable on this capture,
- *    and hum_min_frames says how long a capture must be (with the narrowest window).
- * mains_hz: 50, 60 or 0 (either: 50 Hz, the lower, must be resolved). remove_dc is set in the
- * config. ML_EINVAL for bad arguments; ML_ENOSIGNAL when nframes < 256 (too few to analyse). */
+ *  - Otherwise the same search for the fundamental alone (hum_resolved false,
+ *    hum_fundamental_resolved true: every other multiple is left out, hum is a lower bound).
+ *  - Otherwise the first choice, with both false: hum is not measurable on this capture.
+ * hum_min_frames: when not hum_resolved, the shortest capture on which it would be (with the
+ * narrowest window). mains_hz: 50, 60 or 0 (either: 50 Hz, the lower, must be resolved).
+ * remove_dc is set in the config. ML_EINVAL for bad arguments; ML_ENOSIGNAL when nframes < 256
+ * (too few to analyse). Never allocates. */
 typedef struct {
-    ml_spectrum_config spectrum; /* ready for ml_spectrum_create                          */
-    bool hum_resolved;           /* the mains fundamental clears DC with this transform  */
-    int64_t hum_min_frames;      /* shortest capture on which it would (0 when resolved)  */
+    ml_spectrum_config spectrum;   /* ready for ml_spectrum_create                         */
+    bool hum_resolved;             /* every mains line is resolved with this transform     */
+    bool hum_fundamental_resolved; /* at least the fundamental clears DC                   */
+    int64_t hum_min_frames;        /* shortest capture that resolves them (0 when resolved) */
 } ml_audio_plan;
 
 ml_status ml_audio_plan_transform(double rate_hz, int64_t nframes, ml_window_type preferred, double mains_hz,
