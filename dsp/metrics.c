@@ -190,14 +190,12 @@ static double component_power(const double *psd, size_t nbins, size_t c, size_t 
     return lobe_sum(psd, nbins, c, lobe, &count) / enbw;
 }
 
-/* Mean psd over the noise bins near c (its own lobe left out): a sixth of an octave either side,
- * at least 4 lobes, doubled until 4 lobes' worth of noise bins are found or the band is covered.
- * *count: the bins averaged (0: none anywhere in the band). */
+/* Mean psd over the noise bins near c (its own lobe left out): 4 lobes either side, doubled until
+ * 4 lobes' worth of noise bins are found or the band is covered. *count: the bins averaged (0:
+ * none anywhere in the band). */
 static double local_density(const ctx *x, size_t c, size_t *count)
 {
-    size_t hw = (size_t)ceil((double)c * (pow(2.0, 1.0 / 6.0) - 1.0));
-    if (hw < 4 * x->lobe)
-        hw = 4 * x->lobe;
+    size_t hw = 4 * x->lobe;
     const size_t want = 4 * (2 * x->lobe + 1);
     for (;;) {
         const size_t lo = c > x->klo + hw ? c - hw : x->klo, hi = c + hw < x->khi ? c + hw : x->khi;
@@ -378,7 +376,7 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, double f_a
         o->order = mlt;
         o->frequency_hz = f;
         s->f_est[s->n] = f;
-        s->f_known[s->n] = line_frequency(x, c0, tolb, &s->f_est[s->n]);
+        s->f_known[s->n] = o->above_noise && line_frequency(x, c0, tolb, &s->f_est[s->n]);
         if (s->f_known[s->n] && fabs(s->f_est[s->n] - f) > HUM_TOL * f)
             o->above_noise = false; /* a line, but not within 1 % of this multiple */
         s->bin[s->n] = c;
@@ -420,7 +418,7 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, double f_a
 
 /* ---- the analysis floor -------------------------------------------------------------------- */
 
-/* Mean over (up to 512 of) the band's noise bins of what the analysis itself puts there: the
+/* Mean over (some 64 of) the band's noise bins of what the analysis itself puts there: the
  * leakage of the lines given (frequency in bins, power; a real line leaks from +nu and from its
  * mirror -nu) through the window (exact, ml_window_leakage), plus the transform's rounding. The
  * rounding was measured for a bin-centred tone (periodic input, so its own rounding falls on its
@@ -429,18 +427,16 @@ static void scan_hum(const ctx *x, double mains, int h, size_t avoid, double f_a
 static double floor_per_bin(const ctx *x, const double *nu, const double *pw, size_t nl, double pmax)
 {
     const ml_window_type win = ml_spectrum_window(x->spec);
-    const size_t nfft = ml_spectrum_nfft(x->spec);
-    size_t count = 0;
-    for (size_t k = x->klo; k <= x->khi; k++)
-        count += is_noise(x, k);
-    const size_t stride = count > 512 ? count / 512 : 1;
+    const size_t nfft = ml_spectrum_nfft(x->spec), nband = x->khi - x->klo + 1;
+    const size_t stride = nband > 64 ? nband / 64 : 1; /* leakage varies smoothly from bin to bin */
     double s = 0.0;
-    size_t n = 0, i = 0;
-    for (size_t k = x->klo; k <= x->khi; k++) {
-        if (!is_noise(x, k) || i++ % stride != 0)
+    size_t n = 0;
+    for (size_t k = x->klo; k <= x->khi; k += stride) {
+        if (!is_noise(x, k))
             continue;
         for (size_t l = 0; l < nl; l++)
-            s += pw[l] * (ml_window_leakage(win, nfft, (double)k - nu[l]) + ml_window_leakage(win, nfft, (double)k + nu[l]));
+            if (pw[l] > 0)
+                s += pw[l] * (ml_window_leakage(win, nfft, (double)k - nu[l]) + ml_window_leakage(win, nfft, (double)k + nu[l]));
         n++;
     }
     const double rounding = ROUNDING_PER_BIN * fmax(1.0, (double)nfft / 4096.0) * pmax;
@@ -538,6 +534,23 @@ static size_t strongest(const double *psd, const unsigned char *m, size_t lo, si
     for (size_t k = lo; k <= hi; k++)
         if ((m == NULL || m[k] != BIN_EXCL) && (best == NONE_BIN || psd[k] > psd[best]))
             best = k;
+    return best;
+}
+
+/* The strongest bin in [lo, hi] farther than half from every one of the n ascending centres;
+ * NONE_BIN when none. */
+static size_t strongest_skipping(const double *psd, size_t lo, size_t hi, const size_t *centre, size_t n,
+                                 size_t half)
+{
+    size_t best = NONE_BIN, j = 0;
+    for (size_t k = lo; k <= hi; k++) {
+        while (j < n && centre[j] + half < k)
+            j++;
+        if (j < n && centre[j] <= k + half)
+            continue;
+        if (best == NONE_BIN || psd[k] > psd[best])
+            best = k;
+    }
     return best;
 }
 
@@ -666,7 +679,8 @@ static void measure_pass(ctx *xp, const ml_audio_config *cfg, size_t kf, double 
     hum_scan fin;
     mark_nominal(m, xc, mains, cfg->hum_harmonics, BIN_EXCL);
     scan_hum(xc, mains, cfg->hum_harmonics, NONE_BIN, 0.0, 0, &fin);
-    for (size_t k = 0; k < nbins; k++)
+    const size_t top = nearest_bin(cfg->hum_harmonics * mains * (1.0 + HUM_TOL), bin_hz) + lobe + 2;
+    for (size_t k = 0; k < nbins && k <= top; k++) /* mark_nominal marked nothing above */
         if (m[k] == BIN_EXCL)
             m[k] = (k < klo || k > khi) ? BIN_OUT : BIN_NOISE;
     if (!mains_found) /* lines at the multiples of a mains that has none above the noise are noise */
@@ -831,14 +845,14 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         const size_t lo = c > klo + lobe ? c - lobe : klo, hi = c + lobe < khi ? c + lobe : khi;
         cand = strongest(psd, NULL, lo, hi);
     } else {
-        /* outside the lobes of the mains lines (marks reused: EXCL there, NOISE elsewhere) */
-        clear_marks(m, &x);
-        if (mains_found)
-            mark_slots(m, &x, fam, true, BIN_EXCL);
-        cand = strongest(psd, m, klo, khi);
+        /* outside the lobes of the mains lines */
+        size_t skip[ML_MAX_HUM], nskip = 0;
+        for (size_t i = 0; mains_found && i < fam->n; i++)
+            if (fam->comp[i].above_noise)
+                skip[nskip++] = fam->bin[i];
+        cand = strongest_skipping(psd, klo, khi, skip, nskip, lobe);
         if (cand == NONE_BIN && cfg->tone_mode == ML_TONE_FORCE)
             cand = ks;
-        first_marks(m, &x, ks, f_strong, cfg);
     }
     tone_look look = {.bin = NONE_BIN, .margin_db = NAN};
     if (cand != NONE_BIN && cand > 0 && cand + 1 < nbins) {

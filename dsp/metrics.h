@@ -27,8 +27,8 @@
  *    measured like a harmonic; hum_power = the sum of their `power`.
  *
  * Honest readings. Every line (harmonic, hum component) also carries the noise expected in its
- * lobe (the local noise density: the mean over noise bins within a sixth of an octave on either
- * side, at least 4 lobes, widened until enough bins are found, times the lobe's bins / ENBW),
+ * lobe (the local noise density: the mean over the noise bins within 4 lobes on either side,
+ * widened until 4 lobes' worth are found, times the lobe's bins / ENBW),
  * and a verdict: it stands above the noise when its power exceeds that noise by more than the
  * 1 - 3e-5 quantile of the ratio of two noise-only estimates (an F distribution with the degrees
  * of freedom of ml_spectrum_dof for the lobe and for the density's bins; ml_f_quantile). A line
