@@ -117,8 +117,8 @@ typedef struct {
     double enbw, bin_hz;
     double dof_lobe;        /* ml_spectrum_dof over a lobe                                     */
     double floor_bin;       /* the analysis floor per bin (psd units)                            */
-    /* m NULL (ml_hum_analyze_psd): the mains multiples whose lobes are not noise */
-    size_t slot[2 * ML_MAX_HUM];
+    /* m NULL (ml_hum_analyze_psd, ml_line_measure): the line centres whose lobes are not noise */
+    const size_t *slot;
     size_t nslot;
 } ctx;
 
@@ -492,9 +492,11 @@ ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t 
     x.dof_lobe = dof(&x, 2 * lobe + 1);
     if (x.khi < x.klo)
         return ML_EINVAL;
+    size_t slots[2 * ML_MAX_HUM];
     for (int j = 0; j < 2; j++)
         for (int mlt = 1; mlt <= hum_harmonics; mlt++)
-            x.slot[x.nslot++] = nearest_bin(mlt * (j ? 60.0 : 50.0), x.bin_hz);
+            slots[x.nslot++] = nearest_bin(mlt * (j ? 60.0 : 50.0), x.bin_hz);
+    x.slot = slots;
     double pmax = 0.0;
     for (size_t k = x.klo; k <= x.khi; k++)
         pmax = fmax(pmax, psd[k]);
@@ -523,6 +525,25 @@ ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t 
 static size_t hbin_first(const ml_audio_result *out, double bin_hz)
 {
     return nearest_bin(out->harmonics[0].frequency_hz, bin_hz);
+}
+
+ml_status ml_line_measure(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, const size_t *excl,
+                          size_t nexcl, ml_component *out)
+{
+    if (spec == NULL || psd == NULL || out == NULL || nbins != ml_spectrum_nbins(spec) || ml_spectrum_is_complex(spec)
+        || (excl == NULL && nexcl > 0) || nexcl > 64)
+        return ML_EINVAL;
+    const size_t lobe = ml_spectrum_lobe_bins(spec);
+    if (!ml_spectrum_clears_dc(spec, c) || c + lobe >= nbins)
+        return ML_EINVAL;
+    ctx x = {.spec = spec, .psd = psd, .m = NULL, .nbins = nbins, .lobe = lobe, .klo = lobe, .khi = nbins - 1,
+             .enbw = ml_spectrum_enbw_bins(spec), .bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec),
+             .slot = excl, .nslot = nexcl};
+    x.dof_lobe = dof(&x, 2 * lobe + 1);
+    *out = (ml_component){0};
+    line_stats(&x, c, Z_LINE, out, NULL);
+    out->frequency_hz = (double)c * x.bin_hz;
+    return ML_OK;
 }
 
 /* ---- the analysis ---------------------------------------------------------------------------- */

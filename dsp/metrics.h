@@ -215,6 +215,16 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
 ml_status ml_hum_analyze_psd(const ml_spectrum *spec, const double *psd, size_t nbins, double mains_hz,
                              int hum_harmonics, ml_audio_result *out);
 
+/* One line against the noise near it, as harmonics and hum are measured (header): the component
+ * whose lobe is centred on bin c of psd[nbins] (ml_spectrum_get_psd(spec), real input), the noise
+ * density taken over the bins within 4 lobes (widened as needed) that lie in no lobe of c or of
+ * the nexcl other line centres excl (bins, may be NULL when nexcl is 0) and above DC's lobe.
+ * Fills power, noise_power, line_power, upper_power, above_noise and frequency_hz (c's bin
+ * frequency); order 0. ML_EINVAL for bad arguments (c must clear DC and lie a lobe below
+ * Nyquist, nexcl <= 64). Never allocates. */
+ml_status ml_line_measure(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, const size_t *excl,
+                          size_t nexcl, ml_component *out);
+
 /* The analysis transform for a capture of nframes frames at rate_hz (the audio measurement's
  * spectrum), such that the mains lines are resolved: the fundamental's lobe clears DC (with DC
  * removal: ml_spectrum_clears_dc) and the multiples' lobes each other (mains at least 2 lobe + 1
