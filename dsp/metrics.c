@@ -575,6 +575,22 @@ static size_t strongest_skipping(const double *psd, size_t lo, size_t hi, const 
     return best;
 }
 
+/* From bin k up the slope to the local maximum of psd, at most lobe bins away and never into bin 0:
+ * a line whose centre lies just outside the band (a 20 Hz tone at the band's edge) is found at its
+ * own bin, where the frequency estimate is valid, not on its flank. */
+static size_t climb(const double *psd, size_t nbins, size_t k, size_t lobe)
+{
+    for (size_t step = 0; step < lobe; step++) {
+        if (k > 1 && psd[k - 1] > psd[k] && (k + 1 >= nbins || psd[k - 1] >= psd[k + 1]))
+            k--;
+        else if (k + 2 < nbins && psd[k + 1] > psd[k])
+            k++;
+        else
+            break;
+    }
+    return k;
+}
+
 /* Marks for the first look (robust densities before anything is decided): DC, outside the band,
  * and as excluded the lobes of the strongest line, of its harmonics and of every mains multiple
  * of both families (or of the mains given). */
@@ -818,7 +834,9 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         goto done;
     }
     /* 1. the strongest line, the first look's marks and the analysis floor */
-    const size_t ks = strongest(psd, NULL, klo, khi);
+    size_t ks = strongest(psd, NULL, klo, khi);
+    if (ks == klo || ks == khi) /* at the band's edge: the line's own bin may lie outside */
+        ks = climb(psd, nbins, ks, lobe);
     double f_strong = (double)ks * bin_hz;
     if (ks > 0 && ks + 1 < nbins)
         ml_spectrum_get_frequency(spec, ks, &f_strong);
@@ -876,6 +894,8 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
             cand = ks;
     }
     tone_look look = {.bin = NONE_BIN, .margin_db = NAN};
+    if (cand != NONE_BIN && (cand == klo || cand == khi))
+        cand = climb(psd, nbins, cand, lobe);
     if (cand != NONE_BIN && cand > 0 && cand + 1 < nbins) {
         look_at(&x, cand, &look);
         out->candidate_hz = (double)cand * bin_hz;
