@@ -15,6 +15,7 @@
 #include <math.h>
 #include <stdint.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "dsp/internal.h"
 
@@ -575,6 +576,41 @@ static size_t strongest_skipping(const double *psd, size_t lo, size_t hi, const 
     return best;
 }
 
+/* Restores the first look's marks to noise (keeping DC and OUT). */
+static void clear_marks(unsigned char *m, const ctx *x)
+{
+    for (size_t k = 0; k < x->nbins; k++) { /* branch-free: the compiler vectorises it */
+        const unsigned char v = m[k];
+        m[k] = (v == BIN_DC || v == BIN_OUT) ? v : (unsigned char)BIN_NOISE;
+    }
+}
+
+/* The base marks: DC below lobe, OUT outside [klo, khi], NOISE in the band. */
+static void base_marks(unsigned char *m, const ctx *x)
+{
+    memset(m, BIN_DC, x->lobe);
+    memset(m + x->lobe, BIN_OUT, x->klo - x->lobe);
+    memset(m + x->klo, BIN_NOISE, x->khi - x->klo + 1);
+    memset(m + x->khi + 1, BIN_OUT, x->nbins - x->khi - 1);
+}
+
+/* Sum of psd[lo..hi] (0 when lo > hi) in four lanes: one running sum would make the loop wait on
+ * the adder's latency at every bin. */
+static double range_sum(const double *psd, size_t lo, size_t hi)
+{
+    double a[4] = {0.0, 0.0, 0.0, 0.0};
+    size_t k = lo;
+    for (; k + 3 <= hi; k += 4) {
+        a[0] += psd[k];
+        a[1] += psd[k + 1];
+        a[2] += psd[k + 2];
+        a[3] += psd[k + 3];
+    }
+    for (; k <= hi; k++)
+        a[0] += psd[k];
+    return (a[0] + a[1]) + (a[2] + a[3]);
+}
+
 /* From bin k up the slope to the local maximum of psd, at most lobe bins away and never into bin 0:
  * a line whose centre lies just outside the band (a 20 Hz tone at the band's edge) is found at its
  * own bin, where the frequency estimate is valid, not on its flank. */
@@ -596,8 +632,7 @@ static size_t climb(const double *psd, size_t nbins, size_t k, size_t lobe)
  * of both families (or of the mains given). */
 static void first_marks(unsigned char *m, const ctx *x, size_t ks, double f_strong, const ml_audio_config *cfg)
 {
-    for (size_t k = 0; k < x->nbins; k++)
-        m[k] = (k < x->lobe) ? BIN_DC : (k < x->klo || k > x->khi) ? BIN_OUT : BIN_NOISE;
+    base_marks(m, x);
     mark(m, x->nbins, ks, x->lobe, BIN_EXCL);
     for (int h = 2; h <= cfg->harmonics; h++) {
         const size_t c = nearest_bin(h * f_strong, x->bin_hz);
@@ -618,14 +653,6 @@ static void first_marks(unsigned char *m, const ctx *x, size_t ks, double f_stro
                     mark(m, x->nbins, c + d - tolb, x->lobe, BIN_EXCL);
         }
     }
-}
-
-/* Restores the first look's marks to noise (keeping DC and OUT). */
-static void clear_marks(unsigned char *m, const ctx *x)
-{
-    for (size_t k = 0; k < x->nbins; k++)
-        if (m[k] != BIN_DC && m[k] != BIN_OUT)
-            m[k] = BIN_NOISE;
 }
 
 typedef struct {
@@ -731,17 +758,16 @@ static void measure_pass(ctx *xp, const ml_audio_config *cfg, size_t kf, double 
     }
 
     /* 5. noise: with hum (legacy N) and without */
-    double nsum = 0.0, hsum = 0.0;
+    double na[4] = {0.0, 0.0, 0.0, 0.0}, ha[4] = {0.0, 0.0, 0.0, 0.0};
     size_t ncount = 0, hcount = 0;
-    for (size_t k = klo; k <= khi; k++) {
-        if (m[k] == BIN_NOISE) {
-            nsum += psd[k];
-            ncount++;
-        } else if (m[k] == BIN_HUM) {
-            hsum += psd[k];
-            hcount++;
-        }
+    for (size_t k = klo; k <= khi; k++) { /* four lanes, no branches (range_sum) */
+        const int isn = m[k] == BIN_NOISE, ish = m[k] == BIN_HUM;
+        na[k & 3] += isn ? psd[k] : 0.0;
+        ha[k & 3] += ish ? psd[k] : 0.0;
+        ncount += (size_t)isn;
+        hcount += (size_t)ish;
     }
+    const double nsum = (na[0] + na[1]) + (na[2] + na[3]), hsum = (ha[0] + ha[1]) + (ha[2] + ha[3]);
     const double nd_nohum = ncount ? nsum / (double)ncount : 0.0;
     const double nd = ncount + hcount ? (nsum + hsum) / (double)(ncount + hcount) : 0.0;
     out->noise_density = nd / enbw;
@@ -763,15 +789,24 @@ static void measure_pass(ctx *xp, const ml_audio_config *cfg, size_t kf, double 
             out->distortion_power += h->power;
         }
     }
+    /* the band outside the fundamental's lobe (a contiguous range: two range sums), and the
+     * harmonic lobes' parts beyond the band (a harmonic's centre lies in it) */
     double resid = 0.0;
-    size_t nres = 0;
-    for (size_t k = 0; k < nbins; k++) {
-        const bool in_band = k >= klo && k <= khi;
-        if ((in_band && m[k] != BIN_FUND) || (!in_band && m[k] == BIN_HARM)) {
-            resid += psd[k];
-            nres += in_band;
-        }
+    size_t nres = nband;
+    if (kf != NONE_BIN) {
+        const size_t flo = kf > lobe ? kf - lobe : 0, fhi = kf + lobe < nbins ? kf + lobe : nbins - 1;
+        if (flo > klo)
+            resid += range_sum(psd, klo, flo - 1 < khi ? flo - 1 : khi);
+        if (fhi < khi)
+            resid += range_sum(psd, fhi + 1 > klo ? fhi + 1 : klo, khi);
+        const size_t a = flo > klo ? flo : klo, b = fhi < khi ? fhi : khi;
+        if (a <= b)
+            nres -= b - a + 1;
+    } else {
+        resid = range_sum(psd, klo, khi);
     }
+    for (size_t k = khi + 1; k < nbins && k <= khi + lobe; k++)
+        resid += m[k] == BIN_HARM ? psd[k] : 0.0;
     out->residual_power = resid / enbw;
     out->band_power = out->fundamental_power + out->residual_power;
     *finp = fin;
@@ -826,9 +861,7 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
              .enbw = enbw, .bin_hz = bin_hz};
     x.dof_lobe = dof(&x, 2 * lobe + 1);
     const size_t nband = khi - klo + 1;
-    double band_in = 0.0;
-    for (size_t k = klo; k <= khi; k++)
-        band_in += psd[k];
+    const double band_in = range_sum(psd, klo, khi);
     if (!(band_in > 0)) {
         st = ML_ENOSIGNAL;
         goto done;
