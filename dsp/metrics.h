@@ -8,7 +8,8 @@
  *  - fundamental: with a test tone (see "tone or no tone" below), the tone's bin: the strongest
  *    bin in the band that is not a mains line, or the strongest near tone_hz; power P1 = sum of its
  *    lobe's bins / ENBW (the noise inside the lobe is part of it, and so are lobe bins outside the
- *    band or in DC's lobe). Without a tone, P1 = 0 and no harmonics are measured.
+ *    band or in DC's lobe). A line whose centre lies just below the band's first bin (a tone at
+ *    the band's edge) is taken at its own bin.
  *  - harmonic h (2..harmonics, while h*f1 <= band_hi and < Nyquist): the same, around h*f1;
  *    `power` of a harmonic buried in noise therefore reads the noise power of its lobe. When f1
  *    is less than 2 lobe + 1 bins, the harmonics' lobes overlap the fundamental's: they are
@@ -25,6 +26,12 @@
  *  - hum: components at m * mains_hz (m = 1..hum_harmonics) that do not overlap the fundamental,
  *    a harmonic or the previous multiple, and whose lobe clears DC (ml_spectrum_clears_dc), each
  *    measured like a harmonic; hum_power = the sum of their `power`.
+ *  Without a test tone (tone_present false) the fields above that current callers read as tone
+ *  figures -- fundamental_hz, fundamental_power, harmonics, distortion_power, band_power,
+ *  noise_power, noise_density -- describe the band's strongest line (or the strongest near
+ *  tone_hz) as they did before tone decisions existed; residual_power, noise_nohum_power, hum[],
+ *  hum_power and the figures are the no-tone analysis, where all of the band is noise or hum.
+ *  Report from the figures.
  *
  * Honest readings. Every line (harmonic, hum component) also carries the noise expected in its
  * lobe (the local noise density: the mean over the noise bins within 4 lobes on either side,
@@ -34,16 +41,35 @@
  * of freedom of ml_spectrum_dof for the lobe and for the density's bins; ml_f_quantile). A line
  * that does not is not measured: its `upper_power` is a 99 % upper bound on its power instead.
  * The figures of ml_audio_figures are built from these verdicts and carry their state (measured,
- * upper or lower bound, not measurable) and the reason. Their values never lie beyond
- * +-ML_FIGURE_DB_LIMIT dB (power ratios, and powers re full scale), and ENOB stays in 0..32
- * bits: a value that would is replaced by a bound at the limit with reason ML_WHY_OUT_OF_RANGE.
+ * upper or lower bound, not measurable) and the reason:
+ *  - THD: D_m / P1 with D_m the sum of line_power over the harmonics above the noise; when the
+ *    others could hide more than 0.5 dB of it -- their joint 99 % bound U (their power beyond
+ *    the noise expected in their lobes plus the F-quantile margin on that noise, their degrees of
+ *    freedom added) exceeds 0.122 D_m -- the upper bound (D_m + U) / P1 (noise-limited);
+ *  - the analysis floor: what the analysis itself puts into the band's noise bins -- the window
+ *    leakage of the band's strongest line and of DC (exact, ml_window_leakage, averaged over
+ *    sampled noise bins) plus the transform's rounding (1e-28 of the strongest line per bin per
+ *    4096 points, 10 dB above what a bin-centred double tone shows); a noise or residual within
+ *    6 dB of that floor is no measurement: it becomes an upper bound (and SNR, SINAD, ENOB lower
+ *    bounds), never a floor value;
+ *  - hum: the sum of line_power of the mains lines above the noise; a lower bound when not every
+ *    multiple was resolved (from DC or from each other); with no mains line above the noise the
+ *    joint 99 % bound of the slots (the larger of 50 and 60 Hz when the mains was not given).
+ * Their values never lie beyond +-ML_FIGURE_DB_LIMIT dB (power ratios, and powers re full scale),
+ * and ENOB stays in 0..32 bits: a value that would is replaced by a bound at the limit with reason
+ * ML_WHY_OUT_OF_RANGE (a bound that says nothing inside the range becomes not measurable).
  *
  * Tone or no tone (cfg.tone_mode ML_TONE_AUTO):
- *  1. mains lines: the multiples m = 1..hum_harmonics of 50 and of 60 Hz (or of mains_hz) that
- *     stand above the noise and whose frequency (from the phase advance between segments,
- *     ml_spectrum_get_frequency) lies within 1 % of m * mains; mains_hz 0 takes the family whose
- *     lines hold more power (multiples of 300 Hz, common to both, count only when nothing else
- *     decides), or none when no line of either stands above the noise.
+ *  1. mains lines: among the multiples m = 1..hum_harmonics of 50 and of 60 Hz (or of mains_hz)
+ *     that stand above the noise within 1 % of m * mains (frequency from the phase advance
+ *     between segments, read at a bin where that estimate is unambiguous), the base -- the
+ *     stronger of the two lowest orders that clear DC (50 and 100 Hz: the mains itself and the
+ *     rectifier ripple, in practice always where hum is strongest) -- and the higher orders whose
+ *     frequency is their order times the base's (half a bin or 0.2 %) and that are less than 6 dB
+ *     above the base (stronger, they are a tone at a mains multiple). No base, no mains lines: a
+ *     lone line at 250 Hz is no hum. Lines at the strongest line's harmonics are skipped unless
+ *     that line is itself a mains line. mains_hz 0 takes the family whose lines hold more power
+ *     (multiples of 300 Hz, common to both, count only when nothing else decides), or none.
  *  2. candidate: the strongest bin of the band outside the lobes of those mains lines (with
  *     tone_hz, the strongest within a lobe of it).
  *  3. the candidate is a test tone when it is clear: its power exceeds the noise in its lobe by
@@ -51,8 +77,9 @@
  *     thousands of lobes), and it is at least ML_TONE_CLEAR_DB above the noise in the third of an
  *     octave around it (local density excluding every line, so strong hum does not mask it; the
  *     ear's critical band is about a third of an octave wide: common practice). A candidate at a
- *     higher multiple of the mains (order > hum_harmonics, within a bin) must also be 6 dB above
- *     the strongest mains line, or it is taken for hum.
+ *     higher multiple of the mains (order > hum_harmonics, within a bin or 0.05 Hz per order of
+ *     the measured mains) must also be 6 dB above the base line, or it is taken for hum. A test
+ *     tone at a low multiple of the mains (100 or 150 Hz on 50 Hz mains) needs tone_hz.
  *  ML_TONE_FORCE takes the candidate as the tone whatever its clarity; ML_TONE_NONE has no tone.
  */
 #ifndef ML_DSP_METRICS_H
