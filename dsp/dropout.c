@@ -84,6 +84,7 @@ void ml_dropout_reset(ml_dropout *q)
 
 static void add_event(ml_dropout_result *r, const ml_dropout_event *e)
 {
+    /* stored by member, over zeroed memory: the events hold no stray padding bytes */
     r->nevents++;
     if (e->kind == ML_DROPOUT_SILENCE) {
         r->nsilence++;
@@ -91,8 +92,15 @@ static void add_event(ml_dropout_result *r, const ml_dropout_event *e)
     } else {
         r->nstep++;
     }
-    if (r->nstored < ML_DROPOUT_MAX_EVENTS)
-        r->events[r->nstored++] = *e;
+    if (r->nstored < ML_DROPOUT_MAX_EVENTS) {
+        ml_dropout_event *d = &r->events[r->nstored++];
+        memset(d, 0, sizeof *d);
+        d->kind = e->kind;
+        d->start = e->start;
+        d->end = e->end;
+        d->value = e->value;
+        d->ratio = e->ratio;
+    }
 }
 
 /* A run that reached the minimum: the step flagged on entering it (if any, within two samples of
