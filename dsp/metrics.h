@@ -183,15 +183,17 @@ typedef struct {
     double power;         /* mean square in the component's lobe, >= 0 (noise included) */
     double noise_power;   /* the noise expected in its lobe (local density), >= 0       */
     double line_power;    /* power - noise_power, >= 0: the line alone                  */
-    double upper_power;   /* 99 % upper bound on the line's power, >= line_power        */
+    double upper_power;   /* 99 % upper bound on the line's power, >= line_power;
+                             INFINITY when the noise estimate has too few degrees of
+                             freedom for any bound (a handful of noise bins)            */
     bool above_noise;     /* the line stands above the noise (header): a measurement;
                              otherwise report at most "< upper_power", never power      */
 } ml_component;
 
 typedef struct {
     double band_lo_hz, band_hi_hz; /* band actually used (after clipping to Nyquist)    */
-    double fundamental_hz;         /* 0 without a tone                                  */
-    double fundamental_power;      /* P1; 0 without a tone                              */
+    double fundamental_hz;         /* the tone's; without one, the strongest line's (header) */
+    double fundamental_power;      /* P1; likewise                                      */
     double distortion_power;       /* D                                                 */
     double noise_power;            /* N                                                 */
     double band_power;             /* B = P1 + R                                        */
@@ -215,7 +217,8 @@ typedef struct {
     double candidate_margin_db;    /* its power over the noise in its third octave, dB
                                       (NAN without a candidate or without noise)         */
     /* noise and floor */
-    double residual_power;         /* R (summed directly: no cancellation in B - P1)     */
+    double residual_power;         /* R (summed directly: no cancellation in B - P1);
+                                      without a tone, all of the band                  */
     double noise_nohum_power;      /* N_nohum                                            */
     double floor_density;          /* the analysis' own floor per bin (/ ENBW): window
                                       leakage of the strongest line and of DC (exact,
