@@ -50,7 +50,14 @@ struct ml_spectrum {
     fftwf_plan fplan;
     ml_spectrum_segment_fn hook; /* called after each transform, or NULL                */
     void *hook_ctx;
+    double wsum;        /* sum w (remove_dc)                                        */
+    double rho[4 * ML_MAX_WINDOW_TERMS];  /* |G(d)|^2 / G(0)^2, d = 0..2(K-1) (dof)       */
+    size_t nrho;
+    double *ovl;        /* squared overlap correlation at lags l hop, l = 1..novl (dof)     */
+    size_t novl;
 };
+
+#define ML_MAX_OVERLAP_LAGS 1024
 
 ml_spectrum_config ml_spectrum_config_default(double rate_hz)
 {
@@ -64,6 +71,57 @@ ml_spectrum_config ml_spectrum_config_default(double rate_hz)
     return c;
 }
 
+/* The window's noise statistics for ml_spectrum_dof. The squared window of a K-term cosine window
+ * is a (2K-1)-term cosine sum: with the two-sided coefficients a_{+-k} = (-1)^k c_k / 2 (a_0 = c_0)
+ * of w, those of w^2 are b = a * a, and G(d) = sum_j w[j]^2 e^{-2 pi i d j / n} = n b_d, so
+ * rho(d) = b_d^2 / b_0^2 (zero beyond 2(K-1)). The overlap correlation at lag s is
+ * sum_j w[j] w[j+s] / sum w^2, summed here over at most 2048 evenly spaced j (the window is smooth,
+ * and near zero at both ends: the rule's error is far below what the dof needs). */
+static int noise_statistics(ml_spectrum *q)
+{
+    double c[ML_MAX_WINDOW_TERMS];
+    const size_t nt = ml_window_coefficients(q->cfg.window, c, ML_MAX_WINDOW_TERMS);
+    const int kk = (int)nt - 1;
+    double a[2 * ML_MAX_WINDOW_TERMS - 1];
+    for (int k = -kk; k <= kk; k++)
+        a[k + kk] = k == 0 ? c[0] : ((k % 2 != 0) ? -0.5 : 0.5) * c[k < 0 ? -k : k];
+    q->nrho = (size_t)(2 * kk + 1);
+    double b0 = 0.0;
+    for (int d = 0; d <= 2 * kk; d++) {
+        double bd = 0.0;
+        for (int k = -kk; k <= kk; k++) {
+            const int j = d - k;
+            if (j >= -kk && j <= kk)
+                bd += a[k + kk] * a[j + kk];
+        }
+        if (d == 0)
+            b0 = bd;
+        q->rho[d] = bd * bd / (b0 * b0);
+    }
+    const size_t n = q->cfg.nfft, hop = q->cfg.hop;
+    size_t lags = (n - 1) / hop;
+    if (lags > ML_MAX_OVERLAP_LAGS)
+        lags = ML_MAX_OVERLAP_LAGS;
+    q->novl = lags;
+    if (lags == 0)
+        return 1;
+    q->ovl = malloc(lags * sizeof *q->ovl);
+    if (q->ovl == NULL)
+        return 0;
+    const size_t step = n > 2048 ? n / 2048 : 1;
+    double w2 = 0.0;
+    for (size_t j = 0; j < n; j += step)
+        w2 += q->win[j] * q->win[j];
+    for (size_t l = 1; l <= lags; l++) {
+        const size_t sft = l * hop;
+        double acc = 0.0;
+        for (size_t j = 0; j + sft < n; j += step)
+            acc += q->win[j] * q->win[j + sft];
+        q->ovl[l - 1] = (acc / w2) * (acc / w2);
+    }
+    return 1;
+}
+
 static int is_pow2(size_t n)
 {
     return n != 0 && (n & (n - 1)) == 0;
@@ -75,7 +133,8 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     *out = NULL;
     if (cfg == NULL || !is_pow2(cfg->nfft) || cfg->nfft < 16 || cfg->nfft > ((size_t)1 << 24)
         || cfg->hop == 0 || cfg->hop > cfg->nfft || !(cfg->rate_hz > 0) || !isfinite(cfg->rate_hz)
-        || (unsigned)cfg->window >= ML_WINDOW_COUNT || (cfg->single_precision && !cfg->complex_input))
+        || (unsigned)cfg->window >= ML_WINDOW_COUNT || (cfg->single_precision && !cfg->complex_input)
+        || (cfg->remove_dc && cfg->complex_input))
         return ML_EINVAL;
     ml_status st = ML_ENOMEM;
     ml_spectrum *q = calloc(1, sizeof *q);
@@ -134,7 +193,11 @@ ml_status ml_spectrum_create(const ml_spectrum_config *cfg, ml_spectrum **out)
     for (size_t i = 0; i < cfg->nfft; i++)
         s += q->win[i];
     q->scale = (cplx ? 1.0 : 2.0) / (s * s);
+    q->wsum = s;
+    q->cfg.remove_dc = cfg->remove_dc ? 1 : 0;
     q->enbw = ml_window_enbw_bins(q->win, cfg->nfft);
+    if (!noise_statistics(q))
+        goto fail;
     ml_spectrum_reset(q);
     *out = q;
     return ML_OK;
@@ -168,6 +231,7 @@ void ml_spectrum_destroy(ml_spectrum *q)
     fftw_free(q->xsel);
     free(q->sel);
     free(q->tags);
+    free(q->ovl);
     free(q);
 }
 
@@ -280,6 +344,15 @@ ML_HOT static void transform_double(ml_spectrum *q, int selected)
     } else {
         for (size_t i = 0; i < n; i++)
             q->in[i] = q->buf[i] * w[i];
+        if (q->cfg.remove_dc) {
+            /* w (x - m) with m = sum(w x) / sum(w): the windowed segment then sums to 0 */
+            double sx = 0.0;
+            for (size_t i = 0; i < n; i++)
+                sx += q->in[i];
+            const double mean = sx / q->wsum;
+            for (size_t i = 0; i < n; i++)
+                q->in[i] -= mean * w[i];
+        }
         fftw_execute_dft_r2c(q->plan, q->in, q->out);
     }
     const fftw_complex *prev = q->segments > 0 ? q->prev : NULL;
@@ -528,6 +601,38 @@ size_t ml_spectrum_lobe_bins(const ml_spectrum *q)
 ml_window_type ml_spectrum_window(const ml_spectrum *q)
 {
     return q ? q->cfg.window : ML_WINDOW_COUNT;
+}
+
+int ml_spectrum_removes_dc(const ml_spectrum *q)
+{
+    return q ? q->cfg.remove_dc : 0;
+}
+
+int ml_spectrum_clears_dc(const ml_spectrum *q, size_t c)
+{
+    if (q == NULL)
+        return 0;
+    const size_t lobe = ml_spectrum_lobe_bins(q);
+    return q->cfg.remove_dc ? c >= lobe + 1 : c >= 2 * lobe;
+}
+
+double ml_spectrum_dof(const ml_spectrum *q, size_t nb)
+{
+    const size_t segs = ml_spectrum_segments(q);
+    if (q == NULL || segs == 0 || nb == 0)
+        return 0.0;
+    /* one segment: var(sum_k |X_k|^2) / mean^2 = sum_{k,j} rho(k - j) / nb^2 (Isserlis) */
+    const double m = (double)nb;
+    double s = m * q->rho[0];
+    for (size_t d = 1; d < q->nrho && d < nb; d++)
+        s += 2.0 * (m - (double)d) * q->rho[d];
+    const double v1 = s / (m * m);
+    /* the mean of S segments whose estimates l apart correlate by ovl[l] */
+    const double S = (double)segs;
+    double f = 1.0;
+    for (size_t l = 1; l <= q->novl && l < segs; l++)
+        f += 2.0 * (1.0 - (double)l / S) * q->ovl[l - 1];
+    return 2.0 / (v1 * f / S);
 }
 
 ml_status ml_spectrum_get_psd(const ml_spectrum *q, double *psd, size_t nbins)

@@ -30,6 +30,11 @@ typedef struct {
                               (about twice as fast; its rounding floor lies some 150 dB below
                               a strong tone's bin, tests/unit/test_dsp_spectrum.c),
                               accumulate in double; the segment hook is then not called      */
+    int remove_dc;         /* real input only: 1 removes each segment's window-weighted mean
+                              m = sum(w x) / sum(w) before the transform (the windowed segment is
+                              w (x - m)), so a DC offset leaves nothing in bins 0..K (K the
+                              window's terms) and a line needs only to clear its own lobe, not
+                              DC's as well (ml_spectrum_clears_dc). Default 0                 */
 } ml_spectrum_config;
 
 /* nfft: the power of two giving bins of about 0.75 Hz at rate_hz (at most 2^18); hop nfft/2. */
@@ -93,6 +98,21 @@ double ml_spectrum_rate_hz(const ml_spectrum *q);
 double ml_spectrum_enbw_bins(const ml_spectrum *q);
 size_t ml_spectrum_lobe_bins(const ml_spectrum *q); /* half-width that holds a tone: terms + 1 */
 ml_window_type ml_spectrum_window(const ml_spectrum *q);
+int ml_spectrum_removes_dc(const ml_spectrum *q); /* the config's remove_dc (0 for NULL)          */
+
+/* Whether a line whose lobe is centred on bin c (c >= 0) can be measured apart from DC: its
+ * +-lobe bins (ml_spectrum_lobe_bins) must not reach DC's lobe (c >= 2 lobe) or, with remove_dc,
+ * must not reach bin 0, where the line's own mirror image lies (c >= lobe + 1). Real input. */
+int ml_spectrum_clears_dc(const ml_spectrum *q, size_t c);
+
+/* Equivalent degrees of freedom nu of the accumulated power summed over nb adjacent bins (away
+ * from DC and Nyquist) when the input is Gaussian noise: the sum then has mean S and variance
+ * 2 S^2 / nu, and nu S_hat / S is approximately chi-square with nu degrees of freedom. Accounts
+ * for the window's correlation of neighbouring bins (|G(d)|^2 of the squared window's transform,
+ * exact for the cosine windows) and for the overlap of consecutive segments (the squared overlap
+ * correlation of the window at each lag that is a multiple of hop, for up to 1024 lags). One
+ * segment and one bin: 2. 0 when no segment is complete or nb == 0. Never allocates. */
+double ml_spectrum_dof(const ml_spectrum *q, size_t nb);
 
 /* Mean power per bin since reset (scaling above); psd holds nbins values.
  * ML_ENOSIGNAL when no segment is complete yet. */

@@ -10,6 +10,7 @@
  */
 #include "dsp/window.h"
 
+#include <complex.h>
 #include <math.h>
 
 #include "dsp/internal.h"
@@ -50,6 +51,51 @@ ml_status ml_window_fill(ml_window_type type, double *w, size_t n)
         w[i] = acc;
     }
     return ML_OK;
+}
+
+size_t ml_window_coefficients(ml_window_type type, double *c, size_t max)
+{
+    if ((unsigned)type >= ML_WINDOW_COUNT || c == NULL)
+        return 0;
+    const window_def *d = &defs[type];
+    for (size_t k = 0; k < d->nterms && k < max; k++)
+        c[k] = d->c[k];
+    return d->nterms;
+}
+
+double ml_window_leakage(ml_window_type type, size_t n, double offset_bins)
+{
+    if ((unsigned)type >= ML_WINDOW_COUNT || n < 2 || !isfinite(offset_bins))
+        return 0.0;
+    const window_def *d = &defs[type];
+    const double dn = (double)n;
+    /* w[j] = sum_k (-1)^k c_k cos(2 pi k j / n) has the two-sided coefficients a_0 = c_0,
+     * a_{+-k} = (-1)^k c_k / 2, so W(nu) = sum_k a_k D(nu - k) with the Dirichlet kernel
+     * D(x) = sum_{j<n} exp(-2 pi i x j / n) = exp(-i pi x (n-1)/n) sin(pi x) / sin(pi x / n).
+     * A whole offset d (taken modulo n) hits the kernel's zeros except at d - k = 0: W(d) = n a_d. */
+    const double i0 = nearbyint(offset_bins), f = offset_bins - i0;
+    if (f == 0.0) {
+        double a = 0.0; /* the coefficients whose index is congruent to the offset modulo n */
+        const long r = (long)remainder(i0, dn), nl = (long)n;
+        for (long k = -(long)d->nterms + 1; k < (long)d->nterms; k++)
+            if ((r - k) % nl == 0)
+                a += k == 0 ? d->c[0] : ((k % 2 != 0) ? -0.5 : 0.5) * d->c[k < 0 ? -k : k];
+        return (a / d->c[0]) * (a / d->c[0]);
+    }
+    /* With x = i + f (i whole, |f| <= 1/2), the factors (-1)^i of exp(-i pi x) and sin(pi x) cancel:
+     * D(x) = exp(-i pi f) sin(pi f) exp(i pi x / n) / sin(pi x / n)
+     *      = exp(-i pi f) sin(pi f) (cot(pi x / n) + i).
+     * Every term x = nu -+ k shares f, so |W(nu)| = |sin(pi f)| |sum_k a_k cot(pi x_k / n) + i sum_k a_k|,
+     * one tangent per term, each to full relative precision: the flat tops' cancellation then holds
+     * to about 1e-16 of the largest term, and large offsets lose nothing. W(0) = n c_0. */
+    double re = d->c[0] / tan(ML_PI * offset_bins / dn), im = d->c[0];
+    for (size_t k = 1; k < d->nterms; k++) {
+        const double a = (k % 2 ? -0.5 : 0.5) * d->c[k];
+        re += a * (1.0 / tan(ML_PI * (offset_bins - (double)k) / dn) + 1.0 / tan(ML_PI * (offset_bins + (double)k) / dn));
+        im += 2.0 * a;
+    }
+    const double r = hypot(re, im) * fabs(sin(ML_PI * f)) / (dn * d->c[0]);
+    return r * r;
 }
 
 size_t ml_window_terms(ml_window_type type)

@@ -476,6 +476,152 @@ START_TEST(white_noise_power)
 }
 END_TEST
 
+/* ---- DC removal and degrees of freedom ------------------------------------------------------- */
+
+START_TEST(remove_dc_empties_dc_lobe)
+{
+    /* 0.3 DC plus a tone of amplitude 0.5 at bin 100.37 (nfft 4096, HFT248D, K = 11). Without
+     * removal, bin 0 holds the DC power 0.09 (dsp/spectrum.h scaling: a constant c reads c^2 there).
+     * With remove_dc each segment is w (x - m), m = sum(w x)/sum(w): m is the DC plus the tone's
+     * leakage into bin 0 (-248 dB sidelobes: < 1e-12 of 0.5), so bins 0..K keep only that leakage
+     * times the window's lobe, below 1e-20 (-200 dB) of the tone; the tone's lobe power is
+     * unchanged to 1e-12 relative (the removed term m w has no power beyond bin K). A tone at bin
+     * 13.4 (its lobe reaching bin 1.4) keeps its power 0.125 within 1e-9 only with the removal. */
+    enum { nfft = 4096, hop = 2048, n = nfft + 5 * hop };
+    const double f1 = 100.37 * FS / nfft, f2 = 13.4 * FS / nfft;
+    double *xd = calloc(n, sizeof *xd), *yd = calloc(n, sizeof *yd);
+    ck_assert_ptr_nonnull(xd);
+    ck_assert_ptr_nonnull(yd);
+    for (size_t i = 0; i < n; i++)
+        xd[i] = yd[i] = 0.3;
+    ts_add_sine(xd, n, 0.5, f1, FS, 0.2);
+    ts_add_sine(yd, n, 0.5, f2, FS, 0.2);
+    ml_spectrum_config c = {.nfft = nfft, .hop = hop, .window = ML_WINDOW_HFT248D, .rate_hz = FS};
+    ml_spectrum *plain = NULL, *rem = NULL, *rem2 = NULL;
+    ck_assert_int_eq(ml_spectrum_create(&c, &plain), ML_OK);
+    c.remove_dc = 1;
+    ck_assert_int_eq(ml_spectrum_create(&c, &rem), ML_OK);
+    ck_assert_int_eq(ml_spectrum_create(&c, &rem2), ML_OK);
+    ck_assert_int_eq(ml_spectrum_removes_dc(rem), 1);
+    ck_assert_int_eq(ml_spectrum_removes_dc(plain), 0);
+    ml_spectrum_push_double(plain, xd, n);
+    ml_spectrum_push_double(rem, xd, n);
+    ml_spectrum_push_double(rem2, yd, n);
+    double *pp = get_psd(plain), *pr = get_psd(rem), *p2 = get_psd(rem2);
+    ck_assert_double_eq_tol(pp[0], 0.09, 1e-9);
+    for (size_t k = 0; k <= 11; k++)
+        ck_assert_msg(pr[k] <= 1e-20 * 0.125, "bin %zu: %.3g", k, pr[k]);
+    const size_t lobe = ml_spectrum_lobe_bins(rem);
+    double sp = 0.0, sr = 0.0, s2 = 0.0;
+    for (size_t k = 100 - lobe; k <= 100 + lobe; k++) {
+        sp += pp[k];
+        sr += pr[k];
+    }
+    for (size_t k = 1; k <= 13 + lobe; k++)
+        s2 += p2[k];
+    ck_assert_double_eq_tol(sr, sp, 1e-12 * sp);
+    const double enbw = ml_spectrum_enbw_bins(rem);
+    ck_assert_double_eq_tol(sr / enbw, 0.125, 1e-6 * 0.125);
+    ck_assert_double_eq_tol(s2 / enbw, 0.125, 1e-9);
+    /* the rule that goes with it (dsp/spectrum.h): lobe 12, c >= 13 with removal, c >= 24 without */
+    ck_assert_int_eq(ml_spectrum_clears_dc(rem, 13), 1);
+    ck_assert_int_eq(ml_spectrum_clears_dc(rem, 12), 0);
+    ck_assert_int_eq(ml_spectrum_clears_dc(plain, 24), 1);
+    ck_assert_int_eq(ml_spectrum_clears_dc(plain, 23), 0);
+    /* block invariance with removal: 1, 7 and 4096 frames */
+    const size_t blocks[] = {1, 7, 4096};
+    for (size_t b = 0; b < 3; b++) {
+        ml_spectrum_reset(rem);
+        for (size_t i = 0; i < n; i += blocks[b])
+            ml_spectrum_push_double(rem, xd + i, n - i < blocks[b] ? n - i : blocks[b]);
+        double *pb = get_psd(rem);
+        for (size_t k = 0; k < nfft / 2 + 1; k++)
+            ck_assert_msg(pb[k] == pr[k], "block %zu bin %zu", blocks[b], k);
+        free(pb);
+    }
+    /* complex input has no DC removal */
+    c.complex_input = 1;
+    ml_spectrum *bad = NULL;
+    ck_assert_int_eq(ml_spectrum_create(&c, &bad), ML_EINVAL);
+    ck_assert_ptr_null(bad);
+    free(pp);
+    free(pr);
+    free(p2);
+    free(xd);
+    free(yd);
+    ml_spectrum_destroy(plain);
+    ml_spectrum_destroy(rem);
+    ml_spectrum_destroy(rem2);
+}
+END_TEST
+
+/* Monte Carlo: the relative variance of the sum of psd over bins [k0, k0 + nb) for white Gaussian
+ * noise, over `trials` independent captures of n samples. */
+static double mc_relvar(size_t nfft, size_t hop, size_t n, size_t k0, size_t nb, size_t trials, uint64_t seed,
+                        double *dof)
+{
+    ml_spectrum *q = make(nfft, hop, ML_WINDOW_HFT248D, FS);
+    double *x = malloc(n * sizeof *x), s = 0.0, s2 = 0.0;
+    ck_assert_ptr_nonnull(x);
+    ts_rng r = {seed};
+    for (size_t t = 0; t < trials; t++) {
+        for (size_t i = 0; i < n; i++)
+            x[i] = ts_gauss(&r);
+        ml_spectrum_reset(q);
+        ml_spectrum_push_double(q, x, n);
+        double *p = get_psd(q), v = 0.0;
+        for (size_t k = k0; k < k0 + nb; k++)
+            v += p[k];
+        free(p);
+        s += v;
+        s2 += v * v;
+    }
+    *dof = ml_spectrum_dof(q, nb);
+    ml_spectrum_destroy(q);
+    free(x);
+    const double m = s / (double)trials;
+    return (s2 / (double)trials - m * m) / (m * m);
+}
+
+START_TEST(dof_against_monte_carlo)
+{
+    /* ml_spectrum_dof's nu: the sum has relative variance 2/nu. Independent checks:
+     * (a) one segment, one bin: |X_k|^2 of Gaussian noise is exponential: nu = 2 exactly; two
+     *     segments with hop = nfft (no overlap): 4;
+     * (b) one segment, 25 bins: 2 / ts_band_relvar (testsig.h: G(d) by a direct DFT of the sampled
+     *     w^2, independent of the library's closed form): 1e-9;
+     * (c) Monte Carlo, 3000 captures: 6 segments at hop nfft/2 and 8 at hop nfft/4 (overlapped, the
+     *     overlap terms at work), 25 bins. The variance of a variance estimate from T samples has a
+     *     relative sd of about sqrt((2 + kurtosis excess)/T), at most 0.03 here: 12 % is 4 sd. */
+    enum { nfft = 256 };
+    double dof = 0.0;
+    ml_spectrum *q = make(nfft, nfft, ML_WINDOW_HFT248D, FS);
+    double x[2 * nfft];
+    ts_rng r = {5};
+    for (size_t i = 0; i < 2 * nfft; i++)
+        x[i] = ts_gauss(&r);
+    ck_assert_double_eq(ml_spectrum_dof(q, 1), 0.0); /* nothing accumulated */
+    ml_spectrum_push_double(q, x, nfft);
+    ck_assert_double_eq_tol(ml_spectrum_dof(q, 1), 2.0, 1e-12);
+    static double w[nfft], rho[21];
+    ck_assert_int_eq(ml_window_fill(ML_WINDOW_HFT248D, w, nfft), ML_OK);
+    ts_window_rho(w, nfft, rho, 20);
+    ck_assert_double_eq_tol(ml_spectrum_dof(q, 25), 2.0 / ts_band_relvar(rho, 20, 25), 1e-9);
+    ml_spectrum_push_double(q, x + nfft, nfft);
+    ck_assert_double_eq_tol(ml_spectrum_dof(q, 1), 4.0, 1e-12);
+    ck_assert_double_eq(ml_spectrum_dof(q, 0), 0.0);
+    ml_spectrum_destroy(q);
+    const struct {
+        size_t hop, n;
+    } cfg[] = {{nfft / 2, nfft + 5 * nfft / 2}, {nfft / 4, nfft + 7 * nfft / 4}};
+    for (size_t i = 0; i < 2; i++) {
+        const double rv = mc_relvar(nfft, cfg[i].hop, cfg[i].n, 52, 25, 3000, 100 + i, &dof);
+        const double nu_mc = 2.0 / rv;
+        ck_assert_msg(fabs(nu_mc / dof - 1.0) <= 0.12, "hop %zu: dof %.3f, Monte Carlo %.3f", cfg[i].hop, dof, nu_mc);
+    }
+}
+END_TEST
+
 /* ---- frequency estimate --------------------------------------------------------------------- */
 
 START_TEST(frequency_of_clean_tone)
@@ -902,6 +1048,8 @@ static Suite *spectrum_suite(void)
     tcase_add_test(tc, white_noise_power);
     tcase_add_test(tc, frequency_of_clean_tone);
     tcase_add_test(tc, frequency_single_segment_fallback);
+    tcase_add_test(tc, remove_dc_empties_dc_lobe);
+    tcase_add_test(tc, dof_against_monte_carlo);
     suite_add_tcase(s, tc);
     tc = tcase_create("complex_and_tagged");
     tcase_add_test(tc, complex_input_layout_and_entry_points);

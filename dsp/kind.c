@@ -1,0 +1,434 @@
+/* Kind evidence: an I/Q pair or not, an AM IF channel or audio (definitions in dsp/kind.h).
+ * SPDX-License-Identifier: MIT
+ *
+ * References: none beyond dsp/metrics.h (line verdicts) and dsp/spectrum.h (Welch spectra).
+ */
+#include "dsp/kind.h"
+
+#include <complex.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+
+#include "dsp/internal.h"
+#include "dsp/metrics.h"
+
+#define COPIES_FRACTION 0.9  /* principal fraction of two copies (rule 2)                        */
+#define IMAGE_DB 10.0        /* one-sided spectrum (rule 3)                                      */
+#define SILENT_RATIO 1e-10   /* a channel 100 dB below the other is silent (rule 1)                */
+#define LOW_HZ 3000.0        /* an IF carrier lies above this (channel rule 1)                    */
+#define SYMMETRIC_DB 3.0     /* sideband pairs within 3 dB (channel rules 2, 3)                    */
+#define SPAN_HZ 10000.0      /* sidebands searched within +-10 kHz (channel rule 2)                */
+#define BASEBAND_HUM_DBC (-60.0) /* baseband hum weaker than this may be pickup (channel rule 5)  */
+#define CHUNK 256
+
+struct ml_pair {
+    ml_pair_config cfg;
+    ml_spectrum *spec;
+    double n, sx, sy, sxx, syy, sxy; /* sums of the samples minus the first frame's (shifted data) */
+    double kx, ky;                   /* the shift                                                  */
+};
+
+ml_pair_config ml_pair_config_default(double rate_hz)
+{
+    ml_pair_config c = {.rate_hz = rate_hz, .nfft = 1024};
+    while (rate_hz > 0 && c.nfft < ((size_t)1 << 20) && rate_hz / (double)c.nfft > 3.0)
+        c.nfft *= 2;
+    return c;
+}
+
+ml_status ml_pair_create(const ml_pair_config *cfg, ml_pair **out)
+{
+    if (out == NULL)
+        return ML_EINVAL;
+    *out = NULL;
+    if (cfg == NULL || !(cfg->rate_hz > 0) || !isfinite(cfg->rate_hz) || cfg->nfft < 16 || cfg->nfft > ((size_t)1 << 20)
+        || (cfg->nfft & (cfg->nfft - 1)) != 0)
+        return ML_EINVAL;
+    ml_pair *q = calloc(1, sizeof *q);
+    if (q == NULL)
+        return ML_ENOMEM;
+    q->cfg = *cfg;
+    ml_spectrum_config sc = ml_spectrum_config_default(cfg->rate_hz);
+    sc.nfft = cfg->nfft;
+    sc.hop = cfg->nfft / 2;
+    sc.complex_input = 1;
+    ml_status st = ml_spectrum_create(&sc, &q->spec);
+    if (st != ML_OK) {
+        free(q);
+        return st;
+    }
+    *out = q;
+    return ML_OK;
+}
+
+void ml_pair_destroy(ml_pair *q)
+{
+    if (q == NULL)
+        return;
+    ml_spectrum_destroy(q->spec);
+    free(q);
+}
+
+void ml_pair_reset(ml_pair *q)
+{
+    if (q == NULL)
+        return;
+    ml_spectrum_reset(q->spec);
+    q->n = q->sx = q->sy = q->sxx = q->syy = q->sxy = q->kx = q->ky = 0.0;
+}
+
+ml_status ml_pair_push(ml_pair *q, const float *frames, size_t nframes, size_t channels, size_t ch_x, size_t ch_y)
+{
+    if (q == NULL || (frames == NULL && nframes > 0) || channels < 2 || ch_x >= channels || ch_y >= channels
+        || ch_x == ch_y)
+        return ML_EINVAL;
+    double complex z[CHUNK];
+    for (size_t i = 0; i < nframes;) {
+        const size_t m = nframes - i < CHUNK ? nframes - i : CHUNK;
+        for (size_t j = 0; j < m; j++) {
+            const double x = frames[(i + j) * channels + ch_x], y = frames[(i + j) * channels + ch_y];
+            if (q->n == 0) {
+                q->kx = x;
+                q->ky = y;
+            }
+            const double dx = x - q->kx, dy = y - q->ky;
+            q->n += 1.0;
+            q->sx += dx;
+            q->sy += dy;
+            q->sxx += dx * dx;
+            q->syy += dy * dy;
+            q->sxy += dx * dy;
+            z[j] = CMPLX(x, y);
+        }
+        ml_status st = ml_spectrum_push_complex(q->spec, z, m);
+        if (st != ML_OK)
+            return st;
+        i += m;
+    }
+    return ML_OK;
+}
+
+/* Sum of psd over the lobe around bin k of an nfft-bin complex spectrum (indices wrap). */
+static double lobe_power(const double *psd, size_t nfft, size_t k, size_t lobe)
+{
+    double s = 0.0;
+    for (size_t d = 0; d <= 2 * lobe; d++)
+        s += psd[(k + nfft - lobe + d) % nfft];
+    return s;
+}
+
+ml_status ml_pair_get(const ml_pair *q, ml_pair_result *r)
+{
+    if (q == NULL || r == NULL)
+        return ML_EINVAL;
+    *r = (ml_pair_result){.verdict = ML_PAIR_UNDECIDED, .correlation = NAN, .principal_fraction = NAN,
+                          .line_hz = NAN, .image_db = NAN, .asymmetry_db = NAN};
+    if (q->n < 2)
+        return ML_OK;
+    const double n = q->n, mx = q->sx / n, my = q->sy / n;
+    const double vx = fmax(q->sxx / n - mx * mx, 0.0), vy = fmax(q->syy / n - my * my, 0.0);
+    const double cxy = q->sxy / n - mx * my;
+    r->power_x = vx;
+    r->power_y = vy;
+    if (vx > 0 && vy > 0)
+        r->correlation = fmax(-1.0, fmin(1.0, cxy / sqrt(vx * vy)));
+    if (vx + vy > 0) {
+        const double h = 0.5 * (vx - vy), lmax = 0.5 * (vx + vy) + sqrt(h * h + cxy * cxy);
+        r->principal_fraction = fmin(1.0, lmax / (vx + vy));
+    }
+    /* the complex spectrum: the strongest line off DC, its mirror, the balance of the two sides */
+    const size_t nfft = ml_spectrum_nfft(q->spec), lobe = ml_spectrum_lobe_bins(q->spec);
+    const double *acc = ml_spectrum_sum(q->spec);
+    if (ml_spectrum_segments(q->spec) > 0 && acc != NULL) {
+        size_t kmax = 0;
+        double pos = 0.0, neg = 0.0, tot = 0.0;
+        for (size_t k = lobe; k + lobe <= nfft; k++) {
+            tot += acc[k];
+            if (k < nfft / 2)
+                pos += acc[k];
+            else if (k > nfft / 2)
+                neg += acc[k];
+            if (kmax == 0 || acc[k] > acc[kmax])
+                kmax = k;
+        }
+        if (pos + neg > 0)
+            r->asymmetry_db = 10.0 * log10(fmax(pos, 1e-30 * (pos + neg)) / fmax(neg, 1e-30 * (pos + neg)));
+        /* a line: its lobe holds 10 times the power the mean density would put there */
+        const double lp = kmax ? lobe_power(acc, nfft, kmax, lobe) : 0.0;
+        const double mean_lobe = tot / (double)(nfft - 2 * lobe + 1) * (double)(2 * lobe + 1);
+        if (kmax != 0 && kmax != nfft / 2 && lp > 10.0 * mean_lobe) {
+            const double im = lobe_power(acc, nfft, nfft - kmax, lobe);
+            r->line_hz = ml_spectrum_bin_hz(q->spec, kmax);
+            ml_spectrum_get_frequency(q->spec, kmax, &r->line_hz);
+            r->image_db = 10.0 * log10(lp / fmax(im, 1e-30 * lp));
+        }
+    }
+    if (vx == 0 || vy == 0 || vx < SILENT_RATIO * vy || vy < SILENT_RATIO * vx) {
+        r->verdict = ML_PAIR_SILENT;
+        r->silent_channel = vx < vy ? 1 : 2;
+    } else if (r->principal_fraction >= COPIES_FRACTION) {
+        r->verdict = ML_PAIR_COPIES;
+    } else if (isnan(r->asymmetry_db)) {
+        r->verdict = ML_PAIR_UNDECIDED; /* no complete segment yet */
+    } else if (!isnan(r->image_db) ? r->image_db >= IMAGE_DB : fabs(r->asymmetry_db) >= IMAGE_DB) {
+        r->verdict = ML_PAIR_IQ;
+    } else {
+        r->verdict = ML_PAIR_TWO_SIGNALS;
+    }
+    return ML_OK;
+}
+
+char *ml_pair_reason(const ml_pair_result *r, char *buf, size_t n)
+{
+    if (buf == NULL || n == 0)
+        return buf;
+    if (r == NULL) {
+        buf[0] = '\0';
+        return buf;
+    }
+    const double lv = r->power_x > 0 && r->power_y > 0 ? 10.0 * log10(r->power_x / r->power_y) : NAN;
+    switch (r->verdict) {
+    case ML_PAIR_IQ:
+        if (!isnan(r->image_db))
+            snprintf(buf, n, "a quadrature pair: the line at %+.1f Hz has its mirror image %.0f dB below it",
+                     r->line_hz, r->image_db);
+        else
+            snprintf(buf, n, "a quadrature pair: %.0f dB more power on one side of 0 Hz than on the other",
+                     fabs(r->asymmetry_db));
+        break;
+    case ML_PAIR_COPIES:
+        snprintf(buf, n,
+                 "the channels carry one signal (principal fraction %.4f, correlation %.4f, levels %.1f dB "
+                 "apart): not an I/Q pair",
+                 r->principal_fraction, r->correlation, lv);
+        break;
+    case ML_PAIR_TWO_SIGNALS:
+        if (!isnan(r->image_db))
+            snprintf(buf, n,
+                     "two real signals: the complex spectrum is mirror-symmetric (the line at %+.1f Hz has its "
+                     "image only %.1f dB below it; correlation %.3f): not an I/Q pair",
+                     r->line_hz, r->image_db, r->correlation);
+        else
+            snprintf(buf, n,
+                     "two real signals: the complex spectrum is mirror-symmetric (sides %.1f dB apart; "
+                     "correlation %.3f): not an I/Q pair",
+                     r->asymmetry_db, r->correlation);
+        break;
+    case ML_PAIR_SILENT:
+        snprintf(buf, n, "channel %zu is silent: not an I/Q pair", r->silent_channel);
+        break;
+    default:
+        snprintf(buf, n, "too short to tell whether the channels are an I/Q pair");
+        break;
+    }
+    return buf;
+}
+
+/* ---- one real channel ------------------------------------------------------------------------ */
+
+static size_t bin_of(double hz, double bin_hz)
+{
+    return (size_t)floor(hz / bin_hz + 0.5);
+}
+
+static double dbc(double p, double p1)
+{
+    return p > 0 && p1 > 0 ? 10.0 * log10(p / p1) : NAN;
+}
+
+/* The lines at bins a and b (a symmetric pair around kf) against the noise, excluding kf, a, b
+ * and the carrier's first harmonic. False when a bin cannot be measured. */
+static bool measure_pair(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, size_t a, size_t b,
+                         ml_component *ca, ml_component *cb)
+{
+    const size_t excl[4] = {kf, a, b, 2 * kf};
+    return ml_line_measure(spec, psd, nbins, a, excl, 4, ca) == ML_OK
+           && ml_line_measure(spec, psd, nbins, b, excl, 4, cb) == ML_OK;
+}
+
+static bool symmetric(const ml_component *a, const ml_component *b)
+{
+    return a->above_noise && b->above_noise && a->line_power > 0 && b->line_power > 0
+           && fabs(10.0 * log10(a->line_power / b->line_power)) <= SYMMETRIC_DB;
+}
+
+/* The baseband line at bin c (excluding kf): its line power when it stands above the noise, else 0. */
+static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, size_t kf)
+{
+    ml_component o;
+    const size_t excl[1] = {kf};
+    if (ml_line_measure(spec, psd, nbins, c, excl, 1, &o) != ML_OK || !o.above_noise)
+        return 0.0;
+    return o.line_power;
+}
+
+ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidence_result *r)
+{
+    if (spec == NULL || r == NULL || ml_spectrum_is_complex(spec) || !(mains_hz == 0 || mains_hz == 50 || mains_hz == 60))
+        return ML_EINVAL;
+    *r = (ml_if_evidence_result){.verdict = ML_CHANNEL_UNDECIDED, .sideband_dbc = NAN, .baseband_dbc = NAN,
+                                 .harmonic_dbc = NAN};
+    const double rate = ml_spectrum_rate_hz(spec), nyq = rate / 2.0;
+    ml_audio_config cfg = ml_audio_config_default();
+    cfg.band_lo_hz = 20.0;
+    cfg.band_hi_hz = nyq;
+    cfg.tone_mode = ML_TONE_FORCE;
+    cfg.mains_hz = mains_hz;
+    ml_audio_result *a = malloc(sizeof *a);
+    const size_t nbins = ml_spectrum_nbins(spec);
+    double *psd = malloc(nbins * sizeof *psd);
+    ml_status st = ML_ENOMEM;
+    if (a == NULL || psd == NULL)
+        goto done;
+    st = ml_audio_analyze(spec, &cfg, a);
+    if (st == ML_ENOSIGNAL) {
+        st = ML_OK;
+        goto done;
+    }
+    if (st != ML_OK || (st = ml_spectrum_get_psd(spec, psd, nbins)) != ML_OK)
+        goto done;
+    if (!a->tone_present || !(a->fundamental_power > 0))
+        goto done;
+    const double fc = a->fundamental_hz, p1 = a->fundamental_power;
+    const double bin_hz = rate / (double)ml_spectrum_nfft(spec);
+    const size_t lobe = ml_spectrum_lobe_bins(spec), kf = bin_of(fc, bin_hz);
+    r->carrier_hz = fc;
+    /* rule 1 */
+    if (fc < LOW_HZ) {
+        r->verdict = ML_CHANNEL_AUDIO;
+        r->why = ML_IFW_LOW;
+        goto done;
+    }
+    /* rule 2: the strongest component near fc (outside its lobe, away from 2 fc) and its mirror */
+    const size_t span = bin_of(fmin(fmin(fc, nyq - fc), SPAN_HZ), bin_hz), gap = 2 * lobe + 1;
+    size_t ks = 0;
+    for (size_t k = kf > span ? kf - span : 1; k <= kf + span && k + lobe < nbins; k++) {
+        const size_t d = k > kf ? k - kf : kf - k;
+        if (d < gap || k + gap > 2 * kf) /* in the carrier's lobe, or its mirror at DC (2 fc's) */
+            continue;
+        if (ks == 0 || psd[k] > psd[ks])
+            ks = k;
+    }
+    if (ks != 0 && ml_spectrum_clears_dc(spec, ks) && ml_spectrum_clears_dc(spec, 2 * kf - ks)) {
+        ml_component ca, cb;
+        if (measure_pair(spec, psd, nbins, kf, ks, 2 * kf - ks, &ca, &cb) && symmetric(&ca, &cb)) {
+            double fs_hz = (double)ks * bin_hz;
+            ml_spectrum_get_frequency(spec, ks, &fs_hz);
+            const double fm = fabs(fs_hz - fc), ps = fmax(ca.line_power, cb.line_power);
+            r->sideband_hz = fm;
+            r->sideband_dbc = dbc(ps, p1);
+            const size_t cm = bin_of(fm, bin_hz);
+            const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf) : 0.0;
+            r->baseband_dbc = dbc(pb, p1);
+            r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
+            r->why = pb >= ps ? ML_IFW_SIDEBANDS_IMD : ML_IFW_SIDEBANDS;
+            goto done;
+        }
+    }
+    /* rule 3: hum sidebands */
+    double best = 0.0, best_f = 0.0;
+    for (int j = 0; j < 2; j++) {
+        const double mains = mains_hz > 0 ? mains_hz : (j ? 60.0 : 50.0);
+        if (mains_hz > 0 && j > 0)
+            break;
+        for (int k = 1; k <= 3; k++) {
+            const size_t d = bin_of(k * mains, bin_hz);
+            if (d < gap || d > kf || kf + d + lobe >= nbins)
+                continue;
+            ml_component ca, cb;
+            if (measure_pair(spec, psd, nbins, kf, kf - d, kf + d, &ca, &cb) && symmetric(&ca, &cb)
+                && fmax(ca.line_power, cb.line_power) > best) {
+                best = fmax(ca.line_power, cb.line_power);
+                best_f = k * mains;
+            }
+        }
+    }
+    if (best > 0) {
+        r->sideband_hz = best_f;
+        r->sideband_dbc = dbc(best, p1);
+        const size_t cm = bin_of(best_f, bin_hz);
+        const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf) : 0.0;
+        r->baseband_dbc = dbc(pb, p1);
+        r->verdict = pb >= best ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
+        r->why = pb >= best ? ML_IFW_HUM_IMD : ML_IFW_HUM_SIDEBANDS;
+        goto done;
+    }
+    /* rule 4: harmonics */
+    double ph = 0.0;
+    for (size_t i = 0; i < a->nharmonics; i++)
+        if (a->harmonics[i].above_noise)
+            ph = fmax(ph, a->harmonics[i].line_power);
+    if (ph > 0) {
+        r->harmonic_dbc = dbc(ph, p1);
+        r->verdict = ML_CHANNEL_AUDIO;
+        r->why = ML_IFW_HARMONICS;
+        goto done;
+    }
+    /* rule 5: hum at baseband, within 60 dB of the line */
+    if (a->figures.hum.state == ML_FIG_MEASURED && dbc(a->figures.hum.value, p1) >= BASEBAND_HUM_DBC) {
+        r->baseband_dbc = dbc(a->figures.hum.value, p1);
+        r->verdict = ML_CHANNEL_AUDIO;
+        r->why = ML_IFW_BASEBAND_HUM;
+        goto done;
+    }
+    /* rule 6 */
+    r->verdict = ML_CHANNEL_IF;
+    r->why = ML_IFW_LONE_CARRIER;
+done:
+    free(a);
+    free(psd);
+    return st;
+}
+
+char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
+{
+    if (buf == NULL || n == 0)
+        return buf;
+    if (r == NULL) {
+        buf[0] = '\0';
+        return buf;
+    }
+    const double fc = r->carrier_hz;
+    switch (r->why) {
+    case ML_IFW_LOW:
+        snprintf(buf, n, "the strongest component (%.1f Hz) lies below 3 kHz: audio", fc);
+        break;
+    case ML_IFW_SIDEBANDS:
+        snprintf(buf, n, "a carrier at %.1f Hz with symmetric sidebands at +-%.1f Hz (%.1f dBc) and no line at %.1f Hz "
+                         "itself: an AM IF signal",
+                 fc, r->sideband_hz, r->sideband_dbc, r->sideband_hz);
+        break;
+    case ML_IFW_SIDEBANDS_IMD:
+        snprintf(buf, n, "the sidebands of the %.1f Hz tone at +-%.1f Hz (%.1f dBc) are weaker than the %.1f Hz line "
+                         "itself (%.1f dBc), their cause: audio",
+                 fc, r->sideband_hz, r->sideband_dbc, r->sideband_hz, r->baseband_dbc);
+        break;
+    case ML_IFW_HUM_SIDEBANDS:
+        snprintf(buf, n, "a carrier at %.1f Hz with hum sidebands at +-%.0f Hz (%.1f dBc) stronger than any hum at "
+                         "%.0f Hz: an AM IF signal",
+                 fc, r->sideband_hz, r->sideband_dbc, r->sideband_hz);
+        break;
+    case ML_IFW_HUM_IMD:
+        snprintf(buf, n, "the hum sidebands of the %.1f Hz tone (+-%.0f Hz, %.1f dBc) are weaker than the hum itself "
+                         "(%.1f dBc): audio",
+                 fc, r->sideband_hz, r->sideband_dbc, r->baseband_dbc);
+        break;
+    case ML_IFW_HARMONICS:
+        snprintf(buf, n, "the %.1f Hz tone has harmonics (%.1f dBc), which an AM channel cannot hold: audio", fc,
+                 r->harmonic_dbc);
+        break;
+    case ML_IFW_BASEBAND_HUM:
+        snprintf(buf, n, "mains hum at baseband (%.1f dBc) and none on the %.1f Hz tone: audio", r->baseband_dbc, fc);
+        break;
+    case ML_IFW_LONE_CARRIER:
+        snprintf(buf, n, "a lone line at %.1f Hz, above 3 kHz, with neither sidebands, harmonics nor hum of its own: "
+                         "an unmodulated AM carrier (IF)",
+                 fc);
+        break;
+    default:
+        snprintf(buf, n, "no signal to tell IF from audio");
+        break;
+    }
+    return buf;
+}
