@@ -17,6 +17,8 @@
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "analyzer/uncertainty.h"
+#include "analyzer/values.h"
+#include "dsp/figures.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
@@ -291,21 +293,11 @@ void ml_measure_add(ml_report *r, const char *name, double value)
 
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok)
 {
+    ml_audio_figures f;
+    ml_value v[ML_VALUES_MAX];
+    ml_figures_audio(a, ok, &f);
+    ml_values_report(r, v, ml_values_audio(&f, v));
     const double p1 = a->fundamental_power;
-    const double sinad = ml_ratio_db(p1, a->band_power - p1);
-    ml_measure_add(r, "audio.fundamental_hz", ok ? a->fundamental_hz : NAN);
-    ml_measure_add(r, "audio.fundamental_dbfs", ok ? ml_power_dbfs(p1) : NAN);
-    ml_measure_add(r, "audio.thd_pct", ok ? ml_ratio_pct(a->distortion_power, p1) : NAN);
-    ml_measure_add(r, "audio.thd_db", ok ? ml_ratio_db(a->distortion_power, p1) : NAN);
-    ml_measure_add(r, "audio.thdn_pct", ok ? ml_ratio_pct(a->band_power - p1, p1) : NAN);
-    ml_measure_add(r, "audio.thdn_db", ok ? -sinad : NAN);
-    ml_measure_add(r, "audio.sinad_db", ok ? sinad : NAN);
-    ml_measure_add(r, "audio.snr_db", ok ? ml_ratio_db(p1, a->noise_power) : NAN);
-    ml_measure_add(r, "audio.enob_bits", ok ? ml_enob_bits(sinad) : NAN);
-    ml_measure_add(r, "audio.noise_dbfs", ok ? ml_power_dbfs(a->noise_power) : NAN);
-    ml_measure_add(r, "hum.mains_hz", ok ? a->mains_hz : NAN);
-    ml_measure_add(r, "hum.level_dbfs", ok ? ml_power_dbfs(a->hum_power) : NAN);
-    ml_measure_add(r, "hum.level_dbc", ok ? ml_ratio_db(a->hum_power, p1) : NAN);
     if (!ok)
         return;
     ml_table *t = &r->tables[r->ntables++];
@@ -407,19 +399,6 @@ void ml_measure_progress_end(bool shown)
         fprintf(stderr, "\r%*s\r", 30, "");
 }
 
-const char *ml_measure_no_signal(const ml_audio_result *a, double total_power)
-{
-    /* Float samples carry a 24-bit mantissa (rounding about 150 dB below the signal) and the
-     * flat-top window leaks 248 dB down: a band more than 200 dB below the whole input's power
-     * holds only rounding residue and leakage (DC alone, or an unmodulated carrier). */
-    if (!(a->band_power > 1e-20 * total_power))
-        return "nothing but rounding residue, more than 200 dB below the input's power";
-    /* the report's levels stop at -300 dB (dsp/metrics.h): below that a figure would be wrong */
-    if (!(a->fundamental_power > 1e-30 * 0.5))
-        return "the strongest component lies below -300 dBFS, the lowest level reported";
-    return NULL;
-}
-
 size_t ml_measure_nfft(double rate_hz, int64_t nframes)
 {
     size_t nfft = ml_spectrum_config_default(rate_hz).nfft;
@@ -486,7 +465,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     ml_measure_describe(rep, o, seg, "audio", reason);
     ml_audio_result ar;
     st = ml_audio_analyze(spec, &o->audio, &ar);
-    const char *residue = st == ML_OK ? ml_measure_no_signal(&ar, stats.count ? stats.sumsq / (double)stats.count : 0)
+    const char *residue = st == ML_OK ? ml_figures_no_signal(&ar, stats.count ? stats.sumsq / (double)stats.count : 0)
                                       : NULL;
     if (residue != NULL)
         st = ML_ENOSIGNAL;
@@ -508,12 +487,10 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     ml_measure_add_audio(rep, &ar, ok);
     if (o->plot)
         ml_plots_audio(o->plot, spec, &ar, ok);
-    const double peak = fmax(fabs(stats.min), fabs(stats.max));
-    ml_measure_add(rep, "audio.rms_dbfs",
-                   stats.sumsq > 0 ? ml_power_dbfs(stats.sumsq / (double)stats.count) : NAN);
-    ml_measure_add(rep, "audio.peak_dbfs", peak > 0 ? 20.0 * log10(peak) : NAN);
-    ml_measure_add(rep, "audio.dc_offset_pct", 100.0 * ml_stats_mean(&stats));
-    ml_measure_add(rep, "audio.clipped_samples", (double)stats.clipped);
+    ml_level_figures lv;
+    ml_value v[ML_VALUES_MAX];
+    ml_figures_level(&stats, 1, &lv);
+    ml_values_report(rep, v, ml_values_level(&lv, "audio", v));
     if (stats.clipped > 0)
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)stats.clipped);

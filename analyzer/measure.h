@@ -101,10 +101,6 @@ int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_
 /* Progress on stderr when it is a terminal and the job is long. */
 void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown);
 void ml_measure_progress_end(bool shown);
-/* NULL when the analysed band of a holds a measurable signal; otherwise why not (for a note):
- * the band is more than 200 dB below total_power (mean square of the whole input), or the
- * strongest component lies below the reports' -300 dBFS floor. */
-const char *ml_measure_no_signal(const ml_audio_result *a, double total_power);
 /* The nfft for nframes of input at rate: default resolution, halved until it fits (>= 256);
  * 0 when nframes is too short. */
 size_t ml_measure_nfft(double rate_hz, int64_t nframes);

@@ -23,8 +23,10 @@
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
+#include "analyzer/values.h"
 #include "analyzer/worker.h"
 #include "dsp/am.h"
+#include "dsp/figures.h"
 #include "dsp/metrics.h"
 #include "dsp/rf.h"
 #include "dsp/spectrum.h"
@@ -608,7 +610,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         && !(acfg.tone_hz > 0 && (acfg.tone_hz < acfg.band_lo_hz || acfg.tone_hz > acfg.band_hi_hz)))
         aok = ml_audio_analyze(aud, &acfg, &au) == ML_OK;
     /* the demodulated audio is in units of C: its total power is about 1 */
-    const char *residue = aok ? ml_measure_no_signal(&au, 1.0) : NULL;
+    const char *residue = aok ? ml_figures_no_signal(&au, 1.0) : NULL;
     if (residue != NULL) {
         aok = false;
         ml_report_note(rep, "no modulation in the demodulated audio band: %s", residue);
@@ -682,18 +684,10 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
                            iq ? nyq - fabs(f_car) : fmin(f_car, nyq - f_car));
     }
     ml_measure_add_audio(rep, &au, aok);
-    ml_measure_add(rep, "audio.clipped_samples", (double)(stats[0].clipped + stats[1].clipped));
-    double cap_ms = 0;
-    uint64_t cap_n = 0;
-    double peak = 0;
-    for (int i = 0; i < (iq ? 2 : 1); i++) {
-        cap_ms += stats[i].sumsq;
-        cap_n += stats[i].count;
-        peak = fmax(peak, fmax(fabs(stats[i].min), fabs(stats[i].max)));
-    }
-    ml_measure_add(rep, "capture.rms_dbfs", cap_n ? 10 * log10(fmax(cap_ms / (double)cap_n, 1e-30) / 0.5) : NAN);
-    ml_measure_add(rep, "capture.peak_dbfs", peak > 0 ? 20 * log10(peak) : NAN);
-    ml_measure_add(rep, "capture.dc_offset_pct", 100 * ml_stats_mean(&stats[0]));
+    ml_level_figures lv;
+    ml_value v[ML_VALUES_MAX];
+    ml_figures_level(stats, iq ? 2 : 1, &lv);
+    ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
 
     ml_report_add_text(rep, "modulation.carrier_reference", cref);
     const char *over = ar.reversal_events > ar.pinch_events ? "phase reversal"

@@ -6,28 +6,30 @@
 #include "analyzer/uncertainty.h"
 
 #include <math.h>
+#include <stddef.h>
 #include <stdlib.h>
 #include <string.h>
 
+#include "analyzer/values.h"
+#include "dsp/figures.h"
 #include "dsp/uncert.h"
 
-/* The figures estimated per block, in report order; the aliases below reuse them. */
-enum {
-    U_F_HZ, U_F_DBFS, U_THD_PCT, U_THD_DB, U_THDN_PCT, U_THDN_DB, U_SINAD, U_SNR, U_ENOB, U_NOISE,
-    U_HUM_DBFS, U_HUM_DBC, U_COUNT
+/* The figures estimated per block: every audio figure (dsp/figures.h) but the mains frequency,
+ * which is chosen (50 or 60), not measured. */
+static const size_t fields[] = {
+    offsetof(ml_audio_figures, fundamental_hz), offsetof(ml_audio_figures, fundamental_dbfs),
+    offsetof(ml_audio_figures, thd_pct),        offsetof(ml_audio_figures, thd_db),
+    offsetof(ml_audio_figures, thdn_pct),       offsetof(ml_audio_figures, thdn_db),
+    offsetof(ml_audio_figures, sinad_db),       offsetof(ml_audio_figures, snr_db),
+    offsetof(ml_audio_figures, enob_bits),      offsetof(ml_audio_figures, noise_dbfs),
+    offsetof(ml_audio_figures, hum_dbfs),       offsetof(ml_audio_figures, hum_dbc),
 };
-static const char *const names[U_COUNT] = {
-    "audio.fundamental_hz", "audio.fundamental_dbfs", "audio.thd_pct", "audio.thd_db", "audio.thdn_pct",
-    "audio.thdn_db", "audio.sinad_db", "audio.snr_db", "audio.enob_bits", "audio.noise_dbfs",
-    "hum.level_dbfs", "hum.level_dbc",
-};
-/* if/iq report the demodulated audio's figures under these names too (README) */
-static const struct { const char *name; int src; } aliases[] = {
-    {"modulation.envelope_thd_pct", U_THD_PCT},
-    {"modulation.hum_db", U_HUM_DBFS},
-    {"modulation.noise_db", U_NOISE},
-};
+#define U_COUNT (sizeof fields / sizeof fields[0])
 
+static double *field(ml_audio_figures *f, size_t i)
+{
+    return (double *)(void *)((char *)f + fields[i]);
+}
 /* Peak readings per block (if/iq): the same hold-share quantiles as the whole envelope's
  * (dsp/am.h), from a histogram of the block's samples (not oversampled: only the spread across
  * blocks is used, not the level). PEAK_BINS over 0 .. PEAK_RANGE x (x = E / provisional C). */
@@ -100,22 +102,10 @@ static void on_segment(void *ctx, const double _Complex *x, const double _Comple
         return;
     ml_audio_result a;
     if (!q->spec_bad && ml_audio_analyze(q->spec, &q->cfg, &a) == ML_OK) {
-        const double p1 = a.fundamental_power, sinad = ml_ratio_db(p1, a.band_power - p1);
-        double v[U_COUNT];
-        v[U_F_HZ] = a.fundamental_hz;
-        v[U_F_DBFS] = ml_power_dbfs(p1);
-        v[U_THD_PCT] = ml_ratio_pct(a.distortion_power, p1);
-        v[U_THD_DB] = ml_ratio_db(a.distortion_power, p1);
-        v[U_THDN_PCT] = ml_ratio_pct(a.band_power - p1, p1);
-        v[U_THDN_DB] = -sinad;
-        v[U_SINAD] = sinad;
-        v[U_SNR] = ml_ratio_db(p1, a.noise_power);
-        v[U_ENOB] = ml_enob_bits(sinad);
-        v[U_NOISE] = ml_power_dbfs(a.noise_power);
-        v[U_HUM_DBFS] = ml_power_dbfs(a.hum_power);
-        v[U_HUM_DBC] = ml_ratio_db(a.hum_power, p1);
-        for (int i = 0; i < U_COUNT; i++)
-            ml_running_push(&q->acc[i], v[i]);
+        ml_audio_figures f;
+        ml_figures_audio(&a, true, &f);
+        for (size_t i = 0; i < U_COUNT; i++)
+            ml_running_push(&q->acc[i], *field(&f, i));
     }
     ml_spectrum_reset(q->spec);
     q->segs = 0;
@@ -143,7 +133,7 @@ ml_blocks *ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, co
     }
     q->per = 1;
     q->need = first_block(q);
-    for (int i = 0; i < U_COUNT; i++)
+    for (size_t i = 0; i < U_COUNT; i++)
         ml_running_reset(&q->acc[i]);
     ml_spectrum_on_segment(whole, on_segment, q);
     return q;
@@ -206,26 +196,17 @@ void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, siz
 
 void ml_blocks_report(const ml_blocks *q, ml_report *r, size_t *nblocks)
 {
-    size_t n = (size_t)q->acc[U_F_HZ].n;
+    const size_t n = (size_t)q->acc[0].n;
     if (nblocks)
         *nblocks = n;
-    for (size_t i = 0; i < r->nmetrics; i++) {
-        ml_metric *m = &r->metrics[i];
-        int src = -1;
-        for (int k = 0; k < U_COUNT; k++)
-            if (strcmp(m->name, names[k]) == 0)
-                src = k;
-        for (size_t k = 0; k < sizeof aliases / sizeof aliases[0]; k++)
-            if (strcmp(m->name, aliases[k].name) == 0)
-                src = aliases[k].src;
-        if (src < 0 || !m->valid)
-            continue;
-        const double u = ml_running_u95(&q->acc[src]);
-        if (isfinite(u)) {
-            m->has_u = true;
-            m->u = u;
-        }
-    }
+    /* the intervals as audio figures, then under their names (if/iq: the modulation names too) */
+    ml_audio_figures u;
+    ml_figures_audio_none(&u);
+    for (size_t i = 0; i < U_COUNT; i++)
+        *field(&u, i) = ml_running_u95(&q->acc[i]);
+    ml_value v[ML_VALUES_MAX];
+    ml_values_report_u(r, v, ml_values_audio(&u, v));
+    ml_values_report_u(r, v, ml_values_envelope(&u, v));
     r->u_blocks = n;
     r->u_block_s = (double)(ML_BLOCK_SEGMENTS * q->hop) / ml_spectrum_rate_hz(q->spec);
 }

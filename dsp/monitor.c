@@ -14,6 +14,7 @@
 #include <string.h>
 
 #include "dsp/am.h"
+#include "dsp/figures.h"
 #include "dsp/rf.h"
 #include "dsp/spectrum.h"
 
@@ -193,16 +194,17 @@ static void spectrum_push(ml_monitor *q, ml_spectrum *s, const double complex *z
 
 static void fill_audio(ml_monitor_result *r, const ml_audio_result *a, bool ok)
 {
-    const double p1 = a->fundamental_power;
+    ml_audio_figures f;
+    ml_figures_audio(a, ok, &f);
     r->audio_ok = ok;
-    r->fundamental_hz = ok ? a->fundamental_hz : NAN;
-    r->fundamental_dbfs = ok ? ml_power_dbfs(p1) : NAN;
-    r->thd_pct = ok ? ml_ratio_pct(a->distortion_power, p1) : NAN;
-    r->thdn_pct = ok ? ml_ratio_pct(a->band_power - p1, p1) : NAN;
-    r->sinad_db = ok ? ml_ratio_db(p1, a->band_power - p1) : NAN;
-    r->snr_db = ok ? ml_ratio_db(p1, a->noise_power) : NAN;
-    r->hum_dbfs = ok ? ml_power_dbfs(a->hum_power) : NAN;
-    r->hum_dbc = ok ? ml_ratio_db(a->hum_power, p1) : NAN;
+    r->fundamental_hz = f.fundamental_hz;
+    r->fundamental_dbfs = f.fundamental_dbfs;
+    r->thd_pct = f.thd_pct;
+    r->thdn_pct = f.thdn_pct;
+    r->sinad_db = f.sinad_db;
+    r->snr_db = f.snr_db;
+    r->hum_dbfs = f.hum_dbfs;
+    r->hum_dbc = f.hum_dbc;
 }
 
 /* Finds the carrier in the window's spectrum (already pushed) and builds the demodulator. */
@@ -336,8 +338,8 @@ static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
     r->index = emax + emin > 0 ? (emax - emin) / (emax + emin) : NAN;
     r->positive_peak_pct = 100 * (emax - c) / c;
     r->negative_peak_pct = 100 * (c - emin) / c;
-    r->envelope_thd_pct = aok ? ml_ratio_pct(au.distortion_power, au.fundamental_power) : NAN;
-    r->mod_hum_db = aok ? ml_power_dbfs(au.hum_power) : NAN;
+    r->envelope_thd_pct = r->thd_pct;
+    r->mod_hum_db = r->hum_dbfs;
     r->pinch_events = ar.pinch_events + ar.reversal_events;
     r->positive_over = ar.positive_over;
     q->col_lo = f_car - q->bw;

@@ -1,0 +1,57 @@
+/* The one mapping from the dsp results to the registry's metric names (analyzer/registry.h).
+ * SPDX-License-Identifier: MIT
+ *
+ * measure, live and compare put these values into their reports, watch writes them on its
+ * --plain lines and log in its rows, all under the same names, units and decimals: a figure is
+ * named once here, and computed once in dsp/ (dsp/figures.h, dsp/modulation.h). A value the
+ * analysis could not measure is NAN.
+ */
+#ifndef ML_ANALYZER_VALUES_H
+#define ML_ANALYZER_VALUES_H
+
+#include <stddef.h>
+
+#include "dsp/figures.h"
+#include "io/report.h"
+
+typedef struct {
+    const char *name;  /* registered dotted name, e.g. "audio.thd_pct" */
+    double value;
+} ml_value;
+
+#define ML_VALUES_MAX 64
+
+/* audio.fundamental_hz .. hum.level_dbc (13 values, report order) into out[]; returns the count. */
+size_t ml_values_audio(const ml_audio_figures *f, ml_value *out);
+
+/* The demodulated audio's figures that if/iq reports under modulation names (3 values):
+ * modulation.envelope_thd_pct = audio.thd_pct, modulation.hum_db = hum.level_dbfs and
+ * modulation.noise_db = audio.noise_dbfs (the demodulated audio's full scale is 100 %
+ * modulation, so its dBFS are dB re 100 % modulation). */
+size_t ml_values_envelope(const ml_audio_figures *f, ml_value *out);
+
+/* The level figures in report order (4 values): for group "audio" audio.rms_dbfs, .peak_dbfs,
+ * .dc_offset_pct, .clipped_samples; for "capture" (the captured if/iq channels)
+ * audio.clipped_samples, capture.rms_dbfs, .peak_dbfs, .dc_offset_pct. */
+size_t ml_values_level(const ml_level_figures *f, const char *group, ml_value *out);
+
+/* The value named name among v[n] (full dotted name); NAN when absent. */
+double ml_values_find(const ml_value *v, size_t n, const char *name);
+
+/* Adds v[n] to the report (unit and decimals from the registry). */
+void ml_values_report(ml_report *r, const ml_value *v, size_t n);
+
+/* Sets the uncertainty (95 % half-width) u[i].value of every valid metric of r named u[i].name;
+ * non-finite values leave the metric without one. */
+void ml_values_report_u(ml_report *r, const ml_value *u, size_t n);
+
+/* The value formatted with the registry's decimals for name into buf[len]; "" for a non-finite
+ * value or an unknown name. Returns buf. */
+char *ml_values_format(const char *name, double value, char *buf, size_t len);
+
+/* The name a line or a log column uses for a registered metric: its last component when that
+ * is unique in the registry (as a limits profile accepts it), else the full dotted name; the hum
+ * group keeps its full name (hum.level_dbfs: "level" alone would say nothing). */
+const char *ml_values_short_name(const char *full);
+
+#endif
