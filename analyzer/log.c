@@ -26,6 +26,7 @@
 #include "analyzer/output.h"
 #include "dsp/am.h"
 #include "dsp/aweight.h"
+#include "dsp/carrier.h"
 #include "dsp/detect.h"
 #include "dsp/history.h"
 #include "dsp/metrics.h"
@@ -710,17 +711,11 @@ static void setup_carrier(logger *L, const double *psd)
         return;
     const double nyq = L->rate / 2;
     if (isnan(L->carrier_hz)) {
-        size_t best = 0;
-        for (size_t k = L->lobe; k < L->nbins - L->lobe; k++) {
-            double f = ml_spectrum_bin_hz(L->spec, k);
-            if (!L->is_complex && f < 1000.0)
-                continue;
-            if (best == 0 || psd[k] > psd[best])
-                best = k;
-        }
-        if (best == 0)
+        const ml_carrier_config cc = ml_carrier_config_default(L->rate, L->is_complex, NAN);
+        ml_carrier car;
+        if (ml_carrier_find(L->spec, &cc, &car) != ML_OK)
             return;
-        L->carrier_hz = ml_spectrum_bin_hz(L->spec, best);
+        L->carrier_hz = car.frequency_hz;
     }
     double f = L->carrier_hz;
     long k = lround(f / L->bin_hz);

@@ -26,6 +26,7 @@
 #include "analyzer/values.h"
 #include "analyzer/worker.h"
 #include "dsp/am.h"
+#include "dsp/carrier.h"
 #include "dsp/figures.h"
 #include "dsp/metrics.h"
 #include "dsp/rf.h"
@@ -40,8 +41,6 @@
 #define MAX_BANDWIDTH_HZ 10000.0
 #define INDEX_TOLERANCE 0.02  /* envelope vs spectral index disagreement worth a note          */
 #define QUIET_MIN_S 0.1       /* unmodulated time needed before C is taken from it            */
-#define CARRIER_SEARCH_HZ 200.0 /* capture range around a nominal --carrier                     */
-#define CARRIER_MIN_REL 1e-3  /* a carrier is at most 60 dB below the strongest component      */
 #define BATCH_FRAMES (8 * ML_BLOCK_FRAMES) /* frames per hand-over to the spectrum thread         */
 #define NBATCH (ML_WORKER_DEPTH + 1)       /* batch buffers used in turn (analyzer/worker.h)       */
 /* Largest sample magnitude the pass takes: its channel filter, captured spectrum and oversampled
@@ -270,13 +269,15 @@ int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, doubl
     int rc = look_ahead(o, seg, false, frames, &s);
     if (rc != 0)
         return rc;
-    double fc = 0, ac = 0;
-    ml_status st = ml_rf_find_peak(s, 20.0, nyq, &fc, &ac);
+    const ml_carrier_config cc = ml_carrier_config_default(rate, false, NAN);
+    ml_carrier car;
+    ml_status st = ml_carrier_find(s, &cc, &car);
     if (st != ML_OK) {
         snprintf(reason, reason_len, "--kind auto: no signal found; treated as audio");
         ml_spectrum_destroy(s);
         return 0;
     }
+    const double fc = car.frequency_hz, ac = car.amplitude;
     /* Sidebands: the strongest component within +-min(fc, nyq - fc, 10 kHz) of the carrier but
      * outside its lobe must have a mirror image within 3 dB on the other side. */
     const double bin = rate / (double)ml_spectrum_nfft(s), lobe = (double)ml_spectrum_lobe_bins(s) * bin;
@@ -347,14 +348,19 @@ static int reference_carrier(const ml_measure_opts *o, bool iq, double rate, dou
     rc = look_ahead(&ro, &ref, iq, ref.nframes, &s);
     if (rc != 0)
         goto done;
-    const double bin = ref.info->rate_hz / (double)ml_spectrum_nfft(s);
-    double f, a;
-    st = ml_rf_find_peak(s, fc - 20 * bin - 50.0, fc + 20 * bin + 50.0, &f, &a);
+    /* the carrier line near the capture's: within 20 bins and 50 Hz of it, whatever its level */
+    ml_carrier_config cc = ml_carrier_config_default(rate, iq, fc);
+    cc.capture_hz = 20 * rate / (double)ml_spectrum_nfft(s) + 50.0;
+    cc.min_rel = 0;
+    cc.lo_hz = -rate / 2;
+    ml_carrier car;
+    st = ml_carrier_find(s, &cc, &car);
     ml_spectrum_destroy(s);
-    if (st != ML_OK || !(a > 0)) {
+    if (st != ML_OK || !(car.amplitude > 0)) {
         rc = ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", o->carrier_reference, fc);
         goto done;
     }
+    const double a = car.amplitude;
     *c = a;
 done:
     ml_source_close(ref.src);
@@ -386,27 +392,17 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     int rc = look_ahead(o, seg, iq, pre, &look);
     if (rc != 0)
         return rc;
-    double fc = 0, ac = 0, f_top = 0, a_top = 0;
-    const double lobe_hz = (double)ml_spectrum_lobe_bins(look) * rate / (double)ml_spectrum_nfft(look);
-    const double lo_all = iq ? -nyq : 20.0;
-    ml_status st = ml_rf_find_peak(look, lo_all, nyq, &f_top, &a_top);
-    if (st == ML_OK && isnan(carrier_hz)) {
-        fc = f_top;
-        ac = a_top;
-    } else if (st == ML_OK) {
-        /* a nominal carrier: the actual one is the strongest component within the capture range */
-        const double range = fmax(CARRIER_SEARCH_HZ, lobe_hz);
-        st = ml_rf_find_peak(look, fmax(carrier_hz - range, lo_all), fmin(carrier_hz + range, nyq), &fc, &ac);
-        if (st == ML_OK && !(ac >= CARRIER_MIN_REL * a_top)) {
-            ml_spectrum_destroy(look);
-            return ml_cli_error("%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component "
-                                "lies at %.1f Hz)",
-                                o->input, range, carrier_hz, f_top);
-        }
-    }
+    const ml_carrier_config cc = ml_carrier_config_default(rate, iq, carrier_hz);
+    ml_carrier car;
+    ml_status st = ml_carrier_find(look, &cc, &car);
     ml_spectrum_destroy(look);
-    if (st != ML_OK || !(ac > 0))
+    if (st != ML_OK && car.strongest_amplitude > 0 && !isnan(carrier_hz))
+        return ml_cli_error("%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component lies at "
+                            "%.1f Hz)",
+                            o->input, car.range_hz, carrier_hz, car.strongest_hz);
+    if (st != ML_OK)
         return ml_cli_error("%s: no carrier found%s", o->input, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
+    const double fc = car.frequency_hz, ac = car.amplitude;
 
     double transition = 0;
     double bw = ml_am_default_bandwidth(rate, iq, fc, MAX_BANDWIDTH_HZ, &transition);

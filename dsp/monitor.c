@@ -14,12 +14,12 @@
 #include <string.h>
 
 #include "dsp/am.h"
+#include "dsp/carrier.h"
 #include "dsp/figures.h"
 #include "dsp/rf.h"
 #include "dsp/spectrum.h"
 
 #define CHUNK 4096             /* frames per demodulator push                                  */
-#define SEARCH_HZ 200.0        /* capture range around a nominal carrier (as measure)          */
 #define QUIET_MIN_S 0.1        /* unmodulated time needed before C is taken from it (as measure) */
 #define LEVEL_REFIND 2.0       /* carrier amplitude change (6 dB) that re-finds the carrier     */
 
@@ -210,18 +210,14 @@ static void fill_audio(ml_monitor_result *r, const ml_audio_result *a, bool ok)
 /* Finds the carrier in the window's spectrum (already pushed) and builds the demodulator. */
 static ml_status find_carrier(ml_monitor *q)
 {
-    const double rate = q->cfg.rate_hz, nyq = rate / 2;
+    const double rate = q->cfg.rate_hz;
     const bool iq = q->cfg.kind == ML_MONITOR_IQ;
-    const double lo_all = iq ? -nyq : 20.0;
-    double fc = 0, ac = 0;
-    ml_status st;
-    if (isnan(q->cfg.carrier_hz))
-        st = ml_rf_find_peak(q->spec, lo_all, nyq, &fc, &ac);
-    else
-        st = ml_rf_find_peak(q->spec, fmax(q->cfg.carrier_hz - SEARCH_HZ, lo_all),
-                             fmin(q->cfg.carrier_hz + SEARCH_HZ, nyq), &fc, &ac);
-    if (st != ML_OK || !(ac > 0))
+    const ml_carrier_config cc = ml_carrier_config_default(rate, iq, q->cfg.carrier_hz);
+    ml_carrier car;
+    ml_status st = ml_carrier_find(q->spec, &cc, &car);
+    if (st != ML_OK || !(car.amplitude > 0))
         return ML_ENOSIGNAL;
+    const double fc = car.frequency_hz, ac = car.amplitude;
     double transition = 0;
     double bw = ml_am_default_bandwidth(rate, iq, fc, q->cfg.max_bandwidth_hz, &transition);
     if (q->cfg.bandwidth_hz > 0 && q->cfg.bandwidth_hz < bw) {
