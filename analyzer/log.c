@@ -27,6 +27,7 @@
 #include "dsp/am.h"
 #include "dsp/aweight.h"
 #include "dsp/carrier.h"
+#include "dsp/channels.h"
 #include "dsp/detect.h"
 #include "dsp/history.h"
 #include "dsp/metrics.h"
@@ -314,7 +315,8 @@ typedef struct {
     const ml_source_info *info;
     double rate, start_utc, offset0_s; /* offset_s = offset0_s + pos / rate                 */
     bool is_complex, is_if;
-    size_t nch, chan;
+    size_t nch;
+    ml_channels ch;        /* the analysed column(s) of the frames                           */
 
     /* time grid */
     int64_t pos;           /* frames since the input's start, lost frames included          */
@@ -987,8 +989,7 @@ static int advance(logger *L, const float *buf, size_t n)
             m = n - done;
         if (buf != NULL) {
             const float *b = buf + done * L->nch;
-            for (size_t i = 0; i < m; i++)
-                L->mono[i] = b[i * L->nch + L->chan];
+            ml_channels_split(&L->ch, b, m, L->mono, NULL);
             ml_stats_push(&L->st, L->mono, m);
             ml_aweight_push(L->aw, L->mono, L->aout, m);
             for (size_t i = 0; i < m; i++) {
@@ -1004,8 +1005,7 @@ static int advance(logger *L, const float *buf, size_t n)
             if (rc != 0)
                 return rc;
             if (L->is_complex) {
-                for (size_t i = 0; i < m; i++)
-                    L->z[i] = b[i * L->nch + L->chan] + I * b[i * L->nch + L->chan + 1];
+                ml_channels_split_complex(&L->ch, b, m, L->z);
                 ml_spectrum_push_complex(L->spec, L->z, m);
             } else {
                 ml_spectrum_push(L->spec, L->mono, m);
@@ -1264,11 +1264,10 @@ int ml_log_run(const ml_log_opts *opts, ml_source *src, double start_utc)
     L.info = ml_source_get_info(L.src);
     L.rate = L.info->rate_hz;
     L.nch = (size_t)L.info->channels;
-    L.chan = (size_t)(o.channel - 1);
     L.is_complex = o.kind == ML_KIND_IQ;
     L.is_if = o.kind == ML_KIND_IF;
     const char *name = o.input ? o.input : o.device;
-    if ((long)L.nch < o.channel + (L.is_complex ? 1 : 0)) {
+    if (ml_channels_map((int)L.nch, o.channel, L.is_complex, false, 0, &L.ch) != ML_OK) {
         rc = ml_cli_error("%s: --channel %ld%s but the input has %zu channel%s", name, o.channel,
                           L.is_complex ? " (and the next, for iq)" : "", L.nch, L.nch == 1 ? "" : "s");
         goto done;

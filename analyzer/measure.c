@@ -18,6 +18,7 @@
 #include "analyzer/registry.h"
 #include "analyzer/uncertainty.h"
 #include "analyzer/values.h"
+#include "dsp/channels.h"
 #include "dsp/figures.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
@@ -438,7 +439,12 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
     ml_blocks *blocks = ml_blocks_create(spec, &sc, &o->audio, false);
-    int rc = 0;
+    ml_channels ch;
+    int rc = ml_channels_map(info->channels, o->channel, false, false, 0, &ch) == ML_OK
+                 ? 0
+                 : ml_cli_error("%s: --channel %ld is not in the input", o->input, o->channel);
+    if (rc != 0)
+        goto done;
     if (buf == NULL || mono == NULL || blocks == NULL) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
@@ -451,8 +457,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
         rc = ml_measure_read(o, seg, buf, want, &got, done);
         if (rc != 0)
             break;
-        for (size_t i = 0; i < got; i++)
-            mono[i] = buf[i * nch + (size_t)(o->channel - 1)];
+        ml_channels_split(&ch, buf, got, mono, NULL);
         ml_stats_push(&stats, mono, got);
         ml_spectrum_push(spec, mono, got);
         done += (int64_t)got;

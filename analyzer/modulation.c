@@ -50,12 +50,13 @@
 
 /* The error for a sample beyond MAX_LEVEL in the measured columns of a batch of `got` frames read
  * from frame `done` of the segment on, naming the first such sample. */
-static int level_error(const ml_measure_opts *o, const ml_segment *seg, const float *raw, size_t got, size_t nch,
-                       const size_t col[2], bool iq, int64_t done)
+static int level_error(const ml_measure_opts *o, const ml_segment *seg, const float *raw, size_t got,
+                       const ml_channels *ch, int64_t done)
 {
+    const size_t col[2] = {ch->re, ch->im};
     for (size_t i = 0; i < got; i++)
-        for (int c = 0; c < (iq ? 2 : 1); c++) {
-            const float v = raw[i * nch + col[c]];
+        for (int c = 0; c < (ch->complex_input ? 2 : 1); c++) {
+            const float v = raw[i * ch->stride + col[c]];
             if (fabsf(v) > MAX_LEVEL)
                 return ml_cli_error("%s: frame %lld, channel %zu: sample %.3g lies beyond +-%.0e (full scale is 1), "
                                     "more than the modulation analysis takes",
@@ -63,29 +64,6 @@ static int level_error(const ml_measure_opts *o, const ml_segment *seg, const fl
                                     MAX_LEVEL);
         }
     return ml_cli_error("%s: a sample lies beyond +-%.0e", o->input, MAX_LEVEL);
-}
-
-/* The frame columns (0-based) of I and Q, or of the IF signal in col[0]. */
-static void columns(const ml_measure_opts *o, bool iq, size_t col[2])
-{
-    const size_t c0 = (size_t)(o->channel - 1);
-    col[0] = c0 + (iq && o->swap_iq ? 1 : 0);
-    col[1] = c0 + (o->swap_iq ? 0 : 1);
-}
-
-/* Frames of channel ch (1-based) -> z (I/Q: ch and ch+1, or swapped). */
-static void split(const float *buf, size_t got, size_t nch, const ml_measure_opts *o, bool iq, double complex *z)
-{
-    size_t col[2];
-    columns(o, iq, col);
-    /* one plain loop per case */
-    if (iq) {
-        for (size_t i = 0; i < got; i++)
-            z[i] = CMPLX(buf[i * nch + col[0]], buf[i * nch + col[1]]);
-    } else {
-        for (size_t i = 0; i < got; i++)
-            z[i] = CMPLX(buf[i * nch + col[0]], 0.0);
-    }
 }
 
 /* The streamed pass runs on two threads: this one reads, filters and demodulates a batch while
@@ -101,7 +79,7 @@ typedef struct {
     uint64_t env_seen;     /* envelope samples fed so far (the decimation's phase)            */
     double *denv;          /* the kept samples and their tags, of one batch                   */
     unsigned char *dtag;
-    size_t nch, col[2];    /* frame width, and the columns of I and Q (or of the IF signal)   */
+    ml_channels ch;        /* the columns of I and Q (or of the IF signal) in the frames      */
     /* The captured samples wait here, as read, until the demodulator has classified them (its
      * envelope comes out a filter delay and up to a block later): a ring of (I, Q) pairs or IF
      * values. The first `skip` input samples (the channel filter's edge) produce no envelope
@@ -119,7 +97,7 @@ static void fifo_append(feed_ctx *f, const float *raw, size_t got)
         i = got < f->skip ? got : (size_t)f->skip;
         f->skip -= i;
     }
-    const size_t nch = f->nch, c0 = f->col[0], c1 = f->col[1];
+    const size_t nch = f->ch.stride, c0 = f->ch.re, c1 = f->ch.im;
     while (i < got) {
         /* up to the ring's end at a time, in plain loops */
         const size_t at = (f->fifo_head + f->fifo_len) % f->fifo_cap;
@@ -202,6 +180,10 @@ static void feed_job(void *ctx, void *batch)
 static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_t frames, ml_spectrum **out)
 {
     *out = NULL;
+    ml_channels ch;
+    if (ml_channels_map(seg->info->channels, o->channel, iq, o->swap_iq, 0, &ch) != ML_OK)
+        return ml_cli_error("%s: channel %ld%s is not in the input (%d channels)", o->input, o->channel,
+                            iq ? " and the next" : "", seg->info->channels);
     const double rate = seg->info->rate_hz;
     ml_spectrum_config sc = ml_spectrum_config_default(rate);
     sc.nfft = ml_measure_nfft(rate, frames);
@@ -229,12 +211,11 @@ static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_
         rc = ml_measure_read(o, seg, buf, want, &got, done);
         if (rc != 0)
             break;
-        split(buf, got, nch, o, iq, z);
         if (iq) {
+            ml_channels_split_complex(&ch, buf, got, z);
             ml_spectrum_push_complex(*out, z, got);
         } else {
-            for (size_t i = 0; i < got; i++)
-                mono[i] = (float)creal(z[i]);
+            ml_channels_split(&ch, buf, got, mono, NULL);
             ml_spectrum_push(*out, mono, got);
         }
         done += (int64_t)got;
@@ -516,12 +497,11 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
-    fctx.nch = nch;
-    columns(o, iq, fctx.col);
+    if (ml_channels_map((int)nch, o->channel, iq, o->swap_iq, o->reference_channel, &fctx.ch) != ML_OK) {
+        rc = ml_cli_error("%s: the channels to analyse are not in the input", o->input);
+        goto done;
+    }
     worker = ml_worker_start(feed_job, &fctx); /* NULL: feed runs on this thread */
-    /* the demodulator reads its columns straight from the frames (as split() would give them) */
-    ml_am_frames frames = {.stride = nch, .re = fctx.col[0], .im = fctx.col[1],
-                           .ref = o->reference_channel > 0 ? (size_t)(o->reference_channel - 1) : 0};
     int k = 0;
     int64_t done_frames = 0, next = 0;
     bool shown = false;
@@ -534,20 +514,19 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         if (rc != 0)
             goto done;
         batch[k].got = got;
-        frames.data = batch[k].raw;
         for (int c = 0; c < (iq ? 2 : 1); c++) { /* here: the two threads' shares stay balanced */
-            ml_stats_push_strided(&stats[c], batch[k].raw + fctx.col[c], got, nch);
+            ml_stats_push_strided(&stats[c], batch[k].raw + (c ? fctx.ch.im : fctx.ch.re), got, nch);
             if (fmax(-stats[c].min, stats[c].max) > MAX_LEVEL) {
-                rc = level_error(o, seg, batch[k].raw, got, nch, fctx.col, iq, done_frames);
+                rc = level_error(o, seg, batch[k].raw, got, &fctx.ch, done_frames);
                 goto done;
             }
         }
         if (o->plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
-            for (size_t i = 0; o->reference_channel > 0 && i < got; i++)
-                ref[i] = batch[k].raw[i * nch + (size_t)(o->reference_channel - 1)];
+            ml_channels_split_ref(&fctx.ch, batch[k].raw, got, ref);
             ml_plots_input(o->plot, done_frames, o->reference_channel > 0 ? ref : NULL, got);
         }
-        ml_am_push_frames(am, &frames, got, &batch[k].out, &batch[k].n);
+        /* the demodulator reads its columns straight from the frames */
+        ml_am_push_frames(am, batch[k].raw, &fctx.ch, got, &batch[k].out, &batch[k].n);
         ml_worker_submit(worker, feed_job, &fctx, &batch[k]);
         k = (k + 1) % NBATCH;
         done_frames += (int64_t)got;

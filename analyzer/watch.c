@@ -21,6 +21,7 @@
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
 #include "analyzer/registry.h"
+#include "dsp/channels.h"
 #include "dsp/peakhold.h"
 #include "io/audio.h"
 
@@ -159,21 +160,6 @@ static double profile_max(const ml_limits *l, const char *metric)
     return NAN;
 }
 
-/* Deinterleaves one update's frames into re (and im for iq). */
-static void split(const float *buf, size_t n, size_t nch, const ml_measure_opts *o, bool iq, float *re, float *im)
-{
-    const size_t c0 = (size_t)(o->channel - 1);
-    for (size_t i = 0; i < n; i++) {
-        const float *fr = buf + i * nch;
-        if (iq) {
-            re[i] = o->swap_iq ? fr[c0 + 1] : fr[c0];
-            im[i] = o->swap_iq ? fr[c0] : fr[c0 + 1];
-        } else {
-            re[i] = fr[c0];
-        }
-    }
-}
-
 static bool want_plain(bool asked)
 {
     const char *term = getenv("TERM");
@@ -245,6 +231,9 @@ int ml_cmd_watch(int argc, char **argv)
             kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
         }
     }
+    ml_channels ch;
+    if (rc == 0 && ml_channels_map((int)nch, o.channel, kind == ML_KIND_IQ, o.swap_iq, 0, &ch) != ML_OK)
+        rc = ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
     ml_monitor_config mc = ml_monitor_config_default(rate, kind == ML_KIND_IQ ? ML_MONITOR_IQ
                                                            : kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
     mc.window_s = window_s;
@@ -290,7 +279,7 @@ int ml_cmd_watch(int argc, char **argv)
         if (stop_at - frames < want)
             want = (size_t)(stop_at - frames);
         st = ml_source_read(seg.src, buf, want, &got);
-        split(buf, got, (size_t)nch, &o, kind == ML_KIND_IQ, re, im);
+        ml_channels_split(&ch, buf, got, re, im);
         ml_monitor_push(mon, re, im, got);
         frames += got;
         if (st != ML_OK) {

@@ -489,8 +489,8 @@ static bool output_ok(const ml_am *q, const ml_am_output *out, size_t n)
 
 /* Runs n input samples (z == NULL: zeros, for the final flush) through mixer, filter and delay
  * lines, and the clean outputs through envelope_run, cut at block ends. */
-ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *ref, const ml_am_frames *fr,
-                                size_t n)
+ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *ref, const float *frames,
+                                const ml_channels *fr, size_t n)
 {
     const double f = q->cfg.carrier_hz / q->cfg.rate_hz;
     const double gain = q->cfg.complex_input ? 1.0 : 2.0;
@@ -499,8 +499,8 @@ ML_HOT static ml_status process(ml_am *q, const double complex *z, const float *
         size_t m = n - done < CHUNK ? n - done : CHUNK;
         const double complex *zc = z ? z + done : NULL;
         const float *rc = ref ? ref + done : NULL;
-        if (fr != NULL) { /* the chunk's columns out of the frames */
-            const float *restrict d = fr->data + done * fr->stride;
+        if (frames != NULL) { /* the chunk's columns out of the frames */
+            const float *restrict d = frames + done * fr->stride;
             const size_t st = fr->stride, re = fr->re, im = fr->im;
             if (q->cfg.complex_input) {
                 for (size_t i = 0; i < m; i++)
@@ -583,20 +583,21 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
         || (q->cfg.has_reference && n > 0 && ref == NULL) || q->finished)
         return ML_EINVAL;
     begin_output(q, out, count);
-    ml_status st = process(q, z, ref, NULL, n);
+    ml_status st = process(q, z, ref, NULL, NULL, n);
     end_output(q);
     return st;
 }
 
-ml_status ml_am_push_frames(ml_am *q, const ml_am_frames *in, size_t n, const ml_am_output *out, size_t *count)
+ml_status ml_am_push_frames(ml_am *q, const float *frames, const ml_channels *c, size_t n, const ml_am_output *out,
+                            size_t *count)
 {
     if (q == NULL || count == NULL || !output_ok(q, out, n) || q->finished
-        || (n > 0 && (in == NULL || in->data == NULL || in->stride == 0 || in->re >= in->stride
-                      || (q->cfg.complex_input && in->im >= in->stride)
-                      || (q->cfg.has_reference && in->ref >= in->stride))))
+        || (n > 0 && (frames == NULL || c == NULL || c->stride == 0 || c->re >= c->stride
+                      || (q->cfg.complex_input && (!c->complex_input || c->im >= c->stride))
+                      || (q->cfg.has_reference && (!c->has_ref || c->ref >= c->stride)))))
         return ML_EINVAL;
     begin_output(q, out, count);
-    ml_status st = process(q, NULL, NULL, in, n);
+    ml_status st = process(q, NULL, NULL, frames, c, n);
     end_output(q);
     return st;
 }
@@ -608,7 +609,7 @@ ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count)
     begin_output(q, out, count);
     /* Flush: latency - startup zeros bring out the envelope of the inputs up to n - startup - 1,
      * the last whose filter window lies wholly inside the input; later ones would see the zeros. */
-    ml_status st = process(q, NULL, NULL, NULL, q->latency - q->startup);
+    ml_status st = process(q, NULL, NULL, NULL, NULL, q->latency - q->startup);
     if (st == ML_OK)
         end_block(q);
     end_output(q);

@@ -512,17 +512,19 @@ START_TEST(block_invariance)
         double *env = malloc((by_z.n + cap) * sizeof *env);
         unsigned char *mod = malloc(by_z.n + cap);
         ck_assert(env != NULL && mod != NULL);
-        const ml_am_frames bad = {.data = fr, .stride = 4, .re = 1, .im = 4, .ref = 0};
+        const ml_channels bad = {.stride = 4, .re = 1, .im = 4, .complex_input = cases[c].cplx,
+                                 .has_ref = cfg.has_reference, .ref = 0};
         ml_am_output one = {.env = env, .in = NULL, .modulated = mod, .cap = cap};
         size_t cnt = 0, got = 0;
-        ck_assert_int_eq(ml_am_push_frames(q, &bad, 1, &one, &cnt), cases[c].cplx ? ML_EINVAL : ML_OK);
+        ck_assert_int_eq(ml_am_push_frames(q, fr, &bad, 1, &one, &cnt), cases[c].cplx ? ML_EINVAL : ML_OK);
         ml_am_reset(q);
         for (size_t i = 0; i < n + blocks[2]; i += blocks[2]) { /* the last step finishes */
             ml_am_output part = {.env = env + got, .in = NULL, .modulated = mod + got, .cap = cap};
             if (i < n) {
                 const size_t take = n - i < blocks[2] ? n - i : blocks[2];
-                const ml_am_frames in = {.data = fr + 4 * i, .stride = 4, .re = 1, .im = 2, .ref = 0};
-                ck_assert_int_eq(ml_am_push_frames(q, &in, take, &part, &cnt), ML_OK);
+                const ml_channels in = {.stride = 4, .re = 1, .im = 2, .complex_input = cases[c].cplx,
+                                        .has_ref = cfg.has_reference, .ref = 0};
+                ck_assert_int_eq(ml_am_push_frames(q, fr + 4 * i, &in, take, &part, &cnt), ML_OK);
             } else {
                 ck_assert_int_eq(ml_am_finish(q, &part, &cnt), ML_OK);
             }
