@@ -438,7 +438,8 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     const size_t nch = (size_t)info->channels;
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
-    ml_blocks *blocks = ml_blocks_create(spec, &sc, &o->audio, false);
+    ml_blocks *blocks = NULL;
+    ml_blocks_create(spec, &sc, &o->audio, false, &blocks);
     ml_channels ch;
     int rc = ml_channels_map(info->channels, o->channel, false, false, 0, &ch) == ML_OK
                  ? 0
@@ -501,7 +502,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
                        (unsigned long long)stats.clipped);
     if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
-    ml_blocks_report(blocks, rep, NULL);
+    ml_uncertainty_report(blocks, rep);
 done:
     free(buf);
     free(mono);

@@ -463,7 +463,8 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     }
     ml_audio_config bcfg = o->audio; /* the demodulated audio's band, as in step 4 */
     bcfg.band_hi_hz = fmin(bcfg.band_hi_hz, bw);
-    if ((blocks = ml_blocks_create(aud, &ac_spec, &bcfg, true)) == NULL || ml_blocks_set_peaks(blocks, ac_cfg.hold_s, decim) != ML_OK) {
+    if (ml_blocks_create(aud, &ac_spec, &bcfg, true, &blocks) != ML_OK
+        || ml_blocks_set_peaks(blocks, ac_cfg.hold_s, decim) != ML_OK) {
         rc = ml_cli_error("%s: out of memory", o->input);
         goto done;
     }
@@ -689,8 +690,13 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     if (stats[0].clipped + stats[1].clipped > 0)
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)(stats[0].clipped + stats[1].clipped));
-    ml_blocks_report(blocks, rep, NULL);
-    ml_blocks_report_peaks(blocks, rep, 100.0 * c_prov / c);
+    ml_uncertainty_report(blocks, rep);
+    double u_max, u_min, u_index;
+    ml_blocks_get_peaks(blocks, &u_max, &u_min, &u_index);
+    const ml_value u_peaks[] = {{"modulation.positive_peak_pct", 100.0 * c_prov / c * u_max},
+                                {"modulation.negative_peak_pct", 100.0 * c_prov / c * u_min},
+                                {"modulation.index", u_index}};
+    ml_values_report_u(rep, u_peaks, 3);
     if (o->plot)
         ml_plots_modulation(o->plot, rf, f_car, c * c * fsp, fm, bw, o->limits && o->limits->has_mask ? &o->limits->mask : NULL,
                             c_prov / c, emax / c, emin / c, ac_cfg.pinch_rel);
