@@ -4,6 +4,7 @@
 #include "analyzer/values.h"
 
 #include <math.h>
+#include <stdbool.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -52,6 +53,62 @@ size_t ml_values_level(const ml_level_figures *f, const char *group, ml_value *o
         out[n++] = (ml_value){"capture.dc_offset_pct", f->dc_offset_pct};
     }
     return n;
+}
+
+size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid, ml_value *out)
+{
+    size_t n = 0;
+    out[n++] = (ml_value){"carrier.frequency_hz", r->carrier_hz};
+    out[n++] = (ml_value){"carrier.offset_hz", isnan(nominal_hz) ? NAN : r->carrier_hz - nominal_hz};
+    out[n++] = (ml_value){"carrier.level_dbfs", r->carrier_level_dbfs};
+    out[n++] = (ml_value){"carrier.unmodulated_dbfs", r->unmodulated_dbfs};
+    out[n++] = (ml_value){"carrier.cnr_db", r->cnr_db};
+    out[n++] = (ml_value){"carrier.cnr_bandwidth_hz", r->cnr_bandwidth_hz};
+    out[n++] = (ml_value){"modulation.index", r->index};
+    out[n++] = (ml_value){"modulation.index_spectral", r->index_spectral};
+    out[n++] = (ml_value){"modulation.positive_peak_pct", r->positive_peak_pct};
+    out[n++] = (ml_value){"modulation.negative_peak_pct", r->negative_peak_pct};
+    out[n++] = (ml_value){"modulation.carrier_shift_pct", r->carrier_shift_pct};
+    out[n++] = (ml_value){"modulation.overmodulation_pct", r->overmodulation_pct};
+    out[n++] = (ml_value){"modulation.pinch_off_events", (double)(r->pinch_events + r->reversal_events)};
+    out[n++] = (ml_value){"modulation.carrier_pinch_events", (double)r->pinch_events};
+    out[n++] = (ml_value){"modulation.phase_reversal_events", (double)r->reversal_events};
+    out[n++] = (ml_value){"modulation.positive_peaks_over_limit", (double)r->positive_over};
+    out[n++] = (ml_value){"modulation.sideband_asymmetry_db", r->sideband_asymmetry_db};
+    n += ml_values_envelope(&r->audio, out + n);
+    if (with_trapezoid)
+        out[n++] = (ml_value){"modulation.trapezoid_deviation_pct", r->trapezoid_deviation_pct};
+    out[n++] = (ml_value){"spectrum.occupied_bandwidth_hz", r->occupied_bandwidth_hz};
+    return n;
+}
+
+size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out)
+{
+    size_t n = 0;
+    out[n++] = (ml_value){"modulation.index", u->index};
+    out[n++] = (ml_value){"modulation.positive_peak_pct", u->positive_peak_pct};
+    out[n++] = (ml_value){"modulation.negative_peak_pct", u->negative_peak_pct};
+    n += ml_values_envelope(&u->audio, out + n);
+    n += ml_values_audio(&u->audio, out + n);
+    return n;
+}
+
+const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf, size_t len)
+{
+    switch (r->c_source) {
+    case ML_C_REFERENCE: snprintf(buf, len, "carrier reference file %s", reference_path ? reference_path : ""); break;
+    case ML_C_QUIET: snprintf(buf, len, "unmodulated stretches of this capture (%.2f s)", r->c_quiet_s); break;
+    case ML_C_LATCHED: snprintf(buf, len, "unmodulated carrier heard earlier (%.2f s)", r->c_quiet_s); break;
+    default: snprintf(buf, len, "mean envelope (no unmodulated carrier found)"); break;
+    }
+    return buf;
+}
+
+const char *ml_values_overmodulation_kind(const ml_modulation_result *r)
+{
+    return r->reversal_events > r->pinch_events ? "phase reversal"
+           : r->pinch_events > 0                ? "carrier pinch-off"
+                                                : "none";
 }
 
 double ml_values_find(const ml_value *v, size_t n, const char *name)

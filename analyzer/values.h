@@ -12,6 +12,7 @@
 #include <stddef.h>
 
 #include "dsp/figures.h"
+#include "dsp/modulation.h"
 #include "io/report.h"
 
 typedef struct {
@@ -34,6 +35,18 @@ size_t ml_values_envelope(const ml_audio_figures *f, ml_value *out);
  * .dc_offset_pct, .clipped_samples; for "capture" (the captured if/iq channels)
  * audio.clipped_samples, capture.rms_dbfs, .peak_dbfs, .dc_offset_pct. */
 size_t ml_values_level(const ml_level_figures *f, const char *group, ml_value *out);
+
+/* The carrier and modulation figures in report order, carrier.frequency_hz ..
+ * spectrum.occupied_bandwidth_hz (the demodulated audio's envelope_thd_pct, hum_db, noise_db
+ * among them): carrier.offset_hz is the carrier's offset from nominal_hz (NAN: none given);
+ * modulation.trapezoid_deviation_pct only with_trapezoid (a reference channel was given). */
+size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid, ml_value *out);
+/* The 95 % half-widths the modulation analysis estimates, under the same names (NAN: none). */
+size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out);
+/* Where C came from, as the report's modulation.carrier_reference text, into buf[len]. */
+const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf, size_t len);
+/* modulation.overmodulation_kind: the kind of event seen most ("none" without events). */
+const char *ml_values_overmodulation_kind(const ml_modulation_result *r);
 
 /* The value named name among v[n] (full dotted name); NAN when absent. */
 double ml_values_find(const ml_value *v, size_t n, const char *name);

@@ -140,6 +140,25 @@ ml_status ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, con
     return ML_OK;
 }
 
+void ml_blocks_reset(ml_blocks *q)
+{
+    if (q == NULL)
+        return;
+    ml_spectrum_reset(q->spec);
+    q->segs = 0;
+    q->spec_bad = false;
+    for (size_t i = 0; i < U_COUNT; i++)
+        ml_running_reset(&q->acc[i]);
+    q->total = q->last_bad = q->block_first = 0;
+    q->any_bad = false;
+    q->need = first_block(q);
+    if (q->hist != NULL)
+        memset(q->hist, 0, PEAK_BINS * sizeof *q->hist);
+    q->hist_n = 0;
+    for (int i = 0; i < P_COUNT; i++)
+        ml_running_reset(&q->peak[i]);
+}
+
 void ml_blocks_destroy(ml_blocks *q)
 {
     if (q == NULL)

@@ -39,6 +39,8 @@ typedef struct ml_blocks ml_blocks;
 ml_status ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, const ml_audio_config *cfg,
                            bool tagged, ml_blocks **out);
 void ml_blocks_destroy(ml_blocks *q);
+/* Forgets every block (with the whole spectrum's reset: a new recording). NULL is a no-op. */
+void ml_blocks_reset(ml_blocks *q);
 
 /* Peak readings only (ml_blocks_set_peaks; otherwise a no-op): the n samples that were pushed to
  * the whole spectrum, with the same tags (tag[i] == 0 leaves the sample's block out; NULL: every
