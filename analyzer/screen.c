@@ -128,7 +128,7 @@ static void scale(int y)
 
 static void readings_mod(const ml_screen *s, const ml_watch_view *v)
 {
-    const ml_monitor_result *r = &v->res;
+    const ml_modulation_result *r = &v->res.modulation;
     bar(s, 2, "negative peak", v->have ? r->negative_peak_pct : NAN, v->neg_hold_pct, v->neg_limit_pct);
     bar(s, 5, "positive peak", v->have ? r->positive_peak_pct : NAN, v->pos_hold_pct, v->pos_limit_pct);
     scale(7);
@@ -146,25 +146,30 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
     }
     char a[32], b[32], c[32];
     num(a, sizeof a, "%.3f Hz", v->have ? r->carrier_hz : NAN);
-    num(b, sizeof b, "%+.3f Hz", v->have ? r->carrier_offset_hz : NAN);
-    num(c, sizeof c, "%.2f dBFS", v->have ? r->carrier_dbfs : NAN);
+    num(b, sizeof b, "%+.3f Hz", v->have ? r->carrier_hz - v->nominal_hz : NAN);
+    num(c, sizeof c, "%.2f dBFS", v->have ? r->carrier_level_dbfs : NAN);
     mvprintw(11, 2, "carrier     %-16s offset %-14s level %s", a, b, c);
     num(a, sizeof a, "%.3f", v->have ? r->index : NAN);
-    num(b, sizeof b, "%.2f %%", v->have ? r->envelope_thd_pct : NAN);
+    num(b, sizeof b, "%.2f %%", v->have ? r->audio.thd_pct : NAN);
     mvprintw(12, 2, "index       %-16s envelope THD %s", a, b);
     num(a, sizeof a, "%.1f dB", v->have ? r->cnr_db : NAN);
-    num(b, sizeof b, "%.1f dB", v->have ? r->mod_hum_db : NAN);
+    num(b, sizeof b, "%.1f dB", v->have ? r->audio.hum_dbfs : NAN);
     num(c, sizeof c, "%.0f Hz", v->have ? 2 * r->bandwidth_hz : NAN);
     mvprintw(13, 2, "CNR         %-16s hum %-10s (re 100 %%)  in %s", a, b, c);
-    num(a, sizeof a, "%.1f Hz", v->have ? r->fundamental_hz : NAN);
+    num(a, sizeof a, "%.1f Hz", v->have ? r->audio.fundamental_hz : NAN);
     mvprintw(14, 2, "tone        %-16s overmodulated updates %llu", a, (unsigned long long)v->overmod_updates);
+    num(a, sizeof a, "%.2f dBFS", v->have ? r->unmodulated_dbfs : NAN);
+    num(b, sizeof b, "%+.2f %%", v->have ? r->carrier_shift_pct : NAN);
+    static const char *const from[] = {"reference file", "unmodulated stretch", "latched", "mean envelope"};
+    mvprintw(15, 2, "C           %-16s shift  %-14s from %s", a, b,
+             v->have && r->c_source <= ML_C_MEAN ? from[r->c_source] : "-");
 }
 
 static void readings_audio(const ml_watch_view *v)
 {
-    const ml_monitor_result *r = &v->res;
+    const ml_audio_figures *r = &v->res.audio;
     char a[32], b[32];
-    num(a, sizeof a, "%.2f dBFS", v->have ? r->rms_dbfs : NAN);
+    num(a, sizeof a, "%.2f dBFS", v->have ? v->res.rms_dbfs : NAN);
     num(b, sizeof b, "%.2f dBFS", v->have ? r->fundamental_dbfs : NAN);
     mvprintw(3, 2, "level (RMS)      %-16s tone level  %s", a, b);
     num(a, sizeof a, "%.3f Hz", v->have ? r->fundamental_hz : NAN);

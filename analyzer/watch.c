@@ -21,6 +21,7 @@
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
 #include "analyzer/registry.h"
+#include "analyzer/values.h"
 #include "dsp/channels.h"
 #include "dsp/peakhold.h"
 #include "io/audio.h"
@@ -62,55 +63,56 @@ static void on_stop(int sig)
     ml_source_stop(g_src);
 }
 
-/* The name a plain line uses: the metric's short name when it is unique in the registry (as a
- * limits profile accepts it), else its full dotted name; both as in measure's JSON. The hum
- * group keeps its name (hum.level_dbfs, hum.level_dbc): "level" alone would say nothing. */
-static const char *plain_name(const char *full)
-{
-    const char *dot = strrchr(full, '.');
-    int amb = 0;
-    if (dot == NULL || strncmp(full, "hum.", 4) == 0)
-        return full;
-    return ml_registry_lookup(dot + 1, &amb) != NULL && !amb ? dot + 1 : full;
-}
+/* The registered metrics a plain line shows, in order (names, units and decimals from the
+ * registry, values from analyzer/values.h: the same as measure's report). */
+static const char *const PLAIN_MOD[] = {
+    "carrier.frequency_hz", "carrier.offset_hz", "carrier.level_dbfs", "carrier.unmodulated_dbfs",
+    "carrier.cnr_db", "modulation.index", "modulation.positive_peak_pct", "modulation.negative_peak_pct",
+    "modulation.carrier_shift_pct", "modulation.envelope_thd_pct", "modulation.hum_db",
+    "modulation.pinch_off_events",
+};
+static const char *const PLAIN_AUDIO[] = {
+    "audio.rms_dbfs", "audio.fundamental_hz", "audio.fundamental_dbfs", "audio.thd_pct", "audio.thdn_pct",
+    "audio.snr_db", "audio.sinad_db", "hum.level_dbfs", "hum.level_dbc",
+};
 
-static void pv(FILE *f, const char *name, const char *fmt, double v)
+/* " name=value" under the short name (analyzer/values.h), "nan" when not measured. */
+static void pv(FILE *f, const char *name, double v, int decimals)
 {
-    fprintf(f, " %s=", plain_name(name));
+    fprintf(f, " %s=", ml_values_short_name(name));
     if (isfinite(v))
-        fprintf(f, fmt, v);
+        fprintf(f, "%.*f", decimals, v);
     else
         fputs("nan", f);
 }
 
+/* A registered metric's value from v[n] with the registry's decimals. */
+static void pv_registered(FILE *f, const char *name, const ml_value *v, size_t n, bool have)
+{
+    const ml_metric_def *d = ml_registry_lookup(name, NULL);
+    pv(f, name, have ? ml_values_find(v, n, name) : NAN, d ? d->decimals : 3);
+}
+
 static void plain_line(FILE *f, const ml_watch_view *v)
 {
-    const ml_monitor_result *r = &v->res;
     fprintf(f, "elapsed_s=%.2f window_s=%.2f", v->elapsed_s, v->window_s);
-    const double n = NAN;
+    ml_value vals[ML_VALUES_MAX];
+    size_t n = 0;
     if (v->kind == ML_MONITOR_AUDIO) {
-        pv(f, "audio.rms_dbfs", "%.2f", v->have ? r->rms_dbfs : n);
-        pv(f, "audio.fundamental_hz", "%.3f", v->have ? r->fundamental_hz : n);
-        pv(f, "audio.fundamental_dbfs", "%.2f", v->have ? r->fundamental_dbfs : n);
-        pv(f, "audio.thd_pct", "%.4f", v->have ? r->thd_pct : n);
-        pv(f, "audio.thdn_pct", "%.4f", v->have ? r->thdn_pct : n);
-        pv(f, "audio.snr_db", "%.2f", v->have ? r->snr_db : n);
-        pv(f, "audio.sinad_db", "%.2f", v->have ? r->sinad_db : n);
-        pv(f, "hum.level_dbfs", "%.2f", v->have ? r->hum_dbfs : n);
-        pv(f, "hum.level_dbc", "%.2f", v->have ? r->hum_dbc : n);
+        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = NAN, .dc_offset_pct = NAN};
+        n = ml_values_level(&lv, "audio", vals);
+        n += ml_values_audio(&v->res.audio, vals + n);
+        for (size_t i = 0; i < sizeof PLAIN_AUDIO / sizeof *PLAIN_AUDIO; i++)
+            pv_registered(f, PLAIN_AUDIO[i], vals, n, v->have);
     } else {
-        pv(f, "carrier.frequency_hz", "%.3f", v->have ? r->carrier_hz : n);
-        pv(f, "carrier.offset_hz", "%.3f", v->have ? r->carrier_offset_hz : n);
-        pv(f, "carrier.level_dbfs", "%.2f", v->have ? r->carrier_dbfs : n);
-        pv(f, "carrier.cnr_db", "%.2f", v->have ? r->cnr_db : n);
-        pv(f, "modulation.index", "%.4f", v->have ? r->index : n);
-        pv(f, "modulation.positive_peak_pct", "%.2f", v->have ? r->positive_peak_pct : n);
-        pv(f, "modulation.negative_peak_pct", "%.2f", v->have ? r->negative_peak_pct : n);
-        pv(f, "positive_peak_hold_pct", "%.2f", v->pos_hold_pct);
-        pv(f, "negative_peak_hold_pct", "%.2f", v->neg_hold_pct);
-        pv(f, "modulation.envelope_thd_pct", "%.3f", v->have ? r->envelope_thd_pct : n);
-        pv(f, "modulation.hum_db", "%.2f", v->have ? r->mod_hum_db : n);
-        pv(f, "modulation.pinch_off_events", "%.0f", v->have ? (double)r->pinch_events : n);
+        n = ml_values_modulation(&v->res.modulation, v->nominal_hz, false, vals);
+        for (size_t i = 0; i < sizeof PLAIN_MOD / sizeof *PLAIN_MOD; i++) {
+            pv_registered(f, PLAIN_MOD[i], vals, n, v->have);
+            if (i == 7) { /* the holds beside the peaks; decimals as the peaks' */
+                pv(f, "positive_peak_hold_pct", v->pos_hold_pct, 2);
+                pv(f, "negative_peak_hold_pct", v->neg_hold_pct, 2);
+            }
+        }
         fprintf(f, " overmodulation=%d overmodulated_updates=%llu", v->overmod ? 1 : 0,
                 (unsigned long long)v->overmod_updates);
     }
@@ -271,6 +273,7 @@ int ml_cmd_watch(int argc, char **argv)
     v.rate_hz = rate;
     v.window_s = (double)ml_monitor_window_frames(mon) / rate;
     v.pos_hold_pct = v.neg_hold_pct = NAN;
+    v.nominal_hz = o.carrier_hz;
     uint64_t base_over = 0, base_lost = 0, frames = 0;
     const uint64_t stop_at = seconds_given ? (uint64_t)llround(o.live.seconds * rate) : UINT64_MAX;
     bool quit = false;
@@ -300,11 +303,12 @@ int ml_cmd_watch(int argc, char **argv)
             break;
         }
         const double dt = (double)got / rate;
-        ml_peakhold_push(hold_pos, dt, have ? r.positive_peak_pct : NAN);
-        ml_peakhold_push(hold_neg, dt, have ? r.negative_peak_pct : NAN);
+        const ml_modulation_result *m = &r.modulation;
+        ml_peakhold_push(hold_pos, dt, have ? m->positive_peak_pct : NAN);
+        ml_peakhold_push(hold_neg, dt, have ? m->negative_peak_pct : NAN);
         if (have && mc.kind != ML_MONITOR_AUDIO) {
-            const bool pinch = r.pinch_events > 0 || r.negative_peak_pct >= 100.0;
-            const bool high = r.positive_peak_pct > v.latch_limit_pct;
+            const bool pinch = m->pinch_events + m->reversal_events > 0 || m->negative_peak_pct >= 100.0;
+            const bool high = m->positive_peak_pct > v.latch_limit_pct;
             if (pinch || high) {
                 v.overmod_updates++;
                 if (!v.overmod) {
