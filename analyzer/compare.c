@@ -148,13 +148,13 @@ static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_pl
                 rep->metrics[i].decimals = d->decimals;
             }
         }
-        if (o->limits)
-            ml_limits_apply(o->limits, rep);
+        if (o->out.limits)
+            ml_limits_apply(o->out.limits, rep);
         return 0;
     }
     ml_measure_opts one = *o;
-    one.input = path;
-    one.plot = plot;
+    one.in.path = path;
+    one.out.plot = plot;
     *measured = true;
     return ml_measure_analyse(&one, rep);
 }
@@ -240,9 +240,9 @@ static void add_row(ml_comparison *c, const ml_measure_opts *o, const char *name
     r->a = r->a_valid ? ma->value : 0;
     r->b = r->b_valid ? mb->value : 0;
     const double ua = r->a_valid && ma->has_u ? ma->u : 0, ub = r->b_valid && mb->has_u ? mb->u : 0;
-    const ml_limit *lim = limit_for(o->limits, name);
+    const ml_limit *lim = limit_for(o->out.limits, name);
     judge(r, d, lim, sqrt(ua * ua + ub * ub), tolerance_for(tol, ntol, name));
-    r->counted = o->limits ? lim != NULL : true;
+    r->counted = o->out.limits ? lim != NULL : true;
     if (r->counted && strcmp(r->verdict, "worse") == 0)
         c->nworse++;
     fill_limit(r, c->a, c->b);
@@ -275,17 +275,17 @@ int ml_cmd_compare(int argc, char **argv)
     int rc = ml_measure_parse(argc, argv, &o, 2);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if ((rc = ml_plots_check_paths(o.plot_path, o.report_path)) != 0)
+    if ((rc = ml_plots_check_paths(o.out.plot_path, o.out.report_path)) != 0)
         return rc;
     static ml_limits limits;
     char err[512];
-    if (o.limits_path) {
-        if (ml_limits_load(o.limits_path, &limits, err, sizeof err) != ML_OK)
-            return ml_cli_error("%s: %s", o.limits_path, err);
-        o.limits = &limits;
+    if (o.out.limits_path) {
+        if (ml_limits_load(o.out.limits_path, &limits, err, sizeof err) != ML_OK)
+            return ml_cli_error("%s: %s", o.out.limits_path, err);
+        o.out.limits = &limits;
     }
-    const char *outs[3] = {o.output_path, o.plot_path, o.report_path};
-    const char *ins[4] = {o.input, o.input2, o.limits_path, o.carrier_reference};
+    const char *outs[3] = {o.out.output_path, o.out.plot_path, o.out.report_path};
+    const char *ins[4] = {o.in.path, o.input2, o.out.limits_path, o.an.carrier_reference};
     for (int i = 0; i < 3; i++)
         for (int j = 0; outs[i] && j < 4; j++)
             if (ins[j] && ml_same_file(outs[i], ins[j]))
@@ -297,7 +297,7 @@ int ml_cmd_compare(int argc, char **argv)
     ml_plot_data_init(&pa);
     ml_plot_data_init(&pb);
     bool ma = false, mb = false;
-    rc = load_side(&o, o.input, &ra, &pa, &ma);
+    rc = load_side(&o, o.in.path, &ra, &pa, &ma);
     if (rc == 0)
         rc = load_side(&o, o.input2, &rb, &pb, &mb);
     if (rc != 0)
@@ -305,8 +305,8 @@ int ml_cmd_compare(int argc, char **argv)
     memset(&cmp, 0, sizeof cmp);
     cmp.a = &ra;
     cmp.b = &rb;
-    if (o.limits_path)
-        snprintf(cmp.limits_path, sizeof cmp.limits_path, "%s", o.limits_path);
+    if (o.out.limits_path)
+        snprintf(cmp.limits_path, sizeof cmp.limits_path, "%s", o.out.limits_path);
     for (size_t i = 0; i < ra.nmetrics; i++)
         add_row(&cmp, &o, ra.metrics[i].name, tol, ntol);
     for (size_t i = 0; i < rb.nmetrics; i++)
@@ -319,24 +319,24 @@ int ml_cmd_compare(int argc, char **argv)
     if (rb.u_blocks < 3)
         note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
              "B", "");
-    if ((o.plot_path || o.report_path) && (!ma || !mb))
+    if ((o.out.plot_path || o.out.report_path) && (!ma || !mb))
         note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
-    rc = ml_plots_write_compare(o.plot_path, o.report_path, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
+    rc = ml_plots_write_compare(o.out.plot_path, o.out.report_path, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
     if (rc != 0)
         goto done;
 
     ml_output out;
-    if (!ml_output_open(&out, o.output_path, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.output_path, err);
+    if (!ml_output_open(&out, o.out.output_path, err, sizeof err)) {
+        rc = ml_cli_error("%s: %s", o.out.output_path, err);
         goto done;
     }
-    if (ml_compare_write(out.f, &cmp, o.format) != ML_OK) {
+    if (ml_compare_write(out.f, &cmp, o.out.format) != ML_OK) {
         ml_output_abort(&out);
-        rc = ml_cli_error("%s: cannot write the comparison", o.output_path ? o.output_path : "standard output");
+        rc = ml_cli_error("%s: cannot write the comparison", o.out.output_path ? o.out.output_path : "standard output");
         goto done;
     }
     if (!ml_output_commit(&out, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.output_path, err);
+        rc = ml_cli_error("%s: %s", o.out.output_path, err);
         goto done;
     }
     rc = cmp.nworse > 0 ? ML_EXIT_FAIL : ML_EXIT_OK;

@@ -171,9 +171,9 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
                       int64_t *latency)
 {
     const double rate = seg->info->rate_hz;
-    const size_t nch = (size_t)seg->info->channels, c = (size_t)(o->channel - 1);
+    const size_t nch = (size_t)seg->info->channels, c = (size_t)(o->in.channel - 1);
     const int64_t noise_n = (int64_t)(NOISE_S * rate), limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
-    const int64_t period = (int64_t)ceil(rate / o->live.play_hz);
+    const int64_t period = (int64_t)ceil(rate / o->in.play_hz);
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     if (buf == NULL)
         return ml_cli_error("out of memory");
@@ -208,7 +208,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         return ml_cli_error("live: the played tone did not come back within %.1f s (threshold %.1f dBFS); "
                             "check the connection and the levels", ONSET_WAIT_S, 20 * log10(thr));
     int64_t n1 = 0;
-    while (amp * fabs(sin(2 * M_PI * o->live.play_hz * (double)n1 / rate)) <= thr && n1 < period)
+    while (amp * fabs(sin(2 * M_PI * o->in.play_hz * (double)n1 / rate)) <= thr && n1 < period)
         n1++;
     *onset = j;
     *latency = j - ((int64_t)preroll + n1);
@@ -226,39 +226,39 @@ int ml_cmd_live(int argc, char **argv)
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-    long nch = o.live.channels;
+    long nch = o.in.channels;
     if (nch == 0) {
-        nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
-        if (o.reference_channel > nch)
-            nch = o.reference_channel;
+        nch = o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0);
+        if (o.in.reference_channel > nch)
+            nch = o.in.reference_channel;
     }
-    if (o.channel + (o.kind == ML_KIND_IQ ? 1 : 0) > nch || o.reference_channel > nch)
+    if (o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0) > nch || o.in.reference_channel > nch)
         return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
 
     ml_live_config lc = ml_live_config_default();
-    lc.device = o.live.device;
-    lc.rate_hz = o.live.rate_hz;
+    lc.device = o.in.device;
+    lc.rate_hz = o.in.rate_hz;
     lc.channels = (int)nch;
-    lc.head_s = HEAD_S + (o.live.play ? PREROLL_S + ONSET_WAIT_S : 0);
-    lc.save_path = o.live.save_path;
+    lc.head_s = HEAD_S + (o.in.play ? PREROLL_S + ONSET_WAIT_S : 0);
+    lc.save_path = o.in.save_path;
     tone_feed feed = {NULL, 0, 0};
-    if (o.live.play) {
+    if (o.in.play) {
         /* the generator needs the rate: the input device's default unless --rate */
-        double rate = o.live.rate_hz;
+        double rate = o.in.rate_hz;
         char e[256];
-        if (rate == 0 && ml_audio_device_rate(o.live.device, true, &rate, e, sizeof e) != ML_OK)
-            return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", e);
+        if (rate == 0 && ml_audio_device_rate(o.in.device, true, &rate, e, sizeof e) != ML_OK)
+            return ml_cli_error("%s: %s", o.in.device ? o.in.device : "default input", e);
         lc.rate_hz = rate;
-        if (!(o.live.play_hz < rate / 2))
-            return ml_cli_error("--play-tone %.1f Hz is at or above the Nyquist frequency %.0f Hz", o.live.play_hz,
+        if (!(o.in.play_hz < rate / 2))
+            return ml_cli_error("--play-tone %.1f Hz is at or above the Nyquist frequency %.0f Hz", o.in.play_hz,
                                 rate / 2);
         ml_synth_config sc = ml_synth_config_default(rate);
-        sc.freq_hz = o.live.play_hz;
-        sc.level_dbfs = o.live.play_dbfs;
+        sc.freq_hz = o.in.play_hz;
+        sc.level_dbfs = o.in.play_dbfs;
         if (ml_synth_create(&sc, &feed.syn) != ML_OK)
             return ml_cli_error("--play-tone: the tone cannot be generated at %.0f Hz", rate);
         feed.preroll = (uint64_t)llround(PREROLL_S * rate);
-        lc.output_device = o.live.output_device;
+        lc.output_device = o.in.output_device;
         lc.output_channels = 1;
         lc.fill = feed_tone;
         lc.fill_ctx = &feed;
@@ -269,13 +269,13 @@ int ml_cmd_live(int argc, char **argv)
     ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
     if (st != ML_OK) {
         ml_synth_destroy(feed.syn);
-        return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", err);
+        return ml_cli_error("%s: %s", o.in.device ? o.in.device : "default input", err);
     }
     seg.info = ml_source_get_info(seg.src);
     seg.live = true;
     const double rate = seg.info->rate_hz;
-    const int64_t total = (int64_t)llround(o.live.seconds * rate);
-    seg.first = (int64_t)llround(o.start_s * rate);
+    const int64_t total = (int64_t)llround(o.in.seconds * rate);
+    seg.first = (int64_t)llround(o.in.start_s * rate);
 
     struct sigaction sa, old_int, old_term;
     memset(&sa, 0, sizeof sa);
@@ -286,18 +286,18 @@ int ml_cmd_live(int argc, char **argv)
     sigaction(SIGTERM, &sa, &old_term);
 
     int64_t latency = -1;
-    if (o.live.play) {
+    if (o.in.play) {
         int64_t onset = 0;
         rc = find_onset(&o, &seg, feed.preroll, &onset, &latency);
         if (rc == 0 && seg.first < onset + (int64_t)(SETTLE_S * rate))
             seg.first = onset + (int64_t)(SETTLE_S * rate);
     }
-    seg.nframes = o.duration_s > 0 ? (int64_t)llround(o.duration_s * rate) : total - seg.first;
+    seg.nframes = o.in.duration_s > 0 ? (int64_t)llround(o.in.duration_s * rate) : total - seg.first;
     if (rc == 0 && seg.nframes <= 0)
-        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return", o.live.seconds);
+        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return", o.in.seconds);
     if (rc == 0 && ml_source_seek(seg.src, seg.first) != ML_OK) {
         if (seg.live && !seg.failed)
-            rc = ml_cli_error("%s: %s", o.input, ml_source_detail(seg.src));
+            rc = ml_cli_error("%s: %s", o.in.path, ml_source_detail(seg.src));
         else
             rc = ML_EXIT_USAGE;
     }
@@ -305,8 +305,8 @@ int ml_cmd_live(int argc, char **argv)
     memset(&rep, 0, sizeof rep);
     ml_plot_data pd;
     ml_plot_data_init(&pd);
-    if (o.plot_path || o.report_path)
-        o.plot = &pd;
+    if (o.out.plot_path || o.out.report_path)
+        o.out.plot = &pd;
     if (rc == 0)
         rc = ml_measure_run(&o, &seg, &rep);
     ml_source_stop(seg.src);
@@ -329,15 +329,15 @@ int ml_cmd_live(int argc, char **argv)
         ml_report_add_text(&rep, "live.complete", seg.ended_early ? "no" : "yes");
         if (seg.ended_early)
             ml_report_note(&rep, "capture incomplete: %s after %.3f s of %.3f s", seg.failed ? "the device failed"
-                           : "interrupted", (double)ls.captured_frames / rate, o.live.seconds);
+                           : "interrupted", (double)ls.captured_frames / rate, o.in.seconds);
         if (ls.lost_frames > 0)
             ml_report_note(&rep, "%llu frames were lost (the computer fell behind the sound card)",
                            (unsigned long long)ls.lost_frames);
         if (ls.overflow_events > 0)
             ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
-        if (ls.underflow_frames > 0 && o.live.play)
+        if (ls.underflow_frames > 0 && o.in.play)
             ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
-        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        rc = ml_plots_write_measure(o.out.plot_path, o.out.report_path, &rep, &pd, cmdline);
         if (rc == 0)
             rc = ml_measure_write(&o, &rep);
         if (rc == 0)

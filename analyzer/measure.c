@@ -74,13 +74,13 @@ static int parse_band(const char *s, ml_measure_opts *o)
     double lo, hi;
     if (!ml_cli_number(buf, &lo) || !ml_cli_number(colon + 1, &hi) || lo < 0 || hi <= lo)
         return 0;
-    o->audio.band_lo_hz = lo;
-    o->audio.band_hi_hz = hi;
+    o->an.audio.band_lo_hz = lo;
+    o->an.audio.band_hi_hz = hi;
     return 1;
 }
 
 /* "FREQ[,LEVEL]" for --play-tone. */
-static int parse_play(const char *s, ml_live_opts *l)
+static int parse_play(const char *s, ml_input_opts *l)
 {
     char buf[64];
     snprintf(buf, sizeof buf, "%s", s);
@@ -134,16 +134,10 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     };
     const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);
-    o->live.enabled = live;
-    o->live.seconds = 5.0;
-    o->kind = ML_KIND_AUTO;
-    o->channel = 1;
-    o->duration_s = -1;
-    o->audio = ml_audio_config_default();
-    o->window = ML_WINDOW_HFT248D;
-    o->format = ML_FORMAT_TEXT;
-    o->carrier_hz = NAN;
-    o->peak_hold_ms = 5.0;
+    o->in = ml_input_opts_default();
+    o->an = ml_analysis_opts_default();
+    o->out = ml_output_opts_default();
+    o->in.live = live;
     opterr = 0;
     optind = 1;
     int ch, rc;
@@ -152,33 +146,33 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
         switch (ch) {
         case 'k':
-            if (strcmp(optarg, "auto") == 0) o->kind = ML_KIND_AUTO;
-            else if (strcmp(optarg, "audio") == 0) o->kind = ML_KIND_AUDIO;
-            else if (strcmp(optarg, "if") == 0) o->kind = ML_KIND_IF;
-            else if (strcmp(optarg, "iq") == 0) o->kind = ML_KIND_IQ;
+            if (strcmp(optarg, "auto") == 0) o->in.kind = ML_KIND_AUTO;
+            else if (strcmp(optarg, "audio") == 0) o->in.kind = ML_KIND_AUDIO;
+            else if (strcmp(optarg, "if") == 0) o->in.kind = ML_KIND_IF;
+            else if (strcmp(optarg, "iq") == 0) o->in.kind = ML_KIND_IQ;
             else return ml_cli_error("--kind: '%s' is not auto, audio, if or iq", optarg);
             break;
         case 'c':
             if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
                 return ml_cli_error("--channel: '%s' is not a channel number 1..%d", optarg, ML_MAX_CHANNELS);
-            o->channel = n;
+            o->in.channel = n;
             break;
         case O_REFCH:
             if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
                 return ml_cli_error("--reference-channel: '%s' is not a channel number 1..%d", optarg,
                                     ML_MAX_CHANNELS);
-            o->reference_channel = n;
+            o->in.reference_channel = n;
             break;
-        case O_SWAP: o->swap_iq = true; break;
+        case O_SWAP: o->in.swap_iq = true; break;
         case 's':
             if (!ml_cli_number(optarg, &v) || v < 0)
                 return ml_cli_error("--start: '%s' is not a time in seconds >= 0", optarg);
-            o->start_s = v;
+            o->in.start_s = v;
             break;
         case 'd':
             if (!ml_cli_number(optarg, &v) || v <= 0)
                 return ml_cli_error("--duration: '%s' is not a time in seconds > 0", optarg);
-            o->duration_s = v;
+            o->in.duration_s = v;
             break;
         case 'b':
             if (!parse_band(optarg, o))
@@ -187,22 +181,22 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
         case 't':
             if (!ml_cli_number(optarg, &v) || v <= 0)
                 return ml_cli_error("--tone: '%s' is not a frequency in Hz > 0", optarg);
-            o->audio.tone_hz = v;
+            o->an.audio.tone_hz = v;
             break;
         case 'H':
             if (!ml_cli_int(optarg, &n) || n < 2 || n > ML_MAX_HARMONICS)
                 return ml_cli_error("--harmonics: '%s' is not an order 2..%d", optarg, ML_MAX_HARMONICS);
-            o->audio.harmonics = (int)n;
+            o->an.audio.harmonics = (int)n;
             break;
         case 'm':
-            if ((rc = ml_cli_mains(optarg, &o->audio.mains_hz)) != 0)
+            if ((rc = ml_cli_mains(optarg, &o->an.audio.mains_hz)) != 0)
                 return rc;
             break;
         case 'w': {
             int found = 0;
             for (int w = ML_WINDOW_HANN; w < ML_WINDOW_COUNT; w++)
                 if (strcmp(optarg, ml_window_name((ml_window_type)w)) == 0) {
-                    o->window = (ml_window_type)w;
+                    o->an.window = (ml_window_type)w;
                     found = 1;
                 }
             if (!found)
@@ -210,49 +204,49 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             break;
         }
         case O_CARRIER:
-            if ((rc = ml_cli_carrier(optarg, &o->carrier_hz)) != 0)
+            if ((rc = ml_cli_carrier(optarg, &o->an.carrier_hz)) != 0)
                 return rc;
             break;
         case O_BANDWIDTH:
-            if ((rc = ml_cli_bandwidth(optarg, &o->bandwidth_hz)) != 0)
+            if ((rc = ml_cli_bandwidth(optarg, &o->an.bandwidth_hz)) != 0)
                 return rc;
             break;
-        case O_CREF: o->carrier_reference = optarg; break;
+        case O_CREF: o->an.carrier_reference = optarg; break;
         case O_HOLD:
             if (!ml_cli_number(optarg, &v) || v <= 0 || v >= 500)
                 return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", optarg);
-            o->peak_hold_ms = v;
+            o->an.peak_hold_ms = v;
             break;
-        case 'l': o->limits_path = optarg; break;
+        case 'l': o->out.limits_path = optarg; break;
         case 'f':
-            if (strcmp(optarg, "text") == 0) o->format = ML_FORMAT_TEXT;
-            else if (strcmp(optarg, "json") == 0) o->format = ML_FORMAT_JSON;
-            else if (strcmp(optarg, "csv") == 0) o->format = ML_FORMAT_CSV;
+            if (strcmp(optarg, "text") == 0) o->out.format = ML_FORMAT_TEXT;
+            else if (strcmp(optarg, "json") == 0) o->out.format = ML_FORMAT_JSON;
+            else if (strcmp(optarg, "csv") == 0) o->out.format = ML_FORMAT_CSV;
             else return ml_cli_error("--format: '%s' is not text, json or csv", optarg);
             break;
-        case 'o': o->output_path = optarg; break;
-        case O_PLOT: o->plot_path = optarg; break;
-        case O_REPORT: o->report_path = optarg; break;
-        case O_DEVICE: o->live.device = optarg; break;
-        case O_OUTDEV: o->live.output_device = optarg; break;
-        case O_SAVE: o->live.save_path = optarg; break;
+        case 'o': o->out.output_path = optarg; break;
+        case O_PLOT: o->out.plot_path = optarg; break;
+        case O_REPORT: o->out.report_path = optarg; break;
+        case O_DEVICE: o->in.device = optarg; break;
+        case O_OUTDEV: o->in.output_device = optarg; break;
+        case O_SAVE: o->in.save_path = optarg; break;
         case O_RATE:
             if (!ml_cli_number(optarg, &v) || v < 1000 || v > 1000000)
                 return ml_cli_error("--rate: '%s' is not a sample rate in Hz, 1000..1000000", optarg);
-            o->live.rate_hz = v;
+            o->in.rate_hz = v;
             break;
         case O_CHANNELS:
             if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
                 return ml_cli_error("--channels: '%s' is not a channel count 1..%d", optarg, ML_MAX_CHANNELS);
-            o->live.channels = n;
+            o->in.channels = n;
             break;
         case O_SECONDS:
             if (!ml_cli_number(optarg, &v) || v <= 0 || v > 86400)
                 return ml_cli_error("--seconds: '%s' is not a time in seconds, 0 < S <= 86400", optarg);
-            o->live.seconds = v;
+            o->in.seconds = v;
             break;
         case O_PLAY:
-            if (!parse_play(optarg, &o->live))
+            if (!parse_play(optarg, &o->in))
                 return ml_cli_error("--play-tone: '%s' is not FREQ[,LEVEL] (Hz > 0, dBFS -120..0)", optarg);
             break;
         case 'h': (live ? ml_live_usage : measure_usage)(stdout); return -1;
@@ -265,14 +259,14 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     if (live) {
         if (optind < argc)
             return ml_cli_error("live takes no FILE; unexpected '%s'", argv[optind]);
-        if (o->live.output_device && !o->live.play)
+        if (o->in.output_device && !o->in.play)
             return ml_cli_error("--output-device needs --play-tone");
-        if (o->duration_s > 0 && o->start_s + o->duration_s > o->live.seconds)
-            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f", o->start_s + o->duration_s,
-                                o->live.seconds);
-        if (o->start_s >= o->live.seconds)
-            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->start_s, o->live.seconds);
-        o->input = "live";
+        if (o->in.duration_s > 0 && o->in.start_s + o->in.duration_s > o->in.seconds)
+            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f", o->in.start_s + o->in.duration_s,
+                                o->in.seconds);
+        if (o->in.start_s >= o->in.seconds)
+            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->in.start_s, o->in.seconds);
+        o->in.path = "live";
         return 0;
     }
     if (ninputs == 2 && argc - optind != 2)
@@ -281,7 +275,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
         return ml_cli_error(optind >= argc ? "measure needs one input FILE (try 'modlens measure --help')"
                                            : "measure takes one input FILE; extra argument '%s'",
                             argv[argc - 1]);
-    o->input = argv[optind];
+    o->in.path = argv[optind];
     o->input2 = ninputs == 2 ? argv[optind + 1] : NULL;
     return 0;
 }
@@ -339,19 +333,19 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
                          const char *reason)
 {
     const double rate = seg->info->rate_hz;
-    snprintf(r->path, sizeof r->path, "%s", o->input);
+    snprintf(r->path, sizeof r->path, "%s", o->in.path);
     snprintf(r->kind, sizeof r->kind, "%s", kind);
     snprintf(r->kind_reason, sizeof r->kind_reason, "%s", reason);
     snprintf(r->format, sizeof r->format, "%s", seg->info->format);
     r->sample_rate_hz = rate;
     r->channels = seg->info->channels;
-    r->channel = (int)o->channel;
+    r->channel = (int)o->in.channel;
     r->frames = seg->info->frames;
     r->duration_s = (double)seg->info->frames / rate;
     r->start_s = (double)seg->first / rate;
     r->analysed_s = (double)seg->nframes / rate;
-    if (o->limits_path)
-        snprintf(r->limits_path, sizeof r->limits_path, "%s", o->limits_path);
+    if (o->out.limits_path)
+        snprintf(r->limits_path, sizeof r->limits_path, "%s", o->out.limits_path);
     if (seg->info->cut_short)
         ml_report_note(r, "the file is cut short: its header announces more samples than it holds; the %lld "
                           "frames present were analysed",
@@ -367,20 +361,20 @@ int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_
         seg->nframes = done + (int64_t)*got;
         if (st != ML_OK && !seg->failed) {
             seg->failed = true;
-            ml_cli_error("%s: %s", o->input, ml_source_detail(seg->src));
+            ml_cli_error("%s: %s", o->in.path, ml_source_detail(seg->src));
         }
         st = ML_OK;
     }
     if (st != ML_OK)
-        return ml_cli_error("%s: read failed at frame %lld: %s", o->input, (long long)(seg->first + done),
+        return ml_cli_error("%s: read failed at frame %lld: %s", o->in.path, (long long)(seg->first + done),
                             ml_source_detail(seg->src));
     if (*got < want && !seg->live)
-        return ml_cli_error("%s: file ends early: %lld of %lld frames could be read", o->input,
+        return ml_cli_error("%s: file ends early: %lld of %lld frames could be read", o->in.path,
                             (long long)(done + (int64_t)*got), (long long)seg->nframes);
     const size_t nch = (size_t)seg->info->channels, n = *got * nch, i = ml_first_nonfinite(buf, n);
     if (i < n)
         return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)",
-                            o->input, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
+                            o->in.path, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
     return 0;
 }
 
@@ -414,40 +408,40 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
 {
     const ml_source_info *info = seg->info;
     const double rate = info->rate_hz;
-    if (o->audio.band_hi_hz > rate / 2)
-        o->audio.band_hi_hz = rate / 2;
-    if (o->audio.band_lo_hz >= o->audio.band_hi_hz)
-        return ml_cli_error("%s: --band starts at %.1f Hz, at or above the Nyquist frequency %.1f Hz", o->input,
-                            o->audio.band_lo_hz, rate / 2);
-    if (o->audio.tone_hz > 0 && (o->audio.tone_hz < o->audio.band_lo_hz || o->audio.tone_hz > o->audio.band_hi_hz))
-        return ml_cli_error("--tone %.3f Hz lies outside the band %.1f..%.1f Hz", o->audio.tone_hz,
-                            o->audio.band_lo_hz, o->audio.band_hi_hz);
+    if (o->an.audio.band_hi_hz > rate / 2)
+        o->an.audio.band_hi_hz = rate / 2;
+    if (o->an.audio.band_lo_hz >= o->an.audio.band_hi_hz)
+        return ml_cli_error("%s: --band starts at %.1f Hz, at or above the Nyquist frequency %.1f Hz", o->in.path,
+                            o->an.audio.band_lo_hz, rate / 2);
+    if (o->an.audio.tone_hz > 0 && (o->an.audio.tone_hz < o->an.audio.band_lo_hz || o->an.audio.tone_hz > o->an.audio.band_hi_hz))
+        return ml_cli_error("--tone %.3f Hz lies outside the band %.1f..%.1f Hz", o->an.audio.tone_hz,
+                            o->an.audio.band_lo_hz, o->an.audio.band_hi_hz);
     ml_spectrum_config sc = ml_spectrum_config_default(rate);
-    sc.window = o->window;
+    sc.window = o->an.window;
     sc.nfft = ml_measure_nfft(rate, seg->nframes);
     sc.hop = sc.nfft / 2;
     if (sc.nfft == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->input,
+        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->in.path,
                             (long long)seg->nframes);
     ml_spectrum *spec = NULL;
     ml_status st = ml_spectrum_create(&sc, &spec);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s", o->input, ml_strerror(st));
+        return ml_cli_error("%s: %s", o->in.path, ml_strerror(st));
     ml_stats stats;
     ml_stats_init(&stats, info->bits);
     const size_t nch = (size_t)info->channels;
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
     ml_blocks *blocks = NULL;
-    ml_blocks_create(spec, &sc, &o->audio, false, &blocks);
+    ml_blocks_create(spec, &sc, &o->an.audio, false, &blocks);
     ml_channels ch;
-    int rc = ml_channels_map(info->channels, o->channel, false, false, 0, &ch) == ML_OK
+    int rc = ml_channels_map(info->channels, o->in.channel, false, false, 0, &ch) == ML_OK
                  ? 0
-                 : ml_cli_error("%s: --channel %ld is not in the input", o->input, o->channel);
+                 : ml_cli_error("%s: --channel %ld is not in the input", o->in.path, o->in.channel);
     if (rc != 0)
         goto done;
     if (buf == NULL || mono == NULL || blocks == NULL) {
-        rc = ml_cli_error("%s: out of memory", o->input);
+        rc = ml_cli_error("%s: out of memory", o->in.path);
         goto done;
     }
     int64_t done = 0, next = 0;
@@ -470,29 +464,29 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
 
     ml_measure_describe(rep, o, seg, "audio", reason);
     ml_audio_result ar;
-    st = ml_audio_analyze(spec, &o->audio, &ar);
+    st = ml_audio_analyze(spec, &o->an.audio, &ar);
     const char *residue = st == ML_OK ? ml_figures_no_signal(&ar, stats.count ? stats.sumsq / (double)stats.count : 0)
                                       : NULL;
     if (residue != NULL)
         st = ML_ENOSIGNAL;
     const bool ok = st == ML_OK;
     snprintf(rep->analysis, sizeof rep->analysis,
-             "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz", ml_window_name(o->window),
-             sc.nfft, rate / (double)sc.nfft, ml_spectrum_segments(spec), o->audio.band_lo_hz, o->audio.band_hi_hz);
+             "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz", ml_window_name(o->an.window),
+             sc.nfft, rate / (double)sc.nfft, ml_spectrum_segments(spec), o->an.audio.band_lo_hz, o->an.audio.band_hi_hz);
     if (!ok) {
         if (stats.sumsq == 0)
             ml_report_note(rep, "input is silent: every analysed sample is zero");
         else if (st == ML_ENOSIGNAL)
-            ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->audio.band_lo_hz,
-                           o->audio.band_hi_hz, residue ? residue : "DC only?");
+            ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->an.audio.band_lo_hz,
+                           o->an.audio.band_hi_hz, residue ? residue : "DC only?");
         else {
-            rc = ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
+            rc = ml_cli_error("%s: analysis failed: %s", o->in.path, ml_strerror(st));
             goto done;
         }
     }
     ml_measure_add_audio(rep, &ar, ok);
-    if (o->plot)
-        ml_plots_audio(o->plot, spec, &ar, ok);
+    if (o->out.plot)
+        ml_plots_audio(o->out.plot, spec, &ar, ok);
     ml_level_figures lv;
     ml_value v[ML_VALUES_MAX];
     ml_figures_level(&stats, 1, &lv);
@@ -516,30 +510,30 @@ static int open_segment(ml_measure_opts *o, ml_segment *seg)
 {
     char err[512];
     memset(seg, 0, sizeof *seg);
-    ml_status st = ml_source_open_file(o->input, &seg->src, err, sizeof err);
+    ml_status st = ml_source_open_file(o->in.path, &seg->src, err, sizeof err);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s%s%s", o->input, ml_strerror(st), err[0] ? ": " : "", err);
+        return ml_cli_error("%s: %s%s%s", o->in.path, ml_strerror(st), err[0] ? ": " : "", err);
     const ml_source_info *info = ml_source_get_info(seg->src);
     seg->info = info;
     const double rate = info->rate_hz;
     if (info->frames == 0)
-        return ml_cli_error("%s: the file holds no audio frames", o->input);
+        return ml_cli_error("%s: the file holds no audio frames", o->in.path);
     if (info->channels > ML_MAX_CHANNELS)
-        return ml_cli_error("%s: %d channels; at most %d are supported", o->input, info->channels,
+        return ml_cli_error("%s: %d channels; at most %d are supported", o->in.path, info->channels,
                             ML_MAX_CHANNELS);
-    if (o->channel > info->channels)
-        return ml_cli_error("%s: --channel %ld but the file has %d channel%s", o->input, o->channel,
+    if (o->in.channel > info->channels)
+        return ml_cli_error("%s: --channel %ld but the file has %d channel%s", o->in.path, o->in.channel,
                             info->channels, info->channels == 1 ? "" : "s");
-    if (o->reference_channel > info->channels)
-        return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", o->input,
-                            o->reference_channel, info->channels, info->channels == 1 ? "" : "s");
-    seg->first = (int64_t)llround(o->start_s * rate);
-    seg->nframes = o->duration_s < 0 ? info->frames - seg->first : (int64_t)llround(o->duration_s * rate);
+    if (o->in.reference_channel > info->channels)
+        return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", o->in.path,
+                            o->in.reference_channel, info->channels, info->channels == 1 ? "" : "s");
+    seg->first = (int64_t)llround(o->in.start_s * rate);
+    seg->nframes = o->in.duration_s < 0 ? info->frames - seg->first : (int64_t)llround(o->in.duration_s * rate);
     if (seg->first >= info->frames || seg->first + seg->nframes > info->frames)
-        return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", o->input,
-                            o->start_s, o->duration_s < 0 ? 0.0 : o->duration_s, (double)info->frames / rate);
+        return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", o->in.path,
+                            o->in.start_s, o->in.duration_s < 0 ? 0.0 : o->in.duration_s, (double)info->frames / rate);
     if (seg->first > 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        return ml_cli_error("%s: cannot seek to %.3f s: %s", o->input, o->start_s, ml_source_detail(seg->src));
+        return ml_cli_error("%s: cannot seek to %.3f s: %s", o->in.path, o->in.start_s, ml_source_detail(seg->src));
     return 0;
 }
 
@@ -547,33 +541,33 @@ int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
 {
     char err[512];
     ml_output out;
-    if (!ml_output_open(&out, o->output_path, err, sizeof err))
-        return ml_cli_error("%s: %s", o->output_path, err);
-    if (ml_report_write(out.f, rep, o->format) != ML_OK) {
+    if (!ml_output_open(&out, o->out.output_path, err, sizeof err))
+        return ml_cli_error("%s: %s", o->out.output_path, err);
+    if (ml_report_write(out.f, rep, o->out.format) != ML_OK) {
         ml_output_abort(&out);
-        return ml_cli_error("%s: cannot write the report", o->output_path ? o->output_path : "standard output");
+        return ml_cli_error("%s: cannot write the report", o->out.output_path ? o->out.output_path : "standard output");
     }
     if (!ml_output_commit(&out, err, sizeof err))
-        return ml_cli_error("%s: %s", o->output_path, err);
+        return ml_cli_error("%s: %s", o->out.output_path, err);
     return 0;
 }
 
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 {
     char err[512];
-    int rc = ml_plots_check_paths(o->plot_path, o->report_path);
+    int rc = ml_plots_check_paths(o->out.plot_path, o->out.report_path);
     if (rc != 0)
         return rc;
-    if (o->limits_path) {
-        ml_status st = ml_limits_load(o->limits_path, limits, err, sizeof err);
+    if (o->out.limits_path) {
+        ml_status st = ml_limits_load(o->out.limits_path, limits, err, sizeof err);
         if (st != ML_OK)
-            return ml_cli_error("%s: %s", o->limits_path, err);
-        o->limits = limits;
+            return ml_cli_error("%s: %s", o->out.limits_path, err);
+        o->out.limits = limits;
     }
     /* nothing written may replace an input, and no two outputs may share a file */
-    const char *outs[4] = {o->output_path, o->live.save_path, o->plot_path, o->report_path};
+    const char *outs[4] = {o->out.output_path, o->in.save_path, o->out.plot_path, o->out.report_path};
     const char *what[4] = {"the report", "the capture", "the plot", "the PDF report"};
-    const char *ins[3] = {o->live.enabled ? NULL : o->input, o->limits_path, o->carrier_reference};
+    const char *ins[3] = {o->in.live ? NULL : o->in.path, o->out.limits_path, o->an.carrier_reference};
     for (int i = 0; i < 4; i++) {
         if (outs[i] == NULL || strcmp(outs[i], "-") == 0)
             continue;
@@ -589,19 +583,19 @@ int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
 {
-    ml_kind kind = o->kind;
+    ml_kind kind = o->in.kind;
     char reason[160];
-    double carrier = o->carrier_hz;
+    double carrier = o->an.carrier_hz;
     int rc = 0;
     switch (kind) {
     case ML_KIND_AUDIO: snprintf(reason, sizeof reason, "--kind audio"); break;
     case ML_KIND_IF: snprintf(reason, sizeof reason, "--kind if"); break;
     case ML_KIND_IQ: snprintf(reason, sizeof reason, "--kind iq"); break;
     case ML_KIND_AUTO:
-        if (seg->info->channels - (o->reference_channel > 0 ? 1 : 0) >= 2) {
+        if (seg->info->channels - (o->in.reference_channel > 0 ? 1 : 0) >= 2) {
             kind = ML_KIND_IQ;
             snprintf(reason, sizeof reason, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
-                     o->channel, o->channel + 1);
+                     o->in.channel, o->in.channel + 1);
         } else {
             bool is_if = false;
             rc = ml_measure_detect_if(o, seg, &is_if, &carrier, reason, sizeof reason);
@@ -609,7 +603,7 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
                 return rc;
             kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
             if (!is_if)
-                carrier = o->carrier_hz;
+                carrier = o->an.carrier_hz;
         }
         break;
     }
@@ -617,8 +611,8 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
         rc = measure_audio(o, seg, reason, rep);
     else
         rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
-    if (rc == 0 && o->limits)
-        ml_limits_apply(o->limits, rep);
+    if (rc == 0 && o->out.limits)
+        ml_limits_apply(o->out.limits, rep);
     return rc;
 }
 
@@ -648,11 +642,11 @@ int ml_cmd_measure(int argc, char **argv)
     static ml_report rep;
     ml_plot_data pd;
     ml_plot_data_init(&pd);
-    if (o.plot_path || o.report_path)
-        o.plot = &pd;
+    if (o.out.plot_path || o.out.report_path)
+        o.out.plot = &pd;
     rc = ml_measure_analyse(&o, &rep);
     if (rc == 0)
-        rc = ml_plots_write_measure(o.plot_path, o.report_path, &rep, &pd, cmdline);
+        rc = ml_plots_write_measure(o.out.plot_path, o.out.report_path, &rep, &pd, cmdline);
     ml_plot_data_free(&pd);
     if (rc != 0)
         return rc;

@@ -9,6 +9,7 @@
 #include <stdio.h>
 
 #include "analyzer/limits.h"
+#include "analyzer/options.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -16,46 +17,13 @@
 #include "io/source.h"
 
 #define ML_BLOCK_FRAMES 4096
-#define ML_MAX_CHANNELS 64
 
-typedef enum { ML_KIND_AUTO, ML_KIND_AUDIO, ML_KIND_IF, ML_KIND_IQ } ml_kind;
-
-/* Options of `modlens live` (capture from a sound card instead of a file). */
+/* Options of measure, live and compare (watch takes the same groups). */
 typedef struct {
-    bool enabled;             /* live capture instead of a file                              */
-    const char *device;       /* NULL: default input                                         */
-    double rate_hz;           /* 0: the device's default                                     */
-    long channels;            /* 0: as the kind needs (iq 2, else 1, plus a reference)       */
-    double seconds;           /* capture length                                               */
-    const char *save_path;    /* raw capture, NULL for none                                   */
-    bool play;                /* play a tone while capturing                                  */
-    double play_hz, play_dbfs;
-    const char *output_device;
-} ml_live_opts;
-
-typedef struct {
-    const char *input;
-    ml_kind kind;
-    long channel;             /* 1-based; for iq the I channel (Q is the next one)          */
-    long reference_channel;   /* 1-based, 0 = none                                          */
-    bool swap_iq;
-    double start_s;
-    double duration_s;        /* < 0: to the end                                            */
-    ml_audio_config audio;
-    ml_window_type window;
-    double carrier_hz;        /* NAN = detect                                               */
-    double bandwidth_hz;      /* 0 = widest that fits, at most 10 kHz                       */
-    const char *carrier_reference;
-    double peak_hold_ms;
-    const char *limits_path;
-    const ml_limits *limits;  /* loaded profile or NULL                                     */
-    ml_report_format format;
-    const char *output_path;
-    ml_live_opts live;
+    ml_input_opts in;
+    ml_analysis_opts an;
+    ml_output_opts out;
     const char *input2;       /* compare: the second input B                                */
-    const char *plot_path;    /* --plot FILE (.png, .svg, .pdf) or NULL                      */
-    const char *report_path;  /* --report FILE.pdf or NULL                                   */
-    ml_plot_data *plot;       /* filled with the pictures' data when not NULL               */
 } ml_measure_opts;
 
 /* The analysed segment of an open source. */

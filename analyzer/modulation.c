@@ -54,10 +54,10 @@ static int level_error(const ml_measure_opts *o, const ml_segment *seg, const fl
             if (fabsf(v) > MAX_LEVEL)
                 return ml_cli_error("%s: frame %lld, channel %zu: sample %.3g lies beyond +-%.0e (full scale is 1), "
                                     "more than the modulation analysis takes",
-                                    o->input, (long long)(seg->first + done + (int64_t)i), col[c] + 1, (double)v,
+                                    o->in.path, (long long)(seg->first + done + (int64_t)i), col[c] + 1, (double)v,
                                     MAX_LEVEL);
         }
-    return ml_cli_error("%s: a sample lies beyond +-%.0e", o->input, MAX_LEVEL);
+    return ml_cli_error("%s: a sample lies beyond +-%.0e", o->in.path, MAX_LEVEL);
 }
 
 /* Spectrum of the first `frames` frames of the segment, then seeks back to its start. */
@@ -65,14 +65,14 @@ static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_
 {
     *out = NULL;
     ml_channels ch;
-    if (ml_channels_map(seg->info->channels, o->channel, iq, o->swap_iq, 0, &ch) != ML_OK)
-        return ml_cli_error("%s: channel %ld%s is not in the input (%d channels)", o->input, o->channel,
+    if (ml_channels_map(seg->info->channels, o->in.channel, iq, o->in.swap_iq, 0, &ch) != ML_OK)
+        return ml_cli_error("%s: channel %ld%s is not in the input (%d channels)", o->in.path, o->in.channel,
                             iq ? " and the next" : "", seg->info->channels);
     const double rate = seg->info->rate_hz;
     ml_spectrum_config sc = ml_spectrum_config_default(rate);
     sc.nfft = ml_measure_nfft(rate, frames);
     if (sc.nfft == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->input,
+        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->in.path,
                             (long long)frames);
     /* a quarter-second resolution is plenty to find the carrier; keep several segments */
     while (sc.nfft > 4096 && (int64_t)sc.nfft * 4 > frames)
@@ -81,14 +81,14 @@ static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_
     sc.complex_input = iq;
     ml_status st = ml_spectrum_create(&sc, out);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s", o->input, ml_strerror(st));
+        return ml_cli_error("%s: %s", o->in.path, ml_strerror(st));
     const size_t nch = (size_t)seg->info->channels;
     float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
     double complex *z = malloc(ML_BLOCK_FRAMES * sizeof *z);
     float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
     int rc = 0;
     if (buf == NULL || z == NULL || mono == NULL)
-        rc = ml_cli_error("%s: out of memory", o->input);
+        rc = ml_cli_error("%s: out of memory", o->in.path);
     int64_t done = 0;
     while (rc == 0 && done < frames) {
         size_t want = frames - done < ML_BLOCK_FRAMES ? (size_t)(frames - done) : ML_BLOCK_FRAMES, got = 0;
@@ -110,7 +110,7 @@ static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_
     free(z);
     free(mono);
     if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", o->input, ml_source_detail(seg->src));
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", o->in.path, ml_source_detail(seg->src));
     if (rc != 0) {
         ml_spectrum_destroy(*out);
         *out = NULL;
@@ -165,7 +165,7 @@ int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, doubl
     ml_spectrum_destroy(s);
     if (fc >= 3000.0 && symmetric) {
         *is_if = true;
-        *carrier_hz = isnan(o->carrier_hz) ? fc : o->carrier_hz;
+        *carrier_hz = isnan(o->an.carrier_hz) ? fc : o->an.carrier_hz;
         snprintf(reason, reason_len,
                  "--kind auto: one channel whose strongest component (%.1f Hz) has symmetric sidebands "
                  "(+-%.1f Hz): an AM IF signal",
@@ -188,22 +188,22 @@ static int reference_carrier(const ml_measure_opts *o, bool iq, double rate, dou
 {
     char err[256];
     ml_segment ref = {0};
-    ml_status st = ml_source_open_file(o->carrier_reference, &ref.src, err, sizeof err);
+    ml_status st = ml_source_open_file(o->an.carrier_reference, &ref.src, err, sizeof err);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s%s%s", o->carrier_reference, ml_strerror(st), err[0] ? ": " : "", err);
+        return ml_cli_error("%s: %s%s%s", o->an.carrier_reference, ml_strerror(st), err[0] ? ": " : "", err);
     ref.info = ml_source_get_info(ref.src);
     int rc = 0;
     ml_measure_opts ro = *o;
-    ro.input = o->carrier_reference;
+    ro.in.path = o->an.carrier_reference;
     if (ref.info->rate_hz != rate) {
         rc = ml_cli_error("%s: the carrier reference is sampled at %.0f Hz, the capture at %.0f Hz",
-                          o->carrier_reference, ref.info->rate_hz, rate);
+                          o->an.carrier_reference, ref.info->rate_hz, rate);
         goto done;
     }
-    if (ref.info->channels < (int)o->channel + (iq ? 1 : 0)) {
+    if (ref.info->channels < (int)o->in.channel + (iq ? 1 : 0)) {
         rc = ml_cli_error("%s: the carrier reference has %d channel%s; the measured channels need %ld",
-                          o->carrier_reference, ref.info->channels, ref.info->channels == 1 ? "" : "s",
-                          o->channel + (iq ? 1 : 0));
+                          o->an.carrier_reference, ref.info->channels, ref.info->channels == 1 ? "" : "s",
+                          o->in.channel + (iq ? 1 : 0));
         goto done;
     }
     ref.first = 0;
@@ -222,7 +222,7 @@ static int reference_carrier(const ml_measure_opts *o, bool iq, double rate, dou
     st = ml_carrier_find(s, &cc, &car);
     ml_spectrum_destroy(s);
     if (st != ML_OK || !(car.amplitude > 0)) {
-        rc = ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", o->carrier_reference, fc);
+        rc = ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", o->an.carrier_reference, fc);
         goto done;
     }
     const double a = car.amplitude;
@@ -254,18 +254,18 @@ static int check_input(const mod_pass *p, double carrier_hz)
     const ml_measure_opts *o = p->o;
     const double rate = p->seg->info->rate_hz, nyq = rate / 2;
     const size_t nch = (size_t)p->seg->info->channels;
-    if (p->iq && (size_t)o->channel + 1 > nch)
+    if (p->iq && (size_t)o->in.channel + 1 > nch)
         return ml_cli_error("%s: --kind iq needs two channels (I and Q) from channel %ld; the file has %zu",
-                            o->input, o->channel, nch);
-    if (o->reference_channel > 0
-        && (o->reference_channel == o->channel || (p->iq && o->reference_channel == o->channel + 1)))
-        return ml_cli_error("--reference-channel %ld is one of the measured channels", o->reference_channel);
+                            o->in.path, o->in.channel, nch);
+    if (o->in.reference_channel > 0
+        && (o->in.reference_channel == o->in.channel || (p->iq && o->in.reference_channel == o->in.channel + 1)))
+        return ml_cli_error("--reference-channel %ld is one of the measured channels", o->in.reference_channel);
     if (!isnan(carrier_hz) && (p->iq ? !(fabs(carrier_hz) < nyq) : !(carrier_hz > 0 && carrier_hz < nyq)))
         return ml_cli_error("--carrier %.1f Hz is outside the captured band (%s%.1f Hz at %.0f Hz sampling)",
                             carrier_hz, p->iq ? "+-" : "0..", nyq, rate);
-    if (ml_channels_map((int)nch, o->channel, p->iq, o->swap_iq, o->reference_channel, (ml_channels *)&p->ch)
+    if (ml_channels_map((int)nch, o->in.channel, p->iq, o->in.swap_iq, o->in.reference_channel, (ml_channels *)&p->ch)
         != ML_OK)
-        return ml_cli_error("%s: the channels to analyse are not in the input", o->input);
+        return ml_cli_error("%s: the channels to analyse are not in the input", o->in.path);
     return 0;
 }
 
@@ -287,18 +287,18 @@ static int find_carrier(mod_pass *p, double carrier_hz, ml_carrier *car)
     if (st != ML_OK && car->strongest_amplitude > 0 && !isnan(carrier_hz))
         return ml_cli_error("%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component lies at "
                             "%.1f Hz)",
-                            o->input, car->range_hz, carrier_hz, car->strongest_hz);
+                            o->in.path, car->range_hz, carrier_hz, car->strongest_hz);
     if (st != ML_OK)
-        return ml_cli_error("%s: no carrier found%s", o->input, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
+        return ml_cli_error("%s: no carrier found%s", o->in.path, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
     return 0;
 }
 
 /* The positive peak limit the events count above: the profile's, else 125 % (47 CFR 73.1570). */
 static double positive_limit(const ml_measure_opts *o, double fallback)
 {
-    for (size_t i = 0; o->limits && i < o->limits->n; i++)
-        if (strcmp(o->limits->items[i].metric, "modulation.positive_peak_pct") == 0 && o->limits->items[i].has_max)
-            return o->limits->items[i].max;
+    for (size_t i = 0; o->out.limits && i < o->out.limits->n; i++)
+        if (strcmp(o->out.limits->items[i].metric, "modulation.positive_peak_pct") == 0 && o->out.limits->items[i].has_max)
+            return o->out.limits->items[i].max;
     return fallback;
 }
 
@@ -320,45 +320,45 @@ static int prepare(mod_pass *p, double carrier_hz)
     if (rc != 0)
         return rc;
     double bw, transition;
-    ml_status st = ml_modulation_channel(rate, p->iq, car.frequency_hz, o->bandwidth_hz, MAX_BANDWIDTH_HZ, &bw,
+    ml_status st = ml_modulation_channel(rate, p->iq, car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ, &bw,
                                          &transition);
     if (st != ML_OK && bw > 0)
         return ml_cli_error("--bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
                             "(at most %.1f Hz)",
-                            o->bandwidth_hz, car.frequency_hz, rate, bw);
+                            o->an.bandwidth_hz, car.frequency_hz, rate, bw);
     if (st != ML_OK)
-        return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->input,
+        return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->in.path,
                             car.frequency_hz, p->iq ? "the band edge" : "0 Hz or the Nyquist frequency");
     double c_file = 0;
-    if (o->carrier_reference && (rc = reference_carrier(o, p->iq, rate, car.frequency_hz, &c_file)) != 0)
+    if (o->an.carrier_reference && (rc = reference_carrier(o, p->iq, rate, car.frequency_hz, &c_file)) != 0)
         return rc;
     p->have_ref_file = c_file > 0;
     p->c_prov = c_file > 0 ? c_file : car.amplitude;
     if (ml_resolution_nfft(rate, seg->nframes, ML_RESOLUTION_SPAN) == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse", o->input, (long long)seg->nframes);
+        return ml_cli_error("%s: %lld frames are too few to analyse", o->in.path, (long long)seg->nframes);
     ml_modulation_config mc = ml_modulation_config_default(rate, &p->ch, car.frequency_hz, p->c_prov, seg->nframes);
     mc.bandwidth_hz = bw;
-    mc.peak_hold_s = o->peak_hold_ms / 1000.0;
+    mc.peak_hold_s = o->an.peak_hold_ms / 1000.0;
     mc.positive_limit_pct = positive_limit(o, mc.positive_limit_pct);
-    mc.window = o->window;
-    mc.audio = o->audio;
+    mc.window = o->an.window;
+    mc.audio = o->an.audio;
     mc.single_precision = true; /* rounding near a float capture's own resolution (dsp/cfir.h) */
     mc.uncertainty = true;
     mc.max_batch_frames = BATCH_FRAMES;
     st = ml_modulation_create(&mc, &p->mod);
     if (st == ML_ENOSIGNAL)
-        return ml_cli_error("%s: %lld frames are too few for the channel filter", o->input, (long long)seg->nframes);
+        return ml_cli_error("%s: %lld frames are too few for the channel filter", o->in.path, (long long)seg->nframes);
     if (st == ML_OK && c_file > 0)
         st = ml_modulation_set_reference(p->mod, c_file);
     for (int k = 0; st == ML_OK && k < NBATCH; k++)
         st = ml_modulation_batch_create(p->mod, &p->batch[k]);
-    if (st == ML_OK && o->plot && (p->ref = malloc(BATCH_FRAMES * sizeof *p->ref)) == NULL)
+    if (st == ML_OK && o->out.plot && (p->ref = malloc(BATCH_FRAMES * sizeof *p->ref)) == NULL)
         st = ML_ENOMEM;
     if (st != ML_OK)
-        return ml_cli_error("%s: cannot set up the analysis: %s", o->input, ml_strerror(st));
-    if (o->plot) {
-        ml_plots_begin_envelope(o->plot, seg->nframes, rate, ml_modulation_edge(p->mod), p->ch.has_ref);
-        ml_modulation_on_envelope(p->mod, envelope_to_plot, o->plot);
+        return ml_cli_error("%s: cannot set up the analysis: %s", o->in.path, ml_strerror(st));
+    if (o->out.plot) {
+        ml_plots_begin_envelope(o->out.plot, seg->nframes, rate, ml_modulation_edge(p->mod), p->ch.has_ref);
+        ml_modulation_on_envelope(p->mod, envelope_to_plot, o->out.plot);
     }
     ml_stats_init(&p->stats[0], seg->info->bits);
     ml_stats_init(&p->stats[1], seg->info->bits);
@@ -396,9 +396,9 @@ static int stream(mod_pass *p)
         }
         if (rc != 0)
             break;
-        if (o->plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
+        if (o->out.plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_channels_split_ref(&p->ch, raw, got, p->ref);
-            ml_plots_input(o->plot, done, p->ch.has_ref ? p->ref : NULL, got);
+            ml_plots_input(o->out.plot, done, p->ch.has_ref ? p->ref : NULL, got);
         }
         ml_modulation_demodulate(p->mod, p->batch[k], got);
         ml_worker_submit(worker, feed_job, p->mod, p->batch[k]);
@@ -438,7 +438,7 @@ static void notes(const mod_pass *p, const ml_modulation_result *r, const ml_lev
 /* The emission mask's margin, when the profile has one. */
 static void mask_values(const mod_pass *p, const ml_modulation_result *r, ml_report *rep)
 {
-    const ml_limits *l = p->o->limits;
+    const ml_limits *l = p->o->out.limits;
     if (l == NULL || !l->has_mask)
         return;
     double margin, woff;
@@ -460,7 +460,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     if (ml_modulation_get_result(p->mod, &r) != ML_OK)
         return ml_cli_error(r.samples == 0 ? "%s: no envelope could be measured"
                                            : "%s: the carrier vanishes: no envelope to measure",
-                            o->input);
+                            o->in.path);
     ml_measure_describe(rep, o, p->seg, p->iq ? "iq" : "if", reason);
     if (r.audio_no_signal != NULL)
         ml_report_note(rep, "no modulation in the demodulated audio band: %s", r.audio_no_signal);
@@ -476,24 +476,24 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
     char cref[160];
-    ml_report_add_text(rep, "modulation.carrier_reference", ml_values_c_source(&r, o->carrier_reference, cref, sizeof cref));
+    ml_report_add_text(rep, "modulation.carrier_reference", ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
     ml_report_add_text(rep, "modulation.overmodulation_kind", ml_values_overmodulation_kind(&r));
     snprintf(rep->analysis, sizeof rep->analysis,
              "carrier %.1f Hz, channel filter +-%.0f Hz (%zu taps; %zu samples of settling left out at each "
              "end), %s window, %zu-point FFT%s, peak hold %.3g ms/s",
-             r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->window), r.rf_nfft,
-             r.spectra_modulated_only ? " over modulated stretches" : "", o->peak_hold_ms);
+             r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->an.window), r.rf_nfft,
+             r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms);
     notes(p, &r, &lv, rep);
     ml_modulation_uncertainty u;
     ml_modulation_get_uncertainty(p->mod, &u);
     ml_values_report_u(rep, v, ml_values_modulation_u(&u, v));
     rep->u_blocks = u.blocks;
     rep->u_block_s = u.block_s;
-    if (o->plot) {
+    if (o->out.plot) {
         const ml_spectrum *rf = ml_modulation_get_spectrum(p->mod);
-        ml_plots_modulation(o->plot, rf, r.carrier_hz, r.c * r.c * ml_spectrum_full_scale_power(rf),
+        ml_plots_modulation(o->out.plot, rf, r.carrier_hz, r.c * r.c * ml_spectrum_full_scale_power(rf),
                             r.audio_valid ? r.audio_result.fundamental_hz : 0, r.bandwidth_hz,
-                            o->limits && o->limits->has_mask ? &o->limits->mask : NULL, p->c_prov / r.c, r.emax_rel,
+                            o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL, p->c_prov / r.c, r.emax_rel,
                             r.emin_rel, r.pinch_rel);
     }
     return 0;
@@ -502,7 +502,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
 int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, const char *reason,
                           double carrier_hz, ml_report *rep)
 {
-    mod_pass p = {.o = o, .seg = seg, .iq = kind == ML_KIND_IQ, .nominal_hz = o->carrier_hz};
+    mod_pass p = {.o = o, .seg = seg, .iq = kind == ML_KIND_IQ, .nominal_hz = o->an.carrier_hz};
     int rc = prepare(&p, carrier_hz);
     if (rc == 0)
         rc = stream(&p);

@@ -183,22 +183,22 @@ int ml_cmd_watch(int argc, char **argv)
     free(rest);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if (o.live.play || o.live.save_path || o.plot_path || o.report_path || o.output_path || o.carrier_reference
-        || o.reference_channel > 0 || o.start_s > 0 || o.duration_s > 0)
+    if (o.in.play || o.in.save_path || o.out.plot_path || o.out.report_path || o.out.output_path || o.an.carrier_reference
+        || o.in.reference_channel > 0 || o.in.start_s > 0 || o.in.duration_s > 0)
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
                             "--carrier-reference, --reference-channel, --start or --duration (see 'modlens live')");
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-    long nch = o.live.channels;
+    long nch = o.in.channels;
     if (nch == 0)
-        nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
-    if (o.channel + (o.kind == ML_KIND_IQ ? 1 : 0) > nch)
+        nch = o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0);
+    if (o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0) > nch)
         return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
 
     ml_live_config lc = ml_live_config_default();
-    lc.device = o.live.device;
-    lc.rate_hz = o.live.rate_hz;
+    lc.device = o.in.device;
+    lc.rate_hz = o.in.rate_hz;
     lc.channels = (int)nch;
     lc.head_s = DETECT_S + 1.0; /* the auto-kind look at the opening second seeks back into it */
     char err[512];
@@ -206,7 +206,7 @@ int ml_cmd_watch(int argc, char **argv)
     memset(&seg, 0, sizeof seg);
     ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", err);
+        return ml_cli_error("%s: %s", o.in.device ? o.in.device : "default input", err);
     seg.info = ml_source_get_info(seg.src);
     seg.live = true;
     const double rate = seg.info->rate_hz;
@@ -220,9 +220,9 @@ int ml_cmd_watch(int argc, char **argv)
     sigaction(SIGHUP, &sa, &old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
 
     /* the kind: as measure decides, from the opening second for one channel */
-    ml_kind kind = o.kind;
+    ml_kind kind = o.in.kind;
     if (kind == ML_KIND_AUTO) {
-        if (nch - o.channel + 1 >= 2) {
+        if (nch - o.in.channel + 1 >= 2) {
             kind = ML_KIND_IQ;
         } else {
             bool is_if = false;
@@ -234,20 +234,20 @@ int ml_cmd_watch(int argc, char **argv)
         }
     }
     ml_channels ch;
-    if (rc == 0 && ml_channels_map((int)nch, o.channel, kind == ML_KIND_IQ, o.swap_iq, 0, &ch) != ML_OK)
+    if (rc == 0 && ml_channels_map((int)nch, o.in.channel, kind == ML_KIND_IQ, o.in.swap_iq, 0, &ch) != ML_OK)
         rc = ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
     ml_monitor_config mc = ml_monitor_config_default(rate, kind == ML_KIND_IQ ? ML_MONITOR_IQ
                                                            : kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
     mc.window_s = window_s;
-    mc.window = o.window;
-    mc.audio = o.audio;
-    mc.carrier_hz = o.carrier_hz;
-    mc.bandwidth_hz = o.bandwidth_hz;
-    mc.peak_hold_s = o.peak_hold_ms / 1000.0;
+    mc.window = o.an.window;
+    mc.audio = o.an.audio;
+    mc.carrier_hz = o.an.carrier_hz;
+    mc.bandwidth_hz = o.an.bandwidth_hz;
+    mc.peak_hold_s = o.an.peak_hold_ms / 1000.0;
     static ml_watch_view v;
     memset(&v, 0, sizeof v);
-    v.pos_limit_pct = profile_max(o.limits, "modulation.positive_peak_pct");
-    v.neg_limit_pct = profile_max(o.limits, "modulation.negative_peak_pct");
+    v.pos_limit_pct = profile_max(o.out.limits, "modulation.positive_peak_pct");
+    v.neg_limit_pct = profile_max(o.out.limits, "modulation.negative_peak_pct");
     v.latch_limit_pct = isfinite(v.pos_limit_pct) ? v.pos_limit_pct : mc.positive_limit_pct;
     mc.positive_limit_pct = v.latch_limit_pct;
     ml_monitor *mon = NULL;
@@ -273,9 +273,9 @@ int ml_cmd_watch(int argc, char **argv)
     v.rate_hz = rate;
     v.window_s = (double)ml_monitor_window_frames(mon) / rate;
     v.pos_hold_pct = v.neg_hold_pct = NAN;
-    v.nominal_hz = o.carrier_hz;
+    v.nominal_hz = o.an.carrier_hz;
     uint64_t base_over = 0, base_lost = 0, frames = 0;
-    const uint64_t stop_at = seconds_given ? (uint64_t)llround(o.live.seconds * rate) : UINT64_MAX;
+    const uint64_t stop_at = seconds_given ? (uint64_t)llround(o.in.seconds * rate) : UINT64_MAX;
     bool quit = false;
     while (rc == 0 && !quit && frames < stop_at) {
         size_t want = upd, got = 0;
