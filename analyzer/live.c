@@ -184,7 +184,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         size_t got = 0;
         ml_segment whole = *seg;
         whole.nframes = limit;
-        rc = ml_measure_read(o, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
+        rc = ml_input_read(o->in.path, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
         if (rc == 0 && got < ML_BLOCK_FRAMES)
             rc = whole.failed ? ML_EXIT_USAGE : ml_cli_error("live: the capture ended while waiting for the tone");
         for (size_t i = 0; rc == 0 && i < got; i++, pos++) {
@@ -226,19 +226,7 @@ int ml_cmd_live(int argc, char **argv)
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-    long nch = o.in.channels;
-    if (nch == 0) {
-        nch = o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0);
-        if (o.in.reference_channel > nch)
-            nch = o.in.reference_channel;
-    }
-    if (o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0) > nch || o.in.reference_channel > nch)
-        return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
-
     ml_live_config lc = ml_live_config_default();
-    lc.device = o.in.device;
-    lc.rate_hz = o.in.rate_hz;
-    lc.channels = (int)nch;
     lc.head_s = HEAD_S + (o.in.play ? PREROLL_S + ONSET_WAIT_S : 0);
     lc.save_path = o.in.save_path;
     tone_feed feed = {NULL, 0, 0};
@@ -263,16 +251,12 @@ int ml_cmd_live(int argc, char **argv)
         lc.fill = feed_tone;
         lc.fill_ctx = &feed;
     }
-    char err[512];
     ml_segment seg;
-    memset(&seg, 0, sizeof seg);
-    ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
-    if (st != ML_OK) {
+    rc = ml_input_open_device(&o.in, &lc, &seg);
+    if (rc != 0) {
         ml_synth_destroy(feed.syn);
-        return ml_cli_error("%s: %s", o.in.device ? o.in.device : "default input", err);
+        return rc;
     }
-    seg.info = ml_source_get_info(seg.src);
-    seg.live = true;
     const double rate = seg.info->rate_hz;
     const int64_t total = (int64_t)llround(o.in.seconds * rate);
     seg.first = (int64_t)llround(o.in.start_s * rate);

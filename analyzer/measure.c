@@ -20,6 +20,7 @@
 #include "analyzer/values.h"
 #include "dsp/channels.h"
 #include "dsp/figures.h"
+#include "dsp/resolution.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
@@ -63,75 +64,15 @@ static void measure_usage(FILE *f)
             ML_MAX_HARMONICS, ml_cli_safety);
 }
 
-static int parse_band(const char *s, ml_measure_opts *o)
-{
-    char buf[64];
-    snprintf(buf, sizeof buf, "%s", s);
-    char *colon = strchr(buf, ':');
-    if (colon == NULL)
-        return 0;
-    *colon = '\0';
-    double lo, hi;
-    if (!ml_cli_number(buf, &lo) || !ml_cli_number(colon + 1, &hi) || lo < 0 || hi <= lo)
-        return 0;
-    o->an.audio.band_lo_hz = lo;
-    o->an.audio.band_hi_hz = hi;
-    return 1;
-}
-
-/* "FREQ[,LEVEL]" for --play-tone. */
-static int parse_play(const char *s, ml_input_opts *l)
-{
-    char buf[64];
-    snprintf(buf, sizeof buf, "%s", s);
-    char *comma = strchr(buf, ',');
-    if (comma)
-        *comma = '\0';
-    double f, lv = -12.0;
-    if (!ml_cli_number(buf, &f) || f <= 0 || (comma && (!ml_cli_number(comma + 1, &lv) || lv > 0 || lv < -120)))
-        return 0;
-    l->play = true;
-    l->play_hz = f;
-    l->play_dbfs = lv;
-    return 1;
-}
-
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
 {
-    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD, O_PLOT, O_REPORT, O_DEVICE, O_RATE,
-           O_CHANNELS, O_SECONDS, O_SAVE, O_PLAY, O_OUTDEV };
     const bool live = ninputs == 0;
-    static const struct option longopts[] = {
-        {"kind", required_argument, NULL, 'k'},
-        {"channel", required_argument, NULL, 'c'},
-        {"swap-iq", no_argument, NULL, O_SWAP},
-        {"start", required_argument, NULL, 's'},
-        {"duration", required_argument, NULL, 'd'},
-        {"band", required_argument, NULL, 'b'},
-        {"tone", required_argument, NULL, 't'},
-        {"harmonics", required_argument, NULL, 'H'},
-        {"mains", required_argument, NULL, 'm'},
-        {"window", required_argument, NULL, 'w'},
-        {"carrier", required_argument, NULL, O_CARRIER},
-        {"bandwidth", required_argument, NULL, O_BANDWIDTH},
-        {"carrier-reference", required_argument, NULL, O_CREF},
-        {"reference-channel", required_argument, NULL, O_REFCH},
-        {"peak-hold-ms", required_argument, NULL, O_HOLD},
-        {"limits", required_argument, NULL, 'l'},
-        {"format", required_argument, NULL, 'f'},
-        {"output", required_argument, NULL, 'o'},
-        {"plot", required_argument, NULL, O_PLOT},
-        {"report", required_argument, NULL, O_REPORT},
-        {"help", no_argument, NULL, 'h'},
-        {"device", required_argument, NULL, O_DEVICE},
-        {"rate", required_argument, NULL, O_RATE},
-        {"channels", required_argument, NULL, O_CHANNELS},
-        {"seconds", required_argument, NULL, O_SECONDS},
-        {"save", required_argument, NULL, O_SAVE},
-        {"play-tone", required_argument, NULL, O_PLAY},
-        {"output-device", required_argument, NULL, O_OUTDEV},
-        {NULL, 0, NULL, 0},
-    };
+    static const struct option own[] = {{"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0}};
+    /* measure and compare take the device options only to say whose they are */
+    struct option longopts[64];
+    ml_options_table(ML_OPTS_SOURCE | ML_OPTS_SEGMENT | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_REPORT
+                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE,
+                     own, longopts, sizeof longopts / sizeof *longopts);
     const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);
     o->in = ml_input_opts_default();
@@ -140,121 +81,21 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     o->in.live = live;
     opterr = 0;
     optind = 1;
-    int ch, rc;
-    double v;
-    long n;
+    int ch;
     while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
-        switch (ch) {
-        case 'k':
-            if (strcmp(optarg, "auto") == 0) o->in.kind = ML_KIND_AUTO;
-            else if (strcmp(optarg, "audio") == 0) o->in.kind = ML_KIND_AUDIO;
-            else if (strcmp(optarg, "if") == 0) o->in.kind = ML_KIND_IF;
-            else if (strcmp(optarg, "iq") == 0) o->in.kind = ML_KIND_IQ;
-            else return ml_cli_error("--kind: '%s' is not auto, audio, if or iq", optarg);
-            break;
-        case 'c':
-            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
-                return ml_cli_error("--channel: '%s' is not a channel number 1..%d", optarg, ML_MAX_CHANNELS);
-            o->in.channel = n;
-            break;
-        case O_REFCH:
-            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
-                return ml_cli_error("--reference-channel: '%s' is not a channel number 1..%d", optarg,
-                                    ML_MAX_CHANNELS);
-            o->in.reference_channel = n;
-            break;
-        case O_SWAP: o->in.swap_iq = true; break;
-        case 's':
-            if (!ml_cli_number(optarg, &v) || v < 0)
-                return ml_cli_error("--start: '%s' is not a time in seconds >= 0", optarg);
-            o->in.start_s = v;
-            break;
-        case 'd':
-            if (!ml_cli_number(optarg, &v) || v <= 0)
-                return ml_cli_error("--duration: '%s' is not a time in seconds > 0", optarg);
-            o->in.duration_s = v;
-            break;
-        case 'b':
-            if (!parse_band(optarg, o))
-                return ml_cli_error("--band: '%s' is not LO:HI in Hz with 0 <= LO < HI", optarg);
-            break;
-        case 't':
-            if (!ml_cli_number(optarg, &v) || v <= 0)
-                return ml_cli_error("--tone: '%s' is not a frequency in Hz > 0", optarg);
-            o->an.audio.tone_hz = v;
-            break;
-        case 'H':
-            if (!ml_cli_int(optarg, &n) || n < 2 || n > ML_MAX_HARMONICS)
-                return ml_cli_error("--harmonics: '%s' is not an order 2..%d", optarg, ML_MAX_HARMONICS);
-            o->an.audio.harmonics = (int)n;
-            break;
-        case 'm':
-            if ((rc = ml_cli_mains(optarg, &o->an.audio.mains_hz)) != 0)
-                return rc;
-            break;
-        case 'w': {
-            int found = 0;
-            for (int w = ML_WINDOW_HANN; w < ML_WINDOW_COUNT; w++)
-                if (strcmp(optarg, ml_window_name((ml_window_type)w)) == 0) {
-                    o->an.window = (ml_window_type)w;
-                    found = 1;
-                }
-            if (!found)
-                return ml_cli_error("--window: '%s' is not hft248d, hft144d, blackman-harris or hann", optarg);
-            break;
+        const int rc = ml_options_apply(ch, optarg, &o->in, &o->an, &o->out);
+        if (rc > 0)
+            return rc;
+        if (rc == 0) {
+            if (!live && (ml_options_group(ch) & (ML_OPTS_DEVICE | ML_OPTS_CAPTURE)))
+                return ml_cli_error("%s belongs to 'modlens live', not measure", argv[optind - 1]);
+            continue;
         }
-        case O_CARRIER:
-            if ((rc = ml_cli_carrier(optarg, &o->an.carrier_hz)) != 0)
-                return rc;
-            break;
-        case O_BANDWIDTH:
-            if ((rc = ml_cli_bandwidth(optarg, &o->an.bandwidth_hz)) != 0)
-                return rc;
-            break;
-        case O_CREF: o->an.carrier_reference = optarg; break;
-        case O_HOLD:
-            if (!ml_cli_number(optarg, &v) || v <= 0 || v >= 500)
-                return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", optarg);
-            o->an.peak_hold_ms = v;
-            break;
-        case 'l': o->out.limits_path = optarg; break;
-        case 'f':
-            if (strcmp(optarg, "text") == 0) o->out.format = ML_FORMAT_TEXT;
-            else if (strcmp(optarg, "json") == 0) o->out.format = ML_FORMAT_JSON;
-            else if (strcmp(optarg, "csv") == 0) o->out.format = ML_FORMAT_CSV;
-            else return ml_cli_error("--format: '%s' is not text, json or csv", optarg);
-            break;
-        case 'o': o->out.output_path = optarg; break;
-        case O_PLOT: o->out.plot_path = optarg; break;
-        case O_REPORT: o->out.report_path = optarg; break;
-        case O_DEVICE: o->in.device = optarg; break;
-        case O_OUTDEV: o->in.output_device = optarg; break;
-        case O_SAVE: o->in.save_path = optarg; break;
-        case O_RATE:
-            if (!ml_cli_number(optarg, &v) || v < 1000 || v > 1000000)
-                return ml_cli_error("--rate: '%s' is not a sample rate in Hz, 1000..1000000", optarg);
-            o->in.rate_hz = v;
-            break;
-        case O_CHANNELS:
-            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
-                return ml_cli_error("--channels: '%s' is not a channel count 1..%d", optarg, ML_MAX_CHANNELS);
-            o->in.channels = n;
-            break;
-        case O_SECONDS:
-            if (!ml_cli_number(optarg, &v) || v <= 0 || v > 86400)
-                return ml_cli_error("--seconds: '%s' is not a time in seconds, 0 < S <= 86400", optarg);
-            o->in.seconds = v;
-            break;
-        case O_PLAY:
-            if (!parse_play(optarg, &o->in))
-                return ml_cli_error("--play-tone: '%s' is not FREQ[,LEVEL] (Hz > 0, dBFS -120..0)", optarg);
-            break;
+        switch (ch) {
         case 'h': (live ? ml_live_usage : measure_usage)(stdout); return -1;
         case ':': return ml_cli_error("%s needs a value (try 'modlens %s --help')", argv[optind - 1], cmd);
         default: return ml_cli_error("unknown option '%s' (try 'modlens %s --help')", argv[optind - 1], cmd);
         }
-        if (!live && ch >= O_DEVICE)
-            return ml_cli_error("%s belongs to 'modlens live', not measure", argv[optind - 1]);
     }
     if (live) {
         if (optind < argc)
@@ -352,32 +193,6 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
                        (long long)seg->info->frames);
 }
 
-int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
-                    int64_t done)
-{
-    ml_status st = ml_source_read(seg->src, buf, want, got);
-    if (seg->live && (st != ML_OK || *got < want)) {
-        seg->ended_early = true;
-        seg->nframes = done + (int64_t)*got;
-        if (st != ML_OK && !seg->failed) {
-            seg->failed = true;
-            ml_cli_error("%s: %s", o->in.path, ml_source_detail(seg->src));
-        }
-        st = ML_OK;
-    }
-    if (st != ML_OK)
-        return ml_cli_error("%s: read failed at frame %lld: %s", o->in.path, (long long)(seg->first + done),
-                            ml_source_detail(seg->src));
-    if (*got < want && !seg->live)
-        return ml_cli_error("%s: file ends early: %lld of %lld frames could be read", o->in.path,
-                            (long long)(done + (int64_t)*got), (long long)seg->nframes);
-    const size_t nch = (size_t)seg->info->channels, n = *got * nch, i = ml_first_nonfinite(buf, n);
-    if (i < n)
-        return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)",
-                            o->in.path, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
-    return 0;
-}
-
 void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown)
 {
     const double rate = seg->info->rate_hz;
@@ -392,15 +207,6 @@ void ml_measure_progress_end(bool shown)
 {
     if (shown)
         fprintf(stderr, "\r%*s\r", 30, "");
-}
-
-size_t ml_measure_nfft(double rate_hz, int64_t nframes)
-{
-    size_t nfft = ml_spectrum_config_default(rate_hz).nfft;
-    /* at least three half-overlapping segments, so the frequency comes from phase advances */
-    while (nfft > 256 && 2 * (int64_t)nfft > nframes)
-        nfft /= 2;
-    return (int64_t)nfft > nframes ? 0 : nfft;
 }
 
 /* The audio pipeline: the chosen channel through the spectrum and time statistics. */
@@ -418,7 +224,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
                             o->an.audio.band_lo_hz, o->an.audio.band_hi_hz);
     ml_spectrum_config sc = ml_spectrum_config_default(rate);
     sc.window = o->an.window;
-    sc.nfft = ml_measure_nfft(rate, seg->nframes);
+    sc.nfft = ml_resolution_nfft(rate, seg->nframes, ML_RESOLUTION_SPAN);
     sc.hop = sc.nfft / 2;
     if (sc.nfft == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->in.path,
@@ -449,7 +255,7 @@ static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason
     while (done < seg->nframes && rc == 0) {
         size_t want = seg->nframes - done < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done) : ML_BLOCK_FRAMES;
         size_t got = 0;
-        rc = ml_measure_read(o, seg, buf, want, &got, done);
+        rc = ml_input_read(o->in.path, seg, buf, want, &got, done);
         if (rc != 0)
             break;
         ml_channels_split(&ch, buf, got, mono, NULL);
@@ -505,38 +311,6 @@ done:
     return rc;
 }
 
-/* Opens the input and checks the segment; 0 or an exit status (error printed). */
-static int open_segment(ml_measure_opts *o, ml_segment *seg)
-{
-    char err[512];
-    memset(seg, 0, sizeof *seg);
-    ml_status st = ml_source_open_file(o->in.path, &seg->src, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s%s%s", o->in.path, ml_strerror(st), err[0] ? ": " : "", err);
-    const ml_source_info *info = ml_source_get_info(seg->src);
-    seg->info = info;
-    const double rate = info->rate_hz;
-    if (info->frames == 0)
-        return ml_cli_error("%s: the file holds no audio frames", o->in.path);
-    if (info->channels > ML_MAX_CHANNELS)
-        return ml_cli_error("%s: %d channels; at most %d are supported", o->in.path, info->channels,
-                            ML_MAX_CHANNELS);
-    if (o->in.channel > info->channels)
-        return ml_cli_error("%s: --channel %ld but the file has %d channel%s", o->in.path, o->in.channel,
-                            info->channels, info->channels == 1 ? "" : "s");
-    if (o->in.reference_channel > info->channels)
-        return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", o->in.path,
-                            o->in.reference_channel, info->channels, info->channels == 1 ? "" : "s");
-    seg->first = (int64_t)llround(o->in.start_s * rate);
-    seg->nframes = o->in.duration_s < 0 ? info->frames - seg->first : (int64_t)llround(o->in.duration_s * rate);
-    if (seg->first >= info->frames || seg->first + seg->nframes > info->frames)
-        return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", o->in.path,
-                            o->in.start_s, o->in.duration_s < 0 ? 0.0 : o->in.duration_s, (double)info->frames / rate);
-    if (seg->first > 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        return ml_cli_error("%s: cannot seek to %.3f s: %s", o->in.path, o->in.start_s, ml_source_detail(seg->src));
-    return 0;
-}
-
 int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
 {
     char err[512];
@@ -583,30 +357,12 @@ int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
 {
-    ml_kind kind = o->in.kind;
+    ml_kind kind;
     char reason[160];
-    double carrier = o->an.carrier_hz;
-    int rc = 0;
-    switch (kind) {
-    case ML_KIND_AUDIO: snprintf(reason, sizeof reason, "--kind audio"); break;
-    case ML_KIND_IF: snprintf(reason, sizeof reason, "--kind if"); break;
-    case ML_KIND_IQ: snprintf(reason, sizeof reason, "--kind iq"); break;
-    case ML_KIND_AUTO:
-        if (seg->info->channels - (o->in.reference_channel > 0 ? 1 : 0) >= 2) {
-            kind = ML_KIND_IQ;
-            snprintf(reason, sizeof reason, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
-                     o->in.channel, o->in.channel + 1);
-        } else {
-            bool is_if = false;
-            rc = ml_measure_detect_if(o, seg, &is_if, &carrier, reason, sizeof reason);
-            if (rc != 0)
-                return rc;
-            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
-            if (!is_if)
-                carrier = o->an.carrier_hz;
-        }
-        break;
-    }
+    double carrier;
+    int rc = ml_input_kind(&o->in, &o->an, seg, ML_INPUT_LOOK_S, &kind, &carrier, reason, sizeof reason);
+    if (rc != 0)
+        return rc;
     if (kind == ML_KIND_AUDIO)
         rc = measure_audio(o, seg, reason, rep);
     else
@@ -620,7 +376,7 @@ int ml_measure_analyse(ml_measure_opts *o, ml_report *rep)
 {
     ml_segment seg;
     memset(rep, 0, sizeof *rep);
-    int rc = open_segment(o, &seg);
+    int rc = ml_input_open_file(&o->in, &seg);
     if (rc == 0)
         rc = ml_measure_run(o, &seg, rep);
     ml_source_close(seg.src);

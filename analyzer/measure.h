@@ -9,12 +9,12 @@
 #include <stdio.h>
 
 #include "analyzer/limits.h"
+#include "analyzer/input.h"
 #include "analyzer/options.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
 #include "io/report.h"
-#include "io/source.h"
 
 #define ML_BLOCK_FRAMES 4096
 
@@ -25,17 +25,6 @@ typedef struct {
     ml_output_opts out;
     const char *input2;       /* compare: the second input B                                */
 } ml_measure_opts;
-
-/* The analysed segment of an open source. */
-typedef struct {
-    ml_source *src;
-    const ml_source_info *info;
-    int64_t first;            /* first frame                                                */
-    int64_t nframes;          /* frames analysed (shortened when a live capture ends early) */
-    bool live;                /* a live capture: an early end shortens the segment           */
-    bool ended_early;         /* the capture ended before nframes (interrupt or fault)       */
-    bool failed;              /* ... because of a device fault (message already printed)     */
-} ml_segment;
 
 /* Parses the options and ninputs input files into o (1: measure, 2: compare, 0: live, which also
  * takes the capture options); 0, -1 after --help, or
@@ -61,27 +50,12 @@ void ml_live_usage(FILE *f);
 /* Fills the report's input description. */
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason);
-/* Reads up to want frames; exits-status style: 0 ok, else an error was printed (exit 2). A live
- * segment that ends early (interrupt or device fault) is shortened to what arrived and 0 is
- * returned with *got < want; the caller's loop then ends naturally. */
-int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
-                    int64_t done);
 /* Progress on stderr when it is a terminal and the job is long. */
 void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown);
 void ml_measure_progress_end(bool shown);
-/* The nfft for nframes of input at rate: default resolution, halved until it fits (>= 256);
- * 0 when nframes is too short. */
-size_t ml_measure_nfft(double rate_hz, int64_t nframes);
-
 /* The if/iq pipeline (analyzer/modulation.c): fills rep; returns 0 or an exit status (error
  * already printed). kind is ML_KIND_IF or ML_KIND_IQ; reason says why. */
 int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, const char *reason,
                           double carrier_hz, ml_report *rep);
-
-/* Kind detection for one channel (analyzer/modulation.c): true with the carrier frequency when
- * the segment's opening seconds look like an AM IF signal (strongest component above 3 kHz with
- * symmetric sidebands); reason gets a one-line explanation either way. Seeks back afterwards. */
-int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, double *carrier_hz, char *reason,
-                         size_t reason_len);
 
 #endif

@@ -32,7 +32,6 @@
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
-#define PREFIX_S 4.0          /* seconds looked at to find the carrier                        */
 #define MAX_BANDWIDTH_HZ 10000.0
 #define INDEX_TOLERANCE 0.02  /* envelope vs spectral index disagreement worth a note          */
 #define BATCH_FRAMES (8 * ML_BLOCK_FRAMES) /* frames per hand-over to the spectrum thread         */
@@ -60,178 +59,6 @@ static int level_error(const ml_measure_opts *o, const ml_segment *seg, const fl
     return ml_cli_error("%s: a sample lies beyond +-%.0e", o->in.path, MAX_LEVEL);
 }
 
-/* Spectrum of the first `frames` frames of the segment, then seeks back to its start. */
-static int look_ahead(const ml_measure_opts *o, ml_segment *seg, bool iq, int64_t frames, ml_spectrum **out)
-{
-    *out = NULL;
-    ml_channels ch;
-    if (ml_channels_map(seg->info->channels, o->in.channel, iq, o->in.swap_iq, 0, &ch) != ML_OK)
-        return ml_cli_error("%s: channel %ld%s is not in the input (%d channels)", o->in.path, o->in.channel,
-                            iq ? " and the next" : "", seg->info->channels);
-    const double rate = seg->info->rate_hz;
-    ml_spectrum_config sc = ml_spectrum_config_default(rate);
-    sc.nfft = ml_measure_nfft(rate, frames);
-    if (sc.nfft == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->in.path,
-                            (long long)frames);
-    /* a quarter-second resolution is plenty to find the carrier; keep several segments */
-    while (sc.nfft > 4096 && (int64_t)sc.nfft * 4 > frames)
-        sc.nfft /= 2;
-    sc.hop = sc.nfft / 2;
-    sc.complex_input = iq;
-    ml_status st = ml_spectrum_create(&sc, out);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", o->in.path, ml_strerror(st));
-    const size_t nch = (size_t)seg->info->channels;
-    float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
-    double complex *z = malloc(ML_BLOCK_FRAMES * sizeof *z);
-    float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
-    int rc = 0;
-    if (buf == NULL || z == NULL || mono == NULL)
-        rc = ml_cli_error("%s: out of memory", o->in.path);
-    int64_t done = 0;
-    while (rc == 0 && done < frames) {
-        size_t want = frames - done < ML_BLOCK_FRAMES ? (size_t)(frames - done) : ML_BLOCK_FRAMES, got = 0;
-        rc = ml_measure_read(o, seg, buf, want, &got, done);
-        if (rc != 0)
-            break;
-        if (iq) {
-            ml_channels_split_complex(&ch, buf, got, z);
-            ml_spectrum_push_complex(*out, z, got);
-        } else {
-            ml_channels_split(&ch, buf, got, mono, NULL);
-            ml_spectrum_push(*out, mono, got);
-        }
-        done += (int64_t)got;
-        if (got < want) /* a live capture ended early */
-            break;
-    }
-    free(buf);
-    free(z);
-    free(mono);
-    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", o->in.path, ml_source_detail(seg->src));
-    if (rc != 0) {
-        ml_spectrum_destroy(*out);
-        *out = NULL;
-    }
-    return rc;
-}
-
-int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, double *carrier_hz, char *reason,
-                         size_t reason_len)
-{
-    *is_if = false;
-    const double rate = seg->info->rate_hz, nyq = rate / 2;
-    int64_t frames = (int64_t)(PREFIX_S * rate);
-    if (frames > seg->nframes)
-        frames = seg->nframes;
-    if (ml_measure_nfft(rate, frames) == 0) {
-        snprintf(reason, reason_len, "--kind auto: too short to look for a carrier; treated as audio");
-        return 0;
-    }
-    ml_spectrum *s = NULL;
-    int rc = look_ahead(o, seg, false, frames, &s);
-    if (rc != 0)
-        return rc;
-    const ml_carrier_config cc = ml_carrier_config_default(rate, false, NAN);
-    ml_carrier car;
-    ml_status st = ml_carrier_find(s, &cc, &car);
-    if (st != ML_OK) {
-        snprintf(reason, reason_len, "--kind auto: no signal found; treated as audio");
-        ml_spectrum_destroy(s);
-        return 0;
-    }
-    const double fc = car.frequency_hz, ac = car.amplitude;
-    /* Sidebands: the strongest component within +-min(fc, nyq - fc, 10 kHz) of the carrier but
-     * outside its lobe must have a mirror image within 3 dB on the other side. */
-    const double bin = rate / (double)ml_spectrum_nfft(s), lobe = (double)ml_spectrum_lobe_bins(s) * bin;
-    const double span = fmin(fmin(fc, nyq - fc), MAX_BANDWIDTH_HZ);
-    bool symmetric = false;
-    double fm = 0;
-    if (fc >= 3000.0 && span > 2 * lobe + 20.0) {
-        double fu, au, fl, al;
-        ml_status su = ml_rf_find_peak(s, fc + lobe + bin, fc + span, &fu, &au);
-        ml_status sl = ml_rf_find_peak(s, fc - span, fc - lobe - bin, &fl, &al);
-        if (su == ML_OK && sl == ML_OK) {
-            /* the stronger side's partner must sit at the mirror frequency with a similar level */
-            double f_strong = au >= al ? fu : fl, a_strong = fmax(au, al);
-            double mirror = 2 * fc - f_strong, a_mirror = ml_rf_amplitude(s, mirror);
-            fm = fabs(f_strong - fc);
-            symmetric = a_mirror > 0 && a_strong > 0 && fabs(20 * log10(a_mirror / a_strong)) < 3.0
-                        && a_strong > 1e-3 * ac;
-        }
-    }
-    ml_spectrum_destroy(s);
-    if (fc >= 3000.0 && symmetric) {
-        *is_if = true;
-        *carrier_hz = isnan(o->an.carrier_hz) ? fc : o->an.carrier_hz;
-        snprintf(reason, reason_len,
-                 "--kind auto: one channel whose strongest component (%.1f Hz) has symmetric sidebands "
-                 "(+-%.1f Hz): an AM IF signal",
-                 fc, fm);
-    } else if (fc < 3000.0) {
-        snprintf(reason, reason_len,
-                 "--kind auto: the strongest component (%.1f Hz) lies in the audio range below 3 kHz: "
-                 "demodulated audio",
-                 fc);
-    } else {
-        snprintf(reason, reason_len,
-                 "--kind auto: the strongest component (%.1f Hz) has no symmetric sidebands: demodulated audio",
-                 fc);
-    }
-    return 0;
-}
-
-/* Mean envelope of a capture of the unmodulated carrier: its carrier line's amplitude. */
-static int reference_carrier(const ml_measure_opts *o, bool iq, double rate, double fc, double *c)
-{
-    char err[256];
-    ml_segment ref = {0};
-    ml_status st = ml_source_open_file(o->an.carrier_reference, &ref.src, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s%s%s", o->an.carrier_reference, ml_strerror(st), err[0] ? ": " : "", err);
-    ref.info = ml_source_get_info(ref.src);
-    int rc = 0;
-    ml_measure_opts ro = *o;
-    ro.in.path = o->an.carrier_reference;
-    if (ref.info->rate_hz != rate) {
-        rc = ml_cli_error("%s: the carrier reference is sampled at %.0f Hz, the capture at %.0f Hz",
-                          o->an.carrier_reference, ref.info->rate_hz, rate);
-        goto done;
-    }
-    if (ref.info->channels < (int)o->in.channel + (iq ? 1 : 0)) {
-        rc = ml_cli_error("%s: the carrier reference has %d channel%s; the measured channels need %ld",
-                          o->an.carrier_reference, ref.info->channels, ref.info->channels == 1 ? "" : "s",
-                          o->in.channel + (iq ? 1 : 0));
-        goto done;
-    }
-    ref.first = 0;
-    ref.nframes = ref.info->frames < (int64_t)(10 * ref.info->rate_hz) ? ref.info->frames
-                                                                         : (int64_t)(10 * ref.info->rate_hz);
-    ml_spectrum *s = NULL;
-    rc = look_ahead(&ro, &ref, iq, ref.nframes, &s);
-    if (rc != 0)
-        goto done;
-    /* the carrier line near the capture's: within 20 bins and 50 Hz of it, whatever its level */
-    ml_carrier_config cc = ml_carrier_config_default(rate, iq, fc);
-    cc.capture_hz = 20 * rate / (double)ml_spectrum_nfft(s) + 50.0;
-    cc.min_rel = 0;
-    cc.lo_hz = -rate / 2;
-    ml_carrier car;
-    st = ml_carrier_find(s, &cc, &car);
-    ml_spectrum_destroy(s);
-    if (st != ML_OK || !(car.amplitude > 0)) {
-        rc = ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", o->an.carrier_reference, fc);
-        goto done;
-    }
-    const double a = car.amplitude;
-    *c = a;
-done:
-    ml_source_close(ref.src);
-    return rc;
-}
-
 /* The if/iq pass over one segment: the modulation analysis (dsp/modulation.h) fed on two
  * threads, the capture statistics, and the pictures' data. */
 typedef struct {
@@ -248,49 +75,14 @@ typedef struct {
     float *ref;            /* the reference channel of a batch, for the trapezoid picture      */
 } mod_pass;
 
-/* Checks the channels and the nominal carrier against the input. */
-static int check_input(const mod_pass *p, double carrier_hz)
+/* Checks the nominal carrier against the input and maps the channels. */
+static int check_input(mod_pass *p, double carrier_hz)
 {
-    const ml_measure_opts *o = p->o;
     const double rate = p->seg->info->rate_hz, nyq = rate / 2;
-    const size_t nch = (size_t)p->seg->info->channels;
-    if (p->iq && (size_t)o->in.channel + 1 > nch)
-        return ml_cli_error("%s: --kind iq needs two channels (I and Q) from channel %ld; the file has %zu",
-                            o->in.path, o->in.channel, nch);
-    if (o->in.reference_channel > 0
-        && (o->in.reference_channel == o->in.channel || (p->iq && o->in.reference_channel == o->in.channel + 1)))
-        return ml_cli_error("--reference-channel %ld is one of the measured channels", o->in.reference_channel);
     if (!isnan(carrier_hz) && (p->iq ? !(fabs(carrier_hz) < nyq) : !(carrier_hz > 0 && carrier_hz < nyq)))
         return ml_cli_error("--carrier %.1f Hz is outside the captured band (%s%.1f Hz at %.0f Hz sampling)",
                             carrier_hz, p->iq ? "+-" : "0..", nyq, rate);
-    if (ml_channels_map((int)nch, o->in.channel, p->iq, o->in.swap_iq, o->in.reference_channel, (ml_channels *)&p->ch)
-        != ML_OK)
-        return ml_cli_error("%s: the channels to analyse are not in the input", o->in.path);
-    return 0;
-}
-
-/* The carrier from the opening seconds (dsp/carrier.h), then seeks back. */
-static int find_carrier(mod_pass *p, double carrier_hz, ml_carrier *car)
-{
-    const ml_measure_opts *o = p->o;
-    const double rate = p->seg->info->rate_hz;
-    int64_t pre = (int64_t)(PREFIX_S * rate);
-    if (pre > p->seg->nframes)
-        pre = p->seg->nframes;
-    ml_spectrum *look = NULL;
-    int rc = look_ahead(o, p->seg, p->iq, pre, &look);
-    if (rc != 0)
-        return rc;
-    const ml_carrier_config cc = ml_carrier_config_default(rate, p->iq, carrier_hz);
-    ml_status st = ml_carrier_find(look, &cc, car);
-    ml_spectrum_destroy(look);
-    if (st != ML_OK && car->strongest_amplitude > 0 && !isnan(carrier_hz))
-        return ml_cli_error("%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component lies at "
-                            "%.1f Hz)",
-                            o->in.path, car->range_hz, carrier_hz, car->strongest_hz);
-    if (st != ML_OK)
-        return ml_cli_error("%s: no carrier found%s", o->in.path, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
-    return 0;
+    return ml_input_channels(&p->o->in, p->seg, p->iq ? ML_KIND_IQ : ML_KIND_IF, &p->ch);
 }
 
 /* The positive peak limit the events count above: the profile's, else 125 % (47 CFR 73.1570). */
@@ -316,7 +108,7 @@ static int prepare(mod_pass *p, double carrier_hz)
     ml_carrier car;
     int rc = check_input(p, carrier_hz);
     if (rc == 0)
-        rc = find_carrier(p, carrier_hz, &car);
+        rc = ml_input_find_carrier(o->in.path, seg, &p->ch, carrier_hz, ML_INPUT_LOOK_S, &car);
     if (rc != 0)
         return rc;
     double bw, transition;
@@ -330,7 +122,9 @@ static int prepare(mod_pass *p, double carrier_hz)
         return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->in.path,
                             car.frequency_hz, p->iq ? "the band edge" : "0 Hz or the Nyquist frequency");
     double c_file = 0;
-    if (o->an.carrier_reference && (rc = reference_carrier(o, p->iq, rate, car.frequency_hz, &c_file)) != 0)
+    if (o->an.carrier_reference
+        && (rc = ml_input_reference_carrier(o->an.carrier_reference, &o->in, p->iq, rate, car.frequency_hz, &c_file))
+               != 0)
         return rc;
     p->have_ref_file = c_file > 0;
     p->c_prov = c_file > 0 ? c_file : car.amplitude;
@@ -387,7 +181,7 @@ static int stream(mod_pass *p)
         size_t got = 0;
         /* batch k was last handed over NBATCH submissions ago: submit waited for it to finish */
         float *raw = ml_modulation_batch_frames(p->batch[k]);
-        if ((rc = ml_measure_read(o, seg, raw, want, &got, done)) != 0)
+        if ((rc = ml_input_read(o->in.path, seg, raw, want, &got, done)) != 0)
             break;
         for (int c = 0; c < (p->iq ? 2 : 1) && rc == 0; c++) { /* here: the two threads' shares stay balanced */
             ml_stats_push_strided(&p->stats[c], raw + (c ? p->ch.im : p->ch.re), got, nch);

@@ -6,7 +6,9 @@
 #ifndef ML_ANALYZER_OPTIONS_H
 #define ML_ANALYZER_OPTIONS_H
 
+#include <getopt.h>
 #include <stdbool.h>
+#include <stddef.h>
 
 #include "analyzer/limits.h"
 #include "dsp/metrics.h"
@@ -58,6 +60,34 @@ typedef struct {
     const char *report_path;  /* --report FILE.pdf or NULL                                       */
     ml_plot_data *plot;       /* filled with the pictures' data when not NULL                    */
 } ml_output_opts;
+
+/* Which options a command takes, by group (combine with |). */
+enum {
+    ML_OPTS_SOURCE = 1 << 0,     /* --kind --channel --swap-iq --reference-channel            */
+    ML_OPTS_SEGMENT = 1 << 1,    /* --start --duration                                        */
+    ML_OPTS_DEVICE = 1 << 2,     /* --device --rate --channels --seconds                      */
+    ML_OPTS_CAPTURE = 1 << 3,    /* --save --play-tone --output-device                        */
+    ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --harmonics --mains --window                */
+    ML_OPTS_MODULATION = 1 << 5, /* --carrier --bandwidth --carrier-reference --peak-hold-ms  */
+    ML_OPTS_REPORT = 1 << 6,     /* --limits --format --output --plot --report                */
+};
+/* getopt ids: the groups' options use ML_OPT_ID_FIRST .. ML_OPT_ID_FIRST + 63; a command's own
+ * options use ids from ML_OPT_ID_OWN on (or single characters). */
+#define ML_OPT_ID_FIRST 256
+#define ML_OPT_ID_OWN 512
+/* A return of ml_options_apply: the id is none of the groups'. */
+#define ML_OPTS_NOT_MINE (-1)
+
+/* The getopt_long table of the groups' options, followed by own[] (up to its {NULL} end) and the
+ * terminating entry, into out[cap]; returns the entries written (without the terminator). */
+size_t ml_options_table(unsigned groups, const struct option *own, struct option *out, size_t cap);
+
+/* The group of a group option's id (0 for other ids). */
+unsigned ml_options_group(int id);
+
+/* Applies the group option id with its argument: 0 when done, ML_OPTS_NOT_MINE for another id,
+ * or an exit status after a printed usage error ("--NAME: ..."). */
+int ml_options_apply(int id, const char *arg, ml_input_opts *in, ml_analysis_opts *an, ml_output_opts *out);
 
 /* The defaults of each group. */
 ml_input_opts ml_input_opts_default(void);

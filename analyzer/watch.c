@@ -18,6 +18,7 @@
 #include <unistd.h>
 
 #include "analyzer/cli.h"
+#include "analyzer/input.h"
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
 #include "analyzer/registry.h"
@@ -46,8 +47,10 @@ static void watch_usage(FILE *f)
             "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
             "  --device, --rate, --channels   as for 'modlens live'\n"
             "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
-            "  --mains, --window, --peak-hold-ms, --limits   as for 'modlens measure'\n"
+            "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits   as for 'modlens measure'\n"
             "\n"
+            "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
+            "taken from --carrier-reference) and kept until the r key.\n"
             "Peak-hold markers hold a peak for %.0f s, then fall by %.0f %% of modulation per second.\n"
             "The overmodulation warning latches when the negative peak reaches 100 %% (carrier pinch-off)\n"
             "or the positive peak exceeds the profile's limit (125 %% without one), until reset.\n"
@@ -183,32 +186,20 @@ int ml_cmd_watch(int argc, char **argv)
     free(rest);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if (o.in.play || o.in.save_path || o.out.plot_path || o.out.report_path || o.out.output_path || o.an.carrier_reference
+    if (o.in.play || o.in.save_path || o.out.plot_path || o.out.report_path || o.out.output_path
         || o.in.reference_channel > 0 || o.in.start_s > 0 || o.in.duration_s > 0)
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
-                            "--carrier-reference, --reference-channel, --start or --duration (see 'modlens live')");
+                            "--reference-channel, --start or --duration (see 'modlens live')");
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-    long nch = o.in.channels;
-    if (nch == 0)
-        nch = o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0);
-    if (o.in.channel + (o.in.kind == ML_KIND_IQ ? 1 : 0) > nch)
-        return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
-
     ml_live_config lc = ml_live_config_default();
-    lc.device = o.in.device;
-    lc.rate_hz = o.in.rate_hz;
-    lc.channels = (int)nch;
     lc.head_s = DETECT_S + 1.0; /* the auto-kind look at the opening second seeks back into it */
-    char err[512];
     ml_segment seg;
-    memset(&seg, 0, sizeof seg);
-    ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", o.in.device ? o.in.device : "default input", err);
-    seg.info = ml_source_get_info(seg.src);
-    seg.live = true;
+    if ((rc = ml_input_open_device(&o.in, &lc, &seg)) != 0) {
+        ml_source_close(seg.src);
+        return rc;
+    }
     const double rate = seg.info->rate_hz;
     g_src = seg.src;
     struct sigaction sa, old_int, old_term, old_hup;
@@ -219,23 +210,20 @@ int ml_cmd_watch(int argc, char **argv)
     sigaction(SIGTERM, &sa, &old_term);
     sigaction(SIGHUP, &sa, &old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
 
-    /* the kind: as measure decides, from the opening second for one channel */
-    ml_kind kind = o.in.kind;
-    if (kind == ML_KIND_AUTO) {
-        if (nch - o.in.channel + 1 >= 2) {
-            kind = ML_KIND_IQ;
-        } else {
-            bool is_if = false;
-            double fc = NAN;
-            char reason[256];
-            seg.nframes = (int64_t)llround(DETECT_S * rate);
-            rc = ml_measure_detect_if(&o, &seg, &is_if, &fc, reason, sizeof reason);
-            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
-        }
-    }
-    ml_channels ch;
-    if (rc == 0 && ml_channels_map((int)nch, o.in.channel, kind == ML_KIND_IQ, o.in.swap_iq, 0, &ch) != ML_OK)
-        rc = ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
+    /* the kind and the channels, as measure decides them (from the opening second for one channel) */
+    ml_kind kind;
+    double carrier_hz;
+    char reason[256];
+    ml_channels ch = {.stride = 1};
+    seg.nframes = (int64_t)llround(DETECT_S * rate); /* the look ahead's limit */
+    rc = ml_input_kind(&o.in, &o.an, &seg, DETECT_S, &kind, &carrier_hz, reason, sizeof reason);
+    if (rc == 0)
+        rc = ml_input_channels(&o.in, &seg, kind, &ch);
+    double ref_c = NAN; /* C from --carrier-reference: near --carrier, else its strongest component */
+    if (rc == 0 && o.an.carrier_reference && kind != ML_KIND_AUDIO)
+        rc = ml_input_reference_carrier(o.an.carrier_reference, &o.in, kind == ML_KIND_IQ, rate, o.an.carrier_hz,
+                                        &ref_c);
+    const size_t nch = ch.stride;
     ml_monitor_config mc = ml_monitor_config_default(rate, kind == ML_KIND_IQ ? ML_MONITOR_IQ
                                                            : kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
     mc.window_s = window_s;
@@ -257,10 +245,13 @@ int ml_cmd_watch(int argc, char **argv)
     float *buf = malloc(upd * (size_t)nch * sizeof *buf), *re = malloc(upd * sizeof *re), *im = malloc(upd * sizeof *im);
     if (rc == 0 && (buf == NULL || re == NULL || im == NULL))
         rc = ml_cli_error("out of memory");
+    ml_status st = ML_OK;
     if (rc == 0 && ((st = ml_monitor_create(&mc, &mon)) != ML_OK || (st = ml_peakhold_create(&hc, &hold_pos)) != ML_OK
                     || (st = ml_peakhold_create(&hc, &hold_neg)) != ML_OK))
         rc = ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
                           st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
+    if (rc == 0)
+        ml_monitor_set_reference(mon, ref_c);
     ml_screen *scr = NULL;
     if (rc == 0 && !want_plain(plain) && (scr = ml_screen_open()) == NULL)
         plain = true;
@@ -347,6 +338,7 @@ int ml_cmd_watch(int argc, char **argv)
             } else if (key == 'r' || key == 'R') {
                 ml_peakhold_reset(hold_pos);
                 ml_peakhold_reset(hold_neg);
+                ml_monitor_set_reference(mon, ref_c); /* forgets a latched C */
                 v.pos_hold_pct = v.neg_hold_pct = NAN;
                 v.overmod = false;
                 v.overmod_updates = 0;
