@@ -106,9 +106,7 @@ int ml_input_read(const char *name, ml_segment *seg, float *buf, size_t want, si
     return 0;
 }
 
-/* Spectrum of the first `frames` frames of the segment (the analysed column, or I/Q), then seeks
- * back to its start. */
-static int look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames, ml_spectrum **out)
+int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames, ml_spectrum **out)
 {
     *out = NULL;
     const double rate = seg->info->rate_hz;
@@ -195,7 +193,7 @@ static int detect_if(const ml_input_opts *in, ml_segment *seg, double look_s, bo
         return 0;
     }
     ml_spectrum *s = NULL;
-    int rc = look_ahead(in->path, seg, &ch, frames, &s);
+    int rc = ml_input_look_ahead(in->path, seg, &ch, frames, &s);
     if (rc != 0)
         return rc;
     const ml_carrier_config cc = ml_carrier_config_default(rate, false, NAN);
@@ -274,7 +272,7 @@ int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *
     if (pre > seg->nframes)
         pre = seg->nframes;
     ml_spectrum *look = NULL;
-    int rc = look_ahead(name, seg, ch, pre, &look);
+    int rc = ml_input_look_ahead(name, seg, ch, pre, &look);
     if (rc != 0)
         return rc;
     const ml_carrier_config cc = ml_carrier_config_default(rate, ch->complex_input, nominal_hz);
@@ -310,7 +308,7 @@ int ml_input_reference_carrier(const char *path, const ml_input_opts *in, bool i
     if (rc == 0) {
         if (ref.nframes > (int64_t)(10 * rate_hz))
             ref.nframes = (int64_t)(10 * rate_hz);
-        rc = look_ahead(path, &ref, &ch, ref.nframes, &s);
+        rc = ml_input_look_ahead(path, &ref, &ch, ref.nframes, &s);
     }
     if (rc == 0) {
         /* the carrier line near the capture's: within 20 bins and 50 Hz of it, whatever its level */

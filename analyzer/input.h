@@ -61,6 +61,11 @@ int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segmen
 /* The channel map of the segment for the kind: 0 or an exit status (error printed). */
 int ml_input_channels(const ml_input_opts *in, const ml_segment *seg, ml_kind kind, ml_channels *out);
 
+/* The spectrum (for the carrier search: at most 4096 points when frames allow four segments) of
+ * the first `frames` frames of the segment (the analysed column, or I/Q), then seeks back to
+ * its start; *out is the caller's to destroy. 0 or an exit status. */
+int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames, ml_spectrum **out);
+
 /* The carrier in the opening look_s seconds of the segment (at most its nframes) (dsp/carrier.h: near nominal_hz, or
  * the strongest when NAN); the source is left at the segment's start. 0 or an exit status. */
 int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *ch, double nominal_hz, double look_s,

@@ -163,8 +163,8 @@ static int apply_input(int id, const char *arg, ml_input_opts *in)
         in->channels = n;
         return 0;
     case O_SECONDS:
-        if (!ml_cli_number(arg, &v) || v <= 0 || v > 86400)
-            return ml_cli_error("--seconds: '%s' is not a time in seconds, 0 < S <= 86400", arg);
+        if (!ml_cli_number(arg, &v) || v <= 0 || v > 31536000)
+            return ml_cli_error("--seconds: '%s' is not a time in seconds, 0 < S <= 31536000 (a year)", arg);
         in->seconds = v;
         return 0;
     case O_PLAY:
