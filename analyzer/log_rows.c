@@ -250,14 +250,13 @@ static size_t modulation_cells(const ml_logger *L, const ml_modulation_result *m
 {
     ml_value v[ML_VALUES_MAX];
     const size_t nv = m ? ml_values_modulation(m, L->o->an.carrier_hz, false, v) : 0;
-    static const char *const source[] = {"reference", "unmodulated", "latched", "mean"};
     size_t k = 0;
     for (size_t i = 0; i < NMOD; i++) {
         char cell[32];
         ml_values_format(MOD_COLUMNS[i], ml_values_find(v, nv, MOD_COLUMNS[i]), cell, sizeof cell);
         k += (size_t)snprintf(b + k, n - k, "%s%s", i ? "," : "", cell);
         if (i == 2)
-            k += (size_t)snprintf(b + k, n - k, ",%s", m && m->c_source <= ML_C_MEAN ? source[m->c_source] : "");
+            k += (size_t)snprintf(b + k, n - k, ",%s", m ? ml_values_c_word(m) : "");
     }
     return k;
 }

@@ -104,6 +104,12 @@ const char *ml_values_c_source(const ml_modulation_result *r, const char *refere
     return buf;
 }
 
+const char *ml_values_c_word(const ml_modulation_result *r)
+{
+    static const char *const word[] = {"reference", "unmodulated", "latched", "mean"};
+    return r && r->c_source <= ML_C_MEAN ? word[r->c_source] : NULL;
+}
+
 const char *ml_values_overmodulation_kind(const ml_modulation_result *r)
 {
     return r->reversal_events > r->pinch_events ? "phase reversal"

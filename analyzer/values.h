@@ -45,6 +45,9 @@ size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bo
 size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out);
 /* Where C came from, as the report's modulation.carrier_reference text, into buf[len]. */
 const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf, size_t len);
+/* Where C came from in one word, for a log column or a --plain field named carrier_reference:
+ * reference, unmodulated (this span's own stretches), latched, mean; NULL for no result. */
+const char *ml_values_c_word(const ml_modulation_result *r);
 /* modulation.overmodulation_kind: the kind of event seen most ("none" without events). */
 const char *ml_values_overmodulation_kind(const ml_modulation_result *r);
 
