@@ -19,6 +19,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/finish.h"
 #include "analyzer/limits.h"
 #include "analyzer/measure.h"
 #include "analyzer/output.h"
@@ -156,7 +157,10 @@ static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_pl
     one.in.path = path;
     one.out.plot = plot;
     *measured = true;
-    return ml_measure_analyse(&one, rep);
+    const int rc = ml_measure_analyse(&one, rep);
+    if (rc == 0 && o->out.limits)
+        ml_limits_apply(o->out.limits, rep);
+    return rc;
 }
 
 static const ml_limit *limit_for(const ml_limits *l, const char *metric)
@@ -275,21 +279,9 @@ int ml_cmd_compare(int argc, char **argv)
     int rc = ml_measure_parse(argc, argv, &o, 2);
     if (rc != 0)
         return rc < 0 ? ML_EXIT_OK : rc;
-    if ((rc = ml_plots_check_paths(o.out.plot_path, o.out.report_path)) != 0)
-        return rc;
     static ml_limits limits;
-    char err[512];
-    if (o.out.limits_path) {
-        if (ml_limits_load(o.out.limits_path, &limits, err, sizeof err) != ML_OK)
-            return ml_cli_error("%s: %s", o.out.limits_path, err);
-        o.out.limits = &limits;
-    }
-    const char *outs[3] = {o.out.output_path, o.out.plot_path, o.out.report_path};
-    const char *ins[4] = {o.in.path, o.input2, o.out.limits_path, o.an.carrier_reference};
-    for (int i = 0; i < 3; i++)
-        for (int j = 0; outs[i] && j < 4; j++)
-            if (ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file", outs[i]);
+    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
+        return rc;
 
     static ml_report ra, rb;
     static ml_comparison cmp;
@@ -321,25 +313,8 @@ int ml_cmd_compare(int argc, char **argv)
              "B", "");
     if ((o.out.plot_path || o.out.report_path) && (!ma || !mb))
         note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
-    rc = ml_plots_write_compare(o.out.plot_path, o.out.report_path, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
-    if (rc != 0)
-        goto done;
-
-    ml_output out;
-    if (!ml_output_open(&out, o.out.output_path, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.out.output_path, err);
-        goto done;
-    }
-    if (ml_compare_write(out.f, &cmp, o.out.format) != ML_OK) {
-        ml_output_abort(&out);
-        rc = ml_cli_error("%s: cannot write the comparison", o.out.output_path ? o.out.output_path : "standard output");
-        goto done;
-    }
-    if (!ml_output_commit(&out, err, sizeof err)) {
-        rc = ml_cli_error("%s: %s", o.out.output_path, err);
-        goto done;
-    }
-    rc = cmp.nworse > 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
+    rc = ml_finish(&(ml_finish_job){.out = &o.out, .comparison = &cmp, .plot = ma ? &pa : NULL,
+                                    .plot_b = mb ? &pb : NULL, .cmdline = cmdline});
 done:
     ml_plot_data_free(&pa);
     ml_plot_data_free(&pb);

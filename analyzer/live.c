@@ -16,6 +16,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/finish.h"
 #include "analyzer/measure.h"
 #include "analyzer/output.h"
 #include "analyzer/plots.h"
@@ -321,12 +322,8 @@ int ml_cmd_live(int argc, char **argv)
             ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
         if (ls.underflow_frames > 0 && o.in.play)
             ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
-        rc = ml_plots_write_measure(o.out.plot_path, o.out.report_path, &rep, &pd, cmdline);
-        if (rc == 0)
-            rc = ml_measure_write(&o, &rep);
-        if (rc == 0)
-            rc = seg.failed ? ML_EXIT_USAGE
-                            : strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
+        rc = ml_finish(&(ml_finish_job){.out = &o.out, .report = &rep, .plot = &pd, .cmdline = cmdline,
+                                        .input_failed = seg.failed});
     }
     g_live = NULL;
     ml_plot_data_free(&pd);

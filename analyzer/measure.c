@@ -13,6 +13,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/finish.h"
 #include "analyzer/output.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
@@ -311,48 +312,10 @@ done:
     return rc;
 }
 
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep)
-{
-    char err[512];
-    ml_output out;
-    if (!ml_output_open(&out, o->out.output_path, err, sizeof err))
-        return ml_cli_error("%s: %s", o->out.output_path, err);
-    if (ml_report_write(out.f, rep, o->out.format) != ML_OK) {
-        ml_output_abort(&out);
-        return ml_cli_error("%s: cannot write the report", o->out.output_path ? o->out.output_path : "standard output");
-    }
-    if (!ml_output_commit(&out, err, sizeof err))
-        return ml_cli_error("%s: %s", o->out.output_path, err);
-    return 0;
-}
-
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 {
-    char err[512];
-    int rc = ml_plots_check_paths(o->out.plot_path, o->out.report_path);
-    if (rc != 0)
-        return rc;
-    if (o->out.limits_path) {
-        ml_status st = ml_limits_load(o->out.limits_path, limits, err, sizeof err);
-        if (st != ML_OK)
-            return ml_cli_error("%s: %s", o->out.limits_path, err);
-        o->out.limits = limits;
-    }
-    /* nothing written may replace an input, and no two outputs may share a file */
-    const char *outs[4] = {o->out.output_path, o->in.save_path, o->out.plot_path, o->out.report_path};
-    const char *what[4] = {"the report", "the capture", "the plot", "the PDF report"};
-    const char *ins[3] = {o->in.live ? NULL : o->in.path, o->out.limits_path, o->an.carrier_reference};
-    for (int i = 0; i < 4; i++) {
-        if (outs[i] == NULL || strcmp(outs[i], "-") == 0)
-            continue;
-        for (int j = 0; j < 3; j++)
-            if (ins[j] && ml_same_file(outs[i], ins[j]))
-                return ml_cli_error("%s: refusing to overwrite an input file with %s", outs[i], what[i]);
-        for (int j = 0; j < i; j++)
-            if (outs[j] && (strcmp(outs[i], outs[j]) == 0 || ml_same_file(outs[i], outs[j])))
-                return ml_cli_error("%s: %s and %s would be the same file", outs[i], what[j], what[i]);
-    }
-    return 0;
+    const char *ins[3] = {o->in.live ? NULL : o->in.path, o->input2, o->an.carrier_reference};
+    return ml_finish_prepare(&o->out, limits, ins, 3, o->in.save_path);
 }
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
@@ -367,8 +330,6 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
         rc = measure_audio(o, seg, reason, rep);
     else
         rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
-    if (rc == 0 && o->out.limits)
-        ml_limits_apply(o->out.limits, rep);
     return rc;
 }
 
@@ -394,7 +355,6 @@ int ml_cmd_measure(int argc, char **argv)
     static ml_limits limits;
     if ((rc = ml_measure_prepare(&o, &limits)) != 0)
         return rc;
-
     static ml_report rep;
     ml_plot_data pd;
     ml_plot_data_init(&pd);
@@ -402,12 +362,7 @@ int ml_cmd_measure(int argc, char **argv)
         o.out.plot = &pd;
     rc = ml_measure_analyse(&o, &rep);
     if (rc == 0)
-        rc = ml_plots_write_measure(o.out.plot_path, o.out.report_path, &rep, &pd, cmdline);
+        rc = ml_finish(&(ml_finish_job){.out = &o.out, .report = &rep, .plot = &pd, .cmdline = cmdline});
     ml_plot_data_free(&pd);
-    if (rc != 0)
-        return rc;
-    rc = ml_measure_write(&o, &rep);
-    if (rc == 0)
-        rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     return rc;
 }

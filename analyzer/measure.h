@@ -30,7 +30,8 @@ typedef struct {
  * takes the capture options); 0, -1 after --help, or
  * an exit status (error printed). argv[0] names the command in messages. */
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs);
-/* Analyses o->input into rep (limits applied when o->limits); 0 or an exit status (error printed). */
+/* Analyses o->in.path into rep (no limits: the finish step applies them, analyzer/finish.h); 0 or
+ * an exit status (error printed). */
 int ml_measure_analyse(ml_measure_opts *o, ml_report *rep);
 
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
@@ -38,13 +39,10 @@ void ml_measure_add(ml_report *r, const char *name, double value);
 /* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
 
-/* Checks the --plot/--report names, loads --limits, refuses outputs that name an input or each
- * other; 0 or an exit status (error printed). */
+/* ml_finish_prepare for o's inputs and outputs; 0 or an exit status (error printed). */
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits);
-/* Resolves the kind, runs its pipeline on the open segment and applies the limits. */
+/* Resolves the kind and runs its pipeline on the open segment. */
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
-/* Writes the report to --output (or standard output) completely or not at all. */
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep);
 /* live's --help (analyzer/live.c). */
 void ml_live_usage(FILE *f);
 /* Fills the report's input description. */
