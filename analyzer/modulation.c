@@ -283,13 +283,9 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_values_report_u(rep, v, ml_values_modulation_u(&u, v));
     rep->u_blocks = u.blocks;
     rep->u_block_s = u.block_s;
-    if (o->out.plot) {
-        const ml_spectrum *rf = ml_modulation_get_spectrum(p->mod);
-        ml_plots_modulation(o->out.plot, rf, r.carrier_hz, r.c * r.c * ml_spectrum_full_scale_power(rf),
-                            r.audio_valid ? r.audio_result.fundamental_hz : 0, r.bandwidth_hz,
-                            o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL, p->c_prov / r.c, r.emax_rel,
-                            r.emin_rel, r.pinch_rel);
-    }
+    if (o->out.plot)
+        ml_plots_modulation(o->out.plot, ml_modulation_get_spectrum(p->mod), &r,
+                            o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL, p->c_prov / r.c);
     return 0;
 }
 

@@ -96,10 +96,12 @@ void ml_plots_envelope(ml_plot_data *p, const double *env, size_t n)
     p->env_seen += (long long)n;
 }
 
-void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, double carrier_power, double fm_hz,
-                         double bw_hz, const ml_mask *mask, double env_scale, double emax, double emin,
-                         double pinch_rel)
+void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r, const ml_mask *mask,
+                         double env_scale)
 {
+    const double f_car = r->carrier_hz, bw_hz = r->bandwidth_hz;
+    const double carrier_power = r->c * r->c * ml_spectrum_full_scale_power(rf);
+    const double fm_hz = r->audio_valid ? r->audio_result.fundamental_hz : 0;
     const size_t nb = ml_spectrum_nbins(rf);
     if (ml_plot_alloc_spectrum(p, nb) == ML_OK && ml_spectrum_get_psd(rf, p->level_db, nb) == ML_OK) {
         /* ascending frequency: a complex spectrum's negative half comes first */
@@ -155,9 +157,9 @@ void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, d
     }
     for (size_t i = 0; i < p->nenv; i++)
         p->env[i] *= env_scale;
-    p->emax = emax;
-    p->emin = emin;
-    p->pinch_level = pinch_rel;
+    p->emax = r->emax_rel;
+    p->emin = r->emin_rel;
+    p->pinch_level = r->pinch_rel;
     p->fm_hz = fm_hz;
     p->has_trapezoid = p->ref != NULL && p->nenv >= 2;
 }

@@ -136,10 +136,19 @@ static void hz_label(char *buf, size_t len, double v)
         snprintf(buf, len, "%g", v);
 }
 
-/* Frame, grid, ticks and labels; the area inside is returned in *a. */
-static void frame(cairo_t *cr, axes *a, double x, double y, double w, double h, const char *title, const char *xl,
-                  const char *yl, bool hz_ticks)
+/* A panel of a picture: where it lies and what its frame says. */
+typedef struct {
+    double x, y, w, h;      /* the panel's rectangle (cairo user units)                    */
+    const char *title, *xlabel, *ylabel;
+    bool hz_ticks;          /* frequency ticks ("2 k") on a linear axis                    */
+} panel;
+
+/* Frame, grid, ticks and labels of the panel pn; the area inside is returned in *a. */
+static void frame(cairo_t *cr, axes *a, const panel *pn)
 {
+    const double x = pn->x, y = pn->y, w = pn->w, h = pn->h;
+    const char *title = pn->title, *xl = pn->xlabel, *yl = pn->ylabel;
+    const bool hz_ticks = pn->hz_ticks;
     const double fs = fmax(8.0, fmin(11.0, h / 26));
     a->x = x + 5.2 * fs;
     a->y = y + 2.2 * fs;
@@ -278,7 +287,7 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
     ax.y0 = ax.y1 - 160;
     char yl[64];
     snprintf(yl, sizeof yl, "level (%s per FFT bin)", p->level_unit);
-    frame(cr, &ax, x, y, w, h, title, "frequency (Hz)", yl, true);
+    frame(cr, &ax, &(panel){x, y, w, h, title, "frequency (Hz)", yl, true});
     cairo_save(cr);
     cairo_rectangle(cr, ax.x, ax.y, ax.w, ax.h);
     cairo_clip(cr);
@@ -383,7 +392,7 @@ void ml_draw_envelope(cairo_t *cr, double x, double y, double w, double h, const
     for (size_t i = 0; i < n; i++)
         top = fmax(top, p->env[i] * 1.08);
     axes ax = {.x0 = 0, .x1 = 1000.0 * (double)(n - 1) / p->env_rate_hz, .y0 = 0, .y1 = top};
-    frame(cr, &ax, x, y, w, h, "Envelope", "time (ms)", "envelope E / Ec", false);
+    frame(cr, &ax, &(panel){x, y, w, h, "Envelope", "time (ms)", "envelope E / Ec", false});
     cairo_save(cr);
     cairo_rectangle(cr, ax.x, ax.y, ax.w, ax.h);
     cairo_clip(cr);
@@ -459,7 +468,7 @@ void ml_draw_trapezoid(cairo_t *cr, double x, double y, double w, double h, cons
     }
     const double pad = 0.06 * fmax(hi - lo, 1e-6);
     axes ax = {.x0 = lo - pad, .x1 = hi + pad, .y0 = 0, .y1 = top};
-    frame(cr, &ax, x, y, w, h, "Trapezoid", "modulating audio (full scale)", "envelope E / Ec", false);
+    frame(cr, &ax, &(panel){x, y, w, h, "Trapezoid", "modulating audio (full scale)", "envelope E / Ec", false});
     cairo_save(cr);
     cairo_rectangle(cr, ax.x, ax.y, ax.w, ax.h);
     cairo_clip(cr);
