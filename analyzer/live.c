@@ -216,6 +216,85 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
     return 0;
 }
 
+/* --play-tone: the generator at the capture's rate (the device's default unless --rate) and lc's
+ * playback. 0 or an exit status. */
+static int play_setup(const ml_measure_opts *o, ml_live_config *lc, tone_feed *feed)
+{
+    double rate = o->in.rate_hz;
+    char e[256];
+    if (rate == 0 && ml_audio_device_rate(o->in.device, true, &rate, e, sizeof e) != ML_OK)
+        return ml_cli_error("%s: %s", o->in.device ? o->in.device : "default input", e);
+    lc->rate_hz = rate;
+    if (!(o->in.play_hz < rate / 2))
+        return ml_cli_error("--play-tone %.1f Hz is at or above the Nyquist frequency %.0f Hz", o->in.play_hz,
+                            rate / 2);
+    ml_synth_config sc = ml_synth_config_default(rate);
+    sc.freq_hz = o->in.play_hz;
+    sc.level_dbfs = o->in.play_dbfs;
+    if (ml_synth_create(&sc, &feed->syn) != ML_OK)
+        return ml_cli_error("--play-tone: the tone cannot be generated at %.0f Hz", rate);
+    feed->preroll = (uint64_t)llround(PREROLL_S * rate);
+    lc->output_device = o->in.output_device;
+    lc->output_channels = 1;
+    lc->fill = feed_tone;
+    lc->fill_ctx = feed;
+    return 0;
+}
+
+/* The analysed segment of the capture: from --start (after the tone's return with --play-tone,
+ * measuring the latency into *latency), for --duration or to the end of --seconds. */
+static int segment(const ml_measure_opts *o, ml_segment *seg, const tone_feed *feed, int64_t *latency)
+{
+    const double rate = seg->info->rate_hz;
+    const int64_t total = (int64_t)llround(o->in.seconds * rate);
+    seg->first = (int64_t)llround(o->in.start_s * rate);
+    int rc = 0;
+    *latency = -1;
+    if (o->in.play) {
+        int64_t onset = 0;
+        rc = find_onset(o, seg, feed->preroll, &onset, latency);
+        if (rc == 0 && seg->first < onset + (int64_t)(SETTLE_S * rate))
+            seg->first = onset + (int64_t)(SETTLE_S * rate);
+    }
+    seg->nframes = o->in.duration_s > 0 ? (int64_t)llround(o->in.duration_s * rate) : total - seg->first;
+    if (rc == 0 && seg->nframes <= 0)
+        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return", o->in.seconds);
+    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
+        rc = seg->live && !seg->failed ? ml_cli_error("%s: %s", o->in.path, ml_source_detail(seg->src))
+                                       : ML_EXIT_USAGE;
+    return rc;
+}
+
+/* The capture's own figures and notes: device, completeness, lost frames, latency. */
+static void describe_capture(ml_report *rep, const ml_measure_opts *o, const ml_segment *seg, int64_t latency)
+{
+    const double rate = seg->info->rate_hz;
+    ml_live_stats ls;
+    ml_source_live_stats(seg->src, &ls);
+    snprintf(rep->path, sizeof rep->path, "live:%s", ls.device_name);
+    rep->frames = (int64_t)ls.captured_frames;
+    rep->duration_s = (double)ls.captured_frames / rate;
+    rep->analysed_s = (double)seg->nframes / rate;
+    ml_measure_add(rep, "live.lost_frames", (double)ls.lost_frames);
+    ml_measure_add(rep, "live.overflows", (double)ls.overflow_events);
+    ml_measure_add(rep, "live.latency_ms", latency >= 0 ? 1000.0 * (double)latency / rate : NAN);
+    ml_measure_add(rep, "live.latency_frames", latency >= 0 ? (double)latency : NAN);
+    ml_report_add_text(rep, "live.device", ls.device_name);
+    ml_report_add_text(rep, "live.host_api", ls.host_api);
+    ml_report_add_text(rep, "live.complete", seg->ended_early ? "no" : "yes");
+    if (seg->ended_early)
+        ml_report_note(rep, "capture incomplete: %s after %.3f s of %.3f s",
+                       seg->failed ? "the device failed" : "interrupted", (double)ls.captured_frames / rate,
+                       o->in.seconds);
+    if (ls.lost_frames > 0)
+        ml_report_note(rep, "%llu frames were lost (the computer fell behind the sound card)",
+                       (unsigned long long)ls.lost_frames);
+    if (ls.overflow_events > 0)
+        ml_report_note(rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
+    if (ls.underflow_frames > 0 && o->in.play)
+        ml_report_note(rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
+}
+
 int ml_cmd_live(int argc, char **argv)
 {
     char cmdline[1024];
@@ -231,37 +310,12 @@ int ml_cmd_live(int argc, char **argv)
     lc.head_s = HEAD_S + (o.in.play ? PREROLL_S + ONSET_WAIT_S : 0);
     lc.save_path = o.in.save_path;
     tone_feed feed = {NULL, 0, 0};
-    if (o.in.play) {
-        /* the generator needs the rate: the input device's default unless --rate */
-        double rate = o.in.rate_hz;
-        char e[256];
-        if (rate == 0 && ml_audio_device_rate(o.in.device, true, &rate, e, sizeof e) != ML_OK)
-            return ml_cli_error("%s: %s", o.in.device ? o.in.device : "default input", e);
-        lc.rate_hz = rate;
-        if (!(o.in.play_hz < rate / 2))
-            return ml_cli_error("--play-tone %.1f Hz is at or above the Nyquist frequency %.0f Hz", o.in.play_hz,
-                                rate / 2);
-        ml_synth_config sc = ml_synth_config_default(rate);
-        sc.freq_hz = o.in.play_hz;
-        sc.level_dbfs = o.in.play_dbfs;
-        if (ml_synth_create(&sc, &feed.syn) != ML_OK)
-            return ml_cli_error("--play-tone: the tone cannot be generated at %.0f Hz", rate);
-        feed.preroll = (uint64_t)llround(PREROLL_S * rate);
-        lc.output_device = o.in.output_device;
-        lc.output_channels = 1;
-        lc.fill = feed_tone;
-        lc.fill_ctx = &feed;
-    }
     ml_segment seg;
-    rc = ml_input_open_device(&o.in, &lc, &seg);
-    if (rc != 0) {
+    memset(&seg, 0, sizeof seg);
+    if ((o.in.play && (rc = play_setup(&o, &lc, &feed)) != 0) || (rc = ml_input_open_device(&o.in, &lc, &seg)) != 0) {
         ml_synth_destroy(feed.syn);
         return rc;
     }
-    const double rate = seg.info->rate_hz;
-    const int64_t total = (int64_t)llround(o.in.seconds * rate);
-    seg.first = (int64_t)llround(o.in.start_s * rate);
-
     struct sigaction sa, old_int, old_term;
     memset(&sa, 0, sizeof sa);
     sa.sa_handler = on_stop;
@@ -269,23 +323,8 @@ int ml_cmd_live(int argc, char **argv)
     g_live = seg.src;
     sigaction(SIGINT, &sa, &old_int);
     sigaction(SIGTERM, &sa, &old_term);
-
     int64_t latency = -1;
-    if (o.in.play) {
-        int64_t onset = 0;
-        rc = find_onset(&o, &seg, feed.preroll, &onset, &latency);
-        if (rc == 0 && seg.first < onset + (int64_t)(SETTLE_S * rate))
-            seg.first = onset + (int64_t)(SETTLE_S * rate);
-    }
-    seg.nframes = o.in.duration_s > 0 ? (int64_t)llround(o.in.duration_s * rate) : total - seg.first;
-    if (rc == 0 && seg.nframes <= 0)
-        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return", o.in.seconds);
-    if (rc == 0 && ml_source_seek(seg.src, seg.first) != ML_OK) {
-        if (seg.live && !seg.failed)
-            rc = ml_cli_error("%s: %s", o.in.path, ml_source_detail(seg.src));
-        else
-            rc = ML_EXIT_USAGE;
-    }
+    rc = segment(&o, &seg, &feed, &latency);
     static ml_report rep;
     memset(&rep, 0, sizeof rep);
     ml_plot_data pd;
@@ -297,31 +336,8 @@ int ml_cmd_live(int argc, char **argv)
     ml_source_stop(seg.src);
     sigaction(SIGINT, &old_int, NULL);
     sigaction(SIGTERM, &old_term, NULL);
-
-    ml_live_stats ls;
-    ml_source_live_stats(seg.src, &ls);
     if (rc == 0) {
-        snprintf(rep.path, sizeof rep.path, "live:%s", ls.device_name);
-        rep.frames = (int64_t)ls.captured_frames;
-        rep.duration_s = (double)ls.captured_frames / rate;
-        rep.analysed_s = (double)seg.nframes / rate;
-        ml_measure_add(&rep, "live.lost_frames", (double)ls.lost_frames);
-        ml_measure_add(&rep, "live.overflows", (double)ls.overflow_events);
-        ml_measure_add(&rep, "live.latency_ms", latency >= 0 ? 1000.0 * (double)latency / rate : NAN);
-        ml_measure_add(&rep, "live.latency_frames", latency >= 0 ? (double)latency : NAN);
-        ml_report_add_text(&rep, "live.device", ls.device_name);
-        ml_report_add_text(&rep, "live.host_api", ls.host_api);
-        ml_report_add_text(&rep, "live.complete", seg.ended_early ? "no" : "yes");
-        if (seg.ended_early)
-            ml_report_note(&rep, "capture incomplete: %s after %.3f s of %.3f s", seg.failed ? "the device failed"
-                           : "interrupted", (double)ls.captured_frames / rate, o.in.seconds);
-        if (ls.lost_frames > 0)
-            ml_report_note(&rep, "%llu frames were lost (the computer fell behind the sound card)",
-                           (unsigned long long)ls.lost_frames);
-        if (ls.overflow_events > 0)
-            ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
-        if (ls.underflow_frames > 0 && o.in.play)
-            ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
+        describe_capture(&rep, &o, &seg, latency);
         rc = ml_finish(&(ml_finish_job){.out = &o.out, .report = &rep, .plot = &pd, .cmdline = cmdline,
                                         .input_failed = seg.failed});
     }

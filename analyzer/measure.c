@@ -210,108 +210,6 @@ void ml_measure_progress_end(bool shown)
         fprintf(stderr, "\r%*s\r", 30, "");
 }
 
-/* The audio pipeline: the chosen channel through the spectrum and time statistics. */
-static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason, ml_report *rep)
-{
-    const ml_source_info *info = seg->info;
-    const double rate = info->rate_hz;
-    if (o->an.audio.band_hi_hz > rate / 2)
-        o->an.audio.band_hi_hz = rate / 2;
-    if (o->an.audio.band_lo_hz >= o->an.audio.band_hi_hz)
-        return ml_cli_error("%s: --band starts at %.1f Hz, at or above the Nyquist frequency %.1f Hz", o->in.path,
-                            o->an.audio.band_lo_hz, rate / 2);
-    if (o->an.audio.tone_hz > 0 && (o->an.audio.tone_hz < o->an.audio.band_lo_hz || o->an.audio.tone_hz > o->an.audio.band_hi_hz))
-        return ml_cli_error("--tone %.3f Hz lies outside the band %.1f..%.1f Hz", o->an.audio.tone_hz,
-                            o->an.audio.band_lo_hz, o->an.audio.band_hi_hz);
-    ml_spectrum_config sc = ml_spectrum_config_default(rate);
-    sc.window = o->an.window;
-    sc.nfft = ml_resolution_nfft(rate, seg->nframes, ML_RESOLUTION_SPAN);
-    sc.hop = sc.nfft / 2;
-    if (sc.nfft == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->in.path,
-                            (long long)seg->nframes);
-    ml_spectrum *spec = NULL;
-    ml_status st = ml_spectrum_create(&sc, &spec);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", o->in.path, ml_strerror(st));
-    ml_stats stats;
-    ml_stats_init(&stats, info->bits);
-    const size_t nch = (size_t)info->channels;
-    float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
-    float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
-    ml_blocks *blocks = NULL;
-    ml_blocks_create(spec, &sc, &o->an.audio, false, &blocks);
-    ml_channels ch;
-    int rc = ml_channels_map(info->channels, o->in.channel, false, false, 0, &ch) == ML_OK
-                 ? 0
-                 : ml_cli_error("%s: --channel %ld is not in the input", o->in.path, o->in.channel);
-    if (rc != 0)
-        goto done;
-    if (buf == NULL || mono == NULL || blocks == NULL) {
-        rc = ml_cli_error("%s: out of memory", o->in.path);
-        goto done;
-    }
-    int64_t done = 0, next = 0;
-    bool shown = false;
-    while (done < seg->nframes && rc == 0) {
-        size_t want = seg->nframes - done < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done) : ML_BLOCK_FRAMES;
-        size_t got = 0;
-        rc = ml_input_read(o->in.path, seg, buf, want, &got, done);
-        if (rc != 0)
-            break;
-        ml_channels_split(&ch, buf, got, mono, NULL);
-        ml_stats_push(&stats, mono, got);
-        ml_spectrum_push(spec, mono, got);
-        done += (int64_t)got;
-        ml_measure_progress(seg, done, &next, &shown);
-    }
-    ml_measure_progress_end(shown);
-    if (rc != 0)
-        goto done;
-
-    ml_measure_describe(rep, o, seg, "audio", reason);
-    ml_audio_result ar;
-    st = ml_audio_analyze(spec, &o->an.audio, &ar);
-    const char *residue = st == ML_OK ? ml_figures_no_signal(&ar, stats.count ? stats.sumsq / (double)stats.count : 0)
-                                      : NULL;
-    if (residue != NULL)
-        st = ML_ENOSIGNAL;
-    const bool ok = st == ML_OK;
-    snprintf(rep->analysis, sizeof rep->analysis,
-             "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz", ml_window_name(o->an.window),
-             sc.nfft, rate / (double)sc.nfft, ml_spectrum_segments(spec), o->an.audio.band_lo_hz, o->an.audio.band_hi_hz);
-    if (!ok) {
-        if (stats.sumsq == 0)
-            ml_report_note(rep, "input is silent: every analysed sample is zero");
-        else if (st == ML_ENOSIGNAL)
-            ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->an.audio.band_lo_hz,
-                           o->an.audio.band_hi_hz, residue ? residue : "DC only?");
-        else {
-            rc = ml_cli_error("%s: analysis failed: %s", o->in.path, ml_strerror(st));
-            goto done;
-        }
-    }
-    ml_measure_add_audio(rep, &ar, ok);
-    if (o->out.plot)
-        ml_plots_audio(o->out.plot, spec, &ar, ok);
-    ml_level_figures lv;
-    ml_value v[ML_VALUES_MAX];
-    ml_figures_level(&stats, 1, &lv);
-    ml_values_report(rep, v, ml_values_level(&lv, "audio", v));
-    if (stats.clipped > 0)
-        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
-                       (unsigned long long)stats.clipped);
-    if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
-        ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
-    ml_uncertainty_report(blocks, rep);
-done:
-    free(buf);
-    free(mono);
-    ml_blocks_destroy(blocks);
-    ml_spectrum_destroy(spec);
-    return rc;
-}
-
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits)
 {
     const char *ins[3] = {o->in.live ? NULL : o->in.path, o->input2, o->an.carrier_reference};
@@ -327,7 +225,7 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
     if (rc != 0)
         return rc;
     if (kind == ML_KIND_AUDIO)
-        rc = measure_audio(o, seg, reason, rep);
+        rc = ml_measure_audio(o, seg, reason, rep);
     else
         rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
     return rc;

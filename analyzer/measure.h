@@ -51,6 +51,8 @@ void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segmen
 /* Progress on stderr when it is a terminal and the job is long. */
 void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown);
 void ml_measure_progress_end(bool shown);
+/* The audio pipeline (analyzer/audio.c): fills rep; 0 or an exit status (error already printed). */
+int ml_measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason, ml_report *rep);
 /* The if/iq pipeline (analyzer/modulation.c): fills rep; returns 0 or an exit status (error
  * already printed). kind is ML_KIND_IF or ML_KIND_IQ; reason says why. */
 int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, const char *reason,

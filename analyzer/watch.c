@@ -174,204 +174,272 @@ static bool want_plain(bool asked)
     return asked || !isatty(STDOUT_FILENO) || term == NULL || term[0] == '\0' || strcmp(term, "dumb") == 0;
 }
 
-int ml_cmd_watch(int argc, char **argv)
+/* The meter's state between its steps. */
+typedef struct {
+    ml_measure_opts o;
+    bool plain, seconds_given;
+    double window_s;
+    ml_segment seg;
+    double rate;
+    ml_kind kind;
+    ml_channels ch;
+    double ref_c;                    /* C from --carrier-reference, or NAN                     */
+    ml_monitor *mon;
+    ml_peakhold *hold_pos, *hold_neg;
+    ml_watch_view *v;
+    ml_screen *scr;
+    size_t upd;                      /* frames per update                                       */
+    float *buf, *re, *im;
+    ml_live_stats ls;
+    uint64_t base_over, base_lost, frames;
+    struct sigaction old_int, old_term, old_hup;
+} watcher;
+
+/* Options: watch's own, then measure's groups; refuses what belongs to live. 0, -1 after --help,
+ * or an exit status. */
+static int parse(int argc, char **argv, watcher *w)
 {
     char **rest = calloc((size_t)argc + 1, sizeof *rest);
     if (rest == NULL)
         return ml_cli_error("out of memory");
-    bool plain = false, seconds_given = false;
-    double window_s = DEFAULT_WINDOW_S;
+    w->window_s = DEFAULT_WINDOW_S;
     int nrest = 0;
-    int rc = own_options(argc, argv, rest, &nrest, &plain, &window_s, &seconds_given);
-    ml_measure_opts o;
+    int rc = own_options(argc, argv, rest, &nrest, &w->plain, &w->window_s, &w->seconds_given);
     if (rc == 0)
-        rc = ml_measure_parse(nrest, rest, &o, 0);
+        rc = ml_measure_parse(nrest, rest, &w->o, 0);
     free(rest);
-    if (rc != 0)
-        return rc < 0 ? ML_EXIT_OK : rc;
-    if (o.in.play || o.in.save_path || o.out.plot_path || o.out.report_path || o.out.output_path
-        || o.in.reference_channel > 0 || o.in.start_s > 0 || o.in.duration_s > 0)
+    const ml_measure_opts *o = &w->o;
+    if (rc == 0 && (o->in.play || o->in.save_path || o->out.plot_path || o->out.report_path || o->out.output_path
+                    || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0))
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
                             "--reference-channel, --start or --duration (see 'modlens live')");
-    static ml_limits limits;
-    if ((rc = ml_measure_prepare(&o, &limits)) != 0)
-        return rc;
+    return rc;
+}
+
+/* The input step: the device, its kind and channels (as measure decides them, from the opening
+ * second), C's reference. Ctrl-C, SIGTERM and SIGHUP stop the capture from here on. */
+static int open_input(watcher *w)
+{
     ml_live_config lc = ml_live_config_default();
     lc.head_s = DETECT_S + 1.0; /* the auto-kind look at the opening second seeks back into it */
-    ml_segment seg;
-    if ((rc = ml_input_open_device(&o.in, &lc, &seg)) != 0) {
-        ml_source_close(seg.src);
+    int rc = ml_input_open_device(&w->o.in, &lc, &w->seg);
+    if (rc != 0)
         return rc;
-    }
-    const double rate = seg.info->rate_hz;
-    g_src = seg.src;
-    struct sigaction sa, old_int, old_term, old_hup;
+    w->rate = w->seg.info->rate_hz;
+    g_src = w->seg.src;
+    struct sigaction sa;
     memset(&sa, 0, sizeof sa);
     sa.sa_handler = on_stop;
     sigemptyset(&sa.sa_mask);
-    sigaction(SIGINT, &sa, &old_int);
-    sigaction(SIGTERM, &sa, &old_term);
-    sigaction(SIGHUP, &sa, &old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
-
-    /* the kind and the channels, as measure decides them (from the opening second for one channel) */
-    ml_kind kind;
+    sigaction(SIGINT, &sa, &w->old_int);
+    sigaction(SIGTERM, &sa, &w->old_term);
+    sigaction(SIGHUP, &sa, &w->old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
     double carrier_hz;
     char reason[256];
-    ml_channels ch = {.stride = 1};
-    seg.nframes = (int64_t)llround(DETECT_S * rate); /* the look ahead's limit */
-    rc = ml_input_kind(&o.in, &o.an, &seg, DETECT_S, &kind, &carrier_hz, reason, sizeof reason);
+    w->seg.nframes = (int64_t)llround(DETECT_S * w->rate); /* the look ahead's limit */
+    rc = ml_input_kind(&w->o.in, &w->o.an, &w->seg, DETECT_S, &w->kind, &carrier_hz, reason, sizeof reason);
     if (rc == 0)
-        rc = ml_input_channels(&o.in, &seg, kind, &ch);
-    double ref_c = NAN; /* C from --carrier-reference: near --carrier, else its strongest component */
-    if (rc == 0 && o.an.carrier_reference && kind != ML_KIND_AUDIO)
-        rc = ml_input_reference_carrier(o.an.carrier_reference, &o.in, kind == ML_KIND_IQ, rate, o.an.carrier_hz,
-                                        &ref_c);
-    const size_t nch = ch.stride;
-    ml_monitor_config mc = ml_monitor_config_default(rate, kind == ML_KIND_IQ ? ML_MONITOR_IQ
-                                                           : kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
-    mc.window_s = window_s;
-    mc.window = o.an.window;
-    mc.audio = o.an.audio;
-    mc.carrier_hz = o.an.carrier_hz;
-    mc.bandwidth_hz = o.an.bandwidth_hz;
-    mc.peak_hold_s = o.an.peak_hold_ms / 1000.0;
-    static ml_watch_view v;
-    memset(&v, 0, sizeof v);
-    v.pos_limit_pct = profile_max(o.out.limits, "modulation.positive_peak_pct");
-    v.neg_limit_pct = profile_max(o.out.limits, "modulation.negative_peak_pct");
-    v.latch_limit_pct = isfinite(v.pos_limit_pct) ? v.pos_limit_pct : mc.positive_limit_pct;
-    mc.positive_limit_pct = v.latch_limit_pct;
-    ml_monitor *mon = NULL;
-    ml_peakhold *hold_pos = NULL, *hold_neg = NULL;
-    const ml_peakhold_config hc = {.hold_s = ML_WATCH_HOLD_S, .decay_per_s = ML_WATCH_DECAY_PCT_S};
-    const size_t upd = (size_t)llround(UPDATE_S * rate);
-    float *buf = malloc(upd * (size_t)nch * sizeof *buf), *re = malloc(upd * sizeof *re), *im = malloc(upd * sizeof *im);
-    if (rc == 0 && (buf == NULL || re == NULL || im == NULL))
-        rc = ml_cli_error("out of memory");
-    ml_status st = ML_OK;
-    if (rc == 0 && ((st = ml_monitor_create(&mc, &mon)) != ML_OK || (st = ml_peakhold_create(&hc, &hold_pos)) != ML_OK
-                    || (st = ml_peakhold_create(&hc, &hold_neg)) != ML_OK))
-        rc = ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
-                          st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
-    if (rc == 0)
-        ml_monitor_set_reference(mon, ref_c);
-    ml_screen *scr = NULL;
-    if (rc == 0 && !want_plain(plain) && (scr = ml_screen_open()) == NULL)
-        plain = true;
+        rc = ml_input_channels(&w->o.in, &w->seg, w->kind, &w->ch);
+    w->ref_c = NAN; /* C from --carrier-reference: near --carrier, else its strongest component */
+    if (rc == 0 && w->o.an.carrier_reference && w->kind != ML_KIND_AUDIO)
+        rc = ml_input_reference_carrier(w->o.an.carrier_reference, &w->o.in, w->kind == ML_KIND_IQ, w->rate,
+                                        w->o.an.carrier_hz, &w->ref_c);
+    return rc;
+}
 
-    ml_live_stats ls;
-    ml_source_live_stats(seg.src, &ls);
-    v.kind = mc.kind;
-    v.kind_name = kind == ML_KIND_IQ ? "iq" : kind == ML_KIND_IF ? "if" : "audio";
-    snprintf(v.device, sizeof v.device, "%s", ls.device_name);
-    v.rate_hz = rate;
-    v.window_s = (double)ml_monitor_window_frames(mon) / rate;
-    v.pos_hold_pct = v.neg_hold_pct = NAN;
-    v.nominal_hz = o.an.carrier_hz;
-    uint64_t base_over = 0, base_lost = 0, frames = 0;
-    const uint64_t stop_at = seconds_given ? (uint64_t)llround(o.in.seconds * rate) : UINT64_MAX;
-    bool quit = false;
-    while (rc == 0 && !quit && frames < stop_at) {
-        size_t want = upd, got = 0;
-        if (stop_at - frames < want)
-            want = (size_t)(stop_at - frames);
-        st = ml_source_read(seg.src, buf, want, &got);
-        ml_channels_split(&ch, buf, got, re, im);
-        ml_monitor_push(mon, re, im, got);
-        frames += got;
-        if (st != ML_OK) {
-            ml_screen_close(scr);
-            scr = NULL;
-            rc = ml_cli_error("%s: %s", ls.device_name, ml_source_detail(seg.src));
-            break;
-        }
-        if (got < want) /* Ctrl-C or the end */
-            break;
-        ml_monitor_result r;
-        st = ml_monitor_analyse(mon, &r);
-        const bool have = st == ML_OK;
-        if (st == ML_ENOMEM || st == ML_EFFT) {
-            ml_screen_close(scr);
-            scr = NULL;
-            rc = ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
-            break;
-        }
-        const double dt = (double)got / rate;
-        const ml_modulation_result *m = &r.modulation;
-        ml_peakhold_push(hold_pos, dt, have ? m->positive_peak_pct : NAN);
-        ml_peakhold_push(hold_neg, dt, have ? m->negative_peak_pct : NAN);
-        if (have && mc.kind != ML_MONITOR_AUDIO) {
-            const bool pinch = m->pinch_events + m->reversal_events > 0 || m->negative_peak_pct >= 100.0;
-            const bool high = m->positive_peak_pct > v.latch_limit_pct;
-            if (pinch || high) {
-                v.overmod_updates++;
-                if (!v.overmod) {
-                    v.overmod = true;
-                    v.overmod_at_s = (double)frames / rate;
-                    snprintf(v.overmod_why, sizeof v.overmod_why, "%s",
-                             pinch ? "carrier pinch-off" : "positive peak over the limit");
-                }
-            }
-        }
-        ml_source_live_stats(seg.src, &ls);
-        if (!v.frozen) {
-            v.elapsed_s = (double)frames / rate;
-            v.overflows = ls.overflow_events - base_over;
-            v.lost_frames = ls.lost_frames - base_lost;
-            v.have = have;
-            if (have)
-                v.res = r;
-            v.pos_hold_pct = ml_peakhold_get_value(hold_pos);
-            v.neg_hold_pct = ml_peakhold_get_value(hold_neg);
-            v.ncols = 0;
-            if (v.spectrum && scr) {
-                size_t nc = ml_screen_columns(scr);
-                if (ml_monitor_get_columns(mon, v.col_db, nc, &v.col_lo_hz, &v.col_hi_hz) == ML_OK)
-                    v.ncols = nc;
-            }
-        }
-        if (scr == NULL) {
-            if (!v.frozen)
-                plain_line(stdout, &v);
-            continue;
-        }
-        for (int key; (key = ml_screen_key(scr)) != -1;) {
-            if (key == 'q' || key == 'Q') {
-                quit = true;
-            } else if (key == 'r' || key == 'R') {
-                ml_peakhold_reset(hold_pos);
-                ml_peakhold_reset(hold_neg);
-                ml_monitor_set_reference(mon, ref_c); /* forgets a latched C */
-                v.pos_hold_pct = v.neg_hold_pct = NAN;
-                v.overmod = false;
-                v.overmod_updates = 0;
-                base_over = ls.overflow_events;
-                base_lost = ls.lost_frames;
-                v.overflows = v.lost_frames = 0;
-            } else if (key == ' ') {
-                v.frozen = !v.frozen;
-            } else if (key == 's' || key == 'S' || key == '\t') {
-                v.spectrum = !v.spectrum;
-                v.ncols = 0;
-                size_t nc = ml_screen_columns(scr);
-                if (v.spectrum && ml_monitor_get_columns(mon, v.col_db, nc, &v.col_lo_hz, &v.col_hi_hz) == ML_OK)
-                    v.ncols = nc;
-            }
-        }
-        ml_screen_draw(scr, &v);
+/* The sliding-window analysis, the peak holds, the buffers and the display's state. */
+static int make_meter(watcher *w)
+{
+    const ml_measure_opts *o = &w->o;
+    ml_monitor_config mc = ml_monitor_config_default(
+        w->rate, w->kind == ML_KIND_IQ ? ML_MONITOR_IQ : w->kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
+    mc.window_s = w->window_s;
+    mc.window = o->an.window;
+    mc.audio = o->an.audio;
+    mc.carrier_hz = o->an.carrier_hz;
+    mc.bandwidth_hz = o->an.bandwidth_hz;
+    mc.peak_hold_s = o->an.peak_hold_ms / 1000.0;
+    ml_watch_view *v = w->v;
+    v->pos_limit_pct = profile_max(o->out.limits, "modulation.positive_peak_pct");
+    v->neg_limit_pct = profile_max(o->out.limits, "modulation.negative_peak_pct");
+    v->latch_limit_pct = isfinite(v->pos_limit_pct) ? v->pos_limit_pct : mc.positive_limit_pct;
+    mc.positive_limit_pct = v->latch_limit_pct;
+    const ml_peakhold_config hc = {.hold_s = ML_WATCH_HOLD_S, .decay_per_s = ML_WATCH_DECAY_PCT_S};
+    w->upd = (size_t)llround(UPDATE_S * w->rate);
+    w->buf = malloc(w->upd * w->ch.stride * sizeof *w->buf);
+    w->re = malloc(w->upd * sizeof *w->re);
+    w->im = malloc(w->upd * sizeof *w->im);
+    if (w->buf == NULL || w->re == NULL || w->im == NULL)
+        return ml_cli_error("out of memory");
+    ml_status st;
+    if ((st = ml_monitor_create(&mc, &w->mon)) != ML_OK || (st = ml_peakhold_create(&hc, &w->hold_pos)) != ML_OK
+        || (st = ml_peakhold_create(&hc, &w->hold_neg)) != ML_OK)
+        return ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
+                            st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
+    ml_monitor_set_reference(w->mon, w->ref_c);
+    ml_source_live_stats(w->seg.src, &w->ls);
+    v->kind = mc.kind;
+    v->kind_name = w->kind == ML_KIND_IQ ? "iq" : w->kind == ML_KIND_IF ? "if" : "audio";
+    snprintf(v->device, sizeof v->device, "%s", w->ls.device_name);
+    v->rate_hz = w->rate;
+    v->window_s = (double)ml_monitor_window_frames(w->mon) / w->rate;
+    v->pos_hold_pct = v->neg_hold_pct = NAN;
+    v->nominal_hz = o->an.carrier_hz;
+    return 0;
+}
+
+/* The latched overmodulation warning: a pinch-off or reversal, a negative peak of 100 %, or a
+ * positive peak over the limit in the window. */
+static void overmodulation(watcher *w, const ml_modulation_result *m)
+{
+    ml_watch_view *v = w->v;
+    const bool pinch = m->pinch_events + m->reversal_events > 0 || m->negative_peak_pct >= 100.0;
+    const bool high = m->positive_peak_pct > v->latch_limit_pct;
+    if (!pinch && !high)
+        return;
+    v->overmod_updates++;
+    if (!v->overmod) {
+        v->overmod = true;
+        v->overmod_at_s = (double)w->frames / w->rate;
+        snprintf(v->overmod_why, sizeof v->overmod_why, "%s", pinch ? "carrier pinch-off" : "positive peak over the limit");
     }
-    ml_screen_close(scr);
-    ml_source_stop(seg.src);
-    sigaction(SIGINT, &old_int, NULL);
-    sigaction(SIGTERM, &old_term, NULL);
-    sigaction(SIGHUP, &old_hup, NULL);
+}
+
+/* The display's state after an update (not while frozen). */
+static void show(watcher *w, const ml_monitor_result *r, bool have)
+{
+    ml_watch_view *v = w->v;
+    if (v->frozen)
+        return;
+    v->elapsed_s = (double)w->frames / w->rate;
+    v->overflows = w->ls.overflow_events - w->base_over;
+    v->lost_frames = w->ls.lost_frames - w->base_lost;
+    v->have = have;
+    if (have)
+        v->res = *r;
+    v->pos_hold_pct = ml_peakhold_get_value(w->hold_pos);
+    v->neg_hold_pct = ml_peakhold_get_value(w->hold_neg);
+    v->ncols = 0;
+    if (v->spectrum && w->scr) {
+        size_t nc = ml_screen_columns(w->scr);
+        if (ml_monitor_get_columns(w->mon, v->col_db, nc, &v->col_lo_hz, &v->col_hi_hz) == ML_OK)
+            v->ncols = nc;
+    }
+}
+
+/* The keys pressed since the last update; true when q quits. */
+static bool keys(watcher *w)
+{
+    ml_watch_view *v = w->v;
+    bool quit = false;
+    for (int key; (key = ml_screen_key(w->scr)) != -1;) {
+        if (key == 'q' || key == 'Q') {
+            quit = true;
+        } else if (key == 'r' || key == 'R') {
+            ml_peakhold_reset(w->hold_pos);
+            ml_peakhold_reset(w->hold_neg);
+            ml_monitor_set_reference(w->mon, w->ref_c); /* forgets a latched C */
+            v->pos_hold_pct = v->neg_hold_pct = NAN;
+            v->overmod = false;
+            v->overmod_updates = 0;
+            w->base_over = w->ls.overflow_events;
+            w->base_lost = w->ls.lost_frames;
+            v->overflows = v->lost_frames = 0;
+        } else if (key == ' ') {
+            v->frozen = !v->frozen;
+        } else if (key == 's' || key == 'S' || key == '\t') {
+            v->spectrum = !v->spectrum;
+            v->ncols = 0;
+            size_t nc = ml_screen_columns(w->scr);
+            if (v->spectrum && ml_monitor_get_columns(w->mon, v->col_db, nc, &v->col_lo_hz, &v->col_hi_hz) == ML_OK)
+                v->ncols = nc;
+        }
+    }
+    return quit;
+}
+
+#define STOP (-1) /* update's "the end, Ctrl-C or q" */
+
+/* One update: a tenth of a second in, the window analysed, holds and warning, the display. 0 to
+ * go on, STOP, or an exit status (error printed). */
+static int update(watcher *w, uint64_t stop_at)
+{
+    size_t want = w->upd, got = 0;
+    if (stop_at - w->frames < want)
+        want = (size_t)(stop_at - w->frames);
+    ml_status st = ml_source_read(w->seg.src, w->buf, want, &got);
+    ml_channels_split(&w->ch, w->buf, got, w->re, w->im);
+    ml_monitor_push(w->mon, w->re, w->im, got);
+    w->frames += got;
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", w->ls.device_name, ml_source_detail(w->seg.src));
+    if (got < want) /* Ctrl-C or the end */
+        return STOP;
+    ml_monitor_result r;
+    st = ml_monitor_analyse(w->mon, &r);
+    if (st == ML_ENOMEM || st == ML_EFFT)
+        return ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
+    const bool have = st == ML_OK;
+    const double dt = (double)got / w->rate;
+    ml_peakhold_push(w->hold_pos, dt, have ? r.modulation.positive_peak_pct : NAN);
+    ml_peakhold_push(w->hold_neg, dt, have ? r.modulation.negative_peak_pct : NAN);
+    if (have && w->kind != ML_KIND_AUDIO)
+        overmodulation(w, &r.modulation);
+    ml_source_live_stats(w->seg.src, &w->ls);
+    show(w, &r, have);
+    if (w->scr == NULL) {
+        if (!w->v->frozen)
+            plain_line(stdout, w->v);
+        return 0;
+    }
+    const bool quit = keys(w);
+    ml_screen_draw(w->scr, w->v);
+    return quit ? STOP : 0;
+}
+
+int ml_cmd_watch(int argc, char **argv)
+{
+    static watcher w;
+    static ml_watch_view view;
+    memset(&w, 0, sizeof w);
+    memset(&view, 0, sizeof view);
+    w.v = &view;
+    w.ch.stride = 1;
+    int rc = parse(argc, argv, &w);
+    if (rc != 0)
+        return rc < 0 ? ML_EXIT_OK : rc;
+    static ml_limits limits;
+    if ((rc = ml_measure_prepare(&w.o, &limits)) != 0)
+        return rc;
+    rc = open_input(&w);
+    if (rc == 0)
+        rc = make_meter(&w);
+    if (rc == 0 && !want_plain(w.plain) && (w.scr = ml_screen_open()) == NULL)
+        w.plain = true;
+    const uint64_t stop_at = w.seconds_given ? (uint64_t)llround(w.o.in.seconds * w.rate) : UINT64_MAX;
+    while (rc == 0 && w.frames < stop_at) {
+        rc = update(&w, stop_at);
+        if (rc != 0 && w.scr) { /* an error line must not vanish with the screen */
+            ml_screen_close(w.scr);
+            w.scr = NULL;
+        }
+    }
+    if (rc == STOP)
+        rc = 0;
+    ml_screen_close(w.scr);
+    if (w.seg.src) {
+        ml_source_stop(w.seg.src);
+        sigaction(SIGINT, &w.old_int, NULL);
+        sigaction(SIGTERM, &w.old_term, NULL);
+        sigaction(SIGHUP, &w.old_hup, NULL);
+    }
     g_src = NULL;
-    ml_source_close(seg.src);
-    ml_monitor_destroy(mon);
-    ml_peakhold_destroy(hold_pos);
-    ml_peakhold_destroy(hold_neg);
-    free(buf);
-    free(re);
-    free(im);
+    ml_source_close(w.seg.src);
+    ml_monitor_destroy(w.mon);
+    ml_peakhold_destroy(w.hold_pos);
+    ml_peakhold_destroy(w.hold_neg);
+    free(w.buf);
+    free(w.re);
+    free(w.im);
     return rc;
 }
