@@ -20,6 +20,7 @@
 #include "analyzer/measure.h"
 #include "analyzer/output.h"
 #include "analyzer/plots.h"
+#include "dsp/channels.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
 
@@ -172,12 +173,17 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
                       int64_t *latency)
 {
     const double rate = seg->info->rate_hz;
-    const size_t nch = (size_t)seg->info->channels, c = (size_t)(o->in.channel - 1);
     const int64_t noise_n = (int64_t)(NOISE_S * rate), limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
     const int64_t period = (int64_t)ceil(rate / o->in.play_hz);
-    float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
-    if (buf == NULL)
+    ml_channels ch; /* the analysed channel, where the tone comes back */
+    if (ml_channels_map(seg->info->channels, o->in.channel, false, false, 0, &ch) != ML_OK)
+        return ml_cli_error("--channel %ld is not in the capture", o->in.channel);
+    float *buf = malloc(ML_BLOCK_FRAMES * ch.stride * sizeof *buf), *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    if (buf == NULL || mono == NULL) {
+        free(buf);
+        free(mono);
         return ml_cli_error("out of memory");
+    }
     double noise = 0, thr = 0, amp = 0;
     int64_t pos = 0, j = -1;
     int rc = 0;
@@ -188,8 +194,10 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         rc = ml_input_read(o->in.path, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
         if (rc == 0 && got < ML_BLOCK_FRAMES)
             rc = whole.failed ? ML_EXIT_USAGE : ml_cli_error("live: the capture ended while waiting for the tone");
+        if (rc == 0)
+            ml_channels_split(&ch, buf, got, mono, NULL);
         for (size_t i = 0; rc == 0 && i < got; i++, pos++) {
-            const double x = fabs(buf[i * nch + c]);
+            const double x = fabs(mono[i]);
             if (pos < noise_n) {
                 noise = fmax(noise, x);
                 continue;
@@ -203,6 +211,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         }
     }
     free(buf);
+    free(mono);
     if (rc != 0)
         return rc;
     if (j < 0)

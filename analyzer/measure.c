@@ -124,8 +124,29 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
 
 void ml_measure_add(ml_report *r, const char *name, double value)
 {
-    const ml_metric_def *d = ml_registry_lookup(name, NULL);
-    ml_report_add(r, name, d ? d->unit : "", d ? d->decimals : 3, value);
+    ml_values_report(r, &(ml_value){name, value}, 1);
+}
+
+/* The table of harmonics (order, frequency, dBc) or of hum components (frequency, dBFS, dBc). */
+static void component_table(ml_report *r, bool hum, const ml_component *c, size_t n, double p1)
+{
+    static const char *const cols[2][3] = {{"order", "frequency_hz", "level_dbc"},
+                                           {"frequency_hz", "level_dbfs", "level_dbc"}};
+    static const int decimals[2][3] = {{0, 2, 2}, {1, 2, 2}};
+    ml_table *t = &r->tables[r->ntables++];
+    snprintf(t->path, sizeof t->path, "%s", hum ? "hum.components" : "audio.harmonics");
+    snprintf(t->title, sizeof t->title, "%s", hum ? "hum components" : "harmonics");
+    t->ncols = 3;
+    for (int k = 0; k < 3; k++) {
+        t->cols[k] = cols[hum][k];
+        t->decimals[k] = decimals[hum][k];
+    }
+    for (size_t i = 0; i < n && i < ML_REPORT_MAX_ROWS; i++) {
+        t->cell[i][0] = hum ? c[i].frequency_hz : c[i].order;
+        t->cell[i][1] = hum ? ml_power_dbfs(c[i].power) : c[i].frequency_hz;
+        t->cell[i][2] = ml_ratio_db(c[i].power, p1);
+        t->nrows++;
+    }
 }
 
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok)
@@ -134,41 +155,10 @@ void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok)
     ml_value v[ML_VALUES_MAX];
     ml_figures_audio(a, ok, &f);
     ml_values_report(r, v, ml_values_audio(&f, v));
-    const double p1 = a->fundamental_power;
     if (!ok)
         return;
-    ml_table *t = &r->tables[r->ntables++];
-    snprintf(t->path, sizeof t->path, "audio.harmonics");
-    snprintf(t->title, sizeof t->title, "harmonics");
-    t->ncols = 3;
-    t->cols[0] = "order";
-    t->cols[1] = "frequency_hz";
-    t->cols[2] = "level_dbc";
-    t->decimals[0] = 0;
-    t->decimals[1] = 2;
-    t->decimals[2] = 2;
-    for (size_t i = 0; i < a->nharmonics && i < ML_REPORT_MAX_ROWS; i++) {
-        t->cell[i][0] = a->harmonics[i].order;
-        t->cell[i][1] = a->harmonics[i].frequency_hz;
-        t->cell[i][2] = ml_ratio_db(a->harmonics[i].power, p1);
-        t->nrows++;
-    }
-    t = &r->tables[r->ntables++];
-    snprintf(t->path, sizeof t->path, "hum.components");
-    snprintf(t->title, sizeof t->title, "hum components");
-    t->ncols = 3;
-    t->cols[0] = "frequency_hz";
-    t->cols[1] = "level_dbfs";
-    t->cols[2] = "level_dbc";
-    t->decimals[0] = 1;
-    t->decimals[1] = 2;
-    t->decimals[2] = 2;
-    for (size_t i = 0; i < a->nhum && i < ML_REPORT_MAX_ROWS; i++) {
-        t->cell[i][0] = a->hum[i].frequency_hz;
-        t->cell[i][1] = ml_power_dbfs(a->hum[i].power);
-        t->cell[i][2] = ml_ratio_db(a->hum[i].power, p1);
-        t->nrows++;
-    }
+    component_table(r, false, a->harmonics, a->nharmonics, a->fundamental_power);
+    component_table(r, true, a->hum, a->nhum, a->fundamental_power);
 }
 
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
