@@ -26,6 +26,7 @@
 #include "analyzer/log_internal.h"
 #include "io/logplot.h"
 
+#define MAX_LEVEL 1e30f    /* largest sample magnitude logged as it is                               */
 #define DEVICE_LOOK_S 1.0 /* opening capture looked at by --kind auto and for the carrier (live) */
 
 static volatile sig_atomic_t g_stop = 0;
@@ -439,9 +440,12 @@ static int stream(ml_logger *L, const char **why, char *reason, size_t rlen)
             break;
         }
         for (size_t i = 0; i < got * L->ch.stride; i++)
-            if (!isfinite(L->buf[i])) {
-                L->buf[i] = 0.0f; /* a non-finite sample would poison every sum: logged as silence */
-                snprintf(L->note, sizeof L->note, "non-finite samples set to 0");
+            if (!(fabsf(L->buf[i]) <= MAX_LEVEL)) {
+                /* a non-finite sample would poison every sum, and the modulation analysis computes
+                 * in single precision as measure's does (it refuses samples beyond +-1e30, 600 dB
+                 * above full scale): logged as silence */
+                L->buf[i] = 0.0f;
+                snprintf(L->note, sizeof L->note, "non-finite or out-of-range samples set to 0");
             }
         if ((rc = ml_log_advance(L, L->buf, got)) != 0 || got < want)
             break; /* an error, or the end of the input */

@@ -138,6 +138,7 @@ static void make_modulation(ml_logger *L)
     mc.audio = o->an.audio;
     mc.resolution = ML_RESOLUTION_WINDOW;
     mc.latch = true; /* C from an unmodulated stretch the log hears, until a later one */
+    mc.single_precision = true; /* as measure; the run sets samples beyond +-1e30 to 0 (log.c) */
     mc.max_batch_frames = ML_LOG_BLOCK;
     if (ml_modulation_create(&mc, &L->mod) != ML_OK) {
         L->mod_failed = true;
