@@ -41,8 +41,8 @@ static int prepare(audio_pass *p)
     if (a->band_hi_hz > rate / 2)
         a->band_hi_hz = rate / 2;
     if (a->band_lo_hz >= a->band_hi_hz)
-        return ml_cli_error("%s: --band starts at %.1f Hz, at or above the Nyquist frequency %.1f Hz", o->in.path,
-                            a->band_lo_hz, rate / 2);
+        return ml_cli_error("%s: --band starts at %.1f Hz, at or above the Nyquist frequency %.1f Hz",
+                            o->in.path, a->band_lo_hz, rate / 2);
     if (a->tone_hz > 0 && (a->tone_hz < a->band_lo_hz || a->tone_hz > a->band_hi_hz))
         return ml_cli_error("--tone %.3f Hz lies outside the band %.1f..%.1f Hz", a->tone_hz, a->band_lo_hz,
                             a->band_hi_hz);
@@ -75,7 +75,8 @@ static int stream(audio_pass *p)
     bool shown = false;
     int rc = 0;
     while (done < seg->nframes && rc == 0) {
-        const size_t want = seg->nframes - done < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done) : ML_BLOCK_FRAMES;
+        const size_t want =
+            seg->nframes - done < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done) : ML_BLOCK_FRAMES;
         size_t got = 0;
         if ((rc = ml_input_read(p->o->in.path, seg, p->buf, want, &got, done)) != 0)
             break;
@@ -99,13 +100,15 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     ml_audio_result ar;
     ml_status st = ml_audio_analyze(p->spec, a, &ar);
     const ml_stats *s = &p->stats;
-    const char *residue = st == ML_OK ? ml_figures_no_signal(&ar, s->count ? s->sumsq / (double)s->count : 0) : NULL;
+    const char *residue =
+        st == ML_OK ? ml_figures_no_signal(&ar, s->count ? s->sumsq / (double)s->count : 0) : NULL;
     if (residue != NULL)
         st = ML_ENOSIGNAL;
     const bool ok = st == ML_OK;
     snprintf(rep->analysis, sizeof rep->analysis,
-             "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz", ml_window_name(o->an.window),
-             p->sc.nfft, rate / (double)p->sc.nfft, ml_spectrum_segments(p->spec), a->band_lo_hz, a->band_hi_hz);
+             "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz",
+             ml_window_name(o->an.window), p->sc.nfft, rate / (double)p->sc.nfft,
+             ml_spectrum_segments(p->spec), a->band_lo_hz, a->band_hi_hz);
     if (!ok && s->sumsq == 0)
         ml_report_note(rep, "input is silent: every analysed sample is zero");
     else if (!ok && st == ML_ENOSIGNAL)
@@ -121,7 +124,8 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     ml_figures_level(s, 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "audio", v));
     if (s->clipped > 0)
-        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale", (unsigned long long)s->clipped);
+        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
+                       (unsigned long long)s->clipped);
     if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
     ml_uncertainty_report(p->blocks, rep);

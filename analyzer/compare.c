@@ -207,7 +207,8 @@ static void fill_limit(ml_compare_row *row, const ml_report *a, const ml_report 
             row->has_limit = true;
             row->a_pass = c->pass;
             if (c->has_min && c->has_max)
-                snprintf(row->limit, sizeof row->limit, "%.*f..%.*f", c->decimals, c->min, c->decimals, c->max);
+                snprintf(row->limit, sizeof row->limit, "%.*f..%.*f", c->decimals, c->min, c->decimals,
+                         c->max);
             else if (c->has_min)
                 snprintf(row->limit, sizeof row->limit, ">= %.*f", c->decimals, c->min);
             else
@@ -304,15 +305,21 @@ int ml_cmd_compare(int argc, char **argv)
     for (size_t i = 0; i < rb.nmetrics; i++)
         add_row(&cmp, &o, rb.metrics[i].name, tol, ntol);
     if (strcmp(ra.kind, rb.kind) != 0)
-        note(&cmp, "A was measured as %s and B as %s: only the metrics both have are compared", ra.kind, rb.kind);
+        note(&cmp, "A was measured as %s and B as %s: only the metrics both have are compared", ra.kind,
+             rb.kind);
     if (ra.u_blocks < 3)
-        note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
-             "A", "");
+        note(
+            &cmp,
+            "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
+            "A", "");
     if (rb.u_blocks < 3)
-        note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
-             "B", "");
+        note(
+            &cmp,
+            "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
+            "B", "");
     if ((o.out.plot_path || o.out.report_path) && (!ma || !mb))
-        note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
+        note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "",
+             !mb ? (!ma ? " and B" : "B") : "");
     rc = ml_finish(&(ml_finish_job){.out = &o.out, .comparison = &cmp, .plot = ma ? &pa : NULL,
                                     .plot_b = mb ? &pb : NULL, .cmdline = cmdline});
 done:

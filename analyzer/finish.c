@@ -66,15 +66,17 @@ int ml_finish(const ml_finish_job *j)
     const ml_output_opts *out = j->out;
     if (j->report && out->limits)
         ml_limits_apply(out->limits, j->report);
-    int rc = j->report ? ml_plots_write_measure(out->plot_path, out->report_path, j->report, j->plot, j->cmdline)
-                       : ml_plots_write_compare(out->plot_path, out->report_path, j->comparison, j->plot,
-                                                j->plot_b, j->cmdline);
+    int rc = j->report
+                 ? ml_plots_write_measure(out->plot_path, out->report_path, j->report, j->plot, j->cmdline)
+                 : ml_plots_write_compare(out->plot_path, out->report_path, j->comparison, j->plot, j->plot_b,
+                                          j->cmdline);
     if (rc == 0)
         rc = write_text(j);
     if (rc != 0)
         return rc;
     if (j->input_failed)
         return ML_EXIT_USAGE;
-    const bool failed = j->report ? strcmp(ml_report_verdict(j->report), "fail") == 0 : j->comparison->nworse > 0;
+    const bool failed =
+        j->report ? strcmp(ml_report_verdict(j->report), "fail") == 0 : j->comparison->nworse > 0;
     return failed ? ML_EXIT_FAIL : ML_EXIT_OK;
 }

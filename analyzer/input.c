@@ -37,20 +37,23 @@ int ml_input_open_file(const ml_input_opts *in, ml_segment *seg)
     if (info->frames == 0)
         return ml_cli_error("%s: the file holds no audio frames", in->path);
     if (info->channels > ML_MAX_CHANNELS)
-        return ml_cli_error("%s: %d channels; at most %d are supported", in->path, info->channels, ML_MAX_CHANNELS);
+        return ml_cli_error("%s: %d channels; at most %d are supported", in->path, info->channels,
+                            ML_MAX_CHANNELS);
     if (in->channel > info->channels)
-        return ml_cli_error("%s: --channel %ld but the file has %d channel%s", in->path, in->channel, info->channels,
-                            plural(info->channels));
+        return ml_cli_error("%s: --channel %ld but the file has %d channel%s", in->path, in->channel,
+                            info->channels, plural(info->channels));
     if (in->reference_channel > info->channels)
         return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", in->path,
                             in->reference_channel, info->channels, plural(info->channels));
     seg->first = (int64_t)llround(in->start_s * rate);
     seg->nframes = in->duration_s < 0 ? info->frames - seg->first : (int64_t)llround(in->duration_s * rate);
     if (seg->first >= info->frames || seg->first + seg->nframes > info->frames)
-        return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", in->path,
-                            in->start_s, in->duration_s < 0 ? 0.0 : in->duration_s, (double)info->frames / rate);
+        return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)",
+                            in->path, in->start_s, in->duration_s < 0 ? 0.0 : in->duration_s,
+                            (double)info->frames / rate);
     if (seg->first > 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        return ml_cli_error("%s: cannot seek to %.3f s: %s", in->path, in->start_s, ml_source_detail(seg->src));
+        return ml_cli_error("%s: cannot seek to %.3f s: %s", in->path, in->start_s,
+                            ml_source_detail(seg->src));
     return 0;
 }
 
@@ -101,19 +104,21 @@ int ml_input_read(const char *name, ml_segment *seg, float *buf, size_t want, si
                             (long long)(done + (int64_t)*got), (long long)seg->nframes);
     const size_t nch = (size_t)seg->info->channels, n = *got * nch, i = ml_first_nonfinite(buf, n);
     if (i < n)
-        return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)", name,
-                            (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
+        return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)",
+                            name, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
     return 0;
 }
 
-int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames, ml_spectrum **out)
+int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames,
+                        ml_spectrum **out)
 {
     *out = NULL;
     const double rate = seg->info->rate_hz;
     ml_spectrum_config sc = ml_spectrum_config_default(rate);
     sc.nfft = ml_resolution_nfft(rate, frames, ML_RESOLUTION_SPAN);
     if (sc.nfft == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", name, (long long)frames);
+        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", name,
+                            (long long)frames);
     /* a quarter-second resolution is plenty to find the carrier; keep several segments */
     while (sc.nfft > 4096 && (int64_t)sc.nfft * 4 > frames)
         sc.nfft /= 2;
@@ -173,7 +178,8 @@ static bool symmetric_sidebands(const ml_spectrum *s, double fc, double ac, doub
     const double f_strong = au >= al ? fu : fl, a_strong = fmax(au, al);
     const double a_mirror = ml_rf_amplitude(s, 2 * fc - f_strong);
     *fm = fabs(f_strong - fc);
-    return a_mirror > 0 && a_strong > 0 && fabs(20 * log10(a_mirror / a_strong)) < 3.0 && a_strong > 1e-3 * ac;
+    return a_mirror > 0 && a_strong > 0 && fabs(20 * log10(a_mirror / a_strong)) < 3.0
+           && a_strong > 1e-3 * ac;
 }
 
 /* One channel: an AM IF signal when its strongest component lies above 3 kHz with symmetric
@@ -203,25 +209,29 @@ static int detect_if(const ml_input_opts *in, ml_segment *seg, double look_s, bo
         snprintf(reason, len, "--kind auto: no signal found; treated as audio");
     } else if (car.frequency_hz < IF_MIN_HZ) {
         snprintf(reason, len,
-                 "--kind auto: the strongest component (%.1f Hz) lies in the audio range below 3 kHz: demodulated audio",
+                 "--kind auto: the strongest component (%.1f Hz) lies in the audio range below 3 kHz: "
+                 "demodulated audio",
                  car.frequency_hz);
     } else if (symmetric_sidebands(s, car.frequency_hz, car.amplitude, &fm)) {
         *is_if = true;
         *carrier_hz = car.frequency_hz;
         snprintf(reason, len,
-                 "--kind auto: one channel whose strongest component (%.1f Hz) has symmetric sidebands (+-%.1f Hz): "
+                 "--kind auto: one channel whose strongest component (%.1f Hz) has symmetric sidebands "
+                 "(+-%.1f Hz): "
                  "an AM IF signal",
                  car.frequency_hz, fm);
     } else {
-        snprintf(reason, len, "--kind auto: the strongest component (%.1f Hz) has no symmetric sidebands: demodulated audio",
-                 car.frequency_hz);
+        snprintf(
+            reason, len,
+            "--kind auto: the strongest component (%.1f Hz) has no symmetric sidebands: demodulated audio",
+            car.frequency_hz);
     }
     ml_spectrum_destroy(s);
     return 0;
 }
 
-int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s, ml_kind *kind,
-                  double *carrier_hz, char *reason, size_t len)
+int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
+                  ml_kind *kind, double *carrier_hz, char *reason, size_t len)
 {
     static const char *const given[] = {"", "--kind audio", "--kind if", "--kind iq"};
     *kind = in->kind;
@@ -235,8 +245,8 @@ int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segmen
                       - (in->reference_channel >= in->channel ? 1 : 0);
     if (from >= 2) {
         *kind = ML_KIND_IQ;
-        snprintf(reason, len, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)", in->channel,
-                 in->channel + 1);
+        snprintf(reason, len, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
+                 in->channel, in->channel + 1);
         return 0;
     }
     bool is_if = false;
@@ -253,19 +263,21 @@ int ml_input_channels(const ml_input_opts *in, const ml_segment *seg, ml_kind ki
     const bool iq = kind == ML_KIND_IQ;
     const int nch = seg->info->channels;
     if (iq && in->channel + 1 > nch)
-        return ml_cli_error("%s: --kind iq needs two channels (I and Q) from channel %ld; the %s has %d", in->path,
-                            in->channel, seg->live ? "capture" : "file", nch);
-    if (in->reference_channel > 0 && (in->reference_channel == in->channel || (iq && in->reference_channel == in->channel + 1)))
+        return ml_cli_error("%s: --kind iq needs two channels (I and Q) from channel %ld; the %s has %d",
+                            in->path, in->channel, seg->live ? "capture" : "file", nch);
+    if (in->reference_channel > 0
+        && (in->reference_channel == in->channel || (iq && in->reference_channel == in->channel + 1)))
         return ml_cli_error("--reference-channel %ld is one of the measured channels", in->reference_channel);
-    if (ml_channels_map(nch, in->channel, iq, in->swap_iq, kind == ML_KIND_AUDIO ? 0 : in->reference_channel, out)
+    if (ml_channels_map(nch, in->channel, iq, in->swap_iq, kind == ML_KIND_AUDIO ? 0 : in->reference_channel,
+                        out)
         != ML_OK)
-        return ml_cli_error("%s: --channel %ld is not in the input (%d channel%s)", in->path, in->channel, nch,
-                            plural(nch));
+        return ml_cli_error("%s: --channel %ld is not in the input (%d channel%s)", in->path, in->channel,
+                            nch, plural(nch));
     return 0;
 }
 
-int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *ch, double nominal_hz, double look_s,
-                          ml_carrier *car)
+int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *ch, double nominal_hz,
+                          double look_s, ml_carrier *car)
 {
     const double rate = seg->info->rate_hz;
     int64_t pre = (int64_t)(look_s * rate);
@@ -279,16 +291,18 @@ int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *
     ml_status st = ml_carrier_find(look, &cc, car);
     ml_spectrum_destroy(look);
     if (st != ML_OK && car->strongest_amplitude > 0 && !isnan(nominal_hz))
-        return ml_cli_error("%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component lies at "
-                            "%.1f Hz)",
-                            name, car->range_hz, nominal_hz, car->strongest_hz);
+        return ml_cli_error(
+            "%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component lies at "
+            "%.1f Hz)",
+            name, car->range_hz, nominal_hz, car->strongest_hz);
     if (st != ML_OK)
-        return ml_cli_error("%s: no carrier found%s", name, st == ML_ENOSIGNAL ? " (the input is silent)" : "");
+        return ml_cli_error("%s: no carrier found%s", name,
+                            st == ML_ENOSIGNAL ? " (the input is silent)" : "");
     return 0;
 }
 
-int ml_input_reference_carrier(const char *path, const ml_input_opts *in, bool iq, double rate_hz, double near_hz,
-                               double *c)
+int ml_input_reference_carrier(const char *path, const ml_input_opts *in, bool iq, double rate_hz,
+                               double near_hz, double *c)
 {
     ml_input_opts ri = *in;
     ri.path = path;
@@ -318,8 +332,9 @@ int ml_input_reference_carrier(const char *path, const ml_input_opts *in, bool i
         cc.lo_hz = -rate_hz / 2;
         ml_carrier car;
         if (ml_carrier_find(s, &cc, &car) != ML_OK || !(car.amplitude > 0))
-            rc = isnan(near_hz) ? ml_cli_error("%s: no carrier in the carrier reference", path)
-                                : ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", path, near_hz);
+            rc = isnan(near_hz)
+                     ? ml_cli_error("%s: no carrier in the carrier reference", path)
+                     : ml_cli_error("%s: no carrier near %.1f Hz in the carrier reference", path, near_hz);
         else
             *c = car.amplitude;
     }

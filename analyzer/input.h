@@ -42,7 +42,8 @@ int ml_input_open_file(const ml_input_opts *in, ml_segment *seg);
 long ml_input_device_channels(const ml_input_opts *in);
 
 /* Opens the device of in as a live source with lc (device, channels and --rate set from in;
- * the caller sets the rest of lc, a rate too when --rate is not given). seg->nframes is left to the caller. 0 or an exit status. */
+ * the caller sets the rest of lc, a rate too when --rate is not given). seg->nframes is left to
+ * the caller. 0 or an exit status. */
 int ml_input_open_device(const ml_input_opts *in, ml_live_config *lc, ml_segment *seg);
 
 /* Reads up to want frames at frame `done` of the segment; 0 or an exit status (error printed,
@@ -55,8 +56,8 @@ int ml_input_read(const char *name, ml_segment *seg, float *buf, size_t want, si
  * nframes) show one carrier above
  * 3 kHz with symmetric sidebands, else audio) and why, in reason[len]; *carrier_hz gets the IF
  * carrier found (else an->carrier_hz). The source is left at the segment's start. */
-int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s, ml_kind *kind,
-                  double *carrier_hz, char *reason, size_t len);
+int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
+                  ml_kind *kind, double *carrier_hz, char *reason, size_t len);
 
 /* The channel map of the segment for the kind: 0 or an exit status (error printed). */
 int ml_input_channels(const ml_input_opts *in, const ml_segment *seg, ml_kind kind, ml_channels *out);
@@ -64,17 +65,19 @@ int ml_input_channels(const ml_input_opts *in, const ml_segment *seg, ml_kind ki
 /* The spectrum (for the carrier search: at most 4096 points when frames allow four segments) of
  * the first `frames` frames of the segment (the analysed column, or I/Q), then seeks back to
  * its start; *out is the caller's to destroy. 0 or an exit status. */
-int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames, ml_spectrum **out);
+int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames,
+                        ml_spectrum **out);
 
-/* The carrier in the opening look_s seconds of the segment (at most its nframes) (dsp/carrier.h: near nominal_hz, or
- * the strongest when NAN); the source is left at the segment's start. 0 or an exit status. */
-int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *ch, double nominal_hz, double look_s,
-                          ml_carrier *car);
+/* The carrier in the opening look_s seconds of the segment (at most its nframes), by
+ * dsp/carrier.h: near nominal_hz, or the strongest when NAN; the source is left at the segment's
+ * start. 0 or an exit status (error printed: no carrier there). */
+int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *ch, double nominal_hz,
+                          double look_s, ml_carrier *car);
 
 /* C from a capture of the unmodulated carrier (--carrier-reference path, same set-up: rate and
  * channels as the analysed input): its carrier line's amplitude near near_hz (within 20 bins and
  * 50 Hz; NAN: the strongest component). 0 or an exit status. */
-int ml_input_reference_carrier(const char *path, const ml_input_opts *in, bool iq, double rate_hz, double near_hz,
-                               double *c);
+int ml_input_reference_carrier(const char *path, const ml_input_opts *in, bool iq, double rate_hz,
+                               double near_hz, double *c);
 
 #endif

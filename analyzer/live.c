@@ -173,12 +173,14 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
                       int64_t *latency)
 {
     const double rate = seg->info->rate_hz;
-    const int64_t noise_n = (int64_t)(NOISE_S * rate), limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
+    const int64_t noise_n = (int64_t)(NOISE_S * rate),
+                  limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
     const int64_t period = (int64_t)ceil(rate / o->in.play_hz);
     ml_channels ch; /* the analysed channel, where the tone comes back */
     if (ml_channels_map(seg->info->channels, o->in.channel, false, false, 0, &ch) != ML_OK)
         return ml_cli_error("--channel %ld is not in the capture", o->in.channel);
-    float *buf = malloc(ML_BLOCK_FRAMES * ch.stride * sizeof *buf), *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    float *buf = malloc(ML_BLOCK_FRAMES * ch.stride * sizeof *buf),
+          *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
     if (buf == NULL || mono == NULL) {
         free(buf);
         free(mono);
@@ -193,7 +195,8 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         whole.nframes = limit;
         rc = ml_input_read(o->in.path, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
         if (rc == 0 && got < ML_BLOCK_FRAMES)
-            rc = whole.failed ? ML_EXIT_USAGE : ml_cli_error("live: the capture ended while waiting for the tone");
+            rc = whole.failed ? ML_EXIT_USAGE
+                              : ml_cli_error("live: the capture ended while waiting for the tone");
         if (rc == 0)
             ml_channels_split(&ch, buf, got, mono, NULL);
         for (size_t i = 0; rc == 0 && i < got; i++, pos++) {
@@ -267,7 +270,8 @@ static int segment(const ml_measure_opts *o, ml_segment *seg, const tone_feed *f
     }
     seg->nframes = o->in.duration_s > 0 ? (int64_t)llround(o->in.duration_s * rate) : total - seg->first;
     if (rc == 0 && seg->nframes <= 0)
-        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return", o->in.seconds);
+        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return",
+                          o->in.seconds);
     if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
         rc = seg->live && !seg->failed ? ml_cli_error("%s: %s", o->in.path, ml_source_detail(seg->src))
                                        : ML_EXIT_USAGE;
@@ -299,9 +303,11 @@ static void describe_capture(ml_report *rep, const ml_measure_opts *o, const ml_
         ml_report_note(rep, "%llu frames were lost (the computer fell behind the sound card)",
                        (unsigned long long)ls.lost_frames);
     if (ls.overflow_events > 0)
-        ml_report_note(rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
+        ml_report_note(rep, "the device reported %llu input overflows",
+                       (unsigned long long)ls.overflow_events);
     if (ls.underflow_frames > 0 && o->in.play)
-        ml_report_note(rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
+        ml_report_note(rep, "the played tone ran dry for %llu frames",
+                       (unsigned long long)ls.underflow_frames);
 }
 
 int ml_cmd_live(int argc, char **argv)
@@ -321,7 +327,8 @@ int ml_cmd_live(int argc, char **argv)
     tone_feed feed = {NULL, 0, 0};
     ml_segment seg;
     memset(&seg, 0, sizeof seg);
-    if ((o.in.play && (rc = play_setup(&o, &lc, &feed)) != 0) || (rc = ml_input_open_device(&o.in, &lc, &seg)) != 0) {
+    if ((o.in.play && (rc = play_setup(&o, &lc, &feed)) != 0)
+        || (rc = ml_input_open_device(&o.in, &lc, &seg)) != 0) {
         ml_synth_destroy(feed.syn);
         return rc;
     }

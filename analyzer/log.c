@@ -76,7 +76,19 @@ static void log_usage(FILE *f)
             ml_cli_safety);
 }
 
-enum { O_START = ML_OPT_ID_OWN, O_OUT, O_EVENTS, O_INTERVAL, O_ROTATE, O_PLOT, O_IMP, O_HUM, O_NOISE, O_LOSS, O_PACE };
+enum {
+    O_START = ML_OPT_ID_OWN,
+    O_OUT,
+    O_EVENTS,
+    O_INTERVAL,
+    O_ROTATE,
+    O_PLOT,
+    O_IMP,
+    O_HUM,
+    O_NOISE,
+    O_LOSS,
+    O_PACE
+};
 
 /* The log's own options; 0 or an exit status. */
 static int own_option(int ch, const char *arg, const char *name, ml_log_opts *o)
@@ -109,7 +121,10 @@ static int own_option(int ch, const char *arg, const char *name, ml_log_opts *o)
     default: /* the detection thresholds */
         if (!ml_cli_number(arg, &v) || v <= 0 || v > 200)
             return ml_cli_error("%s: '%s' is not a level in dB, 0 < DB <= 200", name, arg);
-        *(ch == O_IMP ? &o->impulse_db : ch == O_HUM ? &o->hum_db : ch == O_NOISE ? &o->noise_db : &o->loss_db) = v;
+        *(ch == O_IMP     ? &o->impulse_db
+          : ch == O_HUM   ? &o->hum_db
+          : ch == O_NOISE ? &o->noise_db
+                          : &o->loss_db) = v;
         return 0;
     }
 }
@@ -241,8 +256,8 @@ static int resume(ml_logger *L, const char *last)
 {
     char f[64];
     double off, dur;
-    if (!ml_log_csv_field(last, 1, f, sizeof f) || !ml_cli_number(f, &off) || !ml_log_csv_field(last, 2, f, sizeof f)
-        || !ml_cli_number(f, &dur) || off < 0 || dur < 0)
+    if (!ml_log_csv_field(last, 1, f, sizeof f) || !ml_cli_number(f, &off)
+        || !ml_log_csv_field(last, 2, f, sizeof f) || !ml_cli_number(f, &dur) || off < 0 || dur < 0)
         return ml_cli_error("%s: the last row cannot be read; choose another --out", L->rows_path);
     if (!L->o->in.live) {
         const int64_t at = (int64_t)llround((off + dur) * L->rate);
@@ -315,8 +330,8 @@ static int setup_carrier(ml_logger *L)
     }
     if (o->an.carrier_reference) {
         const double near = isnan(L->carrier_hz) ? o->an.carrier_hz : L->carrier_hz;
-        const int rc = ml_input_reference_carrier(o->an.carrier_reference, &o->in, L->is_complex, L->rate, near,
-                                                  &L->reference_c);
+        const int rc = ml_input_reference_carrier(o->an.carrier_reference, &o->in, L->is_complex, L->rate,
+                                                  near, &L->reference_c);
         if (rc != 0)
             return rc;
     }
@@ -346,11 +361,12 @@ static int setup(ml_logger *L, const ml_log_opts *o, ml_source *src, double star
                             L->info->channels == 1 ? "" : "s");
     if ((L->is_complex || L->is_if) && !isnan(o->an.carrier_hz)
         && !(fabs(o->an.carrier_hz) < L->rate / 2 && (L->is_complex || o->an.carrier_hz > 0)))
-        return ml_cli_error("--carrier %.1f Hz is outside the input's band (rate %.0f Hz)", o->an.carrier_hz, L->rate);
+        return ml_cli_error("--carrier %.1f Hz is outside the input's band (rate %.0f Hz)", o->an.carrier_hz,
+                            L->rate);
     L->ival_frames = (int64_t)llround(o->interval_s * L->rate);
     if (L->ival_frames < 256)
-        return ml_cli_error("%s: --interval %.3f s is only %lld frames at %.0f Hz (at least 256 needed)", name,
-                            o->interval_s, (long long)L->ival_frames, L->rate);
+        return ml_cli_error("%s: --interval %.3f s is only %lld frames at %.0f Hz (at least 256 needed)",
+                            name, o->interval_s, (long long)L->ival_frames, L->rate);
     ml_status st = ml_log_make_objects(L);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", name, ml_strerror(st));
@@ -434,8 +450,8 @@ static int stream(ml_logger *L, const char **why, char *reason, size_t rlen)
         if (lost > 0 && (rc = gap(L, lost)) != 0)
             break;
         if (st != ML_OK) {
-            snprintf(reason, rlen, "input failed: %s%s%s", ml_strerror(st), ml_source_detail(L->src)[0] ? ": " : "",
-                     ml_source_detail(L->src));
+            snprintf(reason, rlen, "input failed: %s%s%s", ml_strerror(st),
+                     ml_source_detail(L->src)[0] ? ": " : "", ml_source_detail(L->src));
             *why = reason;
             break;
         }
@@ -471,8 +487,8 @@ static int conclude(ml_logger *L, int rc, const char *why, const char *reason)
     if (rc == 0 && o->plot) {
         char err[512], title[1200];
         snprintf(title, sizeof title, "%s: level history (this file) and spectrogram (this run)", name);
-        const ml_logplot_spec ps = {L->sgram, L->band_hz, !L->is_complex, ml_spectrum_full_scale_power(L->spec),
-                                    title};
+        const ml_logplot_spec ps = {L->sgram, L->band_hz, !L->is_complex,
+                                    ml_spectrum_full_scale_power(L->spec), title};
         if (ml_logplot_write(o->plot, L->rows_path, L->events_path, &ps, err, sizeof err) != ML_OK)
             rc = ml_cli_error("%s: %s", o->plot, err);
     }

@@ -14,7 +14,8 @@
 #define IMPULSE_MERGE_S 0.5      /* impulses closer than this merge into one event */
 #define IMPULSE_MERGE_MAX_S 10.0 /* longest merged impulse event                  */
 
-const char *const ml_log_kind_name[ML_LOG_KINDS] = {"impulse", "hum", "noise", "carrier-loss", "gap", "input-end"};
+const char *const ml_log_kind_name[ML_LOG_KINDS] = {"impulse",      "hum", "noise",
+                                                    "carrier-loss", "gap", "input-end"};
 
 /* pos of global step g (its start). */
 static int64_t step_pos(const ml_logger *L, int64_t g)
@@ -122,8 +123,8 @@ int ml_log_change_events(ml_logger *L, int which, size_t n)
         char det[120];
         snprintf(det, sizeof det, "%s %.1f dB from baseline %.1f dB", what[which], e->rise_db,
                  e->baseline_db);
-        int rc = ml_log_write_event(L, kind[which], step_pos(L, e->start), step_pos(L, e->end), L->chg_peak[which],
-                             e->rise_db, det);
+        int rc = ml_log_write_event(L, kind[which], step_pos(L, e->start), step_pos(L, e->end),
+                                    L->chg_peak[which], e->rise_db, det);
         if (rc != 0)
             return rc;
     }

@@ -156,7 +156,8 @@ void ml_log_start_modulation(ml_logger *L)
 /* The interval's modulation figures (or NULL when it was not analysed as a whole). */
 static const ml_modulation_result *end_span(ml_logger *L, ml_modulation_result *r)
 {
-    const bool ok = L->mod_span && ml_modulation_finish(L->mod) == ML_OK && ml_modulation_get_result(L->mod, r) == ML_OK;
+    const bool ok =
+        L->mod_span && ml_modulation_finish(L->mod) == ML_OK && ml_modulation_get_result(L->mod, r) == ML_OK;
     if (L->mod)
         ml_modulation_reset(L->mod);
     make_modulation(L);
@@ -173,7 +174,8 @@ static void hum_value(const ml_logger *L, double fl, double *value, double *leve
     for (int j = 0; j < 2; j++) {
         double over, hum;
         if ((L->mains_hz > 0 && cand[j] != L->mains_hz)
-            || ml_noisefloor_hum_over(L->spec, L->psd, L->nbins, cand[j], ML_LOG_HUM_N, fl, &over, &hum) != ML_OK)
+            || ml_noisefloor_hum_over(L->spec, L->psd, L->nbins, cand[j], ML_LOG_HUM_N, fl, &over, &hum)
+                   != ML_OK)
             continue;
         if (isnan(*value) || over > *value) {
             *value = over;

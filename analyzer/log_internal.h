@@ -132,8 +132,8 @@ int ml_log_open_outputs(ml_logger *L, int64_t period, char *last_row, size_t las
 int ml_log_write_row(ml_logger *L, const ml_modulation_result *mres);
 
 /* log_events.c */
-int ml_log_write_event(ml_logger *L, int kind, int64_t start_pos, int64_t end_pos, double peak_dbfs, double rise_db,
-                       const char *detail);
+int ml_log_write_event(ml_logger *L, int kind, int64_t start_pos, int64_t end_pos, double peak_dbfs,
+                       double rise_db, const char *detail);
 int ml_log_flush_impulses(ml_logger *L);
 int ml_log_impulse_events(ml_logger *L, size_t n);
 int ml_log_change_events(ml_logger *L, int which, size_t n);

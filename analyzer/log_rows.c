@@ -222,7 +222,8 @@ static size_t spectral_cells(ml_logger *L, char *b, size_t n)
                         L->mains_hz = mains;
                 }
             }
-            if (mains > 0 && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, mains, ML_LOG_HUM_N, &hr) == ML_OK) {
+            if (mains > 0
+                && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, mains, ML_LOG_HUM_N, &hr) == ML_OK) {
                 hum = ml_power_dbfs(hr.hum_power);
                 for (size_t i = 0; i < hr.nhum; i++)
                     if (hr.hum[i].order >= 1 && hr.hum[i].order <= ML_LOG_HUM_N)
@@ -290,7 +291,8 @@ int ml_log_write_row(ml_logger *L, const ml_modulation_result *mres)
     k += level_cells(L, line + k, sizeof line - k);
     line[k++] = ',';
     k += spectral_cells(L, line + k, sizeof line - k);
-    k += (size_t)snprintf(line + k, sizeof line - k, ",%ld,%.3f,", L->impulses, (double)L->lost_frames / L->rate);
+    k += (size_t)snprintf(line + k, sizeof line - k, ",%ld,%.3f,", L->impulses,
+                          (double)L->lost_frames / L->rate);
     k += modulation_cells(L, mres, line + k, sizeof line - k);
     snprintf(line + k, sizeof line - k, ",%s", L->note);
     if (L->sgram && L->nspectra > 0) {

@@ -27,42 +27,43 @@
 
 static void measure_usage(FILE *f)
 {
-    fprintf(f,
-            "usage: modlens measure [options] FILE\n"
-            "\n"
-            "Analyses a recording (WAV, FLAC, AIFF, ...): distortion and noise of demodulated audio, or\n"
-            "the modulation of an AM signal captured as a downconverted IF or as I/Q.\n"
-            "\n"
-            "input:\n"
-            "  --kind auto|audio|if|iq   what the recording holds (default auto: two channels -> iq;\n"
-            "                            one channel -> if when it looks like an AM carrier, else audio)\n"
-            "  --channel N               channel to analyse, 1-based (default 1; for iq the I channel)\n"
-            "  --swap-iq                 the I/Q channels are Q then I\n"
-            "  --start S                 skip S seconds at the start (default 0)\n"
-            "  --duration S              analyse S seconds (default: to the end)\n"
-            "audio analysis:\n"
-            "  --band LO:HI              measurement band in Hz (default 20:20000, clipped to Nyquist\n"
-            "                            and, for if/iq, to the channel bandwidth)\n"
-            "  --tone HZ                 expected test-tone frequency (default: strongest in band)\n"
-            "  --harmonics N             highest harmonic order in THD, 2..%d (default 10)\n"
-            "  --mains 50|60             mains frequency for hum (default: detected)\n"
-            "  --window NAME             hft248d (default), hft144d, blackman-harris, hann\n"
-            "modulation analysis (if/iq):\n"
-            "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
-            "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
-            "                            widest that fits, at most 10000)\n"
-            "  --carrier-reference FILE  capture of the unmodulated carrier (same set-up) giving C\n"
-            "  --reference-channel N     channel carrying the modulating audio (trapezoid linearity)\n"
-            "  --peak-hold-ms MS         peak readings need MS per second above the level (default 5)\n"
-            "checks and output:\n"
-            "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
-            "  --format text|json|csv    report format (default text)\n"
-            "  --output FILE             write the report to FILE (default standard output)\n"
-            "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
-            "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
-            "\n"
-            "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
-            ML_MAX_HARMONICS, ml_cli_safety);
+    fprintf(
+        f,
+        "usage: modlens measure [options] FILE\n"
+        "\n"
+        "Analyses a recording (WAV, FLAC, AIFF, ...): distortion and noise of demodulated audio, or\n"
+        "the modulation of an AM signal captured as a downconverted IF or as I/Q.\n"
+        "\n"
+        "input:\n"
+        "  --kind auto|audio|if|iq   what the recording holds (default auto: two channels -> iq;\n"
+        "                            one channel -> if when it looks like an AM carrier, else audio)\n"
+        "  --channel N               channel to analyse, 1-based (default 1; for iq the I channel)\n"
+        "  --swap-iq                 the I/Q channels are Q then I\n"
+        "  --start S                 skip S seconds at the start (default 0)\n"
+        "  --duration S              analyse S seconds (default: to the end)\n"
+        "audio analysis:\n"
+        "  --band LO:HI              measurement band in Hz (default 20:20000, clipped to Nyquist\n"
+        "                            and, for if/iq, to the channel bandwidth)\n"
+        "  --tone HZ                 expected test-tone frequency (default: strongest in band)\n"
+        "  --harmonics N             highest harmonic order in THD, 2..%d (default 10)\n"
+        "  --mains 50|60             mains frequency for hum (default: detected)\n"
+        "  --window NAME             hft248d (default), hft144d, blackman-harris, hann\n"
+        "modulation analysis (if/iq):\n"
+        "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
+        "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
+        "                            widest that fits, at most 10000)\n"
+        "  --carrier-reference FILE  capture of the unmodulated carrier (same set-up) giving C\n"
+        "  --reference-channel N     channel carrying the modulating audio (trapezoid linearity)\n"
+        "  --peak-hold-ms MS         peak readings need MS per second above the level (default 5)\n"
+        "checks and output:\n"
+        "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
+        "  --format text|json|csv    report format (default text)\n"
+        "  --output FILE             write the report to FILE (default standard output)\n"
+        "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
+        "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
+        "\n"
+        "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
+        ML_MAX_HARMONICS, ml_cli_safety);
 }
 
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
@@ -104,10 +105,11 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
         if (o->in.output_device && !o->in.play)
             return ml_cli_error("--output-device needs --play-tone");
         if (o->in.duration_s > 0 && o->in.start_s + o->in.duration_s > o->in.seconds)
-            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f", o->in.start_s + o->in.duration_s,
-                                o->in.seconds);
+            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f",
+                                o->in.start_s + o->in.duration_s, o->in.seconds);
         if (o->in.start_s >= o->in.seconds)
-            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->in.start_s, o->in.seconds);
+            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->in.start_s,
+                                o->in.seconds);
         o->in.path = "live";
         return 0;
     }

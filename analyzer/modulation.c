@@ -51,10 +51,11 @@ static int level_error(const ml_measure_opts *o, const ml_segment *seg, const fl
         for (int c = 0; c < (ch->complex_input ? 2 : 1); c++) {
             const float v = raw[i * ch->stride + col[c]];
             if (fabsf(v) > MAX_LEVEL)
-                return ml_cli_error("%s: frame %lld, channel %zu: sample %.3g lies beyond +-%.0e (full scale is 1), "
-                                    "more than the modulation analysis takes",
-                                    o->in.path, (long long)(seg->first + done + (int64_t)i), col[c] + 1, (double)v,
-                                    MAX_LEVEL);
+                return ml_cli_error(
+                    "%s: frame %lld, channel %zu: sample %.3g lies beyond +-%.0e (full scale is 1), "
+                    "more than the modulation analysis takes",
+                    o->in.path, (long long)(seg->first + done + (int64_t)i), col[c] + 1, (double)v,
+                    MAX_LEVEL);
         }
     return ml_cli_error("%s: a sample lies beyond +-%.0e", o->in.path, MAX_LEVEL);
 }
@@ -89,7 +90,8 @@ static int check_input(mod_pass *p, double carrier_hz)
 static double positive_limit(const ml_measure_opts *o, double fallback)
 {
     for (size_t i = 0; o->out.limits && i < o->out.limits->n; i++)
-        if (strcmp(o->out.limits->items[i].metric, "modulation.positive_peak_pct") == 0 && o->out.limits->items[i].has_max)
+        if (strcmp(o->out.limits->items[i].metric, "modulation.positive_peak_pct") == 0
+            && o->out.limits->items[i].has_max)
             return o->out.limits->items[i].max;
     return fallback;
 }
@@ -112,8 +114,8 @@ static int prepare(mod_pass *p, double carrier_hz)
     if (rc != 0)
         return rc;
     double bw, transition;
-    ml_status st = ml_modulation_channel(rate, p->iq, car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ, &bw,
-                                         &transition);
+    ml_status st = ml_modulation_channel(rate, p->iq, car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ,
+                                         &bw, &transition);
     if (st != ML_OK && bw > 0)
         return ml_cli_error("--bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
                             "(at most %.1f Hz)",
@@ -123,14 +125,16 @@ static int prepare(mod_pass *p, double carrier_hz)
                             car.frequency_hz, p->iq ? "the band edge" : "0 Hz or the Nyquist frequency");
     double c_file = 0;
     if (o->an.carrier_reference
-        && (rc = ml_input_reference_carrier(o->an.carrier_reference, &o->in, p->iq, rate, car.frequency_hz, &c_file))
+        && (rc = ml_input_reference_carrier(o->an.carrier_reference, &o->in, p->iq, rate, car.frequency_hz,
+                                            &c_file))
                != 0)
         return rc;
     p->have_ref_file = c_file > 0;
     p->c_prov = c_file > 0 ? c_file : car.amplitude;
     if (ml_resolution_nfft(rate, seg->nframes, ML_RESOLUTION_SPAN) == 0)
         return ml_cli_error("%s: %lld frames are too few to analyse", o->in.path, (long long)seg->nframes);
-    ml_modulation_config mc = ml_modulation_config_default(rate, &p->ch, car.frequency_hz, p->c_prov, seg->nframes);
+    ml_modulation_config mc =
+        ml_modulation_config_default(rate, &p->ch, car.frequency_hz, p->c_prov, seg->nframes);
     mc.bandwidth_hz = bw;
     mc.peak_hold_s = o->an.peak_hold_ms / 1000.0;
     mc.positive_limit_pct = positive_limit(o, mc.positive_limit_pct);
@@ -141,7 +145,8 @@ static int prepare(mod_pass *p, double carrier_hz)
     mc.max_batch_frames = BATCH_FRAMES;
     st = ml_modulation_create(&mc, &p->mod);
     if (st == ML_ENOSIGNAL)
-        return ml_cli_error("%s: %lld frames are too few for the channel filter", o->in.path, (long long)seg->nframes);
+        return ml_cli_error("%s: %lld frames are too few for the channel filter", o->in.path,
+                            (long long)seg->nframes);
     if (st == ML_OK && c_file > 0)
         st = ml_modulation_set_reference(p->mod, c_file);
     for (int k = 0; st == ML_OK && k < NBATCH; k++)
@@ -183,7 +188,8 @@ static int stream(mod_pass *p)
         float *raw = ml_modulation_batch_frames(p->batch[k]);
         if ((rc = ml_input_read(o->in.path, seg, raw, want, &got, done)) != 0)
             break;
-        for (int c = 0; c < (p->iq ? 2 : 1) && rc == 0; c++) { /* here: the two threads' shares stay balanced */
+        for (int c = 0; c < (p->iq ? 2 : 1) && rc == 0;
+             c++) { /* here: the two threads' shares stay balanced */
             ml_stats_push_strided(&p->stats[c], raw + (c ? p->ch.im : p->ch.re), got, nch);
             if (fmax(-p->stats[c].min, p->stats[c].max) > MAX_LEVEL)
                 rc = level_error(o, seg, raw, got, &p->ch, done);
@@ -210,22 +216,27 @@ static int stream(mod_pass *p)
 }
 
 /* The notes that qualify the figures. */
-static void notes(const mod_pass *p, const ml_modulation_result *r, const ml_level_figures *lv, ml_report *rep)
+static void notes(const mod_pass *p, const ml_modulation_result *r, const ml_level_figures *lv,
+                  ml_report *rep)
 {
     if (r->c_source == ML_C_MEAN)
-        ml_report_note(rep, "no unmodulated carrier in the capture: peaks are relative to the mean envelope and "
-                            "carrier shift is not measured (give --carrier-reference, or include a carrier-only "
-                            "stretch)");
-    if (isfinite(r->index) && isfinite(r->index_spectral) && fabs(r->index - r->index_spectral) > INDEX_TOLERANCE)
         ml_report_note(rep,
-                       "envelope and spectral modulation index disagree by %.3f (more than %.2f): the modulation is "
-                       "not a single clean tone, or it is distorted or over 100 %%",
-                       fabs(r->index - r->index_spectral), INDEX_TOLERANCE);
+                       "no unmodulated carrier in the capture: peaks are relative to the mean envelope and "
+                       "carrier shift is not measured (give --carrier-reference, or include a carrier-only "
+                       "stretch)");
+    if (isfinite(r->index) && isfinite(r->index_spectral)
+        && fabs(r->index - r->index_spectral) > INDEX_TOLERANCE)
+        ml_report_note(
+            rep,
+            "envelope and spectral modulation index disagree by %.3f (more than %.2f): the modulation is "
+            "not a single clean tone, or it is distorted or over 100 %%",
+            fabs(r->index - r->index_spectral), INDEX_TOLERANCE);
     if (r->pinch_events + r->reversal_events > 0)
         ml_report_note(rep, "overmodulation: %llu carrier pinch-off and %llu phase-reversal events",
                        (unsigned long long)r->pinch_events, (unsigned long long)r->reversal_events);
     if (lv->clipped > 0)
-        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale", (unsigned long long)lv->clipped);
+        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
+                       (unsigned long long)lv->clipped);
     (void)p;
 }
 
@@ -270,7 +281,8 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
     char cref[160];
-    ml_report_add_text(rep, "modulation.carrier_reference", ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
+    ml_report_add_text(rep, "modulation.carrier_reference",
+                       ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
     ml_report_add_text(rep, "modulation.overmodulation_kind", ml_values_overmodulation_kind(&r));
     snprintf(rep->analysis, sizeof rep->analysis,
              "carrier %.1f Hz, channel filter +-%.0f Hz (%zu taps; %zu samples of settling left out at each "
@@ -285,7 +297,8 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     rep->u_block_s = u.block_s;
     if (o->out.plot)
         ml_plots_modulation(o->out.plot, ml_modulation_get_spectrum(p->mod), &r,
-                            o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL, p->c_prov / r.c);
+                            o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL,
+                            p->c_prov / r.c);
     return 0;
 }
 

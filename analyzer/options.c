@@ -16,7 +16,9 @@ ml_input_opts ml_input_opts_default(void)
 
 ml_analysis_opts ml_analysis_opts_default(void)
 {
-    return (ml_analysis_opts){.audio = ml_audio_config_default(), .window = ML_WINDOW_HFT248D, .carrier_hz = NAN,
+    return (ml_analysis_opts){.audio = ml_audio_config_default(),
+                              .window = ML_WINDOW_HFT248D,
+                              .carrier_hz = NAN,
                               .peak_hold_ms = 5.0};
 }
 
@@ -28,9 +30,33 @@ ml_output_opts ml_output_opts_default(void)
 /* ---- parsing -------------------------------------------------------------------------------- */
 
 enum {
-    O_KIND = ML_OPT_ID_FIRST, O_CHANNEL, O_SWAP, O_REFCH, O_START, O_DURATION, O_DEVICE, O_RATE, O_CHANNELS,
-    O_SECONDS, O_SAVE, O_PLAY, O_OUTDEV, O_BAND, O_TONE, O_HARMONICS, O_MAINS, O_WINDOW, O_CARRIER, O_BANDWIDTH,
-    O_CREF, O_HOLD, O_LIMITS, O_FORMAT, O_OUTPUT, O_PLOT, O_REPORT
+    O_KIND = ML_OPT_ID_FIRST,
+    O_CHANNEL,
+    O_SWAP,
+    O_REFCH,
+    O_START,
+    O_DURATION,
+    O_DEVICE,
+    O_RATE,
+    O_CHANNELS,
+    O_SECONDS,
+    O_SAVE,
+    O_PLAY,
+    O_OUTDEV,
+    O_BAND,
+    O_TONE,
+    O_HARMONICS,
+    O_MAINS,
+    O_WINDOW,
+    O_CARRIER,
+    O_BANDWIDTH,
+    O_CREF,
+    O_HOLD,
+    O_LIMITS,
+    O_FORMAT,
+    O_OUTPUT,
+    O_PLOT,
+    O_REPORT
 };
 
 static const struct {
@@ -111,7 +137,8 @@ static int parse_play(const char *s, ml_input_opts *l)
     if (comma)
         *comma = '\0';
     double f, lv = -12.0;
-    if (!ml_cli_number(buf, &f) || f <= 0 || (comma && (!ml_cli_number(comma + 1, &lv) || lv > 0 || lv < -120)))
+    if (!ml_cli_number(buf, &f) || f <= 0
+        || (comma && (!ml_cli_number(comma + 1, &lv) || lv > 0 || lv < -120)))
         return 0;
     l->play = true;
     l->play_hz = f;

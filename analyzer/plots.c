@@ -96,8 +96,8 @@ void ml_plots_envelope(ml_plot_data *p, const double *env, size_t n)
     p->env_seen += (long long)n;
 }
 
-void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r, const ml_mask *mask,
-                         double env_scale)
+void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r,
+                         const ml_mask *mask, double env_scale)
 {
     const double f_car = r->carrier_hz, bw_hz = r->bandwidth_hz;
     const double carrier_power = r->c * r->c * ml_spectrum_full_scale_power(rf);

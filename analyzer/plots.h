@@ -34,8 +34,8 @@ void ml_plots_envelope(ml_plot_data *p, const double *env, size_t n);
  * the tone's sidebands, occupied bandwidth and mask (may be NULL); the envelope window scaled by
  * env_scale (units of the envelope hook, dsp/modulation.h) into units of C, with the peak
  * readings and the pinch-off level. */
-void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r, const ml_mask *mask,
-                         double env_scale);
+void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r,
+                         const ml_mask *mask, double env_scale);
 
 /* "modlens measure --kind iq file.wav" from argv (before getopt permutes it). */
 void ml_plots_cmdline(int argc, char **argv, char *buf, size_t len);

@@ -55,7 +55,8 @@ size_t ml_values_level(const ml_level_figures *f, const char *group, ml_value *o
     return n;
 }
 
-size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid, ml_value *out)
+size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid,
+                            ml_value *out)
 {
     size_t n = 0;
     out[n++] = (ml_value){"carrier.frequency_hz", r->carrier_hz};
@@ -93,11 +94,16 @@ size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out)
     return n;
 }
 
-const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf, size_t len)
+const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf,
+                               size_t len)
 {
     switch (r->c_source) {
-    case ML_C_REFERENCE: snprintf(buf, len, "carrier reference file %s", reference_path ? reference_path : ""); break;
-    case ML_C_QUIET: snprintf(buf, len, "unmodulated stretches of this capture (%.2f s)", r->c_quiet_s); break;
+    case ML_C_REFERENCE:
+        snprintf(buf, len, "carrier reference file %s", reference_path ? reference_path : "");
+        break;
+    case ML_C_QUIET:
+        snprintf(buf, len, "unmodulated stretches of this capture (%.2f s)", r->c_quiet_s);
+        break;
     case ML_C_LATCHED: snprintf(buf, len, "unmodulated carrier heard earlier (%.2f s)", r->c_quiet_s); break;
     default: snprintf(buf, len, "mean envelope (no unmodulated carrier found)"); break;
     }

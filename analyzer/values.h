@@ -40,11 +40,13 @@ size_t ml_values_level(const ml_level_figures *f, const char *group, ml_value *o
  * spectrum.occupied_bandwidth_hz (the demodulated audio's envelope_thd_pct, hum_db, noise_db
  * among them): carrier.offset_hz is the carrier's offset from nominal_hz (NAN: none given);
  * modulation.trapezoid_deviation_pct only with_trapezoid (a reference channel was given). */
-size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid, ml_value *out);
+size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid,
+                            ml_value *out);
 /* The 95 % half-widths the modulation analysis estimates, under the same names (NAN: none). */
 size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out);
 /* Where C came from, as the report's modulation.carrier_reference text, into buf[len]. */
-const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf, size_t len);
+const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf,
+                               size_t len);
 /* Where C came from in one word, for a log column or a --plain field named carrier_reference:
  * reference, unmodulated (this span's own stretches), latched, mean; NULL for no result. */
 const char *ml_values_c_word(const ml_modulation_result *r);

@@ -209,8 +209,9 @@ static int parse(int argc, char **argv, watcher *w)
         rc = ml_measure_parse(nrest, rest, &w->o, 0);
     free(rest);
     const ml_measure_opts *o = &w->o;
-    if (rc == 0 && (o->in.play || o->in.save_path || o->out.plot_path || o->out.report_path || o->out.output_path
-                    || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0))
+    if (rc == 0
+        && (o->in.play || o->in.save_path || o->out.plot_path || o->out.report_path || o->out.output_path
+            || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0))
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
                             "--reference-channel, --start or --duration (see 'modlens live')");
     return rc;
@@ -251,8 +252,9 @@ static int open_input(watcher *w)
 static int make_meter(watcher *w)
 {
     const ml_measure_opts *o = &w->o;
-    ml_monitor_config mc = ml_monitor_config_default(
-        w->rate, w->kind == ML_KIND_IQ ? ML_MONITOR_IQ : w->kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
+    ml_monitor_config mc = ml_monitor_config_default(w->rate, w->kind == ML_KIND_IQ   ? ML_MONITOR_IQ
+                                                              : w->kind == ML_KIND_IF ? ML_MONITOR_IF
+                                                                                      : ML_MONITOR_AUDIO);
     mc.window_s = w->window_s;
     mc.window = o->an.window;
     mc.audio = o->an.audio;
@@ -272,7 +274,8 @@ static int make_meter(watcher *w)
     if (w->buf == NULL || w->re == NULL || w->im == NULL)
         return ml_cli_error("out of memory");
     ml_status st;
-    if ((st = ml_monitor_create(&mc, &w->mon)) != ML_OK || (st = ml_peakhold_create(&hc, &w->hold_pos)) != ML_OK
+    if ((st = ml_monitor_create(&mc, &w->mon)) != ML_OK
+        || (st = ml_peakhold_create(&hc, &w->hold_pos)) != ML_OK
         || (st = ml_peakhold_create(&hc, &w->hold_neg)) != ML_OK)
         return ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
                             st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
@@ -301,7 +304,8 @@ static void overmodulation(watcher *w, const ml_modulation_result *m)
     if (!v->overmod) {
         v->overmod = true;
         v->overmod_at_s = (double)w->frames / w->rate;
-        snprintf(v->overmod_why, sizeof v->overmod_why, "%s", pinch ? "carrier pinch-off" : "positive peak over the limit");
+        snprintf(v->overmod_why, sizeof v->overmod_why, "%s",
+                 pinch ? "carrier pinch-off" : "positive peak over the limit");
     }
 }
 
@@ -351,7 +355,8 @@ static bool keys(watcher *w)
             v->spectrum = !v->spectrum;
             v->ncols = 0;
             size_t nc = ml_screen_columns(w->scr);
-            if (v->spectrum && ml_monitor_get_columns(w->mon, v->col_db, nc, &v->col_lo_hz, &v->col_hi_hz) == ML_OK)
+            if (v->spectrum
+                && ml_monitor_get_columns(w->mon, v->col_db, nc, &v->col_lo_hz, &v->col_hi_hz) == ML_OK)
                 v->ncols = nc;
         }
     }

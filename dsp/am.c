@@ -121,8 +121,9 @@ ml_status ml_am_create(const ml_am_config *cfg, ml_am **out)
     q->in_ring = malloc(q->dly_len * sizeof *q->in_ring);
     q->blk_env = malloc(block_len * sizeof *q->blk_env);
     q->blk_in = malloc(block_len * sizeof *q->blk_in);
-    if (ml_am_blocks_init(&q->blocks, block_len, cfg->carrier_ref, cfg->quiet_rel) != ML_OK || q->in_ring == NULL
-        || q->blk_env == NULL || q->blk_in == NULL || (cfg->has_reference && q->ref_ring == NULL)) {
+    if (ml_am_blocks_init(&q->blocks, block_len, cfg->carrier_ref, cfg->quiet_rel) != ML_OK
+        || q->in_ring == NULL || q->blk_env == NULL || q->blk_in == NULL
+        || (cfg->has_reference && q->ref_ring == NULL)) {
         ml_am_destroy(q);
         return ML_ENOMEM;
     }
@@ -202,8 +203,8 @@ static void end_block(ml_am *q, const sink *o)
  * in units of carrier_ref (so that no envelope level under- or overflows a float): twice the
  * values per vector register. Fills q->vmin, q->vmax (the extremes of each sample's interval)
  * and low[n] (the lower of the sample and its interval's minimum, in envelope units). */
-static ML_INLINE void oversample(ml_am *q, const double *restrict yy, const double *restrict e, double *restrict low,
-                                 size_t n, size_t skip)
+static ML_INLINE void oversample(ml_am *q, const double *restrict yy, const double *restrict e,
+                                 double *restrict low, size_t n, size_t skip)
 {
     const double inv_c = 1.0 / q->cfg.carrier_ref, c_ref = q->cfg.carrier_ref;
     float *restrict yr = q->yr, *restrict yi = q->yi, *restrict v = q->over;
@@ -215,7 +216,8 @@ static ML_INLINE void oversample(ml_am *q, const double *restrict yy, const doub
         yr[i + 3] = (float)(yy[2 * i] * inv_c);
         yi[i + 3] = (float)(yy[2 * i + 1] * inv_c);
     }
-    float *restrict v0 = v, *restrict v1 = v + CHUNK, *restrict v2 = v + 2 * CHUNK, *restrict v3 = v + 3 * CHUNK;
+    float *restrict v0 = v, *restrict v1 = v + CHUNK, *restrict v2 = v + 2 * CHUNK,
+                    *restrict v3 = v + 3 * CHUNK;
     float *restrict vmin = q->vmin, *restrict vmax = q->vmax;
     for (size_t i = skip; i < n; i++) {
         /* the cubic's coefficients once per interval (complex times real: no complex product) */
@@ -451,8 +453,8 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
     return st;
 }
 
-ml_status ml_am_push_frames(ml_am *q, const float *frames, const ml_channels *c, size_t n, const ml_am_output *out,
-                            size_t *count)
+ml_status ml_am_push_frames(ml_am *q, const float *frames, const ml_channels *c, size_t n,
+                            const ml_am_output *out, size_t *count)
 {
     if (q == NULL || count == NULL || !output_ok(q, out, n) || q->finished
         || (n > 0 && (frames == NULL || c == NULL || c->stride == 0 || c->re >= c->stride

@@ -128,8 +128,8 @@ ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t
  * has_reference the reference from c->ref (c->has_ref must then be set). Gives exactly what
  * ml_am_push gives for the same values, without the caller splitting the columns first.
  * ML_EINVAL as ml_am_push, or for a map that does not fit. */
-ml_status ml_am_push_frames(ml_am *q, const float *frames, const ml_channels *c, size_t n, const ml_am_output *out,
-                            size_t *count);
+ml_status ml_am_push_frames(ml_am *q, const float *frames, const ml_channels *c, size_t n,
+                            const ml_am_output *out, size_t *count);
 
 /* Flushes the channel filter, classifies and releases the last partial block. Call once at the
  * end, before get_result; afterwards push and finish return ML_EINVAL until reset.

@@ -45,7 +45,8 @@ static bool phase_reversed(double complex y, double complex y0)
  * reversal; otherwise a run that reached below pinch_rel * C is a carrier pinch-off. A reversal
  * so fast that no sample falls in a run shows as a phase jump of more than 90 degrees between two
  * consecutive samples below 50 % of C [haykin:2001]. */
-void ml_am_events_push(ml_am_events *ev, const double complex *y, const double *e, const double *low, size_t n)
+void ml_am_events_push(ml_am_events *ev, const double complex *y, const double *e, const double *low,
+                       size_t n)
 {
     /* the state in locals for the loop: stores through ev could alias the arrays read */
     const double half = ev->half, thr_good = ev->thr_good, thr_in = ev->thr_in;
@@ -58,7 +59,8 @@ void ml_am_events_push(ml_am_events *ev, const double complex *y, const double *
         if (!in_low && have_prev) {
             /* A run of samples at or above half the carrier that leave the positive excursion
              * state as it is changes nothing but the previous sample: passed over in one scan. */
-            const double top = in_pos ? INFINITY : thr_pos_in, bottom = in_pos ? fmax(half, thr_pos_out) : half;
+            const double top = in_pos ? INFINITY : thr_pos_in,
+                         bottom = in_pos ? fmax(half, thr_pos_out) : half;
             size_t j = i;
             while (j < n && e[j] >= bottom && e[j] <= top)
                 j++;

@@ -60,7 +60,8 @@ void ml_am_events_init(ml_am_events *ev, double carrier_ref, double pinch_rel, d
 void ml_am_events_reset(ml_am_events *ev);
 /* n envelope samples e with their baseband y and the lowest oversampled value of each sample's
  * interval low[n]. */
-void ml_am_events_push(ml_am_events *ev, const double complex *y, const double *e, const double *low, size_t n);
+void ml_am_events_push(ml_am_events *ev, const double complex *y, const double *e, const double *low,
+                       size_t n);
 
 /* ---- trapezoid: least-squares line of the envelope against the reference (dsp/am_trapezoid.c) */
 typedef struct {

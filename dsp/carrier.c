@@ -20,8 +20,8 @@ ml_carrier_config ml_carrier_config_default(double rate_hz, bool complex_input, 
 
 ml_status ml_carrier_find(const ml_spectrum *s, const ml_carrier_config *cfg, ml_carrier *out)
 {
-    if (s == NULL || cfg == NULL || out == NULL || !(cfg->capture_hz > 0) || !(cfg->min_rel >= 0 && cfg->min_rel <= 1)
-        || !(cfg->lo_hz <= cfg->hi_hz))
+    if (s == NULL || cfg == NULL || out == NULL || !(cfg->capture_hz > 0)
+        || !(cfg->min_rel >= 0 && cfg->min_rel <= 1) || !(cfg->lo_hz <= cfg->hi_hz))
         return ML_EINVAL;
     *out = (ml_carrier){0};
     double f_top = 0, a_top = 0;
@@ -37,12 +37,13 @@ ml_status ml_carrier_find(const ml_spectrum *s, const ml_carrier_config *cfg, ml
         out->amplitude = a_top;
         return ML_OK;
     }
-    const double lobe_hz = (double)ml_spectrum_lobe_bins(s) * ml_spectrum_rate_hz(s) / (double)ml_spectrum_nfft(s);
+    const double lobe_hz =
+        (double)ml_spectrum_lobe_bins(s) * ml_spectrum_rate_hz(s) / (double)ml_spectrum_nfft(s);
     const double range = fmax(cfg->capture_hz, lobe_hz);
     out->range_hz = range;
     double fc = 0, ac = 0;
-    st = ml_rf_find_peak(s, fmax(cfg->nominal_hz - range, cfg->lo_hz), fmin(cfg->nominal_hz + range, cfg->hi_hz), &fc,
-                         &ac);
+    st = ml_rf_find_peak(s, fmax(cfg->nominal_hz - range, cfg->lo_hz),
+                         fmin(cfg->nominal_hz + range, cfg->hi_hz), &fc, &ac);
     if (st == ML_EINVAL) /* the capture range lies outside the search band */
         return ML_ENOSIGNAL;
     if (st != ML_OK)

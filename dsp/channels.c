@@ -10,8 +10,8 @@
 #define CMPLX(x, y) __builtin_complex((double)(x), (double)(y))
 #endif
 
-ml_status ml_channels_map(int channels, long channel, bool complex_input, bool swap_iq, long reference_channel,
-                          ml_channels *out)
+ml_status ml_channels_map(int channels, long channel, bool complex_input, bool swap_iq,
+                          long reference_channel, ml_channels *out)
 {
     if (out == NULL || channels < 1 || channel < 1 || channel + (complex_input ? 1 : 0) > channels
         || reference_channel < 0 || reference_channel > channels

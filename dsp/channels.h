@@ -27,8 +27,8 @@ typedef struct {
 /* The map for a frame of `channels` channels: channel (1-based) is the analysed one, for I/Q the
  * I channel with Q the next (swap_iq: Q then I); reference_channel (1-based, 0 = none).
  * ML_EINVAL when a column lies outside the frame, or the reference is one of the analysed. */
-ml_status ml_channels_map(int channels, long channel, bool complex_input, bool swap_iq, long reference_channel,
-                          ml_channels *out);
+ml_status ml_channels_map(int channels, long channel, bool complex_input, bool swap_iq,
+                          long reference_channel, ml_channels *out);
 
 /* The analysed real column of n frames into re[n] and, for I/Q, the imaginary column into im[n]
  * (im may be NULL for real input). */

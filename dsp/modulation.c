@@ -66,8 +66,9 @@ struct ml_modulation {
     double prov_rel;       /* provisional C / C                                               */
 };
 
-ml_modulation_config ml_modulation_config_default(double rate_hz, const ml_channels *channels, double carrier_hz,
-                                                  double carrier_amplitude, int64_t span_frames)
+ml_modulation_config ml_modulation_config_default(double rate_hz, const ml_channels *channels,
+                                                  double carrier_hz, double carrier_amplitude,
+                                                  int64_t span_frames)
 {
     ml_modulation_config c = {
         .rate_hz = rate_hz,
@@ -119,9 +120,9 @@ static bool config_ok(const ml_modulation_config *c)
            && (!ch->complex_input || ch->im < ch->stride) && (!ch->has_ref || ch->ref < ch->stride)
            && fabs(c->carrier_hz) < c->rate_hz / 2 && (ch->complex_input || c->carrier_hz > 0)
            && c->carrier_amplitude > 0 && isfinite(c->carrier_amplitude) && c->bandwidth_hz >= 0
-           && c->max_bandwidth_hz > 0 && c->peak_hold_s > 0 && c->peak_hold_s < 0.5 && c->positive_limit_pct > 0
-           && c->span_frames > 0 && c->quiet_min_s >= 0 && c->max_batch_frames > 0
-           && c->max_batch_frames <= ((size_t)1 << 26);
+           && c->max_bandwidth_hz > 0 && c->peak_hold_s > 0 && c->peak_hold_s < 0.5
+           && c->positive_limit_pct > 0 && c->span_frames > 0 && c->quiet_min_s >= 0
+           && c->max_batch_frames > 0 && c->max_batch_frames <= ((size_t)1 << 26);
 }
 
 /* The demodulated audio's spectrum: at half the rate when the channel allows. The demodulated
@@ -446,7 +447,8 @@ ml_status ml_modulation_finish(ml_modulation *q)
 static void choose_c(ml_modulation *q, const ml_am_result *ar, ml_modulation_result *r)
 {
     const double quiet_s = (double)ar->quiet_samples / q->cfg.rate_hz;
-    const bool quiet = (double)ar->quiet_samples >= q->cfg.quiet_min_s * q->cfg.rate_hz && ar->quiet_samples > 0;
+    const bool quiet =
+        (double)ar->quiet_samples >= q->cfg.quiet_min_s * q->cfg.rate_hz && ar->quiet_samples > 0;
     if (isfinite(q->c_keep) && q->c_keep_source == ML_C_REFERENCE) {
         r->c = q->c_keep;
         r->c_source = ML_C_REFERENCE;
@@ -629,6 +631,7 @@ ml_status ml_modulation_get_mask_margin(const ml_modulation *q, const ml_mask *m
     if (q == NULL || !q->have_result || !(q->res.c > 0))
         return ML_EINVAL;
     /* the mask refers to the unmodulated carrier's power [cfr 73.44] */
-    return ml_rf_mask_margin(q->rf, q->res.carrier_hz, q->res.c * q->res.c * ml_spectrum_full_scale_power(q->rf),
-                             mask, margin_db, worst_offset_hz);
+    return ml_rf_mask_margin(q->rf, q->res.carrier_hz,
+                             q->res.c * q->res.c * ml_spectrum_full_scale_power(q->rf), mask, margin_db,
+                             worst_offset_hz);
 }

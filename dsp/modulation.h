@@ -138,8 +138,9 @@ typedef struct {
     double block_s;
 } ml_modulation_uncertainty;
 
-ml_modulation_config ml_modulation_config_default(double rate_hz, const ml_channels *channels, double carrier_hz,
-                                                  double carrier_amplitude, int64_t span_frames);
+ml_modulation_config ml_modulation_config_default(double rate_hz, const ml_channels *channels,
+                                                  double carrier_hz, double carrier_amplitude,
+                                                  int64_t span_frames);
 
 /* The channel filter around carrier_hz: requested_hz, or when it is 0 the widest that fits
  * (ml_am_default_bandwidth, at most max_hz); *transition_hz its transition width. ML_EINVAL when

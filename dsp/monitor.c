@@ -180,8 +180,8 @@ static ml_status find_carrier(ml_monitor *q)
     if (ml_carrier_find(q->spec, &cc, &car) != ML_OK || !(car.amplitude > 0))
         return ML_ENOSIGNAL;
     double bw, transition;
-    ml_status st = ml_modulation_channel(rate, iq, car.frequency_hz, q->cfg.bandwidth_hz, q->cfg.max_bandwidth_hz,
-                                         &bw, &transition);
+    ml_status st = ml_modulation_channel(rate, iq, car.frequency_hz, q->cfg.bandwidth_hz,
+                                         q->cfg.max_bandwidth_hz, &bw, &transition);
     if (bw <= 0)
         return ML_ENOSIGNAL;
     ml_channels ch;
@@ -233,7 +233,8 @@ static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
     q->col_hi = m->carrier_hz + m->bandwidth_hz;
     q->col_ref = p_car > 0 ? p_car : ml_spectrum_full_scale_power(q->spec);
     /* a carrier that moved or changed level a lot is found again at the next analysis */
-    if (fabs(m->carrier_hz - q->fc) > q->cfg.refind_hz || !(a_car > q->ac / LEVEL_REFIND && a_car < q->ac * LEVEL_REFIND))
+    if (fabs(m->carrier_hz - q->fc) > q->cfg.refind_hz
+        || !(a_car > q->ac / LEVEL_REFIND && a_car < q->ac * LEVEL_REFIND))
         q->have_carrier = false;
     return r->carrier_ok ? ML_OK : ML_ENOSIGNAL;
 }

@@ -41,8 +41,8 @@ ml_status ml_noisefloor_hum_over(const ml_spectrum *s, const double *psd, size_t
     const double lobe = (double)ml_spectrum_lobe_bins(s);
     /* the floor's power in the components' lobes: density x bin width x lobe bins x components */
     const double floor_power = isfinite(floor_dbfs_hz)
-                                   ? pow(10.0, floor_dbfs_hz / 10.0) * ml_spectrum_full_scale_power(s) * bin_hz
-                                         * (2 * lobe + 1) * (double)hr.nhum
+                                   ? pow(10.0, floor_dbfs_hz / 10.0) * ml_spectrum_full_scale_power(s)
+                                         * bin_hz * (2 * lobe + 1) * (double)hr.nhum
                                    : 0.0;
     *over_db = 10.0 * log10(fmax(hr.hum_power, 1e-300) / fmax(floor_power, 1e-300));
     *hum_dbfs = ml_power_dbfs(hr.hum_power);

@@ -279,13 +279,14 @@ ml_status ml_rf_noise_density(const ml_spectrum *s, double lo_hz, double hi_hz, 
     return ML_OK;
 }
 
-double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double bw_hz, double fm_hz, int harmonics,
-                    double mains_hz, int hum_harmonics)
+double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double bw_hz, double fm_hz,
+                    int harmonics, double mains_hz, int hum_harmonics)
 {
     double excl[1 + 2 * ML_RF_MAX_EXCLUDED];
     size_t nex = 0;
     excl[nex++] = f_car_hz;
-    for (int h = 1; fm_hz > 0 && h <= harmonics && h * fm_hz <= bw_hz && nex + 2 <= sizeof excl / sizeof *excl; h++) {
+    for (int h = 1;
+         fm_hz > 0 && h <= harmonics && h * fm_hz <= bw_hz && nex + 2 <= sizeof excl / sizeof *excl; h++) {
         excl[nex++] = f_car_hz + h * fm_hz;
         excl[nex++] = f_car_hz - h * fm_hz;
     }
@@ -294,7 +295,8 @@ double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double 
         excl[nex++] = f_car_hz - h * mains_hz;
     }
     double nd = 0;
-    if (s == NULL || ml_rf_noise_density(s, f_car_hz - bw_hz, f_car_hz + bw_hz, excl, nex, &nd) != ML_OK || !(nd > 0))
+    if (s == NULL || ml_rf_noise_density(s, f_car_hz - bw_hz, f_car_hz + bw_hz, excl, nex, &nd) != ML_OK
+        || !(nd > 0))
         return NAN;
     return 10 * log10(p_car / (nd * 2 * bw_hz / bin_hz(s)));
 }

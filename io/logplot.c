@@ -136,8 +136,14 @@ static long ranges(FILE *f, const columns *c, frame *fr)
         lmin = -120;
     if (!isfinite(lmax) || lmax <= lmin)
         lmax = lmin + 10;
-    *fr = (frame){.tmin = tmin, .tmax = tmax, .lmin = floor(lmin / 10) * 10 - 10, .lmax = ceil(lmax / 10) * 10 + 5,
-                  .ly0 = 40, .ly1 = 400, .sy0 = 450, .sy1 = 780};
+    *fr = (frame){.tmin = tmin,
+                  .tmax = tmax,
+                  .lmin = floor(lmin / 10) * 10 - 10,
+                  .lmax = ceil(lmax / 10) * 10 + 5,
+                  .ly0 = 40,
+                  .ly1 = 400,
+                  .sy0 = 450,
+                  .sy1 = 780};
     return rows;
 }
 
@@ -241,7 +247,9 @@ static void levels(cairo_t *cr, const frame *fr, const bucket *b)
         const bucket *b;
         double r, g, bl;
         const char *name;
-    } series[3] = {{b + 2 * NB, 0.6, 0.6, 0.6, "peak"}, {b, 0.1, 0.3, 0.8, "rms"}, {b + NB, 0.1, 0.6, 0.2, "A-weighted"}};
+    } series[3] = {{b + 2 * NB, 0.6, 0.6, 0.6, "peak"},
+                   {b, 0.1, 0.3, 0.8, "rms"},
+                   {b + NB, 0.1, 0.6, 0.2, "A-weighted"}};
     for (int k = 0; k < 3; k++) {
         cairo_set_source_rgb(cr, series[k].r, series[k].g, series[k].bl);
         bool pen = false;
@@ -249,7 +257,8 @@ static void levels(cairo_t *cr, const frame *fr, const bucket *b)
             const bucket *bk = &series[k].b[i];
             if (bk->n == 0)
                 continue;
-            const double t = fr->tmin + (fr->tmax - fr->tmin) * i / (NB - 1.0), y = yl(fr, bk->sum / (double)bk->n);
+            const double t = fr->tmin + (fr->tmax - fr->tmin) * i / (NB - 1.0),
+                         y = yl(fr, bk->sum / (double)bk->n);
             if (pen)
                 cairo_line_to(cr, xt(fr, t), y);
             else
@@ -307,8 +316,8 @@ static void spectrogram(cairo_t *cr, const frame *fr, const ml_logplot_spec *spe
         snprintf(b, sizeof b, "%.0f", spec->band_hz[row]);
         text(cr, X0 - 6, fr->sy1 - ((double)row + 0.5) / (double)nr * (fr->sy1 - fr->sy0) + 4, b, 1);
     }
-    snprintf(b, sizeof b, "spectrogram, Hz (%s axis; colour %.0f .. %.0f dB)", spec->log_freq ? "log" : "linear",
-             dmin, dmax);
+    snprintf(b, sizeof b, "spectrogram, Hz (%s axis; colour %.0f .. %.0f dB)",
+             spec->log_freq ? "log" : "linear", dmin, dmax);
     text(cr, X0, fr->sy0 - 8, b, 0);
 }
 

@@ -82,9 +82,9 @@ START_TEST(invalid_is_all_nan)
     const ml_audio_result a = result(0.5, 0, 0.5, 0, 0);
     ml_audio_figures f;
     ml_figures_audio(&a, false, &f);
-    const double *v[] = {&f.fundamental_hz, &f.fundamental_dbfs, &f.thd_pct, &f.thd_db, &f.thdn_pct, &f.thdn_db,
-                         &f.sinad_db, &f.snr_db, &f.enob_bits, &f.noise_dbfs, &f.mains_hz, &f.hum_dbfs,
-                         &f.hum_dbc};
+    const double *v[] = {&f.fundamental_hz, &f.fundamental_dbfs, &f.thd_pct, &f.thd_db,    &f.thdn_pct,
+                         &f.thdn_db,        &f.sinad_db,         &f.snr_db,  &f.enob_bits, &f.noise_dbfs,
+                         &f.mains_hz,       &f.hum_dbfs,         &f.hum_dbc};
     for (size_t i = 0; i < sizeof v / sizeof v[0]; i++)
         ck_assert(isnan(*v[i]));
     ml_figures_audio(NULL, true, &f); /* no result: nothing measured */

@@ -160,7 +160,8 @@ START_TEST(window_slides)
     ck_assert_double_eq_tol(r.modulation.index, 0.5, 0.002);
     push_am(q, 24000, 48000, 3000, 0.8, true, 4096);
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
-    ck_assert_double_ge(r.modulation.positive_peak_pct, 75.0); /* C is then the mean envelope: A, peaks 80 % */
+    ck_assert_double_ge(r.modulation.positive_peak_pct,
+                        75.0); /* C is then the mean envelope: A, peaks 80 % */
     push_am(q, 24000, 72000, 3000, 0.8, true, 4096);
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
     ck_assert_double_eq_tol(r.modulation.index, 0.8, 0.002);
