@@ -89,8 +89,13 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
         if (rc > 0)
             return rc;
         if (rc == 0) {
-            if (!live && (ml_options_group(ch) & (ML_OPTS_DEVICE | ML_OPTS_CAPTURE)))
-                return ml_cli_error("%s belongs to 'modlens live', not measure", argv[optind - 1]);
+            if (!live && (ml_options_group(ch) & (ML_OPTS_DEVICE | ML_OPTS_CAPTURE))) {
+                const char *name = "";
+                for (size_t i = 0; longopts[i].name; i++)
+                    if (longopts[i].val == ch)
+                        name = longopts[i].name;
+                return ml_cli_error("--%s belongs to 'modlens live', not %s", name, cmd);
+            }
             continue;
         }
         switch (ch) {
