@@ -19,13 +19,13 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/finish.h"
 #include "analyzer/limits.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "analyzer/saved.h"
 #include "io/compare.h"
-#include "io/output.h"
 #include "io/printable.h"
 
 #define MAX_TOLERANCES 64
@@ -145,15 +145,18 @@ static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_pl
         ml_status st = ml_saved_read(path, rep, err, sizeof err); /* typed by the registry */
         if (st != ML_OK)
             return ml_cli_error("%s: %s", path, err);
-        if (o->limits)
-            ml_limits_apply(o->limits, rep);
+        if (o->out.limits)
+            ml_limits_apply(o->out.limits, rep);
         return 0;
     }
     ml_measure_opts one = *o;
-    one.input = path;
-    one.plot = plot;
+    one.in.path = path;
+    one.out.plot = plot;
     *measured = true;
-    return ml_measure_analyse(&one, rep);
+    const int rc = ml_measure_analyse(&one, rep);
+    if (rc == 0 && o->out.limits)
+        ml_limits_apply(o->out.limits, rep);
+    return rc;
 }
 
 static const ml_limit *limit_for(const ml_limits *l, const char *metric)
@@ -200,7 +203,8 @@ static void fill_limit(ml_compare_row *row, const ml_report *a, const ml_report 
             row->has_limit = true;
             row->a_pass = c->pass;
             if (c->has_min && c->has_max)
-                snprintf(row->limit, sizeof row->limit, "%.*f..%.*f", c->decimals, c->min, c->decimals, c->max);
+                snprintf(row->limit, sizeof row->limit, "%.*f..%.*f", c->decimals, c->min, c->decimals,
+                         c->max);
             else if (c->has_min)
                 snprintf(row->limit, sizeof row->limit, ">= %.*f", c->decimals, c->min);
             else
@@ -237,9 +241,9 @@ static void add_row(ml_comparison *c, const ml_measure_opts *o, const char *name
     r->a = r->a_valid ? ma->value : 0;
     r->b = r->b_valid ? mb->value : 0;
     const double ua = r->a_valid && ma->has_u ? ma->u : 0, ub = r->b_valid && mb->has_u ? mb->u : 0;
-    const ml_limit *lim = limit_for(o->limits, name);
+    const ml_limit *lim = limit_for(o->out.limits, name);
     judge(r, d, lim, sqrt(ua * ua + ub * ub), tolerance_for(tol, ntol, name));
-    r->counted = o->limits ? lim != NULL : true;
+    r->counted = o->out.limits ? lim != NULL : true;
     if (r->counted && strcmp(r->verdict, "worse") == 0)
         c->nworse++;
     fill_limit(r, c->a, c->b);
@@ -254,6 +258,60 @@ static void note(ml_comparison *c, const char *fmt, const char *a, const char *b
     snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.255s", buf);
 }
 
+/* The --tolerance values of a run. */
+typedef struct {
+    tolerance item[MAX_TOLERANCES];
+    size_t n;
+} tolerances;
+
+/* compare A B: both sides measured or read back, the rows and their notes, then the finish step. */
+static int compare_body(ml_measure_opts *o, ml_finish_files *files, const char *cmdline, void *ctx)
+{
+    const tolerances *tol = ctx;
+    static ml_report ra, rb;
+    static ml_comparison cmp;
+    ml_plot_data pa, pb;
+    ml_plot_data_init(&pa);
+    ml_plot_data_init(&pb);
+    bool ma = false, mb = false;
+    int rc = load_side(o, o->in.path, &ra, &pa, &ma);
+    if (rc == 0)
+        rc = load_side(o, o->input2, &rb, &pb, &mb);
+    if (rc != 0)
+        goto done;
+    memset(&cmp, 0, sizeof cmp);
+    cmp.a = &ra;
+    cmp.b = &rb;
+    if (o->out.limits_path)
+        ml_printable(cmp.limits_path, sizeof cmp.limits_path, o->out.limits_path);
+    for (size_t i = 0; i < ra.nmetrics; i++)
+        add_row(&cmp, o, ra.metrics[i].name, tol->item, tol->n);
+    for (size_t i = 0; i < rb.nmetrics; i++)
+        add_row(&cmp, o, rb.metrics[i].name, tol->item, tol->n);
+    if (strcmp(ra.kind, rb.kind) != 0)
+        note(&cmp, "A was measured as %s and B as %s: only the metrics both have are compared", ra.kind,
+             rb.kind);
+    if (ra.u_blocks < 3)
+        note(
+            &cmp,
+            "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
+            "A", "");
+    if (rb.u_blocks < 3)
+        note(
+            &cmp,
+            "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
+            "B", "");
+    if ((o->out.plot_path || o->out.report_path) && (!ma || !mb))
+        note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "",
+             !mb ? (!ma ? " and B" : "B") : "");
+    rc = ml_finish(&(ml_finish_job){.out = &o->out, .files = files, .comparison = &cmp,
+                                    .plot = ma ? &pa : NULL, .plot_b = mb ? &pb : NULL, .cmdline = cmdline});
+done:
+    ml_plot_data_free(&pa);
+    ml_plot_data_free(&pb);
+    return rc;
+}
+
 int ml_cmd_compare(int argc, char **argv)
 {
     for (int i = 1; i < argc; i++)
@@ -261,76 +319,13 @@ int ml_cmd_compare(int argc, char **argv)
             compare_usage(stdout);
             return ML_EXIT_OK;
         }
-    char cmdline[1024];
-    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
-    static tolerance tol[MAX_TOLERANCES];
-    size_t ntol = 0;
-    argc = take_tolerances(argc, argv, tol, &ntol);
-    if (argc < 0)
+    static tolerances tol;
+    char *cmdline = ml_plots_cmdline(argc, argv); /* before the tolerances leave argv */
+    argc = take_tolerances(argc, argv, tol.item, &tol.n);
+    if (argc < 0) {
+        free(cmdline);
         return ML_EXIT_USAGE;
-    ml_measure_opts o;
-    int rc = ml_measure_parse(argc, argv, &o, 2);
-    if (rc != 0)
-        return rc < 0 ? ML_EXIT_OK : rc;
-    static ml_limits limits;
-    ml_measure_outputs outs; /* --plot X --output X, or any output naming an input: refused here */
-    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
-        return rc;
-
-    static ml_report ra, rb;
-    static ml_comparison cmp;
-    ml_plot_data pa, pb;
-    ml_plot_data_init(&pa);
-    ml_plot_data_init(&pb);
-    bool ma = false, mb = false;
-    rc = load_side(&o, o.input, &ra, &pa, &ma);
-    if (rc == 0)
-        rc = load_side(&o, o.input2, &rb, &pb, &mb);
-    if (rc != 0)
-        goto done;
-    memset(&cmp, 0, sizeof cmp);
-    cmp.a = &ra;
-    cmp.b = &rb;
-    if (o.limits_path)
-        ml_printable(cmp.limits_path, sizeof cmp.limits_path, o.limits_path);
-    for (size_t i = 0; i < ra.nmetrics; i++)
-        add_row(&cmp, &o, ra.metrics[i].name, tol, ntol);
-    for (size_t i = 0; i < rb.nmetrics; i++)
-        add_row(&cmp, &o, rb.metrics[i].name, tol, ntol);
-    if (strcmp(ra.kind, rb.kind) != 0)
-        note(&cmp, "A was measured as %s and B as %s: only the metrics both have are compared", ra.kind, rb.kind);
-    if (ra.u_blocks < 3)
-        note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
-             "A", "");
-    if (rb.u_blocks < 3)
-        note(&cmp, "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
-             "B", "");
-    if ((o.plot_path || o.report_path) && (!ma || !mb))
-        note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "", !mb ? (!ma ? " and B" : "B") : "");
-    rc = ml_plots_write_compare(outs.plot, outs.pdf, &cmp, ma ? &pa : NULL, mb ? &pb : NULL, cmdline);
-    if (rc != 0)
-        goto done;
-    FILE *f = NULL;
-    char err[512];
-    if (ml_output_begin(outs.report, &f, err, sizeof err) != ML_OK) {
-        rc = ml_cli_error("%s: %s", ml_output_path(outs.report), err);
-        goto done;
     }
-    if (ml_compare_write(f, &cmp, o.format) != ML_OK) {
-        ml_output_discard(outs.report);
-        rc = ml_cli_error("%s: cannot write the comparison", ml_output_path(outs.report));
-        goto done;
-    }
-    if (ml_output_end(outs.report, err, sizeof err) != ML_OK) {
-        rc = ml_cli_error("%s: %s", ml_output_path(outs.report), err);
-        goto done;
-    }
-    if ((rc = ml_measure_commit(&outs)) != 0) /* all or nothing */
-        goto done;
-    rc = cmp.nworse > 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
-done:
-    ml_measure_outputs_free(&outs);
-    ml_plot_data_free(&pa);
-    ml_plot_data_free(&pb);
-    return rc;
+    /* --plot X --output X, or any output naming an input: refused before any work */
+    return ml_measure_command(argc, argv, 2, cmdline, compare_body, &tol);
 }

@@ -16,11 +16,12 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/finish.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
+#include "dsp/channels.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
-#include "io/output.h"
 #include "io/printable.h"
 
 #define PREROLL_S 0.25     /* silence played before the tone, so its onset can be found       */
@@ -176,12 +177,19 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
                       int64_t *latency)
 {
     const double rate = seg->info->rate_hz;
-    const size_t nch = (size_t)seg->info->channels, c = (size_t)(o->channel - 1);
-    const int64_t noise_n = (int64_t)(NOISE_S * rate), limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
-    const int64_t period = (int64_t)ceil(rate / o->live.play_hz);
-    float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
-    if (buf == NULL)
+    const int64_t noise_n = (int64_t)(NOISE_S * rate),
+                  limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
+    const int64_t period = (int64_t)ceil(rate / o->in.play_hz);
+    ml_channels ch; /* the analysed channel, where the tone comes back */
+    if (ml_channels_map(seg->info->channels, o->in.channel, false, false, 0, &ch) != ML_OK)
+        return ml_cli_error("--channel %ld is not in the capture", o->in.channel);
+    float *buf = malloc(ML_BLOCK_FRAMES * ch.stride * sizeof *buf),
+          *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
+    if (buf == NULL || mono == NULL) {
+        free(buf);
+        free(mono);
         return ml_cli_error("out of memory");
+    }
     double noise = 0, thr = 0, amp = 0;
     int64_t pos = 0, j = -1;
     int rc = 0;
@@ -189,11 +197,14 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         size_t got = 0;
         ml_segment whole = *seg;
         whole.nframes = limit;
-        rc = ml_measure_read(o, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
+        rc = ml_input_read(o->in.path, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
         if (rc == 0 && got < ML_BLOCK_FRAMES)
-            rc = whole.failed ? ML_EXIT_USAGE : ml_cli_error("live: the capture ended while waiting for the tone");
+            rc = whole.failed ? ML_EXIT_USAGE
+                              : ml_cli_error("live: the capture ended while waiting for the tone");
+        if (rc == 0)
+            ml_channels_split(&ch, buf, got, mono, NULL);
         for (size_t i = 0; rc == 0 && i < got; i++, pos++) {
-            const double x = fabs(buf[i * nch + c]);
+            const double x = fabs(mono[i]);
             if (pos < noise_n) {
                 noise = fmax(noise, x);
                 continue;
@@ -207,119 +218,124 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         }
     }
     free(buf);
+    free(mono);
     if (rc != 0)
         return rc;
     if (j < 0)
         return ml_cli_error("live: the played tone did not come back within %.1f s (threshold %.1f dBFS); "
                             "check the connection and the levels", ONSET_WAIT_S, 20 * log10(thr));
     int64_t n1 = 0;
-    while (amp * fabs(sin(2 * M_PI * o->live.play_hz * (double)n1 / rate)) <= thr && n1 < period)
+    while (amp * fabs(sin(2 * M_PI * o->in.play_hz * (double)n1 / rate)) <= thr && n1 < period)
         n1++;
     *onset = j;
     *latency = j - ((int64_t)preroll + n1);
     return 0;
 }
 
-static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const char *cmdline);
-
-int ml_cmd_live(int argc, char **argv)
+/* --play-tone: the generator at the capture's rate (the device's default unless --rate) and lc's
+ * playback. 0 or an exit status. */
+static int play_setup(const ml_measure_opts *o, ml_live_config *lc, tone_feed *feed)
 {
-    char cmdline[1024];
-    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
-    ml_measure_opts o;
-    int rc = ml_measure_parse(argc, argv, &o, 0);
-    if (rc != 0)
-        return rc < 0 ? ML_EXIT_OK : rc;
-    static ml_limits limits;
-    ml_measure_outputs outs;
-    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
-        return rc;
-    rc = live_capture(&o, &outs, cmdline);
-    ml_measure_outputs_free(&outs); /* whatever was not published goes */
+    double rate = o->in.rate_hz;
+    char e[256];
+    if (rate == 0 && ml_audio_device_rate(o->in.device, true, &rate, e, sizeof e) != ML_OK)
+        return ml_cli_error("%s: %s", o->in.device ? o->in.device : "default input", e);
+    lc->rate_hz = rate;
+    if (!(o->in.play_hz < rate / 2))
+        return ml_cli_error("--play-tone %.1f Hz is at or above the Nyquist frequency %.0f Hz", o->in.play_hz,
+                            rate / 2);
+    ml_synth_config sc = ml_synth_config_default(rate);
+    sc.freq_hz = o->in.play_hz;
+    sc.level_dbfs = o->in.play_dbfs;
+    if (ml_synth_create(&sc, &feed->syn) != ML_OK)
+        return ml_cli_error("--play-tone: the tone cannot be generated at %.0f Hz", rate);
+    feed->preroll = (uint64_t)llround(PREROLL_S * rate);
+    lc->output_device = o->in.output_device;
+    lc->output_channels = 1;
+    lc->fill = feed_tone;
+    lc->fill_ctx = feed;
+    return 0;
+}
+
+/* The analysed segment of the capture: from --start (after the tone's return with --play-tone,
+ * measuring the latency into *latency), for --duration or to the end of --seconds. */
+static int segment(const ml_measure_opts *o, ml_segment *seg, const tone_feed *feed, int64_t *latency)
+{
+    const double rate = seg->info->rate_hz;
+    const int64_t total = (int64_t)llround(o->in.seconds * rate);
+    seg->first = (int64_t)llround(o->in.start_s * rate);
+    int rc = 0;
+    *latency = -1;
+    if (o->in.play) {
+        int64_t onset = 0;
+        rc = find_onset(o, seg, feed->preroll, &onset, latency);
+        if (rc == 0 && seg->first < onset + (int64_t)(SETTLE_S * rate))
+            seg->first = onset + (int64_t)(SETTLE_S * rate);
+    }
+    seg->nframes = o->in.duration_s > 0 ? (int64_t)llround(o->in.duration_s * rate) : total - seg->first;
+    if (rc == 0 && seg->nframes <= 0)
+        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return",
+                          o->in.seconds);
+    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
+        rc = seg->live && !seg->failed ? ml_cli_error("%s: %s", o->in.path, ml_source_detail(seg->src))
+                                       : ML_EXIT_USAGE;
     return rc;
 }
 
-/* Publishes the outputs: all of them when everything was written; otherwise only the capture,
- * which --save keeps whenever frames arrived, even when the analysis failed. */
-static int live_publish(ml_measure_outputs *outs, bool written, uint64_t captured, int rc)
+/* The capture's own figures and notes: device, completeness, lost frames, latency. */
+static void describe_capture(ml_report *rep, const ml_measure_opts *o, const ml_segment *seg, int64_t latency)
 {
-    char err[512];
-    if (outs->save != NULL) {
-        if (ml_output_end(outs->save, err, sizeof err) != ML_OK) {
-            ml_cli_error("%s: %s", ml_output_path(outs->save), err);
-            written = false;
-            rc = rc == 0 || rc == ML_EXIT_FAIL ? ML_EXIT_USAGE : rc;
-        } else if (captured == 0) {
-            ml_output_discard(outs->save);
-        }
-    }
-    if (!written) {
-        ml_output_discard(outs->report);
-        ml_output_discard(outs->plot);
-        ml_output_discard(outs->pdf);
-    }
-    const int crc = ml_measure_commit(outs);
-    return crc != 0 && (rc == 0 || rc == ML_EXIT_FAIL) ? crc : rc;
+    const double rate = seg->info->rate_hz;
+    ml_live_stats ls;
+    ml_source_live_stats(seg->src, &ls);
+    char dev[sizeof ls.device_name + 8];
+    snprintf(dev, sizeof dev, "live:%s", ls.device_name);
+    ml_printable(rep->path, sizeof rep->path, dev); /* device names are the system's text */
+    rep->frames = (int64_t)ls.captured_frames;
+    rep->duration_s = (double)ls.captured_frames / rate;
+    rep->analysed_s = (double)seg->nframes / rate;
+    ml_measure_add(rep, "live.lost_frames", (double)ls.lost_frames);
+    ml_measure_add(rep, "live.overflows", (double)ls.overflow_events);
+    ml_measure_add(rep, "live.latency_ms", latency >= 0 ? 1000.0 * (double)latency / rate : NAN);
+    ml_measure_add(rep, "live.latency_frames", latency >= 0 ? (double)latency : NAN);
+    char shown[4 * sizeof ls.device_name];
+    ml_printable(shown, sizeof shown, ls.device_name);
+    ml_report_add_text(rep, "live.device", shown);
+    ml_printable(shown, sizeof shown, ls.host_api);
+    ml_report_add_text(rep, "live.host_api", shown);
+    ml_report_add_text(rep, "live.complete", seg->ended_early ? "no" : "yes");
+    if (seg->ended_early)
+        ml_report_note(rep, "capture incomplete: %s after %.3f s of %.3f s",
+                       seg->failed ? "the device failed" : "interrupted", (double)ls.captured_frames / rate,
+                       o->in.seconds);
+    if (ls.lost_frames > 0)
+        ml_report_note(rep, "%llu frames were lost (the computer fell behind the sound card)",
+                       (unsigned long long)ls.lost_frames);
+    if (ls.overflow_events > 0)
+        ml_report_note(rep, "the device reported %llu input overflows",
+                       (unsigned long long)ls.overflow_events);
+    if (ls.underflow_frames > 0 && o->in.play)
+        ml_report_note(rep, "the played tone ran dry for %llu frames",
+                       (unsigned long long)ls.underflow_frames);
 }
 
-static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const char *cmdline)
+/* Captures into the checked files, analyses as measure does and finishes; an exit status. The
+ * capture (--save) goes to its temporary by descriptor from the start, and is kept whenever
+ * frames arrived, even when the analysis or the report fails. */
+static int live_run(ml_measure_opts *o, ml_finish_files *files, const char *cmdline, void *ctx)
 {
-    ml_measure_opts o = *op;
-    int rc = 0;
-    long nch = o.live.channels;
-    if (nch == 0) {
-        nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
-        if (o.reference_channel > nch)
-            nch = o.reference_channel;
-    }
-    if (o.channel + (o.kind == ML_KIND_IQ ? 1 : 0) > nch || o.reference_channel > nch)
-        return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
-
+    (void)ctx;
     ml_live_config lc = ml_live_config_default();
-    lc.device = o.live.device;
-    lc.rate_hz = o.live.rate_hz;
-    lc.channels = (int)nch;
-    lc.head_s = HEAD_S + (o.live.play ? PREROLL_S + ONSET_WAIT_S : 0);
-    FILE *save = NULL; /* the capture goes to its output's temporary, by descriptor */
-    char err[512];
-    if (outs->save != NULL && ml_output_begin(outs->save, &save, err, sizeof err) != ML_OK)
-        return ml_cli_error("%s: %s", ml_output_path(outs->save), err);
-    lc.save_fd = save ? fileno(save) : -1;
+    lc.head_s = HEAD_S + (o->in.play ? PREROLL_S + ONSET_WAIT_S : 0);
     tone_feed feed = {NULL, 0, 0};
-    if (o.live.play) {
-        /* the generator needs the rate: the input device's default unless --rate */
-        double rate = o.live.rate_hz;
-        char e[256];
-        if (rate == 0 && ml_audio_device_rate(o.live.device, true, &rate, e, sizeof e) != ML_OK)
-            return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", e);
-        lc.rate_hz = rate;
-        if (!(o.live.play_hz < rate / 2))
-            return ml_cli_error("--play-tone %.1f Hz is at or above the Nyquist frequency %.0f Hz", o.live.play_hz,
-                                rate / 2);
-        ml_synth_config sc = ml_synth_config_default(rate);
-        sc.freq_hz = o.live.play_hz;
-        sc.level_dbfs = o.live.play_dbfs;
-        if (ml_synth_create(&sc, &feed.syn) != ML_OK)
-            return ml_cli_error("--play-tone: the tone cannot be generated at %.0f Hz", rate);
-        feed.preroll = (uint64_t)llround(PREROLL_S * rate);
-        lc.output_device = o.live.output_device;
-        lc.output_channels = 1;
-        lc.fill = feed_tone;
-        lc.fill_ctx = &feed;
-    }
     ml_segment seg;
     memset(&seg, 0, sizeof seg);
-    ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
-    if (st != ML_OK) {
+    int rc = ml_finish_capture_begin(files, &lc.save_fd);
+    if (rc != 0 || (o->in.play && (rc = play_setup(o, &lc, &feed)) != 0)
+        || (rc = ml_input_open_device(&o->in, &lc, &seg)) != 0) {
         ml_synth_destroy(feed.syn);
-        return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", err);
+        return rc;
     }
-    seg.info = ml_source_get_info(seg.src);
-    seg.live = true;
-    const double rate = seg.info->rate_hz;
-    const int64_t total = (int64_t)llround(o.live.seconds * rate);
-    seg.first = (int64_t)llround(o.start_s * rate);
-
     struct sigaction sa, old_int, old_term;
     memset(&sa, 0, sizeof sa);
     sa.sa_handler = on_stop;
@@ -327,77 +343,38 @@ static int live_capture(ml_measure_opts *op, ml_measure_outputs *outs, const cha
     g_live = seg.src;
     sigaction(SIGINT, &sa, &old_int);
     sigaction(SIGTERM, &sa, &old_term);
-
     int64_t latency = -1;
-    if (o.live.play) {
-        int64_t onset = 0;
-        rc = find_onset(&o, &seg, feed.preroll, &onset, &latency);
-        if (rc == 0 && seg.first < onset + (int64_t)(SETTLE_S * rate))
-            seg.first = onset + (int64_t)(SETTLE_S * rate);
-    }
-    seg.nframes = o.duration_s > 0 ? (int64_t)llround(o.duration_s * rate) : total - seg.first;
-    if (rc == 0 && seg.nframes <= 0)
-        rc = ml_cli_error("live: --seconds %.3f leaves nothing to analyse after the tone's return", o.live.seconds);
-    if (rc == 0 && ml_source_seek(seg.src, seg.first) != ML_OK) {
-        if (seg.live && !seg.failed)
-            rc = ml_cli_error("%s: %s", o.input, ml_source_detail(seg.src));
-        else
-            rc = ML_EXIT_USAGE;
-    }
+    rc = segment(o, &seg, &feed, &latency);
     static ml_report rep;
     memset(&rep, 0, sizeof rep);
     ml_plot_data pd;
     ml_plot_data_init(&pd);
-    if (o.plot_path || o.report_path)
-        o.plot = &pd;
+    if (o->out.plot_path || o->out.report_path)
+        o->out.plot = &pd;
     if (rc == 0)
-        rc = ml_measure_run(&o, &seg, &rep);
+        rc = ml_measure_run(o, &seg, &rep);
     ml_source_stop(seg.src);
     sigaction(SIGINT, &old_int, NULL);
     sigaction(SIGTERM, &old_term, NULL);
-
+    if (rc == 0)
+        describe_capture(&rep, o, &seg, latency);
     ml_live_stats ls;
     memset(&ls, 0, sizeof ls);
     ml_source_live_stats(seg.src, &ls);
-    bool written = false;
-    if (rc == 0) {
-        char dev[sizeof ls.device_name + 8];
-        snprintf(dev, sizeof dev, "live:%s", ls.device_name);
-        ml_printable(rep.path, sizeof rep.path, dev); /* device names are the system's text */
-        rep.frames = (int64_t)ls.captured_frames;
-        rep.duration_s = (double)ls.captured_frames / rate;
-        rep.analysed_s = (double)seg.nframes / rate;
-        ml_measure_add(&rep, "live.lost_frames", (double)ls.lost_frames);
-        ml_measure_add(&rep, "live.overflows", (double)ls.overflow_events);
-        ml_measure_add(&rep, "live.latency_ms", latency >= 0 ? 1000.0 * (double)latency / rate : NAN);
-        ml_measure_add(&rep, "live.latency_frames", latency >= 0 ? (double)latency : NAN);
-        char shown[4 * sizeof ls.device_name];
-        ml_printable(shown, sizeof shown, ls.device_name);
-        ml_report_add_text(&rep, "live.device", shown);
-        ml_printable(shown, sizeof shown, ls.host_api);
-        ml_report_add_text(&rep, "live.host_api", shown);
-        ml_report_add_text(&rep, "live.complete", seg.ended_early ? "no" : "yes");
-        if (seg.ended_early)
-            ml_report_note(&rep, "capture incomplete: %s after %.3f s of %.3f s", seg.failed ? "the device failed"
-                           : "interrupted", (double)ls.captured_frames / rate, o.live.seconds);
-        if (ls.lost_frames > 0)
-            ml_report_note(&rep, "%llu frames were lost (the computer fell behind the sound card)",
-                           (unsigned long long)ls.lost_frames);
-        if (ls.overflow_events > 0)
-            ml_report_note(&rep, "the device reported %llu input overflows", (unsigned long long)ls.overflow_events);
-        if (ls.underflow_frames > 0 && o.live.play)
-            ml_report_note(&rep, "the played tone ran dry for %llu frames", (unsigned long long)ls.underflow_frames);
-        rc = ml_plots_write_measure(outs->plot, outs->pdf, &rep, &pd, cmdline);
-        if (rc == 0)
-            rc = ml_measure_write(&o, &rep, outs->report);
-        written = rc == 0;
-        if (rc == 0)
-            rc = seg.failed ? ML_EXIT_USAGE
-                            : strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
-    }
     g_live = NULL;
-    ml_plot_data_free(&pd);
     ml_source_close(seg.src); /* completes the capture file */
     ml_synth_destroy(feed.syn);
-    return live_publish(outs, written, ls.captured_frames, rc);
+    const int crc = ml_finish_capture_end(files, ls.captured_frames > 0);
+    if (rc == 0 && crc == 0)
+        rc = ml_finish(&(ml_finish_job){.out = &o->out, .files = files, .report = &rep, .plot = &pd,
+                                        .cmdline = cmdline, .input_failed = seg.failed});
+    else
+        rc = ml_finish_failed(files, rc != 0 ? rc : crc);
+    ml_plot_data_free(&pd);
+    return rc;
+}
+
+int ml_cmd_live(int argc, char **argv)
+{
+    return ml_measure_command(argc, argv, 0, ml_plots_cmdline(argc, argv), live_run, NULL);
 }

@@ -1,4 +1,4 @@
-/* The log command's options and its run on an open input (analyzer/log.c).
+/* The log command's options and its run on an open input (analyzer/log*.c).
  * SPDX-License-Identifier: MIT
  */
 #ifndef ML_ANALYZER_LOG_H
@@ -6,21 +6,16 @@
 
 #include <stdbool.h>
 
-#include "analyzer/measure.h"
+#include "analyzer/options.h"
 #include "io/source.h"
 
 typedef struct {
-    const char *input;      /* file path, or NULL with a device                   */
-    const char *device;     /* --device NAME|INDEX                                 */
-    double device_rate_hz;  /* --rate (live; 0 = device default)                  */
-    long device_channels;   /* --channels (live; 0 = device default)              */
+    ml_input_opts in;       /* FILE or --device (--rate, --channels, --seconds), --kind, --channel */
+    ml_analysis_opts an;    /* --mains, --band, --carrier, --bandwidth, --carrier-reference, ...  */
     const char *out, *events, *plot;
-    double interval_s, seconds, rotate_h, pace; /* seconds 0 / rotate_h 0 / pace 0: off */
+    double interval_s, rotate_h, pace; /* rotate_h 0 / pace 0: off                        */
     bool have_start;
     double start_utc;       /* --start-time, seconds since 1970 UTC               */
-    ml_kind kind;           /* ML_KIND_AUDIO, ML_KIND_IF or ML_KIND_IQ             */
-    long channel;           /* 1-based                                            */
-    double carrier_hz, bandwidth_hz, mains_hz; /* NAN / 0 / 0 = choose            */
     double impulse_db, hum_db, noise_db, loss_db;
 } ml_log_opts;
 
@@ -28,9 +23,10 @@ typedef struct {
 int ml_log_parse(int argc, char **argv, ml_log_opts *o);
 
 /* Logs src (any ml_source: file or live; frames may be -1) whose first frame is at start_utc
- * (seconds since 1970 UTC) until its end, o->seconds, SIGINT/SIGTERM or a read error. Writes
- * rows, events, summary (stdout) and plot. Does not close src. Returns 0, 1 when the input failed
- * mid-way (logged as an input-end event), or 2 after a printed error. */
+ * (seconds since 1970 UTC) until its end, o->in.seconds (0: no limit), SIGINT/SIGTERM or a read
+ * error. o->in.kind is the kind the input step decided (ML_KIND_AUTO is read as audio). Writes
+ * rows, events, summary (stdout) and plot. Does not close src. Returns 0, 1 when the input
+ * failed mid-way (logged as an input-end event), or 2 after a printed error. */
 int ml_log_run(const ml_log_opts *o, ml_source *src, double start_utc);
 
 #endif

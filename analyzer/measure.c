@@ -13,252 +13,92 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "analyzer/finish.h"
 #include "analyzer/plots.h"
 #include "analyzer/registry.h"
 #include "analyzer/uncertainty.h"
+#include "analyzer/values.h"
+#include "dsp/channels.h"
+#include "dsp/figures.h"
+#include "dsp/resolution.h"
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
-#include "io/output.h"
 #include "io/printable.h"
 
 static void measure_usage(FILE *f)
 {
-    fprintf(f,
-            "usage: modlens measure [options] FILE\n"
-            "\n"
-            "Analyses a recording (WAV, FLAC, AIFF, ...): distortion and noise of demodulated audio, or\n"
-            "the modulation of an AM signal captured as a downconverted IF or as I/Q.\n"
-            "\n"
-            "input:\n"
-            "  --kind auto|audio|if|iq   what the recording holds (default auto: two channels -> iq;\n"
-            "                            one channel -> if when it looks like an AM carrier, else audio)\n"
-            "  --channel N               channel to analyse, 1-based (default 1; for iq the I channel)\n"
-            "  --swap-iq                 the I/Q channels are Q then I\n"
-            "  --start S                 skip S seconds at the start (default 0)\n"
-            "  --duration S              analyse S seconds (default: to the end)\n"
-            "audio analysis:\n"
-            "  --band LO:HI              measurement band in Hz (default 20:20000, clipped to Nyquist\n"
-            "                            and, for if/iq, to the channel bandwidth)\n"
-            "  --tone HZ                 expected test-tone frequency (default: strongest in band)\n"
-            "  --harmonics N             highest harmonic order in THD, 2..%d (default 10)\n"
-            "  --mains 50|60             mains frequency for hum (default: detected)\n"
-            "  --window NAME             hft248d (default), hft144d, blackman-harris, hann\n"
-            "modulation analysis (if/iq):\n"
-            "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
-            "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
-            "                            widest that fits, at most 10000)\n"
-            "  --carrier-reference FILE  capture of the unmodulated carrier (same set-up) giving C\n"
-            "  --reference-channel N     channel carrying the modulating audio (trapezoid linearity)\n"
-            "  --peak-hold-ms MS         peak readings need MS per second above the level (default 5)\n"
-            "checks and output:\n"
-            "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
-            "  --format text|json|csv    report format (default text)\n"
-            "  --output FILE             write the report to FILE (default standard output)\n"
-            "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
-            "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
-            "\n"
-            "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
-            ML_MAX_HARMONICS, ml_cli_safety);
-}
-
-static int parse_band(const char *s, ml_measure_opts *o)
-{
-    char buf[64];
-    if (snprintf(buf, sizeof buf, "%s", s) >= (int)sizeof buf) /* never a number cut short */
-        return 0;
-    char *colon = strchr(buf, ':');
-    if (colon == NULL)
-        return 0;
-    *colon = '\0';
-    double lo, hi;
-    if (!ml_cli_number(buf, &lo) || !ml_cli_number(colon + 1, &hi) || lo < 0 || hi <= lo)
-        return 0;
-    o->audio.band_lo_hz = lo;
-    o->audio.band_hi_hz = hi;
-    return 1;
-}
-
-/* "FREQ[,LEVEL]" for --play-tone. */
-static int parse_play(const char *s, ml_live_opts *l)
-{
-    char buf[64];
-    if (snprintf(buf, sizeof buf, "%s", s) >= (int)sizeof buf) /* never a number cut short */
-        return 0;
-    char *comma = strchr(buf, ',');
-    if (comma)
-        *comma = '\0';
-    double f, lv = -12.0;
-    if (!ml_cli_number(buf, &f) || f <= 0 || (comma && (!ml_cli_number(comma + 1, &lv) || lv > 0 || lv < -120)))
-        return 0;
-    l->play = true;
-    l->play_hz = f;
-    l->play_dbfs = lv;
-    return 1;
+    fprintf(
+        f,
+        "usage: modlens measure [options] FILE\n"
+        "\n"
+        "Analyses a recording (WAV, FLAC, AIFF, ...): distortion and noise of demodulated audio, or\n"
+        "the modulation of an AM signal captured as a downconverted IF or as I/Q.\n"
+        "\n"
+        "input:\n"
+        "  --kind auto|audio|if|iq   what the recording holds (default auto: two channels -> iq;\n"
+        "                            one channel -> if when it looks like an AM carrier, else audio)\n"
+        "  --channel N               channel to analyse, 1-based (default 1; for iq the I channel)\n"
+        "  --swap-iq                 the I/Q channels are Q then I\n"
+        "  --start S                 skip S seconds at the start (default 0)\n"
+        "  --duration S              analyse S seconds (default: to the end)\n"
+        "audio analysis:\n"
+        "  --band LO:HI              measurement band in Hz (default 20:20000, clipped to Nyquist\n"
+        "                            and, for if/iq, to the channel bandwidth)\n"
+        "  --tone HZ                 expected test-tone frequency (default: strongest in band)\n"
+        "  --harmonics N             highest harmonic order in THD, 2..%d (default 10)\n"
+        "  --mains 50|60             mains frequency for hum (default: detected)\n"
+        "  --window NAME             hft248d (default), hft144d, blackman-harris, hann\n"
+        "modulation analysis (if/iq):\n"
+        "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
+        "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
+        "                            widest that fits, at most 10000)\n"
+        "  --carrier-reference FILE  capture of the unmodulated carrier (same set-up) giving C\n"
+        "  --reference-channel N     channel carrying the modulating audio (trapezoid linearity)\n"
+        "  --peak-hold-ms MS         peak readings need MS per second above the level (default 5)\n"
+        "checks and output:\n"
+        "  --limits FILE             limits profile (INI): <metric>_min / <metric>_max, [mask]\n"
+        "  --format text|json|csv    report format (default text)\n"
+        "  --output FILE             write the report to FILE (default standard output)\n"
+        "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
+        "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
+        "\n"
+        "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
+        ML_MAX_HARMONICS, ml_cli_safety);
 }
 
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
 {
-    enum { O_SWAP = 256, O_CARRIER, O_BANDWIDTH, O_CREF, O_REFCH, O_HOLD, O_PLOT, O_REPORT, O_DEVICE, O_RATE,
-           O_CHANNELS, O_SECONDS, O_SAVE, O_PLAY, O_OUTDEV };
     const bool live = ninputs == 0;
-    static const struct option longopts[] = {
-        {"kind", required_argument, NULL, 'k'},
-        {"channel", required_argument, NULL, 'c'},
-        {"swap-iq", no_argument, NULL, O_SWAP},
-        {"start", required_argument, NULL, 's'},
-        {"duration", required_argument, NULL, 'd'},
-        {"band", required_argument, NULL, 'b'},
-        {"tone", required_argument, NULL, 't'},
-        {"harmonics", required_argument, NULL, 'H'},
-        {"mains", required_argument, NULL, 'm'},
-        {"window", required_argument, NULL, 'w'},
-        {"carrier", required_argument, NULL, O_CARRIER},
-        {"bandwidth", required_argument, NULL, O_BANDWIDTH},
-        {"carrier-reference", required_argument, NULL, O_CREF},
-        {"reference-channel", required_argument, NULL, O_REFCH},
-        {"peak-hold-ms", required_argument, NULL, O_HOLD},
-        {"limits", required_argument, NULL, 'l'},
-        {"format", required_argument, NULL, 'f'},
-        {"output", required_argument, NULL, 'o'},
-        {"plot", required_argument, NULL, O_PLOT},
-        {"report", required_argument, NULL, O_REPORT},
-        {"help", no_argument, NULL, 'h'},
-        {"device", required_argument, NULL, O_DEVICE},
-        {"rate", required_argument, NULL, O_RATE},
-        {"channels", required_argument, NULL, O_CHANNELS},
-        {"seconds", required_argument, NULL, O_SECONDS},
-        {"save", required_argument, NULL, O_SAVE},
-        {"play-tone", required_argument, NULL, O_PLAY},
-        {"output-device", required_argument, NULL, O_OUTDEV},
-        {NULL, 0, NULL, 0},
-    };
+    static const struct option own[] = {{"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0}};
+    /* measure and compare take the device options only to say whose they are */
+    struct option longopts[64];
+    ml_options_table(ML_OPTS_SOURCE | ML_OPTS_SEGMENT | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_REPORT
+                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE,
+                     own, longopts, sizeof longopts / sizeof *longopts);
     const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);
-    o->live.enabled = live;
-    o->live.seconds = 5.0;
-    o->kind = ML_KIND_AUTO;
-    o->channel = 1;
-    o->duration_s = -1;
-    o->audio = ml_audio_config_default();
-    o->window = ML_WINDOW_HFT248D;
-    o->format = ML_FORMAT_TEXT;
-    o->carrier_hz = NAN;
-    o->peak_hold_ms = 5.0;
+    o->in = ml_input_opts_default();
+    o->an = ml_analysis_opts_default();
+    o->out = ml_output_opts_default();
+    o->in.live = live;
     opterr = 0;
     optind = 1;
-    int ch, rc;
-    double v;
-    long n;
-    int li = -1;
-    while ((li = -1, ch = getopt_long(argc, argv, ":h", longopts, &li)) != -1) {
-        if (!live && ch >= O_DEVICE) /* named from the table: argv[optind - 1] may be its value */
-            return ml_cli_error("--%s belongs to 'modlens live', not %s", li >= 0 ? longopts[li].name : "?", cmd);
-        switch (ch) {
-        case 'k':
-            if (strcmp(optarg, "auto") == 0) o->kind = ML_KIND_AUTO;
-            else if (strcmp(optarg, "audio") == 0) o->kind = ML_KIND_AUDIO;
-            else if (strcmp(optarg, "if") == 0) o->kind = ML_KIND_IF;
-            else if (strcmp(optarg, "iq") == 0) o->kind = ML_KIND_IQ;
-            else return ml_cli_error("--kind: '%s' is not auto, audio, if or iq", optarg);
-            break;
-        case 'c':
-            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
-                return ml_cli_error("--channel: '%s' is not a channel number 1..%d", optarg, ML_MAX_CHANNELS);
-            o->channel = n;
-            break;
-        case O_REFCH:
-            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
-                return ml_cli_error("--reference-channel: '%s' is not a channel number 1..%d", optarg,
-                                    ML_MAX_CHANNELS);
-            o->reference_channel = n;
-            break;
-        case O_SWAP: o->swap_iq = true; break;
-        case 's':
-            if (!ml_cli_number(optarg, &v) || v < 0 || v > ML_CLI_MAX_SECONDS)
-                return ml_cli_error("--start: '%s' is not a time in seconds, 0..%.0f", optarg, ML_CLI_MAX_SECONDS);
-            o->start_s = v;
-            break;
-        case 'd':
-            if (!ml_cli_number(optarg, &v) || v <= 0 || v > ML_CLI_MAX_SECONDS)
-                return ml_cli_error("--duration: '%s' is not a time in seconds, 0 < S <= %.0f", optarg,
-                                    ML_CLI_MAX_SECONDS);
-            o->duration_s = v;
-            break;
-        case 'b':
-            if (!parse_band(optarg, o))
-                return ml_cli_error("--band: '%s' is not LO:HI in Hz with 0 <= LO < HI", optarg);
-            break;
-        case 't':
-            if (!ml_cli_number(optarg, &v) || v <= 0)
-                return ml_cli_error("--tone: '%s' is not a frequency in Hz > 0", optarg);
-            o->audio.tone_hz = v;
-            break;
-        case 'H':
-            if (!ml_cli_int(optarg, &n) || n < 2 || n > ML_MAX_HARMONICS)
-                return ml_cli_error("--harmonics: '%s' is not an order 2..%d", optarg, ML_MAX_HARMONICS);
-            o->audio.harmonics = (int)n;
-            break;
-        case 'm':
-            if ((rc = ml_cli_mains(optarg, &o->audio.mains_hz)) != 0)
-                return rc;
-            break;
-        case 'w': {
-            int found = 0;
-            for (int w = ML_WINDOW_HANN; w < ML_WINDOW_COUNT; w++)
-                if (strcmp(optarg, ml_window_name((ml_window_type)w)) == 0) {
-                    o->window = (ml_window_type)w;
-                    found = 1;
-                }
-            if (!found)
-                return ml_cli_error("--window: '%s' is not hft248d, hft144d, blackman-harris or hann", optarg);
-            break;
+    int ch;
+    while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
+        const int rc = ml_options_apply(ch, optarg, &o->in, &o->an, &o->out);
+        if (rc > 0)
+            return rc;
+        if (rc == 0) {
+            if (!live && (ml_options_group(ch) & (ML_OPTS_DEVICE | ML_OPTS_CAPTURE))) {
+                const char *name = "";
+                for (size_t i = 0; longopts[i].name; i++)
+                    if (longopts[i].val == ch)
+                        name = longopts[i].name;
+                return ml_cli_error("--%s belongs to 'modlens live', not %s", name, cmd);
+            }
+            continue;
         }
-        case O_CARRIER:
-            if ((rc = ml_cli_carrier(optarg, &o->carrier_hz)) != 0)
-                return rc;
-            break;
-        case O_BANDWIDTH:
-            if ((rc = ml_cli_bandwidth(optarg, &o->bandwidth_hz)) != 0)
-                return rc;
-            break;
-        case O_CREF: o->carrier_reference = optarg; break;
-        case O_HOLD:
-            if (!ml_cli_number(optarg, &v) || v <= 0 || v >= 500)
-                return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", optarg);
-            o->peak_hold_ms = v;
-            break;
-        case 'l': o->limits_path = optarg; break;
-        case 'f':
-            if (strcmp(optarg, "text") == 0) o->format = ML_FORMAT_TEXT;
-            else if (strcmp(optarg, "json") == 0) o->format = ML_FORMAT_JSON;
-            else if (strcmp(optarg, "csv") == 0) o->format = ML_FORMAT_CSV;
-            else return ml_cli_error("--format: '%s' is not text, json or csv", optarg);
-            break;
-        case 'o': o->output_path = optarg; break;
-        case O_PLOT: o->plot_path = optarg; break;
-        case O_REPORT: o->report_path = optarg; break;
-        case O_DEVICE: o->live.device = optarg; break;
-        case O_OUTDEV: o->live.output_device = optarg; break;
-        case O_SAVE: o->live.save_path = optarg; break;
-        case O_RATE:
-            if (!ml_cli_number(optarg, &v) || v < 1000 || v > 1000000)
-                return ml_cli_error("--rate: '%s' is not a sample rate in Hz, 1000..1000000", optarg);
-            o->live.rate_hz = v;
-            break;
-        case O_CHANNELS:
-            if (!ml_cli_int(optarg, &n) || n < 1 || n > ML_MAX_CHANNELS)
-                return ml_cli_error("--channels: '%s' is not a channel count 1..%d", optarg, ML_MAX_CHANNELS);
-            o->live.channels = n;
-            break;
-        case O_SECONDS:
-            if (!ml_cli_number(optarg, &v) || v <= 0 || v > 86400)
-                return ml_cli_error("--seconds: '%s' is not a time in seconds, 0 < S <= 86400", optarg);
-            o->live.seconds = v;
-            break;
-        case O_PLAY:
-            if (!parse_play(optarg, &o->live))
-                return ml_cli_error("--play-tone: '%s' is not FREQ[,LEVEL] (Hz > 0, dBFS -120..0)", optarg);
-            break;
+        switch (ch) {
         case 'h': (live ? ml_live_usage : measure_usage)(stdout); return -1;
         case ':': case '?': return ml_cli_bad_option(ch, argv, cmd);
         default: return ml_cli_error("%s: unhandled option", cmd);
@@ -267,14 +107,15 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     if (live) {
         if (optind < argc)
             return ml_cli_error("live takes no FILE; unexpected '%s'", argv[optind]);
-        if (o->live.output_device && !o->live.play)
+        if (o->in.output_device && !o->in.play)
             return ml_cli_error("--output-device needs --play-tone");
-        if (o->duration_s > 0 && o->start_s + o->duration_s > o->live.seconds)
-            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f", o->start_s + o->duration_s,
-                                o->live.seconds);
-        if (o->start_s >= o->live.seconds)
-            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->start_s, o->live.seconds);
-        o->input = "live";
+        if (o->in.duration_s > 0 && o->in.start_s + o->in.duration_s > o->in.seconds)
+            return ml_cli_error("--start + --duration (%.3f s) exceed --seconds %.3f",
+                                o->in.start_s + o->in.duration_s, o->in.seconds);
+        if (o->in.start_s >= o->in.seconds)
+            return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->in.start_s,
+                                o->in.seconds);
+        o->in.path = "live";
         return 0;
     }
     if (ninputs == 2 && argc - optind != 2)
@@ -283,117 +124,71 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
         return ml_cli_error(optind >= argc ? "measure needs one input FILE (try 'modlens measure --help')"
                                            : "measure takes one input FILE; extra argument '%s'",
                             argv[argc - 1]);
-    o->input = argv[optind];
+    o->in.path = argv[optind];
     o->input2 = ninputs == 2 ? argv[optind + 1] : NULL;
     return 0;
 }
 
 void ml_measure_add(ml_report *r, const char *name, double value)
 {
-    const ml_metric_def *d = ml_registry_lookup(name, NULL);
-    ml_report_add(r, name, d ? d->unit : "", d ? d->decimals : 3, value);
+    ml_values_report(r, &(ml_value){name, value}, 1);
+}
+
+/* The table of harmonics (order, frequency, dBc) or of hum components (frequency, dBFS, dBc). */
+static void component_table(ml_report *r, bool hum, const ml_component *c, size_t n, double p1)
+{
+    static const char *const cols[2][3] = {{"order", "frequency_hz", "level_dbc"},
+                                           {"frequency_hz", "level_dbfs", "level_dbc"}};
+    static const int decimals[2][3] = {{0, 2, 2}, {1, 2, 2}};
+    ml_table *t = &r->tables[r->ntables++];
+    snprintf(t->path, sizeof t->path, "%s", hum ? "hum.components" : "audio.harmonics");
+    snprintf(t->title, sizeof t->title, "%s", hum ? "hum components" : "harmonics");
+    t->ncols = 3;
+    for (int k = 0; k < 3; k++) {
+        t->cols[k] = cols[hum][k];
+        t->decimals[k] = decimals[hum][k];
+    }
+    for (size_t i = 0; i < n && i < ML_REPORT_MAX_ROWS; i++) {
+        t->cell[i][0] = hum ? c[i].frequency_hz : c[i].order;
+        t->cell[i][1] = hum ? ml_power_dbfs(c[i].power) : c[i].frequency_hz;
+        t->cell[i][2] = ml_ratio_db(c[i].power, p1);
+        t->nrows++;
+    }
 }
 
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok)
 {
-    const double p1 = a->fundamental_power;
-    const double sinad = ml_ratio_db(p1, a->band_power - p1);
-    ml_measure_add(r, "audio.fundamental_hz", ok ? a->fundamental_hz : NAN);
-    ml_measure_add(r, "audio.fundamental_dbfs", ok ? ml_power_dbfs(p1) : NAN);
-    ml_measure_add(r, "audio.thd_pct", ok ? ml_ratio_pct(a->distortion_power, p1) : NAN);
-    ml_measure_add(r, "audio.thd_db", ok ? ml_ratio_db(a->distortion_power, p1) : NAN);
-    ml_measure_add(r, "audio.thdn_pct", ok ? ml_ratio_pct(a->band_power - p1, p1) : NAN);
-    ml_measure_add(r, "audio.thdn_db", ok ? -sinad : NAN);
-    ml_measure_add(r, "audio.sinad_db", ok ? sinad : NAN);
-    ml_measure_add(r, "audio.snr_db", ok ? ml_ratio_db(p1, a->noise_power) : NAN);
-    ml_measure_add(r, "audio.enob_bits", ok ? ml_enob_bits(sinad) : NAN);
-    ml_measure_add(r, "audio.noise_dbfs", ok ? ml_power_dbfs(a->noise_power) : NAN);
-    ml_measure_add(r, "hum.mains_hz", ok ? a->mains_hz : NAN);
-    ml_measure_add(r, "hum.level_dbfs", ok ? ml_power_dbfs(a->hum_power) : NAN);
-    ml_measure_add(r, "hum.level_dbc", ok ? ml_ratio_db(a->hum_power, p1) : NAN);
+    ml_audio_plain_figures f;
+    ml_value v[ML_VALUES_MAX];
+    ml_figures_audio(a, ok, &f);
+    ml_values_report(r, v, ml_values_audio(&f, v));
     if (!ok)
         return;
-    ml_table *t = &r->tables[r->ntables++];
-    snprintf(t->path, sizeof t->path, "audio.harmonics");
-    snprintf(t->title, sizeof t->title, "harmonics");
-    t->ncols = 3;
-    t->cols[0] = "order";
-    t->cols[1] = "frequency_hz";
-    t->cols[2] = "level_dbc";
-    t->decimals[0] = 0;
-    t->decimals[1] = 2;
-    t->decimals[2] = 2;
-    for (size_t i = 0; i < a->nharmonics && i < ML_REPORT_MAX_ROWS; i++) {
-        t->cell[i][0] = a->harmonics[i].order;
-        t->cell[i][1] = a->harmonics[i].frequency_hz;
-        t->cell[i][2] = ml_ratio_db(a->harmonics[i].power, p1);
-        t->nrows++;
-    }
-    t = &r->tables[r->ntables++];
-    snprintf(t->path, sizeof t->path, "hum.components");
-    snprintf(t->title, sizeof t->title, "hum components");
-    t->ncols = 3;
-    t->cols[0] = "frequency_hz";
-    t->cols[1] = "level_dbfs";
-    t->cols[2] = "level_dbc";
-    t->decimals[0] = 1;
-    t->decimals[1] = 2;
-    t->decimals[2] = 2;
-    for (size_t i = 0; i < a->nhum && i < ML_REPORT_MAX_ROWS; i++) {
-        t->cell[i][0] = a->hum[i].frequency_hz;
-        t->cell[i][1] = ml_power_dbfs(a->hum[i].power);
-        t->cell[i][2] = ml_ratio_db(a->hum[i].power, p1);
-        t->nrows++;
-    }
+    component_table(r, false, a->harmonics, a->nharmonics, a->fundamental_power);
+    component_table(r, true, a->hum, a->nhum, a->fundamental_power);
 }
 
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason)
 {
     const double rate = seg->info->rate_hz;
-    ml_printable(r->path, sizeof r->path, o->input); /* escaped, and a cut one ends in "..." */
+    ml_printable(r->path, sizeof r->path, o->in.path); /* escaped, and a cut one ends in "..." */
     snprintf(r->kind, sizeof r->kind, "%s", kind);
     snprintf(r->kind_reason, sizeof r->kind_reason, "%s", reason);
     snprintf(r->format, sizeof r->format, "%s", seg->info->format);
     r->sample_rate_hz = rate;
     r->channels = seg->info->channels;
-    r->channel = (int)o->channel;
+    r->channel = (int)o->in.channel;
     r->frames = seg->info->frames;
     r->duration_s = (double)seg->info->frames / rate;
     r->start_s = (double)seg->first / rate;
     r->analysed_s = (double)seg->nframes / rate;
-    if (o->limits_path)
-        ml_printable(r->limits_path, sizeof r->limits_path, o->limits_path);
+    if (o->out.limits_path)
+        ml_printable(r->limits_path, sizeof r->limits_path, o->out.limits_path);
     if (seg->info->cut_short)
         ml_report_note(r, "the file is cut short: its header announces more samples than it holds; the %lld "
                           "frames present were analysed",
                        (long long)seg->info->frames);
-}
-
-int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
-                    int64_t done)
-{
-    ml_status st = ml_source_read(seg->src, buf, want, got);
-    if (seg->live && (st != ML_OK || *got < want)) {
-        seg->ended_early = true;
-        seg->nframes = done + (int64_t)*got;
-        if (st != ML_OK && !seg->failed) {
-            seg->failed = true;
-            ml_cli_error("%s: %s", o->input, ml_source_detail(seg->src));
-        }
-        st = ML_OK;
-    }
-    if (st != ML_OK)
-        return ml_cli_error("%s: read failed at frame %lld: %s", o->input, (long long)(seg->first + done),
-                            ml_source_detail(seg->src));
-    if (*got < want && !seg->live)
-        return ml_cli_error("%s: file ends early: %lld of %lld frames could be read", o->input,
-                            (long long)(done + (int64_t)*got), (long long)seg->nframes);
-    const size_t nch = (size_t)seg->info->channels, n = *got * nch, i = ml_first_nonfinite(buf, n);
-    if (i < n)
-        return ml_cli_error("%s: frame %lld, channel %zu: sample is not a finite number (NaN or infinity)",
-                            o->input, (long long)(seg->first + done + (int64_t)(i / nch)), i % nch + 1);
-    return 0;
 }
 
 void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown)
@@ -412,263 +207,28 @@ void ml_measure_progress_end(bool shown)
         fprintf(stderr, "\r%*s\r", 30, "");
 }
 
-const char *ml_measure_no_signal(const ml_audio_result *a, double total_power)
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_finish_files *files)
 {
-    /* Float samples carry a 24-bit mantissa (rounding about 150 dB below the signal) and the
-     * flat-top window leaks 248 dB down: a band more than 200 dB below the whole input's power
-     * holds only rounding residue and leakage (DC alone, or an unmodulated carrier). */
-    if (!(a->band_power > 1e-20 * total_power))
-        return "nothing but rounding residue, more than 200 dB below the input's power";
-    /* the report's levels stop at -300 dB (dsp/metrics.h): below that a figure would be wrong */
-    if (!(a->fundamental_power > 1e-30 * 0.5))
-        return "the strongest component lies below -300 dBFS, the lowest level reported";
-    return NULL;
-}
-
-size_t ml_measure_nfft(double rate_hz, int64_t nframes)
-{
-    size_t nfft = ml_spectrum_config_default(rate_hz).nfft;
-    /* at least three half-overlapping segments, so the frequency comes from phase advances */
-    while (nfft > 256 && 2 * (int64_t)nfft > nframes)
-        nfft /= 2;
-    return (int64_t)nfft > nframes ? 0 : nfft;
-}
-
-/* The audio pipeline: the chosen channel through the spectrum and time statistics. */
-static int measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason, ml_report *rep)
-{
-    const ml_source_info *info = seg->info;
-    const double rate = info->rate_hz;
-    if (o->audio.band_hi_hz > rate / 2)
-        o->audio.band_hi_hz = rate / 2;
-    if (o->audio.band_lo_hz >= o->audio.band_hi_hz)
-        return ml_cli_error("%s: --band starts at %.1f Hz, at or above the Nyquist frequency %.1f Hz", o->input,
-                            o->audio.band_lo_hz, rate / 2);
-    if (o->audio.tone_hz > 0 && (o->audio.tone_hz < o->audio.band_lo_hz || o->audio.tone_hz > o->audio.band_hi_hz))
-        return ml_cli_error("--tone %.3f Hz lies outside the band %.1f..%.1f Hz", o->audio.tone_hz,
-                            o->audio.band_lo_hz, o->audio.band_hi_hz);
-    ml_spectrum_config sc = ml_spectrum_config_default(rate);
-    sc.window = o->window;
-    sc.nfft = ml_measure_nfft(rate, seg->nframes);
-    sc.hop = sc.nfft / 2;
-    if (sc.nfft == 0)
-        return ml_cli_error("%s: %lld frames are too few to analyse (at least 256 needed)", o->input,
-                            (long long)seg->nframes);
-    ml_spectrum *spec = NULL;
-    ml_status st = ml_spectrum_create(&sc, &spec);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", o->input, ml_strerror(st));
-    ml_stats stats;
-    ml_stats_init(&stats, info->bits);
-    const size_t nch = (size_t)info->channels;
-    float *buf = malloc(ML_BLOCK_FRAMES * nch * sizeof *buf);
-    float *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
-    ml_blocks *blocks = ml_blocks_create(spec, &sc, &o->audio, false);
-    int rc = 0;
-    if (buf == NULL || mono == NULL || blocks == NULL) {
-        rc = ml_cli_error("%s: out of memory", o->input);
-        goto done;
-    }
-    int64_t done = 0, next = 0;
-    bool shown = false;
-    while (done < seg->nframes && rc == 0) {
-        size_t want = seg->nframes - done < ML_BLOCK_FRAMES ? (size_t)(seg->nframes - done) : ML_BLOCK_FRAMES;
-        size_t got = 0;
-        rc = ml_measure_read(o, seg, buf, want, &got, done);
-        if (rc != 0)
-            break;
-        for (size_t i = 0; i < got; i++)
-            mono[i] = buf[i * nch + (size_t)(o->channel - 1)];
-        ml_stats_push(&stats, mono, got);
-        ml_spectrum_push(spec, mono, got);
-        done += (int64_t)got;
-        ml_measure_progress(seg, done, &next, &shown);
-    }
-    ml_measure_progress_end(shown);
-    if (rc != 0)
-        goto done;
-
-    ml_measure_describe(rep, o, seg, "audio", reason);
-    ml_audio_result ar;
-    st = ml_audio_analyze(spec, &o->audio, &ar);
-    const char *residue = st == ML_OK ? ml_measure_no_signal(&ar, stats.count ? stats.sumsq / (double)stats.count : 0)
-                                      : NULL;
-    if (residue != NULL)
-        st = ML_ENOSIGNAL;
-    const bool ok = st == ML_OK;
-    snprintf(rep->analysis, sizeof rep->analysis,
-             "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz", ml_window_name(o->window),
-             sc.nfft, rate / (double)sc.nfft, ml_spectrum_segments(spec), o->audio.band_lo_hz, o->audio.band_hi_hz);
-    if (!ok) {
-        if (stats.sumsq == 0)
-            ml_report_note(rep, "input is silent: every analysed sample is zero");
-        else if (st == ML_ENOSIGNAL)
-            ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", o->audio.band_lo_hz,
-                           o->audio.band_hi_hz, residue ? residue : "DC only?");
-        else {
-            rc = st == ML_EINVAL /* the only input-dependent cause: the band is too narrow for the bins */
-                     ? ml_cli_error("%s: the band %.1f..%.1f Hz holds too few spectrum bins of %.1f Hz to analyse "
-                                    "(the sample rate is %.0f Hz); widen --band or give a longer recording",
-                                    o->input, o->audio.band_lo_hz, o->audio.band_hi_hz, rate / (double)sc.nfft, rate)
-                     : ml_cli_error("%s: analysis failed: %s", o->input, ml_strerror(st));
-            goto done;
-        }
-    }
-    ml_measure_add_audio(rep, &ar, ok);
-    if (o->plot)
-        ml_plots_audio(o->plot, spec, &ar, ok);
-    const double peak = fmax(fabs(stats.min), fabs(stats.max));
-    ml_measure_add(rep, "audio.rms_dbfs",
-                   stats.sumsq > 0 ? ml_power_dbfs(stats.sumsq / (double)stats.count) : NAN);
-    ml_measure_add(rep, "audio.peak_dbfs", peak > 0 ? 20.0 * log10(peak) : NAN);
-    ml_measure_add(rep, "audio.dc_offset_pct", 100.0 * ml_stats_mean(&stats));
-    ml_measure_add(rep, "audio.clipped_samples", (double)stats.clipped);
-    if (stats.clipped > 0)
-        ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
-                       (unsigned long long)stats.clipped);
-    if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
-        ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
-    ml_blocks_report(blocks, rep, NULL);
-done:
-    free(buf);
-    free(mono);
-    ml_blocks_destroy(blocks);
-    ml_spectrum_destroy(spec);
-    return rc;
-}
-
-/* Opens the input and checks the segment; 0 or an exit status (error printed). */
-static int open_segment(ml_measure_opts *o, ml_segment *seg)
-{
-    char err[512];
-    memset(seg, 0, sizeof *seg);
-    ml_status st = ml_source_open_file(o->input, &seg->src, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s%s%s", o->input, ml_strerror(st), err[0] ? ": " : "", err);
-    const ml_source_info *info = ml_source_get_info(seg->src);
-    seg->info = info;
-    const double rate = info->rate_hz;
-    if (info->frames == 0)
-        return ml_cli_error("%s: the file holds no audio frames", o->input);
-    if (info->channels > ML_MAX_CHANNELS)
-        return ml_cli_error("%s: %d channels; at most %d are supported", o->input, info->channels,
-                            ML_MAX_CHANNELS);
-    if (o->channel > info->channels)
-        return ml_cli_error("%s: --channel %ld but the file has %d channel%s", o->input, o->channel,
-                            info->channels, info->channels == 1 ? "" : "s");
-    if (o->reference_channel > info->channels)
-        return ml_cli_error("%s: --reference-channel %ld but the file has %d channel%s", o->input,
-                            o->reference_channel, info->channels, info->channels == 1 ? "" : "s");
-    /* in double first: no --start or --duration may overflow a frame count (round = llround) */
-    const double first = round(o->start_s * rate), total = (double)info->frames;
-    const double n = o->duration_s < 0 ? total - first : round(o->duration_s * rate);
-    if (!(first < total) || !(first + n <= total))
-        return ml_cli_error("%s: the segment %.3f s + %.3f s goes past the end of the file (%.3f s)", o->input,
-                            o->start_s, o->duration_s < 0 ? 0.0 : o->duration_s, (double)info->frames / rate);
-    seg->first = (int64_t)first;
-    seg->nframes = (int64_t)n;
-    if (seg->first > 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        return ml_cli_error("%s: cannot seek to %.3f s: %s", o->input, o->start_s, ml_source_detail(seg->src));
-    return 0;
-}
-
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep, ml_output *report)
-{
-    char err[512];
-    FILE *f = NULL;
-    if (ml_output_begin(report, &f, err, sizeof err) != ML_OK)
-        return ml_cli_error("%s: %s", ml_output_path(report), err);
-    if (ml_report_write(f, rep, o->format) != ML_OK) {
-        ml_output_discard(report);
-        return ml_cli_error("%s: cannot write the report", ml_output_path(report));
-    }
-    if (ml_output_end(report, err, sizeof err) != ML_OK)
-        return ml_cli_error("%s: %s", ml_output_path(report), err);
-    return 0;
-}
-
-int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_measure_outputs *outs)
-{
-    char err[512];
-    memset(outs, 0, sizeof *outs);
-    int rc = ml_plots_check_paths(o->plot_path, o->report_path);
-    if (rc != 0)
-        return rc;
-    if (o->limits_path) {
-        ml_status st = ml_limits_load(o->limits_path, limits, err, sizeof err);
-        if (st != ML_OK)
-            return ml_cli_error("%s: %s", o->limits_path, err);
-        o->limits = limits;
-    }
-    /* nothing written may replace an input, and no two outputs may share a file */
-    ml_output_set *set = NULL;
-    if (ml_output_set_create(&set) != ML_OK)
-        return ml_cli_error("out of memory");
-    outs->set = set;
-    ml_output_set_input(set, o->live.enabled ? NULL : o->input, o->input2 ? "recording A" : "the recording");
-    ml_output_set_input(set, o->input2, "recording B");
-    ml_output_set_input(set, o->limits_path, "the limits profile");
-    ml_output_set_input(set, o->carrier_reference, "the carrier reference");
-    ml_output_set_add(set, o->output_path ? o->output_path : "-", "the report (--output)", ML_OUTPUT_STDOUT_OK,
-                      &outs->report);
-    ml_output_set_add(set, o->live.save_path, "the capture (--save)", 0, &outs->save);
-    ml_output_set_add(set, o->plot_path, "the pictures (--plot)", 0, &outs->plot);
-    ml_output_set_add(set, o->report_path, "the PDF record (--report)", 0, &outs->pdf);
-    const char *bad = "";
-    if (ml_output_set_check(set, &bad, err, sizeof err) != ML_OK) {
-        ml_measure_outputs_free(outs);
-        return ml_cli_error("%s: %s", bad, err);
-    }
-    return 0;
-}
-
-int ml_measure_commit(ml_measure_outputs *outs)
-{
-    char err[512];
-    const char *bad = "";
-    if (ml_output_set_commit(outs->set, &bad, err, sizeof err) != ML_OK)
-        return ml_cli_error("%s: %s", bad, err);
-    return 0;
-}
-
-void ml_measure_outputs_free(ml_measure_outputs *outs)
-{
-    ml_output_set_destroy(outs->set);
-    memset(outs, 0, sizeof *outs);
+    const ml_finish_input ins[3] = {
+        {o->in.live ? NULL : o->in.path, o->input2 ? "recording A" : "the recording"},
+        {o->input2, "recording B"},
+        {o->an.carrier_reference, "the carrier reference"},
+    };
+    return ml_finish_prepare(&o->out, limits, ins, 3, o->in.save_path, files);
 }
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
 {
-    ml_kind kind = o->kind;
+    ml_kind kind;
     char reason[160];
-    double carrier = o->carrier_hz;
-    int rc = 0;
-    switch (kind) {
-    case ML_KIND_AUDIO: snprintf(reason, sizeof reason, "--kind audio"); break;
-    case ML_KIND_IF: snprintf(reason, sizeof reason, "--kind if"); break;
-    case ML_KIND_IQ: snprintf(reason, sizeof reason, "--kind iq"); break;
-    case ML_KIND_AUTO:
-        if (seg->info->channels - (o->reference_channel > 0 ? 1 : 0) >= 2) {
-            kind = ML_KIND_IQ;
-            snprintf(reason, sizeof reason, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
-                     o->channel, o->channel + 1);
-        } else {
-            bool is_if = false;
-            rc = ml_measure_detect_if(o, seg, &is_if, &carrier, reason, sizeof reason);
-            if (rc != 0)
-                return rc;
-            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
-            if (!is_if)
-                carrier = o->carrier_hz;
-        }
-        break;
-    }
+    double carrier;
+    int rc = ml_input_kind(&o->in, &o->an, seg, ML_INPUT_LOOK_S, &kind, &carrier, reason, sizeof reason);
+    if (rc != 0)
+        return rc;
     if (kind == ML_KIND_AUDIO)
-        rc = measure_audio(o, seg, reason, rep);
+        rc = ml_measure_audio(o, seg, reason, rep);
     else
         rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
-    if (rc == 0 && o->limits)
-        ml_limits_apply(o->limits, rep);
     return rc;
 }
 
@@ -676,41 +236,47 @@ int ml_measure_analyse(ml_measure_opts *o, ml_report *rep)
 {
     ml_segment seg;
     memset(rep, 0, sizeof *rep);
-    int rc = open_segment(o, &seg);
+    int rc = ml_input_open_file(&o->in, &seg);
     if (rc == 0)
         rc = ml_measure_run(o, &seg, rep);
     ml_source_close(seg.src);
     return rc;
 }
 
-int ml_cmd_measure(int argc, char **argv)
+int ml_measure_command(int argc, char **argv, int ninputs, char *cmdline, ml_measure_body *body, void *ctx)
 {
-    char cmdline[1024];
-    ml_plots_cmdline(argc, argv, cmdline, sizeof cmdline);
     ml_measure_opts o;
-    int rc = ml_measure_parse(argc, argv, &o, 1);
-    if (rc != 0)
-        return rc < 0 ? ML_EXIT_OK : rc;
     static ml_limits limits;
-    ml_measure_outputs outs;
-    if ((rc = ml_measure_prepare(&o, &limits, &outs)) != 0)
-        return rc;
+    ml_finish_files files;
+    int rc = ml_measure_parse(argc, argv, &o, ninputs);
+    if (rc == 0)
+        rc = ml_measure_prepare(&o, &limits, &files);
+    if (rc == 0) {
+        rc = body(&o, &files, cmdline, ctx);
+        ml_finish_files_free(&files); /* whatever was not published goes */
+    }
+    free(cmdline);
+    return rc < 0 ? ML_EXIT_OK : rc;
+}
 
+/* measure FILE: the analysis, then the finish step. */
+static int measure_body(ml_measure_opts *o, ml_finish_files *files, const char *cmdline, void *ctx)
+{
+    (void)ctx;
     static ml_report rep;
     ml_plot_data pd;
     ml_plot_data_init(&pd);
-    if (o.plot_path || o.report_path)
-        o.plot = &pd;
-    rc = ml_measure_analyse(&o, &rep);
+    if (o->out.plot_path || o->out.report_path)
+        o->out.plot = &pd;
+    int rc = ml_measure_analyse(o, &rep);
     if (rc == 0)
-        rc = ml_plots_write_measure(outs.plot, outs.pdf, &rep, &pd, cmdline);
-    if (rc == 0)
-        rc = ml_measure_write(&o, &rep, outs.report);
-    if (rc == 0) /* all or nothing: published only when everything was written */
-        rc = ml_measure_commit(&outs);
-    ml_measure_outputs_free(&outs);
+        rc = ml_finish(&(ml_finish_job){.out = &o->out, .files = files, .report = &rep, .plot = &pd,
+                                        .cmdline = cmdline});
     ml_plot_data_free(&pd);
-    if (rc == 0)
-        rc = strcmp(ml_report_verdict(&rep), "fail") == 0 ? ML_EXIT_FAIL : ML_EXIT_OK;
     return rc;
+}
+
+int ml_cmd_measure(int argc, char **argv)
+{
+    return ml_measure_command(argc, argv, 1, ml_plots_cmdline(argc, argv), measure_body, NULL);
 }

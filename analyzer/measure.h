@@ -8,73 +8,31 @@
 #include <stdint.h>
 #include <stdio.h>
 
+#include "analyzer/finish.h"
+#include "analyzer/input.h"
 #include "analyzer/limits.h"
+#include "analyzer/options.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
-#include "io/output.h"
 #include "io/plot.h"
 #include "io/report.h"
-#include "io/source.h"
 
 #define ML_BLOCK_FRAMES 4096
-#define ML_MAX_CHANNELS 64
 
-typedef enum { ML_KIND_AUTO, ML_KIND_AUDIO, ML_KIND_IF, ML_KIND_IQ } ml_kind;
-
-/* Options of `modlens live` (capture from a sound card instead of a file). */
+/* Options of measure, live and compare (watch takes the same groups). */
 typedef struct {
-    bool enabled;             /* live capture instead of a file                              */
-    const char *device;       /* NULL: default input                                         */
-    double rate_hz;           /* 0: the device's default                                     */
-    long channels;            /* 0: as the kind needs (iq 2, else 1, plus a reference)       */
-    double seconds;           /* capture length                                               */
-    const char *save_path;    /* raw capture, NULL for none                                   */
-    bool play;                /* play a tone while capturing                                  */
-    double play_hz, play_dbfs;
-    const char *output_device;
-} ml_live_opts;
-
-typedef struct {
-    const char *input;
-    ml_kind kind;
-    long channel;             /* 1-based; for iq the I channel (Q is the next one)          */
-    long reference_channel;   /* 1-based, 0 = none                                          */
-    bool swap_iq;
-    double start_s;
-    double duration_s;        /* < 0: to the end                                            */
-    ml_audio_config audio;
-    ml_window_type window;
-    double carrier_hz;        /* NAN = detect                                               */
-    double bandwidth_hz;      /* 0 = widest that fits, at most 10 kHz                       */
-    const char *carrier_reference;
-    double peak_hold_ms;
-    const char *limits_path;
-    const ml_limits *limits;  /* loaded profile or NULL                                     */
-    ml_report_format format;
-    const char *output_path;
-    ml_live_opts live;
+    ml_input_opts in;
+    ml_analysis_opts an;
+    ml_output_opts out;
     const char *input2;       /* compare: the second input B                                */
-    const char *plot_path;    /* --plot FILE (.png, .svg, .pdf) or NULL                      */
-    const char *report_path;  /* --report FILE.pdf or NULL                                   */
-    ml_plot_data *plot;       /* filled with the pictures' data when not NULL               */
 } ml_measure_opts;
-
-/* The analysed segment of an open source. */
-typedef struct {
-    ml_source *src;
-    const ml_source_info *info;
-    int64_t first;            /* first frame                                                */
-    int64_t nframes;          /* frames analysed (shortened when a live capture ends early) */
-    bool live;                /* a live capture: an early end shortens the segment           */
-    bool ended_early;         /* the capture ended before nframes (interrupt or fault)       */
-    bool failed;              /* ... because of a device fault (message already printed)     */
-} ml_segment;
 
 /* Parses the options and ninputs input files into o (1: measure, 2: compare, 0: live, which also
  * takes the capture options); 0, -1 after --help, or
  * an exit status (error printed). argv[0] names the command in messages. */
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs);
-/* Analyses o->input into rep (limits applied when o->limits); 0 or an exit status (error printed). */
+/* Analyses o->in.path into rep (no limits: the finish step applies them, analyzer/finish.h); 0 or
+ * an exit status (error printed). */
 int ml_measure_analyse(ml_measure_opts *o, ml_report *rep);
 
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
@@ -82,59 +40,35 @@ void ml_measure_add(ml_report *r, const char *name, double value);
 /* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
 
-/* The files a measure, live or compare run writes (io/output.h): registered and checked before
- * any work by ml_measure_prepare, written into temporaries, published together by
- * ml_measure_commit only when the run succeeded. A member is NULL when not asked for; report is
- * standard output when there is no --output. */
-typedef struct {
-    ml_output_set *set;
-    ml_output *report, *plot, *pdf, *save;
-} ml_measure_outputs;
+/* ml_finish_prepare for o's inputs (the recording or recordings A and B, the carrier reference)
+ * and outputs; 0 with *files to release by ml_finish_files_free, or an exit status (error
+ * printed). */
+int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_finish_files *files);
 
-/* Checks the --plot/--report names, loads --limits, registers the inputs (the recordings, the
- * profile, the carrier reference) and every output, and refuses any output that cannot or must
- * not be written; 0 or an exit status (error printed). On 0, outs holds the checked outputs:
- * release them with ml_measure_outputs_free on every path. */
-int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_measure_outputs *outs);
-/* Publishes every output written so far (io/output.h); 0 or an exit status (error printed). */
-int ml_measure_commit(ml_measure_outputs *outs);
-/* Removes what was not published and frees the set (safe after a commit, and twice). */
-void ml_measure_outputs_free(ml_measure_outputs *outs);
-/* Resolves the kind, runs its pipeline on the open segment and applies the limits. */
+/* The work of a measure, live or compare run on its parsed options and checked files
+ * (analyzer/finish.h): an exit status (error printed). */
+typedef int ml_measure_body(ml_measure_opts *o, ml_finish_files *files, const char *cmdline, void *ctx);
+
+/* The frame of measure, live and compare: parses argv (ninputs as for ml_measure_parse), checks
+ * the files (ml_measure_prepare), runs body(o, files, cmdline, ctx), then removes every file not
+ * published. cmdline is the whole command line taken before getopt permuted argv
+ * (ml_plots_cmdline; freed here, NULL allowed). Returns the exit status (0 after --help). */
+int ml_measure_command(int argc, char **argv, int ninputs, char *cmdline, ml_measure_body *body, void *ctx);
+/* Resolves the kind and runs its pipeline on the open segment. */
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
-/* Writes the report into its output's temporary (published by ml_measure_commit); 0 or an exit
- * status (error printed; the output is then discarded). */
-int ml_measure_write(const ml_measure_opts *o, const ml_report *rep, ml_output *report);
 /* live's --help (analyzer/live.c). */
 void ml_live_usage(FILE *f);
 /* Fills the report's input description. */
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason);
-/* Reads up to want frames; exits-status style: 0 ok, else an error was printed (exit 2). A live
- * segment that ends early (interrupt or device fault) is shortened to what arrived and 0 is
- * returned with *got < want; the caller's loop then ends naturally. */
-int ml_measure_read(const ml_measure_opts *o, ml_segment *seg, float *buf, size_t want, size_t *got,
-                    int64_t done);
 /* Progress on stderr when it is a terminal and the job is long. */
 void ml_measure_progress(const ml_segment *seg, int64_t done, int64_t *next, bool *shown);
 void ml_measure_progress_end(bool shown);
-/* NULL when the analysed band of a holds a measurable signal; otherwise why not (for a note):
- * the band is more than 200 dB below total_power (mean square of the whole input), or the
- * strongest component lies below the reports' -300 dBFS floor. */
-const char *ml_measure_no_signal(const ml_audio_result *a, double total_power);
-/* The nfft for nframes of input at rate: default resolution, halved until it fits (>= 256);
- * 0 when nframes is too short. */
-size_t ml_measure_nfft(double rate_hz, int64_t nframes);
-
+/* The audio pipeline (analyzer/audio.c): fills rep; 0 or an exit status (error already printed). */
+int ml_measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason, ml_report *rep);
 /* The if/iq pipeline (analyzer/modulation.c): fills rep; returns 0 or an exit status (error
  * already printed). kind is ML_KIND_IF or ML_KIND_IQ; reason says why. */
 int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, const char *reason,
                           double carrier_hz, ml_report *rep);
-
-/* Kind detection for one channel (analyzer/modulation.c): true with the carrier frequency when
- * the segment's opening seconds look like an AM IF signal (strongest component above 3 kHz with
- * symmetric sidebands); reason gets a one-line explanation either way. Seeks back afterwards. */
-int ml_measure_detect_if(ml_measure_opts *o, ml_segment *seg, bool *is_if, double *carrier_hz, char *reason,
-                         size_t reason_len);
 
 #endif

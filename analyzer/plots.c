@@ -97,10 +97,12 @@ void ml_plots_envelope(ml_plot_data *p, const double *env, size_t n)
     p->env_seen += (long long)n;
 }
 
-void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, double carrier_power, double fm_hz,
-                         double bw_hz, const ml_mask *mask, double env_scale, double emax, double emin,
-                         double pinch_rel)
+void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r,
+                         const ml_mask *mask, double env_scale)
 {
+    const double f_car = r->carrier_hz, bw_hz = r->bandwidth_hz;
+    const double carrier_power = r->c * r->c * ml_spectrum_full_scale_power(rf);
+    const double fm_hz = r->audio_valid ? r->audio_result.fundamental_hz : 0;
     const size_t nb = ml_spectrum_nbins(rf);
     if (ml_plot_alloc_spectrum(p, nb) == ML_OK && ml_spectrum_get_psd(rf, p->level_db, nb) == ML_OK) {
         /* ascending frequency: a complex spectrum's negative half comes first */
@@ -156,33 +158,25 @@ void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, d
     }
     for (size_t i = 0; i < p->nenv; i++)
         p->env[i] *= env_scale;
-    p->emax = emax;
-    p->emin = emin;
-    p->pinch_level = pinch_rel;
+    p->emax = r->emax_rel;
+    p->emin = r->emin_rel;
+    p->pinch_level = r->pinch_rel;
     p->fm_hz = fm_hz;
     p->has_trapezoid = p->ref != NULL && p->nenv >= 2;
 }
 
-/* The whole command line of this run (malloc, kept to the end): the callers' buffers are fixed,
- * and the PDF record must show it all. */
-static char *whole_cmdline;
-
-void ml_plots_cmdline(int argc, char **argv, char *buf, size_t len)
+char *ml_plots_cmdline(int argc, char **argv)
 {
     size_t need = sizeof "modlens";
     for (int i = 0; i < argc; i++)
         need += 1 + strlen(argv[i]);
-    free(whole_cmdline);
-    whole_cmdline = malloc(need);
-    size_t n = (size_t)snprintf(buf, len, "modlens"), w = 0;
-    if (whole_cmdline)
-        w = (size_t)snprintf(whole_cmdline, need, "modlens");
-    for (int i = 0; i < argc; i++) {
-        if (n < len)
-            n += (size_t)snprintf(buf + n, len - n, " %s", argv[i]);
-        if (whole_cmdline)
-            w += (size_t)snprintf(whole_cmdline + w, need - w, " %s", argv[i]);
-    }
+    char *line = malloc(need);
+    if (line == NULL)
+        return NULL;
+    size_t n = (size_t)snprintf(line, need, "modlens");
+    for (int i = 0; i < argc; i++)
+        n += (size_t)snprintf(line + n, need - n, " %s", argv[i]);
+    return line;
 }
 
 int ml_plots_check_paths(const char *plot_path, const char *report_path)
@@ -222,13 +216,10 @@ static int write_one(ml_output *o, const job *j)
     now_text(when, sizeof when);
     ml_plot_data empty;
     ml_plot_data_init(&empty);
-    const char *cmd = j->cmdline; /* the whole line where the caller's copy was cut */
-    if (whole_cmdline && cmd && strncmp(whole_cmdline, cmd, strlen(cmd)) == 0)
-        cmd = whole_cmdline;
     ml_status st;
     if (j->pdf_record)
-        st = j->c ? ml_compare_write_pdf(f, j->c, j->p, j->b, cmd, when, ML_VERSION)
-                  : ml_report_write_pdf(f, j->r, j->p ? j->p : &empty, cmd, when, ML_VERSION);
+        st = j->c ? ml_compare_write_pdf(f, j->c, j->p, j->b, j->cmdline, when, ML_VERSION)
+                  : ml_report_write_pdf(f, j->r, j->p ? j->p : &empty, j->cmdline, when, ML_VERSION);
     else
         st = j->c ? ml_plot_write_compare(f, path, j->c, j->p, j->b)
                   : ml_plot_write(f, path, j->p ? j->p : &empty, j->r);

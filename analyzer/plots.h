@@ -10,6 +10,7 @@
 #include <stdint.h>
 
 #include "dsp/metrics.h"
+#include "dsp/modulation.h"
 #include "dsp/rf.h"
 #include "dsp/spectrum.h"
 #include "io/compare.h"
@@ -29,22 +30,24 @@ void ml_plots_input(ml_plot_data *p, int64_t first, const float *ref, size_t n);
 /* The next n envelope samples (any unit; scaled in ml_plots_modulation). */
 void ml_plots_envelope(ml_plot_data *p, const double *env, size_t n);
 
-/* Capture spectrum in dBc re carrier_power, linear axis around the carrier, with carrier,
- * sidebands at +-fm, occupied bandwidth and mask (may be NULL); the envelope scaled by
- * env_scale into units of Ec, and the peak readings / Ec. */
-void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, double f_car, double carrier_power, double fm_hz,
-                         double bw_hz, const ml_mask *mask, double env_scale, double emax, double emin,
-                         double pinch_rel);
+/* The if/iq pictures of a modulation analysis r (dsp/modulation.h): the captured spectrum rf in
+ * dBc re the unmodulated carrier's power C^2, linear axis around the carrier, with carrier,
+ * the tone's sidebands, occupied bandwidth and mask (may be NULL); the envelope window scaled by
+ * env_scale (units of the envelope hook, dsp/modulation.h) into units of C, with the peak
+ * readings and the pinch-off level. */
+void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modulation_result *r,
+                         const ml_mask *mask, double env_scale);
 
-/* "modlens measure --kind iq file.wav" from argv (before getopt permutes it). */
-void ml_plots_cmdline(int argc, char **argv, char *buf, size_t len);
+/* The whole command line, "modlens measure --kind iq file.wav", from argv (before getopt permutes
+ * it), for the PDF record: allocated (the caller frees it), or NULL when out of memory. */
+char *ml_plots_cmdline(int argc, char **argv);
 
 /* Checks --plot / --report names (type by extension); 0 or an exit status (error printed). */
 int ml_plots_check_paths(const char *plot_path, const char *report_path);
 
 /* Writes the --plot and --report files of a measurement into their outputs' temporaries
- * (io/output.h; either may be NULL), published later by the caller's commit; 0 or an exit status
- * (error printed, the failed output discarded). */
+ * (io/output.h; either may be NULL), published together by the finish step's commit
+ * (analyzer/finish.h); 0 or an exit status (error printed, the failed output discarded). */
 int ml_plots_write_measure(ml_output *plot, ml_output *pdf, const ml_report *r, const ml_plot_data *p,
                            const char *cmdline);
 /* The same for a comparison (a, b may be NULL: a side read from JSON has no spectrum). */

@@ -128,7 +128,7 @@ static void scale(int y)
 
 static void readings_mod(const ml_screen *s, const ml_watch_view *v)
 {
-    const ml_monitor_result *r = &v->res;
+    const ml_modulation_result *r = &v->res.modulation;
     bar(s, 2, "negative peak", v->have ? r->negative_peak_pct : NAN, v->neg_hold_pct, v->neg_limit_pct);
     bar(s, 5, "positive peak", v->have ? r->positive_peak_pct : NAN, v->pos_hold_pct, v->pos_limit_pct);
     scale(7);
@@ -142,29 +142,36 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
         if (s->color)
             attroff(COLOR_PAIR(1));
     } else {
-        mvprintw(9, 2, "no overmodulation (latches at 100 %% negative or %.0f %% positive)", v->latch_limit_pct);
+        mvprintw(9, 2, "no overmodulation (latches at 100 %% negative or %.0f %% positive)",
+                 v->latch_limit_pct);
     }
     char a[32], b[32], c[32];
     num(a, sizeof a, "%.3f Hz", v->have ? r->carrier_hz : NAN);
-    num(b, sizeof b, "%+.3f Hz", v->have ? r->carrier_offset_hz : NAN);
-    num(c, sizeof c, "%.2f dBFS", v->have ? r->carrier_dbfs : NAN);
+    num(b, sizeof b, "%+.3f Hz", v->have ? r->carrier_hz - v->nominal_hz : NAN);
+    num(c, sizeof c, "%.2f dBFS", v->have ? r->carrier_level_dbfs : NAN);
     mvprintw(11, 2, "carrier     %-16s offset %-14s level %s", a, b, c);
     num(a, sizeof a, "%.3f", v->have ? r->index : NAN);
-    num(b, sizeof b, "%.2f %%", v->have ? r->envelope_thd_pct : NAN);
+    num(b, sizeof b, "%.2f %%", v->have ? r->audio.thd_pct : NAN);
     mvprintw(12, 2, "index       %-16s envelope THD %s", a, b);
     num(a, sizeof a, "%.1f dB", v->have ? r->cnr_db : NAN);
-    num(b, sizeof b, "%.1f dB", v->have ? r->mod_hum_db : NAN);
+    num(b, sizeof b, "%.1f dB", v->have ? r->audio.hum_dbfs : NAN);
     num(c, sizeof c, "%.0f Hz", v->have ? 2 * r->bandwidth_hz : NAN);
     mvprintw(13, 2, "CNR         %-16s hum %-10s (re 100 %%)  in %s", a, b, c);
-    num(a, sizeof a, "%.1f Hz", v->have ? r->fundamental_hz : NAN);
-    mvprintw(14, 2, "tone        %-16s overmodulated updates %llu", a, (unsigned long long)v->overmod_updates);
+    num(a, sizeof a, "%.1f Hz", v->have ? r->audio.fundamental_hz : NAN);
+    mvprintw(14, 2, "tone        %-16s overmodulated updates %llu", a,
+             (unsigned long long)v->overmod_updates);
+    num(a, sizeof a, "%.2f dBFS", v->have ? r->unmodulated_dbfs : NAN);
+    num(b, sizeof b, "%+.2f %%", v->have ? r->carrier_shift_pct : NAN);
+    static const char *const from[] = {"reference file", "unmodulated stretch", "latched", "mean envelope"};
+    mvprintw(15, 2, "C           %-16s shift  %-14s from %s", a, b,
+             v->have && r->c_source <= ML_C_MEAN ? from[r->c_source] : "-");
 }
 
 static void readings_audio(const ml_watch_view *v)
 {
-    const ml_monitor_result *r = &v->res;
+    const ml_audio_plain_figures *r = &v->res.audio;
     char a[32], b[32];
-    num(a, sizeof a, "%.2f dBFS", v->have ? r->rms_dbfs : NAN);
+    num(a, sizeof a, "%.2f dBFS", v->have ? v->res.rms_dbfs : NAN);
     num(b, sizeof b, "%.2f dBFS", v->have ? r->fundamental_dbfs : NAN);
     mvprintw(3, 2, "level (RMS)      %-16s tone level  %s", a, b);
     num(a, sizeof a, "%.3f Hz", v->have ? r->fundamental_hz : NAN);
@@ -214,7 +221,8 @@ void ml_screen_draw(ml_screen *s, const ml_watch_view *v)
     mvprintw(0, 1, "modlens watch  %s  %s", v->kind == ML_MONITOR_AUDIO ? "audio distortion" : "modulation",
              v->spectrum ? "- spectrum" : "- readings");
     attroff(A_BOLD);
-    mvprintw(0, COLS - 30, "window %.2f s %s", v->window_s, v->frozen ? " [FROZEN]" : (v->have ? "" : " [filling]"));
+    mvprintw(0, COLS - 30, "window %.2f s %s", v->window_s,
+             v->frozen ? " [FROZEN]" : (v->have ? "" : " [filling]"));
     if (v->spectrum)
         spectrum(v, 2, LINES - 4);
     else if (v->kind == ML_MONITOR_AUDIO)
@@ -227,8 +235,8 @@ void ml_screen_draw(ml_screen *s, const ml_watch_view *v)
         attroff(A_BOLD | A_REVERSE);
     }
     mvhline(LINES - 3, 0, '-', COLS);
-    mvprintw(LINES - 2, 1, "device %.30s | %.0f Hz | %s | elapsed %.1f s | overflows %llu | lost %llu", v->device,
-             v->rate_hz, v->kind_name, v->elapsed_s, (unsigned long long)v->overflows,
+    mvprintw(LINES - 2, 1, "device %.30s | %.0f Hz | %s | elapsed %.1f s | overflows %llu | lost %llu",
+             v->device, v->rate_hz, v->kind_name, v->elapsed_s, (unsigned long long)v->overflows,
              (unsigned long long)v->lost_frames);
     mvprintw(LINES - 1, 1, "keys: q quit   r reset holds/counters   space freeze   s readings/spectrum");
     refresh();

@@ -1,61 +1,14 @@
-/* Measurement uncertainty of the audio figures from their spread across blocks of a recording.
+/* The uncertainty blocks' intervals (dsp/blocks.h) put into a report under the metric names.
  * SPDX-License-Identifier: MIT
- *
- * The whole-recording spectrum hands each of its Welch segments over as it transforms them
- * (ml_spectrum_on_segment): a block spectrum collects `segments` consecutive segments (the
- * overlap carries over from one block to the next), then the block's audio figures are computed
- * (dsp/metrics.h) and pushed into running accumulators (dsp/uncert.h), and the block spectrum
- * starts again. Every whole segment therefore belongs to exactly one block, so the whole
- * recording's power spectrum is the mean of the blocks' and the spread of the block figures gives
- * the 95 % interval of the whole figure: u = t(0.975, n - 1) s / sqrt(n) (README "Measurement
- * uncertainty"). No segment is transformed twice. Memory: one spectrum, whatever the length.
  */
 #ifndef ML_ANALYZER_UNCERTAINTY_H
 #define ML_ANALYZER_UNCERTAINTY_H
 
-#include <stdbool.h>
-#include <stddef.h>
-#include <stdint.h>
-
-#include "dsp/metrics.h"
-#include "dsp/spectrum.h"
+#include "dsp/blocks.h"
 #include "io/report.h"
 
-typedef struct ml_blocks ml_blocks;
-
-/* Welch segments per block. */
-#define ML_BLOCK_SEGMENTS 2
-
-/* whole: the whole-recording spectrum (real input), sc its configuration, cfg its audio analysis.
- * The blocks follow whole's segments from now on (whole must outlive them and not get another
- * hook); tagged: a segment not wholly tagged (dsp/spectrum.h) leaves its block out. Only
- * spectral figures get an interval: time statistics of a block (RMS, DC) also carry the tone's
- * partial period at the block's ends, which the whole recording averages away.
- * NULL on a mismatched configuration, allocation or planning failure. */
-ml_blocks *ml_blocks_create(ml_spectrum *whole, const ml_spectrum_config *sc, const ml_audio_config *cfg,
-                            bool tagged);
-void ml_blocks_destroy(ml_blocks *q);
-
-/* Peak readings only (ml_blocks_set_peaks; otherwise a no-op): the n samples that were pushed to
- * the whole spectrum, with the same tags (tag[i] == 0 leaves the sample's block out; NULL: every
- * sample counts). */
-void ml_blocks_push(ml_blocks *q, const double *x, const unsigned char *tag, size_t n);
-
-/* A gain applied to the whole recording afterwards (ml_spectrum_scale) shifts every block's levels
- * alike, so the spread and u do not change: nothing to correct. */
-
-/* Sets the uncertainty of every valid metric of r that the blocks estimate (modulation aliases
- * included) and records the method in r; blocks used in *nblocks (may be NULL). */
-void ml_blocks_report(const ml_blocks *q, ml_report *r, size_t *nblocks);
-
-/* if/iq: also estimates the peak readings per block, with hold share hold_share (0 .. 0.5) of
- * the samples beyond each reading, as dsp/am.h defines them, from samples pushed at `per` (1 ..
- * 64) times the whole spectrum's rate (the envelope at its full rate when the audio spectrum
- * takes every per-th sample): the blocks then span per times as many pushed samples. Call before
- * the first push. ML_EINVAL, ML_ENOMEM. */
-ml_status ml_blocks_set_peaks(ml_blocks *q, double hold_share, size_t per);
-/* Sets the uncertainties of modulation.positive_peak_pct and negative_peak_pct (block spread of
- * the readings in pushed units times pct_per_unit: 100 C_prov / C) and of modulation.index. */
-void ml_blocks_report_peaks(const ml_blocks *q, ml_report *r, double pct_per_unit);
+/* Sets the uncertainty of every valid audio metric of r that the blocks estimate (for if/iq also
+ * under the modulation names, analyzer/values.h) and records the method in r. */
+void ml_uncertainty_report(const ml_blocks *q, ml_report *r);
 
 #endif

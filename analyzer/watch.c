@@ -18,9 +18,12 @@
 #include <unistd.h>
 
 #include "analyzer/cli.h"
+#include "analyzer/input.h"
 #include "analyzer/commands.h"
 #include "analyzer/measure.h"
 #include "analyzer/registry.h"
+#include "analyzer/values.h"
+#include "dsp/channels.h"
 #include "dsp/peakhold.h"
 #include "io/audio.h"
 #include "io/printable.h"
@@ -45,8 +48,10 @@ static void watch_usage(FILE *f)
             "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
             "  --device, --rate, --channels   as for 'modlens live'\n"
             "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
-            "  --mains, --window, --peak-hold-ms, --limits   as for 'modlens measure'\n"
+            "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits   as for 'modlens measure'\n"
             "\n"
+            "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
+            "taken from --carrier-reference) and kept until the r key.\n"
             "Peak-hold markers hold a peak for %.0f s, then fall by %.0f %% of modulation per second.\n"
             "The overmodulation warning latches when the negative peak reaches 100 %% (carrier pinch-off)\n"
             "or the positive peak exceeds the profile's limit (125 %% without one), until reset.\n"
@@ -62,55 +67,59 @@ static void on_stop(int sig)
     ml_source_stop(g_src);
 }
 
-/* The name a plain line uses: the metric's short name when it is unique in the registry (as a
- * limits profile accepts it), else its full dotted name; both as in measure's JSON. The hum
- * group keeps its name (hum.level_dbfs, hum.level_dbc): "level" alone would say nothing. */
-static const char *plain_name(const char *full)
-{
-    const char *dot = strrchr(full, '.');
-    int amb = 0;
-    if (dot == NULL || strncmp(full, "hum.", 4) == 0)
-        return full;
-    return ml_registry_lookup(dot + 1, &amb) != NULL && !amb ? dot + 1 : full;
-}
+/* The registered metrics a plain line shows, in order (names, units and decimals from the
+ * registry, values from analyzer/values.h: the same as measure's report). */
+static const char *const PLAIN_MOD[] = {
+    "carrier.frequency_hz", "carrier.offset_hz", "carrier.level_dbfs", "carrier.unmodulated_dbfs",
+    "carrier.cnr_db", "modulation.index", "modulation.positive_peak_pct", "modulation.negative_peak_pct",
+    "modulation.carrier_shift_pct", "modulation.envelope_thd_pct", "modulation.hum_db",
+    "modulation.pinch_off_events",
+};
+static const char *const PLAIN_AUDIO[] = {
+    "audio.rms_dbfs", "audio.fundamental_hz", "audio.fundamental_dbfs", "audio.thd_pct", "audio.thdn_pct",
+    "audio.snr_db", "audio.sinad_db", "hum.level_dbfs", "hum.level_dbc",
+};
 
-static void pv(FILE *f, const char *name, const char *fmt, double v)
+/* " name=value" under the short name (analyzer/values.h), "nan" when not measured. */
+static void pv(FILE *f, const char *name, double v, int decimals)
 {
-    fprintf(f, " %s=", plain_name(name));
+    fprintf(f, " %s=", ml_values_short_name(name));
     if (isfinite(v))
-        fprintf(f, fmt, v);
+        fprintf(f, "%.*f", decimals, v);
     else
         fputs("nan", f);
 }
 
+/* A registered metric's value from v[n] with the registry's decimals. */
+static void pv_registered(FILE *f, const char *name, const ml_value *v, size_t n, bool have)
+{
+    const ml_metric_def *d = ml_registry_lookup(name, NULL);
+    pv(f, name, have ? ml_values_find(v, n, name) : NAN, d ? d->decimals : 3);
+}
+
 static void plain_line(FILE *f, const ml_watch_view *v)
 {
-    const ml_monitor_result *r = &v->res;
     fprintf(f, "elapsed_s=%.2f window_s=%.2f", v->elapsed_s, v->window_s);
-    const double n = NAN;
+    ml_value vals[ML_VALUES_MAX];
+    size_t n = 0;
     if (v->kind == ML_MONITOR_AUDIO) {
-        pv(f, "audio.rms_dbfs", "%.2f", v->have ? r->rms_dbfs : n);
-        pv(f, "audio.fundamental_hz", "%.3f", v->have ? r->fundamental_hz : n);
-        pv(f, "audio.fundamental_dbfs", "%.2f", v->have ? r->fundamental_dbfs : n);
-        pv(f, "audio.thd_pct", "%.4f", v->have ? r->thd_pct : n);
-        pv(f, "audio.thdn_pct", "%.4f", v->have ? r->thdn_pct : n);
-        pv(f, "audio.snr_db", "%.2f", v->have ? r->snr_db : n);
-        pv(f, "audio.sinad_db", "%.2f", v->have ? r->sinad_db : n);
-        pv(f, "hum.level_dbfs", "%.2f", v->have ? r->hum_dbfs : n);
-        pv(f, "hum.level_dbc", "%.2f", v->have ? r->hum_dbc : n);
+        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = NAN, .dc_offset_pct = NAN};
+        n = ml_values_level(&lv, "audio", vals);
+        n += ml_values_audio(&v->res.audio, vals + n);
+        for (size_t i = 0; i < sizeof PLAIN_AUDIO / sizeof *PLAIN_AUDIO; i++)
+            pv_registered(f, PLAIN_AUDIO[i], vals, n, v->have);
     } else {
-        pv(f, "carrier.frequency_hz", "%.3f", v->have ? r->carrier_hz : n);
-        pv(f, "carrier.offset_hz", "%.3f", v->have ? r->carrier_offset_hz : n);
-        pv(f, "carrier.level_dbfs", "%.2f", v->have ? r->carrier_dbfs : n);
-        pv(f, "carrier.cnr_db", "%.2f", v->have ? r->cnr_db : n);
-        pv(f, "modulation.index", "%.4f", v->have ? r->index : n);
-        pv(f, "modulation.positive_peak_pct", "%.2f", v->have ? r->positive_peak_pct : n);
-        pv(f, "modulation.negative_peak_pct", "%.2f", v->have ? r->negative_peak_pct : n);
-        pv(f, "positive_peak_hold_pct", "%.2f", v->pos_hold_pct);
-        pv(f, "negative_peak_hold_pct", "%.2f", v->neg_hold_pct);
-        pv(f, "modulation.envelope_thd_pct", "%.3f", v->have ? r->envelope_thd_pct : n);
-        pv(f, "modulation.hum_db", "%.2f", v->have ? r->mod_hum_db : n);
-        pv(f, "modulation.pinch_off_events", "%.0f", v->have ? (double)r->pinch_events : n);
+        const ml_modulation_result *m = &v->res.modulation;
+        n = ml_values_modulation(m, v->nominal_hz, false, vals);
+        for (size_t i = 0; i < sizeof PLAIN_MOD / sizeof *PLAIN_MOD; i++) {
+            pv_registered(f, PLAIN_MOD[i], vals, n, v->have);
+            if (i == 3) /* where C comes from, as in log's rows */
+                fprintf(f, " carrier_reference=%s", v->have ? ml_values_c_word(m) : "nan");
+            if (i == 7) { /* the holds beside the peaks; decimals as the peaks' */
+                pv(f, "positive_peak_hold_pct", v->pos_hold_pct, 2);
+                pv(f, "negative_peak_hold_pct", v->neg_hold_pct, 2);
+            }
+        }
         fprintf(f, " overmodulation=%d overmodulated_updates=%llu", v->overmod ? 1 : 0,
                 (unsigned long long)v->overmod_updates);
     }
@@ -160,234 +169,286 @@ static double profile_max(const ml_limits *l, const char *metric)
     return NAN;
 }
 
-/* Deinterleaves one update's frames into re (and im for iq). */
-static void split(const float *buf, size_t n, size_t nch, const ml_measure_opts *o, bool iq, float *re, float *im)
-{
-    const size_t c0 = (size_t)(o->channel - 1);
-    for (size_t i = 0; i < n; i++) {
-        const float *fr = buf + i * nch;
-        if (iq) {
-            re[i] = o->swap_iq ? fr[c0 + 1] : fr[c0];
-            im[i] = o->swap_iq ? fr[c0] : fr[c0 + 1];
-        } else {
-            re[i] = fr[c0];
-        }
-    }
-}
-
 static bool want_plain(bool asked)
 {
     const char *term = getenv("TERM");
     return asked || !isatty(STDOUT_FILENO) || term == NULL || term[0] == '\0' || strcmp(term, "dumb") == 0;
 }
 
-int ml_cmd_watch(int argc, char **argv)
+/* The meter's state between its steps. */
+typedef struct {
+    ml_measure_opts o;
+    bool plain, seconds_given;
+    double window_s;
+    ml_segment seg;
+    double rate;
+    ml_kind kind;
+    ml_channels ch;
+    double ref_c;                    /* C from --carrier-reference, or NAN                     */
+    ml_monitor *mon;
+    ml_peakhold *hold_pos, *hold_neg;
+    ml_watch_view *v;
+    ml_screen *scr;
+    size_t upd;                      /* frames per update                                       */
+    float *buf, *re, *im;
+    ml_live_stats ls;
+    uint64_t base_over, base_lost, frames;
+    struct sigaction old_int, old_term, old_hup;
+} watcher;
+
+/* Options: watch's own, then measure's groups; refuses what belongs to live. 0, -1 after --help,
+ * or an exit status. */
+static int parse(int argc, char **argv, watcher *w)
 {
     char **rest = calloc((size_t)argc + 1, sizeof *rest);
     if (rest == NULL)
         return ml_cli_error("out of memory");
-    bool plain = false, seconds_given = false;
-    double window_s = DEFAULT_WINDOW_S;
+    w->window_s = DEFAULT_WINDOW_S;
     int nrest = 0;
-    int rc = own_options(argc, argv, rest, &nrest, &plain, &window_s, &seconds_given);
-    ml_measure_opts o;
+    int rc = own_options(argc, argv, rest, &nrest, &w->plain, &w->window_s, &w->seconds_given);
     if (rc == 0)
-        rc = ml_measure_parse(nrest, rest, &o, 0);
+        rc = ml_measure_parse(nrest, rest, &w->o, 0);
     free(rest);
-    if (rc != 0)
-        return rc < 0 ? ML_EXIT_OK : rc;
-    if (o.live.play || o.live.save_path || o.plot_path || o.report_path || o.output_path || o.carrier_reference
-        || o.reference_channel > 0 || o.start_s > 0 || o.duration_s > 0)
+    const ml_measure_opts *o = &w->o;
+    if (rc == 0
+        && (o->in.play || o->in.save_path || o->out.plot_path || o->out.report_path || o->out.output_path
+            || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0))
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
-                            "--carrier-reference, --reference-channel, --start or --duration (see 'modlens live')");
-    static ml_limits limits;
-    ml_measure_outputs outs; /* watch writes no file: only the checks and the profile */
-    rc = ml_measure_prepare(&o, &limits, &outs);
-    ml_measure_outputs_free(&outs);
+                            "--reference-channel, --start or --duration (see 'modlens live')");
+    return rc;
+}
+
+/* The input step: the device, its kind and channels (as measure decides them, from the opening
+ * second), C's reference. Ctrl-C, SIGTERM and SIGHUP stop the capture from here on. */
+static int open_input(watcher *w)
+{
+    ml_live_config lc = ml_live_config_default();
+    lc.head_s = DETECT_S + 1.0; /* the auto-kind look at the opening second seeks back into it */
+    int rc = ml_input_open_device(&w->o.in, &lc, &w->seg);
     if (rc != 0)
         return rc;
-    long nch = o.live.channels;
-    if (nch == 0)
-        nch = o.channel + (o.kind == ML_KIND_IQ ? 1 : 0);
-    if (o.channel + (o.kind == ML_KIND_IQ ? 1 : 0) > nch)
-        return ml_cli_error("--channels %ld is too few for the channels to analyse", nch);
-
-    ml_live_config lc = ml_live_config_default();
-    lc.device = o.live.device;
-    lc.rate_hz = o.live.rate_hz;
-    lc.channels = (int)nch;
-    lc.head_s = DETECT_S + 1.0; /* the auto-kind look at the opening second seeks back into it */
-    char err[512];
-    ml_segment seg;
-    memset(&seg, 0, sizeof seg);
-    ml_status st = ml_source_open_live(&lc, &seg.src, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", o.live.device ? o.live.device : "default input", err);
-    seg.info = ml_source_get_info(seg.src);
-    seg.live = true;
-    const double rate = seg.info->rate_hz;
-    g_src = seg.src;
-    struct sigaction sa, old_int, old_term, old_hup;
+    w->rate = w->seg.info->rate_hz;
+    g_src = w->seg.src;
+    struct sigaction sa;
     memset(&sa, 0, sizeof sa);
     sa.sa_handler = on_stop;
     sigemptyset(&sa.sa_mask);
-    sigaction(SIGINT, &sa, &old_int);
-    sigaction(SIGTERM, &sa, &old_term);
-    sigaction(SIGHUP, &sa, &old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
+    sigaction(SIGINT, &sa, &w->old_int);
+    sigaction(SIGTERM, &sa, &w->old_term);
+    sigaction(SIGHUP, &sa, &w->old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
+    double carrier_hz;
+    char reason[256];
+    w->seg.nframes = (int64_t)llround(DETECT_S * w->rate); /* the look ahead's limit */
+    rc = ml_input_kind(&w->o.in, &w->o.an, &w->seg, DETECT_S, &w->kind, &carrier_hz, reason, sizeof reason);
+    if (rc == 0)
+        rc = ml_input_channels(&w->o.in, &w->seg, w->kind, &w->ch);
+    w->ref_c = NAN; /* C from --carrier-reference: near --carrier, else its strongest component */
+    if (rc == 0 && w->o.an.carrier_reference && w->kind != ML_KIND_AUDIO)
+        rc = ml_input_reference_carrier(w->o.an.carrier_reference, &w->o.in, w->kind == ML_KIND_IQ, w->rate,
+                                        w->o.an.carrier_hz, &w->ref_c);
+    return rc;
+}
 
-    /* the kind: as measure decides, from the opening second for one channel */
-    ml_kind kind = o.kind;
-    if (kind == ML_KIND_AUTO) {
-        if (nch - o.channel + 1 >= 2) {
-            kind = ML_KIND_IQ;
-        } else {
-            bool is_if = false;
-            double fc = NAN;
-            char reason[256];
-            seg.nframes = (int64_t)llround(DETECT_S * rate);
-            rc = ml_measure_detect_if(&o, &seg, &is_if, &fc, reason, sizeof reason);
-            kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
-        }
-    }
-    ml_monitor_config mc = ml_monitor_config_default(rate, kind == ML_KIND_IQ ? ML_MONITOR_IQ
-                                                           : kind == ML_KIND_IF ? ML_MONITOR_IF : ML_MONITOR_AUDIO);
-    mc.window_s = window_s;
-    mc.window = o.window;
-    mc.audio = o.audio;
-    mc.carrier_hz = o.carrier_hz;
-    mc.bandwidth_hz = o.bandwidth_hz;
-    mc.peak_hold_s = o.peak_hold_ms / 1000.0;
-    static ml_watch_view v;
-    memset(&v, 0, sizeof v);
-    v.pos_limit_pct = profile_max(o.limits, "modulation.positive_peak_pct");
-    v.neg_limit_pct = profile_max(o.limits, "modulation.negative_peak_pct");
-    v.latch_limit_pct = isfinite(v.pos_limit_pct) ? v.pos_limit_pct : mc.positive_limit_pct;
-    mc.positive_limit_pct = v.latch_limit_pct;
-    ml_monitor *mon = NULL;
-    ml_peakhold *hold_pos = NULL, *hold_neg = NULL;
+/* The sliding-window analysis, the peak holds, the buffers and the display's state. */
+static int make_meter(watcher *w)
+{
+    const ml_measure_opts *o = &w->o;
+    ml_monitor_config mc = ml_monitor_config_default(w->rate, w->kind == ML_KIND_IQ   ? ML_MONITOR_IQ
+                                                              : w->kind == ML_KIND_IF ? ML_MONITOR_IF
+                                                                                      : ML_MONITOR_AUDIO);
+    mc.window_s = w->window_s;
+    mc.window = o->an.window;
+    mc.audio = o->an.audio;
+    mc.carrier_hz = o->an.carrier_hz;
+    mc.bandwidth_hz = o->an.bandwidth_hz;
+    mc.peak_hold_s = o->an.peak_hold_ms / 1000.0;
+    ml_watch_view *v = w->v;
+    v->pos_limit_pct = profile_max(o->out.limits, "modulation.positive_peak_pct");
+    v->neg_limit_pct = profile_max(o->out.limits, "modulation.negative_peak_pct");
+    v->latch_limit_pct = isfinite(v->pos_limit_pct) ? v->pos_limit_pct : mc.positive_limit_pct;
+    mc.positive_limit_pct = v->latch_limit_pct;
     const ml_peakhold_config hc = {.hold_s = ML_WATCH_HOLD_S, .decay_per_s = ML_WATCH_DECAY_PCT_S};
-    const size_t upd = (size_t)llround(UPDATE_S * rate);
-    float *buf = malloc(upd * (size_t)nch * sizeof *buf), *re = malloc(upd * sizeof *re), *im = malloc(upd * sizeof *im);
-    if (rc == 0 && (buf == NULL || re == NULL || im == NULL))
-        rc = ml_cli_error("out of memory");
-    if (rc == 0 && ((st = ml_monitor_create(&mc, &mon)) != ML_OK || (st = ml_peakhold_create(&hc, &hold_pos)) != ML_OK
-                    || (st = ml_peakhold_create(&hc, &hold_neg)) != ML_OK))
-        rc = ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
-                          st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
-    ml_screen *scr = NULL;
-    if (rc == 0 && !want_plain(plain) && (scr = ml_screen_open()) == NULL)
-        plain = true;
+    w->upd = (size_t)llround(UPDATE_S * w->rate);
+    w->buf = malloc(w->upd * w->ch.stride * sizeof *w->buf);
+    w->re = malloc(w->upd * sizeof *w->re);
+    w->im = malloc(w->upd * sizeof *w->im);
+    if (w->buf == NULL || w->re == NULL || w->im == NULL)
+        return ml_cli_error("out of memory");
+    ml_status st;
+    if ((st = ml_monitor_create(&mc, &w->mon)) != ML_OK
+        || (st = ml_peakhold_create(&hc, &w->hold_pos)) != ML_OK
+        || (st = ml_peakhold_create(&hc, &w->hold_neg)) != ML_OK)
+        return ml_cli_error("watch: cannot set up the analysis: %s%s", ml_strerror(st),
+                            st == ML_EINVAL ? " (--window-s too short for the sample rate?)" : "");
+    ml_monitor_set_reference(w->mon, w->ref_c);
+    ml_source_live_stats(w->seg.src, &w->ls);
+    v->kind = mc.kind;
+    v->kind_name = w->kind == ML_KIND_IQ ? "iq" : w->kind == ML_KIND_IF ? "if" : "audio";
+    ml_printable(v->device, sizeof v->device, w->ls.device_name);
+    v->rate_hz = w->rate;
+    v->window_s = (double)ml_monitor_window_frames(w->mon) / w->rate;
+    v->pos_hold_pct = v->neg_hold_pct = NAN;
+    v->nominal_hz = o->an.carrier_hz;
+    return 0;
+}
 
-    ml_live_stats ls;
-    ml_source_live_stats(seg.src, &ls);
-    v.kind = mc.kind;
-    v.kind_name = kind == ML_KIND_IQ ? "iq" : kind == ML_KIND_IF ? "if" : "audio";
-    ml_printable(v.device, sizeof v.device, ls.device_name);
-    v.rate_hz = rate;
-    v.window_s = (double)ml_monitor_window_frames(mon) / rate;
-    v.pos_hold_pct = v.neg_hold_pct = NAN;
-    uint64_t base_over = 0, base_lost = 0, frames = 0;
-    const uint64_t stop_at = seconds_given ? (uint64_t)llround(o.live.seconds * rate) : UINT64_MAX;
-    bool quit = false;
-    while (rc == 0 && !quit && frames < stop_at) {
-        size_t want = upd, got = 0;
-        if (stop_at - frames < want)
-            want = (size_t)(stop_at - frames);
-        st = ml_source_read(seg.src, buf, want, &got);
-        split(buf, got, (size_t)nch, &o, kind == ML_KIND_IQ, re, im);
-        ml_monitor_push(mon, re, im, got);
-        frames += got;
-        if (st != ML_OK) {
-            ml_screen_close(scr);
-            scr = NULL;
-            rc = ml_cli_error("%s: %s", ls.device_name, ml_source_detail(seg.src));
-            break;
-        }
-        if (got < want) /* Ctrl-C or the end */
-            break;
-        ml_monitor_result r;
-        st = ml_monitor_analyse(mon, &r);
-        const bool have = st == ML_OK;
-        if (st == ML_ENOMEM || st == ML_EFFT) {
-            ml_screen_close(scr);
-            scr = NULL;
-            rc = ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
-            break;
-        }
-        const double dt = (double)got / rate;
-        ml_peakhold_push(hold_pos, dt, have ? r.positive_peak_pct : NAN);
-        ml_peakhold_push(hold_neg, dt, have ? r.negative_peak_pct : NAN);
-        if (have && mc.kind != ML_MONITOR_AUDIO) {
-            const bool pinch = r.pinch_events > 0 || r.negative_peak_pct >= 100.0;
-            const bool high = r.positive_peak_pct > v.latch_limit_pct;
-            if (pinch || high) {
-                v.overmod_updates++;
-                if (!v.overmod) {
-                    v.overmod = true;
-                    v.overmod_at_s = (double)frames / rate;
-                    snprintf(v.overmod_why, sizeof v.overmod_why, "%s",
-                             pinch ? "carrier pinch-off" : "positive peak over the limit");
-                }
-            }
-        }
-        ml_source_live_stats(seg.src, &ls);
-        if (!v.frozen) {
-            v.elapsed_s = (double)frames / rate;
-            v.overflows = ls.overflow_events - base_over;
-            v.lost_frames = ls.lost_frames - base_lost;
-            v.have = have;
-            if (have)
-                v.res = r;
-            v.pos_hold_pct = ml_peakhold_get_value(hold_pos);
-            v.neg_hold_pct = ml_peakhold_get_value(hold_neg);
-            v.ncols = 0;
-            if (v.spectrum && scr) {
-                size_t nc = ml_screen_columns(scr);
-                if (ml_monitor_get_columns(mon, v.col_db, nc, &v.col_lo_hz, &v.col_hi_hz) == ML_OK)
-                    v.ncols = nc;
-            }
-        }
-        if (scr == NULL) {
-            if (!v.frozen)
-                plain_line(stdout, &v);
-            continue;
-        }
-        for (int key; (key = ml_screen_key(scr)) != -1;) {
-            if (key == 'q' || key == 'Q') {
-                quit = true;
-            } else if (key == 'r' || key == 'R') {
-                ml_peakhold_reset(hold_pos);
-                ml_peakhold_reset(hold_neg);
-                v.pos_hold_pct = v.neg_hold_pct = NAN;
-                v.overmod = false;
-                v.overmod_updates = 0;
-                base_over = ls.overflow_events;
-                base_lost = ls.lost_frames;
-                v.overflows = v.lost_frames = 0;
-            } else if (key == ' ') {
-                v.frozen = !v.frozen;
-            } else if (key == 's' || key == 'S' || key == '\t') {
-                v.spectrum = !v.spectrum;
-                v.ncols = 0;
-                size_t nc = ml_screen_columns(scr);
-                if (v.spectrum && ml_monitor_get_columns(mon, v.col_db, nc, &v.col_lo_hz, &v.col_hi_hz) == ML_OK)
-                    v.ncols = nc;
-            }
-        }
-        ml_screen_draw(scr, &v);
+/* The latched overmodulation warning: a pinch-off or reversal, a negative peak of 100 %, or a
+ * positive peak over the limit in the window. */
+static void overmodulation(watcher *w, const ml_modulation_result *m)
+{
+    ml_watch_view *v = w->v;
+    const bool pinch = m->pinch_events + m->reversal_events > 0 || m->negative_peak_pct >= 100.0;
+    const bool high = m->positive_peak_pct > v->latch_limit_pct;
+    if (!pinch && !high)
+        return;
+    v->overmod_updates++;
+    if (!v->overmod) {
+        v->overmod = true;
+        v->overmod_at_s = (double)w->frames / w->rate;
+        snprintf(v->overmod_why, sizeof v->overmod_why, "%s",
+                 pinch ? "carrier pinch-off" : "positive peak over the limit");
     }
-    ml_screen_close(scr);
-    ml_source_stop(seg.src);
-    sigaction(SIGINT, &old_int, NULL);
-    sigaction(SIGTERM, &old_term, NULL);
-    sigaction(SIGHUP, &old_hup, NULL);
+}
+
+/* The display's state after an update (not while frozen). */
+static void show(watcher *w, const ml_monitor_result *r, bool have)
+{
+    ml_watch_view *v = w->v;
+    if (v->frozen)
+        return;
+    v->elapsed_s = (double)w->frames / w->rate;
+    v->overflows = w->ls.overflow_events - w->base_over;
+    v->lost_frames = w->ls.lost_frames - w->base_lost;
+    v->have = have;
+    if (have)
+        v->res = *r;
+    v->pos_hold_pct = ml_peakhold_get_value(w->hold_pos);
+    v->neg_hold_pct = ml_peakhold_get_value(w->hold_neg);
+    v->ncols = 0;
+    if (v->spectrum && w->scr) {
+        size_t nc = ml_screen_columns(w->scr);
+        if (ml_monitor_get_columns(w->mon, v->col_db, nc, &v->col_lo_hz, &v->col_hi_hz) == ML_OK)
+            v->ncols = nc;
+    }
+}
+
+/* The keys pressed since the last update; true when q quits. */
+static bool keys(watcher *w)
+{
+    ml_watch_view *v = w->v;
+    bool quit = false;
+    for (int key; (key = ml_screen_key(w->scr)) != -1;) {
+        if (key == 'q' || key == 'Q') {
+            quit = true;
+        } else if (key == 'r' || key == 'R') {
+            ml_peakhold_reset(w->hold_pos);
+            ml_peakhold_reset(w->hold_neg);
+            ml_monitor_set_reference(w->mon, w->ref_c); /* forgets a latched C */
+            v->pos_hold_pct = v->neg_hold_pct = NAN;
+            v->overmod = false;
+            v->overmod_updates = 0;
+            w->base_over = w->ls.overflow_events;
+            w->base_lost = w->ls.lost_frames;
+            v->overflows = v->lost_frames = 0;
+        } else if (key == ' ') {
+            v->frozen = !v->frozen;
+        } else if (key == 's' || key == 'S' || key == '\t') {
+            v->spectrum = !v->spectrum;
+            v->ncols = 0;
+            size_t nc = ml_screen_columns(w->scr);
+            if (v->spectrum
+                && ml_monitor_get_columns(w->mon, v->col_db, nc, &v->col_lo_hz, &v->col_hi_hz) == ML_OK)
+                v->ncols = nc;
+        }
+    }
+    return quit;
+}
+
+#define STOP (-1) /* update's "the end, Ctrl-C or q" */
+
+/* One update: a tenth of a second in, the window analysed, holds and warning, the display. 0 to
+ * go on, STOP, or an exit status (error printed). */
+static int update(watcher *w, uint64_t stop_at)
+{
+    size_t want = w->upd, got = 0;
+    if (stop_at - w->frames < want)
+        want = (size_t)(stop_at - w->frames);
+    ml_status st = ml_source_read(w->seg.src, w->buf, want, &got);
+    ml_channels_split(&w->ch, w->buf, got, w->re, w->im);
+    ml_monitor_push(w->mon, w->re, w->im, got);
+    w->frames += got;
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", w->ls.device_name, ml_source_detail(w->seg.src));
+    if (got < want) /* Ctrl-C or the end */
+        return STOP;
+    ml_monitor_result r;
+    st = ml_monitor_analyse(w->mon, &r);
+    if (st == ML_ENOMEM || st == ML_EFFT)
+        return ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
+    const bool have = st == ML_OK;
+    const double dt = (double)got / w->rate;
+    ml_peakhold_push(w->hold_pos, dt, have ? r.modulation.positive_peak_pct : NAN);
+    ml_peakhold_push(w->hold_neg, dt, have ? r.modulation.negative_peak_pct : NAN);
+    if (have && w->kind != ML_KIND_AUDIO)
+        overmodulation(w, &r.modulation);
+    ml_source_live_stats(w->seg.src, &w->ls);
+    show(w, &r, have);
+    if (w->scr == NULL) {
+        if (!w->v->frozen)
+            plain_line(stdout, w->v);
+        return 0;
+    }
+    const bool quit = keys(w);
+    ml_screen_draw(w->scr, w->v);
+    return quit ? STOP : 0;
+}
+
+int ml_cmd_watch(int argc, char **argv)
+{
+    static watcher w;
+    static ml_watch_view view;
+    memset(&w, 0, sizeof w);
+    memset(&view, 0, sizeof view);
+    w.v = &view;
+    w.ch.stride = 1;
+    int rc = parse(argc, argv, &w);
+    if (rc != 0)
+        return rc < 0 ? ML_EXIT_OK : rc;
+    static ml_limits limits;
+    ml_finish_files files; /* watch writes no file: only the checks and the profile */
+    rc = ml_measure_prepare(&w.o, &limits, &files);
+    if (rc != 0)
+        return rc;
+    ml_finish_files_free(&files);
+    rc = open_input(&w);
+    if (rc == 0)
+        rc = make_meter(&w);
+    if (rc == 0 && !want_plain(w.plain) && (w.scr = ml_screen_open()) == NULL)
+        w.plain = true;
+    const uint64_t stop_at = w.seconds_given ? (uint64_t)llround(w.o.in.seconds * w.rate) : UINT64_MAX;
+    while (rc == 0 && w.frames < stop_at) {
+        rc = update(&w, stop_at);
+        if (rc != 0 && w.scr) { /* an error line must not vanish with the screen */
+            ml_screen_close(w.scr);
+            w.scr = NULL;
+        }
+    }
+    if (rc == STOP)
+        rc = 0;
+    ml_screen_close(w.scr);
+    if (w.seg.src) {
+        ml_source_stop(w.seg.src);
+        sigaction(SIGINT, &w.old_int, NULL);
+        sigaction(SIGTERM, &w.old_term, NULL);
+        sigaction(SIGHUP, &w.old_hup, NULL);
+    }
     g_src = NULL;
-    ml_source_close(seg.src);
-    ml_monitor_destroy(mon);
-    ml_peakhold_destroy(hold_pos);
-    ml_peakhold_destroy(hold_neg);
-    free(buf);
-    free(re);
-    free(im);
+    ml_source_close(w.seg.src);
+    ml_monitor_destroy(w.mon);
+    ml_peakhold_destroy(w.hold_pos);
+    ml_peakhold_destroy(w.hold_neg);
+    free(w.buf);
+    free(w.re);
+    free(w.im);
     return rc;
 }

@@ -25,6 +25,7 @@ typedef struct {
     uint64_t overflows, lost_frames; /* since the last reset                                     */
     bool have;                      /* res holds an analysis                                     */
     ml_monitor_result res;
+    double nominal_hz;              /* --carrier (NAN: none; the offset is then not shown)         */
     double pos_hold_pct, neg_hold_pct; /* peak-hold markers (NAN before the first reading)       */
     double pos_limit_pct, neg_limit_pct; /* the profile's limits (NAN when none)                  */
     double latch_limit_pct;         /* positive peak above this latches the warning              */

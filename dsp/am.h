@@ -41,6 +41,7 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "dsp/channels.h"
 #include "dsp/status.h"
 
 typedef struct ml_am ml_am;
@@ -122,16 +123,13 @@ size_t ml_am_output_cap(const ml_am *q, size_t n);
 ml_status ml_am_push(ml_am *q, const double complex *z, const float *ref, size_t n, const ml_am_output *out,
                      size_t *count);
 
-/* The same for n frames of interleaved float samples as read from a file: frame i holds the
- * real part at data[i * stride + re], for complex input the imaginary part at
- * data[i * stride + im], and with has_reference the reference at data[i * stride + ref]
- * (columns < stride). Gives exactly what ml_am_push gives for the same values, without the
- * caller splitting the columns first. ML_EINVAL as ml_am_push, or for a column outside the frame. */
-typedef struct {
-    const float *data;
-    size_t stride, re, im, ref;
-} ml_am_frames;
-ml_status ml_am_push_frames(ml_am *q, const ml_am_frames *in, size_t n, const ml_am_output *out, size_t *count);
+/* The same for n interleaved float frames as read from a file or device (dsp/channels.h): the
+ * real part from column c->re, for complex input the imaginary part from c->im, and with
+ * has_reference the reference from c->ref (c->has_ref must then be set). Gives exactly what
+ * ml_am_push gives for the same values, without the caller splitting the columns first.
+ * ML_EINVAL as ml_am_push, or for a map that does not fit. */
+ml_status ml_am_push_frames(ml_am *q, const float *frames, const ml_channels *c, size_t n,
+                            const ml_am_output *out, size_t *count);
 
 /* Flushes the channel filter, classifies and releases the last partial block. Call once at the
  * end, before get_result; afterwards push and finish return ML_EINVAL until reset.

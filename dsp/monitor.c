@@ -1,43 +1,37 @@
 /* Sliding-window analysis for a live meter (see dsp/monitor.h).
  * SPDX-License-Identifier: MIT
- *
- * References:
- * [cfr73.14] 47 CFR 73.14, percentage modulation: positive 100 (MAX - C)/C, negative
- *     100 (C - MIN)/C, C = carrier amplitude without modulation.
  */
 #include "dsp/monitor.h"
 
 #include <assert.h>
-#include <complex.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
 
-#include "dsp/am.h"
-#include "dsp/rf.h"
+#include "dsp/carrier.h"
+#include "dsp/channels.h"
+#include "dsp/resolution.h"
 #include "dsp/spectrum.h"
+#include "dsp/stats.h"
 
-#define CHUNK 4096             /* frames per demodulator push                                  */
-#define SEARCH_HZ 200.0        /* capture range around a nominal carrier (as measure)          */
-#define QUIET_MIN_S 0.1        /* unmodulated time needed before C is taken from it (as measure) */
+#define CHUNK 4096             /* frames per push into the modulation analysis                 */
 #define LEVEL_REFIND 2.0       /* carrier amplitude change (6 dB) that re-finds the carrier     */
 
 struct ml_monitor {
     ml_monitor_config cfg;
-    size_t cap, head, fill;    /* ring of the latest cap samples; head = next write           */
-    double complex *ring;
-    double complex *lin;       /* the window in time order                                    */
-    double *tmp;               /* real parts / envelope scratch, CHUNK                         */
+    size_t width;              /* floats per frame: 2 for iq, else 1                           */
+    size_t cap, head, fill;    /* ring of the latest cap frames; head = next write             */
+    float *ring;
+    float *lin;                /* the window in time order                                    */
     double *psd;               /* nbins of spec                                               */
     uint64_t pushed;
-    ml_spectrum *spec;         /* audio: the input; if/iq: the captured signal                 */
+    ml_spectrum *spec;         /* audio: the input; if/iq: the window, to find the carrier      */
     /* if/iq: present once the carrier is found */
-    ml_am *am;
-    ml_spectrum *aud;          /* the envelope's spectrum                                      */
-    ml_am_output out;
-    double fc, ac, bw, f_first;
+    ml_modulation *mod;
+    double fc, ac;             /* the carrier as found                                        */
     bool have_carrier;
     unsigned finds;
+    double reference_c;        /* set_reference's C, or NAN                                   */
     /* latest analysis, for get_columns */
     bool analysed;
     double col_lo, col_hi, col_ref;
@@ -61,31 +55,6 @@ ml_monitor_config ml_monitor_config_default(double rate_hz, ml_monitor_kind kind
     return c;
 }
 
-/* The largest power of two up to the default resolution with two segments a quarter of it apart
- * in n (the hop is nfft / 4): a window of 1 s at 48 kHz gets 32768 points (1.5 Hz bins), fine
- * enough to keep 50 Hz hum out of the flat-top window's DC lobe, and still two segments for the
- * phase-advance frequency estimate. */
-static size_t nfft_for(double rate_hz, size_t n)
-{
-    size_t nfft = ml_spectrum_config_default(rate_hz).nfft;
-    while (nfft > 256 && nfft + nfft / 4 > n)
-        nfft /= 2;
-    return nfft + nfft / 4 <= n ? nfft : 0;
-}
-
-static void drop_carrier(ml_monitor *q)
-{
-    ml_am_destroy(q->am);
-    ml_spectrum_destroy(q->aud);
-    free(q->out.env);
-    free(q->out.in);
-    free(q->out.modulated);
-    memset(&q->out, 0, sizeof q->out);
-    q->am = NULL;
-    q->aud = NULL;
-    q->have_carrier = false;
-}
-
 ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out)
 {
     assert(out != NULL);
@@ -99,17 +68,18 @@ ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out)
     if (q == NULL)
         return ML_ENOMEM;
     q->cfg = *cfg;
+    q->reference_c = NAN;
+    q->width = cfg->kind == ML_MONITOR_IQ ? 2 : 1;
     q->cap = (size_t)llround(cfg->window_s * cfg->rate_hz);
     ml_status st = ML_ENOMEM;
-    q->ring = malloc(q->cap * sizeof *q->ring);
-    q->lin = malloc(q->cap * sizeof *q->lin);
-    q->tmp = malloc(CHUNK * sizeof *q->tmp);
-    if (q->ring == NULL || q->lin == NULL || q->tmp == NULL)
+    q->ring = malloc(q->cap * q->width * sizeof *q->ring);
+    q->lin = malloc(q->cap * q->width * sizeof *q->lin);
+    if (q->ring == NULL || q->lin == NULL)
         goto fail;
     ml_spectrum_config sc = ml_spectrum_config_default(cfg->rate_hz);
     sc.window = cfg->window;
-    sc.nfft = nfft_for(cfg->rate_hz, q->cap);
-    sc.hop = sc.nfft / 4;
+    sc.nfft = ml_resolution_nfft(cfg->rate_hz, (int64_t)q->cap, ML_RESOLUTION_WINDOW);
+    sc.hop = ml_resolution_hop(sc.nfft, ML_RESOLUTION_WINDOW);
     sc.complex_input = cfg->kind == ML_MONITOR_IQ;
     if (sc.nfft == 0) {
         st = ML_EINVAL;
@@ -118,6 +88,7 @@ ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out)
     if ((st = ml_spectrum_create(&sc, &q->spec)) != ML_OK)
         goto fail;
     st = ML_ENOMEM;
+    /* the largest spectrum shown: the window's, or the modulation analysis' (same length) */
     q->psd = malloc(ml_spectrum_nbins(q->spec) * sizeof *q->psd);
     if (q->psd == NULL)
         goto fail;
@@ -132,11 +103,10 @@ void ml_monitor_destroy(ml_monitor *q)
 {
     if (q == NULL)
         return;
-    drop_carrier(q);
+    ml_modulation_destroy(q->mod);
     ml_spectrum_destroy(q->spec);
     free(q->ring);
     free(q->lin);
-    free(q->tmp);
     free(q->psd);
     free(q);
 }
@@ -147,9 +117,19 @@ void ml_monitor_reset(ml_monitor *q)
         return;
     q->head = q->fill = 0;
     q->pushed = 0;
-    q->have_carrier = false; /* the demodulator is kept until a new carrier replaces it */
+    q->have_carrier = false; /* the analysis object is kept until a new carrier replaces it */
     q->finds = 0;
     q->analysed = false;
+    if (q->mod)
+        ml_modulation_set_reference(q->mod, q->reference_c);
+}
+
+ml_status ml_monitor_set_reference(ml_monitor *q, double c)
+{
+    if (q == NULL || !(isnan(c) || (c > 0 && isfinite(c))))
+        return ML_EINVAL;
+    q->reference_c = c;
+    return q->mod ? ml_modulation_set_reference(q->mod, c) : ML_OK;
 }
 
 size_t ml_monitor_window_frames(const ml_monitor *q)
@@ -167,8 +147,10 @@ ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_
     if (q == NULL || (n > 0 && re == NULL) || (q->cfg.kind == ML_MONITOR_IQ && n > 0 && im == NULL))
         return ML_EINVAL;
     for (size_t i = 0; i < n; i++) {
-        /* re + j im without CMPLX (glibc defines it for GCC only); exact for finite samples */
-        q->ring[q->head] = (double)re[i] + (q->cfg.kind == ML_MONITOR_IQ ? (double)im[i] : 0.0) * I;
+        float *f = q->ring + q->width * q->head;
+        f[0] = re[i];
+        if (q->width == 2)
+            f[1] = im[i];
         q->head = q->head + 1 == q->cap ? 0 : q->head + 1;
     }
     q->pushed += n;
@@ -176,218 +158,140 @@ ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_
     return ML_OK;
 }
 
-/* Pushes n samples of the window to a spectrum (complex, or their real parts). */
-static void spectrum_push(ml_monitor *q, ml_spectrum *s, const double complex *z, size_t n)
+/* The window's frames to its spectrum. */
+static void window_spectrum(ml_monitor *q)
 {
-    if (ml_spectrum_is_complex(s)) {
-        ml_spectrum_push_complex(s, z, n);
-        return;
-    }
-    for (size_t i = 0; i < n; i += CHUNK) {
-        const size_t m = n - i < CHUNK ? n - i : CHUNK;
-        for (size_t j = 0; j < m; j++)
-            q->tmp[j] = creal(z[i + j]);
-        ml_spectrum_push_double(s, q->tmp, m);
-    }
+    ml_spectrum_reset(q->spec);
+    if (q->width == 2)
+        ml_spectrum_push_complex_float_tagged(q->spec, q->lin, NULL, q->cap);
+    else
+        ml_spectrum_push(q->spec, q->lin, q->cap);
 }
 
-static void fill_audio(ml_monitor_result *r, const ml_audio_result *a, bool ok)
-{
-    const double p1 = a->fundamental_power;
-    r->audio_ok = ok;
-    r->fundamental_hz = ok ? a->fundamental_hz : NAN;
-    r->fundamental_dbfs = ok ? ml_power_dbfs(p1) : NAN;
-    r->thd_pct = ok ? ml_ratio_pct(a->distortion_power, p1) : NAN;
-    r->thdn_pct = ok ? ml_ratio_pct(a->band_power - p1, p1) : NAN;
-    r->sinad_db = ok ? ml_ratio_db(p1, a->band_power - p1) : NAN;
-    r->snr_db = ok ? ml_ratio_db(p1, a->noise_power) : NAN;
-    r->hum_dbfs = ok ? ml_power_dbfs(a->hum_power) : NAN;
-    r->hum_dbc = ok ? ml_ratio_db(a->hum_power, p1) : NAN;
-}
-
-/* Finds the carrier in the window's spectrum (already pushed) and builds the demodulator. */
+/* Finds the carrier in the window's spectrum (dsp/carrier.h) and builds the modulation analysis
+ * around it. */
 static ml_status find_carrier(ml_monitor *q)
 {
-    const double rate = q->cfg.rate_hz, nyq = rate / 2;
+    const double rate = q->cfg.rate_hz;
     const bool iq = q->cfg.kind == ML_MONITOR_IQ;
-    const double lo_all = iq ? -nyq : 20.0;
-    double fc = 0, ac = 0;
-    ml_status st;
-    if (isnan(q->cfg.carrier_hz))
-        st = ml_rf_find_peak(q->spec, lo_all, nyq, &fc, &ac);
-    else
-        st = ml_rf_find_peak(q->spec, fmax(q->cfg.carrier_hz - SEARCH_HZ, lo_all),
-                             fmin(q->cfg.carrier_hz + SEARCH_HZ, nyq), &fc, &ac);
-    if (st != ML_OK || !(ac > 0))
+    window_spectrum(q);
+    const ml_carrier_config cc = ml_carrier_config_default(rate, iq, q->cfg.carrier_hz);
+    ml_carrier car;
+    if (ml_carrier_find(q->spec, &cc, &car) != ML_OK || !(car.amplitude > 0))
         return ML_ENOSIGNAL;
-    double transition = 0;
-    double bw = ml_am_default_bandwidth(rate, iq, fc, q->cfg.max_bandwidth_hz, &transition);
-    if (q->cfg.bandwidth_hz > 0 && q->cfg.bandwidth_hz < bw) {
-        bw = q->cfg.bandwidth_hz;
-        transition = fmin(transition, 0.25 * bw);
-    }
+    double bw, transition;
+    ml_status st = ml_modulation_channel(rate, iq, car.frequency_hz, q->cfg.bandwidth_hz,
+                                         q->cfg.max_bandwidth_hz, &bw, &transition);
     if (bw <= 0)
         return ML_ENOSIGNAL;
-    drop_carrier(q);
-    ml_am_config ac_cfg = ml_am_config_default(rate, iq, fc, bw, ac);
-    ac_cfg.transition_hz = transition;
-    ac_cfg.hold_s = q->cfg.peak_hold_s;
-    ac_cfg.positive_limit_pct = q->cfg.positive_limit_pct;
-    if ((st = ml_am_create(&ac_cfg, &q->am)) != ML_OK)
-        return st;
-    const size_t env_n = q->cap > 2 * ml_am_edge(q->am) ? q->cap - 2 * ml_am_edge(q->am) : 0;
-    ml_spectrum_config sc = ml_spectrum_config_default(rate);
-    sc.window = q->cfg.window;
-    sc.nfft = nfft_for(rate, env_n);
-    sc.hop = sc.nfft / 4;
-    if (sc.nfft == 0) {
-        drop_carrier(q);
-        return ML_ENOSIGNAL;
-    }
-    if ((st = ml_spectrum_create(&sc, &q->aud)) != ML_OK) {
-        drop_carrier(q);
-        return st;
-    }
-    q->out.cap = ml_am_output_cap(q->am, CHUNK);
-    q->out.env = malloc(q->out.cap * sizeof *q->out.env);
-    q->out.in = malloc(q->out.cap * sizeof *q->out.in);
-    q->out.modulated = malloc(q->out.cap);
-    if (q->out.env == NULL || q->out.in == NULL || q->out.modulated == NULL) {
-        drop_carrier(q);
-        return ML_ENOMEM;
-    }
-    if (q->finds == 0)
-        q->f_first = fc;
-    q->fc = fc;
-    q->ac = ac;
-    q->bw = bw;
+    ml_channels ch;
+    ml_channels_map(iq ? 2 : 1, 1, iq, false, 0, &ch);
+    ml_modulation_config mc = ml_modulation_config_default(rate, &ch, car.frequency_hz, car.amplitude,
+                                                           (int64_t)q->cap);
+    mc.bandwidth_hz = st == ML_OK ? bw : 0; /* a request wider than fits: the widest */
+    mc.max_bandwidth_hz = q->cfg.max_bandwidth_hz;
+    mc.peak_hold_s = q->cfg.peak_hold_s;
+    mc.positive_limit_pct = q->cfg.positive_limit_pct;
+    mc.window = q->cfg.window;
+    mc.audio = q->cfg.audio;
+    mc.resolution = ML_RESOLUTION_WINDOW;
+    mc.latch = true;
+    mc.max_batch_frames = CHUNK;
+    ml_modulation_destroy(q->mod); /* a new carrier: a new analysis, and no latched C */
+    q->mod = NULL;
+    if ((st = ml_modulation_create(&mc, &q->mod)) != ML_OK)
+        return st == ML_ENOSIGNAL ? ML_ENOSIGNAL : st;
+    ml_modulation_set_reference(q->mod, q->reference_c);
+    q->fc = car.frequency_hz;
+    q->ac = car.amplitude;
     q->have_carrier = true;
     q->finds++;
     return ML_OK;
 }
 
-/* Envelope output to the spectra: the input samples to the captured signal's, the envelope in
- * units of the provisional carrier to the audio's. */
-static void feed(ml_monitor *q, size_t n, double inv_c)
-{
-    spectrum_push(q, q->spec, q->out.in, n);
-    for (size_t i = 0; i < n; i++)
-        q->out.env[i] *= inv_c;
-    ml_spectrum_push_double(q->aud, q->out.env, n);
-}
-
 static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
 {
-    const double rate = q->cfg.rate_hz;
     if (!q->have_carrier) {
-        ml_spectrum_reset(q->spec);
-        spectrum_push(q, q->spec, q->lin, q->cap);
         ml_status st = find_carrier(q);
         if (st != ML_OK)
             return st;
     }
-    ml_spectrum_reset(q->spec);
-    ml_spectrum_reset(q->aud);
-    ml_am_reset(q->am);
-    const double inv_c = 1.0 / q->ac;
-    size_t nout = 0;
-    for (size_t i = 0; i < q->cap; i += CHUNK) {
-        const size_t m = q->cap - i < CHUNK ? q->cap - i : CHUNK;
-        ml_am_push(q->am, q->lin + i, NULL, m, &q->out, &nout);
-        feed(q, nout, inv_c);
-    }
-    ml_am_finish(q->am, &q->out, &nout);
-    feed(q, nout, inv_c);
-    ml_am_result ar;
-    if (ml_am_get_result(q->am, &ar) != ML_OK)
+    ml_modulation_reset(q->mod);
+    for (size_t i = 0; i < q->cap; i += CHUNK)
+        ml_modulation_push(q->mod, q->lin + q->width * i, q->cap - i < CHUNK ? q->cap - i : CHUNK);
+    ml_modulation_finish(q->mod);
+    ml_modulation_result *m = &r->modulation;
+    const ml_status st = ml_modulation_get_result(q->mod, m);
+    const double a_car = m->carrier_amplitude;
+    r->carrier_ok = st == ML_OK && a_car > 0;
+    if (st != ML_OK)
         return ML_ENOSIGNAL;
-    const double c = (double)ar.quiet_samples >= QUIET_MIN_S * rate ? ar.mean_quiet : ar.mean_all;
-    if (!(c > 0))
-        return ML_ENOSIGNAL;
-    ml_spectrum_scale(q->aud, q->ac / c);
-
-    ml_audio_config acfg = q->cfg.audio;
-    acfg.band_hi_hz = fmin(acfg.band_hi_hz, q->bw);
-    ml_audio_result au;
-    bool aok = false;
-    if (acfg.band_lo_hz < acfg.band_hi_hz
-        && !(acfg.tone_hz > 0 && (acfg.tone_hz < acfg.band_lo_hz || acfg.tone_hz > acfg.band_hi_hz)))
-        aok = ml_audio_analyze(q->aud, &acfg, &au) == ML_OK;
-    if (!aok)
-        memset(&au, 0, sizeof au);
-    fill_audio(r, &au, aok);
-
-    const double lh = (double)ml_spectrum_lobe_bins(q->spec) * rate / (double)ml_spectrum_nfft(q->spec);
-    double f_car = q->fc, a_car = 0;
-    if (ml_rf_find_peak(q->spec, q->fc - lh, q->fc + lh, &f_car, &a_car) != ML_OK)
-        a_car = 0;
-    const double p_car = a_car * a_car * ml_spectrum_full_scale_power(q->spec);
-    /* the same figures as the measure command's [cfr73.14] */
-    const double emax = ar.emax;
-    const double emin = ar.pinch_events + ar.reversal_events > 0 ? fmin(ar.emin, ar.emin_abs) : ar.emin;
-    r->carrier_ok = a_car > 0;
-    r->carrier_hz = f_car;
-    r->carrier_offset_hz = f_car - (isnan(q->cfg.carrier_hz) ? q->f_first : q->cfg.carrier_hz);
-    r->carrier_dbfs = a_car > 0 ? 20 * log10(a_car) : NAN;
-    r->bandwidth_hz = q->bw;
-    r->cnr_db = a_car > 0 ? ml_rf_cnr_db(q->spec, f_car, p_car, q->bw, aok ? au.fundamental_hz : 0,
-                                          acfg.harmonics, aok ? au.mains_hz : 0, acfg.hum_harmonics)
-                          : NAN;
-    r->index = emax + emin > 0 ? (emax - emin) / (emax + emin) : NAN;
-    r->positive_peak_pct = 100 * (emax - c) / c;
-    r->negative_peak_pct = 100 * (c - emin) / c;
-    r->envelope_thd_pct = aok ? ml_ratio_pct(au.distortion_power, au.fundamental_power) : NAN;
-    r->mod_hum_db = aok ? ml_power_dbfs(au.hum_power) : NAN;
-    r->pinch_events = ar.pinch_events + ar.reversal_events;
-    r->positive_over = ar.positive_over;
-    q->col_lo = f_car - q->bw;
-    q->col_hi = f_car + q->bw;
+    r->audio_ok = m->audio_valid;
+    r->audio = m->audio;
+    const double p_car = a_car * a_car * ml_spectrum_full_scale_power(ml_modulation_get_spectrum(q->mod));
+    q->col_lo = m->carrier_hz - m->bandwidth_hz;
+    q->col_hi = m->carrier_hz + m->bandwidth_hz;
     q->col_ref = p_car > 0 ? p_car : ml_spectrum_full_scale_power(q->spec);
     /* a carrier that moved or changed level a lot is found again at the next analysis */
-    if (fabs(f_car - q->fc) > q->cfg.refind_hz || !(a_car > q->ac / LEVEL_REFIND && a_car < q->ac * LEVEL_REFIND))
+    if (fabs(m->carrier_hz - q->fc) > q->cfg.refind_hz
+        || !(a_car > q->ac / LEVEL_REFIND && a_car < q->ac * LEVEL_REFIND))
         q->have_carrier = false;
     return r->carrier_ok ? ML_OK : ML_ENOSIGNAL;
 }
 
 static ml_status analyse_audio(ml_monitor *q, ml_monitor_result *r)
 {
-    ml_spectrum_reset(q->spec);
-    spectrum_push(q, q->spec, q->lin, q->cap);
-    double ms = 0;
-    for (size_t i = 0; i < q->cap; i++)
-        ms += creal(q->lin[i]) * creal(q->lin[i]);
-    r->rms_dbfs = ml_power_dbfs(ms / (double)q->cap);
+    window_spectrum(q);
+    ml_stats s;
+    ml_stats_init(&s, 24);
+    ml_stats_push(&s, q->lin, q->cap);
+    ml_level_figures lv;
+    ml_figures_level(&s, 1, &lv);
+    r->rms_dbfs = lv.rms_dbfs;
     ml_audio_config acfg = q->cfg.audio;
     acfg.band_hi_hz = fmin(acfg.band_hi_hz, q->cfg.rate_hz / 2);
     ml_audio_result au;
     ml_status st = ML_EINVAL;
     if (acfg.band_lo_hz < acfg.band_hi_hz)
         st = ml_audio_analyze(q->spec, &acfg, &au);
-    if (st != ML_OK)
-        memset(&au, 0, sizeof au);
-    fill_audio(r, &au, st == ML_OK);
+    r->audio_ok = st == ML_OK;
+    ml_figures_audio(&au, r->audio_ok, &r->audio);
     q->col_lo = fmax(acfg.band_lo_hz, 1.0);
     q->col_hi = acfg.band_hi_hz;
     q->col_ref = ml_spectrum_full_scale_power(q->spec);
     return st == ML_ENOMEM ? st : ML_OK;
 }
 
+/* A result with nothing measured. */
+static void empty_result(const ml_monitor *q, ml_monitor_result *r)
+{
+    const double nan = NAN;
+    memset(r, 0, sizeof *r);
+    r->window_s = (double)q->cap / q->cfg.rate_hz;
+    r->analysed_frames = q->pushed;
+    r->rms_dbfs = nan;
+    ml_figures_audio_none(&r->audio);
+    ml_modulation_result *m = &r->modulation;
+    m->carrier_hz = m->carrier_amplitude = m->carrier_level_dbfs = m->c = m->unmodulated_dbfs = nan;
+    m->cnr_db = m->cnr_bandwidth_hz = m->bandwidth_hz = m->index = m->index_spectral = nan;
+    m->positive_peak_pct = m->negative_peak_pct = m->carrier_shift_pct = m->overmodulation_pct = nan;
+    m->sideband_asymmetry_db = m->trapezoid_deviation_pct = m->occupied_bandwidth_hz = nan;
+    m->emax_rel = m->emin_rel = nan;
+    ml_figures_audio_none(&m->audio);
+}
+
 ml_status ml_monitor_analyse(ml_monitor *q, ml_monitor_result *out)
 {
     if (q == NULL || out == NULL)
         return ML_EINVAL;
-    const double nan = NAN;
-    ml_monitor_result r = {.window_s = (double)q->cap / q->cfg.rate_hz, .analysed_frames = q->pushed,
-                           .rms_dbfs = nan, .fundamental_hz = nan, .fundamental_dbfs = nan, .thd_pct = nan,
-                           .thdn_pct = nan, .sinad_db = nan, .snr_db = nan, .hum_dbfs = nan, .hum_dbc = nan,
-                           .carrier_hz = nan, .carrier_offset_hz = nan, .carrier_dbfs = nan,
-                           .bandwidth_hz = nan, .cnr_db = nan, .index = nan, .positive_peak_pct = nan,
-                           .negative_peak_pct = nan, .envelope_thd_pct = nan, .mod_hum_db = nan};
+    ml_monitor_result r;
+    empty_result(q, &r);
     ml_status st = ML_ENOSIGNAL;
     if (q->fill == q->cap) {
-        /* the window in time order: the oldest sample sits at head */
-        memcpy(q->lin, q->ring + q->head, (q->cap - q->head) * sizeof *q->lin);
-        memcpy(q->lin + (q->cap - q->head), q->ring, q->head * sizeof *q->lin);
+        /* the window in time order: the oldest frame sits at head */
+        const size_t w = q->width;
+        memcpy(q->lin, q->ring + w * q->head, (q->cap - q->head) * w * sizeof *q->lin);
+        memcpy(q->lin + w * (q->cap - q->head), q->ring, q->head * w * sizeof *q->lin);
         st = q->cfg.kind == ML_MONITOR_AUDIO ? analyse_audio(q, &r) : analyse_modulation(q, &r);
         q->analysed = st == ML_OK;
     }
@@ -402,12 +306,13 @@ ml_status ml_monitor_get_columns(const ml_monitor *q, double *db, size_t ncols, 
         return ML_EINVAL;
     if (!q->analysed)
         return ML_ENOSIGNAL;
-    const size_t nbins = ml_spectrum_nbins(q->spec);
-    if (ml_spectrum_get_psd(q->spec, q->psd, nbins) != ML_OK)
+    const ml_spectrum *s = q->cfg.kind == ML_MONITOR_AUDIO ? q->spec : ml_modulation_get_spectrum(q->mod);
+    const size_t nbins = ml_spectrum_nbins(s);
+    if (nbins > ml_spectrum_nbins(q->spec) || ml_spectrum_get_psd(s, q->psd, nbins) != ML_OK)
         return ML_ENOSIGNAL;
     const bool logf = q->cfg.kind == ML_MONITOR_AUDIO;
-    const double lo = q->col_lo, hi = q->col_hi, bin = q->cfg.rate_hz / (double)ml_spectrum_nfft(q->spec);
-    const size_t nfft = ml_spectrum_nfft(q->spec);
+    const double lo = q->col_lo, hi = q->col_hi, bin = q->cfg.rate_hz / (double)ml_spectrum_nfft(s);
+    const size_t nfft = ml_spectrum_nfft(s);
     for (size_t c = 0; c < ncols; c++) {
         const double u0 = (double)c / (double)ncols, u1 = (double)(c + 1) / (double)ncols;
         const double f0 = logf ? lo * pow(hi / lo, u0) : lo + (hi - lo) * u0;
@@ -419,7 +324,7 @@ ml_status ml_monitor_get_columns(const ml_monitor *q, double *db, size_t ncols, 
         double p = 0;
         for (long k = k0; k <= k1; k++) {
             long kk = k;
-            if (ml_spectrum_is_complex(q->spec)) {
+            if (ml_spectrum_is_complex(s)) {
                 kk = ((k % (long)nfft) + (long)nfft) % (long)nfft; /* negative frequencies */
             } else if (k < 0 || (size_t)k >= nbins) {
                 continue;

@@ -1,20 +1,22 @@
 /* Sliding-window analysis for a live meter: the last window_s seconds of input, re-analysed on
- * demand with the same dsp code as a whole-file measurement.
+ * demand by the same dsp objects that define the figures for a whole recording.
  * SPDX-License-Identifier: MIT
  *
- * push appends samples to a ring that holds the latest window_s seconds. analyse runs, over the
- * ring's contents, exactly what the measure command runs over a file:
- *  - audio: the Welch spectrum (dsp/spectrum.h) and ml_audio_analyze (dsp/metrics.h);
- *  - if/iq: the carrier is the strongest component of the window's spectrum (or the strongest
- *    within +-200 Hz of a nominal carrier), found at the first analysis and again whenever it
- *    moves by more than refind_hz or its level by more than 6 dB; the channel filter and envelope
- *    (dsp/am.h) give the peak readings, the index and the envelope's spectrum (envelope THD, hum);
- *    C is the mean envelope of the window's unmodulated stretches when they last 0.1 s, else the
- *    mean envelope; the CNR comes from ml_rf_cnr_db (dsp/rf.h).
- * The FFT length is the largest power of two up to the default resolution with at least two
- * segments, a quarter of it apart, in the window (1 s at 48 kHz: 32768 points, 1.46 Hz bins). create allocates and plans everything for the audio
- * kind; for if/iq finding the carrier creates the demodulator and the envelope's spectrum (a
- * few ms, allocating), which happens at the first analysis and on a re-find only.
+ * push appends samples to a ring that holds the latest window_s seconds. analyse runs over the
+ * ring's contents, as one span:
+ *  - audio: the Welch spectrum (dsp/spectrum.h), ml_audio_analyze and the figures of
+ *    dsp/figures.h;
+ *  - if/iq: the modulation analysis (dsp/modulation.h), which defines every carrier and
+ *    modulation figure. The carrier is found with dsp/carrier.h (the strongest component, or the
+ *    one near a nominal carrier with its capture range and level check) at the first analysis and
+ *    again whenever it moves by more than refind_hz or its level by more than 6 dB. C is latched
+ *    from an unmodulated stretch the window holds (at least 0.1 s) until ml_monitor_reset, a
+ *    carrier re-find or a later unmodulated stretch replaces it; a reference set with
+ *    ml_monitor_set_reference overrides it.
+ * The FFT lengths follow ML_RESOLUTION_WINDOW (dsp/resolution.h: 1 s at 48 kHz gets 32768
+ * points). create allocates and plans everything for the audio kind; for if/iq finding the
+ * carrier creates the modulation analysis (a few ms, allocating), which happens at the first
+ * analysis and on a re-find only.
  */
 #ifndef ML_DSP_MONITOR_H
 #define ML_DSP_MONITOR_H
@@ -23,7 +25,9 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "dsp/figures.h"
 #include "dsp/metrics.h"
+#include "dsp/modulation.h"
 #include "dsp/status.h"
 #include "dsp/window.h"
 
@@ -39,7 +43,8 @@ typedef struct {
     ml_audio_config audio;     /* band, tone, harmonics, mains (ml_audio_config_default)          */
     double carrier_hz;         /* if/iq: nominal carrier, NAN = the strongest component (default)  */
     double max_bandwidth_hz;   /* if/iq: widest channel filter (default 10000)                    */
-    double bandwidth_hz;       /* if/iq: channel filter width, 0 = the widest that fits (default)  */
+    double bandwidth_hz;       /* if/iq: channel filter width, 0 = the widest that fits (default;
+                                  a wider request is held to the widest)                          */
     double peak_hold_s;        /* peak readings need this share per second (default 0.005)         */
     double positive_limit_pct; /* excursions counted above this positive peak (default 125)        */
     double refind_hz;          /* re-find the carrier when it moves more than this (default 50)   */
@@ -48,25 +53,13 @@ typedef struct {
 typedef struct {
     double window_s;           /* seconds analysed                                                 */
     uint64_t analysed_frames;  /* frames pushed in total when this analysis ran                    */
-    /* audio kind: the input; if/iq: the demodulated audio (envelope in units of C)             */
-    bool audio_ok;             /* ml_audio_analyze succeeded (otherwise its figures are NAN)       */
-    double rms_dbfs;           /* audio kind: RMS level of the window                              */
-    double fundamental_hz, fundamental_dbfs, thd_pct, thdn_pct, sinad_db, snr_db;
-    double hum_dbfs, hum_dbc;  /* hum power re full scale and re the fundamental                   */
-    /* if/iq (NAN for audio)                                                                    */
-    bool carrier_ok;
-    double carrier_hz;         /* measured carrier frequency                                       */
-    double carrier_offset_hz;  /* from the nominal carrier, or from the one found at the start     */
-    double carrier_dbfs;       /* carrier line's level                                             */
-    double bandwidth_hz;       /* one-sided channel filter width in use                            */
-    double cnr_db;
-    double index;              /* (Emax - Emin) / (Emax + Emin) of the peak readings               */
-    double positive_peak_pct;  /* 100 (Emax - C) / C                                               */
-    double negative_peak_pct;  /* 100 (C - Emin) / C; 100 when the carrier pinched off             */
-    double envelope_thd_pct;   /* THD of the envelope's audio                                      */
-    double mod_hum_db;         /* hum of the envelope re 100 % modulation                          */
-    uint64_t pinch_events;     /* pinch-off and phase-reversal events in the window                */
-    uint64_t positive_over;    /* excursions above positive_limit_pct in the window                */
+    /* audio kind: the input's figures; if/iq: the demodulated audio's (modulation.audio)         */
+    bool audio_ok;             /* the audio analysis succeeded (otherwise its figures are NAN)    */
+    double rms_dbfs;           /* audio kind: RMS level of the window (dsp/figures.h)              */
+    ml_audio_plain_figures audio;
+    /* if/iq (everything NAN for audio)                                                          */
+    bool carrier_ok;           /* a carrier line was found in the window                           */
+    ml_modulation_result modulation;
     unsigned carrier_finds;    /* times the carrier was found since create/reset                   */
 } ml_monitor_result;
 
@@ -76,8 +69,11 @@ ml_monitor_config ml_monitor_config_default(double rate_hz, ml_monitor_kind kind
  * ML_EINVAL | ML_ENOMEM | ML_EFFT leave *out NULL. Not thread-safe (FFTW planner). */
 ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out);
 void ml_monitor_destroy(ml_monitor *q); /* NULL is a no-op */
-/* Empties the ring and forgets the carrier; no allocation. */
+/* Empties the ring, forgets the carrier and a latched C (not a reference); no allocation. */
 void ml_monitor_reset(ml_monitor *q);
+/* if/iq: C (> 0) for every later analysis, e.g. from a capture of the unmodulated carrier;
+ * NAN: none (C then comes from the window, dsp/modulation.h). ML_EINVAL otherwise. */
+ml_status ml_monitor_set_reference(ml_monitor *q, double c);
 
 /* Frames the ring holds when full (the window), and how many it holds now. */
 size_t ml_monitor_window_frames(const ml_monitor *q);
@@ -87,9 +83,9 @@ size_t ml_monitor_fill(const ml_monitor *q);
 ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_t n);
 
 /* Analyses the ring. ML_ENOSIGNAL until the ring is full, and for if/iq when no carrier is found
- * or it vanishes (out->carrier_ok false); ML_ENOMEM / ML_EFFT when creating the demodulator
- * after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and inside
- * ml_audio_analyze's temporaries. */
+ * or it vanishes (out->carrier_ok false); ML_ENOMEM / ML_EFFT when creating the modulation
+ * analysis after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and
+ * inside ml_audio_analyze's temporaries. */
 ml_status ml_monitor_analyse(ml_monitor *q, ml_monitor_result *out);
 
 /* Coarse spectrum of the latest analysis for display: ncols column maxima (>= 1) in db[ncols].

@@ -226,6 +226,21 @@ ml_status ml_rf_mask_margin(const ml_spectrum *s, double carrier_hz, double carr
     return ML_OK;
 }
 
+/* The bins k0 .. k1 - 1 (ascending) whose frequencies lie in [lo_hz, hi_hz], within the index
+ * range [first, last) of one monotonic run of bin frequencies (a real spectrum has one run, a
+ * complex one two: the non-negative frequencies, then the negative ones). */
+static void band_bins(const ml_spectrum *s, double lo_hz, double hi_hz, size_t first, size_t last, size_t *k0,
+                      size_t *k1)
+{
+    size_t a = first, b = last;
+    while (a < b && ml_spectrum_bin_hz(s, a) < lo_hz)
+        a++;
+    while (b > a && ml_spectrum_bin_hz(s, b - 1) > hi_hz)
+        b--;
+    *k0 = a;
+    *k1 = b;
+}
+
 ml_status ml_rf_noise_density(const ml_spectrum *s, double lo_hz, double hi_hz, const double *exclude,
                               size_t nexclude, double *per_bin)
 {
@@ -236,34 +251,42 @@ ml_status ml_rf_noise_density(const ml_spectrum *s, double lo_hz, double hi_hz, 
     const double *acc = ml_spectrum_sum(s);
     const size_t nbins = ml_spectrum_nbins(s), lobe = ml_spectrum_lobe_bins(s);
     const double bw = bin_hz(s);
-    const size_t dc = ml_spectrum_is_complex(s) ? 0 : lobe;
+    const bool cplx = ml_spectrum_is_complex(s);
+    /* the bins of the band in ascending index order (the order of the sums), run by run */
+    size_t runs[2][2], nruns = 0;
+    band_bins(s, lo_hz, hi_hz, cplx ? 0 : lobe, cplx ? nbins / 2 : nbins, &runs[0][0], &runs[0][1]);
+    nruns = 1;
+    if (cplx) {
+        band_bins(s, lo_hz, hi_hz, nbins / 2, nbins, &runs[1][0], &runs[1][1]);
+        nruns = 2;
+    }
     double sum = 0.0;
     size_t count = 0;
-    for (size_t k = dc; k < nbins; k++) {
-        const double f = ml_spectrum_bin_hz(s, k);
-        if (f < lo_hz || f > hi_hz)
-            continue;
-        bool skip = false;
-        for (size_t j = 0; j < nexclude && !skip; j++)
-            skip = fabs(f - exclude[j]) <= ((double)lobe + 0.5) * bw;
-        if (skip)
-            continue;
-        sum += acc[k];
-        count++;
-    }
+    for (size_t r = 0; r < nruns; r++)
+        for (size_t k = runs[r][0]; k < runs[r][1]; k++) {
+            const double f = ml_spectrum_bin_hz(s, k);
+            bool skip = false;
+            for (size_t j = 0; j < nexclude && !skip; j++)
+                skip = fabs(f - exclude[j]) <= ((double)lobe + 0.5) * bw;
+            if (skip)
+                continue;
+            sum += acc[k];
+            count++;
+        }
     if (count == 0)
         return ML_ENOSIGNAL;
     *per_bin = sum * norm_of(s) / (double)count;
     return ML_OK;
 }
 
-double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double bw_hz, double fm_hz, int harmonics,
-                    double mains_hz, int hum_harmonics)
+double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double bw_hz, double fm_hz,
+                    int harmonics, double mains_hz, int hum_harmonics)
 {
     double excl[1 + 2 * ML_RF_MAX_EXCLUDED];
     size_t nex = 0;
     excl[nex++] = f_car_hz;
-    for (int h = 1; fm_hz > 0 && h <= harmonics && h * fm_hz <= bw_hz && nex + 2 <= sizeof excl / sizeof *excl; h++) {
+    for (int h = 1;
+         fm_hz > 0 && h <= harmonics && h * fm_hz <= bw_hz && nex + 2 <= sizeof excl / sizeof *excl; h++) {
         excl[nex++] = f_car_hz + h * fm_hz;
         excl[nex++] = f_car_hz - h * fm_hz;
     }
@@ -272,7 +295,8 @@ double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double 
         excl[nex++] = f_car_hz - h * mains_hz;
     }
     double nd = 0;
-    if (s == NULL || ml_rf_noise_density(s, f_car_hz - bw_hz, f_car_hz + bw_hz, excl, nex, &nd) != ML_OK || !(nd > 0))
+    if (s == NULL || ml_rf_noise_density(s, f_car_hz - bw_hz, f_car_hz + bw_hz, excl, nex, &nd) != ML_OK
+        || !(nd > 0))
         return NAN;
     return 10 * log10(p_car / (nd * 2 * bw_hz / bin_hz(s)));
 }

@@ -91,7 +91,8 @@ int ml_plot_type(const char *path)
 
 cairo_status_t ml_plot_write_file(void *closure, const unsigned char *data, unsigned int length)
 {
-    return fwrite(data, 1, length, (FILE *)closure) == length ? CAIRO_STATUS_SUCCESS : CAIRO_STATUS_WRITE_ERROR;
+    return fwrite(data, 1, length, (FILE *)closure) == length ? CAIRO_STATUS_SUCCESS
+                                                              : CAIRO_STATUS_WRITE_ERROR;
 }
 
 /* ---- axes ---- */
@@ -136,10 +137,19 @@ static void hz_label(char *buf, size_t len, double v)
         snprintf(buf, len, "%g", v);
 }
 
-/* Frame, grid, ticks and labels; the area inside is returned in *a. */
-static void frame(cairo_t *cr, axes *a, double x, double y, double w, double h, const char *title, const char *xl,
-                  const char *yl, bool hz_ticks)
+/* A panel of a picture: where it lies and what its frame says. */
+typedef struct {
+    double x, y, w, h;      /* the panel's rectangle (cairo user units)                    */
+    const char *title, *xlabel, *ylabel;
+    bool hz_ticks;          /* frequency ticks ("2 k") on a linear axis                    */
+} panel;
+
+/* Frame, grid, ticks and labels of the panel pn; the area inside is returned in *a. */
+static void frame(cairo_t *cr, axes *a, const panel *pn)
 {
+    const double x = pn->x, y = pn->y, w = pn->w, h = pn->h;
+    const char *title = pn->title, *xl = pn->xlabel, *yl = pn->ylabel;
+    const bool hz_ticks = pn->hz_ticks;
     const double fs = fmax(8.0, fmin(11.0, h / 26));
     a->x = x + 5.2 * fs;
     a->y = y + 2.2 * fs;
@@ -278,13 +288,14 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
     ax.y0 = ax.y1 - 160;
     char yl[64];
     snprintf(yl, sizeof yl, "level (%s per FFT bin)", p->level_unit);
-    frame(cr, &ax, x, y, w, h, title, "frequency (Hz)", yl, true);
+    frame(cr, &ax, &(panel){x, y, w, h, title, "frequency (Hz)", yl, true});
     cairo_save(cr);
     cairo_rectangle(cr, ax.x, ax.y, ax.w, ax.h);
     cairo_clip(cr);
     if (p->has_obw) {
         ml_colour(cr, ML_C_OBW);
-        cairo_rectangle(cr, ax_x(&ax, p->obw_lo_hz), ax.y, ax_x(&ax, p->obw_hi_hz) - ax_x(&ax, p->obw_lo_hz), ax.h);
+        cairo_rectangle(cr, ax_x(&ax, p->obw_lo_hz), ax.y, ax_x(&ax, p->obw_hi_hz) - ax_x(&ax, p->obw_lo_hz),
+                        ax.h);
         cairo_fill(cr);
     }
     trace(cr, &ax, p, ML_C_A, 1.0);
@@ -315,7 +326,8 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
         static const int col[] = {ML_C_FUND, ML_C_HARM, ML_C_HUM, ML_C_CARRIER, ML_C_SIDEBAND};
         const double tol = p->nbins > 1 ? 3 * fabs(p->freq_hz[1] - p->freq_hz[0]) + 1e-9 : 1;
         const double lv = level_near(p, m->x_hz, tol);
-        const double xv = ax_x(&ax, m->x_hz), yv = ax_y(&ax, fmin(ax.y1, fmax(ax.y0, isfinite(lv) ? lv : ax.y0)));
+        const double xv = ax_x(&ax, m->x_hz),
+                     yv = ax_y(&ax, fmin(ax.y1, fmax(ax.y0, isfinite(lv) ? lv : ax.y0)));
         ml_colour(cr, col[m->kind]);
         cairo_move_to(cr, xv, yv - 3);
         cairo_line_to(cr, xv - 3.5, yv - 9);
@@ -383,13 +395,14 @@ void ml_draw_envelope(cairo_t *cr, double x, double y, double w, double h, const
     for (size_t i = 0; i < n; i++)
         top = fmax(top, p->env[i] * 1.08);
     axes ax = {.x0 = 0, .x1 = 1000.0 * (double)(n - 1) / p->env_rate_hz, .y0 = 0, .y1 = top};
-    frame(cr, &ax, x, y, w, h, "Envelope", "time (ms)", "envelope E / Ec", false);
+    frame(cr, &ax, &(panel){x, y, w, h, "Envelope", "time (ms)", "envelope E / Ec", false});
     cairo_save(cr);
     cairo_rectangle(cr, ax.x, ax.y, ax.w, ax.h);
     cairo_clip(cr);
     if (isfinite(p->pinch_level)) {
         ml_colour(cr, ML_C_PINCH);
-        cairo_rectangle(cr, ax.x, ax_y(&ax, p->pinch_level * 10), ax.w, ax_y(&ax, 0) - ax_y(&ax, p->pinch_level * 10));
+        cairo_rectangle(cr, ax.x, ax_y(&ax, p->pinch_level * 10), ax.w,
+                        ax_y(&ax, 0) - ax_y(&ax, p->pinch_level * 10));
         cairo_fill(cr);
     }
     ml_colour(cr, ML_C_INK);
@@ -423,7 +436,8 @@ void ml_draw_envelope(cairo_t *cr, double x, double y, double w, double h, const
     ml_colour(cr, ML_C_FAIL);
     for (size_t i = 0; isfinite(p->pinch_level) && i < n; i++)
         if (p->env[i] < p->pinch_level) {
-            cairo_arc(cr, ax_x(&ax, 1000.0 * (double)i / p->env_rate_hz), ax_y(&ax, p->env[i]), 1.6, 0, 2 * M_PI);
+            cairo_arc(cr, ax_x(&ax, 1000.0 * (double)i / p->env_rate_hz), ax_y(&ax, p->env[i]), 1.6, 0,
+                      2 * M_PI);
             cairo_fill(cr);
         }
     cairo_restore(cr);
@@ -459,7 +473,8 @@ void ml_draw_trapezoid(cairo_t *cr, double x, double y, double w, double h, cons
     }
     const double pad = 0.06 * fmax(hi - lo, 1e-6);
     axes ax = {.x0 = lo - pad, .x1 = hi + pad, .y0 = 0, .y1 = top};
-    frame(cr, &ax, x, y, w, h, "Trapezoid", "modulating audio (full scale)", "envelope E / Ec", false);
+    frame(cr, &ax,
+          &(panel){x, y, w, h, "Trapezoid", "modulating audio (full scale)", "envelope E / Ec", false});
     cairo_save(cr);
     cairo_rectangle(cr, ax.x, ax.y, ax.w, ax.h);
     cairo_clip(cr);
@@ -543,8 +558,8 @@ size_t ml_draw_compare_table(cairo_t *cr, double x, double y, double w, double h
                                                                   : ML_C_INK);
             else
                 ml_colour(cr, ML_C_INK);
-            text_at(cr, k == 0 ? x + 3 : x + w * (colx[k] + (k < 5 ? 0.12 : 0.11)) - 3, yy + rowh / 2, cell[k],
-                    k == 0 ? 0.0 : 1.0, 0.5);
+            text_at(cr, k == 0 ? x + 3 : x + w * (colx[k] + (k < 5 ? 0.12 : 0.11)) - 3, yy + rowh / 2,
+                    cell[k], k == 0 ? 0.0 : 1.0, 0.5);
         }
     }
     return n;
@@ -616,7 +631,8 @@ ml_status ml_plot_write(FILE *f, const char *path, const ml_plot_data *p, const 
     if (st != ML_OK)
         return st;
     char t[ML_REPORT_PATH_LEN + 200];
-    snprintf(t, sizeof t, "modlens: %s (%s, %.0f Hz, %.3f s)", r->path, r->kind, r->sample_rate_hz, r->analysed_s);
+    snprintf(t, sizeof t, "modlens: %s (%s, %.0f Hz, %.3f s)", r->path, r->kind, r->sample_rate_hz,
+             r->analysed_s);
     text_at(cr, margin, margin, t, 0.0, 0.0);
     ml_draw_pictures(cr, margin, margin + 24, w - 2 * margin, p);
     cairo_destroy(cr);

@@ -1,4 +1,5 @@
-"""End-to-end test of `modlens log --kind iq|if`: carrier level, CNR, modulation peaks, carrier loss.
+"""End-to-end test of `modlens log --kind iq|if`: measure's carrier and modulation figures per row
+(carrier level, C, CNR, peaks, index), and the carrier-loss event.
 
 Usage: /usr/bin/python3 test_log_carrier.py /path/to/modlens
 
@@ -48,24 +49,32 @@ def main():
             ev = list(csv.DictReader(open(kind + "-events.csv")))
             steady = [r for r in rows if float(r["offset_s"]) < 9 or float(r["offset_s"]) >= 13]
             # analytic: the carrier line's amplitude is the mean envelope 0.3: 20 lg 0.3 = -10.46 dBFS;
-            # 0.05 dB for the lobe's noise and rounding
-            c.check(kind + ": carrier -10.46 dBFS", all(abs(float(r["carrier_dbfs"]) + 10.46) <= 0.05 for r in steady),
-                    str([r["carrier_dbfs"] for r in steady[:3]]))
-            # analytic CNR in the default channel carrier +- B: B = 5 kHz for iq; for if the widest
-            # that fits below the carrier with the channel filter's 1 kHz transition and 100 Hz to
-            # spare, 4.9 kHz. Carrier power 0.09 (iq) or 0.045 (if); noise density 2e-8 / 48 kHz (iq)
-            # or 1e-8 / 24 kHz (if). The channel noise is a median bin (chi-square with 10 degrees
-            # of freedom: 0.30 dB under the mean), so +0.3 dB; 0.5 dB for the estimate's spread
-            b, pc, dens = (5000.0, 0.09, 2e-8 / 48000) if kind == "iq" else (4900.0, 0.045, 1e-8 / 24000)
-            want = 10 * math.log10(pc / (dens * 2 * b)) + 0.3
+            # 0.05 dB for the lobe's noise and rounding (the column is measure's carrier.level_dbfs)
+            c.check(kind + ": carrier -10.46 dBFS",
+                    all(abs(float(r["carrier.level_dbfs"]) + 10.46) <= 0.05 for r in steady),
+                    str([r["carrier.level_dbfs"] for r in steady[:3]]))
+            # no unmodulated stretch: C is each interval's mean envelope, the same 0.3
+            c.check(kind + ": C is the mean envelope", all(r["carrier_reference"] == "mean" for r in steady)
+                    and all(abs(float(r["unmodulated_dbfs"]) + 10.46) <= 0.05 for r in steady))
+            # analytic CNR as measure defines it (carrier.cnr_db): the carrier line's power over the
+            # noise in the channel carrier +- B, the density the mean over the channel's bins between
+            # the lines. B is measure's default, the widest channel that fits up to 10 kHz: 10 kHz
+            # for iq; for if the carrier's 6 kHz less half the 1 kHz transition (the mixer's image
+            # must fall in the stop band), 5.5 kHz. Carrier power 0.09 (iq) or 0.045 (if); noise
+            # density 2e-8 / 48 kHz (iq) or 1e-8 / 24 kHz (if). 0.3 dB: the mean over some 5000
+            # independent bins of a 1 s interval spreads by about 0.06 dB (5 sigma)
+            b, pc, dens = (10000.0, 0.09, 2e-8 / 48000) if kind == "iq" else (5500.0, 0.045, 1e-8 / 24000)
+            want = 10 * math.log10(pc / (dens * 2 * b))
             cn = [float(r["cnr_db"]) for r in steady]
-            c.check(kind + ": cnr %.1f dB" % want, all(abs(v - want) <= 0.5 for v in cn),
+            c.check(kind + ": cnr %.1f dB" % want, all(abs(v - want) <= 0.3 for v in cn),
                     "%.2f .. %.2f" % (min(cn), max(cn)))
-            # analytic: 50 % modulation; 0.5 % for the noise on the envelope's extremes
-            mp = [float(r["mod_pos_peak_pct"]) for r in steady[1:]]
-            mn = [float(r["mod_neg_peak_pct"]) for r in steady[1:]]
+            # analytic: 50 % modulation, re C; 0.5 % for the noise on the envelope's peak readings
+            mp = [float(r["positive_peak_pct"]) for r in steady]
+            mn = [float(r["negative_peak_pct"]) for r in steady]
             c.check(kind + ": positive peaks 50 %", all(abs(v - 50) <= 0.5 for v in mp), "%.2f .. %.2f" % (min(mp), max(mp)))
             c.check(kind + ": negative peaks 50 %", all(abs(v - 50) <= 0.5 for v in mn), "%.2f .. %.2f" % (min(mn), max(mn)))
+            ix = [float(r["index"]) for r in steady]
+            c.check(kind + ": index 0.50", all(abs(v - 0.5) <= 0.005 for v in ix), "%.4f .. %.4f" % (min(ix), max(ix)))
             loss = [e for e in ev if e["kind"] == "carrier-loss"]
             c.check(kind + ": one carrier-loss event and nothing else", len(loss) == 1 and len(ev) == 1, str(ev))
             if loss:

@@ -108,7 +108,7 @@ def plain_lines(out):
         pairs = [t.split("=", 1) for t in line.split()]
         if not pairs or any(len(p) != 2 for p in pairs):
             return None
-        rows.append({k: float(v) for k, v in pairs})
+        rows.append({k: v if k == "carrier_reference" else float(v) for k, v in pairs})
     return rows
 
 

@@ -96,7 +96,8 @@ static void free_case(run_out *o, double complex *z, double *e, ml_am *q)
 
 /* keep_in false: the outputs' in arrays are NULL (dsp/am.h: the inputs are then not delayed) and
  * o.in stays zero. */
-static run_out run_keep(ml_am *q, const double complex *z, const float *ref, size_t n, size_t block, bool keep_in)
+static run_out run_keep(ml_am *q, const double complex *z, const float *ref, size_t n, size_t block,
+                        bool keep_in)
 {
     run_out o = {0};
     o.edge = ml_am_edge(q);
@@ -229,8 +230,8 @@ static void assert_same_result(const ml_am_result *a, const ml_am_result *b, dou
     assert_close(a->trap_slope, b->trap_slope, rel, AMP, "trap_slope");
     assert_close(a->trap_intercept, b->trap_intercept, rel, AMP, "trap_intercept");
     /* the residual is a difference of nearly equal sums: compare it against the envelope scale */
-    ck_assert_msg(fabs(a->trap_residual_rms - b->trap_residual_rms) <= 1e-9 * AMP, "trap_residual_rms: %g vs %g",
-                  a->trap_residual_rms, b->trap_residual_rms);
+    ck_assert_msg(fabs(a->trap_residual_rms - b->trap_residual_rms) <= 1e-9 * AMP,
+                  "trap_residual_rms: %g vs %g", a->trap_residual_rms, b->trap_residual_rms);
     assert_close(a->trap_ref_rms, b->trap_ref_rms, rel, AMP, "trap_ref_rms");
 }
 
@@ -474,8 +475,8 @@ START_TEST(block_invariance)
         for (size_t b = 0; b < 2; b++) {
             ck_assert_uint_eq(o[b].n, o[2].n);
             for (size_t i = 0; i < o[2].n; i++) {
-                ck_assert_msg(fabs(o[b].env[i] - o[2].env[i]) <= 1e-12 * AMP, "case %zu block %zu env[%zu]", c,
-                              blocks[b], i);
+                ck_assert_msg(fabs(o[b].env[i] - o[2].env[i]) <= 1e-12 * AMP, "case %zu block %zu env[%zu]",
+                              c, blocks[b], i);
                 ck_assert_msg(o[b].in[i] == o[2].in[i], "in[%zu]", i);
                 ck_assert_msg(o[b].mod[i] == o[2].mod[i], "modulated[%zu]", i);
             }
@@ -512,17 +513,19 @@ START_TEST(block_invariance)
         double *env = malloc((by_z.n + cap) * sizeof *env);
         unsigned char *mod = malloc(by_z.n + cap);
         ck_assert(env != NULL && mod != NULL);
-        const ml_am_frames bad = {.data = fr, .stride = 4, .re = 1, .im = 4, .ref = 0};
+        const ml_channels bad = {.stride = 4, .re = 1, .im = 4, .complex_input = cases[c].cplx,
+                                 .has_ref = cfg.has_reference, .ref = 0};
         ml_am_output one = {.env = env, .in = NULL, .modulated = mod, .cap = cap};
         size_t cnt = 0, got = 0;
-        ck_assert_int_eq(ml_am_push_frames(q, &bad, 1, &one, &cnt), cases[c].cplx ? ML_EINVAL : ML_OK);
+        ck_assert_int_eq(ml_am_push_frames(q, fr, &bad, 1, &one, &cnt), cases[c].cplx ? ML_EINVAL : ML_OK);
         ml_am_reset(q);
         for (size_t i = 0; i < n + blocks[2]; i += blocks[2]) { /* the last step finishes */
             ml_am_output part = {.env = env + got, .in = NULL, .modulated = mod + got, .cap = cap};
             if (i < n) {
                 const size_t take = n - i < blocks[2] ? n - i : blocks[2];
-                const ml_am_frames in = {.data = fr + 4 * i, .stride = 4, .re = 1, .im = 2, .ref = 0};
-                ck_assert_int_eq(ml_am_push_frames(q, &in, take, &part, &cnt), ML_OK);
+                const ml_channels in = {.stride = 4, .re = 1, .im = 2, .complex_input = cases[c].cplx,
+                                        .has_ref = cfg.has_reference, .ref = 0};
+                ck_assert_int_eq(ml_am_push_frames(q, fr + 4 * i, &in, take, &part, &cnt), ML_OK);
             } else {
                 ck_assert_int_eq(ml_am_finish(q, &part, &cnt), ML_OK);
             }
@@ -622,7 +625,8 @@ START_TEST(unmodulated_carrier)
         size_t nq = 0;
         for (size_t i = 0; i < o.n; i++) {
             if (i + d >= lat)
-                ck_assert_msg(fabs(o.env[i] - AMP) <= 1e-6 * AMP, "carrier %zu env[%zu] = %.12g", c, i, o.env[i]);
+                ck_assert_msg(fabs(o.env[i] - AMP) <= 1e-6 * AMP, "carrier %zu env[%zu] = %.12g", c, i,
+                              o.env[i]);
             /* no block of a steady carrier is modulated */
             ck_assert_msg(o.mod[i] == 0, "carrier %zu: sample %zu tagged modulated", c, i);
             sum_q += o.env[i];
@@ -676,15 +680,19 @@ START_TEST(startup_transient_not_in_statistics)
             double complex *z = on_carrier(e, n, AMP, carriers[c].fc, carriers[c].cplx);
             run_out o = run(q, z, NULL, n, 4096);
             const size_t d = first_input(&o, z, n, ml_am_latency(q));
-            ck_assert_msg(fabs(o.env[0] - AMP * e[d]) <= 1e-6 * AMP, "carrier %zu m %g: first envelope sample %.6f A,"
-                          " expected %.6f A", c, m, o.env[0] / AMP, e[d]);
-            ck_assert_msg(fabs(o.r.emax_abs - AMP * (1.0 + m)) <= 1e-4 * AMP, "carrier %zu m %g: emax_abs %.6f A", c,
-                          m, o.r.emax_abs / AMP);
-            ck_assert_msg(fabs(o.r.emin_abs - AMP * (1.0 - m)) <= 1e-4 * AMP, "carrier %zu m %g: emin_abs %.6f A", c,
-                          m, o.r.emin_abs / AMP);
+            ck_assert_msg(fabs(o.env[0] - AMP * e[d]) <= 1e-6 * AMP,
+                          "carrier %zu m %g: first envelope sample %.6f A,"
+                          " expected %.6f A",
+                          c, m, o.env[0] / AMP, e[d]);
+            ck_assert_msg(fabs(o.r.emax_abs - AMP * (1.0 + m)) <= 1e-4 * AMP,
+                          "carrier %zu m %g: emax_abs %.6f A", c, m, o.r.emax_abs / AMP);
+            ck_assert_msg(fabs(o.r.emin_abs - AMP * (1.0 - m)) <= 1e-4 * AMP,
+                          "carrier %zu m %g: emin_abs %.6f A", c, m, o.r.emin_abs / AMP);
             if (!tone) {
-                ck_assert_msg(fabs(o.r.emax - AMP) <= 1e-4 * AMP, "carrier %zu: emax %.6f A", c, o.r.emax / AMP);
-                ck_assert_msg(fabs(o.r.emin - AMP) <= 1e-4 * AMP, "carrier %zu: emin %.6f A", c, o.r.emin / AMP);
+                ck_assert_msg(fabs(o.r.emax - AMP) <= 1e-4 * AMP, "carrier %zu: emax %.6f A", c,
+                              o.r.emax / AMP);
+                ck_assert_msg(fabs(o.r.emin - AMP) <= 1e-4 * AMP, "carrier %zu: emin %.6f A", c,
+                              o.r.emin / AMP);
                 ck_assert_msg(fabs(o.r.mean_quiet - AMP) <= 1e-6 * AMP, "carrier %zu: mean_quiet %.9f A", c,
                               o.r.mean_quiet / AMP);
                 ck_assert_double_eq(ml_am_fraction_below(q, 0.99 * AMP), 0.0);
@@ -718,7 +726,8 @@ START_TEST(tone_modulation)
         run_out o = run(q, z, NULL, n, 4096);
         const size_t d = first_input(&o, z, n, lat);
         for (size_t i = lat; i < o.n; i++)
-            ck_assert_msg(fabs(o.env[i] - AMP * e[i + d]) <= (1e-5 * m + 1e-6) * AMP, "carrier %zu env[%zu]", c, i);
+            ck_assert_msg(fabs(o.env[i] - AMP * e[i + d]) <= (1e-5 * m + 1e-6) * AMP, "carrier %zu env[%zu]",
+                          c, i);
         const ml_am_result *r = &o.r;
         ck_assert_double_eq_tol(r->emax, AMP * (1.0 + m), 1e-4 * AMP * (1.0 + m));
         ck_assert_double_eq_tol(r->emin, AMP * (1.0 - m), 1e-4 * AMP * (1.0 + m));
@@ -791,7 +800,8 @@ START_TEST(lead_in_then_modulation)
         ck_assert_uint_eq(nq + nm, r->samples);
         ck_assert_msg(llabs((long long)r->quiet_samples - (long long)(L - d)) <= (long long)(blk + lat),
                       "carrier %zu: quiet %llu, lead-in %zu", c, (unsigned long long)r->quiet_samples, L - d);
-        ck_assert_msg(llabs((long long)r->modulated_samples - (long long)(r->samples + d - L)) <= (long long)(blk + lat),
+        ck_assert_msg(llabs((long long)r->modulated_samples - (long long)(r->samples + d - L))
+                          <= (long long)(blk + lat),
                       "carrier %zu: modulated %llu", c, (unsigned long long)r->modulated_samples);
         ck_assert_double_eq_tol(r->mean_quiet, sum_q / (double)nq, 1e-10 * AMP); /* see unmodulated_carrier */
         /* the peak readings come from the modulated blocks only: A(1 +- m) as in tone_modulation
@@ -801,7 +811,8 @@ START_TEST(lead_in_then_modulation)
         /* every quiet sample from a full filter is A within 1e-6 A (unmodulated_carrier), and the
          * onset of the tone is continuous (sine phase), so the quiet mean is A within 1e-6 A (the
          * filter's start-up must not count, see startup_transient_not_in_statistics) */
-        ck_assert_msg(fabs(r->mean_quiet - AMP) <= 1e-6 * AMP, "carrier %zu: mean_quiet %.9f A", c, r->mean_quiet / AMP);
+        ck_assert_msg(fabs(r->mean_quiet - AMP) <= 1e-6 * AMP, "carrier %zu: mean_quiet %.9f A", c,
+                      r->mean_quiet / AMP);
         free_case(&o, z, e, q);
     }
 }
@@ -826,8 +837,9 @@ START_TEST(pinch_off_model_b)
         double complex *z = on_carrier(e, n, AMP, carriers[c].fc, carriers[c].cplx);
         run_out o = run(q, z, NULL, n, 4096);
         const double cycles = fm * (double)o.r.samples / FS;
-        ck_assert_msg(fabs((double)o.r.pinch_events - cycles) <= 1.0, "carrier %zu: %llu pinches, %.2f cycles",
-                      c, (unsigned long long)o.r.pinch_events, cycles);
+        ck_assert_msg(fabs((double)o.r.pinch_events - cycles) <= 1.0,
+                      "carrier %zu: %llu pinches, %.2f cycles", c, (unsigned long long)o.r.pinch_events,
+                      cycles);
         ck_assert_uint_eq(o.r.reversal_events, 0);
         ck_assert_msg(fabs((double)o.r.positive_over - cycles) <= 1.0, "carrier %zu: %llu excursions", c,
                       (unsigned long long)o.r.positive_over);
@@ -858,8 +870,8 @@ START_TEST(phase_reversal_model_a)
         for (size_t i = d + 1; i < n - d; i++)
             crossings += (e[i] < 0) != (e[i - 1] < 0);
         ck_assert_msg(llabs((long long)o.r.reversal_events - crossings) <= 1,
-                      "carrier %zu: %llu reversals, %lld crossings", c, (unsigned long long)o.r.reversal_events,
-                      crossings);
+                      "carrier %zu: %llu reversals, %lld crossings", c,
+                      (unsigned long long)o.r.reversal_events, crossings);
         ck_assert_uint_eq(o.r.pinch_events, 0);
         /* |1 + 1.5 cos| peaks at 2.5 (cos = 1) > 2.25: one positive excursion per cycle; the
          * negative lobe peaks at |1 - 1.5| = 0.5 and never counts */
@@ -901,7 +913,8 @@ START_TEST(reversal_time_below_level)
         double complex *z = on_carrier(e, n, AMP, carriers[c].fc, carriers[c].cplx);
         run_out o = run(q, z, NULL, n, 4096);
         const double got = ml_am_fraction_below(q, eps * AMP);
-        ck_assert_msg(fabs(got - exact) <= 0.02 * exact, "carrier %zu: share %.6e, expected %.6e", c, got, exact);
+        ck_assert_msg(fabs(got - exact) <= 0.02 * exact, "carrier %zu: share %.6e, expected %.6e", c, got,
+                      exact);
         /* and the absolute minimum of the interpolated envelope is (nearly) 0 */
         ck_assert_double_le(o.r.emin_abs, eps * AMP);
         free_case(&o, z, e, q);
@@ -932,8 +945,9 @@ START_TEST(positive_peak_limit)
             run_out o = run(q, z, NULL, n, 4096);
             const double cycles = fm * (double)o.r.samples / FS;
             if (cases[k].counts)
-                ck_assert_msg(fabs((double)o.r.positive_over - cycles) <= 1.0, "carrier %zu case %zu: %llu, %.2f",
-                              c, k, (unsigned long long)o.r.positive_over, cycles);
+                ck_assert_msg(fabs((double)o.r.positive_over - cycles) <= 1.0,
+                              "carrier %zu case %zu: %llu, %.2f", c, k, (unsigned long long)o.r.positive_over,
+                              cycles);
             else
                 ck_assert_msg(o.r.positive_over == 0, "carrier %zu case %zu: %llu excursions", c, k,
                               (unsigned long long)o.r.positive_over);
@@ -992,14 +1006,14 @@ START_TEST(trapezoid_linear_and_quadratic)
             ck_assert_uint_eq(o.r.samples % 48, 0);
             const ml_am_result *r = &o.r;
             ck_assert(r->has_trapezoid);
-            ck_assert_msg(fabs(r->trap_slope - AMP * m) <= 2e-5 * AMP * m, "carrier %zu k %g: slope %.9f A", c, k,
-                          r->trap_slope / AMP);
+            ck_assert_msg(fabs(r->trap_slope - AMP * m) <= 2e-5 * AMP * m, "carrier %zu k %g: slope %.9f A",
+                          c, k, r->trap_slope / AMP);
             ck_assert_msg(fabs(r->trap_intercept - AMP * (1.0 + k / 2.0)) <= 2e-5 * AMP,
                           "carrier %zu k %g: intercept %.9f A", c, k, r->trap_intercept / AMP);
             const double res = AMP * k / (2.0 * sqrt(2.0));
             ck_assert_msg(fabs(r->trap_residual_rms - res) <= (k > 0 ? 2e-5 * res : 1e-4 * AMP),
-                          "carrier %zu k %g: residual %.9g A, expected %.9g A", c, k, r->trap_residual_rms / AMP,
-                          res / AMP);
+                          "carrier %zu k %g: residual %.9g A, expected %.9g A", c, k,
+                          r->trap_residual_rms / AMP, res / AMP);
             ck_assert_double_eq_tol(r->trap_ref_rms, 1.0 / sqrt(2.0), 1e-6);
             run_free(&o);
             free(ref);

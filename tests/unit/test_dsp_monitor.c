@@ -92,7 +92,7 @@ START_TEST(not_before_the_window_is_full)
     push_am(q, 47999, 0, 3000, 0.8, true, 4096);
     ck_assert_uint_eq(ml_monitor_fill(q), 47999);
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_ENOSIGNAL);
-    ck_assert(isnan(r.index));
+    ck_assert(isnan(r.modulation.index));
     double db[8], lo, hi;
     ck_assert_int_eq(ml_monitor_get_columns(q, db, 8, &lo, &hi), ML_ENOSIGNAL);
     push_am(q, 1, 47999, 3000, 0.8, true, 1);
@@ -118,16 +118,15 @@ START_TEST(tone_modulation_iq_and_if)
         ml_monitor_result r;
         ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
         ck_assert(r.carrier_ok);
-        ck_assert_double_eq_tol(r.carrier_hz, cases[k].fc, 0.01);
-        ck_assert_double_eq_tol(r.carrier_offset_hz, 0.0, 0.01);
-        ck_assert_double_eq_tol(r.carrier_dbfs, 20 * log10(AMP), 0.01);
-        ck_assert_double_eq_tol(r.index, 0.8, 0.002);
-        ck_assert_double_eq_tol(r.positive_peak_pct, 80.0, 0.2);
-        ck_assert_double_eq_tol(r.negative_peak_pct, 80.0, 0.2);
-        ck_assert_uint_eq(r.pinch_events, 0);
+        ck_assert_double_eq_tol(r.modulation.carrier_hz, cases[k].fc, 0.01);
+        ck_assert_double_eq_tol(r.modulation.carrier_level_dbfs, 20 * log10(AMP), 0.01);
+        ck_assert_double_eq_tol(r.modulation.index, 0.8, 0.002);
+        ck_assert_double_eq_tol(r.modulation.positive_peak_pct, 80.0, 0.2);
+        ck_assert_double_eq_tol(r.modulation.negative_peak_pct, 80.0, 0.2);
+        ck_assert_uint_eq(r.modulation.pinch_events + r.modulation.reversal_events, 0);
         /* a pure cosine envelope: no harmonics, so the envelope THD is far below 0.1 % */
-        ck_assert_double_le(r.envelope_thd_pct, 0.1);
-        ck_assert_double_eq_tol(r.fundamental_hz, FM, 0.01);
+        ck_assert_double_le(r.modulation.audio.thd_pct, 0.1);
+        ck_assert_double_eq_tol(r.audio.fundamental_hz, FM, 0.01);
         ck_assert_double_eq(r.window_s, 1.0);
         ck_assert_uint_eq(r.carrier_finds, 1);
         ml_monitor_destroy(q);
@@ -143,8 +142,8 @@ START_TEST(pinch_off_reads_100_percent)
     push_am(q, 48000, 0, 3000, 1.3, true, 4096);
     ml_monitor_result r;
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
-    ck_assert_double_ge(r.negative_peak_pct, 99.9);
-    ck_assert_uint_ge(r.pinch_events, 100);
+    ck_assert_double_ge(r.modulation.negative_peak_pct, 99.9);
+    ck_assert_uint_ge(r.modulation.pinch_events + r.modulation.reversal_events, 100);
     ml_monitor_destroy(q);
 }
 END_TEST
@@ -158,14 +157,15 @@ START_TEST(window_slides)
     push_am(q, 48000, 0, 3000, 0.5, true, 4096);
     ml_monitor_result r;
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
-    ck_assert_double_eq_tol(r.index, 0.5, 0.002);
+    ck_assert_double_eq_tol(r.modulation.index, 0.5, 0.002);
     push_am(q, 24000, 48000, 3000, 0.8, true, 4096);
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
-    ck_assert_double_ge(r.positive_peak_pct, 75.0); /* C is then the mean envelope: A, peaks 80 % */
+    ck_assert_double_ge(r.modulation.positive_peak_pct,
+                        75.0); /* C is then the mean envelope: A, peaks 80 % */
     push_am(q, 24000, 72000, 3000, 0.8, true, 4096);
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
-    ck_assert_double_eq_tol(r.index, 0.8, 0.002);
-    ck_assert_double_eq_tol(r.positive_peak_pct, 80.0, 0.2);
+    ck_assert_double_eq_tol(r.modulation.index, 0.8, 0.002);
+    ck_assert_double_eq_tol(r.modulation.positive_peak_pct, 80.0, 0.2);
     ck_assert_uint_eq(r.analysed_frames, 96000);
     ml_monitor_destroy(q);
 }
@@ -183,18 +183,18 @@ START_TEST(block_invariance_and_reset)
         ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
         if (b == 0)
             ref = r;
-        ck_assert_double_eq(r.index, ref.index);
-        ck_assert_double_eq(r.positive_peak_pct, ref.positive_peak_pct);
-        ck_assert_double_eq(r.envelope_thd_pct, ref.envelope_thd_pct);
-        ck_assert_double_eq(r.cnr_db, ref.cnr_db);
+        ck_assert_double_eq(r.modulation.index, ref.modulation.index);
+        ck_assert_double_eq(r.modulation.positive_peak_pct, ref.modulation.positive_peak_pct);
+        ck_assert_double_eq(r.modulation.audio.thd_pct, ref.modulation.audio.thd_pct);
+        ck_assert_double_eq(r.modulation.cnr_db, ref.modulation.cnr_db);
         /* reset: empty again, then the same input gives the same figures */
         ml_monitor_reset(q);
         ck_assert_uint_eq(ml_monitor_fill(q), 0);
         ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_ENOSIGNAL);
         push_am(q, 60000, 0, 3000, 0.6, true, 4096);
         ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
-        ck_assert_double_eq(r.index, ref.index);
-        ck_assert_double_eq(r.negative_peak_pct, ref.negative_peak_pct);
+        ck_assert_double_eq(r.modulation.index, ref.modulation.index);
+        ck_assert_double_eq(r.modulation.negative_peak_pct, ref.modulation.negative_peak_pct);
         ml_monitor_destroy(q);
     }
 }
@@ -220,17 +220,17 @@ START_TEST(audio_tone_with_harmonic)
     ml_monitor_result r;
     ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
     ck_assert(r.audio_ok);
-    ck_assert_double_eq_tol(r.thd_pct, 1.0, 0.001);
-    ck_assert_double_eq_tol(r.fundamental_dbfs, 20 * log10(0.5), 0.01);
+    ck_assert_double_eq_tol(r.audio.thd_pct, 1.0, 0.001);
+    ck_assert_double_eq_tol(r.audio.fundamental_dbfs, 20 * log10(0.5), 0.01);
     ck_assert_double_eq_tol(r.rms_dbfs, 10 * log10((0.25 + 2.5e-5 + 1e-6) / 2 / 0.5), 0.01);
-    ck_assert_double_eq_tol(r.hum_dbfs, -60.0, 0.1);
-    ck_assert_double_eq_tol(r.fundamental_hz, 1000.0, 0.01);
+    ck_assert_double_eq_tol(r.audio.hum_dbfs, -60.0, 0.1);
+    ck_assert_double_eq_tol(r.audio.fundamental_hz, 1000.0, 0.01);
     /* the hum is noise to the SNR (dsp/metrics.h: the noise density is taken over every bin but
      * DC, fundamental and harmonics): SNR = 10 lg(0.125 / 5e-7) = 53.98 dB, less up to 0.25 dB
      * because the density is spread over the excluded bins too (the +-lobe bins of DC, the tone
      * and 9 harmonics: about 3 % of the band's 13600 bins, 0.13 dB) */
-    ck_assert_double_eq_tol(r.snr_db, 10 * log10(0.125 / 5e-7), 0.25);
-    ck_assert(isnan(r.index)); /* no modulation figures for audio */
+    ck_assert_double_eq_tol(r.audio.snr_db, 10 * log10(0.125 / 5e-7), 0.25);
+    ck_assert(isnan(r.modulation.index)); /* no modulation figures for audio */
     /* the display columns: the column holding 1 kHz reads the tone's level, -6.02 dBFS (0.1 dB:
      * the flat-top window's scalloping), and a column far from any component (column 41: 1676 ..
      * 1860 Hz, more than 600 Hz from the tone and its harmonic) reads below -100 */
@@ -242,6 +242,49 @@ START_TEST(audio_tone_with_harmonic)
     ck_assert_double_eq_tol(db[c1k], 20 * log10(0.5), 0.1);
     ck_assert_double_le(db[41], -100.0);
     free(x);
+    ml_monitor_destroy(q);
+}
+END_TEST
+
+START_TEST(latches_c_from_a_quiet_stretch)
+{
+    /* 1 s of carrier alone, then the envelope A (0.95 + 0.8 s + 0.2 s^2), s = sin(2 pi fm t):
+     * +95 % / -65 % re C = A with a +5 % carrier shift (tests/unit/test_dsp_modulation.c derives
+     * it). The first window is unmodulated and sets C; a window wholly modulated 1 s later keeps
+     * it [cfr73.14], where the window's own mean envelope would read +85.7 / -66.7 %. The 0.005 pi
+     * hold lowers the positive reading by 0.015 %; 0.1 % for the hold at a 1 s window's few
+     * cycles and the 20 ms block the change falls in. A reference of 1.1 A set afterwards gives
+     * 100 (1.95 - 1.1)/1.1 = 77.27 %; a reset forgets the latch. */
+    ml_monitor *q = make(ML_MONITOR_IQ);
+    float *re = malloc(96000 * sizeof *re), *im = malloc(96000 * sizeof *im);
+    for (size_t i = 0; i < 96000; i++) {
+        const double t = (double)i / FS, sn = sin(2 * TS_PI * FM * t);
+        const double e = t < 1.0 ? 1.0 : 0.95 + 0.8 * sn + 0.2 * sn * sn;
+        re[i] = (float)(AMP * e * cos(2 * TS_PI * 3000 * t));
+        im[i] = (float)(AMP * e * sin(2 * TS_PI * 3000 * t));
+    }
+    ml_monitor_result r;
+    ck_assert_int_eq(ml_monitor_push(q, re, im, 48000), ML_OK);
+    ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
+    ck_assert_int_eq(r.modulation.c_source, ML_C_QUIET);
+    ck_assert_int_eq(ml_monitor_push(q, re + 48000, im + 48000, 48000), ML_OK);
+    ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
+    ck_assert_int_eq(r.modulation.c_source, ML_C_LATCHED);
+    ck_assert_double_eq_tol(r.modulation.positive_peak_pct, 95.0, 0.1);
+    ck_assert_double_eq_tol(r.modulation.negative_peak_pct, 65.0, 0.1);
+    ck_assert_double_eq_tol(r.modulation.carrier_shift_pct, 5.0, 0.05);
+    ck_assert_double_eq_tol(r.modulation.unmodulated_dbfs, 20 * log10(AMP), 0.01);
+    ck_assert_int_eq(ml_monitor_set_reference(q, 1.1 * AMP), ML_OK);
+    ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
+    ck_assert_int_eq(r.modulation.c_source, ML_C_REFERENCE);
+    ck_assert_double_eq_tol(r.modulation.positive_peak_pct, 100 * (1.95 - 1.1) / 1.1, 0.1);
+    ck_assert_int_eq(ml_monitor_set_reference(q, NAN), ML_OK);
+    ck_assert_int_eq(ml_monitor_analyse(q, &r), ML_OK);
+    ck_assert_int_eq(r.modulation.c_source, ML_C_MEAN);
+    ck_assert_double_eq_tol(r.modulation.positive_peak_pct, 100 * (1.95 - 1.05) / 1.05, 0.1);
+    ck_assert_double_eq_tol(r.modulation.negative_peak_pct, 100 * (1.05 - 0.35) / 1.05, 0.1);
+    free(re);
+    free(im);
     ml_monitor_destroy(q);
 }
 END_TEST
@@ -258,6 +301,7 @@ static Suite *monitor_suite(void)
     tcase_add_test(tc, window_slides);
     tcase_add_test(tc, block_invariance_and_reset);
     tcase_add_test(tc, audio_tone_with_harmonic);
+    tcase_add_test(tc, latches_c_from_a_quiet_stretch);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -1,0 +1,75 @@
+/* The one mapping from the dsp results to the registry's metric names (analyzer/registry.h).
+ * SPDX-License-Identifier: MIT
+ *
+ * measure, live and compare put these values into their reports, watch writes them on its
+ * --plain lines and log in its rows, all under the same names, units and decimals: a figure is
+ * named once here, and computed once in dsp/ (dsp/figures.h, dsp/modulation.h). A value the
+ * analysis could not measure is NAN.
+ */
+#ifndef ML_ANALYZER_VALUES_H
+#define ML_ANALYZER_VALUES_H
+
+#include <stddef.h>
+
+#include "dsp/figures.h"
+#include "dsp/modulation.h"
+#include "io/report.h"
+
+typedef struct {
+    const char *name;  /* registered dotted name, e.g. "audio.thd_pct" */
+    double value;
+} ml_value;
+
+#define ML_VALUES_MAX 64
+
+/* audio.fundamental_hz .. hum.level_dbc (13 values, report order) into out[]; returns the count. */
+size_t ml_values_audio(const ml_audio_plain_figures *f, ml_value *out);
+
+/* The demodulated audio's figures that if/iq reports under modulation names (3 values):
+ * modulation.envelope_thd_pct = audio.thd_pct, modulation.hum_db = hum.level_dbfs and
+ * modulation.noise_db = audio.noise_dbfs (the demodulated audio's full scale is 100 %
+ * modulation, so its dBFS are dB re 100 % modulation). */
+size_t ml_values_envelope(const ml_audio_plain_figures *f, ml_value *out);
+
+/* The level figures in report order (4 values): for group "audio" audio.rms_dbfs, .peak_dbfs,
+ * .dc_offset_pct, .clipped_samples; for "capture" (the captured if/iq channels)
+ * audio.clipped_samples, capture.rms_dbfs, .peak_dbfs, .dc_offset_pct. */
+size_t ml_values_level(const ml_level_figures *f, const char *group, ml_value *out);
+
+/* The carrier and modulation figures in report order, carrier.frequency_hz ..
+ * spectrum.occupied_bandwidth_hz (the demodulated audio's envelope_thd_pct, hum_db, noise_db
+ * among them): carrier.offset_hz is the carrier's offset from nominal_hz (NAN: none given);
+ * modulation.trapezoid_deviation_pct only with_trapezoid (a reference channel was given). */
+size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bool with_trapezoid,
+                            ml_value *out);
+/* The 95 % half-widths the modulation analysis estimates, under the same names (NAN: none). */
+size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out);
+/* Where C came from, as the report's modulation.carrier_reference text, into buf[len]. */
+const char *ml_values_c_source(const ml_modulation_result *r, const char *reference_path, char *buf,
+                               size_t len);
+/* Where C came from in one word, for a log column or a --plain field named carrier_reference:
+ * reference, unmodulated (this span's own stretches), latched, mean; NULL for no result. */
+const char *ml_values_c_word(const ml_modulation_result *r);
+/* modulation.overmodulation_kind: the kind of event seen most ("none" without events). */
+const char *ml_values_overmodulation_kind(const ml_modulation_result *r);
+
+/* The value named name among v[n] (full dotted name); NAN when absent. */
+double ml_values_find(const ml_value *v, size_t n, const char *name);
+
+/* Adds v[n] to the report (unit and decimals from the registry). */
+void ml_values_report(ml_report *r, const ml_value *v, size_t n);
+
+/* Sets the uncertainty (95 % half-width) u[i].value of every valid metric of r named u[i].name;
+ * non-finite values leave the metric without one. */
+void ml_values_report_u(ml_report *r, const ml_value *u, size_t n);
+
+/* The value formatted with the registry's decimals for name into buf[len]; "" for a non-finite
+ * value or an unknown name. Returns buf. */
+char *ml_values_format(const char *name, double value, char *buf, size_t len);
+
+/* The name a line or a log column uses for a registered metric: its last component when that
+ * is unique in the registry (as a limits profile accepts it), else the full dotted name; the hum
+ * group keeps its full name (hum.level_dbfs: "level" alone would say nothing). */
+const char *ml_values_short_name(const char *full);
+
+#endif

@@ -1,0 +1,116 @@
+/* The demodulator's block classification (quiet or modulated) and peak histograms.
+ * SPDX-License-Identifier: MIT
+ */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "dsp/am_internal.h"
+
+ml_status ml_am_blocks_init(ml_am_blocks *b, size_t len, double carrier_ref, double quiet_rel)
+{
+    memset(b, 0, sizeof *b);
+    b->len = len;
+    b->carrier_ref = carrier_ref;
+    b->quiet_rel = quiet_rel;
+    b->hist_scale = ML_AM_HIST_BINS / (ML_AM_HIST_RANGE * carrier_ref);
+    b->pending = malloc(ML_AM_OVERSAMPLE * len * sizeof *b->pending);
+    b->hist_quiet = malloc(ML_AM_HIST_BINS * sizeof *b->hist_quiet);
+    b->hist_mod = malloc(ML_AM_HIST_BINS * sizeof *b->hist_mod);
+    if (b->pending == NULL || b->hist_quiet == NULL || b->hist_mod == NULL)
+        return ML_ENOMEM;
+    ml_am_blocks_reset(b);
+    return ML_OK;
+}
+
+void ml_am_blocks_free(ml_am_blocks *b)
+{
+    free(b->pending);
+    free(b->hist_quiet);
+    free(b->hist_mod);
+    b->pending = NULL;
+    b->hist_quiet = b->hist_mod = NULL;
+}
+
+void ml_am_blocks_reset(ml_am_blocks *b)
+{
+    b->fill = 0;
+    b->sum = b->sumsq = 0;
+    b->npending = 0;
+    b->sum_all = b->sum_mod = b->sum_quiet = 0;
+    b->n_mod = b->n_quiet = 0;
+    memset(b->hist_quiet, 0, ML_AM_HIST_BINS * sizeof *b->hist_quiet);
+    memset(b->hist_mod, 0, ML_AM_HIST_BINS * sizeof *b->hist_mod);
+    b->hist_quiet_n = b->hist_mod_n = 0;
+}
+
+bool ml_am_blocks_end(ml_am_blocks *b)
+{
+    const double n = (double)b->fill;
+    const double mean = b->sum / n;
+    const double var = fmax(0.0, b->sumsq / n - mean * mean);
+    /* a missing carrier is not a quiet carrier */
+    const bool quiet = mean > 0.05 * b->carrier_ref && sqrt(var) < b->quiet_rel * mean;
+    if (quiet) {
+        b->sum_quiet += b->sum;
+        b->n_quiet += b->fill;
+    } else {
+        b->sum_mod += b->sum;
+        b->n_mod += b->fill;
+    }
+    b->sum_all += b->sum;
+    uint64_t *restrict h = quiet ? b->hist_quiet : b->hist_mod;
+    const uint16_t *restrict p = b->pending;
+    const size_t np = b->npending; /* a local count: h's stores could alias the fields */
+    for (size_t i = 0; i < np; i++)
+        h[p[i]]++;
+    if (quiet)
+        b->hist_quiet_n += np;
+    else
+        b->hist_mod_n += np;
+    b->fill = 0;
+    b->sum = b->sumsq = 0;
+    b->npending = 0;
+    return !quiet;
+}
+
+/* Level below which a share p of the histogram's mass lies (linear within a bin). */
+static double quantile(const uint64_t *hist, uint64_t total, double p, double scale)
+{
+    if (total == 0)
+        return 0.0;
+    const double target = p * (double)total;
+    double cum = 0.0;
+    for (size_t b = 0; b < ML_AM_HIST_BINS; b++) {
+        double next = cum + (double)hist[b];
+        if (next >= target && hist[b] > 0)
+            return ((double)b + (target - cum) / (double)hist[b]) / scale;
+        cum = next;
+    }
+    return (double)ML_AM_HIST_BINS / scale;
+}
+
+double ml_am_blocks_quantile(const ml_am_blocks *b, double p)
+{
+    /* without modulated blocks every block was quiet: all of them are the quiet ones */
+    const bool use_mod = b->hist_mod_n > 0;
+    return quantile(use_mod ? b->hist_mod : b->hist_quiet, use_mod ? b->hist_mod_n : b->hist_quiet_n, p,
+                    b->hist_scale);
+}
+
+double ml_am_blocks_fraction_below(const ml_am_blocks *b, double level)
+{
+    const uint64_t total = b->hist_quiet_n + b->hist_mod_n;
+    if (total == 0)
+        return 0.0;
+    double v = level * b->hist_scale;
+    if (v <= 0)
+        return 0.0;
+    size_t k = v >= ML_AM_HIST_BINS ? ML_AM_HIST_BINS : (size_t)v;
+    double cum = 0.0;
+    for (size_t i = 0; i < k; i++)
+        cum += (double)(b->hist_quiet[i] + b->hist_mod[i]);
+    if (k < ML_AM_HIST_BINS)
+        cum += (v - (double)k) * (double)(b->hist_quiet[k] + b->hist_mod[k]);
+    return cum / (double)total;
+}
