@@ -89,7 +89,7 @@ int main(int argc, char **argv)
     ml_audio_config cfg = ml_audio_config_default();
     ml_window_type win = ML_WINDOW_HFT248D;
     size_t nfft = 0, hop = 0, block = 4096;
-    for (int i = 3; i < argc; i++) {
+    for (int i = 3; i < argc; i += 2) { /* OPTION VALUE pairs */
         const char *a = argv[i], *v = i + 1 < argc ? argv[i + 1] : NULL;
         if (v == NULL)
             return fail("option needs a value", a);
@@ -117,7 +117,6 @@ int main(int argc, char **argv)
             block = (size_t)atol(v);
         else
             return fail("unknown option", a);
-        i++;
     }
     FILE *f = fopen(argv[2], "rb");
     if (f == NULL)
