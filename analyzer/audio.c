@@ -8,6 +8,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
@@ -29,6 +30,7 @@ typedef struct {
     ml_blocks *blocks;
     ml_stats stats;
     float *buf, *mono;
+    ml_bench_pass *bench;
 } audio_pass;
 
 /* The band against the rate, the spectrum, the blocks and the buffers. */
@@ -60,6 +62,8 @@ static int prepare(audio_pass *p)
         return ml_cli_error("%s: %s", o->in.path, ml_strerror(st));
     ml_stats_init(&p->stats, info->bits);
     int rc = ml_input_channels(&o->in, p->seg, ML_KIND_AUDIO, &p->ch);
+    if (rc == 0)
+        rc = ml_bench_audio_begin(rate, &p->bench);
     p->buf = malloc(ML_BLOCK_FRAMES * p->ch.stride * sizeof *p->buf);
     p->mono = malloc(ML_BLOCK_FRAMES * sizeof *p->mono);
     if (rc == 0 && (p->buf == NULL || p->mono == NULL))
@@ -83,6 +87,7 @@ static int stream(audio_pass *p)
         ml_channels_split(&p->ch, p->buf, got, p->mono, NULL);
         ml_stats_push(&p->stats, p->mono, got);
         ml_spectrum_push(p->spec, p->mono, got);
+        ml_bench_audio_push(p->bench, p->mono, got);
         done += (int64_t)got;
         ml_measure_progress(seg, done, &next, &shown);
     }
@@ -133,6 +138,7 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
     ml_uncertainty_report(p->blocks, rep);
+    ml_bench_audio_report(p->bench, &o->an, (int)o->in.channel, p->spec, &ar, ok, lv.rms_dbfs, rep);
     return 0;
 }
 
@@ -148,5 +154,6 @@ int ml_measure_audio(ml_measure_opts *o, ml_segment *seg, const char *reason, ml
     free(p.mono);
     ml_blocks_destroy(p.blocks);
     ml_spectrum_destroy(p.spec);
+    ml_bench_audio_end(p.bench);
     return rc;
 }

@@ -13,6 +13,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/log_internal.h"
 #include "analyzer/values.h"
@@ -143,7 +144,8 @@ int ml_log_open_outputs(ml_logger *L, int64_t period, char *last_row, size_t las
     const char *in = L->o->in.live ? NULL : L->o->in.path;
     if (in && (ml_same_file(L->rows_path, in) || ml_same_file(L->events_path, in)))
         return ml_cli_error("%s: refusing to write the log over the input file", L->rows_path);
-    ml_status st = ml_logfile_open(L->rows_path, row_header(), &L->rows, last_row, last_len, err, sizeof err);
+    ml_status st = ml_logfile_open(L->rows_path, ml_bench_log_header(&L->o->an, row_header()), &L->rows,
+                                   last_row, last_len, err, sizeof err);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", L->rows_path, err);
     st = ml_logfile_open(L->events_path, EVENT_HEADER, &L->events, last_ev, sizeof last_ev, err, sizeof err);
@@ -177,6 +179,7 @@ static size_t level_cells(const ml_logger *L, char *b, size_t n)
         aw = L->asum > 0 ? ml_power_dbfs(L->asum / (double)L->data_frames) : NAN;
         /* 20 lg(peak / sqrt(mean square)); rms_dbfs is 10 lg(mean square / 0.5); NAN when either is */
         crest = pk - rms + 10 * log10(2.0);
+        ml_bench_log_levels(&L->o->an, &rms, &pk, &aw);
     }
     char c[4][24];
     ml_log_fmt_num(c[0], 24, rms, 2);

@@ -27,6 +27,7 @@ static void usage(FILE *f)
             "  devices        list the sound-card inputs and outputs\n"
             "  tone           write a test signal to a file, or play it\n"
             "  log            log levels, hum, noise and interference events for hours (CSV)\n"
+            "  card           qualify the sound card (its own floor) from a loopback; level calibration\n"
             "\n"
             "options:\n"
             "  --help         this summary (also -h or help)\n"
@@ -65,5 +66,7 @@ int main(int argc, char **argv)
         return ml_cmd_tone(argc - 1, argv + 1);
     if (strcmp(cmd, "log") == 0)
         return ml_cmd_log(argc - 1, argv + 1);
+    if (strcmp(cmd, "card") == 0)
+        return ml_cmd_card(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);
 }

@@ -11,6 +11,7 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/finish.h"
@@ -48,6 +49,15 @@ static void measure_usage(FILE *f)
         "  --harmonics N             highest harmonic order in THD, 2..%d (default 10)\n"
         "  --mains 50|60             mains frequency for hum (default: detected)\n"
         "  --window NAME             hft248d (default), hft144d, blackman-harris, hann\n"
+        "levels and the sound card:\n"
+        "  --full-scale-dbu DB       the dBu a full-scale sine corresponds to at the input (e.g. 18,\n"
+        "                            EBU R68): levels are then given in dBu, dBV and volts too\n"
+        "  --calibration FILE        the calibration made by 'modlens card --calibrate'\n"
+        "  --load-ohms R             with a calibration: the tone's power into R ohms, in watts\n"
+        "  --card FILE               the sound card's profile ('modlens card --out'): figures within\n"
+        "                            %.0f dB of what the card itself resolves are marked card-limited\n"
+        "  --card-correct            correct the tone's level in volts for the card's response\n"
+        "  --no-settings             ignore the settings file (~/.config/modlens/settings.ini)\n"
         "modulation analysis (if/iq):\n"
         "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
         "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
@@ -63,7 +73,7 @@ static void measure_usage(FILE *f)
         "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
         "\n"
         "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
-        ML_MAX_HARMONICS, ml_cli_safety);
+        ML_MAX_HARMONICS, ML_CARD_MARGIN_DB, ml_cli_safety);
 }
 
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
@@ -73,7 +83,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     /* measure and compare take the device options only to say whose they are */
     struct option longopts[64];
     ml_options_table(ML_OPTS_SOURCE | ML_OPTS_SEGMENT | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_REPORT
-                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE,
+                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE | ML_OPTS_LEVELS | ML_OPTS_BENCH,
                      own, longopts, sizeof longopts / sizeof *longopts);
     const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);
@@ -116,7 +126,9 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->in.start_s,
                                 o->in.seconds);
         o->in.path = "live";
-        return 0;
+        return ml_bench_setup(ML_BENCH_DEVICE | (o->in.play ? ML_BENCH_OUTPUT : 0) | ML_BENCH_MAINS
+                                  | ML_BENCH_LIMITS | ML_BENCH_CARD | ML_BENCH_CAL,
+                              &o->in, &o->an, &o->out);
     }
     if (ninputs == 2 && argc - optind != 2)
         return ml_cli_error("compare needs two inputs A and B (try 'modlens compare --help')");
@@ -126,7 +138,8 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
                             argv[argc - 1]);
     o->in.path = argv[optind];
     o->input2 = ninputs == 2 ? argv[optind + 1] : NULL;
-    return 0;
+    return ml_bench_setup(ML_BENCH_MAINS | ML_BENCH_LIMITS | ML_BENCH_CARD | ML_BENCH_CAL, &o->in, &o->an,
+                          &o->out);
 }
 
 void ml_measure_add(ml_report *r, const char *name, double value)
@@ -209,12 +222,14 @@ void ml_measure_progress_end(bool shown)
 
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_finish_files *files)
 {
-    const ml_finish_input ins[3] = {
+    const ml_finish_input ins[5] = {
         {o->in.live ? NULL : o->in.path, o->input2 ? "recording A" : "the recording"},
         {o->input2, "recording B"},
         {o->an.carrier_reference, "the carrier reference"},
+        {o->an.card_path, "the card profile"},
+        {o->an.calibration_path, "the calibration"},
     };
-    return ml_finish_prepare(&o->out, limits, ins, 3, o->in.save_path, files);
+    return ml_finish_prepare(&o->out, limits, ins, 5, o->in.save_path, files);
 }
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
@@ -229,6 +244,8 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
         rc = ml_measure_audio(o, seg, reason, rep);
     else
         rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
+    if (rc == 0)
+        ml_bench_finish(&o->an, rep);
     return rc;
 }
 

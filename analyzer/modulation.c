@@ -17,6 +17,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
@@ -285,6 +286,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_level_figures lv;
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
+    ml_bench_modulation_report(&o->an, &r, lv.rms_dbfs, p->iq, rep);
     char cref[160];
     ml_report_add_text(rep, "modulation.carrier_reference",
                        ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));

@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "analyzer/cli.h"
+#include "dsp/levels.h"
 
 ml_input_opts ml_input_opts_default(void)
 {
@@ -19,7 +20,10 @@ ml_analysis_opts ml_analysis_opts_default(void)
     return (ml_analysis_opts){.audio = ml_audio_config_default(),
                               .window = ML_WINDOW_HFT248D,
                               .carrier_hz = NAN,
-                              .peak_hold_ms = 5.0};
+                              .peak_hold_ms = 5.0,
+                              .full_scale_dbu = NAN,
+                              .cal_source = "",
+                              .settings_text = ""};
 }
 
 ml_output_opts ml_output_opts_default(void)
@@ -56,7 +60,13 @@ enum {
     O_FORMAT,
     O_OUTPUT,
     O_PLOT,
-    O_REPORT
+    O_REPORT,
+    O_FSDBU,
+    O_CAL,
+    O_NOSET,
+    O_LOAD,
+    O_CARD,
+    O_CARDCORR
 };
 
 static const struct {
@@ -90,6 +100,12 @@ static const struct {
     {{"output", required_argument, NULL, O_OUTPUT}, ML_OPTS_REPORT},
     {{"plot", required_argument, NULL, O_PLOT}, ML_OPTS_REPORT},
     {{"report", required_argument, NULL, O_REPORT}, ML_OPTS_REPORT},
+    {{"full-scale-dbu", required_argument, NULL, O_FSDBU}, ML_OPTS_LEVELS},
+    {{"calibration", required_argument, NULL, O_CAL}, ML_OPTS_LEVELS},
+    {{"no-settings", no_argument, NULL, O_NOSET}, ML_OPTS_LEVELS},
+    {{"load-ohms", required_argument, NULL, O_LOAD}, ML_OPTS_BENCH},
+    {{"card", required_argument, NULL, O_CARD}, ML_OPTS_BENCH},
+    {{"card-correct", no_argument, NULL, O_CARDCORR}, ML_OPTS_BENCH},
 };
 
 size_t ml_options_table(unsigned groups, const struct option *own, struct option *out, size_t cap)
@@ -243,6 +259,21 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
             return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", arg);
         an->peak_hold_ms = v;
         return 0;
+    case O_FSDBU:
+        if (!ml_cli_number(arg, &v) || v < ML_LEVEL_CAL_MIN_DBU || v > ML_LEVEL_CAL_MAX_DBU)
+            return ml_cli_error("--full-scale-dbu: '%s' is not a level in dBu, %.0f..%+.0f", arg,
+                                ML_LEVEL_CAL_MIN_DBU, ML_LEVEL_CAL_MAX_DBU);
+        an->full_scale_dbu = v;
+        return 0;
+    case O_CAL: an->calibration_path = arg; return 0;
+    case O_NOSET: an->no_settings = true; return 0;
+    case O_LOAD:
+        if (!ml_cli_number(arg, &v) || v < 0.01 || v > 1e6)
+            return ml_cli_error("--load-ohms: '%s' is not a resistance in ohms, 0.01..1e6", arg);
+        an->load_ohms = v;
+        return 0;
+    case O_CARD: an->card_path = arg; return 0;
+    case O_CARDCORR: an->card_correct = true; return 0;
     default: return ML_OPTS_NOT_MINE;
     }
 }

@@ -11,6 +11,7 @@
 #include <stddef.h>
 
 #include "analyzer/limits.h"
+#include "dsp/card.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -48,6 +49,16 @@ typedef struct {
     double bandwidth_hz;      /* --bandwidth: 0 = widest that fits, at most 10 kHz                */
     const char *carrier_reference; /* --carrier-reference FILE, or NULL                          */
     double peak_hold_ms;      /* --peak-hold-ms                                                  */
+    /* levels and the card (analyzer/bench.h fills the last three from the files and settings)   */
+    double full_scale_dbu;    /* --full-scale-dbu, or from --calibration / the settings: NAN none */
+    const char *calibration_path; /* --calibration FILE                                          */
+    double load_ohms;         /* --load-ohms: 0 = none                                            */
+    const char *card_path;    /* --card FILE                                                      */
+    bool card_correct;        /* --card-correct                                                   */
+    bool no_settings;         /* --no-settings                                                    */
+    const ml_card_profile *card; /* the card profile loaded from card_path, or NULL              */
+    const char *cal_source;   /* where full_scale_dbu comes from ("" none)                       */
+    const char *settings_text; /* the settings applied, for the report ("" none)                 */
 } ml_analysis_opts;
 
 /* Output: limits, the report and its pictures. */
@@ -70,6 +81,8 @@ enum {
     ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --harmonics --mains --window                */
     ML_OPTS_MODULATION = 1 << 5, /* --carrier --bandwidth --carrier-reference --peak-hold-ms  */
     ML_OPTS_REPORT = 1 << 6,     /* --limits --format --output --plot --report                */
+    ML_OPTS_LEVELS = 1 << 7,     /* --full-scale-dbu --calibration --no-settings              */
+    ML_OPTS_BENCH = 1 << 8,      /* --load-ohms --card --card-correct                         */
 };
 /* getopt ids: the groups' options use ML_OPT_ID_FIRST .. ML_OPT_ID_FIRST + 63; a command's own
  * options use ids from ML_OPT_ID_OWN on (or single characters). */

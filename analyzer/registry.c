@@ -55,6 +55,20 @@ static const ml_metric_def defs[] = {
     {"hum.mains_hz", "Hz", 0, ML_BETTER_NONE},
     {"hum.level_dbfs", "dBFS", 2, ML_BETTER_LOWER},
     {"hum.level_dbc", "dBc", 2, ML_BETTER_LOWER},
+    {"audio.noise_a_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"audio.snr_a_db", "dB", 2, ML_BETTER_HIGHER},
+    {"audio.noise_468_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"audio.noise_468_qp_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"audio.fundamental_dbu", "dBu", 2, ML_BETTER_NONE},
+    {"audio.fundamental_dbv", "dBV", 2, ML_BETTER_NONE},
+    {"audio.fundamental_vrms", "V", 6, ML_BETTER_NONE},
+    {"audio.fundamental_w", "W", 6, ML_BETTER_NONE},
+    {"audio.rms_dbu", "dBu", 2, ML_BETTER_NONE},
+    {"audio.noise_dbu", "dBu", 2, ML_BETTER_LOWER},
+    {"audio.noise_a_dbu", "dBu", 2, ML_BETTER_LOWER},
+    {"hum.level_dbu", "dBu", 2, ML_BETTER_LOWER},
+    {"carrier.level_dbu", "dBu", 2, ML_BETTER_NONE},
+    {"capture.rms_dbu", "dBu", 2, ML_BETTER_NONE},
 };
 
 const ml_metric_def *ml_registry_all(size_t *count)

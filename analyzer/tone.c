@@ -17,6 +17,7 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "dsp/card.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
 #include "io/output.h"
@@ -88,6 +89,11 @@ static void tone_usage(FILE *f)
             "  --allow-clip           allow peaks above full scale (PCM clips, float keeps them)\n"
             "  --out FILE             output file; written via a temporary, then renamed\n"
             "  --force                replace FILE when it exists (a regular file only)\n"
+            "sound-card test (see 'modlens card'):\n"
+            "  --card-test            the loopback test signal (two channels, about 30 s: silence, 997 Hz\n"
+            "                         at -1 dBFS, silence, each channel alone, third-octave steps at -20\n"
+            "                         dBFS), TPDF-dithered for --bits (24 for 32f); takes only --out,\n"
+            "                         --force, --play, --device, --rate, --bits and --seed\n"
             "playback:\n"
             "  --play                 play the signal instead of writing a file (see 'modlens devices')\n"
             "  --device NAME|INDEX    output device (default: the default output); its rate must\n"
@@ -604,8 +610,13 @@ static int play_main(tone_opts *o)
 
 static int tone_write(tone_opts *op, const ml_sink_config *scp, ml_output_set *set, ml_output *out);
 
+static int card_test_main(int argc, char **argv);
+
 int ml_cmd_tone(int argc, char **argv)
 {
+    for (int i = 1; i < argc; i++) /* the card test is an option block of its own */
+        if (strcmp(argv[i], "--card-test") == 0)
+            return card_test_main(argc, argv);
     tone_opts o;
     int rc = parse_tone(argc, argv, &o);
     if (rc != 0)
@@ -709,5 +720,165 @@ static int tone_write(tone_opts *op, const ml_sink_config *scp, ml_output_set *s
     sigaction(SIGINT, &old_int, NULL);
     sigaction(SIGTERM, &old_term, NULL);
     ml_synth_destroy(syn);
+    return rc;
+}
+
+/* ---- tone --card-test: the sound card's loopback test signal (dsp/card.h) -------------------- */
+
+typedef struct {
+    const char *out, *device;
+    long rate_hz;
+    ml_sink_encoding encoding;
+    uint64_t seed;
+    bool play, force;
+} card_test_opts;
+
+static int card_test_parse(int argc, char **argv, card_test_opts *o)
+{
+    enum { C_TEST = 256, C_OUT, C_PLAY, C_DEVICE, C_RATE, C_BITS, C_SEED, C_FORCE };
+    static const struct option longopts[] = {
+        {"card-test", no_argument, NULL, C_TEST},     {"out", required_argument, NULL, C_OUT},
+        {"play", no_argument, NULL, C_PLAY},          {"device", required_argument, NULL, C_DEVICE},
+        {"rate", required_argument, NULL, C_RATE},    {"bits", required_argument, NULL, C_BITS},
+        {"seed", required_argument, NULL, C_SEED},    {"force", no_argument, NULL, C_FORCE},
+        {"help", no_argument, NULL, 'h'},             {NULL, 0, NULL, 0},
+    };
+    *o = (card_test_opts){.rate_hz = 48000, .encoding = ML_SINK_PCM_24, .seed = 1};
+    opterr = 0;
+    optind = 1;
+    int ch;
+    long n;
+    while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
+        switch (ch) {
+        case C_TEST: break;
+        case C_OUT: o->out = optarg; break;
+        case C_PLAY: o->play = true; break;
+        case C_DEVICE: o->device = optarg; break;
+        case C_FORCE: o->force = true; break;
+        case C_RATE:
+            if (!ml_cli_int(optarg, &n) || n < (long)ML_CARD_MIN_RATE_HZ || n > (long)ML_CARD_MAX_RATE_HZ)
+                return ml_cli_error("--rate: '%s' is not a sample rate in Hz, %.0f..%.0f", optarg,
+                                    ML_CARD_MIN_RATE_HZ, ML_CARD_MAX_RATE_HZ);
+            o->rate_hz = n;
+            break;
+        case C_BITS:
+            if (strcmp(optarg, "16") == 0) o->encoding = ML_SINK_PCM_16;
+            else if (strcmp(optarg, "24") == 0) o->encoding = ML_SINK_PCM_24;
+            else if (strcmp(optarg, "32f") == 0 || strcmp(optarg, "float") == 0) o->encoding = ML_SINK_FLOAT;
+            else return ml_cli_error("--bits: '%s' is not 16, 24 or 32f", optarg);
+            break;
+        case C_SEED:
+            if (!ml_cli_int(optarg, &n) || n < 0)
+                return ml_cli_error("--seed: '%s' is not a whole number >= 0", optarg);
+            o->seed = (uint64_t)n;
+            break;
+        case 'h': tone_usage(stdout); return -1;
+        case ':': return ml_cli_bad_option(ch, argv, "tone");
+        case '?':
+            return optopt ? ml_cli_bad_option(ch, argv, "tone")
+                          : ml_cli_error("%s does not apply to --card-test (try 'modlens tone --help')",
+                                         argv[optind - 1]);
+        default: return ml_cli_error("tone: unhandled option");
+        }
+    }
+    if (optind < argc)
+        return ml_cli_error("tone takes no arguments; unexpected '%s' (the file goes after --out)",
+                            argv[optind]);
+    if (o->play == (o->out != NULL))
+        return ml_cli_error("--card-test needs either --out FILE or --play");
+    if (!o->play && o->device)
+        return ml_cli_error("--device needs --play");
+    if (o->play && o->force)
+        return ml_cli_error("--force applies to --out, not to --play");
+    return 0;
+}
+
+/* Generates the whole signal into the sink or player (one of them). */
+static int card_test_run(const card_test_opts *o, ml_cardgen *gen, ml_sink *sink, ml_player *player)
+{
+    float buf[2 * BLOCK_FRAMES];
+    const uint64_t total = ml_cardgen_frames(gen);
+    for (uint64_t done = 0; done < total && !interrupted;) {
+        const size_t want = total - done < BLOCK_FRAMES ? (size_t)(total - done) : BLOCK_FRAMES;
+        ml_cardgen_generate(gen, buf, want);
+        if (sink && ml_sink_write(sink, buf, want) != ML_OK)
+            return ml_cli_error("%s: %s", o->out, ml_sink_detail(sink));
+        if (player && ml_player_write(player, buf, want) != ML_OK)
+            return ml_cli_error("%s: %s", o->device ? o->device : "default output", ml_player_detail(player));
+        done += want;
+    }
+    if (interrupted)
+        return ml_cli_error("%s: interrupted%s", o->out ? o->out : "tone", o->out ? "; nothing written" : "");
+    return 0;
+}
+
+static int card_test_play(const card_test_opts *o, ml_cardgen *gen)
+{
+    char err[512];
+    ml_player_config pc = {o->device, (double)o->rate_hz, 2, 2.0};
+    ml_player *p = NULL;
+    if (ml_player_open(&pc, &p, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", o->device ? o->device : "default output", err);
+    const int rc = card_test_run(o, gen, NULL, p);
+    ml_player_close(p, rc == 0);
+    return rc;
+}
+
+static int card_test_write(const card_test_opts *o, ml_cardgen *gen)
+{
+    ml_sink_config sc = ml_sink_config_default((int)o->rate_hz, 2);
+    sc.encoding = o->encoding;
+    char err[512];
+    const char *bad = "";
+    if (ml_sink_container_from_path(o->out, &sc.container) != ML_OK)
+        return ml_cli_error("--out: '%s' does not end in .wav or .flac", o->out);
+    if (ml_sink_check(&sc, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", o->out, err);
+    ml_output_set *set = NULL;
+    ml_output *out = NULL;
+    FILE *f = NULL;
+    ml_sink *sink = NULL;
+    int rc = 0;
+    if (ml_output_set_create(&set) != ML_OK
+        || ml_output_set_add(set, o->out, "the signal (--out)", 0, &out) != ML_OK)
+        rc = ml_cli_error("out of memory");
+    else if (ml_output_set_check(set, &bad, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", bad, err);
+    else if (ml_output_exists(out) && !o->force)
+        rc = ml_cli_error("%s: the file exists; give --force to replace it", o->out);
+    else if (ml_output_begin(out, &f, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    else if (ml_sink_open_fd(fileno(f), &sc, &sink, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    if (rc == 0)
+        rc = card_test_run(o, gen, sink, NULL);
+    if (sink && ml_sink_close(sink, err, sizeof err) != ML_OK && rc == 0)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    if (rc == 0 && ml_output_end(out, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    if (rc == 0 && ml_output_set_commit(set, &bad, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", bad, err);
+    ml_output_set_destroy(set);
+    return rc;
+}
+
+static int card_test_main(int argc, char **argv)
+{
+    card_test_opts o;
+    int rc = card_test_parse(argc, argv, &o);
+    if (rc != 0)
+        return rc < 0 ? ML_EXIT_OK : rc;
+    ml_cardgen_config gc = ml_cardgen_config_default((double)o.rate_hz);
+    gc.dither_bits = o.encoding == ML_SINK_PCM_16 ? 16 : 24;
+    gc.seed = o.seed;
+    ml_cardgen *gen = NULL;
+    if (ml_cardgen_create(&gc, &gen) != ML_OK)
+        return ml_cli_error("out of memory");
+    struct sigaction old_int, old_term;
+    catch_signals(&old_int, &old_term);
+    rc = o.play ? card_test_play(&o, gen) : card_test_write(&o, gen);
+    sigaction(SIGINT, &old_int, NULL);
+    sigaction(SIGTERM, &old_term, NULL);
+    ml_cardgen_destroy(gen);
     return rc;
 }

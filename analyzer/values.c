@@ -123,6 +123,62 @@ const char *ml_values_overmodulation_kind(const ml_modulation_result *r)
                                                 : "none";
 }
 
+size_t ml_values_bench(const ml_noise_figures *n, const ml_volt_figures *v, bool volts, bool watts,
+                       ml_value *out)
+{
+    size_t k = 0;
+    out[k++] = (ml_value){"audio.noise_a_dbfs", n->noise_a_dbfs};
+    out[k++] = (ml_value){"audio.snr_a_db", n->snr_a_db};
+    out[k++] = (ml_value){"audio.noise_468_dbfs", n->noise_468_dbfs};
+    out[k++] = (ml_value){"audio.noise_468_qp_dbfs", n->noise_468_qp_dbfs};
+    if (!volts)
+        return k;
+    out[k++] = (ml_value){"audio.fundamental_dbu", v->fundamental_dbu};
+    out[k++] = (ml_value){"audio.fundamental_dbv", v->fundamental_dbv};
+    out[k++] = (ml_value){"audio.fundamental_vrms", v->fundamental_vrms};
+    if (watts)
+        out[k++] = (ml_value){"audio.fundamental_w", v->fundamental_w};
+    out[k++] = (ml_value){"audio.rms_dbu", v->rms_dbu};
+    out[k++] = (ml_value){"audio.noise_dbu", v->noise_dbu};
+    out[k++] = (ml_value){"audio.noise_a_dbu", v->noise_a_dbu};
+    out[k++] = (ml_value){"hum.level_dbu", v->hum_dbu};
+    return k;
+}
+
+size_t ml_values_capture_volts(double carrier_dbu, double rms_dbu, bool iq, ml_value *out)
+{
+    size_t k = 0;
+    if (!iq)
+        out[k++] = (ml_value){"carrier.level_dbu", carrier_dbu};
+    out[k++] = (ml_value){"capture.rms_dbu", rms_dbu};
+    return k;
+}
+
+size_t ml_values_card_limited(const ml_card_reach *r, const char **names, double *card_db, size_t cap)
+{
+    const struct {
+        bool on;
+        double card;
+        const char *name[4];
+    } map[] = {
+        {r->thd, r->card_thd_db, {"audio.thd_pct", "audio.thd_db"}},
+        {r->thdn, r->card_thdn_db, {"audio.thdn_pct", "audio.thdn_db", "audio.sinad_db", "audio.enob_bits"}},
+        {r->snr, r->card_snr_db, {"audio.snr_db"}},
+        {r->snr_a, r->card_snr_a_db, {"audio.snr_a_db"}},
+        {r->noise, r->card_noise_dbfs, {"audio.noise_dbfs", "audio.noise_dbu"}},
+        {r->noise_a, r->card_noise_a_dbfs, {"audio.noise_a_dbfs", "audio.noise_a_dbu"}},
+        {r->noise_468, r->card_noise_468_dbfs, {"audio.noise_468_dbfs"}},
+        {r->hum, r->card_hum_dbfs, {"hum.level_dbfs", "hum.level_dbc", "hum.level_dbu"}},
+    };
+    size_t n = 0;
+    for (size_t i = 0; i < sizeof map / sizeof *map; i++)
+        for (size_t j = 0; map[i].on && j < 4 && map[i].name[j] && n < cap; j++) {
+            card_db[n] = map[i].card;
+            names[n++] = map[i].name[j];
+        }
+    return n;
+}
+
 double ml_values_find(const ml_value *v, size_t n, const char *name)
 {
     for (size_t i = 0; i < n; i++)

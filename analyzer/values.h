@@ -11,6 +11,8 @@
 
 #include <stddef.h>
 
+#include "dsp/benchfig.h"
+#include "dsp/card.h"
 #include "dsp/figures.h"
 #include "dsp/modulation.h"
 #include "io/report.h"
@@ -52,6 +54,26 @@ const char *ml_values_c_source(const ml_modulation_result *r, const char *refere
 const char *ml_values_c_word(const ml_modulation_result *r);
 /* modulation.overmodulation_kind: the kind of event seen most ("none" without events). */
 const char *ml_values_overmodulation_kind(const ml_modulation_result *r);
+
+/* The bench figures (dsp/benchfig.h) in report order: audio.noise_a_dbfs, audio.snr_a_db,
+ * audio.noise_468_dbfs, audio.noise_468_qp_dbfs (the reports leave it out with a test tone, when
+ * the meter does not read the noise alone); with volts (a calibration) then
+ * audio.fundamental_dbu, .fundamental_dbv, .fundamental_vrms, with watts (a load)
+ * .fundamental_w, then audio.rms_dbu, .noise_dbu, .noise_a_dbu, hum.level_dbu. */
+size_t ml_values_bench(const ml_noise_figures *n, const ml_volt_figures *v, bool volts, bool watts,
+                       ml_value *out);
+
+/* The captured levels in volts of an if/iq capture: carrier.level_dbu (a real IF only: an I/Q
+ * pair has no one voltage) and capture.rms_dbu. */
+size_t ml_values_capture_volts(double carrier_dbu, double rms_dbu, bool iq, ml_value *out);
+
+/* The names of the figures a card profile limits (dsp/card.h ml_card_reach) into names[cap]:
+ * thd -> audio.thd_pct, audio.thd_db; thdn -> audio.thdn_pct, audio.thdn_db, audio.sinad_db,
+ * audio.enob_bits; snr -> audio.snr_db; snr_a -> audio.snr_a_db; noise -> audio.noise_dbfs,
+ * audio.noise_dbu; noise_a -> audio.noise_a_dbfs, audio.noise_a_dbu; noise_468 ->
+ * audio.noise_468_dbfs; hum -> hum.level_dbfs, hum.level_dbc, hum.level_dbu. With each name, in
+ * card_db[], the card's own figure it was compared with (dB or dBFS). Returns the count. */
+size_t ml_values_card_limited(const ml_card_reach *r, const char **names, double *card_db, size_t cap);
 
 /* The value named name among v[n] (full dotted name); NAN when absent. */
 double ml_values_find(const ml_value *v, size_t n, const char *name);

@@ -17,6 +17,7 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/input.h"
 #include "analyzer/commands.h"
@@ -48,7 +49,8 @@ static void watch_usage(FILE *f)
             "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
             "  --device, --rate, --channels   as for 'modlens live'\n"
             "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
-            "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits   as for 'modlens measure'\n"
+            "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits, --full-scale-dbu,\n"
+            "  --calibration, --card, --no-settings   as for 'modlens measure'\n"
             "\n"
             "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
             "taken from --carrier-reference) and kept until the r key.\n"
@@ -97,6 +99,32 @@ static void pv_registered(FILE *f, const char *name, const ml_value *v, size_t n
     pv(f, name, have ? ml_values_find(v, n, name) : NAN, d ? d->decimals : 3);
 }
 
+/* The bench figures of an audio window (analyzer/bench.h): weighted noise; with a calibration the
+ * tone's and the window's level in dBu; with a card profile the figures it limits. */
+static void plain_bench(FILE *f, const ml_watch_view *v)
+{
+    const ml_analysis_opts *an = v->an;
+    const bool volts = an && !isnan(an->full_scale_dbu);
+    ml_volt_figures vf;
+    if (volts) {
+        const ml_level_cal cal = {.full_scale_dbu = an->full_scale_dbu};
+        ml_bench_volts(&cal, 0, 0, &v->res.audio, &v->res.noise, v->res.rms_dbfs, &vf);
+    }
+    ml_value vals[ML_VALUES_MAX];
+    const size_t n = ml_values_bench(&v->res.noise, &vf, volts, false, vals);
+    static const char *const shown[] = {"audio.noise_a_dbfs", "audio.snr_a_db", "audio.fundamental_dbu",
+                                        "audio.rms_dbu"};
+    for (size_t i = 0; i < sizeof shown / sizeof *shown; i++)
+        if (i < 2 || volts)
+            pv_registered(f, shown[i], vals, n, v->have);
+    if (an && an->card) {
+        char names[256] = "";
+        if (v->have)
+            ml_bench_card_limited_names(an, v->channel, &v->res.audio, &v->res.noise, names, sizeof names);
+        fprintf(f, " card_limited=%s", names[0] ? names : "none");
+    }
+}
+
 static void plain_line(FILE *f, const ml_watch_view *v)
 {
     fprintf(f, "elapsed_s=%.2f window_s=%.2f", v->elapsed_s, v->window_s);
@@ -108,6 +136,7 @@ static void plain_line(FILE *f, const ml_watch_view *v)
         n += ml_values_audio(&v->res.audio, vals + n);
         for (size_t i = 0; i < sizeof PLAIN_AUDIO / sizeof *PLAIN_AUDIO; i++)
             pv_registered(f, PLAIN_AUDIO[i], vals, n, v->have);
+        plain_bench(f, v);
     } else {
         const ml_modulation_result *m = &v->res.modulation;
         n = ml_values_modulation(m, v->nominal_hz, false, vals);
@@ -289,6 +318,12 @@ static int make_meter(watcher *w)
     v->window_s = (double)ml_monitor_window_frames(w->mon) / w->rate;
     v->pos_hold_pct = v->neg_hold_pct = NAN;
     v->nominal_hz = o->an.carrier_hz;
+    v->an = &o->an;
+    v->channel = (int)o->in.channel;
+    char settings[ML_REPORT_SETTINGS_LEN];
+    ml_bench_settings_text(&o->an, settings, sizeof settings);
+    if (settings[0]) /* before the screen takes the terminal */
+        fprintf(stderr, "modlens: watch: %s\n", settings);
     return 0;
 }
 

@@ -65,8 +65,9 @@ static double plus_cal(const ml_level_cal *cal, double dbfs)
     return isfinite(dbfs) ? ml_level_dbu(cal, dbfs) : NAN;
 }
 
-void ml_bench_volts(const ml_level_cal *cal, double load_ohms, double response_db, const ml_audio_plain_figures *f,
-                    const ml_noise_figures *n, double rms_dbfs, ml_volt_figures *out)
+void ml_bench_volts(const ml_level_cal *cal, double load_ohms, double response_db,
+                    const ml_audio_plain_figures *f, const ml_noise_figures *n, double rms_dbfs,
+                    ml_volt_figures *out)
 {
     const double c = isfinite(response_db) ? response_db : 0.0;
     out->fundamental_dbu = plus_cal(cal, f->fundamental_dbfs - c);
@@ -74,7 +75,7 @@ void ml_bench_volts(const ml_level_cal *cal, double load_ohms, double response_d
     out->fundamental_vrms = isfinite(out->fundamental_dbu) ? ml_dbu_to_vrms(out->fundamental_dbu) : NAN;
     out->fundamental_w = load_ohms > 0 ? ml_level_watts(out->fundamental_vrms, load_ohms) : NAN;
     out->rms_dbu = plus_cal(cal, rms_dbfs);
-    out->noise_dbu = plus_cal(cal, n->noise_dbfs);
+    out->noise_dbu = plus_cal(cal, f->noise_dbfs);
     out->noise_a_dbu = plus_cal(cal, n->noise_a_dbfs);
     out->hum_dbu = plus_cal(cal, f->hum_dbfs);
 }

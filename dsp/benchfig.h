@@ -30,8 +30,9 @@
  *    fundamental_vrms = 0.7746 V x 10^(fundamental_dbu / 20);
  *  - fundamental_w = fundamental_vrms^2 / load_ohms (the tone's power into a resistive load);
  *    NAN without a load (load_ohms <= 0);
- *  - rms_dbu, noise_dbu (residual, unweighted), noise_a_dbu, hum_dbu: the dBFS figure plus
- *    full_scale_dbu.
+ *  - rms_dbu, noise_dbu, hum_dbu (from the capture's level and the plain figures of
+ *    dsp/figures.h: noise_dbfs, hum_dbfs) and noise_a_dbu (from noise_a_dbfs above): the dBFS
+ *    figure plus full_scale_dbu.
  * A full-scale sine has power 0.5 = 0 dBFS (AES17); 0 dBu = sqrt(0.6) V (docs/references.md 14).
  */
 #ifndef ML_DSP_BENCHFIG_H
@@ -75,7 +76,8 @@ ml_status ml_bench_noise(const ml_spectrum *spec, const ml_audio_result *a, cons
 /* The levels under cal (see above): f the plain audio figures, n the noise figures, rms_dbfs the
  * capture's r.m.s. level, load_ohms > 0 for fundamental_w (else NAN), response_db the correction
  * (finite; 0 for none). Figures whose inputs are NAN are NAN. Never fails; cal must not be NULL. */
-void ml_bench_volts(const ml_level_cal *cal, double load_ohms, double response_db, const ml_audio_plain_figures *f,
-                    const ml_noise_figures *n, double rms_dbfs, ml_volt_figures *out);
+void ml_bench_volts(const ml_level_cal *cal, double load_ohms, double response_db,
+                    const ml_audio_plain_figures *f, const ml_noise_figures *n, double rms_dbfs,
+                    ml_volt_figures *out);
 
 #endif

@@ -28,17 +28,18 @@
 #define CROSS_S 2.0
 #define STEP_S 0.5
 #define TAIL_S 0.5
-#define GUARD_S 0.1      /* left out at each end of a segment's analysis                        */
-#define NOISE_S 0.05     /* opening capture that sets the onset threshold                       */
-#define ONSET_MIN 1e-3   /* the threshold is at least -60 dBFS                                   */
-#define LOUD_LEAD 0.1    /* an opening peak above -20 dBFS is no silence                         */
-#define BLOCK_S 0.02     /* phase blocks of the frequency estimate                               */
+#define GUARD_S 0.1    /* left out at each end of a segment's analysis                        */
+#define NOISE_S 0.05   /* opening capture that sets the onset threshold                       */
+#define ONSET_MIN 1e-3 /* the threshold is at least -60 dBFS                                   */
+#define LOUD_LEAD 0.1  /* an opening peak above -20 dBFS is no silence                         */
+#define BLOCK_S 0.02   /* phase blocks of the frequency estimate                               */
 #define SCRATCH 4096
 
 /* [iso266:1997] third-octave nominal frequencies, Hz */
-static const double STEPS_HZ[] = {20,   25,   31.5, 40,   50,   63,    80,    100,   125,   160,   200,   250,
-                                  315,  400,  500,  630,  800,  1000,  1250,  1600,  2000,  2500,  3150,  4000,
-                                  5000, 6300, 8000, 10000, 12500, 16000, 20000, 25000, 31500, 40000};
+static const double STEPS_HZ[] = {20,    25,    31.5,  40,    50,    63,    80,   100,  125,
+                                  160,   200,   250,   315,   400,   500,   630,  800,  1000,
+                                  1250,  1600,  2000,  2500,  3150,  4000,  5000, 6300, 8000,
+                                  10000, 12500, 16000, 20000, 25000, 31500, 40000};
 
 static bool rate_ok(double rate_hz)
 {
@@ -53,8 +54,8 @@ size_t ml_card_schedule(double rate_hz, ml_card_segment *seg, size_t cap)
     double t = 0;
     const double lv = ML_CARD_LEVEL_DBFS, f = ML_CARD_TEST_HZ;
     const ml_card_segment fixed[] = {
-        {ML_CARD_SEG_LEAD, 0, LEAD_S, 0, 0, 0},         {ML_CARD_SEG_LEVEL, 0, LEVEL_S, f, lv, 3},
-        {ML_CARD_SEG_SILENCE, 0, SILENCE_S, 0, 0, 0},   {ML_CARD_SEG_LEFT, 0, CROSS_S, f, lv, 1},
+        {ML_CARD_SEG_LEAD, 0, LEAD_S, 0, 0, 0},       {ML_CARD_SEG_LEVEL, 0, LEVEL_S, f, lv, 3},
+        {ML_CARD_SEG_SILENCE, 0, SILENCE_S, 0, 0, 0}, {ML_CARD_SEG_LEFT, 0, CROSS_S, f, lv, 1},
         {ML_CARD_SEG_RIGHT, 0, CROSS_S, f, lv, 2},
     };
     for (size_t i = 0; i < sizeof fixed / sizeof *fixed; i++) {
@@ -88,7 +89,7 @@ struct ml_cardgen {
     size_t nseg, cur;
     uint64_t pos;
     uint64_t rng;
-    double lsb;                              /* 0 without dither                            */
+    double lsb; /* 0 without dither                            */
 };
 
 ml_cardgen_config ml_cardgen_config_default(double rate_hz)
@@ -101,7 +102,8 @@ ml_status ml_cardgen_create(const ml_cardgen_config *cfg, ml_cardgen **out)
     if (out == NULL)
         return ML_EINVAL;
     *out = NULL;
-    if (cfg == NULL || !rate_ok(cfg->rate_hz) || (cfg->dither_bits != 0 && (cfg->dither_bits < 8 || cfg->dither_bits > 32)))
+    if (cfg == NULL || !rate_ok(cfg->rate_hz)
+        || (cfg->dither_bits != 0 && (cfg->dither_bits < 8 || cfg->dither_bits > 32)))
         return ML_EINVAL;
     ml_cardgen *q = calloc(1, sizeof *q);
     if (q == NULL)
@@ -185,14 +187,14 @@ double ml_card_response_at(const ml_card_profile *p, int channel, double f_hz)
 struct ml_cardan {
     ml_cardan_config cfg;
     ml_card_segment seg[ML_CARD_MAX_SEGMENTS];
-    size_t nseg, cur;            /* the segment being analysed next (LEVEL first)              */
-    int64_t pos;                 /* frames pushed                                               */
+    size_t nseg, cur; /* the segment being analysed next (LEVEL first)              */
+    int64_t pos;      /* frames pushed                                               */
     /* onset */
     int64_t noise_n;
     double noise_peak, thr;
     bool no_lead, found;
-    int64_t t0;                  /* the schedule's start in recording frames                   */
-    double scale;                /* recording frames per schedule frame (1 until measured)      */
+    int64_t t0;   /* the schedule's start in recording frames                   */
+    double scale; /* recording frames per schedule frame (1 until measured)      */
     bool done;
     /* the frequency estimate on channel 1 over the level segment */
     size_t blk_len, blk_i;
@@ -312,7 +314,8 @@ static size_t seek_onset(ml_cardan *q, const float *x, size_t n)
         }
         if (m > q->thr) {
             /* the -1 dBFS sine's first sample above the threshold, counted from its start */
-            const double a = pow(10.0, ML_CARD_LEVEL_DBFS / 20.0), w = 2.0 * ML_PI * ML_CARD_TEST_HZ / q->cfg.rate_hz;
+            const double a = pow(10.0, ML_CARD_LEVEL_DBFS / 20.0),
+                         w = 2.0 * ML_PI * ML_CARD_TEST_HZ / q->cfg.rate_hz;
             int64_t n1 = 0;
             while (a * fabs(sin(w * (double)n1)) <= q->thr && n1 < (int64_t)q->cfg.rate_hz)
                 n1++;
@@ -476,11 +479,13 @@ const char *ml_cardan_why_text(ml_cardan_why why)
     switch (why) {
     case ML_CARDAN_OK: return "";
     case ML_CARDAN_NO_LEAD:
-        return "the recording starts loud: it must begin with the test signal's silence (start recording before "
+        return "the recording starts loud: it must begin with the test signal's silence (start recording "
+               "before "
                "playing)";
     case ML_CARDAN_NOT_FOUND: return "the test signal's 997 Hz tone was not found";
     case ML_CARDAN_SHORT: return "the recording ends before the test signal does";
-    case ML_CARDAN_NOT_TEST: return "the opening segment holds no steady 997 Hz tone: not the card test signal";
+    case ML_CARDAN_NOT_TEST:
+        return "the opening segment holds no steady 997 Hz tone: not the card test signal";
     default: return "unknown";
     }
 }
@@ -489,7 +494,8 @@ const char *ml_cardan_why_text(ml_cardan_why why)
 static double fig_db(const ml_figure *f, ml_fig_state *state)
 {
     *state = f->state;
-    return (f->state == ML_FIG_MEASURED || f->state == ML_FIG_UPPER || f->state == ML_FIG_LOWER) && f->value > 0
+    return (f->state == ML_FIG_MEASURED || f->state == ML_FIG_UPPER || f->state == ML_FIG_LOWER)
+                   && f->value > 0
                ? 10.0 * log10(f->value)
                : NAN;
 }
@@ -571,7 +577,7 @@ static void profile_init(const ml_cardan *q, ml_card_profile *p)
     p->response_level_dbfs = ML_CARD_RESPONSE_DBFS;
     p->band_lo_hz = 20.0;
     p->band_hi_hz = fmin(20000.0, q->cfg.rate_hz / 2);
-    p->rate_error_ppm = p->gain_difference_db = p->dither_dbfs = NAN;
+    p->rate_error_ppm = p->gain_difference_db = NAN;
     p->npoints = q->nsteps;
     for (size_t k = 0; k < q->nsteps; k++)
         p->response_hz[k] = q->step_hz[k];
@@ -609,7 +615,7 @@ ml_status ml_cardan_finish(ml_cardan *q, ml_card_profile *out, ml_cardan_why *wh
         return ML_EINVAL;
     profile_init(q, out);
     const double level = q->nblk > 0 ? 20.0 * log10(q->s_amp / (double)q->nblk) : -INFINITY;
-    *why = q->no_lead ? ML_CARDAN_NO_LEAD
+    *why = q->no_lead  ? ML_CARDAN_NO_LEAD
            : !q->found ? ML_CARDAN_NOT_FOUND
            : !q->done  ? ML_CARDAN_SHORT
            : !(q->f_meas > 0 && fabs(q->f_meas / ML_CARD_TEST_HZ - 1) < 0.01 && level > -60 && level < 3)
@@ -654,8 +660,13 @@ static bool near_floor(double dut, double card)
 void ml_card_reach_of(const ml_card_profile *p, int channel, const ml_card_dut *d, ml_card_reach *out)
 {
     const double n = NAN;
-    *out = (ml_card_reach){.card_thd_db = n, .card_thdn_db = n, .card_snr_db = n, .card_snr_a_db = n,
-                           .card_noise_dbfs = n, .card_noise_a_dbfs = n, .card_noise_468_dbfs = n,
+    *out = (ml_card_reach){.card_thd_db = n,
+                           .card_thdn_db = n,
+                           .card_snr_db = n,
+                           .card_snr_a_db = n,
+                           .card_noise_dbfs = n,
+                           .card_noise_a_dbfs = n,
+                           .card_noise_468_dbfs = n,
                            .card_hum_dbfs = n};
     if (p == NULL || d == NULL || p->channels < 1)
         return;

@@ -134,8 +134,6 @@ typedef struct {
     double band_lo_hz, band_hi_hz; /* of the noise and distortion figures                      */
     double rate_error_ppm;      /* NAN: not measured                                            */
     double gain_difference_db;  /* channel 2 - channel 1; NAN for one channel                  */
-    double dither_dbfs;         /* unused by the analysis; the signal's dither as written (NAN:
-                                   unknown)                                                     */
     size_t npoints;
     double response_hz[ML_CARD_MAX_POINTS]; /* ascending                                        */
     ml_card_channel ch[ML_CARD_MAX_CHANNELS];

@@ -25,6 +25,7 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "dsp/benchfig.h"
 #include "dsp/figures.h"
 #include "dsp/metrics.h"
 #include "dsp/modulation.h"
@@ -57,6 +58,8 @@ typedef struct {
     bool audio_ok;             /* the audio analysis succeeded (otherwise its figures are NAN)    */
     double rms_dbfs;           /* audio kind: RMS level of the window (dsp/figures.h)              */
     ml_audio_plain_figures audio;
+    ml_noise_figures noise;    /* audio kind: the weighted noise of the window (dsp/benchfig.h; no
+                                  quasi-peak reading); NAN for if/iq                              */
     /* if/iq (everything NAN for audio)                                                          */
     bool carrier_ok;           /* a carrier line was found in the window                           */
     ml_modulation_result modulation;
@@ -85,7 +88,7 @@ ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_
 /* Analyses the ring. ML_ENOSIGNAL until the ring is full, and for if/iq when no carrier is found
  * or it vanishes (out->carrier_ok false); ML_ENOMEM / ML_EFFT when creating the modulation
  * analysis after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and
- * inside ml_audio_analyze's temporaries. */
+ * inside the temporaries of ml_audio_analyze and ml_bench_noise. */
 ml_status ml_monitor_analyse(ml_monitor *q, ml_monitor_result *out);
 
 /* Coarse spectrum of the latest analysis for display: ncols column maxima (>= 1) in db[ncols].

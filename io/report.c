@@ -97,6 +97,33 @@ ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const
     return m;
 }
 
+ml_metric *ml_report_card_limited(ml_report *r, const char *name, const char *fmt, ...)
+{
+    r->card_checked = true;
+    ml_metric *m = exact(r, name);
+    if (m == NULL || !m->valid || r->ncard_limited >= ML_REPORT_MAX_CARD)
+        return NULL;
+    for (size_t i = 0; i < r->ncard_limited; i++)
+        if (strcmp(r->card_limited[i], m->name) == 0)
+            return m;
+    snprintf(r->card_limited[r->ncard_limited++], sizeof r->card_limited[0], "%s", m->name);
+    /* the qualifier it has, then "; " and this one, cut to the qualifier's size */
+    char q[2 * ML_REPORT_WHY_LEN + 2];
+    size_t n = strlen(m->qualifier);
+    memcpy(q, m->qualifier, n);
+    if (n > 0) {
+        memcpy(q + n, "; ", 2);
+        n += 2;
+    }
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(q + n, sizeof q - n, fmt, ap);
+    va_end(ap);
+    q[sizeof m->qualifier - 1] = '\0';
+    memcpy(m->qualifier, q, sizeof m->qualifier);
+    return m;
+}
+
 void ml_report_settings(ml_report *r, const char *fmt, ...)
 {
     va_list ap;

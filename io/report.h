@@ -58,6 +58,7 @@
 #define ML_REPORT_PATH_LEN 4096   /* PATH_MAX of Linux: a path is never cut in the model       */
 #define ML_REPORT_WHY_LEN 128     /* a reason or qualifier, including the terminating NUL      */
 #define ML_REPORT_SETTINGS_LEN 512
+#define ML_REPORT_MAX_CARD 32     /* card-limited figures listed at most                        */
 
 /* The header line of the CSV report (without the newline), which the report never prints itself. */
 #define ML_REPORT_CSV_COLUMNS                                                                        \
@@ -138,6 +139,11 @@ typedef struct {
     ml_check checks[ML_REPORT_MAX_CHECKS];
     size_t nnotes;
     char notes[ML_REPORT_MAX_NOTES][ML_REPORT_NOTE_LEN];
+    /* the sound card's own floor (analyzer/bench.h): with a card profile in force, the figures
+     * within 10 dB of what the card itself resolves (each also qualified "card-limited")      */
+    bool card_checked;       /* a card profile was in force: JSON "card_limited" is written  */
+    size_t ncard_limited;
+    char card_limited[ML_REPORT_MAX_CARD][64];
 } ml_report;
 
 typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_format;
@@ -167,6 +173,13 @@ ml_metric *ml_report_qualify(ml_report *r, const char *name, const char *fmt, ..
  * keeps the qualifier). NULL when there is no such metric or it is not measured. */
 ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const char *fmt, ...)
     __attribute__((format(printf, 4, 5)));
+/* Marks the measured metric of this exact dotted name as limited by the sound card (its value
+ * lies within reach of the card's own floor): it is listed in r->card_limited (JSON
+ * "card_limited": a list of metric names) and printf(fmt, ...) is added to its qualifier (after
+ * "; " when it has one: a text mark and a note). Sets r->card_checked. NULL when there is no such
+ * metric, it is not measured, or the list is full. */
+ml_metric *ml_report_card_limited(ml_report *r, const char *name, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
 /* Sets the settings and calibration in force (printf(fmt, ...); "" clears it). */
 void ml_report_settings(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 /* Appends a text-valued field (JSON string at the dotted name; a line in the text header). */

@@ -143,6 +143,12 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
         json_object_set_new(um, "coverage", json_real(0.95));
         json_object_set_new(root, "uncertainty_method", um);
     }
+    if (r->card_checked) { /* the figures within reach of the sound card's own floor */
+        json_t *cl = json_array();
+        for (size_t i = 0; i < r->ncard_limited; i++)
+            json_array_append_new(cl, json_string(r->card_limited[i]));
+        json_object_set_new(root, "card_limited", cl);
+    }
     json_object_set_new(root, "reasons", whys(r, 0));
     json_object_set_new(root, "qualifiers", whys(r, 1));
     json_object_set_new(root, "bounds", whys(r, 2));

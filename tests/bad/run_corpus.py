@@ -25,6 +25,10 @@ import tempfile
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 TIMEOUT_S = 60 * (10 if os.environ.get("MODLENS_WRAP") else 1)
+# an empty configuration folder: a developer's own settings file must not change any case
+_NO_SETTINGS = tempfile.TemporaryDirectory(prefix="modlens-xdg-")
+os.chmod(_NO_SETTINGS.name, 0o755)  # cases run as another user must see that it is empty
+os.environ["XDG_CONFIG_HOME"] = _NO_SETTINGS.name
 NOBODY = 65534
 
 

@@ -20,6 +20,15 @@ import soundfile as sf
 WRAP = os.environ.get("MODLENS_WRAP", "").split()
 RUN_TIMEOUT_S = 600 if WRAP else 60
 
+# modlens reads a settings file from the user's configuration folder (XDG_CONFIG_HOME, else
+# ~/.config): every command these tests run (this process's children, and those of the live
+# tests' helpers, which inherit this environment) sees an empty configuration folder of its own
+# instead, so that a developer's own settings cannot change a result. Tests of the settings
+# file set XDG_CONFIG_HOME themselves.
+_NO_SETTINGS = tempfile.TemporaryDirectory(prefix="modlens-xdg-")
+os.chmod(_NO_SETTINGS.name, 0o755)  # cases run as another user must see that it is empty
+os.environ["XDG_CONFIG_HOME"] = _NO_SETTINGS.name
+
 
 class Checker:
     """Counts checks, prints one line each, and turns failures into the exit status."""

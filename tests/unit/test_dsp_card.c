@@ -129,8 +129,13 @@ START_TEST(simulated_card)
     /* y = x + k x^3: for x = A sin, the 3rd harmonic is k A^3 / 4 and the fundamental A + 3 k A^3 / 4
      * (sin^3 = (3 sin - sin 3) / 4); THD = (k A^3 / 4) / (A + 3 k A^3 / 4) at A = 10^(-1/20). */
     const double k3 = 1e-4, A = pow(10, -1 / 20.0), sigma = 1e-5;
-    const path pp = {.gain2 = pow(10, -0.5 / 20), .k3 = k3, .noise_rms = sigma, .leak = 1e-4, .delay = 20000,
-                     .channels = 2, .dither_bits = 0};
+    const path pp = {.gain2 = pow(10, -0.5 / 20),
+                     .k3 = k3,
+                     .noise_rms = sigma,
+                     .leak = 1e-4,
+                     .delay = 20000,
+                     .channels = 2,
+                     .dither_bits = 0};
     ml_card_profile p;
     ml_cardan_why why;
     ck_assert_int_eq(run_path(&pp, 48000, &p, &why), ML_OK);
@@ -183,10 +188,21 @@ START_TEST(reach)
     ml_card_profile p;
     memset(&p, 0, sizeof p);
     p.channels = 1;
-    p.ch[0] = (ml_card_channel){.thd_db = -100, .thdn_db = -95, .noise_dbfs = -110, .noise_a_dbfs = -112,
-                                .noise_468_dbfs = -103, .hum_dbfs = NAN};
-    ml_card_dut d = {.fundamental_dbfs = -10, .thd_db = -95, .thdn_db = -50, .snr_db = 95, .snr_a_db = 50,
-                     .noise_dbfs = -105, .noise_a_dbfs = -60, .noise_468_dbfs = NAN, .hum_dbfs = -80};
+    p.ch[0] = (ml_card_channel){.thd_db = -100,
+                                .thdn_db = -95,
+                                .noise_dbfs = -110,
+                                .noise_a_dbfs = -112,
+                                .noise_468_dbfs = -103,
+                                .hum_dbfs = NAN};
+    ml_card_dut d = {.fundamental_dbfs = -10,
+                     .thd_db = -95,
+                     .thdn_db = -50,
+                     .snr_db = 95,
+                     .snr_a_db = 50,
+                     .noise_dbfs = -105,
+                     .noise_a_dbfs = -60,
+                     .noise_468_dbfs = NAN,
+                     .hum_dbfs = -80};
     ml_card_reach r;
     ml_card_reach_of(&p, 0, &d, &r);
     /* THD 5 dB above the card's -100: limited; THD+N far above: not */
@@ -203,16 +219,17 @@ END_TEST
 
 START_TEST(volts)
 {
-    /* EBU R68 (docs/references.md 14): 0 dBFS = +18 dBu; a tone at -18 dBFS is 0 dBu = 0.774597 V, -2.2185 dBV;
+    /* EBU R68 (docs/references.md 14): 0 dBFS = +18 dBu; a tone at -18 dBFS is 0 dBu = 0.774597 V,
+     * -2.2185 dBV;
      * into 600 ohm that is 1 mW (the definition of 0 dBu) */
     ml_level_cal cal = ml_level_cal_default();
     ml_audio_plain_figures f;
     ml_figures_audio_none(&f);
     f.fundamental_dbfs = -18.0;
     f.hum_dbfs = -90;
+    f.noise_dbfs = -100;
     ml_noise_figures n;
     ml_bench_noise_none(&n);
-    n.noise_dbfs = -100;
     ml_volt_figures v;
     ml_bench_volts(&cal, 600, 0, &f, &n, -20, &v);
     ck_assert_double_eq_tol(v.fundamental_dbu, 0.0, 1e-12);
