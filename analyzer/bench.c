@@ -24,6 +24,7 @@ static ml_card_profile g_card;
 static char g_card_shown[256];
 static char g_settings[ML_REPORT_SETTINGS_LEN];
 static char g_cal_source[320];
+static bool g_card_from_settings, g_cal_from_settings; /* the file names came from the settings */
 
 /* "a, b" lists */
 static void list_add(char *buf, size_t len, const char *item)
@@ -55,8 +56,10 @@ static void apply_settings(unsigned use, ml_input_opts *in, ml_analysis_opts *an
         apply_text("output_device", s->output_device, &in->output_device, applied, over);
     if ((use & ML_BENCH_LIMITS) && out)
         apply_text("limits", s->limits, &out->limits_path, applied, over);
-    if (use & ML_BENCH_CARD)
+    if (use & ML_BENCH_CARD) {
+        g_card_from_settings = s->card && an->card_path == NULL;
         apply_text("card", s->card, &an->card_path, applied, over);
+    }
     if ((use & ML_BENCH_MAINS) && s->mains_hz > 0) {
         if (an->audio.mains_hz == 0) {
             an->audio.mains_hz = s->mains_hz;
@@ -68,6 +71,7 @@ static void apply_settings(unsigned use, ml_input_opts *in, ml_analysis_opts *an
     const bool cal_set = s->calibration || !isnan(s->full_scale_dbu);
     if ((use & ML_BENCH_CAL) && cal_set) {
         if (isnan(an->full_scale_dbu) && an->calibration_path == NULL) {
+            g_cal_from_settings = s->calibration != NULL;
             if (s->calibration)
                 an->calibration_path = s->calibration;
             else
@@ -121,7 +125,8 @@ static int read_calibration(ml_analysis_opts *an)
     static ml_calibration cal;
     char err[512], shown[1024];
     if (ml_calibration_read(an->calibration_path, &cal, err, sizeof err) != ML_OK)
-        return ml_cli_error("%s: %s", an->calibration_path, err);
+        return ml_cli_error("%s: %s%s", an->calibration_path, err,
+                            g_cal_from_settings ? " (named in the settings; --no-settings ignores them)" : "");
     an->full_scale_dbu = cal.cal.full_scale_dbu;
     ml_printable(shown, sizeof shown, an->calibration_path);
     const size_t n = strlen(g_cal_source);
@@ -135,6 +140,7 @@ int ml_bench_setup(unsigned use, ml_input_opts *in, ml_analysis_opts *an, ml_out
 {
     ml_settings_free(&g_set);
     g_settings[0] = g_cal_source[0] = g_card_shown[0] = '\0';
+    g_card_from_settings = g_cal_from_settings = false;
     an->card = NULL;
     int rc = an->no_settings ? 0 : read_settings(use, in, an, out);
     if (rc == 0)
@@ -145,7 +151,8 @@ int ml_bench_setup(unsigned use, ml_input_opts *in, ml_analysis_opts *an, ml_out
     if (rc == 0 && an->card_path) {
         char err[512];
         if (ml_card_profile_read(an->card_path, &g_card, NULL, 0, err, sizeof err) != ML_OK)
-            rc = ml_cli_error("%s: %s", an->card_path, err);
+            rc = ml_cli_error("%s: %s%s", an->card_path, err,
+                              g_card_from_settings ? " (named in the settings; --no-settings ignores them)" : "");
         else
             an->card = &g_card;
         ml_printable(g_card_shown, sizeof g_card_shown, an->card_path);

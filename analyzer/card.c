@@ -145,15 +145,18 @@ static int parse(int argc, char **argv, card_opts *o)
         return ml_cli_error("card needs --out FILE.json for the profile (try 'modlens card --help')");
     if (!cal && o->file && o->in.device)
         return ml_cli_error("card takes either a recording FILE or --device, not both");
-    if (!cal && !o->file && !o->in.device)
-        return ml_cli_error("card needs a recording FILE of the loopback, or --device to play and capture");
     if (o->file && (o->in.output_device || o->in.rate_hz > 0))
         return ml_cli_error("--output-device and --rate apply to --device");
     if (o->out && strcmp(o->out, "-") == 0)
         return ml_cli_error("--out: give a file name");
     o->in.path = o->file;
     o->in.live = o->file == NULL;
-    return ml_bench_setup(o->file ? 0 : ML_BENCH_DEVICE | ML_BENCH_OUTPUT, &o->in, &o->an, NULL);
+    /* without a recording, the settings' device and output_device are the ones to qualify */
+    const int rc = ml_bench_setup(o->file ? 0 : ML_BENCH_DEVICE | ML_BENCH_OUTPUT, &o->in, &o->an, NULL);
+    if (rc == 0 && !cal && !o->file && !o->in.device)
+        return ml_cli_error("card needs a recording FILE of the loopback, or --device to play and capture "
+                            "(or device = NAME in the settings)");
+    return rc;
 }
 
 /* ---- the profile ------------------------------------------------------------------------- */

@@ -158,8 +158,7 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
     };
     struct option longopts[64];
     ml_options_table(ML_OPTS_SOURCE | ML_OPTS_DEVICE | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_LEVELS,
-                     own, longopts,
-                     sizeof longopts / sizeof *longopts);
+                     own, longopts, sizeof longopts / sizeof *longopts);
     memset(o, 0, sizeof *o);
     o->in = ml_input_opts_default();
     o->in.seconds = 0; /* no limit */
