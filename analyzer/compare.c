@@ -258,6 +258,19 @@ static void note(ml_comparison *c, const char *fmt, const char *a, const char *b
     snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.255s", buf);
 }
 
+/* With a card profile in force on a side: which of its figures the card limits (analyzer/bench.h). */
+static void card_notes(ml_comparison *c, const ml_report *r, const char *side)
+{
+    if (!r->card_checked)
+        return;
+    char names[ML_REPORT_NOTE_LEN] = "";
+    for (size_t i = 0; i < r->ncard_limited; i++) {
+        const size_t n = strlen(names);
+        snprintf(names + n, sizeof names - n, "%s%s", n ? ", " : "", r->card_limited[i]);
+    }
+    note(c, "%s: card-limited (within 10 dB of the card's own floor): %s", side, names[0] ? names : "none");
+}
+
 /* The --tolerance values of a run. */
 typedef struct {
     tolerance item[MAX_TOLERANCES];
@@ -301,6 +314,8 @@ static int compare_body(ml_measure_opts *o, ml_finish_files *files, const char *
             &cmp,
             "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
             "B", "");
+    card_notes(&cmp, &ra, "A");
+    card_notes(&cmp, &rb, "B");
     if ((o->out.plot_path || o->out.report_path) && (!ma || !mb))
         note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "",
              !mb ? (!ma ? " and B" : "B") : "");

@@ -153,7 +153,9 @@ def check_dut(ck, exe, prof):
     rc, out, err = E.run_cmd(exe, ["compare", "--format", "json", "floor.json", "above.json"])
     ck.check("compare reads saved reports with card_limited back", rc in (0, 1) and err == "", err.strip())
     rc, out, err = E.run_cmd(exe, ["compare", "--card", "card.json", "floor.wav", "above.wav"])
-    ck.check("compare --card measures both sides", rc in (0, 1) and err == "", err.strip())
+    ck.check("compare --card: each side's card-limited figures in a note", rc in (0, 1) and err == ""
+             and "A: card-limited (within 10 dB of the card's own floor): audio.thd_pct" in out
+             and "B: card-limited" in out, out[-500:] + err.strip())
 
 
 def check_correct(ck, exe, prof):
