@@ -88,7 +88,7 @@ def calibration(ck, exe):
     ck.check("card --calibrate prints the full scale", "0 dBFS = +24.00 dBu" in out, out.strip())
     with open("cal.json") as f:
         cal = json.load(f)
-    # 20 lg(1.228 / 0.774597) - (-20) = 24.0003 dB
+    # 20 lg(1.228 / 0.774597) - (-20) = 24.0025 dB (1.228 V is +4 dBu to the printed 4 digits)
     ck.close("calibration file: full_scale_dbu", cal["full_scale_dbu"], 20 * math.log10(1.228 / V0) + 20, 0.01)
     rc, rep, _, err = E.run_json(exe, ["--calibration", "cal.json", "rp155.wav"])
     ck.check("measure --calibration: exit 0", rc == 0 and rep is not None, err.strip())
