@@ -53,6 +53,18 @@ const char *ml_values_c_word(const ml_modulation_result *r);
 /* modulation.overmodulation_kind: the kind of event seen most ("none" without events). */
 const char *ml_values_overmodulation_kind(const ml_modulation_result *r);
 
+/* The figures of one point of a sweep (sweep.points[], analyzer/sweep.c), by their leaf names:
+ * group, frequency_hz, level_dbfs, level_pct, relative_db, index, carrier_shift_pct, thd_pct,
+ * envelope_thd_pct, thdn_pct. They are not registry metrics: a limits profile checks them in its
+ * [response] section (analyzer/limits.h). */
+typedef struct {
+    const char *leaf, *unit;
+    int decimals;
+} ml_point_def;
+
+/* The definition of the point figure leaf, or NULL. */
+const ml_point_def *ml_values_point_def(const char *leaf);
+
 /* The value named name among v[n] (full dotted name); NAN when absent. */
 double ml_values_find(const ml_value *v, size_t n, const char *name);
 
