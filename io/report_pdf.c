@@ -561,7 +561,7 @@ static void measure_layout(doc *d, const measure_job *j, bool draw_pictures)
     tables(d, r);
     notes(d, r->notes, r->nnotes);
     const ml_plot_data *p = j->p;
-    if (p && (p->nbins || p->nenv >= 2)) {
+    if (p && (p->nbins || p->nenv >= 2 || p->sweep.n)) {
         const char *title = d->title;
         d->title = "Measurement record: pictures";
         new_page(d);
