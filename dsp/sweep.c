@@ -76,14 +76,14 @@ ml_status ml_sweep_step_transform(double rate_hz, int64_t nframes, double tone_h
     if (cfg == NULL || !(rate_hz > 0) || !isfinite(rate_hz) || !(tone_hz > 0) || !(tone_hz < rate_hz / 2)
         || preferred <= ML_WINDOW_RECT || preferred >= ML_WINDOW_COUNT)
         return ML_EINVAL;
-    if (nframes < 320)
+    if (nframes < 288)
         return ML_ENOSIGNAL;
     *cfg = ml_spectrum_config_default(rate_hz);
     size_t nfft = cfg->nfft;
-    while (nfft > 256 && (double)nfft + (double)(nfft / 4) > (double)nframes)
+    while (nfft > 256 && (double)nfft + (double)(nfft / 8) > (double)nframes)
         nfft /= 2;
     cfg->nfft = nfft;
-    cfg->hop = nfft / 4;
+    cfg->hop = (double)nframes - (double)nfft < (double)(nfft / 4) ? (size_t)(nframes - (int64_t)nfft) : nfft / 4;
     cfg->remove_dc = 1;
     const double bins = tone_hz / (rate_hz / (double)nfft);
     /* from the preferred window down to those of fewer terms (the enum lists them by terms) */

@@ -21,8 +21,9 @@
  *    When no point falls that far, the response holds to the last point measured: the edge lies
  *    beyond it (the caller reports a bound).
  *  - the transform of one step (ml_sweep_step_transform): the largest power of two nfft with
- *    nfft + nfft/4 <= the step's frames (two segments at hop nfft/4, as ML_RESOLUTION_WINDOW; at
- *    most ml_spectrum_config_default's nfft, at least 256), and the window: the preferred one, or
+ *    nfft + nfft/8 <= the step's frames (at most ml_spectrum_config_default's nfft, at least 256),
+ *    hop the smaller of nfft/4 and frames - nfft (at least two segments: the finest resolution a
+ *    short step allows, which low tones need more than averaging), and the window: the preferred one, or
  *    when the tone lies less than 2 lobe + 1 bins above 0 Hz (lobe = the window's terms + 1,
  *    dsp/metrics.h: then its harmonics' lobes overlap its own and its own reaches DC's), the next
  *    window of fewer terms that resolves it (HFT248D, HFT144D, Blackman-Harris, Hann), else Hann.
@@ -57,7 +58,7 @@ ml_status ml_sweep_edge(const double *freq_hz, const double *rel_db, size_t n, s
 
 /* The spectrum for a step of nframes frames at rate_hz holding a tone of tone_hz (see above):
  * cfg ready for ml_spectrum_create (remove_dc as the default config has it). ML_EINVAL for bad
- * arguments; ML_ENOSIGNAL when nframes < 320 (256 + 64: no two segments). */
+ * arguments; ML_ENOSIGNAL when nframes < 288 (256 + 32: no two segments). */
 ml_status ml_sweep_step_transform(double rate_hz, int64_t nframes, double tone_hz, ml_window_type preferred,
                                   ml_spectrum_config *cfg);
 

@@ -123,28 +123,34 @@ END_TEST
 START_TEST(step_transform_resolves_low_tones)
 {
     ml_spectrum_config c;
-    /* 0.8 s at 48 kHz: nfft 16384 (16384 + 4096 <= 38400 < 32768 + 8192), hop 4096 */
+    /* 0.8 s at 48 kHz: nfft 32768 (32768 + 4096 <= 38400), hop 38400 - 32768 = 5632 (< 8192) */
     ck_assert_int_eq(ml_sweep_step_transform(48000, 38400, 1000, ML_WINDOW_HFT248D, &c), ML_OK);
-    ck_assert_uint_eq(c.nfft, 16384);
-    ck_assert_uint_eq(c.hop, 4096);
-    ck_assert_int_eq(c.window, ML_WINDOW_HFT248D); /* 341 bins >= 2 x 12 + 1 */
+    ck_assert_uint_eq(c.nfft, 32768);
+    ck_assert_uint_eq(c.hop, 5632);
+    ck_assert_int_eq(c.window, ML_WINDOW_HFT248D); /* 683 bins >= 2 x 12 + 1 */
     ck_assert_int_eq(c.remove_dc, 1);
-    /* 40 Hz = 13.65 bins: HFT248D needs 25, HFT144D 17, Blackman-Harris 11 */
-    ck_assert_int_eq(ml_sweep_step_transform(48000, 38400, 40, ML_WINDOW_HFT248D, &c), ML_OK);
+    /* 1 s: hop nfft/4 */
+    ck_assert_int_eq(ml_sweep_step_transform(48000, 48000, 1000, ML_WINDOW_HFT248D, &c), ML_OK);
+    ck_assert_uint_eq(c.nfft, 32768);
+    ck_assert_uint_eq(c.hop, 8192);
+    /* 0.4 s: nfft 16384 (2.93 Hz bins); 40 Hz = 13.65 bins: HFT248D needs 25, HFT144D 17,
+     * Blackman-Harris 11 (the windows' terms + 1 = lobe, 2 lobe + 1 bins) */
+    ck_assert_int_eq(ml_sweep_step_transform(48000, 19200, 40, ML_WINDOW_HFT248D, &c), ML_OK);
+    ck_assert_uint_eq(c.nfft, 16384);
     ck_assert_int_eq(c.window, ML_WINDOW_BLACKMAN_HARRIS);
     /* 60 Hz = 20.5 bins: HFT144D */
-    ck_assert_int_eq(ml_sweep_step_transform(48000, 38400, 60, ML_WINDOW_HFT248D, &c), ML_OK);
+    ck_assert_int_eq(ml_sweep_step_transform(48000, 19200, 60, ML_WINDOW_HFT248D, &c), ML_OK);
     ck_assert_int_eq(c.window, ML_WINDOW_HFT144D);
     /* the preferred window is never exceeded */
-    ck_assert_int_eq(ml_sweep_step_transform(48000, 38400, 1000, ML_WINDOW_HANN, &c), ML_OK);
+    ck_assert_int_eq(ml_sweep_step_transform(48000, 19200, 1000, ML_WINDOW_HANN, &c), ML_OK);
     ck_assert_int_eq(c.window, ML_WINDOW_HANN);
     /* too low for any: Hann */
-    ck_assert_int_eq(ml_sweep_step_transform(48000, 38400, 10, ML_WINDOW_HFT248D, &c), ML_OK);
+    ck_assert_int_eq(ml_sweep_step_transform(48000, 19200, 10, ML_WINDOW_HFT248D, &c), ML_OK);
     ck_assert_int_eq(c.window, ML_WINDOW_HANN);
     /* long steps: at most the default resolution (2^16 at 48 kHz) */
     ck_assert_int_eq(ml_sweep_step_transform(48000, 48000 * 60, 1000, ML_WINDOW_HFT248D, &c), ML_OK);
     ck_assert_uint_eq(c.nfft, ml_spectrum_config_default(48000).nfft);
-    ck_assert_int_eq(ml_sweep_step_transform(48000, 319, 1000, ML_WINDOW_HFT248D, &c), ML_ENOSIGNAL);
+    ck_assert_int_eq(ml_sweep_step_transform(48000, 287, 1000, ML_WINDOW_HFT248D, &c), ML_ENOSIGNAL);
     ck_assert_int_eq(ml_sweep_step_transform(48000, 38400, 24000, ML_WINDOW_HFT248D, &c), ML_EINVAL);
 }
 END_TEST
