@@ -9,6 +9,7 @@
 #include <stdlib.h>
 
 #include "analyzer/cli.h"
+#include "analyzer/imd.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
@@ -133,6 +134,7 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     if (ok && ar.fundamental_power < 10.0 * ar.noise_power)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
     ml_uncertainty_report(p->blocks, rep);
+    ml_imd_report(rep, ok ? p->spec : NULL, &o->an); /* intermodulation: analyzer/imd.c */
     return 0;
 }
 

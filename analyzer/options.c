@@ -19,7 +19,8 @@ ml_analysis_opts ml_analysis_opts_default(void)
     return (ml_analysis_opts){.audio = ml_audio_config_default(),
                               .window = ML_WINDOW_HFT248D,
                               .carrier_hz = NAN,
-                              .peak_hold_ms = 5.0};
+                              .peak_hold_ms = 5.0,
+                              .imd = ml_imd_config_default()};
 }
 
 ml_output_opts ml_output_opts_default(void)
@@ -56,7 +57,8 @@ enum {
     O_FORMAT,
     O_OUTPUT,
     O_PLOT,
-    O_REPORT
+    O_REPORT,
+    O_IMD
 };
 
 static const struct {
@@ -90,6 +92,7 @@ static const struct {
     {{"output", required_argument, NULL, O_OUTPUT}, ML_OPTS_REPORT},
     {{"plot", required_argument, NULL, O_PLOT}, ML_OPTS_REPORT},
     {{"report", required_argument, NULL, O_REPORT}, ML_OPTS_REPORT},
+    {{"imd", required_argument, NULL, O_IMD}, ML_OPTS_IMD},
 };
 
 size_t ml_options_table(unsigned groups, const struct option *own, struct option *out, size_t cap)
@@ -208,6 +211,40 @@ static int apply_input(int id, const char *arg, ml_input_opts *in)
     }
 }
 
+/* "auto", "off", "smpte" or "dfd", the last two optionally ":F1,F2" (Hz, 0 < F1 < F2). */
+static int parse_imd(const char *s, ml_analysis_opts *an)
+{
+    char buf[64], *tones;
+    double f1, f2;
+    if (!split_at(s, ':', buf, &tones))
+        return 0;
+    ml_imd_config c = ml_imd_config_default();
+    an->imd_off = false;
+    if (strcmp(buf, "off") == 0 || strcmp(buf, "auto") == 0) {
+        an->imd_off = strcmp(buf, "off") == 0;
+        an->imd = c;
+        return tones == NULL;
+    }
+    if (strcmp(buf, "smpte") == 0)
+        c.method = ML_IMD_SMPTE;
+    else if (strcmp(buf, "dfd") == 0)
+        c.method = ML_IMD_DFD;
+    else
+        return 0;
+    if (tones) {
+        char *f2_text = strchr(tones, ',');
+        if (f2_text == NULL)
+            return 0;
+        *f2_text++ = '\0';
+        if (!ml_cli_number(tones, &f1) || !ml_cli_number(f2_text, &f2) || !(f1 > 0) || !(f2 > f1))
+            return 0;
+        c.f1_hz = f1;
+        c.f2_hz = f2;
+    }
+    an->imd = c;
+    return 1;
+}
+
 static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
 {
     double v;
@@ -238,6 +275,12 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
     case O_CARRIER: return ml_cli_carrier(arg, &an->carrier_hz);
     case O_BANDWIDTH: return ml_cli_bandwidth(arg, &an->bandwidth_hz);
     case O_CREF: an->carrier_reference = arg; return 0;
+    case O_IMD:
+        if (!parse_imd(arg, an))
+            return ml_cli_error("--imd: '%s' is not auto, off, smpte[:FL,FH] or dfd[:F1,F2] (Hz, 0 < F1 < F2)",
+                                arg);
+        an->imd_given = true;
+        return 0;
     case O_HOLD:
         if (!ml_cli_number(arg, &v) || v <= 0 || v >= 500)
             return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", arg);

@@ -11,6 +11,7 @@
 #include <stddef.h>
 
 #include "analyzer/limits.h"
+#include "dsp/imd.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -48,6 +49,9 @@ typedef struct {
     double bandwidth_hz;      /* --bandwidth: 0 = widest that fits, at most 10 kHz                */
     const char *carrier_reference; /* --carrier-reference FILE, or NULL                          */
     double peak_hold_ms;      /* --peak-hold-ms                                                  */
+    ml_imd_config imd;        /* --imd: auto (default), or a method and perhaps its tones         */
+    bool imd_off;             /* --imd off                                                       */
+    bool imd_given;           /* --imd was given                                                 */
 } ml_analysis_opts;
 
 /* Output: limits, the report and its pictures. */
@@ -70,6 +74,7 @@ enum {
     ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --harmonics --mains --window                */
     ML_OPTS_MODULATION = 1 << 5, /* --carrier --bandwidth --carrier-reference --peak-hold-ms  */
     ML_OPTS_REPORT = 1 << 6,     /* --limits --format --output --plot --report                */
+    ML_OPTS_IMD = 1 << 7,        /* --imd                                                     */
 };
 /* getopt ids: the groups' options use ML_OPT_ID_FIRST .. ML_OPT_ID_FIRST + 63; a command's own
  * options use ids from ML_OPT_ID_OWN on (or single characters). */
