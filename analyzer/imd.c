@@ -40,6 +40,19 @@ static void drop_table(ml_report *rep, const char *path)
         }
 }
 
+/* Removes the notes that begin with prefix. */
+static void drop_note(ml_report *rep, const char *prefix)
+{
+    size_t k = 0;
+    for (size_t i = 0; i < rep->nnotes; i++)
+        if (strncmp(rep->notes[i], prefix, strlen(prefix)) != 0) {
+            if (k != i)
+                memcpy(rep->notes[k], rep->notes[i], sizeof rep->notes[k]);
+            k++;
+        }
+    rep->nnotes = k;
+}
+
 /* What the single-tone figures say of a two-tone signal (analyzer/imd.h). */
 static void withdraw(ml_report *rep, const ml_imd_result *r)
 {
@@ -47,6 +60,7 @@ static void withdraw(ml_report *rep, const ml_imd_result *r)
         ml_report_unmeasured(rep, single_tone[i], "two-tone IMD signal: THD and noise need a single tone "
                                                   "(see imd.*)");
     drop_table(rep, "audio.harmonics");
+    drop_note(rep, "no clear test tone"); /* the other tone counted as noise */
     ml_report_qualify(rep, "audio.fundamental_hz", "two-tone IMD signal: one of the tones (imd.f1_hz, imd.f2_hz)");
     ml_report_qualify(rep, "audio.fundamental_dbfs", "two-tone IMD signal: one of the tones (imd.f1_hz, imd.f2_hz)");
     ml_report_qualify(rep, "modulation.index_spectral", "two-tone IMD signal: the stronger tone's sidebands");

@@ -127,8 +127,15 @@ static int product(const spec_view *v, double hz, int n, double margin, ml_imd_p
     const double pw = lobe_power(v, c), nz = noise_lobe_power(v, c);
     *p = (ml_imd_product){.frequency_hz = hz, .n = n, .amplitude = sqrt(2.0 * pw),
                           .noise_amplitude = sqrt(2.0 * nz),
-                          .upper_bound = pw < nz * pow(10.0, margin / 10.0)};
+                          .upper_bound = !(pw > nz * pow(10.0, margin / 10.0))}; /* 0 over 0 too */
     return 1;
+}
+
+/* A figure is a bound when its bounded products carry more than half of it, or when it is zero
+ * and made of products (all of them then below the noise, which may be zero too). */
+static bool mostly_bound(double bound, double sum, size_t nproducts)
+{
+    return bound > 0.5 * sum || (sum == 0 && nproducts > 0);
 }
 
 /* Checks a forced frequency pair. */
@@ -221,6 +228,7 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
     if (m == ML_IMD_SMPTE) {
         out->smpte_orders = cfg->smpte_orders;
         double sum2 = 0.0, bound2 = 0.0, d[2] = {0, 0}, dbound[2] = {0, 0};
+        size_t nd[2] = {0, 0};
         for (int n = 1; n <= cfg->smpte_orders; n++)
             for (int sgn = -1; sgn <= 1; sgn += 2) {
                 if (!product(&v, f2 + sgn * n * f1, sgn * n, margin, &p[out->nproducts])) {
@@ -231,6 +239,7 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
                 sum2 += q->amplitude * q->amplitude;
                 bound2 += q->upper_bound ? q->amplitude * q->amplitude : 0.0;
                 if (n <= 2) {
+                    nd[n - 1]++;
                     d[n - 1] += q->amplitude;
                     dbound[n - 1] += q->upper_bound ? q->amplitude : 0.0;
                 }
@@ -238,15 +247,16 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
         out->smpte_pct = 100.0 * sqrt(sum2) / out->u2;
         out->smpte_d2_pct = 100.0 * d[0] / out->u2;
         out->smpte_d3_pct = 100.0 * d[1] / out->u2;
-        out->smpte_upper_bound = bound2 > 0.5 * sum2;
-        out->smpte_d2_upper_bound = dbound[0] > 0.5 * d[0];
-        out->smpte_d3_upper_bound = dbound[1] > 0.5 * d[1];
+        out->smpte_upper_bound = mostly_bound(bound2, sum2, out->nproducts);
+        out->smpte_d2_upper_bound = mostly_bound(dbound[0], d[0], nd[0]);
+        out->smpte_d3_upper_bound = mostly_bound(dbound[1], d[1], nd[1]);
     } else {
         const struct {
             double hz;
             int n;
         } prods[3] = {{f2 - f1, 2}, {2 * f1 - f2, -3}, {2 * f2 - f1, 3}};
         double d[2] = {0, 0}, dbound[2] = {0, 0};
+        size_t nd[2] = {0, 0};
         for (int i = 0; i < 3; i++) {
             if (!product(&v, prods[i].hz, prods[i].n, margin, &p[out->nproducts])) {
                 out->nskipped++;
@@ -254,13 +264,14 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
             }
             const ml_imd_product *q = &p[out->nproducts++];
             const int o = i == 0 ? 0 : 1;
+            nd[o]++;
             d[o] += q->amplitude;
             dbound[o] += q->upper_bound ? q->amplitude : 0.0;
         }
         out->dfd2_pct = 100.0 * d[0] / (2.0 * out->u2);
         out->dfd3_pct = 100.0 * d[1] / (2.0 * out->u2);
-        out->dfd2_upper_bound = dbound[0] > 0.5 * d[0];
-        out->dfd3_upper_bound = dbound[1] > 0.5 * d[1];
+        out->dfd2_upper_bound = mostly_bound(dbound[0], d[0], nd[0]);
+        out->dfd3_upper_bound = mostly_bound(dbound[1], d[1], nd[1]);
     }
     st = ML_OK;
 done:

@@ -25,9 +25,10 @@
  * The two conventions differ for the same spectrum (docs/references.md 10 item 9): both are given.
  * Noise limit: each product's noise reference is the mean power per bin of the bins within
  * +-8 lobes of it that belong to no tone or product lobe, times (2 lobe + 1) / ENBW. A product whose
- * lobe power is less than noise_margin_db above that is below the noise: its U is an upper bound,
- * not a value (upper_bound). A figure is an upper bound when such products carry more than half of
- * it (of the power for smpte_pct, of the amplitude sum for the others). A product outside 0 < f <
+ * lobe power is not more than noise_margin_db above that is below the noise: its U is an upper
+ * bound, not a value (upper_bound; also a product of zero power where the noise is zero). A figure
+ * is an upper bound when such products carry more than half of it (of the power for smpte_pct, of
+ * the amplitude sum for the others), or when it is zero (a noiseless spectrum with no products). A product outside 0 < f <
  * Nyquist (its lobe clear of DC and Nyquist) is left out of the sums and counted in nskipped.
  * References: [rp120] SMPTE RP120; [iec60268-3] IEC 60268-3 14.12.7, 14.12.8; [din45403] DIN 45403.
  */
