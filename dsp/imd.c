@@ -11,8 +11,10 @@
 
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "dsp/internal.h"
+#include "dsp/order.h"
 
 ml_imd_config ml_imd_config_default(void)
 {
@@ -138,6 +140,22 @@ static bool mostly_bound(double bound, double sum, size_t nproducts)
     return bound > 0.5 * sum || (sum == 0 && nproducts > 0);
 }
 
+/* The noise power a lobe holds from the median density of the bins above DC's lobe (lines are too
+ * few to move the median); NAN when it cannot be formed (no memory, too few bins). */
+static double median_noise_lobe(const spec_view *v)
+{
+    if (v->nbins <= 3 * v->lobe)
+        return NAN;
+    const size_t n = v->nbins - 2 * v->lobe;
+    double *tmp = malloc(n * sizeof *tmp);
+    if (tmp == NULL)
+        return NAN;
+    memcpy(tmp, v->psd + 2 * v->lobe, n * sizeof *tmp);
+    const double med = ml_order_median(tmp, n);
+    free(tmp);
+    return med * (double)(2 * v->lobe + 1) / v->enbw;
+}
+
 /* Checks a forced frequency pair. */
 static bool pair_ok(double f1, double f2, double nyq)
 {
@@ -201,6 +219,10 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
     if (m == ML_IMD_AUTO) {
         out->detected = true;
         const double f1 = out->f1_hz, f2 = out->f2_hz;
+        /* a test signal's tones stand clear of the noise (not two peaks of noise) */
+        const double nl = median_noise_lobe(&v), clear = pow(10.0, ML_IMD_CLEAR_DB / 10.0);
+        if (!(out->u1 * out->u1 / 2.0 > clear * nl && out->u2 * out->u2 / 2.0 > clear * nl))
+            goto done; /* ML_ENOSIGNAL */
         if (f1 < 500.0 && f2 > 3000.0 && out->ratio_db >= 6.0 && out->ratio_db <= 18.0)
             m = ML_IMD_SMPTE;
         else if (fabs(out->ratio_db) <= 3.0 && f2 - f1 <= f2 / 4.0)
