@@ -27,6 +27,9 @@
 
 #define ML_SWEEP_MAX_STEPS 4096
 #define ML_SWEEP_DROP_DB 3.0 /* the band edges' level re the reference (the -3 dB points) */
+/* if/iq: a step's tone modulates the carrier by at least 0.1 % (-60 dB re 100 %); weaker ripple
+ * of the envelope (a quantised carrier's, hum's) is no step */
+#define ML_SWEEP_MIN_MOD_DB (-60.0)
 
 typedef struct {
     ml_measure_opts m;        /* input, analysis and output groups; m.in.path the FILE or "live" */

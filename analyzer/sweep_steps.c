@@ -172,6 +172,8 @@ int ml_sweep_find_steps(ml_sweep_run *r, double carrier_hz)
         return rc;
     r->steps_cfg = ml_steps_config_default(rate);
     r->steps_cfg.max_steps = ML_SWEEP_MAX_STEPS;
+    if (r->kind != ML_KIND_AUDIO) /* the envelope in units of C: a step modulates at least 0.1 % */
+        r->steps_cfg.min_level_dbfs = ML_SWEEP_MIN_MOD_DB;
     ml_steps *steps = NULL;
     if (ml_steps_create(&r->steps_cfg, &steps) != ML_OK)
         return ml_cli_error("%s: cannot set up the step search at %.0f Hz (8 kHz .. 1 MHz)", r->o->m.in.path,
