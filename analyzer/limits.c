@@ -472,11 +472,17 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
     return ML_OK;
 }
 
+/* f inside [lo, hi], the edges widened by ML_RESPONSE_EDGE_TOL of themselves. */
+static bool inside(double f, double lo, double hi)
+{
+    return f >= lo * (1 - ML_RESPONSE_EDGE_TOL) && f <= hi * (1 + ML_RESPONSE_EDGE_TOL);
+}
+
 double ml_limits_response_thd_max(const ml_response_limits *rl, double f_hz)
 {
     double m = NAN;
     for (size_t i = 0; i < rl->nbands; i++)
-        if (f_hz >= rl->band_lo_hz[i] && f_hz <= rl->band_hi_hz[i] && !(rl->band_max_pct[i] >= m))
+        if (inside(f_hz, rl->band_lo_hz[i], rl->band_hi_hz[i]) && !(rl->band_max_pct[i] >= m))
             m = rl->band_max_pct[i];
     return m;
 }
@@ -514,7 +520,7 @@ static void apply_response(const ml_response_limits *rl, ml_report *r)
         const ml_metric *f = ml_report_point_find(p, "frequency_hz");
         if (f == NULL || !f->valid)
             continue;
-        if (rl->has_window && (!rl->has_range || (f->value >= rl->range_lo_hz && f->value <= rl->range_hi_hz)))
+        if (rl->has_window && (!rl->has_range || inside(f->value, rl->range_lo_hz, rl->range_hi_hz)))
             point_check(p, "relative_db", rl->window_min_db, rl->window_max_db);
         const double thd = ml_limits_response_thd_max(rl, f->value);
         if (isfinite(thd))

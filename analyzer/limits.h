@@ -20,7 +20,9 @@
  *    MIN:MAX" (-1000 <= MIN <= 0 <= MAX <= 1000, MIN < MAX: the reference itself is 0 dB), and
  *    "thd_max_pct = LO:HI:PCT, ..." (THD at most PCT % for points from LO to HI Hz, both
  *    included; 0 < PCT <= 1000; up to 16 bands, ascending, touching but not overlapping; a point
- *    on a shared edge is held to the lower ceiling). A point gets one check per figure:
+ *    on a shared edge is held to the lower ceiling). The edges of range_hz and of the bands take
+ *    in points within ML_RESPONSE_EDGE_TOL of them (a step played at 50 Hz measures 49.9998 Hz
+ *    and still belongs to a band from 50 Hz). A point gets one check per figure:
  *    relative_db (inside range_hz) and thd_pct (inside a band); a figure not measured fails
  *    its check. range_hz needs window_db. Other reports (measure, live) have no points: the
  *    section does not apply to them.
@@ -47,6 +49,7 @@ typedef struct {
 } ml_limit;
 
 #define ML_RESPONSE_MAX_BANDS 16
+#define ML_RESPONSE_EDGE_TOL 1e-3 /* 0.1 % of an edge's frequency */
 
 /* The [response] section (see above). */
 typedef struct {

@@ -509,6 +509,10 @@ static void describe(const ml_sweep_opts *o, const ml_sweep_run *r, ml_report *r
         ml_report_note(rep, "no steps found: a step is a steady tone of at least %.2f s (plus %.2f s at each "
                             "end), holding 91 %% of the power of its frames",
                        c->min_step_s, c->edge_s);
+    if (r->nhum > 0)
+        ml_report_note(rep, "%zu steady tone%s at a mains frequency more than %.0f dB below the loudest step "
+                            "taken for hum and left out",
+                       r->nhum, r->nhum == 1 ? "" : "s", ML_SWEEP_HUM_DB);
     if (unmeasured > 0)
         ml_report_note(rep, "%zu step%s could not be measured (reasons beside their figures)", unmeasured,
                        unmeasured == 1 ? "" : "s");

@@ -30,6 +30,10 @@
 /* if/iq: a step's tone modulates the carrier by at least 0.1 % (-60 dB re 100 %); weaker ripple
  * of the envelope (a quantised carrier's, hum's) is no step */
 #define ML_SWEEP_MIN_MOD_DB (-60.0)
+/* A steady tone within 1 % of a mains multiple (m x 50 or 60 Hz, m = 1..6) more than this far below
+ * the loudest step is hum heard in the pauses (or under a step lost in it), not a step: it is left
+ * out and counted (a real step at 50 Hz lies within a few tens of dB of the others) */
+#define ML_SWEEP_HUM_DB 30.0
 
 typedef struct {
     ml_measure_opts m;        /* input, analysis and output groups; m.in.path the FILE or "live" */
@@ -70,6 +74,7 @@ typedef struct {
     size_t nsteps;
     ml_sweep_meas *meas;      /* nsteps entries (malloc)                                           */
     uint64_t nfound;          /* steps dsp/steps.h found (more than ML_SWEEP_MAX_STEPS: refused)  */
+    size_t nhum;              /* of those, hum left out (ML_SWEEP_HUM_DB)                         */
 } ml_sweep_run;
 
 /* Pass 1 (analyzer/sweep_steps.c): finds the steps of r->seg (r->kind and r->o set; for if/iq

@@ -15,7 +15,8 @@
 #include "dsp/sweep.h"
 
 #define CHUNK_FRAMES 32768
-#define MAX_BANDWIDTH_HZ 10000.0 /* as measure: the widest channel filter chosen by itself */
+#define MAX_BANDWIDTH_HZ 20000.0 /* the widest channel filter chosen by itself: the audio band (a
+                                    step's harmonics need room; measure stops at 10 kHz) */
 
 void ml_sweep_run_free(ml_sweep_run *r)
 {
@@ -100,6 +101,7 @@ static ml_modulation_config mod_config(const ml_sweep_run *r, double c_prov, int
     ml_modulation_config mc = ml_modulation_config_default(r->seg->info->rate_hz, &r->ch, r->car.frequency_hz,
                                                            c_prov, span_frames);
     mc.bandwidth_hz = r->bw_hz;
+    mc.max_bandwidth_hz = MAX_BANDWIDTH_HZ;
     mc.peak_hold_s = an->peak_hold_ms / 1000.0;
     mc.window = an->window;
     mc.audio = an->audio;
@@ -164,6 +166,18 @@ static int steps_modulation(ml_sweep_run *r, ml_steps *steps, double carrier_hz)
     return rc;
 }
 
+/* A "step" at a mains multiple far below the loudest step is hum heard between the steps
+ * (analyzer/sweep.h). */
+static bool is_hum(double f_hz, double level_dbfs, double loudest_dbfs)
+{
+    if (!(level_dbfs < loudest_dbfs - ML_SWEEP_HUM_DB))
+        return false;
+    for (int m = 1; m <= 6; m++)
+        if (fabs(f_hz / (50.0 * m) - 1) <= 0.01 || fabs(f_hz / (60.0 * m) - 1) <= 0.01)
+            return true;
+    return false;
+}
+
 int ml_sweep_find_steps(ml_sweep_run *r, double carrier_hz)
 {
     const double rate = r->seg->info->rate_hz;
@@ -189,9 +203,19 @@ int ml_sweep_find_steps(ml_sweep_run *r, double carrier_hz)
                           r->o->m.in.path, (unsigned long long)r->nfound, ML_SWEEP_MAX_STEPS);
     if (rc == 0 && r->nfound > 0 && (r->meas = calloc((size_t)r->nfound, sizeof *r->meas)) == NULL)
         rc = ml_cli_error("%s: out of memory", r->o->m.in.path);
+    double loudest = -INFINITY;
     for (uint64_t i = 0; rc == 0 && i < r->nfound; i++) {
-        ml_sweep_meas *m = &r->meas[i];
+        ml_step st;
+        ml_steps_get(steps, i, &st);
+        loudest = fmax(loudest, st.level_dbfs);
+    }
+    for (uint64_t i = 0; rc == 0 && i < r->nfound; i++) {
+        ml_sweep_meas *m = &r->meas[r->nsteps];
         ml_steps_get(steps, i, &m->step);
+        if (is_hum(m->step.frequency_hz, m->step.level_dbfs, loudest)) {
+            r->nhum++;
+            continue;
+        }
         /* if/iq: envelope sample k is input sample edge + k */
         m->first = (int64_t)(m->step.measure_start + r->edge);
         m->nframes = (int64_t)(m->step.measure_end - m->step.measure_start);
@@ -256,7 +280,7 @@ static int measure_audio(ml_sweep_run *r, ml_sweep_meas *m)
 /* if/iq: the modulation analysis of the step's span, C fixed from pass 1 when it was heard. */
 static int measure_modulation(ml_sweep_run *r, ml_sweep_meas *m)
 {
-    if (!(m->frequency_hz < r->bw_hz)) {
+    if (m->frequency_hz > r->bw_hz) {
         m->why_not = "the tone lies outside the channel filter";
         return 0;
     }
@@ -267,6 +291,13 @@ static int measure_modulation(ml_sweep_run *r, ml_sweep_meas *m)
                                                                       : r->seg->nframes;
     const bool fixed = r->c_source == ML_C_REFERENCE || r->c_source == ML_C_QUIET;
     ml_modulation_config mc = mod_config(r, fixed ? r->c : r->car.amplitude, b - a);
+    /* the demodulated audio's bins (its spectrum keeps this width when it halves the rate) and a
+     * window that resolves a low tone there (dsp/sweep.h) */
+    const double rate = r->seg->info->rate_hz;
+    const size_t nfft = ml_resolution_nfft(rate, b - a - 2 * edge, mc.resolution);
+    if (nfft > 0)
+        mc.window = ml_sweep_window(m->frequency_hz / (rate / (double)nfft), mc.window);
+    m->window = mc.window;
     mc.audio.tone_hz = m->frequency_hz;
     mc.audio.tone_mode = ML_TONE_FORCE;
     mc.audio.band_lo_hz = fmin(mc.audio.band_lo_hz, m->frequency_hz / 2);

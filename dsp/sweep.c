@@ -85,15 +85,19 @@ ml_status ml_sweep_step_transform(double rate_hz, int64_t nframes, double tone_h
     cfg->nfft = nfft;
     cfg->hop = (double)nframes - (double)nfft < (double)(nfft / 4) ? (size_t)(nframes - (int64_t)nfft) : nfft / 4;
     cfg->remove_dc = 1;
-    const double bins = tone_hz / (rate_hz / (double)nfft);
+    cfg->window = ml_sweep_window(tone_hz / (rate_hz / (double)nfft), preferred);
+    return ML_OK;
+}
+
+ml_window_type ml_sweep_window(double tone_bins, ml_window_type preferred)
+{
+    if (preferred <= ML_WINDOW_RECT || preferred >= ML_WINDOW_COUNT)
+        preferred = ML_WINDOW_HFT248D;
     /* from the preferred window down to those of fewer terms (the enum lists them by terms) */
-    cfg->window = ML_WINDOW_HANN;
     for (int w = (int)preferred; w >= (int)ML_WINDOW_HANN; w--) {
         const double lobe = (double)ml_window_terms((ml_window_type)w) + 1.0;
-        if (bins >= 2.0 * lobe + 1.0) {
-            cfg->window = (ml_window_type)w;
-            break;
-        }
+        if (tone_bins >= 2.0 * lobe + 1.0)
+            return (ml_window_type)w;
     }
-    return ML_OK;
+    return ML_WINDOW_HANN;
 }

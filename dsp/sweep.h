@@ -62,4 +62,9 @@ ml_status ml_sweep_edge(const double *freq_hz, const double *rel_db, size_t n, s
 ml_status ml_sweep_step_transform(double rate_hz, int64_t nframes, double tone_hz, ml_window_type preferred,
                                   ml_spectrum_config *cfg);
 
+/* The window for a tone tone_bins bins above 0 Hz: the preferred one, or the next of fewer terms
+ * whose lobe resolves the tone (tone_bins >= 2 (terms + 1) + 1, see above), else Hann. A preferred
+ * type that is no window (RECT, out of range) counts as HFT248D. */
+ml_window_type ml_sweep_window(double tone_bins, ml_window_type preferred);
+
 #endif

@@ -89,7 +89,7 @@ def audio_fixture(path):
 def am_fixture(path, iq):
     """Stepped AM: carrier alone 0.5 s, then each step (1 s) and a pause of carrier (0.3 s)."""
     fc = 3000.0 if iq else 12000.0
-    freqs, depths = [100, 300, 1000, 2000, 4000], [0.3, 0.85]
+    freqs, depths = [50, 100, 300, 1000, 2000, 4000], [0.3, 0.85]
     h = lambda f: 1 / math.sqrt(1 + (f / 3000.0) ** 2)  # noqa: E731
     env, rows = [np.zeros(int(0.5 * RATE))], []
     for m in depths:
@@ -192,10 +192,11 @@ def check_am(exe, ck, iq):
         ck.close(tag + ": level re 1 kHz (0.1 dB)", p["relative_db"], 20 * math.log10(depth / ref), 0.1)
         ck.close(tag + ": index", p["index"], depth, 0.01 * depth + 0.002)
         ck.close(tag + ": carrier shift", p["carrier_shift_pct"], 0.0, 0.1)
-        if 2 * f < 10000:
-            ok = p["thd_pct"] is not None and abs(20 * math.log10(p["thd_pct"] / 1.0)) <= 0.3
-            ck.check(tag + ": envelope THD 1 % within 0.3 dB", ok and p["envelope_thd_pct"] == p["thd_pct"],
-                     "%r %r" % (p["thd_pct"], p["envelope_thd_pct"]))
+        # every step's 2nd harmonic lies in the channel (the widest that fits, up to 20 kHz), and a
+        # 50 Hz step's is resolved (a window of fewer terms, dsp/sweep.h)
+        ok = p["thd_pct"] is not None and abs(20 * math.log10(p["thd_pct"] / 1.0)) <= 0.3
+        ck.check(tag + ": envelope THD 1 % within 0.3 dB", ok and p["envelope_thd_pct"] == p["thd_pct"],
+                 "%r %r" % (p["thd_pct"], p["envelope_thd_pct"]))
     g = rep["sweep"]["groups"]
     ck.check(f"{kind}: two groups by modulation level", len(g) == 2, str(g))
     if len(g) == 2:
@@ -303,6 +304,28 @@ def check_pictures(exe, ck):
              + pdf.count(b"/Type /Page ") >= 1, "")
 
 
+def check_hum(exe, ck):
+    """50 Hz hum at -65 dBFS through 0.8 s pauses between -10 dBFS steps: steady enough to be a
+    step, far below the others (more than 30 dB, analyzer/sweep.h): left out, with a note; a real
+    50 Hz step at -20 dBFS stays."""
+    pieces = []
+    for f, lev in [(50, -20), (400, -10), (1000, -10), (3000, -10)]:
+        t = np.arange(RATE)
+        pieces.append(10 ** (lev / 20) * np.sin(2 * np.pi * f * t / RATE))
+        pieces.append(np.zeros(int(0.8 * RATE)))
+    x = np.concatenate(pieces)
+    n = np.arange(len(x))
+    x = x + 10 ** (-65 / 20) * np.sin(2 * np.pi * 50 * n / RATE) + 1e-6 * np.random.default_rng(2).standard_normal(len(x))
+    sf.write("hum.wav", x.astype(np.float32), RATE, subtype="FLOAT")
+    rc, rep, err = sweep_json(exe, ["hum.wav"])
+    ok = rc == 0 and rep is not None
+    ck.check("hum: exits 0", ok, err)
+    if ok:
+        f = [round(p["frequency_hz"]) for p in rep["sweep"]["points"]]
+        ck.check("hum: the steps, not the hum between them", f == [50, 400, 1000, 3000], str(f))
+        ck.check("hum: a note says so", any("taken for hum" in n for n in rep["notes"]), str(rep["notes"]))
+
+
 def check_usage(exe, ck):
     for args, word in [([], "FILE"), (["--freqs", "100", "audio.wav"], "--device"),
                        (["--play-tone", "1000", "audio.wav"], "--play-tone"),
@@ -329,6 +352,7 @@ def main():
         check_tone_plan(exe, ck)
         check_limits(exe, ck)
         check_pictures(exe, ck)
+        check_hum(exe, ck)
         check_usage(exe, ck)
     ck.finish()
 

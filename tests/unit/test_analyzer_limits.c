@@ -60,6 +60,11 @@ START_TEST(response_checks_per_point)
     ck_assert_double_eq(ml_limits_response_thd_max(&l.response, 100), 5);
     ck_assert_double_eq(ml_limits_response_thd_max(&l.response, 60), 7.5);
     ck_assert(isnan(ml_limits_response_thd_max(&l.response, 7500)));
+    /* an edge takes in points within 0.1 % of it, not further */
+    ck_assert_double_eq(ml_limits_response_thd_max(&l.response, 49.96), 7.5);
+    ck_assert(isnan(ml_limits_response_thd_max(&l.response, 49.9)));
+    ck_assert_double_eq(ml_limits_response_thd_max(&l.response, 5004), 5);
+    ck_assert(isnan(ml_limits_response_thd_max(&l.response, 5006)));
     static ml_report r;
     ml_report_series s;
     const double f[] = {50, 100, 1000, 5000, 7500}, rel[] = {-6, -1.5, 0, -2.5, -10}, thd[] = {6, 5.5, 1, NAN, 9};

@@ -147,6 +147,13 @@ START_TEST(step_transform_resolves_low_tones)
     /* too low for any: Hann */
     ck_assert_int_eq(ml_sweep_step_transform(48000, 19200, 10, ML_WINDOW_HFT248D, &c), ML_OK);
     ck_assert_int_eq(c.window, ML_WINDOW_HANN);
+    /* the window rule alone: 25 bins is HFT248D's least, 17 HFT144D's, 11 Blackman-Harris's */
+    ck_assert_int_eq(ml_sweep_window(25, ML_WINDOW_HFT248D), ML_WINDOW_HFT248D);
+    ck_assert_int_eq(ml_sweep_window(24.9, ML_WINDOW_HFT248D), ML_WINDOW_HFT144D);
+    ck_assert_int_eq(ml_sweep_window(16.9, ML_WINDOW_HFT248D), ML_WINDOW_BLACKMAN_HARRIS);
+    ck_assert_int_eq(ml_sweep_window(10.9, ML_WINDOW_HFT248D), ML_WINDOW_HANN);
+    ck_assert_int_eq(ml_sweep_window(100, ML_WINDOW_HFT144D), ML_WINDOW_HFT144D);
+    ck_assert_int_eq(ml_sweep_window(100, ML_WINDOW_RECT), ML_WINDOW_HFT248D);
     /* long steps: at most the default resolution (2^16 at 48 kHz) */
     ck_assert_int_eq(ml_sweep_step_transform(48000, 48000 * 60, 1000, ML_WINDOW_HFT248D, &c), ML_OK);
     ck_assert_uint_eq(c.nfft, ml_spectrum_config_default(48000).nfft);
