@@ -19,7 +19,8 @@ static const char *const single_tone[] = {
     "audio.sinad_db", "audio.snr_db",    "audio.enob_bits", "audio.noise_dbfs",
     "modulation.envelope_thd_pct", "modulation.noise_db",
 };
-static const char *const hum_figures[] = {"hum.mains_hz", "hum.level_dbfs", "hum.level_dbc", "modulation.hum_db"};
+static const char *const hum_figures[] = {"hum.mains_hz", "hum.level_dbfs", "hum.level_dbc",
+                                          "modulation.hum_db"};
 
 static bool on_mains(double f)
 {
@@ -61,8 +62,9 @@ static void withdraw(ml_report *rep, const ml_imd_result *r)
                                                   "(see imd.*)");
     drop_table(rep, "audio.harmonics");
     drop_note(rep, "no clear test tone"); /* the other tone counted as noise */
-    ml_report_qualify(rep, "audio.fundamental_hz", "two-tone IMD signal: one of the tones (imd.f1_hz, imd.f2_hz)");
-    ml_report_qualify(rep, "audio.fundamental_dbfs", "two-tone IMD signal: one of the tones (imd.f1_hz, imd.f2_hz)");
+    static const char one_of[] = "two-tone IMD signal: one of the tones (imd.f1_hz, imd.f2_hz)";
+    ml_report_qualify(rep, "audio.fundamental_hz", "%s", one_of);
+    ml_report_qualify(rep, "audio.fundamental_dbfs", "%s", one_of);
     ml_report_qualify(rep, "modulation.index_spectral", "two-tone IMD signal: the stronger tone's sidebands");
     if (on_mains(r->f1_hz) || on_mains(r->f2_hz)) {
         for (size_t i = 0; i < sizeof hum_figures / sizeof *hum_figures; i++)
@@ -76,7 +78,8 @@ static void figure(ml_report *rep, const char *name, double pct, bool upper)
 {
     ml_measure_add(rep, name, pct);
     if (upper)
-        ml_report_bound(rep, name, ML_BOUND_UPPER, "noise-limited: the products do not stand above the noise");
+        ml_report_bound(rep, name, ML_BOUND_UPPER,
+                        "noise-limited: the products do not stand above the noise");
 }
 
 void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an)
@@ -87,10 +90,12 @@ void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_op
     const ml_status st = ml_imd_analyze(spec, &an->imd, &r);
     if (st != ML_OK) {
         if (an->imd.method != ML_IMD_AUTO) { /* asked for: say why there is none */
-            const char *why = st == ML_ENOSIGNAL ? "two tones were not found" : "the tones lie outside the band";
+            const char *why =
+                st == ML_ENOSIGNAL ? "two tones were not found" : "the tones lie outside the band";
             const bool smpte = an->imd.method == ML_IMD_SMPTE;
             const char *names[3] = {smpte ? "imd.smpte_pct" : "imd.dfd2_pct",
-                                    smpte ? "imd.smpte_d2_pct" : "imd.dfd3_pct", smpte ? "imd.smpte_d3_pct" : NULL};
+                                    smpte ? "imd.smpte_d2_pct" : "imd.dfd3_pct",
+                                    smpte ? "imd.smpte_d3_pct" : NULL};
             for (int i = 0; i < 3 && names[i]; i++) {
                 ml_measure_add(rep, names[i], NAN);
                 ml_report_unmeasured(rep, names[i], "%s", why);
@@ -98,8 +103,9 @@ void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_op
         }
         return;
     }
-    ml_report_add_text(rep, "imd.method", r.method == ML_IMD_SMPTE ? (r.detected ? "smpte (detected)" : "smpte")
-                                                                   : (r.detected ? "dfd (detected)" : "dfd"));
+    const char *method = r.method == ML_IMD_SMPTE ? (r.detected ? "smpte (detected)" : "smpte")
+                                                  : (r.detected ? "dfd (detected)" : "dfd");
+    ml_report_add_text(rep, "imd.method", method);
     ml_measure_add(rep, "imd.f1_hz", r.f1_hz);
     ml_measure_add(rep, "imd.f2_hz", r.f2_hz);
     ml_measure_add(rep, "imd.ratio_db", r.ratio_db);
@@ -127,9 +133,9 @@ struct ml_imd_envelope {
     void *next_ctx;
 };
 
-ml_status ml_imd_envelope_create(const ml_analysis_opts *an, double rate_hz, int64_t frames, double bandwidth_hz,
-                                 double transition_hz, ml_modulation_envelope_fn next, void *next_ctx,
-                                 ml_imd_envelope **out)
+ml_status ml_imd_envelope_create(const ml_analysis_opts *an, double rate_hz, int64_t frames,
+                                 double bandwidth_hz, double transition_hz, ml_modulation_envelope_fn next,
+                                 void *next_ctx, ml_imd_envelope **out)
 {
     *out = NULL;
     ml_imd_envelope *e = calloc(1, sizeof *e);

@@ -40,9 +40,9 @@ typedef struct ml_imd_envelope ml_imd_envelope;
  * modulation analysis' own audio spectrum), ml_resolution_nfft points, no overlap; without a
  * spectrum (the hook only passes on) with --imd off or when frames are too few. ML_ENOMEM,
  * ML_EFFT. */
-ml_status ml_imd_envelope_create(const ml_analysis_opts *an, double rate_hz, int64_t frames, double bandwidth_hz,
-                                 double transition_hz, ml_modulation_envelope_fn next, void *next_ctx,
-                                 ml_imd_envelope **out);
+ml_status ml_imd_envelope_create(const ml_analysis_opts *an, double rate_hz, int64_t frames,
+                                 double bandwidth_hz, double transition_hz, ml_modulation_envelope_fn next,
+                                 void *next_ctx, ml_imd_envelope **out);
 void ml_imd_envelope_destroy(ml_imd_envelope *e); /* NULL is a no-op */
 /* The envelope hook (ctx: the ml_imd_envelope): into the spectrum, then to next. */
 void ml_imd_envelope_hook(void *ctx, const double *env, size_t n);

@@ -164,13 +164,15 @@ static bool response_bands(parse_ctx *c, const char *name, const char *value)
         double v[3];
         if (!colon_numbers(tok, v, 3, MAX_OFFSET_HZ) || !(v[0] > 0) || !(v[1] > v[0]) || !(v[2] > 0)
             || v[2] > 1000) {
-            fail(c, "key '%s': '%s' is not LO:HI:PCT with 0 < LO < HI <= 1e9 Hz and 0 < PCT <= 1000", name, tok);
+            fail(c, "key '%s': '%s' is not LO:HI:PCT with 0 < LO < HI <= 1e9 Hz and 0 < PCT <= 1000", name,
+                 tok);
             ok = false;
         } else if (rl->nbands >= ML_RESPONSE_MAX_BANDS) {
             fail(c, "key '%s': more than 16 bands%s", name, "");
             ok = false;
         } else if (rl->nbands > 0 && v[0] < rl->band_hi_hz[rl->nbands - 1]) {
-            fail(c, "key '%s': band '%s' overlaps the one before (bands ascend and may only touch)", name, tok);
+            fail(c, "key '%s': band '%s' overlaps the one before (bands ascend and may only touch)", name,
+                 tok);
             ok = false;
         } else {
             rl->band_lo_hz[rl->nbands] = v[0];
@@ -224,7 +226,8 @@ static int response_key(parse_ctx *c, const char *name, const char *value)
         if (!once(c, &c->seen_thd, "response", name) || !response_bands(c, name, value))
             return 0;
     } else {
-        fail(c, "key '%s': unknown key in [response] (expected range_hz, window_db or thd_max_pct)%s", name, "");
+        fail(c, "key '%s': unknown key in [response] (expected range_hz, window_db or thd_max_pct)%s", name,
+             "");
         return 0;
     }
     c->out->has_response = true;

@@ -268,7 +268,8 @@ static int segment(const ml_measure_opts *o, ml_segment *seg, const tone_feed *f
     *latency = -1;
     if (o->in.play) {
         int64_t onset = 0;
-        rc = ml_live_find_onset(o->in.path, o->in.channel, o->in.play_hz, seg, feed->preroll, &onset, latency);
+        rc = ml_live_find_onset(o->in.path, o->in.channel, o->in.play_hz, seg, feed->preroll, &onset,
+                                latency);
         if (rc == 0 && seg->first < onset + (int64_t)(SETTLE_S * rate))
             seg->first = onset + (int64_t)(SETTLE_S * rate);
     }

@@ -165,8 +165,8 @@ static int prepare(mod_pass *p, double carrier_hz)
     if (o->out.plot)
         ml_plots_begin_envelope(o->out.plot, seg->nframes, rate, ml_modulation_edge(p->mod), p->ch.has_ref);
     /* the envelope: to the intermodulation's spectrum, then to the picture */
-    if (ml_imd_envelope_create(&o->an, rate, seg->nframes, bw, transition, o->out.plot ? envelope_to_plot : NULL,
-                               o->out.plot, &p->imd)
+    if (ml_imd_envelope_create(&o->an, rate, seg->nframes, bw, transition,
+                               o->out.plot ? envelope_to_plot : NULL, o->out.plot, &p->imd)
         != ML_OK)
         return ml_cli_error("%s: out of memory", o->in.path);
     ml_modulation_on_envelope(p->mod, ml_imd_envelope_hook, p->imd);

@@ -277,7 +277,8 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
     case O_CREF: an->carrier_reference = arg; return 0;
     case O_IMD:
         if (!parse_imd(arg, an))
-            return ml_cli_error("--imd: '%s' is not auto, off, smpte[:FL,FH] or dfd[:F1,F2] (Hz, 0 < F1 < F2)",
+            return ml_cli_error("--imd: '%s' is not auto, off, smpte[:FL,FH] or dfd[:F1,F2] (Hz, "
+                                "0 < F1 < F2)",
                                 arg);
         an->imd_given = true;
         return 0;

@@ -95,7 +95,8 @@ static int sweep_parse(int argc, char **argv, ml_sweep_opts *o)
 {
     static const struct option own[] = {
         {"reference-hz", required_argument, NULL, O_REFERENCE}, {"freqs", required_argument, NULL, O_FREQS},
-        {"levels", required_argument, NULL, O_LEVELS},         {"step-seconds", required_argument, NULL, O_STEP_S},
+        {"levels", required_argument, NULL, O_LEVELS},
+        {"step-seconds", required_argument, NULL, O_STEP_S},
         {"pause-seconds", required_argument, NULL, O_PAUSE_S}, {"help", no_argument, NULL, 'h'},
         {NULL, 0, NULL, 0}};
     struct option longopts[64];
@@ -162,11 +163,11 @@ static int sweep_parse(int argc, char **argv, ml_sweep_opts *o)
         return ml_cli_error("--rate, --channels, --save and --output-device play and measure with --device; "
                             "a FILE is read as it is");
     if (o->plan.given)
-        return ml_cli_error("--freqs, --levels, --step-seconds and --pause-seconds play a plan with --device; "
-                            "a FILE's steps are found by themselves");
+        return ml_cli_error("--freqs, --levels, --step-seconds and --pause-seconds play a plan with "
+                            "--device; a FILE's steps are found by themselves");
     if (optind != argc - 1)
-        return ml_cli_error(optind >= argc ? "sweep needs one input FILE, or --device NAME to play and measure "
-                                             "(try 'modlens sweep --help')"
+        return ml_cli_error(optind >= argc ? "sweep needs one input FILE, or --device NAME to play and "
+                                             "measure (try 'modlens sweep --help')"
                                            : "sweep takes one input FILE; extra argument '%s'",
                             argv[argc - 1]);
     o->m.in.path = argv[optind];
@@ -206,8 +207,8 @@ static double pct_of(const ml_figure *fg)
 /* The level of a step in dB: audio dBFS, if/iq dB re 100 % modulation (10 lg(P / 0.5)). */
 static double level_db(const ml_sweep_meas *m)
 {
-    return m->analysed && m->level.state != ML_FIG_NONE && m->level.value > 0 ? 10 * log10(m->level.value / 0.5)
-                                                                             : NAN;
+    const bool ok = m->analysed && m->level.state != ML_FIG_NONE && m->level.value > 0;
+    return ok ? 10 * log10(m->level.value / 0.5) : NAN;
 }
 
 #define MAX_GROUPS 256 /* groups reported (a plan has at most 8 levels) */
@@ -355,8 +356,8 @@ static void add_groups(const ml_sweep_run *r, const sweep_points *sp, const grou
     else if (b == ML_BOUND_UPPER)
         ml_report_bound(rep, "sweep.thd_max_pct", ML_BOUND_UPPER, "the highest is a step's upper bound");
     if (sp->ngroups > 1)
-        ml_report_note(rep, "%zu groups (levels): sweep.reference_hz and the band edges are the first group's; "
-                            "sweep.groups lists each",
+        ml_report_note(rep, "%zu groups (levels): sweep.reference_hz and the band edges are the first "
+                            "group's; sweep.groups lists each",
                        sp->ngroups);
 }
 
@@ -452,7 +453,8 @@ static int report_points(ml_sweep_opts *o, const ml_sweep_run *r, ml_report *rep
     if (rc == 0)
         sp.ngroups = ml_sweep_group(sp.freq, n, GROUP_TOL_PCT, GROUP_TOL_HZ, sp.group);
     if (rc == 0 && sp.ngroups > MAX_GROUPS)
-        rc = ml_cli_error("%s: %zu groups of steps; at most %d are reported", o->m.in.path, sp.ngroups, MAX_GROUPS);
+        rc = ml_cli_error("%s: %zu groups of steps; at most %d are reported", o->m.in.path, sp.ngroups,
+                          MAX_GROUPS);
     if (rc == 0 && (gf = calloc(sp.ngroups ? sp.ngroups : 1, sizeof *gf)) == NULL)
         rc = ml_cli_error("%s: out of memory", o->m.in.path);
     for (size_t g = 0; rc == 0 && g < sp.ngroups; g++)
@@ -531,13 +533,14 @@ int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_repor
         return rc;
     ml_sweep_run r = {.o = o, .seg = seg, .kind = kind};
     rc = ml_sweep_find_steps(&r, carrier);
-    if (rc == 0 && r.nsteps > 0 && ml_report_series_alloc(ser, "sweep.points", "sweep points", r.nsteps) != ML_OK)
+    if (rc == 0 && r.nsteps > 0
+        && ml_report_series_alloc(ser, "sweep.points", "sweep points", r.nsteps) != ML_OK)
         rc = ml_cli_error("%s: out of memory", o->m.in.path);
     if (rc == 0)
         rc = ml_sweep_measure_steps(&r);
     if (rc == 0) {
-        ml_measure_describe(rep, &o->m, seg, kind == ML_KIND_AUDIO ? "audio" : kind == ML_KIND_IF ? "if" : "iq",
-                            reason);
+        const char *name = kind == ML_KIND_AUDIO ? "audio" : kind == ML_KIND_IF ? "if" : "iq";
+        ml_measure_describe(rep, &o->m, seg, name, reason);
         rep->series = ser;
         if (r.nsteps > 0)
             rc = report_points(o, &r, rep, ser);

@@ -80,7 +80,8 @@ static int plan_setup(ml_sweep_opts *o, double *rate, plan_feed *feed)
     feed->preroll = (uint64_t)llround(PREROLL_S * *rate);
     feed->tones = ml_synth_cycle_frames(feed->syn);
     if (dropped > 0)
-        fprintf(stderr, "modlens: sweep: %zu frequencies of the set lie at or above %.0f Hz and are left out\n",
+        fprintf(stderr, "modlens: sweep: %zu frequencies of the set lie at or above %.0f Hz and are left "
+                        "out\n",
                 dropped, *rate / 2);
     return 0;
 }
@@ -153,12 +154,14 @@ static void describe_capture(ml_report *rep, const ml_sweep_opts *o, const ml_li
         ml_report_note(rep, "%llu frames were lost (the computer fell behind the sound card)",
                        (unsigned long long)ls->lost_frames);
     if (ls->underflow_frames > 0)
-        ml_report_note(rep, "the played steps ran dry for %llu frames", (unsigned long long)ls->underflow_frames);
+        ml_report_note(rep, "the played steps ran dry for %llu frames",
+                       (unsigned long long)ls->underflow_frames);
     const ml_step_plan *p = &o->plan.plan;
     const ml_metric *found = ml_report_find(rep, "sweep.points");
     const size_t planned = p->nfreqs * p->nlevels;
     if (found && found->valid && (size_t)found->value != planned)
-        ml_report_note(rep, "%zu steps were played (%zu frequencies x %zu levels) and %.0f found in the capture",
+        ml_report_note(rep, "%zu steps were played (%zu frequencies x %zu levels) and %.0f found in the "
+                            "capture",
                        planned, p->nfreqs, p->nlevels, found->value);
 }
 
@@ -180,8 +183,8 @@ static int analyse_capture(ml_sweep_opts *o, int fd, const plan_feed *feed, ml_r
     if (kind == ML_KIND_AUDIO || kind == ML_KIND_AUTO) {
         int64_t onset = 0;
         ml_segment probe = seg;
-        rc = ml_live_find_onset(o->m.in.path, o->m.in.channel, o->plan.plan.freqs_hz[0], &probe, feed->preroll,
-                                &onset, latency);
+        rc = ml_live_find_onset(o->m.in.path, o->m.in.channel, o->plan.plan.freqs_hz[0], &probe,
+                                feed->preroll, &onset, latency);
         if (rc != 0 && kind == ML_KIND_AUTO) { /* perhaps an IF or I/Q capture: analysed without it */
             rc = 0;
             *latency = -1;

@@ -36,7 +36,8 @@ static int read_span(ml_sweep_run *r, int64_t first, int64_t n, chunk_fn *fn, vo
     if (ml_source_seek(seg->src, seg->first + first) != ML_OK)
         return ml_cli_error("%s: cannot seek to frame %lld: %s", name, (long long)(seg->first + first),
                             ml_source_detail(seg->src));
-    float *buf = malloc(CHUNK_FRAMES * r->ch.stride * sizeof *buf), *mono = malloc(CHUNK_FRAMES * sizeof *mono);
+    float *buf = malloc(CHUNK_FRAMES * r->ch.stride * sizeof *buf);
+    float *mono = malloc(CHUNK_FRAMES * sizeof *mono);
     int rc = buf && mono ? 0 : ml_cli_error("%s: out of memory", name);
     for (int64_t done = 0; rc == 0 && done < n;) {
         const size_t want = n - done < CHUNK_FRAMES ? (size_t)(n - done) : CHUNK_FRAMES;
@@ -132,7 +133,8 @@ static int modulation_setup(ml_sweep_run *r, double carrier_hz, double *c_file)
                             r->car.frequency_hz, iq ? "the band edge" : "0 Hz or the Nyquist frequency");
     *c_file = 0;
     if (o->an.carrier_reference)
-        return ml_input_reference_carrier(o->an.carrier_reference, &o->in, iq, rate, r->car.frequency_hz, c_file);
+        return ml_input_reference_carrier(o->an.carrier_reference, &o->in, iq, rate, r->car.frequency_hz,
+                                          c_file);
     return 0;
 }
 
@@ -312,7 +314,8 @@ static int measure_modulation(ml_sweep_run *r, ml_sweep_meas *m)
         st = ml_modulation_set_reference(e.mod, r->c);
     if (st != ML_OK) {
         ml_modulation_destroy(e.mod);
-        return ml_cli_error("%s: cannot set up the modulation analysis: %s", r->o->m.in.path, ml_strerror(st));
+        return ml_cli_error("%s: cannot set up the modulation analysis: %s", r->o->m.in.path,
+                            ml_strerror(st));
     }
     int rc = read_span(r, a, b - a, push_modulation, &e);
     ml_modulation_result res;

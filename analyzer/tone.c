@@ -203,7 +203,8 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         {"out", required_argument, NULL, O_OUT},           {"help", no_argument, NULL, 'h'},
         {"play", no_argument, NULL, O_PLAY},               {"device", required_argument, NULL, O_DEVICE},
         {"force", no_argument, NULL, O_FORCE},             {"freqs", required_argument, NULL, O_FREQS},
-        {"levels", required_argument, NULL, O_LEVELS},     {"step-seconds", required_argument, NULL, O_STEP_S},
+        {"levels", required_argument, NULL, O_LEVELS},
+        {"step-seconds", required_argument, NULL, O_STEP_S},
         {"pause-seconds", required_argument, NULL, O_PAUSE_S}, {"imd", required_argument, NULL, O_IMD},
         {NULL, 0, NULL, 0},
     };
@@ -434,9 +435,11 @@ static int check_tone(tone_opts *o)
     ml_synth_config *s = &o->syn;
     const double rate = (double)o->rate_hz, ny = rate / 2;
     s->rate_hz = rate;
-    const int kinds = (o->two_tone || o->imd) + o->silence + (s->nsteps > 0) + o->carrier_given + o->plan.given;
+    const int kinds =
+        (o->two_tone || o->imd) + o->silence + (s->nsteps > 0) + o->carrier_given + o->plan.given;
     if (kinds > 1)
-        return ml_cli_error("choose one signal: --two-tone (or --imd), --step, --freqs, --silence or --carrier");
+        return ml_cli_error("choose one signal: --two-tone (or --imd), --step, --freqs, --silence or "
+                            "--carrier");
     if (o->plan.given && !o->plan.freqs_given)
         return ml_cli_error("--levels, --step-seconds and --pause-seconds belong to a plan: give --freqs");
     int rc = plan_steps(o);

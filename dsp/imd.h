@@ -8,8 +8,9 @@
  *    together (19 + 20 kHz, 13 + 14 kHz).
  * Automatic detection (method ML_IMD_AUTO): the two strongest components whose lobes do not overlap,
  * each standing more than ML_IMD_CLEAR_DB above the noise a lobe holds at the median density of
- * the bins above DC's lobe (so that two peaks of noise or hum are no test signal); SMPTE when the lower lies below 500 Hz, the upper above 3 kHz and the lower is 6 to 18 dB stronger
- * (4:1 = 12 dB, +-6 dB); DFD when they lie within 3 dB of each other and f2 - f1 <= f2 / 4; else no
+ * the bins above DC's lobe (so that two peaks of noise or hum are no test signal); SMPTE when the
+ * lower lies below 500 Hz, the upper above 3 kHz and the lower is 6 to 18 dB stronger (4:1 = 12 dB,
+ * +-6 dB); DFD when they lie within 3 dB of each other and f2 - f1 <= f2 / 4; else no
  * IMD signal (ML_ENOSIGNAL). A forced method uses those two components (or the ones nearest to the
  * given frequencies) whatever their levels.
  *
@@ -29,8 +30,9 @@
  * lobe power is not more than noise_margin_db above that is below the noise: its U is an upper
  * bound, not a value (upper_bound; also a product of zero power where the noise is zero). A figure
  * is an upper bound when such products carry more than half of it (of the power for smpte_pct, of
- * the amplitude sum for the others), or when it is zero (a noiseless spectrum with no products). A product outside 0 < f <
- * Nyquist (its lobe clear of DC and Nyquist) is left out of the sums and counted in nskipped.
+ * the amplitude sum for the others), or when it is zero (a noiseless spectrum with no products).
+ * A product outside 0 < f < Nyquist (its lobe clear of DC and Nyquist) is left out of the sums and
+ * counted in nskipped.
  * References: [rp120] SMPTE RP120; [iec60268-3] IEC 60268-3 14.12.7, 14.12.8; [din45403] DIN 45403.
  */
 #ifndef ML_DSP_IMD_H

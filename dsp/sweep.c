@@ -83,7 +83,8 @@ ml_status ml_sweep_step_transform(double rate_hz, int64_t nframes, double tone_h
     while (nfft > 256 && (double)nfft + (double)(nfft / 8) > (double)nframes)
         nfft /= 2;
     cfg->nfft = nfft;
-    cfg->hop = (double)nframes - (double)nfft < (double)(nfft / 4) ? (size_t)(nframes - (int64_t)nfft) : nfft / 4;
+    const int64_t left = nframes - (int64_t)nfft;
+    cfg->hop = left < (int64_t)(nfft / 4) ? (size_t)left : nfft / 4;
     cfg->remove_dc = 1;
     cfg->window = ml_sweep_window(tone_hz / (rate_hz / (double)nfft), preferred);
     return ML_OK;

@@ -59,7 +59,8 @@ ml_status ml_plot_alloc_sweep(ml_plot_data *p, size_t n)
     s->thd_pct = malloc(n * sizeof *s->thd_pct);
     s->thd_upper = calloc(n, 1);
     s->group = calloc(n, sizeof *s->group);
-    if (s->freq_hz == NULL || s->rel_db == NULL || s->thd_pct == NULL || s->thd_upper == NULL || s->group == NULL)
+    if (s->freq_hz == NULL || s->rel_db == NULL || s->thd_pct == NULL || s->thd_upper == NULL
+        || s->group == NULL)
         return ML_ENOMEM;
     for (size_t i = 0; i < n; i++)
         s->freq_hz[i] = s->rel_db[i] = s->thd_pct[i] = NAN;

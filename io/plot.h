@@ -49,7 +49,8 @@ typedef struct {
     bool has_window;
     double win_lo_hz, win_hi_hz, win_min_db, win_max_db;
     size_t nbands;
-    double band_lo_hz[ML_PLOT_SWEEP_BANDS], band_hi_hz[ML_PLOT_SWEEP_BANDS], band_max_pct[ML_PLOT_SWEEP_BANDS];
+    double band_lo_hz[ML_PLOT_SWEEP_BANDS], band_hi_hz[ML_PLOT_SWEEP_BANDS];
+    double band_max_pct[ML_PLOT_SWEEP_BANDS];
 } ml_plot_sweep;
 
 typedef struct {

@@ -211,13 +211,14 @@ static void response_panel(cairo_t *cr, double x, double y, double w, double h, 
         const double x0 = isfinite(s->win_lo_hz) ? px(&a, s->win_lo_hz) : a.x,
                      x1 = isfinite(s->win_hi_hz) ? px(&a, s->win_hi_hz) : a.x + a.w;
         ml_colour(cr, ML_C_OBW);
-        cairo_rectangle(cr, x0, py(&a, s->win_max_db), x1 - x0, py(&a, s->win_min_db) - py(&a, s->win_max_db));
+        const double y0 = py(&a, s->win_max_db), y1 = py(&a, s->win_min_db);
+        cairo_rectangle(cr, x0, y0, x1 - x0, y1 - y0);
         cairo_fill(cr);
         ml_colour(cr, ML_C_MASK);
         cairo_set_line_width(cr, 1.0);
         const double dash[] = {4.0, 3.0};
         cairo_set_dash(cr, dash, 2, 0);
-        cairo_rectangle(cr, x0, py(&a, s->win_max_db), x1 - x0, py(&a, s->win_min_db) - py(&a, s->win_max_db));
+        cairo_rectangle(cr, x0, y0, x1 - x0, y1 - y0);
         cairo_stroke(cr);
         cairo_set_dash(cr, NULL, 0, 0);
     }
@@ -227,7 +228,8 @@ static void response_panel(cairo_t *cr, double x, double y, double w, double h, 
     legend(cr, &a, s);
 }
 
-static void thd_panel(cairo_t *cr, double x, double y, double w, double h, const ml_plot_sweep *s, size_t *idx)
+static void thd_panel(cairo_t *cr, double x, double y, double w, double h, const ml_plot_sweep *s,
+                      size_t *idx)
 {
     area a = {.logy = true};
     freq_range(s, &a);

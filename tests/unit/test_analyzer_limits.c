@@ -31,7 +31,8 @@ static ml_status load(const char *text, ml_limits *l, char *err, size_t len)
 }
 
 /* Points at f[n] with levels re the reference rel[n] and THD thd[n] (NAN: not measured). */
-static void points(ml_report *r, ml_report_series *s, const double *f, const double *rel, const double *thd, size_t n)
+static void points(ml_report *r, ml_report_series *s, const double *f, const double *rel, const double *thd,
+                   size_t n)
 {
     memset(r, 0, sizeof *r);
     ck_assert_int_eq(ml_report_series_alloc(s, "sweep.points", "sweep points", n), ML_OK);
@@ -67,7 +68,8 @@ START_TEST(response_checks_per_point)
     ck_assert(isnan(ml_limits_response_thd_max(&l.response, 5006)));
     static ml_report r;
     ml_report_series s;
-    const double f[] = {50, 100, 1000, 5000, 7500}, rel[] = {-6, -1.5, 0, -2.5, -10}, thd[] = {6, 5.5, 1, NAN, 9};
+    const double f[] = {50, 100, 1000, 5000, 7500}, rel[] = {-6, -1.5, 0, -2.5, -10};
+    const double thd[] = {6, 5.5, 1, NAN, 9};
     points(&r, &s, f, rel, thd, 5);
     ml_limits_apply(&l, &r);
     /* 50 Hz: outside range_hz, THD 6 <= 7.5: pass (one check) */

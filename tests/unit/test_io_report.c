@@ -607,14 +607,16 @@ START_TEST(series_in_every_format)
     ck_assert_msg(root != NULL, "not JSON: %s", e.text);
     json_t *pts = json_object_get(json_object_get(root, "sweep"), "points");
     ck_assert_uint_eq(json_array_size(pts), 3);
-    ck_assert_double_eq_tol(json_real_value(json_object_get(json_array_get(pts, 2), "relative_db")), -3.25, 1e-12);
+    ck_assert_double_eq_tol(json_real_value(json_object_get(json_array_get(pts, 2), "relative_db")), -3.25,
+                            1e-12);
     ck_assert(json_is_null(json_object_get(json_array_get(pts, 2), "thd_pct")));
     ck_assert_double_eq_tol(json_real_value(json_object_get(json_array_get(pts, 1), "start_s")), 1.5, 1e-12);
     ck_assert_str_eq(json_string_value(json_object_get(json_array_get(pts, 0), "verdict")), "pass");
     ck_assert(json_is_null(json_object_get(json_array_get(pts, 1), "verdict")));
     json_t *why = json_object_get(json_object_get(json_object_get(root, "reasons"), "sweep"), "points");
     ck_assert_uint_eq(json_array_size(why), 3);
-    ck_assert_str_eq(json_string_value(json_object_get(json_array_get(why, 2), "thd_pct")), "no harmonic in the band");
+    ck_assert_str_eq(json_string_value(json_object_get(json_array_get(why, 2), "thd_pct")),
+                     "no harmonic in the band");
     ck_assert_uint_eq(json_object_size(json_array_get(why, 0)), 0);
     json_t *b = json_object_get(json_object_get(json_object_get(root, "bounds"), "sweep"), "points");
     ck_assert_str_eq(json_string_value(json_object_get(json_array_get(b, 1), "thd_pct")), "upper");
