@@ -55,7 +55,7 @@ static const ml_metric_def defs[] = {
     {"hum.mains_hz", "Hz", 0, ML_BETTER_NONE},
     {"hum.level_dbfs", "dBFS", 2, ML_BETTER_LOWER},
     {"hum.level_dbc", "dBc", 2, ML_BETTER_LOWER},
-    {"sweep.points", "", 0, ML_BETTER_NONE},
+    {"sweep.steps", "", 0, ML_BETTER_NONE},
     {"sweep.reference_hz", "Hz", 2, ML_BETTER_NONE},
     {"sweep.lower_3db_hz", "Hz", 1, ML_BETTER_LOWER},
     {"sweep.upper_3db_hz", "Hz", 1, ML_BETTER_HIGHER},

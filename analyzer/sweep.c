@@ -336,7 +336,7 @@ static void add_groups(const ml_sweep_run *r, const sweep_points *sp, const grou
         t->cell[g][5] = gf[g].thd_max_pct;
         t->nrows++;
     }
-    ml_measure_add(rep, "sweep.points", (double)sp->n);
+    ml_measure_add(rep, "sweep.steps", (double)sp->n);
     const group_figs *g0 = &gf[0];
     ml_measure_add(rep, "sweep.reference_hz", g0->ref == SIZE_MAX ? NAN : sp->freq[g0->ref]);
     if (g0->ref == SIZE_MAX)
@@ -533,8 +533,9 @@ int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_repor
         return rc;
     ml_sweep_run r = {.o = o, .seg = seg, .kind = kind};
     rc = ml_sweep_find_steps(&r, carrier);
-    if (rc == 0 && r.nsteps > 0
-        && ml_report_series_alloc(ser, "sweep.points", "sweep points", r.nsteps) != ML_OK)
+    /* the series exists (perhaps empty) in every sweep report */
+    const size_t cap = r.nsteps ? r.nsteps : 1;
+    if (rc == 0 && ml_report_series_alloc(ser, "sweep.points", "sweep points", cap) != ML_OK)
         rc = ml_cli_error("%s: out of memory", o->m.in.path);
     if (rc == 0)
         rc = ml_sweep_measure_steps(&r);
@@ -545,7 +546,7 @@ int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_repor
         if (r.nsteps > 0)
             rc = report_points(o, &r, rep, ser);
         else
-            ml_measure_add(rep, "sweep.points", 0);
+            ml_measure_add(rep, "sweep.steps", 0);
         describe(o, &r, rep);
     }
     ml_sweep_run_free(&r);

@@ -157,7 +157,7 @@ static void describe_capture(ml_report *rep, const ml_sweep_opts *o, const ml_li
         ml_report_note(rep, "the played steps ran dry for %llu frames",
                        (unsigned long long)ls->underflow_frames);
     const ml_step_plan *p = &o->plan.plan;
-    const ml_metric *found = ml_report_find(rep, "sweep.points");
+    const ml_metric *found = ml_report_find(rep, "sweep.steps");
     const size_t planned = p->nfreqs * p->nlevels;
     if (found && found->valid && (size_t)found->value != planned)
         ml_report_note(rep, "%zu steps were played (%zu frequencies x %zu levels) and %.0f found in the "

@@ -566,7 +566,7 @@ static void series_sample(ml_report *r, ml_report_series *sr)
     r->analysed_s = 12.0;
     ck_assert_int_eq(ml_report_series_alloc(sr, "sweep.points", "sweep points", 3), ML_OK);
     r->series = sr;
-    ml_report_add(r, "sweep.points", "", 0, 3);
+    ml_report_add(r, "sweep.steps", "", 0, 3);
     const double f[3] = {100, 1000, 10000}, rel[3] = {-0.5, 0.0, -3.25}, thd[3] = {1.25, 0.0042, NAN};
     for (int k = 0; k < 3; k++) {
         ml_report_point *p = ml_report_series_add(sr, 1.5 * k, 1.25);
@@ -642,7 +642,7 @@ START_TEST(series_in_every_format)
     ck_assert_str_eq(cell(&t, k, "value"), "");
     ck_assert_str_eq(cell(&t, k, "reason"), "no harmonic in the band");
     ck_assert_str_eq(cell(&t, row_of(&t, "metric", "sweep.points[1].thd_pct"), "bound"), "upper");
-    ck_assert_str_eq(cell(&t, row_of(&t, "metric", "sweep.points"), "start_s"), "0.000000");
+    ck_assert_str_eq(cell(&t, row_of(&t, "metric", "sweep.steps"), "start_s"), "0.000000");
     free_table(&t);
     free(text);
     /* text: the table, the marks explained, the failed check, the verdict counting point checks */
