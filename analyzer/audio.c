@@ -10,6 +10,7 @@
 
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
+#include "analyzer/imd.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
@@ -139,6 +140,7 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
         ml_report_note(rep, "no clear test tone: the strongest component is less than 10 dB above the noise");
     ml_uncertainty_report(p->blocks, rep);
     ml_bench_audio_report(p->bench, &o->an, (int)o->in.channel, p->spec, &ar, ok, lv.rms_dbfs, rep);
+    ml_imd_report(rep, ok ? p->spec : NULL, &o->an); /* intermodulation: analyzer/imd.c */
     return 0;
 }
 

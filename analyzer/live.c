@@ -173,16 +173,16 @@ static void feed_tone(void *ctx, float *buf, size_t n)
  * P0 = preroll is A sin(2 pi f n / fs); its first sample above T (after scaling by the returned
  * amplitude) is n1, and the latency is (first captured sample above T) - (P0 + n1): exact for a
  * linear path, within a sample or two with noise. */
-static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t preroll, int64_t *onset,
-                      int64_t *latency)
+int ml_live_find_onset(const char *name, long channel, double tone_hz, ml_segment *seg, uint64_t preroll,
+                       int64_t *onset, int64_t *latency)
 {
     const double rate = seg->info->rate_hz;
     const int64_t noise_n = (int64_t)(NOISE_S * rate),
                   limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
-    const int64_t period = (int64_t)ceil(rate / o->in.play_hz);
+    const int64_t period = (int64_t)ceil(rate / tone_hz);
     ml_channels ch; /* the analysed channel, where the tone comes back */
-    if (ml_channels_map(seg->info->channels, o->in.channel, false, false, 0, &ch) != ML_OK)
-        return ml_cli_error("--channel %ld is not in the capture", o->in.channel);
+    if (ml_channels_map(seg->info->channels, channel, false, false, 0, &ch) != ML_OK)
+        return ml_cli_error("--channel %ld is not in the capture", channel);
     float *buf = malloc(ML_BLOCK_FRAMES * ch.stride * sizeof *buf),
           *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
     if (buf == NULL || mono == NULL) {
@@ -197,7 +197,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         size_t got = 0;
         ml_segment whole = *seg;
         whole.nframes = limit;
-        rc = ml_input_read(o->in.path, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
+        rc = ml_input_read(name, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
         if (rc == 0 && got < ML_BLOCK_FRAMES)
             rc = whole.failed ? ML_EXIT_USAGE
                               : ml_cli_error("live: the capture ended while waiting for the tone");
@@ -225,7 +225,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         return ml_cli_error("live: the played tone did not come back within %.1f s (threshold %.1f dBFS); "
                             "check the connection and the levels", ONSET_WAIT_S, 20 * log10(thr));
     int64_t n1 = 0;
-    while (amp * fabs(sin(2 * M_PI * o->in.play_hz * (double)n1 / rate)) <= thr && n1 < period)
+    while (amp * fabs(sin(2 * M_PI * tone_hz * (double)n1 / rate)) <= thr && n1 < period)
         n1++;
     *onset = j;
     *latency = j - ((int64_t)preroll + n1);
@@ -268,7 +268,8 @@ static int segment(const ml_measure_opts *o, ml_segment *seg, const tone_feed *f
     *latency = -1;
     if (o->in.play) {
         int64_t onset = 0;
-        rc = find_onset(o, seg, feed->preroll, &onset, latency);
+        rc = ml_live_find_onset(o->in.path, o->in.channel, o->in.play_hz, seg, feed->preroll, &onset,
+                                latency);
         if (rc == 0 && seg->first < onset + (int64_t)(SETTLE_S * rate))
             seg->first = onset + (int64_t)(SETTLE_S * rate);
     }

@@ -58,6 +58,9 @@ static void measure_usage(FILE *f)
         "                            %.0f dB of what the card itself resolves are marked card-limited\n"
         "  --card-correct            correct the tone's level in volts for the card's response\n"
         "  --no-settings             ignore the settings file (~/.config/modlens/settings.ini)\n"
+        "  --imd auto|off|smpte|dfd  intermodulation (default auto: measured when the signal is an\n"
+        "                            IMD test signal); smpte:FL,FH or dfd:F1,F2 force the method and\n"
+        "                            name the tones; THD and noise figures are then not measurable\n"
         "modulation analysis (if/iq):\n"
         "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
         "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
@@ -83,7 +86,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     /* measure and compare take the device options only to say whose they are */
     struct option longopts[64];
     ml_options_table(ML_OPTS_SOURCE | ML_OPTS_SEGMENT | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_REPORT
-                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE | ML_OPTS_LEVELS | ML_OPTS_BENCH,
+                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE | ML_OPTS_LEVELS | ML_OPTS_BENCH | ML_OPTS_IMD,
                      own, longopts, sizeof longopts / sizeof *longopts);
     const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);

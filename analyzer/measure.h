@@ -58,6 +58,12 @@ int ml_measure_command(int argc, char **argv, int ninputs, char *cmdline, ml_mea
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
 /* live's --help (analyzer/live.c). */
 void ml_live_usage(FILE *f);
+/* Where a tone of tone_hz played from frame `preroll` on (after silence) comes back in channel
+ * (1-based) of seg, read from its start (analyzer/live.c, 'live --play-tone'): *onset the first
+ * frame above the threshold (4 x the opening 0.1 s's peak, at least -70 dBFS), *latency the
+ * round trip in frames. 0 or an exit status (error printed, naming name). */
+int ml_live_find_onset(const char *name, long channel, double tone_hz, ml_segment *seg, uint64_t preroll,
+                       int64_t *onset, int64_t *latency);
 /* Fills the report's input description. */
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason);

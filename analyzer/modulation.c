@@ -19,6 +19,7 @@
 
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
+#include "analyzer/imd.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
@@ -75,6 +76,7 @@ typedef struct {
     ml_modulation_batch *batch[NBATCH];
     ml_stats stats[2];     /* the captured channel(s)                                          */
     float *ref;            /* the reference channel of a batch, for the trapezoid picture      */
+    ml_imd_envelope *imd;  /* the demodulated audio's intermodulation (analyzer/imd.h)          */
 } mod_pass;
 
 /* Checks the nominal carrier against the input and maps the channels. */
@@ -161,10 +163,14 @@ static int prepare(mod_pass *p, double carrier_hz)
         st = ML_ENOMEM;
     if (st != ML_OK)
         return ml_cli_error("%s: cannot set up the modulation analysis: %s", o->in.path, ml_strerror(st));
-    if (o->out.plot) {
+    if (o->out.plot)
         ml_plots_begin_envelope(o->out.plot, seg->nframes, rate, ml_modulation_edge(p->mod), p->ch.has_ref);
-        ml_modulation_on_envelope(p->mod, envelope_to_plot, o->out.plot);
-    }
+    /* the envelope: to the intermodulation's spectrum, then to the picture */
+    if (ml_imd_envelope_create(&o->an, rate, seg->nframes, bw, transition,
+                               o->out.plot ? envelope_to_plot : NULL, o->out.plot, &p->imd)
+        != ML_OK)
+        return ml_cli_error("%s: out of memory", o->in.path);
+    ml_modulation_on_envelope(p->mod, ml_imd_envelope_hook, p->imd);
     ml_stats_init(&p->stats[0], seg->info->bits);
     ml_stats_init(&p->stats[1], seg->info->bits);
     return 0;
@@ -306,6 +312,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
         ml_plots_modulation(o->out.plot, ml_modulation_get_spectrum(p->mod), &r,
                             o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL,
                             p->c_prov / r.c);
+    ml_imd_envelope_report(p->imd, rep, &o->an); /* intermodulation: analyzer/imd.c */
     return 0;
 }
 
@@ -321,6 +328,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     for (int k = 0; k < NBATCH; k++)
         ml_modulation_batch_destroy(p.batch[k]);
     ml_modulation_destroy(p.mod);
+    ml_imd_envelope_destroy(p.imd);
     free(p.ref);
     return rc;
 }

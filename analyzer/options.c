@@ -23,7 +23,8 @@ ml_analysis_opts ml_analysis_opts_default(void)
                               .peak_hold_ms = 5.0,
                               .full_scale_dbu = NAN,
                               .cal_source = "",
-                              .settings_text = ""};
+                              .settings_text = "",
+                              .imd = ml_imd_config_default()};
 }
 
 ml_output_opts ml_output_opts_default(void)
@@ -66,7 +67,8 @@ enum {
     O_NOSET,
     O_LOAD,
     O_CARD,
-    O_CARDCORR
+    O_CARDCORR,
+    O_IMD
 };
 
 static const struct {
@@ -106,6 +108,7 @@ static const struct {
     {{"load-ohms", required_argument, NULL, O_LOAD}, ML_OPTS_BENCH},
     {{"card", required_argument, NULL, O_CARD}, ML_OPTS_BENCH},
     {{"card-correct", no_argument, NULL, O_CARDCORR}, ML_OPTS_BENCH},
+    {{"imd", required_argument, NULL, O_IMD}, ML_OPTS_IMD},
 };
 
 size_t ml_options_table(unsigned groups, const struct option *own, struct option *out, size_t cap)
@@ -224,6 +227,40 @@ static int apply_input(int id, const char *arg, ml_input_opts *in)
     }
 }
 
+/* "auto", "off", "smpte" or "dfd", the last two optionally ":F1,F2" (Hz, 0 < F1 < F2). */
+static int parse_imd(const char *s, ml_analysis_opts *an)
+{
+    char buf[64], *tones;
+    double f1, f2;
+    if (!split_at(s, ':', buf, &tones))
+        return 0;
+    ml_imd_config c = ml_imd_config_default();
+    an->imd_off = false;
+    if (strcmp(buf, "off") == 0 || strcmp(buf, "auto") == 0) {
+        an->imd_off = strcmp(buf, "off") == 0;
+        an->imd = c;
+        return tones == NULL;
+    }
+    if (strcmp(buf, "smpte") == 0)
+        c.method = ML_IMD_SMPTE;
+    else if (strcmp(buf, "dfd") == 0)
+        c.method = ML_IMD_DFD;
+    else
+        return 0;
+    if (tones) {
+        char *f2_text = strchr(tones, ',');
+        if (f2_text == NULL)
+            return 0;
+        *f2_text++ = '\0';
+        if (!ml_cli_number(tones, &f1) || !ml_cli_number(f2_text, &f2) || !(f1 > 0) || !(f2 > f1))
+            return 0;
+        c.f1_hz = f1;
+        c.f2_hz = f2;
+    }
+    an->imd = c;
+    return 1;
+}
+
 static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
 {
     double v;
@@ -254,6 +291,13 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
     case O_CARRIER: return ml_cli_carrier(arg, &an->carrier_hz);
     case O_BANDWIDTH: return ml_cli_bandwidth(arg, &an->bandwidth_hz);
     case O_CREF: an->carrier_reference = arg; return 0;
+    case O_IMD:
+        if (!parse_imd(arg, an))
+            return ml_cli_error("--imd: '%s' is not auto, off, smpte[:FL,FH] or dfd[:F1,F2] (Hz, "
+                                "0 < F1 < F2)",
+                                arg);
+        an->imd_given = true;
+        return 0;
     case O_HOLD:
         if (!ml_cli_number(arg, &v) || v <= 0 || v >= 500)
             return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", arg);

@@ -12,6 +12,7 @@
 
 #include "analyzer/limits.h"
 #include "dsp/card.h"
+#include "dsp/imd.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -59,6 +60,9 @@ typedef struct {
     const ml_card_profile *card; /* the card profile loaded from card_path, or NULL              */
     const char *cal_source;   /* where full_scale_dbu comes from ("" none)                       */
     const char *settings_text; /* the settings applied, for the report ("" none)                 */
+    ml_imd_config imd;        /* --imd: auto (default), or a method and perhaps its tones         */
+    bool imd_off;             /* --imd off                                                       */
+    bool imd_given;           /* --imd was given                                                 */
 } ml_analysis_opts;
 
 /* Output: limits, the report and its pictures. */
@@ -83,6 +87,7 @@ enum {
     ML_OPTS_REPORT = 1 << 6,     /* --limits --format --output --plot --report                */
     ML_OPTS_LEVELS = 1 << 7,     /* --full-scale-dbu --calibration --no-settings              */
     ML_OPTS_BENCH = 1 << 8,      /* --load-ohms --card --card-correct                         */
+    ML_OPTS_IMD = 1 << 9,        /* --imd                                                     */
 };
 /* getopt ids: the groups' options use ML_OPT_ID_FIRST .. ML_OPT_ID_FIRST + 63; a command's own
  * options use ids from ML_OPT_ID_OWN on (or single characters). */

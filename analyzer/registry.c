@@ -69,6 +69,19 @@ static const ml_metric_def defs[] = {
     {"hum.level_dbu", "dBu", 2, ML_BETTER_LOWER},
     {"carrier.level_dbu", "dBu", 2, ML_BETTER_NONE},
     {"capture.rms_dbu", "dBu", 2, ML_BETTER_NONE},
+    {"sweep.steps", "", 0, ML_BETTER_NONE},
+    {"sweep.reference_hz", "Hz", 2, ML_BETTER_NONE},
+    {"sweep.lower_3db_hz", "Hz", 1, ML_BETTER_LOWER},
+    {"sweep.upper_3db_hz", "Hz", 1, ML_BETTER_HIGHER},
+    {"sweep.thd_max_pct", "%", 4, ML_BETTER_LOWER},
+    {"imd.f1_hz", "Hz", 2, ML_BETTER_NONE},
+    {"imd.f2_hz", "Hz", 2, ML_BETTER_NONE},
+    {"imd.ratio_db", "dB", 2, ML_BETTER_NONE},
+    {"imd.smpte_pct", "%", 4, ML_BETTER_LOWER},
+    {"imd.smpte_d2_pct", "%", 4, ML_BETTER_LOWER},
+    {"imd.smpte_d3_pct", "%", 4, ML_BETTER_LOWER},
+    {"imd.dfd2_pct", "%", 4, ML_BETTER_LOWER},
+    {"imd.dfd3_pct", "%", 4, ML_BETTER_LOWER},
 };
 
 const ml_metric_def *ml_registry_all(size_t *count)

@@ -228,3 +228,23 @@ const char *ml_values_short_name(const char *full)
         return full;
     return ml_registry_lookup(dot + 1, &amb) != NULL && !amb ? dot + 1 : full;
 }
+
+const ml_point_def *ml_values_point_def(const char *leaf)
+{
+    static const ml_point_def defs[] = {
+        {"group", "", 0},
+        {"frequency_hz", "Hz", 3},
+        {"level_dbfs", "dBFS", 3},
+        {"level_pct", "%", 3},
+        {"relative_db", "dB", 3},
+        {"index", "", 4},
+        {"carrier_shift_pct", "%", 3},
+        {"thd_pct", "%", 4},
+        {"envelope_thd_pct", "%", 4},
+        {"thdn_pct", "%", 4},
+    };
+    for (size_t i = 0; i < sizeof defs / sizeof defs[0]; i++)
+        if (strcmp(defs[i].leaf, leaf) == 0)
+            return &defs[i];
+    return NULL;
+}

@@ -74,6 +74,17 @@ size_t ml_values_capture_volts(double carrier_dbu, double rms_dbu, bool iq, ml_v
  * audio.noise_468_dbfs; hum -> hum.level_dbfs, hum.level_dbc, hum.level_dbu. With each name, in
  * card_db[], the card's own figure it was compared with (dB or dBFS). Returns the count. */
 size_t ml_values_card_limited(const ml_card_reach *r, const char **names, double *card_db, size_t cap);
+/* The figures of one point of a sweep (sweep.points[], analyzer/sweep.c), by their leaf names:
+ * group, frequency_hz, level_dbfs, level_pct, relative_db, index, carrier_shift_pct, thd_pct,
+ * envelope_thd_pct, thdn_pct. They are not registry metrics: a limits profile checks them in its
+ * [response] section (analyzer/limits.h). */
+typedef struct {
+    const char *leaf, *unit;
+    int decimals;
+} ml_point_def;
+
+/* The definition of the point figure leaf, or NULL. */
+const ml_point_def *ml_values_point_def(const char *leaf);
 
 /* The value named name among v[n] (full dotted name); NAN when absent. */
 double ml_values_find(const ml_value *v, size_t n, const char *name);

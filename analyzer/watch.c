@@ -241,9 +241,9 @@ static int parse(int argc, char **argv, watcher *w)
     const ml_measure_opts *o = &w->o;
     if (rc == 0
         && (o->in.play || o->in.save_path || o->out.plot_path || o->out.report_path || o->out.output_path
-            || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0))
+            || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0 || o->an.imd_given))
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
-                            "--reference-channel, --start or --duration (see 'modlens live')");
+                            "--reference-channel, --start, --duration or --imd (see 'modlens live')");
     return rc;
 }
 

@@ -111,6 +111,40 @@ typedef struct {
     double margin;    /* distance to the nearest limit, positive inside (0 if !valid)   */
 } ml_check;
 
+/* A series of points measured one after the other (a sweep's steps): each point carries its own
+ * figures, each an ml_metric named by its leaf ("thd_pct") with the states of a report's metrics
+ * (measured, bound, not measured with a reason, qualifier), the span of the input it was measured
+ * on, and its checks (metric = the figure's leaf). Every point has the same figures in the same
+ * order. Where they appear:
+ *   JSON  an array at the series' dotted path ("sweep.points"), one object per point: its figures
+ *         (null when not measured), "start_s" and "duration_s", and "verdict" ("pass", "fail", or
+ *         null without checks); "reasons", "qualifiers" and "bounds" hold an array at the same path
+ *         with one object per point (empty when it has none); "checks" lists the point checks too,
+ *         as "sweep.points[3].relative_db";
+ *   CSV   one "metric" row per figure, named "sweep.points[3].thd_pct", whose start_s and duration_s
+ *         are the point's span and whose limit columns are its check's;
+ *   text  a table, one line per point, marks "[k]" beside values with a bound, qualifier or
+ *         reason (explained under it), and the result of the point's checks;
+ *   PDF   as text.
+ * The report's verdict counts the point checks with the others. */
+#define ML_REPORT_POINT_FIGURES 12
+#define ML_REPORT_POINT_CHECKS 4
+
+typedef struct {
+    double start_s, duration_s;  /* the span measured, in seconds of the input                 */
+    size_t nfigures;
+    ml_metric figures[ML_REPORT_POINT_FIGURES];
+    size_t nchecks;
+    ml_check checks[ML_REPORT_POINT_CHECKS];
+} ml_report_point;
+
+typedef struct {
+    char path[64];               /* dotted path of the JSON array, e.g. "sweep.points"          */
+    char title[64];              /* heading in the text report                                   */
+    size_t npoints, cap;
+    ml_report_point *points;     /* cap entries, owned by the caller (ml_report_series_alloc)    */
+} ml_report_series;
+
 typedef struct {
     /* input */
     char path[ML_REPORT_PATH_LEN];
@@ -144,6 +178,7 @@ typedef struct {
     bool card_checked;       /* a card profile was in force: JSON "card_limited" is written  */
     size_t ncard_limited;
     char card_limited[ML_REPORT_MAX_CARD][64];
+    ml_report_series *series; /* points measured one by one (a sweep), or NULL               */
 } ml_report;
 
 typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_format;
@@ -189,8 +224,31 @@ const ml_metric *ml_report_find(const ml_report *r, const char *name);
 /* Appends a note (a warning or remark shown to the user). */
 void ml_report_note(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
-/* "pass" when every check passed, "fail" when one failed, "unchecked" without checks. */
+/* "pass" when every check passed, "fail" when one failed, "unchecked" without checks (the
+ * series' point checks counted with the others). */
 const char *ml_report_verdict(const ml_report *r);
+/* The checks of r, the series' point checks included: *total and *failed. */
+void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed);
+
+/* A series of cap points at path ("sweep.points") with its title: the points are allocated
+ * (zeroed), npoints 0. ML_ENOMEM, ML_EINVAL (cap 0 or above 1e6). Free with ml_report_series_free. */
+ml_status ml_report_series_alloc(ml_report_series *s, const char *path, const char *title, size_t cap);
+void ml_report_series_free(ml_report_series *s); /* frees the points and empties s */
+/* The next point (zeroed) of s, its span set; NULL when s is full. */
+ml_report_point *ml_report_series_add(ml_report_series *s, double start_s, double duration_s);
+/* Appends the figure leaf (e.g. "thd_pct") to point p; value NaN/inf: not measured. NULL when full. */
+ml_metric *ml_report_point_add(ml_report_point *p, const char *leaf, const char *unit, int decimals,
+                               double value);
+/* The figure of point p named leaf, or NULL. */
+ml_metric *ml_report_point_find(ml_report_point *p, const char *leaf);
+/* "pass" / "fail" for a point with checks, NULL without. */
+const char *ml_report_point_verdict(const ml_report_point *p);
+/* What a metric's mark says as the metric model's calls set it, usable on any ml_metric (a report's
+ * or a point's): not measured with a reason, or a bound and/or a qualifier. Each returns m. */
+ml_metric *ml_metric_missing(ml_metric *m, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+ml_metric *ml_metric_bound(ml_metric *m, ml_bound bound, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+ml_metric *ml_metric_qualify(ml_metric *m, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
 /* "upper", "lower" or "" for a bound. */
 const char *ml_report_bound_name(ml_bound b);
