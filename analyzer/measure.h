@@ -37,8 +37,16 @@ int ml_measure_analyse(ml_measure_opts *o, ml_report *rep);
 
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
 void ml_measure_add(ml_report *r, const char *name, double value);
-/* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
+/* The audio metrics (audio.*, hum.*) with their states, and their tables (the lines above the
+ * noise) from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
+/* The audio metrics, every one not measurable for the reason why (dsp/metrics.h). */
+void ml_measure_add_audio_none(ml_report *r, ml_audio_why why);
+/* The tone decision of a (dsp/metrics.h) as the text audio.measurement ("tone", or "hum and
+ * noise") and, without a clear tone, a note beginning with `what` ("the recording", "the
+ * demodulated audio") that says why and what the hum and noise are relative to (`re`: "full
+ * scale", "100 % modulation"). */
+void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *what, const char *re);
 
 /* ml_finish_prepare for o's inputs (the recording or recordings A and B, the carrier reference)
  * and outputs; 0 with *files to release by ml_finish_files_free, or an exit status (error

@@ -253,8 +253,8 @@ static void mask_values(const mod_pass *p, const ml_modulation_result *r, ml_rep
         return;
     double margin, woff;
     const ml_status st = ml_modulation_get_mask_margin(p->mod, &l->mask, &margin, &woff);
-    const ml_value v[] = {{"spectrum.mask_margin_db", st == ML_OK ? margin : NAN},
-                          {"spectrum.mask_worst_offset_hz", st == ML_OK ? woff : NAN}};
+    const ml_value v[] = {{.name = "spectrum.mask_margin_db", .value = st == ML_OK ? margin : NAN},
+                          {.name = "spectrum.mask_worst_offset_hz", .value = st == ML_OK ? woff : NAN}};
     ml_values_report(rep, v, 2);
     const double nyq = p->seg->info->rate_hz / 2, f = r->carrier_hz;
     if (st != ML_OK)
@@ -282,6 +282,8 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_values_report(rep, v + n - 1, 1);
     mask_values(p, &r, rep);
     ml_measure_add_audio(rep, &r.audio_result, r.audio_valid);
+    if (r.audio_valid)
+        ml_measure_tone_note(rep, &r.audio_result, "the demodulated audio", "100 % modulation");
     ml_level_figures lv;
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));

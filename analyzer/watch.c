@@ -47,7 +47,8 @@ static void watch_usage(FILE *f)
             "  --window-s S            length of the analysed window, 0.1..10 s (default %.1f)\n"
             "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
             "  --device, --rate, --channels   as for 'modlens live'\n"
-            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
+            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --no-tone,\n"
+            "  --with-tone, --harmonics,\n"
             "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits   as for 'modlens measure'\n"
             "\n"
             "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
@@ -237,7 +238,7 @@ static int open_input(watcher *w)
     sigaction(SIGTERM, &sa, &w->old_term);
     sigaction(SIGHUP, &sa, &w->old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
     double carrier_hz;
-    char reason[256];
+    char reason[384];
     w->seg.nframes = (int64_t)llround(DETECT_S * w->rate); /* the look ahead's limit */
     rc = ml_input_kind(&w->o.in, &w->o.an, &w->seg, DETECT_S, &w->kind, &carrier_hz, reason, sizeof reason);
     if (rc == 0)

@@ -114,7 +114,7 @@ typedef struct {
     /* input */
     char path[ML_REPORT_PATH_LEN];
     char kind[16];           /* "audio", "if", "iq"                                       */
-    char kind_reason[160];   /* why that kind                                              */
+    char kind_reason[384];   /* why that kind                                              */
     char format[64];
     double sample_rate_hz;
     int channels;

@@ -98,7 +98,7 @@ static void tables(FILE *f, const ml_report *r)
             fprintf(f, " %14s", tb->cols[c]);
         fputc('\n', f);
         if (tb->nrows == 0)
-            fprintf(f, "  (none within the band)\n");
+            fprintf(f, "  (none above the noise within the band)\n");
         for (size_t i = 0; i < tb->nrows; i++) {
             fputc(' ', f);
             for (size_t c = 0; c < tb->ncols; c++) {
