@@ -265,7 +265,7 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
         ml_report_note(rep, "input is silent: every analysed sample is zero");
     else if (!ok && st == ML_ENOSIGNAL)
         ml_report_note(rep, "no signal in the band %.1f..%.1f Hz (%s)", a->band_lo_hz, a->band_hi_hz,
-                       residue ? residue : "DC only?");
+                       residue ? residue : "nothing but DC");
     else if (!ok && st == ML_EINVAL) /* the only input-dependent cause: the band is too narrow for the bins */
         return ml_cli_error("%s: the band %.1f..%.1f Hz holds too few spectrum bins of %.1f Hz to analyse "
                             "(the sample rate is %.0f Hz); widen --band or give a longer recording",

@@ -12,6 +12,7 @@
 
 #include "analyzer/cli.h"
 #include "dsp/kind.h"
+#include "dsp/modulation.h"
 #include "dsp/resolution.h"
 #include "dsp/stats.h"
 
@@ -249,6 +250,15 @@ static int detect_if(const ml_input_opts *in, const ml_analysis_opts *an, ml_seg
         return ml_cli_error("%s: %s", in->path, ml_strerror(st));
     if (e.verdict == ML_CHANNEL_UNDECIDED) {
         snprintf(reason + used, len - used, "no signal found: audio");
+        return 0;
+    }
+    /* an AM channel needs room around its carrier (dsp/modulation.h: at least 100 Hz a side) */
+    double bw = 0, tr = 0;
+    if (e.verdict == ML_CHANNEL_IF
+        && ml_modulation_channel(seg->info->rate_hz, false, e.carrier_hz, 0, 10000.0, &bw, &tr) != ML_OK) {
+        snprintf(reason + used, len - used, "the strongest line (%.1f Hz) lies too close to the Nyquist frequency "
+                                            "for an AM channel around it: audio",
+                 e.carrier_hz);
         return 0;
     }
     *is_if = e.verdict == ML_CHANNEL_IF;

@@ -66,7 +66,8 @@ static void measure_usage(FILE *f)
         "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
         "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
         "\n"
-        "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
+        "Exit status: 0 all checks pass (or no limits), 1 a check fails or cannot be decided (a\n"
+        "noise-limited bound beyond its limit), 2 usage or input error.\n\n%s",
         ML_MAX_HARMONICS, ml_cli_safety);
 }
 

@@ -194,10 +194,13 @@ const char *ml_report_verdict(const ml_report *r)
 {
     if (r->nchecks == 0)
         return "unchecked";
-    for (size_t i = 0; i < r->nchecks; i++)
-        if (!r->checks[i].pass)
+    bool undecided = false;
+    for (size_t i = 0; i < r->nchecks; i++) {
+        if (!r->checks[i].pass && !r->checks[i].undecided)
             return "fail";
-    return "pass";
+        undecided = undecided || r->checks[i].undecided;
+    }
+    return undecided ? "undecided" : "pass";
 }
 
 void ml_report_limit_text(const ml_check *c, char *buf, size_t len)

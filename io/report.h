@@ -106,7 +106,9 @@ typedef struct {
     double value;
     bool has_min, has_max;
     double min, max;
-    bool pass;        /* valid and within both limits                                  */
+    bool pass;        /* valid and within both limits (a bound: wholly within them)    */
+    bool undecided;   /* a bound that reaches beyond a limit (an upper bound above a max,
+                         a lower bound below a min): neither pass nor fail; pass false  */
     double margin;    /* distance to the nearest limit, positive inside (0 if !valid)   */
 } ml_check;
 
@@ -176,7 +178,8 @@ const ml_metric *ml_report_find(const ml_report *r, const char *name);
 /* Appends a note (a warning or remark shown to the user). */
 void ml_report_note(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
-/* "pass" when every check passed, "fail" when one failed, "unchecked" without checks. */
+/* "fail" when a check failed, else "undecided" when a check is undecided (a bound beyond its
+ * limit), else "pass" when every check passed; "unchecked" without checks. */
 const char *ml_report_verdict(const ml_report *r);
 
 /* "upper", "lower" or "" for a bound. */

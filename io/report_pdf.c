@@ -314,9 +314,9 @@ static void metric_rows(doc *d, const ml_report *r)
             if (c->valid)
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
             put(cr, MX[5], b, lim);
-            ml_colour(cr, c->pass ? ML_C_PASS : ML_C_FAIL);
+            ml_colour(cr, c->pass ? ML_C_PASS : c->undecided ? ML_C_HEAD : ML_C_FAIL);
             font(cr, 7.8, true);
-            put(cr, MX[6], b, c->pass ? "PASS" : "FAIL");
+            put(cr, MX[6], b, c->pass ? "PASS" : c->undecided ? "UNDECIDED" : "FAIL");
             font(cr, 7.8, false);
             ml_colour(cr, ML_C_INK);
             put_right(cr, MX[7], b, margin);
@@ -470,7 +470,9 @@ static void measure_layout(doc *d, const measure_job *j, bool draw_pictures)
     if (strcmp(v, "unchecked") == 0)
         snprintf(b, sizeof b, "UNCHECKED: no limits given");
     else
-        snprintf(b, sizeof b, "%s: %zu of %zu checks passed", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",
+        snprintf(b, sizeof b, "%s: %zu of %zu checks passed", strcmp(v, "pass") == 0 ? "PASS"
+                                                               : strcmp(v, "undecided") == 0 ? "UNDECIDED"
+                                                                                             : "FAIL",
                  r->nchecks - failed, r->nchecks);
     verdict_box(d, strcmp(v, "fail") == 0 ? ML_C_FAIL : strcmp(v, "pass") == 0 ? ML_C_PASS : ML_C_HEAD, b);
     section(d, "Metrics");

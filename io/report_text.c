@@ -68,7 +68,7 @@ static void metrics(FILE *f, const ml_report *r)
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
-            res = c->pass ? "PASS" : "FAIL";
+            res = c->pass ? "PASS" : c->undecided ? "UNDECIDED" : "FAIL";
             if (c->valid)
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
         }
@@ -124,12 +124,17 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
             fprintf(f, "  - %s\n", t);
         }
     }
-    size_t failed = 0;
-    for (size_t i = 0; i < r->nchecks; i++)
+    size_t failed = 0, undecided = 0;
+    for (size_t i = 0; i < r->nchecks; i++) {
         failed += !r->checks[i].pass;
+        undecided += r->checks[i].undecided;
+    }
     const char *v = ml_report_verdict(r);
     if (strcmp(v, "unchecked") == 0)
         fprintf(f, "\nverdict: UNCHECKED (no limits given)\n");
+    else if (undecided > 0)
+        fprintf(f, "\nverdict: %s (%zu of %zu checks passed, %zu undecided: a bound reaches beyond its limit)\n",
+                strcmp(v, "fail") == 0 ? "FAIL" : "UNDECIDED", r->nchecks - failed, r->nchecks, undecided);
     else
         fprintf(f, "\nverdict: %s (%zu of %zu checks passed)\n", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",
                 r->nchecks - failed, r->nchecks);
