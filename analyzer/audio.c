@@ -29,8 +29,6 @@
 #include "dsp/spectrum.h"
 #include "dsp/stats.h"
 
-#define NOTE_EVENTS 4 /* dropouts listed by time in the note; the rest counted                   */
-
 typedef struct {
     ml_measure_opts *o;
     ml_segment *seg;
@@ -175,47 +173,6 @@ static int stream(audio_pass *p)
     return rc;
 }
 
-/* The dropouts as notes with their times; whether any sample was left out. A silence run still
- * going on at the end of a live capture marks the segment (the input stopped delivering). */
-static bool dropout_notes(audio_pass *p, ml_report *rep)
-{
-    ml_dropout_get(p->drop, p->dr);
-    const ml_dropout_result *r = p->dr;
-    const double rate = p->seg->info->rate_hz, t0 = (double)p->seg->first / rate;
-    if (r->nevents == 0)
-        return false;
-    const bool whole = r->nevents == 1 && r->nsilence == 1 && r->events[0].start == 0 && r->ongoing;
-    if (whole) {
-        ml_report_note(rep, "the input holds one value (%.6g) from start to end: %s", r->events[0].value,
-                       r->events[0].value == 0 ? "digital silence" : "a stuck converter, or DC alone");
-        return false;
-    }
-    char list[ML_REPORT_NOTE_LEN] = "";
-    size_t len = 0;
-    for (size_t i = 0; i < r->nstored && i < NOTE_EVENTS && len < sizeof list; i++) {
-        const ml_dropout_event *e = &r->events[i];
-        const double a = t0 + (double)e->start / rate, b = t0 + (double)(e->end + 1) / rate;
-        len += (size_t)snprintf(list + len, sizeof list - len, "%s", i ? "; " : "");
-        if (len < sizeof list && e->kind == ML_DROPOUT_SILENCE)
-            len += (size_t)snprintf(list + len, sizeof list - len, "%s %.3f-%.3f s",
-                                    e->value == 0 ? "silence" : "held value", a, b);
-        else if (len < sizeof list)
-            len += (size_t)snprintf(list + len, sizeof list - len, "discontinuity at %.3f s", a);
-    }
-    ml_report_note(rep, "dropouts left out of the figures (%zu: %zu silence, %zu discontinuit%s): %s%s", r->nevents,
-                   r->nsilence, r->nstep, r->nstep == 1 ? "y" : "ies", list,
-                   r->nevents > NOTE_EVENTS ? "; ..." : "");
-    if (r->ongoing && p->seg->live) {
-        const ml_dropout_event *e = &r->events[r->nstored - 1];
-        p->seg->went_silent = true;
-        p->seg->silent_from_s = t0 + (double)e->start / rate;
-    }
-    if (r->nevents > r->nstored)
-        ml_report_note(rep, "more than %d dropouts: those after the %dth are counted, not left out",
-                       ML_DROPOUT_MAX_EVENTS, ML_DROPOUT_MAX_EVENTS);
-    return true;
-}
-
 /* The analysis line, and the notes on the transform chosen for the capture's length. */
 static void describe_analysis(const audio_pass *p, ml_report *rep)
 {
@@ -248,7 +205,8 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     const ml_audio_config *a = &o->an.audio;
     const double rate = p->seg->info->rate_hz;
     ml_measure_describe(rep, o, p->seg, "audio", reason);
-    const bool excluded = dropout_notes(p, rep);
+    ml_dropout_get(p->drop, p->dr);
+    const bool excluded = ml_measure_dropout_notes(rep, p->seg, p->dr, true);
     /* the segments free of dropouts, when any are (else all of them, with the note above) */
     if (excluded && ml_spectrum_use_selected(p->spec, 1) != ML_OK)
         ml_report_note(rep, "every analysis segment holds a dropout: the figures include them");

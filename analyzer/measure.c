@@ -218,6 +218,41 @@ void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *wh
                    a->tone_why == ML_WHY_TONE_OFF ? "" : " (--with-tone takes it as the tone)");
 }
 
+bool ml_measure_dropout_notes(ml_report *rep, ml_segment *seg, const ml_dropout_result *r, bool left_out)
+{
+    enum { NOTE_EVENTS = 4 }; /* dropouts listed by time; the rest counted */
+    const double rate = seg->info->rate_hz, t0 = (double)seg->first / rate;
+    if (r->nevents == 0)
+        return false;
+    if (r->nevents == 1 && r->nsilence == 1 && r->events[0].start == 0 && r->ongoing) {
+        ml_report_note(rep, "the input holds one value (%.6g) from start to end: %s", r->events[0].value,
+                       r->events[0].value == 0 ? "digital silence" : "a stuck converter, or DC alone");
+        return false;
+    }
+    char list[ML_REPORT_NOTE_LEN] = "";
+    size_t len = 0;
+    for (size_t i = 0; i < r->nstored && i < NOTE_EVENTS && len < sizeof list; i++) {
+        const ml_dropout_event *e = &r->events[i];
+        const double a = t0 + (double)e->start / rate, b = t0 + (double)(e->end + 1) / rate;
+        if (e->kind == ML_DROPOUT_SILENCE)
+            len += (size_t)snprintf(list + len, sizeof list - len, "%s%s %.3f-%.3f s", i ? "; " : "",
+                                    e->value == 0 ? "silence" : "held value", a, b);
+        else
+            len += (size_t)snprintf(list + len, sizeof list - len, "%sdiscontinuity at %.3f s", i ? "; " : "", a);
+    }
+    ml_report_note(rep, "dropouts %s (%zu: %zu silence, %zu discontinuit%s): %s%s",
+                   left_out ? "left out of the figures" : "in the capture, not left out of the figures", r->nevents,
+                   r->nsilence, r->nstep, r->nstep == 1 ? "y" : "ies", list, r->nevents > NOTE_EVENTS ? "; ..." : "");
+    if (r->ongoing && seg->live) {
+        seg->went_silent = true;
+        seg->silent_from_s = t0 + (double)r->events[r->nstored - 1].start / rate;
+    }
+    if (left_out && r->nevents > r->nstored)
+        ml_report_note(rep, "more than %d dropouts: those after the %dth are counted, not left out",
+                       ML_DROPOUT_MAX_EVENTS, ML_DROPOUT_MAX_EVENTS);
+    return left_out;
+}
+
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason)
 {

@@ -12,6 +12,7 @@
 #include "analyzer/input.h"
 #include "analyzer/limits.h"
 #include "analyzer/options.h"
+#include "dsp/dropout.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -66,6 +67,11 @@ int ml_measure_command(int argc, char **argv, int ninputs, char *cmdline, ml_mea
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
 /* live's --help (analyzer/live.c). */
 void ml_live_usage(FILE *f);
+/* The dropouts r of the segment (dsp/dropout.h) as notes with their times (file time, s),
+ * saying whether they were left out of the figures; a silence run still going on at the end of a
+ * live capture marks seg->went_silent (the input stopped delivering). True when samples were
+ * left out (left_out, and not a capture that is one value from end to end). */
+bool ml_measure_dropout_notes(ml_report *rep, ml_segment *seg, const ml_dropout_result *r, bool left_out);
 /* Fills the report's input description. */
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason);
