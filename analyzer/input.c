@@ -78,6 +78,11 @@ int ml_input_open_device(const ml_input_opts *in, ml_live_config *lc, ml_segment
     lc->channels = (int)nch;
     char err[512] = "";
     memset(seg, 0, sizeof *seg);
+    /* --kind auto looks at the next channel too (an I/Q pair?) when the device has it */
+    int most = 0;
+    if (in->kind == ML_KIND_AUTO && in->channels == 0
+        && ml_audio_device_channels(in->device, true, &most, err, sizeof err) == ML_OK && most > nch)
+        lc->channels = (int)nch + 1;
     ml_status st = ml_source_open_live(lc, &seg->src, err, sizeof err);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", in->device ? in->device : "default input", err);

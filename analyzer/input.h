@@ -42,7 +42,9 @@ typedef struct {
  * start. 0 or an exit status (error printed); seg->src may be set either way (close it). */
 int ml_input_open_file(const ml_input_opts *in, ml_segment *seg);
 
-/* The channels a capture needs for in: --channels, else the analysed channel(s) and reference. */
+/* The channels a capture needs for in: --channels, else the analysed channel(s) and reference
+ * (ml_input_open_device opens one more for --kind auto when the device has it: the kind rule
+ * then sees whether the two are an I/Q pair). */
 long ml_input_device_channels(const ml_input_opts *in);
 
 /* Opens the device of in as a live source with lc (device, channels and --rate set from in;

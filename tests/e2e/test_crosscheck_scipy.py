@@ -373,8 +373,8 @@ def main():
             n_true = 2 * nb["s2"] * ref["nband"] / ref["nfft"] + hum_in_noise
             ck.close(name + " noise_dbfs = analytic", E.get(rep, "audio.noise_dbfs"),
                      10 * math.log10(n_true / 0.5), nb["noise_db"], "white noise in the band + hum")
-            print("  info %s: modlens thd %.6f%% thd+n %.6f%% snr %.3f dB noise %.3f dBFS; scipy %.6f%% "
-                  "%.6f%% %.3f dB %.3f dBFS; fit %.6f Hz %.5f dBFS" % (
+            print("  info %s: modlens thd %s%% thd+n %s%% snr %s dB noise %s dBFS; scipy %s%% "
+                  "%s%% %s dB %s dBFS; fit %.6f Hz %.5f dBFS" % (
                       name, E.get(rep, "audio.thd_pct"), E.get(rep, "audio.thdn_pct"),
                       E.get(rep, "audio.snr_db"), E.get(rep, "audio.noise_dbfs"), ref["audio.thd_pct"],
                       ref["audio.thdn_pct"], ref["audio.snr_db"], ref["audio.noise_dbfs"], f_fit,
