@@ -142,8 +142,9 @@ const char *ml_figures_no_signal(const ml_audio_result *a, double total_power)
      * holds only rounding residue and leakage (DC alone, or an unmodulated carrier). */
     if (!(a->band_power > 1e-20 * total_power))
         return "nothing but rounding residue, more than 200 dB below the input's power";
-    /* the reports' levels stop at -300 dB (ml_power_dbfs): below that a figure would be wrong */
-    if (!(a->fundamental_power > 1e-30 * 0.5))
-        return "the strongest component lies below -300 dBFS, the lowest level reported";
+    /* the reportable range ends at -ML_FIGURE_DB_LIMIT dBFS, far below any converter (a 32-bit
+     * integer's step is -186 dBFS): below it there is no signal to measure */
+    if (!(a->fundamental_power > 0.5 * pow(10.0, -ML_FIGURE_DB_LIMIT / 10.0)))
+        return "the strongest component lies below -290 dBFS, under any converter's resolution";
     return NULL;
 }

@@ -93,7 +93,7 @@ void ml_figures_level(const ml_stats *s, size_t n, ml_level_figures *out);
 /* NULL when the analysed band of a holds a measurable signal; otherwise why not, as a short
  * phrase for a note (a static string): the band's power B is more than 200 dB below total_power
  * (mean square of the whole input), so it holds only rounding residue and window leakage, or
- * P1 lies below the reports' -300 dBFS floor (ml_power_dbfs). */
+ * P1 lies below -ML_FIGURE_DB_LIMIT dBFS (the reportable range, dsp/metrics.h). */
 const char *ml_figures_no_signal(const ml_audio_result *a, double total_power);
 
 #endif
