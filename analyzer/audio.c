@@ -189,12 +189,14 @@ static void describe_analysis(const audio_pass *p, ml_report *rep)
                        ml_window_name(p->sc.window), ml_window_name(o->an.window));
     const double need_s = (double)p->plan.hum_min_frames / rate;
     if (!p->plan.hum_fundamental_resolved)
-        ml_report_note(rep, "hum not measurable: the capture (%.3f s) is too short to tell the mains frequency "
-                            "from DC (at least %.3f s needed)",
+        ml_report_note(rep,
+                       "hum not measurable: the capture (%.3f s) is too short to tell the mains frequency "
+                       "from DC (at least %.3f s needed)",
                        (double)p->seg->nframes / rate, need_s);
     else if (!p->plan.hum_resolved)
-        ml_report_note(rep, "the capture (%.3f s) resolves the mains fundamental but not every multiple: hum is "
-                            "a lower bound (%.3f s needed for all)",
+        ml_report_note(rep,
+                       "the capture (%.3f s) resolves the mains fundamental but not every multiple: hum is a "
+                       "lower bound (%.3f s needed for all)",
                        (double)p->seg->nframes / rate, need_s);
 }
 

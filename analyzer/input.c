@@ -197,7 +197,8 @@ static int channel_spectrum(const ml_input_opts *in, ml_segment *seg, int64_t fr
     free(buf);
     free(mono);
     if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path, ml_source_detail(seg->src));
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path,
+                          ml_source_detail(seg->src));
     return rc;
 }
 
@@ -230,7 +231,8 @@ static int pair_evidence(const ml_input_opts *in, ml_segment *seg, int64_t frame
         ml_pair_get(q, r);
     ml_pair_destroy(q);
     if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path, ml_source_detail(seg->src));
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path,
+                          ml_source_detail(seg->src));
     return rc;
 }
 
@@ -261,8 +263,9 @@ static int detect_if(const ml_input_opts *in, const ml_analysis_opts *an, ml_seg
     double bw = 0, tr = 0;
     if (e.verdict == ML_CHANNEL_IF
         && ml_modulation_channel(seg->info->rate_hz, false, e.carrier_hz, 0, 10000.0, &bw, &tr) != ML_OK) {
-        snprintf(reason + used, len - used, "the strongest line (%.1f Hz) lies too close to the Nyquist frequency "
-                                            "for an AM channel around it: audio",
+        snprintf(reason + used, len - used,
+                 "the strongest line (%.1f Hz) lies too close to the Nyquist frequency for an AM channel "
+                 "around it: audio",
                  e.carrier_hz);
         return 0;
     }
@@ -272,8 +275,8 @@ static int detect_if(const ml_input_opts *in, const ml_analysis_opts *an, ml_seg
     return 0;
 }
 
-int ml_input_kind(ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s, ml_kind *kind,
-                  double *carrier_hz, char *reason, size_t len)
+int ml_input_kind(ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
+                  ml_kind *kind, double *carrier_hz, char *reason, size_t len)
 {
     static const char *const given[] = {"", "--kind audio", "--kind if", "--kind iq"};
     *kind = in->kind;
@@ -298,15 +301,16 @@ int ml_input_kind(ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg
         ml_pair_reason(&pr, why, sizeof why);
         if (pr.verdict == ML_PAIR_IQ) {
             *kind = ML_KIND_IQ;
-            snprintf(reason + used, len - used, "channels %ld and %ld are %s: I/Q", in->channel, in->channel + 1,
-                     why);
+            snprintf(reason + used, len - used, "channels %ld and %ld are %s: I/Q", in->channel,
+                     in->channel + 1, why);
             return 0;
         }
         const long c1 = in->channel;
         if (pr.verdict == ML_PAIR_SILENT && pr.silent_channel == 1)
             in->channel++; /* the analysed channel is silent: the other one holds the signal */
-        used += (size_t)snprintf(reason + used, len - used, "channels %ld and %ld: %s; channel %ld read alone: ",
-                                 c1, c1 + 1, why, in->channel);
+        used += (size_t)snprintf(reason + used, len - used,
+                                 "channels %ld and %ld: %s; channel %ld read alone: ", c1, c1 + 1, why,
+                                 in->channel);
         if (used >= len)
             used = len - 1;
     }

@@ -398,7 +398,8 @@ void ml_limits_apply(const ml_limits *l, ml_report *r)
             const bool fails = (up && lim->has_min && m->value < lim->min)
                                || (!up && lim->has_max && m->value > lim->max);
             const bool open = (up && lim->has_max && m->value > lim->max) || (up && lim->has_min && !fails)
-                              || (!up && lim->has_min && m->value < lim->min) || (!up && lim->has_max && !fails);
+                              || (!up && lim->has_min && m->value < lim->min)
+                              || (!up && lim->has_max && !fails);
             c->pass = !fails && !open;
             c->undecided = !fails && open;
         }

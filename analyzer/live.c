@@ -105,8 +105,8 @@ int ml_cmd_devices(int argc, char **argv)
                               : dev[i].default_input                        ? "input"
                               : dev[i].default_output                       ? "output"
                                                                             : "";
-            printf("%3d  %-32s  %-24s  %6d  %7d  %7.0f  %s\n", dev[i].index, name, api, dev[i].max_input_channels,
-                   dev[i].max_output_channels, dev[i].default_rate_hz, def);
+            printf("%3d  %-32s  %-24s  %6d  %7d  %7.0f  %s\n", dev[i].index, name, api,
+                   dev[i].max_input_channels, dev[i].max_output_channels, dev[i].default_rate_hz, def);
         }
     }
     return fflush(stdout) == 0 && !ferror(stdout) ? ML_EXIT_OK : ml_cli_error("cannot write the list");
@@ -317,8 +317,9 @@ static void describe_capture(ml_report *rep, const ml_measure_opts *o, const ml_
                        seg->failed ? "the device failed" : "interrupted", (double)ls.captured_frames / rate,
                        o->in.seconds);
     if (seg->went_silent)
-        ml_report_note(rep, "capture incomplete: the input stopped delivering at %.3f s (digital silence from "
-                            "there to the end of the %.3f s capture%s)",
+        ml_report_note(rep,
+                       "capture incomplete: the input stopped delivering at %.3f s (digital silence from "
+                       "there to the end of the %.3f s capture%s)",
                        seg->silent_from_s, (double)ls.captured_frames / rate,
                        strcmp(rep->kind, "audio") == 0 ? ", left out of the figures" : "");
     if (ls.lost_frames > 0)

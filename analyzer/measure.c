@@ -207,8 +207,9 @@ void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *wh
     if (a->tone_present) {
         ml_report_add_text(r, "audio.measurement", "tone");
         if (a->tone_why == ML_WHY_TONE_FORCED && !a->tone_clear)
-            ml_report_note(r, "%s: the declared test tone at %.1f Hz does not stand %.0f dB clear of the noise "
-                              "around it (%.1f dB): read its figures with care",
+            ml_report_note(r,
+                           "%s: the declared test tone at %.1f Hz does not stand %.0f dB clear of the noise "
+                           "around it (%.1f dB): read its figures with care",
                            what, a->fundamental_hz, ML_TONE_CLEAR_DB, a->candidate_margin_db);
         return;
     }
@@ -238,11 +239,13 @@ bool ml_measure_dropout_notes(ml_report *rep, ml_segment *seg, const ml_dropout_
             len += (size_t)snprintf(list + len, sizeof list - len, "%s%s %.3f-%.3f s", i ? "; " : "",
                                     e->value == 0 ? "silence" : "held value", a, b);
         else
-            len += (size_t)snprintf(list + len, sizeof list - len, "%sdiscontinuity at %.3f s", i ? "; " : "", a);
+            len += (size_t)snprintf(list + len, sizeof list - len, "%sdiscontinuity at %.3f s", i ? "; " : "",
+                                    a);
     }
     ml_report_note(rep, "dropouts %s (%zu: %zu silence, %zu discontinuit%s): %s%s",
-                   left_out ? "left out of the figures" : "in the capture, not left out of the figures", r->nevents,
-                   r->nsilence, r->nstep, r->nstep == 1 ? "y" : "ies", list, r->nevents > NOTE_EVENTS ? "; ..." : "");
+                   left_out ? "left out of the figures" : "in the capture, not left out of the figures",
+                   r->nevents, r->nsilence, r->nstep, r->nstep == 1 ? "y" : "ies", list,
+                   r->nevents > NOTE_EVENTS ? "; ..." : "");
     if (r->ongoing && seg->live) {
         seg->went_silent = true;
         seg->silent_from_s = t0 + (double)r->events[r->nstored - 1].start / rate;

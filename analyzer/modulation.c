@@ -308,8 +308,8 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_dropout_result *dr = malloc(sizeof *dr);
     if (dr != NULL && ml_dropout_get(p->drop, dr) == ML_OK && dr->nevents > 0) {
         ml_measure_dropout_notes(rep, p->seg, dr, false);
-        ml_report_note(rep, "a dropout in an IF or I/Q capture is a gap in the carrier: the modulation figures "
-                            "read it as carrier pinch-off");
+        ml_report_note(rep, "a dropout in an IF or I/Q capture is a gap in the carrier: the modulation "
+                            "figures read it as carrier pinch-off");
     }
     free(dr);
     ml_modulation_uncertainty u;

@@ -101,7 +101,8 @@ size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bo
     out[n++] = plain("spectrum.occupied_bandwidth_hz", r->occupied_bandwidth_hz);
     for (size_t i = 0; i < n; i++) /* a figure not measured says why */
         if (!isfinite(out[i].value) && out[i].why == NULL)
-            out[i].why = strcmp(out[i].name, "carrier.offset_hz") == 0 ? "no nominal carrier given (--carrier)"
+            out[i].why = strcmp(out[i].name, "carrier.offset_hz") == 0
+                             ? "no nominal carrier given (--carrier)"
                          : strcmp(out[i].name, "modulation.carrier_shift_pct") == 0
                              ? "no unmodulated carrier in the capture: C is the mean envelope"
                          : strncmp(out[i].name, "modulation.", 11) == 0 && !r->audio_result.tone_present

@@ -118,7 +118,8 @@ static void plain_line(FILE *f, const ml_watch_view *v)
         for (size_t i = 0; i < sizeof PLAIN_MOD / sizeof *PLAIN_MOD; i++) {
             pv_registered(f, PLAIN_MOD[i], vals, n, v->have);
             if (i == 3) /* where C comes from, as in log's rows */
-                fprintf(f, " carrier_reference=%s", v->have && ml_values_c_word(m) ? ml_values_c_word(m) : "");
+                fprintf(f, " carrier_reference=%s",
+                        v->have && ml_values_c_word(m) ? ml_values_c_word(m) : "");
             if (i == 7) { /* the holds beside the peaks; decimals as the peaks' */
                 pv(f, "positive_peak_hold_pct", v->pos_hold_pct, 2);
                 pv(f, "negative_peak_hold_pct", v->neg_hold_pct, 2);

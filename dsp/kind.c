@@ -264,7 +264,8 @@ static bool symmetric(const ml_component *a, const ml_component *b, double floor
 
 /* The baseband line at bin c (excluding kf): its line power when it stands above the noise and
  * the floor, else 0. */
-static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, size_t kf, double floor)
+static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, size_t kf,
+                       double floor)
 {
     ml_component o;
     const size_t excl[1] = {kf};
@@ -339,7 +340,8 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
             r->sideband_hz = fm;
             r->sideband_dbc = dbc(ps, p1);
             const size_t cm = bin_of(fm, bin_hz);
-            const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
+            const double pb =
+                ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
             r->baseband_dbc = dbc(pb, p1);
             r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
             r->why = pb >= ps ? ML_IFW_SIDEBANDS_IMD : ML_IFW_SIDEBANDS;
@@ -447,8 +449,9 @@ char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
                  fc);
         break;
     case ML_IFW_NOISE:
-        snprintf(buf, n, "no line stands clear of the noise (the strongest, %.1f Hz, does not): noise or hum, "
-                         "no carrier: audio",
+        snprintf(buf, n,
+                 "no line stands clear of the noise (the strongest, %.1f Hz, does not): noise or hum, no "
+                 "carrier: audio",
                  fc);
         break;
     default:

@@ -48,7 +48,8 @@ ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, ch
 
 /* The most channels the device spec names offers (an input when input is true), as
  * ml_audio_device_rate. */
-ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail, size_t detail_len);
+ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail,
+                                   size_t detail_len);
 
 /* Generates the next nframes interleaved frames to play into buf[nframes * channels]. Called on
  * the thread that reads or writes, never in the audio callback. */

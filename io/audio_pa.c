@@ -282,7 +282,8 @@ ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, ch
     return st;
 }
 
-ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail, size_t detail_len)
+ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail,
+                                   size_t detail_len)
 {
     say(detail, detail_len, "%s", "");
     if (channels == NULL)

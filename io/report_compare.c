@@ -22,7 +22,8 @@ static void side_num(char *buf, size_t len, bool valid, double v, ml_bound b, in
 {
     char n[40];
     num(n, sizeof n, valid, v, decimals);
-    snprintf(buf, len, "%s%s", valid && b == ML_BOUND_UPPER ? "< " : valid && b == ML_BOUND_LOWER ? "> " : "", n);
+    snprintf(buf, len, "%s%s", valid && b == ML_BOUND_UPPER ? "< " : valid && b == ML_BOUND_LOWER ? "> " : "",
+             n);
 }
 
 static json_t *jnum(bool valid, double v, int decimals)
@@ -73,7 +74,8 @@ static ml_status write_text(FILE *f, const ml_comparison *c)
         char a[48], b[48], d[32], u[32];
         side_num(a, sizeof a, r->a_valid, r->a, r->a_bound, r->decimals);
         side_num(b, sizeof b, r->b_valid, r->b, r->b_bound, r->decimals);
-        const bool both = r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
+        const bool both =
+            r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
         if (both)
             ml_report_number(d, sizeof d, r->difference, r->decimals, true);
         else
@@ -128,7 +130,8 @@ static ml_status write_json(FILE *f, const ml_comparison *c)
     json_t *arr = json_array();
     for (size_t i = 0; i < c->nrows; i++) {
         const ml_compare_row *r = &c->rows[i];
-        const bool both = r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
+        const bool both =
+            r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
         json_t *o = json_object();
         json_object_set_new(o, "metric", json_string(r->metric));
         json_object_set_new(o, "a", jnum(r->a_valid, r->a, r->decimals));
@@ -184,7 +187,8 @@ static ml_status write_csv(FILE *f, const ml_comparison *c)
 {
     for (size_t i = 0; i < c->nrows; i++) {
         const ml_compare_row *r = &c->rows[i];
-        const bool both = r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
+        const bool both =
+            r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
         char a[48] = "", b[48] = "", d[48] = "", u[48] = "", lo[40] = "", hi[40] = "", ma[48] = "", mb[48] = "";
         if (r->a_valid)
             ml_report_number(a, sizeof a, r->a, r->decimals, false);

@@ -133,7 +133,8 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
     if (strcmp(v, "unchecked") == 0)
         fprintf(f, "\nverdict: UNCHECKED (no limits given)\n");
     else if (undecided > 0)
-        fprintf(f, "\nverdict: %s (%zu of %zu checks passed, %zu undecided: a bound reaches beyond its limit)\n",
+        fprintf(f,
+                "\nverdict: %s (%zu of %zu checks passed, %zu undecided: a bound reaches beyond its limit)\n",
                 strcmp(v, "fail") == 0 ? "FAIL" : "UNDECIDED", r->nchecks - failed, r->nchecks, undecided);
     else
         fprintf(f, "\nverdict: %s (%zu of %zu checks passed)\n", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",

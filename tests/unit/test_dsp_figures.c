@@ -99,7 +99,8 @@ START_TEST(figures_keep_state_and_reason)
     F->thdn = fig(ML_FIG_MEASURED, 1.01e-4, ML_WHY_OK);
     F->sinad = fig(ML_FIG_MEASURED, 1.0 / 1.01e-4, ML_WHY_OK);
     F->snr = fig(ML_FIG_LOWER, 1e6, ML_WHY_AT_FLOOR);
-    F->enob = fig(ML_FIG_MEASURED, (10 * log10(1.0 / 1.01e-4) - 10 * log10(1.5)) / (20 * log10(2.0)), ML_WHY_OK);
+    F->enob = fig(ML_FIG_MEASURED, (10 * log10(1.0 / 1.01e-4) - 10 * log10(1.5)) / (20 * log10(2.0)),
+                  ML_WHY_OK);
     F->noise = fig(ML_FIG_UPPER, 1e-6 * 0.05, ML_WHY_AT_FLOOR);
     F->noise_nohum = fig(ML_FIG_UPPER, 1e-6 * 0.05, ML_WHY_AT_FLOOR);
     F->hum = fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNRESOLVED);
