@@ -118,6 +118,12 @@ def check_no_tone(ck, exe):
         ck.close(f + " modulation.hum_db re 100 % modulation", E.get(rep, "modulation.hum_db"),
                  20 * math.log10(0.005), 0.1, "20 lg h, h = 0.005 by construction")
         ck.check(f + " hum.mains_hz 50 (the hum line stands above the noise)", E.get(rep, "hum.mains_hz") == 50)
+    # a pure carrier: its envelope is constant, DC's leakage at the band's edge is no tone
+    rc, rep, _, err = E.run_json(exe, ["pure_carrier.wav"])
+    if ck.check("pure_carrier runs", rc == 0 and rep is not None, err.strip()):
+        ck.check("pure_carrier: the demodulated audio holds no tone (DC's leakage is none)",
+                 rep["audio"]["measurement"] == "hum and noise" and rep["audio"]["fundamental_hz"] is None,
+                 "%r %r" % (rep["audio"].get("measurement"), rep["audio"].get("fundamental_hz")))
     rc, rep, _, err = E.run_json(exe, ["carrier_iq.wav"])
     if rep is not None:
         bw = 10000.0

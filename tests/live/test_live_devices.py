@@ -53,7 +53,7 @@ def main():
             # the defaults in words in the last column, as JSON has them
             head = lines[0].split() if lines else []
             ck.check("text: header names the columns, defaults in words",
-                     head[:2] == ["#", "device"] and lines[0].rstrip().endswith("default for"), lines[:1])
+                     head[:2] == ["#", "device"] and lines[0].rstrip().endswith("default for"), repr(lines[:1]))
             for d in devs:
                 row = next((l for l in lines[1:] if l.split()[:2] == [str(d["index"]), d["name"]]), "")
                 want = {(True, True): "input and output", (True, False): "input", (False, True): "output",
