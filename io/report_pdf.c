@@ -311,7 +311,7 @@ static void metric_rows(doc *d, const ml_report *r)
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
-            if (c->valid)
+            if (c->valid && !c->undecided) /* an undecided label fills the margin column */
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
             put(cr, MX[5], b, lim);
             ml_colour(cr, c->pass ? ML_C_PASS : c->undecided ? ML_C_HEAD : ML_C_FAIL);
@@ -385,7 +385,7 @@ static void tables(doc *d, const ml_report *r)
         if (tb->nrows == 0) {
             font(cr, 7.8, false);
             ml_colour(cr, ML_C_INK);
-            put(cr, MARGIN + 3, d->y + 8.3, "(none within the band)");
+            put(cr, MARGIN + 3, d->y + 8.3, "(none above the noise within the band)");
             d->y += ROW_H;
         }
         for (size_t i = 0; i < tb->nrows; i++) {
