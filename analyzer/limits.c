@@ -562,5 +562,18 @@ void ml_limits_apply(const ml_limits *l, ml_report *r)
             margin = lim->max - m->value;
         c->margin = margin;
         c->pass = margin >= 0;
+        /* a bound: the true value lies on one side of it. An upper bound at or below a max passes
+         * it, one below a min fails it for sure; otherwise nothing is known (and likewise for a
+         * lower bound with min and max swapped) */
+        if (m->bound != ML_BOUND_NONE) {
+            const bool up = m->bound == ML_BOUND_UPPER;
+            const bool fails = (up && lim->has_min && m->value < lim->min)
+                               || (!up && lim->has_max && m->value > lim->max);
+            const bool open = (up && lim->has_max && m->value > lim->max) || (up && lim->has_min && !fails)
+                              || (!up && lim->has_min && m->value < lim->min)
+                              || (!up && lim->has_max && !fails);
+            c->pass = !fails && !open;
+            c->undecided = !fails && open;
+        }
     }
 }

@@ -75,8 +75,12 @@ typedef struct {
  * writes "line N: key 'k': problem" (or the system error) to err[errlen]. */
 ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t errlen);
 
-/* Adds one check per limited metric to r (a metric missing from r is a failed, invalid check),
- * and with a [response] section the checks of each point of r's series (see above). */
+/* Adds one check per limited metric to r (a metric missing from r, or not measured, is a failed,
+ * invalid check), and with a [response] section the checks of each point of r's series (see
+ * above). A metric that is a bound (io/report.h) passes only when the whole range it allows lies
+ * within the limits (an upper bound at or below a max, a lower bound at or above a min), fails
+ * when none of it does (an upper bound below a min, a lower bound above a max), and is otherwise
+ * undecided (ml_check.undecided: neither pass nor fail). */
 void ml_limits_apply(const ml_limits *l, ml_report *r);
 
 /* The THD ceiling of [response] for a point at f_hz: the lowest PCT of the bands holding it;

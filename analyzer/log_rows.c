@@ -167,6 +167,13 @@ void ml_log_fmt_num(char *b, size_t n, double v, int decimals)
         b[0] = '\0';
 }
 
+/* A level cell in dBFS: empty (NAN) beyond the reportable range (analyzer/values.h), where a
+ * reading is a floor value (-300 for silence), never a measurement. */
+static double level_db(double v)
+{
+    return ml_values_in_range("audio.rms_dbfs", v) ? v : NAN;
+}
+
 /* The level columns of the interval: rms, peak, A-weighted, crest (dsp/figures.h). */
 static size_t level_cells(const ml_logger *L, char *b, size_t n)
 {
@@ -182,9 +189,9 @@ static size_t level_cells(const ml_logger *L, char *b, size_t n)
         ml_bench_log_levels(&L->o->an, &rms, &pk, &aw);
     }
     char c[4][24];
-    ml_log_fmt_num(c[0], 24, rms, 2);
-    ml_log_fmt_num(c[1], 24, pk, 2);
-    ml_log_fmt_num(c[2], 24, aw, 2);
+    ml_log_fmt_num(c[0], 24, level_db(rms), 2);
+    ml_log_fmt_num(c[1], 24, level_db(pk), 2);
+    ml_log_fmt_num(c[2], 24, level_db(aw), 2);
     ml_log_fmt_num(c[3], 24, crest, 2);
     return (size_t)snprintf(b, n, "%s,%s,%s,%s", c[0], c[1], c[2], c[3]);
 }
@@ -229,10 +236,10 @@ static size_t spectral_cells(ml_logger *L, char *b, size_t n)
     }
     char c[3][24], hs[ML_LOG_HUM_N][24];
     ml_log_fmt_num(c[0], 24, mains, 0);
-    ml_log_fmt_num(c[1], 24, hum, 2);
-    ml_log_fmt_num(c[2], 24, fl, 2);
+    ml_log_fmt_num(c[1], 24, level_db(hum), 2);
+    ml_log_fmt_num(c[2], 24, level_db(fl), 2);
     for (int i = 0; i < ML_LOG_HUM_N; i++)
-        ml_log_fmt_num(hs[i], 24, h[i], 2);
+        ml_log_fmt_num(hs[i], 24, level_db(h[i]), 2);
     return (size_t)snprintf(b, n, "%s,%s,%s,%s,%s,%s,%s,%s,%s", c[0], c[1], hs[0], hs[1], hs[2], hs[3], hs[4],
                             hs[5], c[2]);
 }

@@ -26,6 +26,7 @@
 #include "analyzer/values.h"
 #include "analyzer/worker.h"
 #include "dsp/carrier.h"
+#include "dsp/dropout.h"
 #include "dsp/figures.h"
 #include "dsp/metrics.h"
 #include "dsp/modulation.h"
@@ -77,6 +78,8 @@ typedef struct {
     ml_stats stats[2];     /* the captured channel(s)                                          */
     float *ref;            /* the reference channel of a batch, for the trapezoid picture      */
     ml_imd_envelope *imd;  /* the demodulated audio's intermodulation (analyzer/imd.h)          */
+    ml_dropout *drop;      /* dropouts of the captured (I) channel, reported as notes          */
+    float *col;            /* that channel of a batch                                          */
 } mod_pass;
 
 /* Checks the nominal carrier against the input and maps the channels. */
@@ -173,6 +176,9 @@ static int prepare(mod_pass *p, double carrier_hz)
     ml_modulation_on_envelope(p->mod, ml_imd_envelope_hook, p->imd);
     ml_stats_init(&p->stats[0], seg->info->bits);
     ml_stats_init(&p->stats[1], seg->info->bits);
+    const ml_dropout_config dc = ml_dropout_config_default(rate);
+    if (ml_dropout_create(&dc, &p->drop) != ML_OK || (p->col = malloc(BATCH_FRAMES * sizeof *p->col)) == NULL)
+        return ml_cli_error("%s: out of memory", o->in.path);
     return 0;
 }
 
@@ -208,6 +214,8 @@ static int stream(mod_pass *p)
         }
         if (rc != 0)
             break;
+        ml_channels_split(&p->ch, raw, got, p->col, NULL);
+        ml_dropout_push(p->drop, p->col, got);
         if (o->out.plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_channels_split_ref(&p->ch, raw, got, p->ref);
             ml_plots_input(o->out.plot, done, p->ch.has_ref ? p->ref : NULL, got);
@@ -260,8 +268,8 @@ static void mask_values(const mod_pass *p, const ml_modulation_result *r, ml_rep
         return;
     double margin, woff;
     const ml_status st = ml_modulation_get_mask_margin(p->mod, &l->mask, &margin, &woff);
-    const ml_value v[] = {{"spectrum.mask_margin_db", st == ML_OK ? margin : NAN},
-                          {"spectrum.mask_worst_offset_hz", st == ML_OK ? woff : NAN}};
+    const ml_value v[] = {{.name = "spectrum.mask_margin_db", .value = st == ML_OK ? margin : NAN},
+                          {.name = "spectrum.mask_worst_offset_hz", .value = st == ML_OK ? woff : NAN}};
     ml_values_report(rep, v, 2);
     const double nyq = p->seg->info->rate_hz / 2, f = r->carrier_hz;
     if (st != ML_OK)
@@ -289,6 +297,8 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_values_report(rep, v + n - 1, 1);
     mask_values(p, &r, rep);
     ml_measure_add_audio(rep, &r.audio_result, r.audio_valid);
+    if (r.audio_valid)
+        ml_measure_tone_note(rep, &r.audio_result, "the demodulated audio", "100 % modulation");
     ml_level_figures lv;
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
@@ -303,6 +313,13 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
              r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->an.window), r.rf_nfft,
              r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms);
     notes(p, &r, &lv, rep);
+    ml_dropout_result *dr = malloc(sizeof *dr);
+    if (dr != NULL && ml_dropout_get(p->drop, dr) == ML_OK && dr->nevents > 0) {
+        ml_measure_dropout_notes(rep, p->seg, dr, false);
+        ml_report_note(rep, "a dropout in an IF or I/Q capture is a gap in the carrier: the modulation "
+                            "figures read it as carrier pinch-off");
+    }
+    free(dr);
     ml_modulation_uncertainty u;
     ml_modulation_get_uncertainty(p->mod, &u);
     ml_values_report_u(rep, v, ml_values_modulation_u(&u, v));
@@ -329,6 +346,8 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
         ml_modulation_batch_destroy(p.batch[k]);
     ml_modulation_destroy(p.mod);
     ml_imd_envelope_destroy(p.imd);
+    ml_dropout_destroy(p.drop);
     free(p.ref);
+    free(p.col);
     return rc;
 }

@@ -50,6 +50,8 @@ enum {
     O_OUTDEV,
     O_BAND,
     O_TONE,
+    O_NOTONE,
+    O_WITHTONE,
     O_HARMONICS,
     O_MAINS,
     O_WINDOW,
@@ -90,6 +92,8 @@ static const struct {
     {{"output-device", required_argument, NULL, O_OUTDEV}, ML_OPTS_CAPTURE},
     {{"band", required_argument, NULL, O_BAND}, ML_OPTS_AUDIO},
     {{"tone", required_argument, NULL, O_TONE}, ML_OPTS_AUDIO},
+    {{"no-tone", no_argument, NULL, O_NOTONE}, ML_OPTS_AUDIO},
+    {{"with-tone", no_argument, NULL, O_WITHTONE}, ML_OPTS_AUDIO},
     {{"harmonics", required_argument, NULL, O_HARMONICS}, ML_OPTS_AUDIO},
     {{"mains", required_argument, NULL, O_MAINS}, ML_OPTS_AUDIO},
     {{"window", required_argument, NULL, O_WINDOW}, ML_OPTS_AUDIO},
@@ -273,7 +277,18 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
     case O_TONE:
         if (!ml_cli_number(arg, &v) || v <= 0)
             return ml_cli_error("--tone: '%s' is not a frequency in Hz > 0", arg);
+        if (an->audio.tone_mode == ML_TONE_NONE)
+            return ml_cli_error("--tone and --no-tone contradict each other");
         an->audio.tone_hz = v;
+        return 0;
+    case O_NOTONE:
+    case O_WITHTONE:
+        if (an->audio.tone_mode != ML_TONE_AUTO
+            && an->audio.tone_mode != (id == O_NOTONE ? ML_TONE_NONE : ML_TONE_FORCE))
+            return ml_cli_error("--no-tone and --with-tone contradict each other");
+        if (id == O_NOTONE && an->audio.tone_hz > 0)
+            return ml_cli_error("--tone and --no-tone contradict each other");
+        an->audio.tone_mode = id == O_NOTONE ? ML_TONE_NONE : ML_TONE_FORCE;
         return 0;
     case O_HARMONICS:
         if (!ml_cli_int(arg, &n) || n < 2 || n > ML_MAX_HARMONICS)

@@ -44,7 +44,7 @@ typedef struct {
 
 /* Analysis: the audio figures' band and window, the carrier and the channel. */
 typedef struct {
-    ml_audio_config audio;    /* --band, --tone, --harmonics, --mains                           */
+    ml_audio_config audio;    /* --band, --tone, --no-tone, --with-tone, --harmonics, --mains    */
     ml_window_type window;    /* --window                                                        */
     double carrier_hz;        /* --carrier: NAN = detect                                          */
     double bandwidth_hz;      /* --bandwidth: 0 = widest that fits, at most 10 kHz                */
@@ -82,7 +82,7 @@ enum {
     ML_OPTS_SEGMENT = 1 << 1,    /* --start --duration                                        */
     ML_OPTS_DEVICE = 1 << 2,     /* --device --rate --channels --seconds                      */
     ML_OPTS_CAPTURE = 1 << 3,    /* --save --play-tone --output-device                        */
-    ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --harmonics --mains --window                */
+    ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --no-tone --with-tone --harmonics --mains --window */
     ML_OPTS_MODULATION = 1 << 5, /* --carrier --bandwidth --carrier-reference --peak-hold-ms  */
     ML_OPTS_REPORT = 1 << 6,     /* --limits --format --output --plot --report                */
     ML_OPTS_LEVELS = 1 << 7,     /* --full-scale-dbu --calibration --no-settings              */

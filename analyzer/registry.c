@@ -19,6 +19,7 @@ static const ml_metric_def defs[] = {
     {"audio.snr_db", "dB", 2, ML_BETTER_HIGHER},
     {"audio.enob_bits", "bits", 2, ML_BETTER_HIGHER},
     {"audio.noise_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"audio.noise_nohum_dbfs", "dBFS", 2, ML_BETTER_LOWER},
     {"audio.dc_offset_pct", "%", 4, ML_BETTER_NONE},
     {"audio.clipped_samples", "", 0, ML_BETTER_LOWER},
     {"capture.rms_dbfs", "dBFS", 2, ML_BETTER_NONE},

@@ -48,9 +48,10 @@ static void watch_usage(FILE *f)
             "  --window-s S            length of the analysed window, 0.1..10 s (default %.1f)\n"
             "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
             "  --device, --rate, --channels   as for 'modlens live'\n"
-            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
-            "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits, --full-scale-dbu,\n"
-            "  --calibration, --card, --no-settings   as for 'modlens measure'\n"
+            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --no-tone,\n"
+            "  --with-tone, --harmonics, --mains, --window, --peak-hold-ms, --carrier-reference,\n"
+            "  --limits, --full-scale-dbu, --calibration, --card, --no-settings\n"
+            "                         as for 'modlens measure'\n"
             "\n"
             "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
             "taken from --carrier-reference) and kept until the r key.\n"
@@ -82,21 +83,23 @@ static const char *const PLAIN_AUDIO[] = {
     "audio.snr_db", "audio.sinad_db", "hum.level_dbfs", "hum.level_dbc",
 };
 
-/* " name=value" under the short name (analyzer/values.h), "nan" when not measured. */
+/* " name=value" under the short name (analyzer/values.h), an empty value when not measured. */
 static void pv(FILE *f, const char *name, double v, int decimals)
 {
     fprintf(f, " %s=", ml_values_short_name(name));
     if (isfinite(v))
         fprintf(f, "%.*f", decimals, v);
-    else
-        fputs("nan", f);
 }
 
-/* A registered metric's value from v[n] with the registry's decimals. */
+/* A registered metric's value from v[n] as a cell (ml_values_cell: empty when not measured, "<x"
+ * or ">x" for a bound). */
 static void pv_registered(FILE *f, const char *name, const ml_value *v, size_t n, bool have)
 {
-    const ml_metric_def *d = ml_registry_lookup(name, NULL);
-    pv(f, name, have ? ml_values_find(v, n, name) : NAN, d ? d->decimals : 3);
+    const ml_value *x = have ? ml_values_get(v, n, name) : NULL;
+    char cell[64] = "";
+    if (x != NULL)
+        ml_values_cell(x, cell, sizeof cell);
+    fprintf(f, " %s=%s", ml_values_short_name(name), cell);
 }
 
 /* The bench figures of an audio window (analyzer/bench.h): weighted noise; with a calibration the
@@ -131,7 +134,8 @@ static void plain_line(FILE *f, const ml_watch_view *v)
     ml_value vals[ML_VALUES_MAX];
     size_t n = 0;
     if (v->kind == ML_MONITOR_AUDIO) {
-        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = NAN, .dc_offset_pct = NAN};
+        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = NAN, .dc_offset_pct = NAN,
+                               .peak_mark = {ML_FIG_NONE, ML_WHY_OK}};
         n = ml_values_level(&lv, "audio", vals);
         n += ml_values_audio(&v->res.audio, vals + n);
         for (size_t i = 0; i < sizeof PLAIN_AUDIO / sizeof *PLAIN_AUDIO; i++)
@@ -143,7 +147,8 @@ static void plain_line(FILE *f, const ml_watch_view *v)
         for (size_t i = 0; i < sizeof PLAIN_MOD / sizeof *PLAIN_MOD; i++) {
             pv_registered(f, PLAIN_MOD[i], vals, n, v->have);
             if (i == 3) /* where C comes from, as in log's rows */
-                fprintf(f, " carrier_reference=%s", v->have ? ml_values_c_word(m) : "nan");
+                fprintf(f, " carrier_reference=%s",
+                        v->have && ml_values_c_word(m) ? ml_values_c_word(m) : "");
             if (i == 7) { /* the holds beside the peaks; decimals as the peaks' */
                 pv(f, "positive_peak_hold_pct", v->pos_hold_pct, 2);
                 pv(f, "negative_peak_hold_pct", v->neg_hold_pct, 2);
@@ -266,7 +271,7 @@ static int open_input(watcher *w)
     sigaction(SIGTERM, &sa, &w->old_term);
     sigaction(SIGHUP, &sa, &w->old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
     double carrier_hz;
-    char reason[256];
+    char reason[384];
     w->seg.nframes = (int64_t)llround(DETECT_S * w->rate); /* the look ahead's limit */
     rc = ml_input_kind(&w->o.in, &w->o.an, &w->seg, DETECT_S, &w->kind, &carrier_hz, reason, sizeof reason);
     if (rc == 0)

@@ -218,26 +218,31 @@ void ml_report_note(ml_report *r, const char *fmt, ...)
     va_end(ap);
 }
 
-void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed)
+void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed, size_t *undecided)
 {
-    size_t n = r->nchecks, f = 0;
-    for (size_t i = 0; i < r->nchecks; i++)
-        f += !r->checks[i].pass;
+    size_t n = r->nchecks, f = 0, u = 0;
+    for (size_t i = 0; i < r->nchecks; i++) {
+        f += !r->checks[i].pass && !r->checks[i].undecided;
+        u += r->checks[i].undecided;
+    }
     const ml_report_series *s = r->series;
     for (size_t p = 0; s && p < s->npoints; p++) {
         n += s->points[p].nchecks;
-        for (size_t i = 0; i < s->points[p].nchecks; i++)
-            f += !s->points[p].checks[i].pass;
+        for (size_t i = 0; i < s->points[p].nchecks; i++) {
+            f += !s->points[p].checks[i].pass && !s->points[p].checks[i].undecided;
+            u += s->points[p].checks[i].undecided;
+        }
     }
     *total = n;
     *failed = f;
+    *undecided = u;
 }
 
 const char *ml_report_verdict(const ml_report *r)
 {
-    size_t n, failed;
-    ml_report_check_counts(r, &n, &failed);
-    return n == 0 ? "unchecked" : failed > 0 ? "fail" : "pass";
+    size_t n, failed, undecided;
+    ml_report_check_counts(r, &n, &failed, &undecided);
+    return n == 0 ? "unchecked" : failed > 0 ? "fail" : undecided > 0 ? "undecided" : "pass";
 }
 
 /* ---- series of points ---- */
@@ -302,10 +307,13 @@ const char *ml_report_point_verdict(const ml_report_point *p)
 {
     if (p->nchecks == 0)
         return NULL;
-    for (size_t i = 0; i < p->nchecks; i++)
-        if (!p->checks[i].pass)
+    bool undecided = false;
+    for (size_t i = 0; i < p->nchecks; i++) {
+        if (!p->checks[i].pass && !p->checks[i].undecided)
             return "fail";
-    return "pass";
+        undecided = undecided || p->checks[i].undecided;
+    }
+    return undecided ? "undecided" : "pass";
 }
 
 ml_metric *ml_metric_missing(ml_metric *m, const char *fmt, ...)

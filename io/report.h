@@ -107,7 +107,9 @@ typedef struct {
     double value;
     bool has_min, has_max;
     double min, max;
-    bool pass;        /* valid and within both limits                                  */
+    bool pass;        /* valid and within both limits (a bound: wholly within them)    */
+    bool undecided;   /* a bound that reaches beyond a limit (an upper bound above a max,
+                         a lower bound below a min): neither pass nor fail; pass false  */
     double margin;    /* distance to the nearest limit, positive inside (0 if !valid)   */
 } ml_check;
 
@@ -149,7 +151,7 @@ typedef struct {
     /* input */
     char path[ML_REPORT_PATH_LEN];
     char kind[16];           /* "audio", "if", "iq"                                       */
-    char kind_reason[160];   /* why that kind                                              */
+    char kind_reason[384];   /* why that kind                                              */
     char format[64];
     double sample_rate_hz;
     int channels;
@@ -224,11 +226,13 @@ const ml_metric *ml_report_find(const ml_report *r, const char *name);
 /* Appends a note (a warning or remark shown to the user). */
 void ml_report_note(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
-/* "pass" when every check passed, "fail" when one failed, "unchecked" without checks (the
- * series' point checks counted with the others). */
+/* "fail" when a check failed, else "undecided" when a check is undecided (a bound beyond its
+ * limit), else "pass" when every check passed; "unchecked" without checks (the series' point
+ * checks counted with the others). */
 const char *ml_report_verdict(const ml_report *r);
-/* The checks of r, the series' point checks included: *total and *failed. */
-void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed);
+/* The checks of r, the series' point checks included: *total, *failed (failed and not undecided)
+ * and *undecided. */
+void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed, size_t *undecided);
 
 /* A series of cap points at path ("sweep.points") with its title: the points are allocated
  * (zeroed), npoints 0. ML_ENOMEM, ML_EINVAL (cap 0 or above 1e6). Free with ml_report_series_free. */
@@ -241,7 +245,7 @@ ml_metric *ml_report_point_add(ml_report_point *p, const char *leaf, const char 
                                double value);
 /* The figure of point p named leaf, or NULL. */
 ml_metric *ml_report_point_find(ml_report_point *p, const char *leaf);
-/* "pass" / "fail" for a point with checks, NULL without. */
+/* "pass" / "fail" / "undecided" for a point with checks, NULL without. */
 const char *ml_report_point_verdict(const ml_report_point *p);
 /* What a metric's mark says as the metric model's calls set it, usable on any ml_metric (a report's
  * or a point's): not measured with a reason, or a bound and/or a qualifier. Each returns m. */

@@ -61,7 +61,7 @@ static void figure_row(FILE *f, const ml_report *r, const char *start, const cha
             limit_number(hi, sizeof hi, c->max);
         if (c->valid)
             ml_report_number(margin, sizeof margin, c->margin, c->decimals, false);
-        verdict = c->pass ? "pass" : "fail";
+        verdict = c->pass ? "pass" : c->undecided ? "undecided" : "fail";
     }
     put(f, r, start, dur,
         &(row){.row_kind = "metric", .name = name, .value = val, .unit = m->unit, .uncertainty = u,

@@ -126,6 +126,7 @@ static json_t *check_json(const ml_check *c, const char *metric)
     json_object_set_new(o, "min", c->has_min ? json_real(c->min == 0 ? 0.0 : c->min) : json_null());
     json_object_set_new(o, "max", c->has_max ? json_real(c->max == 0 ? 0.0 : c->max) : json_null());
     json_object_set_new(o, "pass", json_boolean(c->pass));
+    json_object_set_new(o, "undecided", json_boolean(c->undecided));
     json_object_set_new(o, "margin", c->valid ? number(c->margin, c->decimals) : json_null());
     return o;
 }

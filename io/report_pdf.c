@@ -311,12 +311,12 @@ static void metric_rows(doc *d, const ml_report *r)
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
-            if (c->valid)
+            if (c->valid && !c->undecided) /* an undecided label fills the margin column */
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
             put(cr, MX[5], b, lim);
-            ml_colour(cr, c->pass ? ML_C_PASS : ML_C_FAIL);
+            ml_colour(cr, c->pass ? ML_C_PASS : c->undecided ? ML_C_HEAD : ML_C_FAIL);
             font(cr, 7.8, true);
-            put(cr, MX[6], b, c->pass ? "PASS" : "FAIL");
+            put(cr, MX[6], b, c->pass ? "PASS" : c->undecided ? "UNDECIDED" : "FAIL");
             font(cr, 7.8, false);
             ml_colour(cr, ML_C_INK);
             put_right(cr, MX[7], b, margin);
@@ -385,7 +385,7 @@ static void tables(doc *d, const ml_report *r)
         if (tb->nrows == 0) {
             font(cr, 7.8, false);
             ml_colour(cr, ML_C_INK);
-            put(cr, MARGIN + 3, d->y + 8.3, "(none within the band)");
+            put(cr, MARGIN + 3, d->y + 8.3, "(none above the noise within the band)");
             d->y += ROW_H;
         }
         for (size_t i = 0; i < tb->nrows; i++) {
@@ -546,13 +546,15 @@ static void measure_layout(doc *d, const measure_job *j, bool draw_pictures)
         field(d, "uncertainty", b);
     }
     const char *v = ml_report_verdict(r);
-    size_t total = 0, failed = 0;
-    ml_report_check_counts(r, &total, &failed);
+    size_t total = 0, failed = 0, undecided = 0;
+    ml_report_check_counts(r, &total, &failed, &undecided);
     if (strcmp(v, "unchecked") == 0)
         snprintf(b, sizeof b, "UNCHECKED: no limits given");
     else
-        snprintf(b, sizeof b, "%s: %zu of %zu checks passed", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",
-                 total - failed, total);
+        snprintf(b, sizeof b, "%s: %zu of %zu checks passed", strcmp(v, "pass") == 0 ? "PASS"
+                                                               : strcmp(v, "undecided") == 0 ? "UNDECIDED"
+                                                                                             : "FAIL",
+                 total - failed - undecided, total);
     verdict_box(d, strcmp(v, "fail") == 0 ? ML_C_FAIL : strcmp(v, "pass") == 0 ? ML_C_PASS : ML_C_HEAD, b);
     section(d, "Metrics");
     metric_rows(d, r);

@@ -68,7 +68,7 @@ static void metrics(FILE *f, const ml_report *r)
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
-            res = c->pass ? "PASS" : "FAIL";
+            res = c->pass ? "PASS" : c->undecided ? "UNDECIDED" : "FAIL";
             if (c->valid)
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
         }
@@ -156,7 +156,7 @@ static void tables(FILE *f, const ml_report *r)
             fprintf(f, " %14s", tb->cols[c]);
         fputc('\n', f);
         if (tb->nrows == 0)
-            fprintf(f, "  (none within the band)\n");
+            fprintf(f, "  (none above the noise within the band)\n");
         for (size_t i = 0; i < tb->nrows; i++) {
             fputc(' ', f);
             for (size_t c = 0; c < tb->ncols; c++) {
@@ -183,11 +183,15 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
             fprintf(f, "  - %s\n", t);
         }
     }
-    size_t total = 0, failed = 0;
-    ml_report_check_counts(r, &total, &failed);
+    size_t total = 0, failed = 0, undecided = 0;
+    ml_report_check_counts(r, &total, &failed, &undecided);
     const char *v = ml_report_verdict(r);
     if (strcmp(v, "unchecked") == 0)
         fprintf(f, "\nverdict: UNCHECKED (no limits given)\n");
+    else if (undecided > 0)
+        fprintf(f,
+                "\nverdict: %s (%zu of %zu checks passed, %zu undecided: a bound reaches beyond its limit)\n",
+                strcmp(v, "fail") == 0 ? "FAIL" : "UNDECIDED", total - failed - undecided, total, undecided);
     else
         fprintf(f, "\nverdict: %s (%zu of %zu checks passed)\n", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",
                 total - failed, total);

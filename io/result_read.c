@@ -255,8 +255,10 @@ static ml_status walk(ctx *c, const json_t *root)
             }
         } else if (strcmp(k, "verdict") == 0) {
             const char *s = json_string_value(v);
-            if (s == NULL || (strcmp(s, "pass") != 0 && strcmp(s, "fail") != 0 && strcmp(s, "unchecked") != 0))
-                return fail(c, "\"verdict\" is not pass, fail or unchecked");
+            if (s == NULL
+                || (strcmp(s, "pass") != 0 && strcmp(s, "fail") != 0 && strcmp(s, "unchecked") != 0
+                    && strcmp(s, "undecided") != 0))
+                return fail(c, "\"verdict\" is not pass, fail, undecided or unchecked");
             snprintf(c->r->verdict, sizeof c->r->verdict, "%s", s);
         } else if (json_is_object(v)) {
             if ((st = walk_group(c, k, v, 1, &metrics)) != ML_OK)

@@ -593,10 +593,11 @@ START_TEST(series_in_every_format)
     static ml_report r;
     ml_report_series sr;
     series_sample(&r, &sr);
-    size_t total = 0, failed = 0;
-    ml_report_check_counts(&r, &total, &failed);
+    size_t total = 0, failed = 0, undecided = 0;
+    ml_report_check_counts(&r, &total, &failed, &undecided);
     ck_assert_uint_eq(total, 2);
     ck_assert_uint_eq(failed, 1);
+    ck_assert_uint_eq(undecided, 0);
     ck_assert_str_eq(ml_report_verdict(&r), "fail");
     ck_assert_str_eq(ml_report_point_verdict(&sr.points[0]), "pass");
     ck_assert_ptr_null(ml_report_point_verdict(&sr.points[1]));
