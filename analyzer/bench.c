@@ -303,6 +303,15 @@ void ml_bench_audio_report(const ml_bench_pass *p, const ml_analysis_opts *an, i
             ml_values_report(rep, &v[i], 1);
     if (measured && !tone)
         ml_report_unmeasured(rep, "audio.snr_a_db", "no test tone");
+    if (!measured) { /* no analysis (silence, no signal): the reason of the unweighted noise */
+        const ml_metric *n = ml_report_find(rep, "audio.noise_dbfs");
+        const char *why = n && !n->valid && n->reason[0] ? n->reason : "the audio analysis found no signal";
+        for (size_t i = 0; i < nv; i++) {
+            const ml_metric *m = ml_report_find(rep, v[i].name);
+            if (m && !m->valid && m->reason[0] == '\0')
+                ml_report_unmeasured(rep, v[i].name, "%s", why);
+        }
+    }
     if (measured && !tone && p == NULL)
         ml_report_unmeasured(rep, "audio.noise_468_qp_dbfs",
                              "the quasi-peak meter needs a rate of 32..384 kHz");

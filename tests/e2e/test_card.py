@@ -160,10 +160,12 @@ def check_dut(ck, exe, prof):
 
 def check_correct(ck, exe, prof):
     """--card-correct takes the card's response at the tone off its level in volts."""
+    # a lone 16 kHz line is what an unmodulated IF carrier looks like too: the kind is given
     x = E.synth(FS, 3.0, [(16000.0, 0.5, 0.0)], noise_rms=1e-6, seed=5)
     E.write("hf.wav", x.astype(np.float32), FS, "FLOAT")
     resp = prof["channel"][0]["response_db"][prof["response_hz"].index(16000.0)]
-    rc, rep, _, err = E.run_json(exe, ["--card", "card.json", "--card-correct", "--full-scale-dbu", "18", "hf.wav"])
+    rc, rep, _, err = E.run_json(exe, ["--kind", "audio", "--card", "card.json", "--card-correct", "--full-scale-dbu", "18",
+                                       "hf.wav"])
     ck.check("--card-correct: exit 0", rc == 0 and rep is not None, err.strip())
     if rep:
         ck.close("--card-correct: dBu = dBFS + 18 - response(16 kHz)", E.get(rep, "audio.fundamental_dbu"),
