@@ -55,6 +55,8 @@ static const ml_metric_def defs[] = {
     {"hum.mains_hz", "Hz", 0, ML_BETTER_NONE},
     {"hum.level_dbfs", "dBFS", 2, ML_BETTER_LOWER},
     {"hum.level_dbc", "dBc", 2, ML_BETTER_LOWER},
+    {"interference.qp_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"interference.av_dbfs", "dBFS", 2, ML_BETTER_LOWER},
 };
 
 const ml_metric_def *ml_registry_all(size_t *count)
