@@ -230,6 +230,9 @@ int ml_log_buzz_events(ml_logger *L, size_t n, const char *why)
             snprintf(det + k, sizeof det - (size_t)k, "; open at %s", why);
         const int rc = ml_log_write_event_at(L, ML_LOG_BUZZ, b->start_s, b->end_s, L->buzz_peak_dbfs,
                                              L->buzz_rise_db, b->rate_hz, det);
+        L->buzz_last_s = b->start_s;
+        L->buzz_last_e = b->end_s;
+        L->buzz_last_hz = b->rate_hz;
         L->buzz_peak_dbfs = L->buzz_rise_db = NAN;
         if (rc != 0)
             return rc;
@@ -257,13 +260,25 @@ static int change_events(ml_logger *L, int which, size_t n, const char *why)
     for (size_t i = 0; i < n; i++) {
         const ml_event *e = &L->ev[i];
         char det[300];
+        const double s0 = change_off(L, which, e->start, false);
+        const double s1 = why ? ml_log_offset_of(L, L->pos) : change_off(L, which, e->end, true);
         int k = snprintf(det, sizeof det, "%s %+.1f dB from baseline %.1f dB", what[which], e->rise_db,
                          e->baseline_db);
+        /* a buzz at a multiple of the mains puts its lines where the hum is measured */
+        ml_buzz_event b;
+        double bs = L->buzz_last_s, be = L->buzz_last_e, bhz = L->buzz_last_hz;
+        if (ml_buzz_get_active(L->buzz, &b)) {
+            bs = b.start_s;
+            be = ml_log_offset_of(L, L->imp_judged);
+            bhz = b.rate_hz;
+        }
+        if (which == ML_CHG_HUM && isfinite(bs) && fmin(be, s1) - fmax(bs, s0) > 0.5 * (s1 - s0) && k > 0
+            && (size_t)k < sizeof det)
+            k += snprintf(det + k, sizeof det - (size_t)k, "; during a buzz at %.2f Hz (its lines lie on the hum's)",
+                          bhz);
         if (why && k > 0 && (size_t)k < sizeof det)
             snprintf(det + k, sizeof det - (size_t)k, "; open at %s", why);
-        int rc = ml_log_write_event_at(L, CHG_KIND[which], change_off(L, which, e->start, false),
-                                       why ? ml_log_offset_of(L, L->pos) : change_off(L, which, e->end, true),
-                                       L->chg_peak[which], e->rise_db, NAN, det);
+        int rc = ml_log_write_event_at(L, CHG_KIND[which], s0, s1, L->chg_peak[which], e->rise_db, NAN, det);
         if (rc != 0)
             return rc;
     }
@@ -285,9 +300,14 @@ int ml_log_push_changes(ml_logger *L, const double value[ML_LOG_NCHG], const dou
             continue;
         const int dir = w == ML_CHG_CARRIER ? -1 : 1;
         const double base = ml_change_get_baseline(L->chg[w]);
-        const bool out = isfinite(value[w]) && isfinite(base) && dir * (value[w] - base) >= thr[w];
+        /* a rise of the noise floor is a noise event: the broadband level then waits (it is for the
+         * rises the floor's median misses, such as periodic impulses) */
+        const double v = w == ML_CHG_LEVEL && L->chg[ML_CHG_NOISE] && ml_change_get_state(L->chg[ML_CHG_NOISE]) != 0
+                             ? NAN
+                             : value[w];
+        const bool out = isfinite(v) && isfinite(base) && dir * (v - base) >= thr[w];
         size_t n = 0;
-        ml_change_push(L->chg[w], &value[w], 1, L->ev, ML_LOG_EV_CAP, &n);
+        ml_change_push(L->chg[w], &v, 1, L->ev, ML_LOG_EV_CAP, &n);
         if (n > 0) {
             int rc = ml_log_change_events(L, w, n);
             if (rc != 0)

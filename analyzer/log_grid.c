@@ -218,8 +218,14 @@ static double carrier_value(ml_logger *L)
 static int step_done(ml_logger *L)
 {
     double value[ML_LOG_NCHG] = {NAN, NAN, NAN, NAN}, level[ML_LOG_NCHG] = {NAN, NAN, NAN, NAN};
-    if (L->step_n > 0 && L->step_sumsq > 0) /* the broadband level: the step's mean square */
-        level[ML_CHG_LEVEL] = value[ML_CHG_LEVEL] = ml_power_dbfs(L->step_sumsq / (double)L->step_n);
+    /* the broadband level: the mean square of the second difference of what the listener heard
+     * in the step (events report the step's plain level) */
+    if (L->hf_n > 0 && L->hf_sum > 0)
+        value[ML_CHG_LEVEL] = ml_power_dbfs(L->hf_sum / (double)L->hf_n);
+    if (L->step_n > 0 && L->step_sumsq > 0)
+        level[ML_CHG_LEVEL] = ml_power_dbfs(L->step_sumsq / (double)L->step_n);
+    L->hf_sum = 0;
+    L->hf_n = 0;
     if (ml_spectrum_segments(L->spec) > 0 && ml_spectrum_get_psd(L->spec, L->psd, L->nbins) == ML_OK) {
         for (size_t k = 0; k < L->nbins; k++)
             L->psd_sum[k] += L->psd[k];

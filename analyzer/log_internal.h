@@ -122,6 +122,7 @@ typedef struct {
     size_t nimp_times;
     ml_buzz_event *bev;
     double buzz_peak_dbfs, buzz_rise_db;
+    double buzz_last_s, buzz_last_e, buzz_last_hz; /* the latest buzz ended (NAN: none)            */
     ml_qpeak *qp;
     double qp_centre_hz;
     uint64_t qp_frames;    /* frames pushed since the chain started                           */
@@ -139,6 +140,10 @@ typedef struct {
     /* step accumulators */
     double step_sumsq;
     int64_t step_n;
+    double hf_sum, hf_x1, hf_x2; /* the broadband level: second difference of what the listener
+                                    hears, its sum of squares over the step and its history      */
+    int64_t hf_n;
+    int hf_prime;          /* samples that only fill the history (after a start or a gap)    */
 
     /* mains: decided once, held, changed only with an event */
     double mains_hz;       /* 0 while undecided                                               */
@@ -260,6 +265,8 @@ int ml_log_close_events(ml_logger *L, const char *why);
 void ml_log_print_summary(const ml_logger *L, FILE *f, const char *why);
 
 /* log_listen.c */
+/* What the listener hears (x[n]) into the step's broadband level. */
+void ml_log_hf_push(ml_logger *L, const float *x, size_t n);
 ml_status ml_log_listen_create(ml_logger *L);
 void ml_log_listen_destroy(ml_logger *L);
 /* The listener's demodulator and the quasi-peak chain for the carrier now known (if/iq). */

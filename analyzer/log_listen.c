@@ -24,6 +24,26 @@
 #define MAX_BANDWIDTH_HZ 10000.0 /* the listener's channel, as measure's default                  */
 #define BUZZ_EV_CAP 64
 
+void ml_log_hf_push(ml_logger *L, const float *x, size_t n)
+{
+    double x1 = L->hf_x1, x2 = L->hf_x2, sum = 0;
+    size_t i = 0;
+    for (; i < n && L->hf_prime > 0; i++, L->hf_prime--) {
+        x2 = x1;
+        x1 = x[i];
+    }
+    for (; i < n; i++) {
+        const double d = x[i] - 2.0 * x1 + x2;
+        sum += d * d;
+        L->hf_n++;
+        x2 = x1;
+        x1 = x[i];
+    }
+    L->hf_sum += sum;
+    L->hf_x1 = x1;
+    L->hf_x2 = x2;
+}
+
 /* Impulses the two detectors reported in a push of n samples (L->ev for events; the buzz
  * detector's as times). */
 static int impulses(ml_logger *L, const float *x, size_t n)
@@ -117,6 +137,7 @@ void ml_log_listen_setup(ml_logger *L)
     L->lam_base = L->pos;
     L->lam_out = 0;
     L->imp_base = L->imp_judged = L->pos + (int64_t)ml_am_edge(L->lam);
+    L->hf_prime = 2;
 }
 
 /* The envelope samples of an output: to float, into the impulse detectors. */
@@ -124,6 +145,7 @@ static int envelope(ml_logger *L, size_t count)
 {
     for (size_t i = 0; i < count; i++)
         L->lenvf[i] = (float)L->lenv[i];
+    ml_log_hf_push(L, L->lenvf, count);
     int rc = impulses(L, L->lenvf, count);
     L->lam_out += count;
     L->imp_judged = L->lam_base + (int64_t)ml_am_edge(L->lam) + (int64_t)L->lam_out;
@@ -143,6 +165,7 @@ int ml_log_listen_push(ml_logger *L, const float *b, size_t m)
             done += k;
         }
     } else {
+        ml_log_hf_push(L, L->mono, m);
         rc = impulses(L, L->mono, m);
         L->imp_judged = L->pos + (int64_t)m;
     }
@@ -212,6 +235,7 @@ int ml_log_listen_finish(ml_logger *L, const char *why)
 
 void ml_log_listen_gap(ml_logger *L)
 {
+    L->hf_prime = 2;
     ml_impulse_reset(L->imp);
     ml_impulse_reset(L->imp_buzz);
     if (L->lam) {
@@ -246,6 +270,8 @@ ml_status ml_log_listen_create(ml_logger *L)
                         || (L->bev = malloc(BUZZ_EV_CAP * sizeof *L->bev)) == NULL))
         st = ML_ENOMEM;
     L->buzz_peak_dbfs = L->buzz_rise_db = NAN;
+    L->buzz_last_s = L->buzz_last_e = L->buzz_last_hz = NAN;
+    L->hf_prime = 2;
     return st;
 }
 

@@ -21,9 +21,10 @@
 #include "dsp/figures.h"
 #include "dsp/mmnoise.h"
 #include "dsp/noisefloor.h"
+#include "dsp/order.h"
 #include "io/csv.h"
 
-#define MAINS_LEAD 4.0      /* power ratio (6 dB) by which one mains candidate must lead        */
+#define MAINS_LINE 10.0     /* a mains line stands 10 dB above the median of its range          */
 #define MAINS_DECIDE_S 3.0  /* ... for this long to decide the mains                             */
 #define MAINS_CHANGE_S 60.0 /* ... and for this long to change a decided one (with an event)    */
 
@@ -331,19 +332,54 @@ static void level_cells(const ml_logger *L, char *b, size_t n, size_t *k)
     num_cell(b, n, k, crest, 2);
 }
 
-/* The mains frequency: decided once one candidate's first four multiples hold 6 dB more power than
- * the other's for MAINS_DECIDE_S, then held; the other must lead for MAINS_CHANGE_S to change it,
- * which is logged as a mains event. */
+/* The mains line of the interval's mean spectrum: for k = 1, 2, 3 the strongest bin between
+ * k x 45 and k x 65 Hz, its frequency refined by a parabola through the logarithms of its
+ * neighbours; a line when it stands MAINS_LINE above the median of that range, and a vote for 50
+ * or 60 Hz when it lies within 3 % of k x 50 or k x 60. The strongest line votes (0: none). Hum at
+ * 50 and 60 Hz is 1.7 bins apart at 48 kHz and 8192 points, so the lobes' powers cannot tell them
+ * apart; the line's frequency can. */
+static double mains_vote(const ml_logger *L)
+{
+    const double bin_hz = L->rate / (double)ml_spectrum_nfft(L->spec);
+    double best = 0, vote = 0;
+    for (int k = 1; k <= 3; k++) {
+        const long a = lround(k * 45.0 / bin_hz), b = lround(k * 65.0 / bin_hz);
+        if (a < 2 || b + 1 >= (long)L->nbins || b - a + 1 > 256)
+            continue;
+        double w[256];
+        long m = a;
+        for (long j = a; j <= b; j++) {
+            w[j - a] = L->psd[j];
+            if (L->psd[j] > L->psd[m])
+                m = j;
+        }
+        const size_t n = (size_t)(b - a + 1);
+        const double med = ml_order_median(w, n);
+        if (!(L->psd[m] > MAINS_LINE * med) || m <= a || m >= b)
+            continue;
+        const double y0 = log(L->psd[m - 1]), y1 = log(L->psd[m]), y2 = log(L->psd[m + 1]);
+        const double den = y0 - 2 * y1 + y2, d = den < 0 ? 0.5 * (y0 - y2) / den : 0;
+        const double f = ((double)m + d) * bin_hz / k;
+        const double cand = fabs(f - 50) <= 1.5 ? 50 : fabs(f - 60) <= 1.8 ? 60 : 0;
+        if (cand > 0 && L->psd[m] / med > best) {
+            best = L->psd[m] / med;
+            vote = cand;
+        }
+    }
+    return vote;
+}
+
+/* The mains frequency: decided once the intervals' votes (mains_vote) agree for MAINS_DECIDE_S,
+ * then held; the other frequency must win every vote for MAINS_CHANGE_S to change it, which is
+ * logged as a mains event. Intervals without a vote do not count either way. */
 static int decide_mains(ml_logger *L, double off, double dur)
 {
-    ml_audio_result h50, h60;
-    if (L->mains_given || ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 50, 4, &h50) != ML_OK
-        || ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 60, 4, &h60) != ML_OK)
+    if (L->mains_given)
         return 0;
-    const double lead = h50.hum_power > MAINS_LEAD * h60.hum_power   ? 50.0
-                        : h60.hum_power > MAINS_LEAD * h50.hum_power ? 60.0
-                                                                     : 0.0;
-    if (lead == 0 || lead == L->mains_hz) {
+    const double lead = mains_vote(L);
+    if (lead == 0)
+        return 0;
+    if (lead == L->mains_hz) {
         L->mains_votes = 0;
         return 0;
     }
@@ -359,10 +395,9 @@ static int decide_mains(ml_logger *L, double off, double dur)
         L->mains_hz = lead;
         L->mains_votes = 0;
     } else if (L->mains_hz > 0 && held >= fmax(MAINS_CHANGE_S, dur) - 1e-9) {
-        const double ratio = lead == 60 ? h60.hum_power / h50.hum_power : h50.hum_power / h60.hum_power;
         char det[160];
-        snprintf(det, sizeof det, "mains %.0f -> %.0f Hz: the %.0f Hz hum led by %.1f dB for %.0f s", L->mains_hz,
-                 lead, lead, 10 * log10(ratio), held);
+        snprintf(det, sizeof det, "mains %.0f -> %.0f Hz: the hum's lines lay at multiples of %.0f Hz for %.0f s",
+                 L->mains_hz, lead, lead, held);
         L->mains_hz = lead;
         L->mains_votes = 0;
         return ml_log_write_event_at(L, ML_LOG_MAINS, L->mains_vote_s, off + dur, NAN, NAN, NAN, det);

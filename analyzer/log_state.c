@@ -277,7 +277,8 @@ int ml_log_snapshot(ml_logger *L, bool closed)
               && put(L, "held %zu\n", L->nheld)
               && put(L, "imp_base %.17g\nimp_counted %.17g\n", ml_log_offset_of(L, L->imp_base),
                      L->imp_counted >= 0 ? ml_log_offset_of(L, L->imp_counted) : NAN)
-              && put(L, "buzz_peak %.17g %.17g 0\n", L->buzz_peak_dbfs, L->buzz_rise_db);
+              && put(L, "buzz_peak %.17g %.17g 0\n", L->buzz_peak_dbfs, L->buzz_rise_db)
+              && put(L, "hf %.17g %.17g %d\n", L->hf_x1, L->hf_x2, L->hf_prime);
     for (size_t i = 0; ok && i < L->nheld; i++)
         ok = put(L, "h%zu %.17g %.17g %.17g %.17g %ld\n", i, ml_log_offset_of(L, L->held[i].start),
                  ml_log_offset_of(L, L->held[i].end), L->held[i].peak_dbfs, L->held[i].rise_db, L->held[i].n);
@@ -609,12 +610,16 @@ int ml_log_restore_state(ml_logger *L)
     }
     v = ok ? counted(L, &s, "buzz", &n) : NULL;
     ok = ok && v && ml_buzz_restore(L->buzz, v, n) == ML_OK;
-    double aw[ML_AWEIGHT_STATE + 1], base[1], cnt[1], bz[3];
+    double aw[ML_AWEIGHT_STATE + 1], base[1], cnt[1], bz[3], hf[3];
     ok = ok && numbers(&s, "aweight", aw, ML_AWEIGHT_STATE + 1) && numbers(&s, "imp_base", base, 1)
-         && numbers(&s, "imp_counted", cnt, 1) && numbers(&s, "buzz_peak", bz, 3) && isfinite(base[0]);
+         && numbers(&s, "imp_counted", cnt, 1) && numbers(&s, "buzz_peak", bz, 3) && numbers(&s, "hf", hf, 3)
+         && isfinite(base[0]) && isfinite(hf[0]) && isfinite(hf[1]) && hf[2] >= 0 && hf[2] <= 2;
     if (ok && continuous)
         ok = ml_aweight_set_state(L->aw, aw + 1) == ML_OK && restore_impulses(L, &s);
     if (ok && exact) {
+        L->hf_x1 = hf[0];
+        L->hf_x2 = hf[1];
+        L->hf_prime = (int)hf[2];
         L->imp_base = ml_log_pos_of(L, base[0]);
         L->imp_counted = isnan(cnt[0]) ? -1 : ml_log_pos_of(L, cnt[0]);
     }
