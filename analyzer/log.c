@@ -624,7 +624,8 @@ static int resume(ml_logger *L, const last_row *r)
             L->pos = L->origin = llround(r->end_off * L->rate);
         if (L->state_text == NULL) {
             L->resumed_fresh = true;
-            snprintf(L->note, sizeof L->note, "detectors started afresh (%s)", why[0] ? why : "no saved state");
+            snprintf(L->resume_note, sizeof L->resume_note, "detectors started afresh (%.150s)",
+                     why[0] ? why : "no saved state");
             /* events are written when they end, so not in start order: the latest start of any line */
             double v;
             if (ml_logfile_max_field(L->events_path, 2, 2, &v) == ML_OK)

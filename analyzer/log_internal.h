@@ -193,6 +193,7 @@ typedef struct {
     size_t snap_len, snap_cap;
     int64_t snap_row_end;
     bool resumed_fresh;    /* continued without a saved state                                   */
+    char resume_note[200]; /* said in the first row this run writes                              */
     double *tmp;           /* scratch for the detectors' numbers                                */
     char *state_text;      /* the saved state read at the start, until the detectors take it   */
     bool state_closed;     /* it was written at a stop                                         */

@@ -519,7 +519,14 @@ int ml_log_row(ml_logger *L, const ml_modulation_result *mres)
     registered_cells(QP_COLUMNS, 2, qp, b, n, &k);
     noise_cells(L, fl, b, n, &k);
     modulation_cells(L, mres, b, n, &k);
-    ml_csv_append(b, n, &k, L->note);
+    if (L->resume_note[0] && off >= L->skip_rows_until - 0.5 / L->rate) {
+        char note[sizeof L->resume_note + sizeof L->note + 4];
+        snprintf(note, sizeof note, "%s%s%s", L->resume_note, L->note[0] ? "; " : "", L->note);
+        ml_csv_append(b, n, &k, note);
+        L->resume_note[0] = '\0';
+    } else {
+        ml_csv_append(b, n, &k, L->note);
+    }
     if (L->sgram && L->nspectra > 0) {
         ml_log_sgram_column(L);
         ml_history_push(L->sgram, off, off + dur, L->sg_col);

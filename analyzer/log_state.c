@@ -416,11 +416,11 @@ static double *counted(ml_logger *L, const state_file *s, const char *key, size_
     return v;
 }
 
-/* Splits L->state_text (NUL-terminated, modified) into lines; false when it is not whole. */
-static bool split(ml_logger *L, state_file *s)
+/* Splits text (NUL-terminated, modified) into lines; false when it is not whole. */
+static bool split(char *text, state_file *s)
 {
     memset(s, 0, sizeof *s);
-    for (char *p = L->state_text; p && *p && s->nlines < 64;) {
+    for (char *p = text; p && *p && s->nlines < 64;) {
         char *e = strchr(p, '\n');
         if (e == NULL)
             break; /* an incomplete line: the file is not whole */
@@ -510,19 +510,36 @@ static void read_seen(ml_logger *L, int64_t period, double size)
     free(paths[1]);
 }
 
+static int load(ml_logger *L, int64_t *pos_out, int64_t *origin_out, char *why, size_t n);
+
 int ml_log_load_state(ml_logger *L, int64_t *pos_out, int64_t *origin_out, char *why, size_t n)
 {
     why[0] = '\0';
     if (!read_state(L, why, n))
         return 0;
+    int rc = load(L, pos_out, origin_out, why, n);
+    if (rc != 1) {
+        free(L->state_text);
+        L->state_text = NULL;
+    }
+    return rc;
+}
+
+/* The state's grid, carrier and mains from a copy of L->state_text (the detectors take the text
+ * itself later). 1 when usable. */
+static int load(ml_logger *L, int64_t *pos_out, int64_t *origin_out, char *why, size_t n)
+{
+    char *copy = strdup(L->state_text);
     state_file s;
     const char *m = NULL;
-    if (!split(L, &s) || (m = find(&s, "meta")) == NULL) {
+    if (copy == NULL || !split(copy, &s) || (m = find(&s, "meta")) == NULL) {
         snprintf(why, n, "the saved state is not complete");
+        free(copy);
         return 0;
     }
     if (strcmp(m, L->meta) != 0) {
         snprintf(why, n, "the saved state belongs to another log");
+        free(copy);
         return 0;
     }
     double c[1], pos[1], origin[1], off0[1], period[1], evsize[1], car[2], mains[4];
@@ -533,6 +550,7 @@ int ml_log_load_state(ml_logger *L, int64_t *pos_out, int64_t *origin_out, char 
     ok = ok && pos[0] >= 0 && pos[0] <= 9e15 && pos[0] == floor(pos[0]) && origin[0] >= 0 && origin[0] <= pos[0]
          && origin[0] == floor(origin[0]) && evsize[0] >= 0 && evsize[0] <= 9e15 && fabs(period[0]) <= 9e15
          && (mains[0] == 0 || mains[0] == 50 || mains[0] == 60) && isfinite(off0[0]) && off0[0] >= 0;
+    free(copy);
     if (!ok) {
         snprintf(why, n, "the saved state is damaged");
         return 0;
@@ -583,7 +601,7 @@ int ml_log_restore_state(ml_logger *L)
     if (L->state_text == NULL)
         return 0;
     state_file s;
-    split(L, &s); /* checked when it was read */
+    split(L->state_text, &s); /* checked when it was read */
     const bool live = L->o->in.live, closed = L->state_closed;
     /* a file continues exactly (its impulses on the audio itself); the envelope's demodulator and a
      * live input start afresh, keeping the floor */
@@ -640,7 +658,7 @@ int ml_log_restore_state(ml_logger *L)
         ml_buzz_reset(L->buzz);
         L->mi.n = 0;
         L->nheld = 0;
-        snprintf(L->note, sizeof L->note, "detectors started afresh (the saved state does not fit)");
+        snprintf(L->resume_note, sizeof L->resume_note, "detectors started afresh (the saved state does not fit)");
     }
     return 0;
 }
