@@ -556,31 +556,22 @@ static int setup_carrier(ml_logger *L)
     return 0;
 }
 
-/* --plot: checked now, against every file the log reads or writes; written at the end. */
+/* --plot: checked with every file the log reads or writes (ml_log_check_paths did so for each
+ * period's files); written at the end. */
 static int check_plot(ml_logger *L)
 {
     const ml_log_opts *o = L->o;
     if (o->plot == NULL)
         return 0;
     const char *bad = o->plot;
-    char err[512];
+    char err[512] = "";
     ml_status st = ml_output_set_create(&L->plot_set);
     if (st == ML_OK)
-        st = ml_output_set_input(L->plot_set, o->in.live ? NULL : o->in.path, "the input");
-    if (st == ML_OK)
-        st = ml_output_set_input(L->plot_set, o->an.carrier_reference, "the carrier reference");
-    if (st == ML_OK)
-        st = ml_output_set_input(L->plot_set, L->rows_path, "the log's rows (--out)");
-    if (st == ML_OK)
-        st = ml_output_set_input(L->plot_set, L->events_path, "the log's events");
-    if (st == ML_OK)
-        st = ml_output_set_input(L->plot_set, L->state_path, "the log's state");
-    if (st == ML_OK)
-        st = ml_output_set_add(L->plot_set, o->plot, "--plot", 0, &L->plot_out);
+        st = ml_log_register(L, L->plot_set, L->rows_path, L->events_path, &L->plot_out);
     if (st == ML_OK)
         st = ml_output_set_check(L->plot_set, &bad, err, sizeof err);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s", bad, st == ML_EIO ? err : ml_strerror(st));
+        return ml_cli_error("%s: %s", bad ? bad : o->plot, err[0] ? err : ml_strerror(st));
     ml_history_config hc = ml_history_config_default();
     hc.nrows = ML_LOG_SG_ROWS;
     if (ml_history_create(&hc, &L->sgram) != ML_OK)

@@ -231,6 +231,10 @@ const char *ml_log_rows_header(void);
 const char *ml_log_events_header(void);
 /* The head (meta line and header) of the rows or events files, allocated. */
 char *ml_log_head(const ml_logger *L, bool events);
+/* Registers every file the log reads and writes in set (io/output.h): the input and carrier
+ * reference as inputs, rows, events, state and --plot as outputs (*plot: the last). */
+ml_status ml_log_register(const ml_logger *L, ml_output_set *set, const char *rows, const char *events,
+                          ml_output **plot);
 /* Checks the paths of a period before anything is written (io/output.h refusals). */
 int ml_log_check_paths(ml_logger *L, const char *rows, const char *events);
 /* Checks and attaches the files of a period (nothing written; ml_log_begin_outputs then begins

@@ -191,21 +191,41 @@ char *ml_log_state_path(const ml_logger *L)
     return s;
 }
 
+/* Registers the files the log reads and writes: the input and the carrier reference, the rows,
+ * events and state files (never begun in this set: they are appended to or replaced elsewhere),
+ * and --plot. */
+ml_status ml_log_register(const ml_logger *L, ml_output_set *set, const char *rows, const char *events,
+                          ml_output **plot)
+{
+    ml_output *unused;
+    ml_status st = ml_output_set_input(set, L->o->in.live ? NULL : L->o->in.path, "the input");
+    if (st == ML_OK)
+        st = ml_output_set_input(set, L->o->an.carrier_reference, "the carrier reference");
+    if (st == ML_OK)
+        st = ml_output_set_add(set, rows, "--out", 0, &unused);
+    if (st == ML_OK)
+        st = ml_output_set_add(set, events, "--events", 0, &unused);
+    if (st == ML_OK)
+        st = ml_output_set_add(set, L->state_path, "the log's state", 0, &unused);
+    if (st == ML_OK)
+        st = ml_output_set_add(set, L->o->plot, "--plot", 0, plot);
+    return st;
+}
+
 int ml_log_check_paths(ml_logger *L, const char *rows, const char *events)
 {
-    const char *in[2] = {L->o->in.live ? NULL : L->o->in.path, L->o->an.carrier_reference};
-    const struct {
-        const char *path, *what;
-    } out[3] = {{rows, "--out"}, {events, "--events"}, {L->state_path, "the log's state"}};
-    if (strcmp(rows, events) == 0 || ml_same_file(rows, events))
-        return ml_cli_error("%s: --out and --events name the same file", rows);
-    for (int i = 0; i < 3; i++) {
-        char err[512];
-        if (ml_output_check_path(out[i].path, out[i].what, in, 2, err, sizeof err) != ML_OK)
-            return ml_cli_error("%s: %s", out[i].path, err);
-    }
-    if (ml_same_file(L->state_path, rows) || ml_same_file(L->state_path, events))
-        return ml_cli_error("%s: the log's state would be written over its rows or events", L->state_path);
+    ml_output_set *set = NULL;
+    ml_output *plot = NULL;
+    const char *bad = rows;
+    char err[512] = "";
+    ml_status st = ml_output_set_create(&set);
+    if (st == ML_OK)
+        st = ml_log_register(L, set, rows, events, &plot);
+    if (st == ML_OK)
+        st = ml_output_set_check(set, &bad, err, sizeof err);
+    ml_output_set_destroy(set);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", bad ? bad : rows, err[0] ? err : ml_strerror(st));
     return 0;
 }
 

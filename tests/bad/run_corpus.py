@@ -1,9 +1,10 @@
 #!/usr/bin/python3
 """Runs the bad-input corpus (cases.txt over files/) against the modlens executable.
 
-Arguments run as `modlens measure ARGS`, or `modlens compare ...` / `modlens tone ...` when the
-first word is that command (error outcomes only). Besides the regular files' contents, the kind
-of every entry of the scratch folder (file, FIFO, device, link and its target) must not change.
+Arguments run as `modlens measure ARGS`, or `modlens compare ...` / `modlens tone ...` /
+`modlens log ...` when the first word is that command (error outcomes only). Besides the regular
+files' contents, the kind of every entry of the scratch folder (file, FIFO, device, link and its
+target) must not change.
 
 Usage: /usr/bin/python3 tests/bad/run_corpus.py /path/to/modlens
 
@@ -83,6 +84,13 @@ def main():
             for fn in files:
                 os.chmod(os.path.join(root, fn), 0o644)
         os.mkfifo(os.path.join(work, "fifo.wav"))
+        os.mkfifo(os.path.join(work, "fifo.png"))
+        os.symlink("good.wav", os.path.join(work, "plot-good.png"))  # an input a picture's name reaches
+        # someone's data: 100 kB without a single line break, and a CSV of another program
+        with open(os.path.join(work, "foreign-100k.csv"), "wb") as f:
+            f.write(bytes((7 * i) % 251 + 1 if (7 * i) % 251 + 1 != 10 else 11 for i in range(100000)))
+        with open(os.path.join(work, "other.csv"), "w") as f:
+            f.write("when,what\n2024-01-01,x\n")
         os.mkdir(os.path.join(work, "adir.wav"))
         # links: to an input, to nothing, and to a device node (made here when allowed, else the
         # system's null device, which an unprivileged process cannot replace anyway)
@@ -108,7 +116,7 @@ def main():
         def run(args):
             drop = as_root and "unreadable.wav" in args
             pre = (lambda: (os.setgid(NOBODY), os.setuid(NOBODY))) if drop else None
-            cmd = ["measure"] + args if args[:1] not in (["compare"], ["tone"]) else args
+            cmd = ["measure"] + args if args[:1] not in (["compare"], ["tone"], ["log"]) else args
             try:
                 p = subprocess.run(wrap + [exe_nobody if drop else exe] + cmd, cwd=work, capture_output=True,
                                    timeout=TIMEOUT_S, preexec_fn=pre)
@@ -120,7 +128,7 @@ def main():
             before = digest_tree(work)
             problems = []
             if kind == "error":
-                full = args if "--output" in args or args[:1] == ["tone"] else \
+                full = args if "--output" in args or args[:1] in (["tone"], ["log"]) else \
                     (args[:1] + ["--output", "out/report.json"] + args[1:] if args[:1] == ["compare"]
                      else ["--output", "out/report.json"] + args)
                 rc, so, se = run(full)
@@ -136,8 +144,8 @@ def main():
                 if os.listdir(out) or os.path.exists(os.path.join(work, "nofolder")):
                     problems.append("something was written: %r" % os.listdir(out))
             else:
-                if args[:1] in (["compare"], ["tone"]):
-                    sys.exit("cases.txt: %s: only error outcomes for compare and tone" % name)
+                if args[:1] in (["compare"], ["tone"], ["log"]):
+                    sys.exit("cases.txt: %s: only error outcomes for compare, tone and log" % name)
                 want = 0 if kind == "report" else 1
                 rc, so, se = run(["--format", "json", "--output", "out/report.json"] + args)
                 text = ""
@@ -163,7 +171,8 @@ def main():
             count += 1
             ok = not problems
             print("%s %s: modlens %s%s" % ("PASS" if ok else "FAIL", name,
-                                           " ".join(args if args[:1] in (["compare"], ["tone"]) else ["measure"] + args),
+                                           " ".join(args if args[:1] in (["compare"], ["tone"], ["log"])
+                                                    else ["measure"] + args),
                                                   "" if ok else " -- " + "; ".join(problems)), flush=True)
             if not ok:
                 failed.append(name)
