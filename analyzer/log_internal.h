@@ -115,6 +115,7 @@ typedef struct {
     int64_t lam_base;      /* pos of the first input sample of the demodulator               */
     uint64_t lam_out;      /* envelope samples it gave                                       */
     double *lenv;          /* its output                                                     */
+    unsigned char *lmod;
     float *lenvf;
     size_t lcap;
     ml_buzz *buzz;

@@ -122,7 +122,8 @@ void ml_log_listen_setup(ml_logger *L)
     L->lcap = ml_am_output_cap(L->lam, ML_LOG_BLOCK);
     L->lenv = malloc(L->lcap * sizeof *L->lenv);
     L->lenvf = malloc(L->lcap * sizeof *L->lenvf);
-    if (L->lenv == NULL || L->lenvf == NULL) {
+    L->lmod = malloc(L->lcap);
+    if (L->lenv == NULL || L->lenvf == NULL || L->lmod == NULL) {
         ml_am_destroy(L->lam);
         L->lam = NULL;
         return;
@@ -158,7 +159,7 @@ int ml_log_listen_push(ml_logger *L, const float *b, size_t m)
     if (L->lam) {
         for (size_t done = 0; done < m && rc == 0;) {
             const size_t k = m - done < ML_LOG_BLOCK ? m - done : ML_LOG_BLOCK;
-            ml_am_output out = {L->lenv, NULL, NULL, L->lcap};
+            ml_am_output out = {L->lenv, NULL, L->lmod, L->lcap};
             size_t count = 0;
             if (ml_am_push_frames(L->lam, b + done * L->ch.stride, &L->ch, k, &out, &count) == ML_OK)
                 rc = envelope(L, count);
@@ -198,7 +199,7 @@ int ml_log_listen_finish(ml_logger *L, const char *why)
 {
     int rc = 0;
     if (L->lam) {
-        ml_am_output out = {L->lenv, NULL, NULL, L->lcap};
+        ml_am_output out = {L->lenv, NULL, L->lmod, L->lcap};
         size_t count = 0;
         if (ml_am_finish(L->lam, &out, &count) == ML_OK)
             rc = envelope(L, count);
@@ -284,6 +285,7 @@ void ml_log_listen_destroy(ml_logger *L)
     ml_qpeak_destroy(L->qp);
     free(L->lenv);
     free(L->lenvf);
+    free(L->lmod);
     free(L->imp_times);
     free(L->bev);
 }
