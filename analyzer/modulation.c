@@ -18,6 +18,7 @@
 #include <string.h>
 
 #include "analyzer/cli.h"
+#include "analyzer/interference.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
@@ -73,6 +74,7 @@ typedef struct {
     ml_modulation *mod;
     ml_modulation_batch *batch[NBATCH];
     ml_stats stats[2];     /* the captured channel(s)                                          */
+    ml_qp_pass *qp;        /* the quasi-peak readings (analyzer/interference.h)               */
     float *ref;            /* the reference channel of a batch, for the trapezoid picture      */
 } mod_pass;
 
@@ -166,6 +168,8 @@ static int prepare(mod_pass *p, double carrier_hz)
     }
     ml_stats_init(&p->stats[0], seg->info->bits);
     ml_stats_init(&p->stats[1], seg->info->bits);
+    if ((p->qp = ml_qp_pass_create(rate, p->iq, car.frequency_hz)) == NULL)
+        return ml_cli_error("%s: out of memory", o->in.path);
     return 0;
 }
 
@@ -201,6 +205,7 @@ static int stream(mod_pass *p)
         }
         if (rc != 0)
             break;
+        ml_qp_pass_push(p->qp, raw, got, &p->ch); /* this half has room: the feed half is the larger */
         if (o->out.plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_channels_split_ref(&p->ch, raw, got, p->ref);
             ml_plots_input(o->out.plot, done, p->ch.has_ref ? p->ref : NULL, got);
@@ -285,6 +290,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_level_figures lv;
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
+    ml_qp_pass_report(p->qp, rep);
     char cref[160];
     ml_report_add_text(rep, "modulation.carrier_reference",
                        ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
@@ -319,6 +325,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     for (int k = 0; k < NBATCH; k++)
         ml_modulation_batch_destroy(p.batch[k]);
     ml_modulation_destroy(p.mod);
+    ml_qp_pass_destroy(p.qp);
     free(p.ref);
     return rc;
 }

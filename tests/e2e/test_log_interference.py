@@ -108,6 +108,18 @@ def quasi_peak(exe, c):
                 all(v is not None and abs(v - want) <= 0.05 for v in qp[2:]), str(qp))
         c.check("%s CW: av_dbfs %.2f in every settled row" % (kind, want),
                 all(v is not None and abs(v - want) <= 0.05 for v in av[2:]), str(av))
+        # measure reports the same readings over the whole capture (after the settling)
+        rc, rep, out, err = E.run_json(exe, ["--kind", kind, "cw-%s.wav" % kind])
+        qpm = rep and E.get(rep, "interference.qp_dbfs")
+        avm = rep and E.get(rep, "interference.av_dbfs")
+        c.close("%s CW: measure's interference.qp_dbfs" % kind, qpm, want, 0.05, "as the log's rows")
+        c.close("%s CW: measure's interference.av_dbfs" % kind, avm, want, 0.05, "as the log's rows")
+    # a capture shorter than the meters' settling: no reading, and why
+    E.write("cw-short.wav", (a * np.cos(2 * np.pi * 12000 * t[:FS])).astype(np.float32), FS, "FLOAT")
+    rc, rep, out, err = E.run_json(exe, ["--kind", "if", "cw-short.wav"])
+    c.check("measure: a 1 s capture has no quasi-peak reading, with the reason", rc == 0 and rep
+            and E.get(rep, "interference.qp_dbfs") is None
+            and "settling" in E.get(rep, "reasons.interference.qp_dbfs"), str(rep and rep.get("reasons")))
     # pulse trains of equal impulses (one sample of 0.5) on a real IF, the chain tuned to 12 kHz
     # (--carrier): the reading relative to 100 Hz. docs/references.md 11: 1000 Hz -4.5 +-1.0,
     # 10 Hz +10.0 +-1.5, 2 Hz +20.5 +-2.0, 1 Hz +22.5 +-2.0 (input change for a constant reading:
