@@ -25,7 +25,7 @@
 #include "io/csv.h"
 
 #define MAINS_LINE 10.0     /* a mains line stands 10 dB above the median of its range          */
-#define MAINS_DECIDE_S 3.0  /* ... for this long to decide the mains                             */
+#define MAINS_DECIDE_S 0.0  /* ... for this long to decide the mains: the first clear line       */
 #define MAINS_CHANGE_S 60.0 /* ... and for this long to change a decided one (with an event)    */
 
 /* The columns before the modulation figures. */
@@ -389,8 +389,7 @@ static double mains_vote(const ml_logger *L)
     return vote;
 }
 
-/* The mains frequency: decided once the intervals' votes (mains_vote) agree for MAINS_DECIDE_S,
- * then held; the other frequency must win every vote for MAINS_CHANGE_S to change it, which is
+/* The mains frequency: decided by the first interval's vote (mains_vote), then held; the other frequency must win every vote for MAINS_CHANGE_S to change it, which is
  * logged as a mains event. Intervals without a vote do not count either way. */
 static int decide_mains(ml_logger *L, double off, double dur)
 {
