@@ -164,8 +164,8 @@ static const char *tz_rule(const char *p)
         int m = 0, w = 0, d = 0;
         if (sscanf(p, "M%d.%d.%d", &m, &w, &d) != 3 || m < 1 || m > 12 || w < 1 || w > 5 || d < 0 || d > 6)
             return NULL;
-        for (int dots = 0; *p && (*p != ',' && *p != '/'); p++)
-            dots += *p == '.';
+        while (*p && *p != ',' && *p != '/')
+            p++;
     } else {
         if (*p == 'J')
             p++;
