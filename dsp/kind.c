@@ -280,8 +280,8 @@ static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins,
 
 /* The verdict of a symmetric pair ca, cb at bins ks and its mirror around fc (rule 2): IF, unless
  * the band holds a line at fm itself at least as strong (intermodulation: audio). */
-static void pair_verdict(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, size_t ks, double fc,
-                         double p1, double floor, const ml_component *ca, const ml_component *cb,
+static void pair_verdict(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, size_t ks,
+                         double fc, double p1, double floor, const ml_component *ca, const ml_component *cb,
                          ml_if_evidence_result *r)
 {
     const double bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec);
@@ -336,8 +336,8 @@ static double other_line(const ml_spectrum *spec, const double *psd, size_t nbin
     for (int tries = 0; tries < OTHER_TRIES; tries++) {
         size_t ko = 0;
         for (size_t k = klo; k + lobe < nbins; k++) {
-            if ((k > kf ? k - kf : kf - k) < gap || (ko != 0 && psd[k] <= psd[ko]) || !ml_spectrum_clears_dc(spec, k)
-                || at_mains(k, mains_hz, bin_hz, lobe))
+            if ((k > kf ? k - kf : kf - k) < gap || (ko != 0 && psd[k] <= psd[ko])
+                || !ml_spectrum_clears_dc(spec, k) || at_mains(k, mains_hz, bin_hz, lobe))
                 continue;
             bool skipped = false;
             for (size_t i = 0; i < nskip && !skipped; i++)
@@ -356,7 +356,8 @@ static double other_line(const ml_spectrum *spec, const double *psd, size_t nbin
             return 0.0; /* the strongest left is no line of consequence: none is */
         ml_component om;
         const size_t excl_m[3] = {kf, 2 * kf, ko};
-        if (has_mirror && ml_line_measure(spec, psd, nbins, km, excl_m, 3, &om) == ML_OK && symmetric(&o, &om, floor)) {
+        if (has_mirror && ml_line_measure(spec, psd, nbins, km, excl_m, 3, &om) == ML_OK
+            && symmetric(&o, &om, floor)) {
             if (pair->ks == 0)
                 *pair = (side_pair){.ks = ko, .ca = o, .cb = om};
             skip[nskip++] = ko; /* a sideband pair: modulation, not another signal */
@@ -545,13 +546,15 @@ char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
         snprintf(buf, n, "mains hum at baseband (%.1f dBc) and none on the %.1f Hz tone: audio", r->baseband_dbc, fc);
         break;
     case ML_IFW_LONE_CARRIER:
-        snprintf(buf, n, "a lone line at %.1f Hz, above 3 kHz, with neither sidebands, harmonics nor hum of its own "
-                         "and no other line within 40 dB: an unmodulated AM carrier (IF)",
+        snprintf(buf, n,
+                 "a lone line at %.1f Hz, above 3 kHz, with neither sidebands, harmonics nor hum of its "
+                 "own and no other line within 40 dB: an unmodulated AM carrier (IF)",
                  fc);
         break;
     case ML_IFW_OTHER_LINE:
-        snprintf(buf, n, "the %.1f Hz line is not alone: another at %.1f Hz (%.1f dBc), no sideband of it, stands "
-                         "clear of the noise: audio",
+        snprintf(buf, n,
+                 "the %.1f Hz line is not alone: another at %.1f Hz (%.1f dBc), no sideband of it, "
+                 "stands clear of the noise: audio",
                  fc, r->other_hz, r->other_dbc);
         break;
     case ML_IFW_NOISE:

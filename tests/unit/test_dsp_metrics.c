@@ -872,7 +872,8 @@ START_TEST(tone_clear_among_sidebands)
     ck_assert_int_eq(r.tone_why, ML_WHY_TONE_CLEAR);
     const double third = 16384.0 * (pow(2.0, 1.0 / 6.0) - pow(2.0, -1.0 / 6.0));
     const double want = db10(0.08 / (1e-10 * third / (NFFT / 2.0)));
-    ck_assert_msg(fabs(r.candidate_margin_db - want) <= 0.5, "margin %.2f dB vs %.2f", r.candidate_margin_db, want);
+    ck_assert_msg(fabs(r.candidate_margin_db - want) <= 0.5, "margin %.2f dB vs %.2f", r.candidate_margin_db,
+                  want);
 }
 END_TEST
 
