@@ -23,6 +23,10 @@
 #define CHUNK 256
 #define FLOOR_MARGIN 4.0     /* a line 6 dB above the analysis' floor (as dsp/metrics.h)           */
 #define RESIDUE 1e-20        /* 200 dB below the carrier: rounding residue (as dsp/figures.h)      */
+#define OTHER_DBC (-40.0)    /* another line this strong is of consequence (channel rule 6)         */
+#define OTHER_Z 5.2          /* 1 - 1e-7: the strongest of the band's lobes (as a tone candidate)   */
+#define OTHER_TRIES 8        /* symmetric pairs skipped before the search gives up (rule 6)        */
+#define MAINS_ORDERS 6       /* mains multiples left out of the search (dsp/metrics.h default)     */
 
 struct ml_pair {
     ml_pair_config cfg;
@@ -274,12 +278,104 @@ static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins,
     return o.line_power;
 }
 
+/* The verdict of a symmetric pair ca, cb at bins ks and its mirror around fc (rule 2): IF, unless
+ * the band holds a line at fm itself at least as strong (intermodulation: audio). */
+static void pair_verdict(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, size_t ks,
+                         double fc, double p1, double floor, const ml_component *ca, const ml_component *cb,
+                         ml_if_evidence_result *r)
+{
+    const double bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec);
+    double fs_hz = (double)ks * bin_hz;
+    ml_spectrum_get_frequency(spec, ks, &fs_hz);
+    const double fm = fabs(fs_hz - fc), ps = fmax(ca->line_power, cb->line_power);
+    r->sideband_hz = fm;
+    r->sideband_dbc = dbc(ps, p1);
+    const size_t cm = bin_of(fm, bin_hz);
+    const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
+    r->baseband_dbc = dbc(pb, p1);
+    r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
+    r->why = pb >= ps ? ML_IFW_SIDEBANDS_IMD : ML_IFW_SIDEBANDS;
+}
+
+/* True when bin k lies in the lobe (with the 1 % tolerance of dsp/metrics.h) of a mains multiple
+ * k mains, k = 1..MAINS_ORDERS, of 50 or 60 Hz (or of mains_hz). */
+static bool at_mains(size_t k, double mains_hz, double bin_hz, size_t lobe)
+{
+    for (int j = 0; j < 2; j++) {
+        const double mains = mains_hz > 0 ? mains_hz : (j ? 60.0 : 50.0);
+        for (int m = 1; m <= MAINS_ORDERS; m++) {
+            const size_t c = bin_of(m * mains, bin_hz), tol = (size_t)ceil(0.01 * m * mains / bin_hz);
+            if ((k > c ? k - c : c - k) <= lobe + tol)
+                return true;
+        }
+    }
+    return false;
+}
+
+/* A symmetric pair around fc met by the search of rule 6: the line at bin ks and its mirror. */
+typedef struct {
+    size_t ks; /* 0: none */
+    ml_component ca, cb;
+} side_pair;
+
+/* Rule 6 (header): the strongest line of the band outside fc's lobe, DC's and the mains multiples',
+ * passing over symmetric pairs around fc (the first one into *pair), when it is of consequence: it
+ * stands clear of the noise as a tone candidate must (its lobe over the noise expected there beyond
+ * the 1 - 1e-7 F quantile), above the floor, within OTHER_DBC of fc and has no mirror within
+ * SYMMETRIC_DB. Its line power and bin, or 0 when there is none. */
+static double other_line(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, double p1,
+                         double floor, double mains_hz, size_t *bin, side_pair *pair)
+{
+    pair->ks = 0;
+    const size_t lobe = ml_spectrum_lobe_bins(spec), gap = 2 * lobe + 1;
+    const double bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec);
+    /* the noise estimate of ml_line_measure holds at least 4 lobes' worth of bins */
+    const double t = ml_f_quantile(ml_spectrum_dof(spec, gap), ml_spectrum_dof(spec, 4 * gap), OTHER_Z);
+    size_t skip[2 * OTHER_TRIES], nskip = 0;
+    const size_t klo = bin_of(20.0, bin_hz);
+    for (int tries = 0; tries < OTHER_TRIES; tries++) {
+        size_t ko = 0;
+        for (size_t k = klo; k + lobe < nbins; k++) {
+            if ((k > kf ? k - kf : kf - k) < gap || (ko != 0 && psd[k] <= psd[ko])
+                || !ml_spectrum_clears_dc(spec, k) || at_mains(k, mains_hz, bin_hz, lobe))
+                continue;
+            bool skipped = false;
+            for (size_t i = 0; i < nskip && !skipped; i++)
+                skipped = (k > skip[i] ? k - skip[i] : skip[i] - k) < gap;
+            if (!skipped)
+                ko = k;
+        }
+        if (ko == 0)
+            return 0.0;
+        const size_t km = 2 * kf > ko ? 2 * kf - ko : 0; /* its mirror around fc */
+        const bool has_mirror = km > 0 && km + lobe < nbins && ml_spectrum_clears_dc(spec, km);
+        const size_t excl[3] = {kf, 2 * kf, has_mirror ? km : kf};
+        ml_component o;
+        if (ml_line_measure(spec, psd, nbins, ko, excl, 3, &o) != ML_OK || !real_line(&o, floor)
+            || !(o.power > t * o.noise_power) || !(o.line_power >= p1 * pow(10.0, OTHER_DBC / 10.0)))
+            return 0.0; /* the strongest left is no line of consequence: none is */
+        ml_component om;
+        const size_t excl_m[3] = {kf, 2 * kf, ko};
+        if (has_mirror && ml_line_measure(spec, psd, nbins, km, excl_m, 3, &om) == ML_OK
+            && symmetric(&o, &om, floor)) {
+            if (pair->ks == 0)
+                *pair = (side_pair){.ks = ko, .ca = o, .cb = om};
+            skip[nskip++] = ko; /* a sideband pair: modulation, not another signal */
+            skip[nskip++] = km;
+            continue;
+        }
+        *bin = ko;
+        return o.line_power;
+    }
+    return 0.0;
+}
+
 ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidence_result *r)
 {
     if (spec == NULL || r == NULL || ml_spectrum_is_complex(spec) || !(mains_hz == 0 || mains_hz == 50 || mains_hz == 60))
         return ML_EINVAL;
     *r = (ml_if_evidence_result){.verdict = ML_CHANNEL_UNDECIDED, .sideband_dbc = NAN, .baseband_dbc = NAN,
-                                 .harmonic_dbc = NAN};
+                                 .harmonic_dbc = NAN, .other_dbc = NAN};
     const double rate = ml_spectrum_rate_hz(spec), nyq = rate / 2.0;
     ml_audio_config cfg = ml_audio_config_default();
     cfg.band_lo_hz = 20.0;
@@ -334,17 +430,7 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
     if (ks != 0 && ml_spectrum_clears_dc(spec, ks) && ml_spectrum_clears_dc(spec, 2 * kf - ks)) {
         ml_component ca, cb;
         if (measure_pair(spec, psd, nbins, kf, ks, 2 * kf - ks, &ca, &cb) && symmetric(&ca, &cb, floor)) {
-            double fs_hz = (double)ks * bin_hz;
-            ml_spectrum_get_frequency(spec, ks, &fs_hz);
-            const double fm = fabs(fs_hz - fc), ps = fmax(ca.line_power, cb.line_power);
-            r->sideband_hz = fm;
-            r->sideband_dbc = dbc(ps, p1);
-            const size_t cm = bin_of(fm, bin_hz);
-            const double pb =
-                ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
-            r->baseband_dbc = dbc(pb, p1);
-            r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
-            r->why = pb >= ps ? ML_IFW_SIDEBANDS_IMD : ML_IFW_SIDEBANDS;
+            pair_verdict(spec, psd, nbins, kf, ks, fc, p1, floor, &ca, &cb, r);
             goto done;
         }
     }
@@ -394,7 +480,23 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
         r->why = ML_IFW_BASEBAND_HUM;
         goto done;
     }
-    /* rule 6 */
+    /* rule 6: another line of consequence */
+    size_t ko = 0;
+    side_pair pair;
+    const double po = other_line(spec, psd, nbins, kf, p1, floor, mains_hz, &ko, &pair);
+    if (po > 0) {
+        r->other_hz = (double)ko * bin_hz;
+        ml_spectrum_get_frequency(spec, ko, &r->other_hz);
+        r->other_dbc = dbc(po, p1);
+        r->verdict = ML_CHANNEL_AUDIO;
+        r->why = ML_IFW_OTHER_LINE;
+        goto done;
+    }
+    if (pair.ks != 0) { /* sidebands farther out than rule 2 looks: as rule 2 */
+        pair_verdict(spec, psd, nbins, kf, pair.ks, fc, p1, floor, &pair.ca, &pair.cb, r);
+        goto done;
+    }
+    /* rule 7 */
     r->verdict = ML_CHANNEL_IF;
     r->why = ML_IFW_LONE_CARRIER;
 done:
@@ -444,9 +546,16 @@ char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
         snprintf(buf, n, "mains hum at baseband (%.1f dBc) and none on the %.1f Hz tone: audio", r->baseband_dbc, fc);
         break;
     case ML_IFW_LONE_CARRIER:
-        snprintf(buf, n, "a lone line at %.1f Hz, above 3 kHz, with neither sidebands, harmonics nor hum of its own: "
-                         "an unmodulated AM carrier (IF)",
+        snprintf(buf, n,
+                 "a lone line at %.1f Hz, above 3 kHz, with neither sidebands, harmonics nor hum of its "
+                 "own and no other line within 40 dB: an unmodulated AM carrier (IF)",
                  fc);
+        break;
+    case ML_IFW_OTHER_LINE:
+        snprintf(buf, n,
+                 "the %.1f Hz line is not alone: another at %.1f Hz (%.1f dBc), no sideband of it, "
+                 "stands clear of the noise: audio",
+                 fc, r->other_hz, r->other_dbc);
         break;
     case ML_IFW_NOISE:
         snprintf(buf, n,

@@ -50,7 +50,21 @@
  *  4. harmonics of fc above the noise (2 fc below Nyquist): audio (an AM channel holds nothing at
  *     twice its carrier);
  *  5. mains hum at baseband above the noise (and none on fc): audio;
- *  6. otherwise (a lone line above 3 kHz, perhaps in noise): IF, an unmodulated carrier.
+ *  6. another line of consequence: the strongest line of the band (20 Hz up) outside the lobes of
+ *     fc, of DC and of the mains multiples k mains (k = 1..6, 1 % tolerance) stands clear of the
+ *     noise as a tone candidate must (its lobe's power over the noise expected there beyond the
+ *     1 - 1e-7 F quantile: it is the strongest of many lobes), lies within 40 dB of fc (common
+ *     practice: test signals put a second tone within 12 dB -- twin tones, SMPTE and DIN 4:1,
+ *     docs/references.md 12 --, pickup and converter spurs lie lower), and is no
+ *     member of a symmetric pair around fc (its mirror 2 fc - f above the noise and within 3 dB:
+ *     modulation; such a pair is passed over and the next strongest line taken, up to 8 times):
+ *     audio (two tones, a tone among other lines: an AM channel holds one carrier and its
+ *     sidebands). A carrier whose strongest sidebands differ by more than 3 dB (incidental phase
+ *     modulation), or with a neighbouring station's carrier within 40 dB, reads as audio: give
+ *     the kind. When the search passed over a pair (sidebands farther than rule 2's +-10 kHz)
+ *     and found nothing else, that pair decides as in rule 2;
+ *  7. otherwise (a lone line above 3 kHz, perhaps in noise, with no other line within 40 dB):
+ *     IF, an unmodulated carrier.
  */
 #ifndef ML_DSP_KIND_H
 #define ML_DSP_KIND_H
@@ -120,8 +134,9 @@ typedef enum {
     ML_IFW_HUM_IMD,             /* rule 3: audio, hum at baseband at least as strong           */
     ML_IFW_HARMONICS,           /* rule 4: audio                                               */
     ML_IFW_BASEBAND_HUM,        /* rule 5: audio                                               */
-    ML_IFW_LONE_CARRIER,        /* rule 6: IF                                                  */
+    ML_IFW_LONE_CARRIER,        /* rule 7: IF                                                  */
     ML_IFW_NOISE,               /* rule 0: audio, no line stands clear of the noise             */
+    ML_IFW_OTHER_LINE,          /* rule 6: audio, another line of consequence in the band       */
 } ml_if_why;
 
 typedef struct {
@@ -132,6 +147,8 @@ typedef struct {
     double sideband_dbc;   /* the stronger sideband re fc, dB (NAN: none)                   */
     double baseband_dbc;   /* the line at fm (rule 2) or k mains (rule 3, 5) re fc (NAN)    */
     double harmonic_dbc;   /* the strongest harmonic above the noise re fc (NAN: none)       */
+    double other_hz;       /* the other line of rule 6, else 0                              */
+    double other_dbc;      /* its line power re fc, dB (NAN: none)                          */
 } ml_if_evidence_result;
 
 /* The evidence that the real channel whose Welch spectrum is spec (real input, at least one

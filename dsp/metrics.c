@@ -193,12 +193,12 @@ static double component_power(const double *psd, size_t nbins, size_t c, size_t 
     return lobe_sum(psd, nbins, c, lobe, &count) / enbw;
 }
 
-/* Mean psd over the noise bins near c (its own lobe left out): 4 lobes either side, doubled until
- * 4 lobes' worth of noise bins are found or the band is covered. *count: the bins averaged (0:
- * none anywhere in the band). */
-static double local_density(const ctx *x, size_t c, size_t *count)
+/* The noise bins near c (its own lobe left out): hw0 (at least 4 lobes) either side, doubled until
+ * 4 lobes' worth of noise bins are found or the band is covered. Sets [*lo, *hi] to that window
+ * and *count to the noise bins in it (0: none anywhere in the band); returns their psd's sum. */
+static double local_window(const ctx *x, size_t c, size_t hw0, size_t *lo_out, size_t *hi_out, size_t *count)
 {
-    size_t hw = 4 * x->lobe;
+    size_t hw = hw0 > 4 * x->lobe ? hw0 : 4 * x->lobe;
     const size_t want = 4 * (2 * x->lobe + 1);
     for (;;) {
         const size_t lo = c > x->klo + hw ? c - hw : x->klo, hi = c + hw < x->khi ? c + hw : x->khi;
@@ -210,11 +210,64 @@ static double local_density(const ctx *x, size_t c, size_t *count)
                 n++;
             }
         if (n >= want || (lo <= x->klo && hi >= x->khi)) {
+            *lo_out = lo;
+            *hi_out = hi;
             *count = n;
-            return n ? s / (double)n : 0.0;
+            return s;
         }
         hw *= 2;
     }
+}
+
+/* Mean psd over the noise bins near c (local_window). *count: the bins averaged (0: none). */
+static double local_density(const ctx *x, size_t c, size_t *count)
+{
+    size_t lo, hi;
+    const double s = local_window(x, c, 0, &lo, &hi, count);
+    return *count ? s / (double)*count : 0.0;
+}
+
+/* The pattern of a non-negative double (they order as their patterns do); negatives as 0. */
+static uint64_t pattern(double v)
+{
+    uint64_t u = 0;
+    if (v > 0)
+        memcpy(&u, &v, sizeof u);
+    return u;
+}
+
+/* The median-based noise density around c (header, tone or no tone rule 3): the median of the noise
+ * bins of local_window from hw0 bins either side, scaled to a mean for the spread of one bin's
+ * estimate (about chi-square with nu = ml_spectrum_dof of one bin: median / mean =
+ * (1 - 2/(9 nu))^3, [wilson:1931]). Lines among those bins -- sidebands, other tones, the splatter
+ * beside them -- are not taken for noise while they hold fewer than half of them, as they are in a
+ * mean. The lower median is found by bisection on the values' patterns: exact, no allocation. 0
+ * when the band has no noise bin. */
+static double local_density_robust(const ctx *x, size_t c, size_t hw0)
+{
+    size_t lo, hi, n;
+    (void)local_window(x, c, hw0, &lo, &hi, &n);
+    if (n == 0)
+        return 0.0;
+    const size_t rank = (n + 1) / 2; /* the smallest value with at least rank bins at or below it */
+    uint64_t a = 0, b = 0;
+    for (size_t k = lo; k <= hi; k++)
+        if (dist(k, c) > x->lobe && is_noise(x, k) && pattern(x->psd[k]) > b)
+            b = pattern(x->psd[k]);
+    while (a < b) { /* the median's pattern lies in [a, b] */
+        const uint64_t mid = a + (b - a) / 2;
+        size_t below = 0;
+        for (size_t k = lo; k <= hi; k++)
+            below += dist(k, c) > x->lobe && is_noise(x, k) && pattern(x->psd[k]) <= mid;
+        if (below >= rank)
+            b = mid;
+        else
+            a = mid + 1;
+    }
+    double med;
+    memcpy(&med, &a, sizeof med);
+    const double w = 1.0 - 2.0 / (9.0 * dof(x, 1));
+    return w > 0 ? med / (w * w * w) : med;
 }
 
 /* The component at bin c against the noise near it (header). *nu_noise: the dof of that noise
@@ -668,17 +721,17 @@ static void look_at(const ctx *x, size_t c, tone_look *t)
 {
     ml_component o;
     double nu = INFINITY;
-    size_t cnt = 0;
-    const double nd = fmax(local_density(x, c, &cnt), x->floor_bin);
     line_stats(x, c, Z_TONE, &o, &nu);
     t->bin = c;
     t->power = o.power;
     t->noise = o.noise_power;
     t->stat_ok = o.above_noise;
-    /* a third of an octave around c (never narrower than the lobe: the instrument's resolution) */
+    /* a third of an octave around c (never narrower than the lobe: the instrument's resolution),
+     * its noise density the median over (at least) that width centred on c */
     double third = (double)c * (pow(2.0, 1.0 / 6.0) - pow(2.0, -1.0 / 6.0));
     if (third < (double)(2 * x->lobe + 1))
         third = (double)(2 * x->lobe + 1);
+    const double nd = fmax(local_density_robust(x, c, (size_t)ceil(third / 2.0)), x->floor_bin);
     const double n3 = nd * third / x->enbw;
     /* a lobe that reaches into DC's holds DC's leakage too: only its bins beyond DC's lobe are the
      * line's own (the whole lobe of an unmodulated carrier's envelope, flat noise beside DC's

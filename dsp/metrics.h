@@ -75,8 +75,13 @@
  *  3. the candidate is a test tone when it is clear: its power exceeds the noise in its lobe by
  *     more than the 1 - 1e-7 quantile of noise alone (it was picked as the strongest of
  *     thousands of lobes), and it is at least ML_TONE_CLEAR_DB above the noise in the third of an
- *     octave around it (local density excluding every line, so strong hum does not mask it; the
- *     ear's critical band is about a third of an octave wide: common practice); for a candidate
+ *     octave around it (the ear's critical band is about a third of an octave wide: common
+ *     practice): the noise density there is the median of the noise bins near the candidate (the
+ *     bins the local density averages), scaled to a mean for the chi-square spread of one bin
+ *     (median / mean = (1 - 2/(9 nu))^3, nu = ml_spectrum_dof of one bin), times the third
+ *     octave's bins; the mean would take other lines among those bins -- strong hum, a carrier's
+ *     sidebands, another tone, the splatter beside them -- for noise, the median does not while
+ *     they hold fewer than half of the bins; for a candidate
  *     whose lobe does not clear DC's (ml_spectrum_clears_dc) only the lobe's bins beyond DC's
  *     lobe count (DC's leakage is no line: an offset, an unmodulated carrier's envelope). A
  *     candidate at a higher multiple of the mains (order > hum_harmonics, within a bin or 0.05 Hz

@@ -330,6 +330,84 @@ START_TEST(channel_if_or_audio)
 }
 END_TEST
 
+static double two_tones(size_t i, ts_rng *g)
+{
+    /* test_imd's difference-frequency example: 13 and 14 kHz at 0.5, 1 kHz at 0.03, 12 and
+     * 15 kHz at 0.02, scaled by 0.9 (phases 0.37 k as there) */
+    const double t = (double)i / FS, f[5] = {13000.0, 14000.0, 1000.0, 12000.0, 15000.0};
+    const double a[5] = {0.5, 0.5, 0.03, 0.02, 0.02};
+    double x = 0.0;
+    for (int k = 0; k < 5; k++)
+        x += a[k] * sin(2 * TS_PI * f[k] * t + 0.37 * k);
+    return 0.9 * x + 1e-6 * ts_gauss(g);
+}
+static double tone_and_low_line(size_t i, ts_rng *g)
+{
+    /* an 8 kHz tone and a 2 kHz line 30 dB down (amplitude ratio 10^(-30/20)), no 14 kHz mirror */
+    const double t = (double)i / FS;
+    return 0.3 * sin(2 * TS_PI * 8000.0 * t) + 0.3 * pow(10.0, -1.5) * sin(2 * TS_PI * 2000.0 * t + 0.2)
+           + 1e-5 * ts_gauss(g);
+}
+static double carrier_weak_spur(size_t i, ts_rng *g)
+{
+    /* a 10 kHz carrier with a 2 kHz spur 50 dB down: no line of consequence */
+    const double t = (double)i / FS;
+    return 0.3 * cos(2 * TS_PI * 10000.0 * t) + 0.3 * pow(10.0, -2.5) * sin(2 * TS_PI * 2000.0 * t)
+           + 1e-5 * ts_gauss(g);
+}
+static double carrier_hum_noise(size_t i, ts_rng *g)
+{
+    /* a 12 kHz carrier with mains hum at baseband 70 dB down (below rule 5's 60 dB) in noise */
+    const double t = (double)i / FS;
+    return 0.3 * cos(2 * TS_PI * 12000.0 * t) + 0.3 * pow(10.0, -3.5) * sin(2 * TS_PI * 50.0 * t)
+           + 1e-5 * ts_gauss(g);
+}
+static double carrier_far_sidebands(size_t i, ts_rng *g)
+{
+    /* a 12 kHz carrier AM at 11 kHz, m = 0.5: sidebands at 1 and 23 kHz, beyond rule 2's +-10 kHz */
+    const double t = (double)i / FS;
+    return 0.3 * (1 + 0.5 * sin(2 * TS_PI * 11000.0 * t)) * cos(2 * TS_PI * 12000.0 * t) + 1e-5 * ts_gauss(g);
+}
+
+START_TEST(channel_lone_only_when_alone)
+{
+    /* dsp/kind.h rule 6: a line is lone only when no other line within 40 dB of it stands clear
+     * of the noise, other than a symmetric pair around it or mains hum.
+     *  - test_imd's DFD signal: 13 and 14 kHz of equal strength (0 dB apart, 0.1 dB: float
+     *    rounding and noise are some 150 dB down), and a 1 kHz line: audio, the other line named;
+     *  - an 8 kHz tone with a 2 kHz line at -30 dBc (the amplitudes' ratio): audio, other line
+     *    -30.0 dBc within 0.1 dB;
+     *  - a carrier with a spur at -50 dBc, and one with baseband hum at -70 dBc (both more than
+     *    40 dB down): IF, a lone carrier, no other line reported;
+     *  - a carrier with sidebands 11 kHz off (20 lg(0.25) = -12.04 dBc, docs/references.md 6),
+     *    beyond rule 2's span: the pair is modulation, not another line: IF with those sidebands. */
+    ml_if_evidence_result r = channel_of(two_tones, 21);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_AUDIO);
+    ck_assert_int_eq(r.why, ML_IFW_OTHER_LINE);
+    ck_assert(fabs(r.carrier_hz - 13000.0) < 0.01 || fabs(r.carrier_hz - 14000.0) < 0.01);
+    ck_assert_double_eq_tol(r.other_hz, 27000.0 - r.carrier_hz, 0.01);
+    ck_assert_double_eq_tol(r.other_dbc, 0.0, 0.1);
+    r = channel_of(tone_and_low_line, 22);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_AUDIO);
+    ck_assert_int_eq(r.why, ML_IFW_OTHER_LINE);
+    ck_assert_double_eq_tol(r.carrier_hz, 8000.0, 0.01);
+    ck_assert_double_eq_tol(r.other_hz, 2000.0, 0.01);
+    ck_assert_double_eq_tol(r.other_dbc, -30.0, 0.1);
+    r = channel_of(carrier_weak_spur, 23);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_IF);
+    ck_assert_int_eq(r.why, ML_IFW_LONE_CARRIER);
+    ck_assert(isnan(r.other_dbc));
+    r = channel_of(carrier_hum_noise, 24);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_IF);
+    ck_assert_int_eq(r.why, ML_IFW_LONE_CARRIER);
+    r = channel_of(carrier_far_sidebands, 25);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_IF);
+    ck_assert_int_eq(r.why, ML_IFW_SIDEBANDS);
+    ck_assert_double_eq_tol(r.sideband_hz, 11000.0, 0.01);
+    ck_assert_double_eq_tol(r.sideband_dbc, 20.0 * log10(0.25), 0.05);
+}
+END_TEST
+
 static Suite *kind_suite(void)
 {
     Suite *s = suite_create("dsp_kind");
@@ -343,6 +421,7 @@ static Suite *kind_suite(void)
     tc = tcase_create("channel");
     tcase_set_timeout(tc, 60);
     tcase_add_test(tc, channel_if_or_audio);
+    tcase_add_test(tc, channel_lone_only_when_alone);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -843,6 +843,40 @@ START_TEST(tone_clear_six_db_over_hum)
 }
 END_TEST
 
+START_TEST(tone_clear_among_sidebands)
+{
+    /* A 12 kHz carrier 0.4 with AM sidebands at +-20 and +-50 Hz (m = 0.6 each: 20 lg 0.3 =
+     * -10.46 dBc a side, docs/references.md 6), white noise sigma = 1e-5. The sidebands lie among
+     * the bins whose density the tone decision takes for noise near the carrier; they are lines,
+     * not noise. Truth (analytic): the carrier's power 0.4^2/2 = 0.08 over the white noise in the
+     * third octave around it, sigma^2 third / (nfft/2) with third = 16384 (2^(1/6) - 2^(-1/6)) =
+     * 3794 bins: 10 lg(0.08 / 1.158e-11) = 98.39 dB. 0.5 dB holds the median's spread (14
+     * segments, some 3700 noise bins: well under 0.1 dB sd) and the Wilson-Hilferty scaling of
+     * median to mean (Wilson and Hilferty 1931: within 0.06 dB of scipy's chi2.median for nu >= 2).
+     * A mean over the bins near the carrier would read the sidebands' -10 dBc as noise and leave
+     * the carrier far short of clear. */
+    double *x = zeros(N_STAT);
+    add_noise(x, N_STAT, 1e-5, 41);
+    for (size_t i = 0; i < N_STAT; i++) {
+        const double t = (double)i / FS;
+        x[i] += 0.4 * (1.0 + 0.6 * sin(2 * TS_PI * 20.0 * t) + 0.6 * sin(2 * TS_PI * 50.0 * t + 0.5))
+                * cos(2 * TS_PI * 12000.0 * t);
+    }
+    ml_audio_config cfg = ml_audio_config_default();
+    ml_audio_result r;
+    ck_assert_int_eq(analyse_hop(x, N_STAT, NFFT, &cfg, &r), ML_OK);
+    free(x);
+    assert_in_range(&r, "carrier among sidebands");
+    ck_assert_double_eq_tol(r.candidate_hz, 12000.0, 1e-3);
+    ck_assert_msg(r.tone_present && r.tone_clear, "not clear: margin %.2f dB", r.candidate_margin_db);
+    ck_assert_int_eq(r.tone_why, ML_WHY_TONE_CLEAR);
+    const double third = 16384.0 * (pow(2.0, 1.0 / 6.0) - pow(2.0, -1.0 / 6.0));
+    const double want = db10(0.08 / (1e-10 * third / (NFFT / 2.0)));
+    ck_assert_msg(fabs(r.candidate_margin_db - want) <= 0.5, "margin %.2f dB vs %.2f", r.candidate_margin_db,
+                  want);
+}
+END_TEST
+
 START_TEST(tone_mode_forced_and_tone_hz)
 {
     double *x = zeros(N_DET);
@@ -1280,6 +1314,7 @@ static Suite *metrics_suite(void)
     tcase_add_test(tc, no_tone_noise_only);
     tcase_add_test(tc, dc_leakage_is_no_tone);
     tcase_add_test(tc, tone_clear_six_db_over_hum);
+    tcase_add_test(tc, tone_clear_among_sidebands);
     tcase_add_test(tc, tone_mode_forced_and_tone_hz);
     tcase_add_test(tc, thd_not_measurable_without_harmonic_in_band);
     tcase_add_test(tc, thd_noise_limited_is_a_bound);
