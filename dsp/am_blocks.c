@@ -7,12 +7,15 @@
 
 #include "dsp/am_internal.h"
 
-ml_status ml_am_blocks_init(ml_am_blocks *b, size_t len, double carrier_ref, double quiet_rel)
+ml_status ml_am_blocks_init(ml_am_blocks *b, size_t len, double carrier_ref, double quiet_rel, double neff)
 {
     memset(b, 0, sizeof *b);
     b->len = len;
     b->carrier_ref = carrier_ref;
     b->quiet_rel = quiet_rel;
+    /* three standard deviations of var(E) - var(Q) for Gaussian noise: each variance estimate of
+     * neff independent samples has a relative spread sqrt(2 / neff), their difference 2 / sqrt(neff) */
+    b->allow = 6.0 / sqrt(neff > 1 ? neff : 1);
     b->hist_scale = ML_AM_HIST_BINS / (ML_AM_HIST_RANGE * carrier_ref);
     b->pending = malloc(ML_AM_OVERSAMPLE * len * sizeof *b->pending);
     b->hist_quiet = malloc(ML_AM_HIST_BINS * sizeof *b->hist_quiet);
@@ -35,9 +38,12 @@ void ml_am_blocks_free(ml_am_blocks *b)
 void ml_am_blocks_reset(ml_am_blocks *b)
 {
     b->fill = 0;
-    b->sum = b->sumsq = 0;
+    b->sum = b->sumsq = b->sum_s = b->sum_q = b->sumsq_q = 0;
+    b->sum_y = 0;
     b->npending = 0;
     b->sum_all = b->sum_mod = b->sum_quiet = 0;
+    b->sum_s_all = b->sum_s_mod = 0;
+    b->q_var_all = b->q_var_quiet = 0;
     b->n_mod = b->n_quiet = 0;
     memset(b->hist_quiet, 0, ML_AM_HIST_BINS * sizeof *b->hist_quiet);
     memset(b->hist_mod, 0, ML_AM_HIST_BINS * sizeof *b->hist_mod);
@@ -49,16 +55,24 @@ bool ml_am_blocks_end(ml_am_blocks *b)
     const double n = (double)b->fill;
     const double mean = b->sum / n;
     const double var = fmax(0.0, b->sumsq / n - mean * mean);
-    /* a missing carrier is not a quiet carrier */
-    const bool quiet = mean > 0.05 * b->carrier_ref && sqrt(var) < b->quiet_rel * mean;
+    const double mq = b->sum_q / n;
+    const double var_q = fmax(0.0, b->sumsq_q / n - mq * mq);
+    const double still = b->quiet_rel * mean;
+    /* a missing carrier is not a quiet carrier, and one drowned in noise cannot be told quiet */
+    const bool quiet = mean > 0.05 * b->carrier_ref && var - var_q < still * still + b->allow * var_q
+                       && var_q < 0.01 * mean * mean;
     if (quiet) {
         b->sum_quiet += b->sum;
         b->n_quiet += b->fill;
+        b->q_var_quiet += var_q * n;
     } else {
         b->sum_mod += b->sum;
+        b->sum_s_mod += b->sum_s;
         b->n_mod += b->fill;
     }
     b->sum_all += b->sum;
+    b->sum_s_all += b->sum_s;
+    b->q_var_all += var_q * n;
     uint64_t *restrict h = quiet ? b->hist_quiet : b->hist_mod;
     const uint16_t *restrict p = b->pending;
     const size_t np = b->npending; /* a local count: h's stores could alias the fields */
@@ -69,9 +83,18 @@ bool ml_am_blocks_end(ml_am_blocks *b)
     else
         b->hist_mod_n += np;
     b->fill = 0;
-    b->sum = b->sumsq = 0;
+    b->sum = b->sumsq = b->sum_s = b->sum_q = b->sumsq_q = 0;
+    b->sum_y = 0;
     b->npending = 0;
     return !quiet;
+}
+
+double ml_am_blocks_noise_var(const ml_am_blocks *b)
+{
+    if (b->n_quiet > 0)
+        return b->q_var_quiet / (double)b->n_quiet;
+    const uint64_t n = b->n_quiet + b->n_mod;
+    return n > 0 ? b->q_var_all / (double)n : -1.0;
 }
 
 /* Level below which a share p of the histogram's mass lies (linear within a bin). */
@@ -95,7 +118,8 @@ double ml_am_blocks_quantile(const ml_am_blocks *b, double p)
     /* without modulated blocks every block was quiet: all of them are the quiet ones */
     const bool use_mod = b->hist_mod_n > 0;
     return quantile(use_mod ? b->hist_mod : b->hist_quiet, use_mod ? b->hist_mod_n : b->hist_quiet_n, p,
-                    b->hist_scale);
+                    b->hist_scale)
+           - ML_AM_HIST_LOW * b->carrier_ref;
 }
 
 double ml_am_blocks_fraction_below(const ml_am_blocks *b, double level)
@@ -103,7 +127,7 @@ double ml_am_blocks_fraction_below(const ml_am_blocks *b, double level)
     const uint64_t total = b->hist_quiet_n + b->hist_mod_n;
     if (total == 0)
         return 0.0;
-    double v = level * b->hist_scale;
+    double v = (level + ML_AM_HIST_LOW * b->carrier_ref) * b->hist_scale;
     if (v <= 0)
         return 0.0;
     size_t k = v >= ML_AM_HIST_BINS ? ML_AM_HIST_BINS : (size_t)v;

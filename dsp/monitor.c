@@ -175,7 +175,8 @@ static ml_status find_carrier(ml_monitor *q)
     const double rate = q->cfg.rate_hz;
     const bool iq = q->cfg.kind == ML_MONITOR_IQ;
     window_spectrum(q);
-    const ml_carrier_config cc = ml_carrier_config_default(rate, iq, q->cfg.carrier_hz);
+    ml_carrier_config cc = ml_carrier_config_default(rate, iq, q->cfg.carrier_hz);
+    cc.min_prominence_db = ML_MODULATION_MIN_PROMINENCE_DB; /* a window of noise holds no carrier */
     ml_carrier car;
     if (ml_carrier_find(q->spec, &cc, &car) != ML_OK || !(car.amplitude > 0))
         return ML_ENOSIGNAL;
@@ -224,8 +225,11 @@ static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
     const ml_status st = ml_modulation_get_result(q->mod, m);
     const double a_car = m->carrier_amplitude;
     r->carrier_ok = st == ML_OK && a_car > 0;
-    if (st != ML_OK)
+    if (st != ML_OK) {
+        /* the carrier went (no line stands out of the noise): find it afresh next time */
+        q->have_carrier = false;
         return ML_ENOSIGNAL;
+    }
     r->audio_ok = m->audio_valid;
     r->audio = m->audio;
     const double p_car = a_car * a_car * ml_spectrum_full_scale_power(ml_modulation_get_spectrum(q->mod));
@@ -248,6 +252,8 @@ static ml_status analyse_audio(ml_monitor *q, ml_monitor_result *r)
     ml_level_figures lv;
     ml_figures_level(&s, 1, &lv);
     r->rms_dbfs = lv.rms_dbfs;
+    r->peak_dbfs = lv.peak_dbfs;
+    r->clipped = lv.clipped;
     ml_audio_config acfg = q->cfg.audio;
     acfg.band_hi_hz = fmin(acfg.band_hi_hz, q->cfg.rate_hz / 2);
     ml_audio_result au;
@@ -269,7 +275,7 @@ static void empty_result(const ml_monitor *q, ml_monitor_result *r)
     memset(r, 0, sizeof *r);
     r->window_s = (double)q->cap / q->cfg.rate_hz;
     r->analysed_frames = q->pushed;
-    r->rms_dbfs = nan;
+    r->rms_dbfs = r->peak_dbfs = nan;
     ml_figures_audio_none(&r->audio);
     ml_modulation_result *m = &r->modulation;
     m->carrier_hz = m->carrier_amplitude = m->carrier_level_dbfs = m->c = m->unmodulated_dbfs = nan;
@@ -277,6 +283,8 @@ static void empty_result(const ml_monitor *q, ml_monitor_result *r)
     m->positive_peak_pct = m->negative_peak_pct = m->carrier_shift_pct = m->overmodulation_pct = nan;
     m->sideband_asymmetry_db = m->trapezoid_deviation_pct = m->occupied_bandwidth_hz = nan;
     m->emax_rel = m->emin_rel = nan;
+    m->positive_peak_held_pct = m->carrier_off_pct = m->carrier_prominence_db = nan;
+    m->noise_pct = m->floor_pct = m->reversal_pct = m->held_noise_pct = m->top_noise_pct = nan;
     ml_figures_audio_none(&m->audio);
 }
 

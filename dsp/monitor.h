@@ -56,6 +56,8 @@ typedef struct {
     /* audio kind: the input's figures; if/iq: the demodulated audio's (modulation.audio)         */
     bool audio_ok;             /* the audio analysis succeeded (otherwise its figures are NAN)    */
     double rms_dbfs;           /* audio kind: RMS level of the window (dsp/figures.h)              */
+    double peak_dbfs;          /* audio kind: its peak level (dsp/figures.h)                       */
+    uint64_t clipped;          /* audio kind: its clipped samples (dsp/figures.h, 24-bit LSB)      */
     ml_audio_plain_figures audio;
     /* if/iq (everything NAN for audio)                                                          */
     bool carrier_ok;           /* a carrier line was found in the window                           */
@@ -83,7 +85,10 @@ size_t ml_monitor_fill(const ml_monitor *q);
 ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_t n);
 
 /* Analyses the ring. ML_ENOSIGNAL until the ring is full, and for if/iq when no carrier is found
- * or it vanishes (out->carrier_ok false); ML_ENOMEM / ML_EFFT when creating the modulation
+ * or it vanishes (out->carrier_ok false): the strongest component, or the one near the nominal
+ * carrier, must stand ML_MODULATION_MIN_PROMINENCE_DB out of the noise (dsp/carrier.h), and the
+ * window's carrier line too (dsp/modulation.h); after a window without one the carrier is
+ * searched afresh (and C forgotten, as on a re-find); ML_ENOMEM / ML_EFFT when creating the modulation
  * analysis after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and
  * inside ml_audio_analyze's temporaries. */
 ml_status ml_monitor_analyse(ml_monitor *q, ml_monitor_result *out);
