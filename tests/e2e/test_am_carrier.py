@@ -119,7 +119,9 @@ def main():
                      "mean |hilbert| over the lead-in")
             ck.close("if vs hilbert: index", g("modulation.index"), (emax - emin) / (emax + emin), 0.001,
                      "quantile Emax/Emin of |hilbert|")
-            ck.close("if vs hilbert: positive_peak_pct", g("modulation.positive_peak_pct"),
+            # the held positive peak (README: the true peak is the highest value at any time, which
+            # here falls on the band-limited ringing of the step where the modulation starts)
+            ck.close("if vs hilbert: positive_peak_held_pct", g("modulation.positive_peak_held_pct"),
                      100 * (emax - c) / c, 0.1, "100 (Emax - C)/C")
             ck.close("if vs hilbert: negative_peak_pct", g("modulation.negative_peak_pct"),
                      100 * (c - emin) / c, 0.1, "100 (C - Emin)/C")
