@@ -247,6 +247,11 @@ static void notes(const mod_pass *p, const ml_modulation_result *r, const ml_lev
                        "off %.3f %% and reversed %.3f %% of the modulated time",
                        (unsigned long long)r->pinch_events, (unsigned long long)r->reversal_events,
                        r->carrier_off_pct, r->overmodulation_pct - r->carrier_off_pct);
+    if (r->absent_s > 0)
+        ml_report_note(rep,
+                       "the carrier was absent for %.2f s (20 ms blocks whose mean envelope is below 10 %% of the "
+                       "carrier): those stretches are in no figure",
+                       r->absent_s);
     if (lv->clipped > 0)
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)lv->clipped);
@@ -305,10 +310,12 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     const ml_measure_opts *o = p->o;
     ml_modulation_result r;
     if (ml_modulation_get_result(p->mod, &r) != ML_OK) {
-        if (r.no_carrier != NULL)
-            return ml_cli_error("%s: no carrier at %.1f Hz: the line found stands %.1f dB out of the spectrum "
-                                "around it (at least %.0f dB needed)",
+        if (r.no_carrier != NULL && isfinite(r.carrier_prominence_db))
+            return ml_cli_error("%s: no carrier at %.1f Hz: its line stands %.1f dB out of the spectrum around it "
+                                "(at least %.0f dB needed)",
                                 o->in.path, r.carrier_hz, r.carrier_prominence_db, ML_MODULATION_MIN_PROMINENCE_DB);
+        if (r.no_carrier != NULL)
+            return ml_cli_error("%s: no carrier at %.1f Hz: %s", o->in.path, r.carrier_hz, r.no_carrier);
         return ml_cli_error(r.samples == 0 ? "%s: no envelope could be measured"
                                            : "%s: the carrier vanishes: no envelope to measure",
                             o->in.path);

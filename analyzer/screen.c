@@ -148,8 +148,12 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
     bar(s, 5, "positive peak", v->have ? r->positive_peak_pct : NAN, v->pos_hold_pct, v->pos_limit_pct);
     scale(7);
     if (v->no_signal) { /* before the latch: a warning latched earlier is still shown below */
-        char t[128];
-        snprintf(t, sizeof t, "no carrier / no signal: the window holds no carrier line%s",
+        char t[160], why[64];
+        if (isfinite(v->absent_s))
+            snprintf(why, sizeof why, "the signal is gone for %.2f s of the window", v->absent_s);
+        else
+            snprintf(why, sizeof why, "the window holds no carrier line");
+        snprintf(t, sizeof t, "no carrier / no signal: %s%s", why,
                  v->overmod ? " (overmodulation latched earlier; r clears)" : "");
         banner(s, 8, t);
     }
@@ -158,7 +162,7 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
             attron(COLOR_PAIR(1));
         attron(A_BOLD | A_REVERSE);
         mvprintw(9, 1, "%-*s", COLS - 2, "");
-        mvprintw(9, 2, "*** OVERMODULATION *** %.34s at %.1f s (r clears)", v->overmod_why, v->overmod_at_s);
+        mvprintw(9, 2, "*** OVERMODULATION *** %.48s at %.1f s (r clears)", v->overmod_why, v->overmod_at_s);
         attroff(A_BOLD | A_REVERSE);
         if (s->color)
             attroff(COLOR_PAIR(1));

@@ -369,7 +369,12 @@ static void show(watcher *w, const ml_monitor_result *r, bool have, bool filled)
     v->lost_frames = w->ls.lost_frames - w->base_lost;
     v->have = have;
     v->filled = filled;
-    v->no_signal = v->kind == ML_MONITOR_AUDIO ? !(v->level_peak_dbfs >= SILENCE_DBFS) : filled && !r->carrier_ok;
+    v->no_signal = v->kind == ML_MONITOR_AUDIO ? !(v->level_peak_dbfs >= SILENCE_DBFS)
+                                               : filled && (!r->carrier_ok || r->modulation.absent_s > 0);
+    v->absent_s = v->kind == ML_MONITOR_AUDIO ? NAN
+                  : r->gap_s > 0          ? r->gap_s
+                  : r->carrier_ok         ? r->modulation.absent_s
+                                          : NAN;
     if (have)
         v->res = *r;
     v->pos_hold_pct = ml_peakhold_get_value(w->hold_pos);
@@ -436,8 +441,10 @@ static int update(watcher *w, uint64_t stop_at)
     st = ml_monitor_analyse(w->mon, &r);
     if (st == ML_ENOMEM || st == ML_EFFT)
         return ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
-    /* if/iq: ML_OK only for a window with a carrier line; nothing latches without one */
-    const bool have = st == ML_OK;
+    /* if/iq: ML_OK only for a window with a carrier line; a window where it is absent for a while
+     * (blocks without carrier, dsp/modulation.h) is shown as without carrier too: the signal is
+     * going or coming, and nothing latches then */
+    const bool have = st == ML_OK && !(w->kind != ML_KIND_AUDIO && r.modulation.absent_s > 0);
     const bool filled = ml_monitor_fill(w->mon) == ml_monitor_window_frames(w->mon);
     const double dt = (double)got / w->rate;
     ml_peakhold_push(w->hold_pos, dt, have ? r.modulation.positive_peak_pct : NAN);

@@ -25,7 +25,10 @@ typedef struct {
     uint64_t overflows, lost_frames; /* since the last reset                                     */
     bool have;                      /* res holds an analysis                                     */
     bool filled;                    /* the window was full at the last update                    */
-    bool no_signal;                 /* ... and held no carrier (if/iq) or digital silence (audio) */
+    bool no_signal;                 /* ... and held no carrier, or not throughout (if/iq), or the
+                                       update was digital silence (audio)                         */
+    double absent_s;                /* if/iq: how long the carrier was absent from a window that
+                                       held it for a while (NAN when it held none)                */
     ml_monitor_result res;
     double nominal_hz;              /* --carrier (NAN: none; the offset is then not shown)         */
     double pos_hold_pct, neg_hold_pct; /* peak-hold markers (NAN before the first reading)       */

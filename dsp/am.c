@@ -52,11 +52,11 @@ struct ml_am {
     float slo[CHUNK];                    /* its lowest value per sample                        */
     unsigned char nfl[CHUNK], nfl4[CHUNK], nneg[CHUNK]; /* values below F, 4 F; negative       */
     double er[CHUNK];                    /* the envelope in units of carrier_ref               */
-    double sc[CHUNK], qc[CHUNK];         /* coherent and quadrature components of the baseband */
+    double sc[CHUNK];                    /* coherent component of the baseband                  */
     float ur[CHUNK], ui[CHUNK];          /* the carrier's phasor per sample, conjugated        */
     /* the carrier's phase (carrier_phase): phase (rad) at envelope sample phase_at, turning by
      * omega rad per sample; prot[k] = exp(-i omega k) for omega = prot_omega */
-    bool have_phase;
+    bool have_phase, phase_locked; /* a phase to use; one measured by a block            */
     unsigned phase_misses;
     double phase, phase_at, omega, prot_omega;
     double complex prot[CHUNK];
@@ -190,7 +190,7 @@ void ml_am_reset(ml_am *q)
     q->emax_abs = 0;
     q->emin_abs = INFINITY;
     ml_am_events_reset(&q->events);
-    q->have_phase = false;
+    q->have_phase = q->phase_locked = false;
     q->phase_misses = 0;
     q->phase = q->phase_at = q->omega = q->prot_omega = 0;
     for (size_t k = 0; k < CHUNK; k++)
@@ -216,22 +216,29 @@ typedef struct {
  * the mixer); half the error corrects the phase and PHASE_GAIN of it, per sample, the rate: a
  * frequency-locked reference that does not lag. A block whose mean is more than 90 degrees off
  * the prediction is a reversed stretch (or noise) and changes nothing; after PHASE_LOST such
- * blocks in a row the phase is taken afresh from the block (the first phase, from the first
- * sample, may have been taken inside a reversed stretch). A block whose mean is less than half
- * its mean envelope (no carrier, or a reversal inside it) is left out too. */
+ * blocks in a row the phase is taken afresh from the block (the first block may have measured
+ * it inside a reversed stretch). A block whose mean is less than half
+ * its mean envelope (a reversal inside it) is left out too; after a block without carrier
+ * (dsp/am_internal.h) the next block measures the phase afresh (the carrier may come back with
+ * another). */
 static void carrier_phase(ml_am *q)
 {
     const ml_am_blocks *b = &q->blocks;
     const double n = (double)b->fill;
     const double complex m = b->sum_y / n;
+    if (!(b->sum / n >= ML_AM_ABSENT_REL * q->cfg.carrier_ref)) { /* no carrier: measure afresh after */
+        q->phase_locked = false;
+        return;
+    }
     if (!(cabs(m) > 0.5 * b->sum / n))
         return;
     const double at = (double)q->produced - 0.5 * n - 0.5, meas = carg(m);
-    if (!q->have_phase || !(at > q->phase_at)) {
+    if (!q->phase_locked || !(at > q->phase_at)) {
         q->phase = meas;
         q->omega = 0;
         q->phase_at = at;
-        q->have_phase = true;
+        q->have_phase = q->phase_locked = true;
+        q->phase_misses = 0;
     } else {
         const double pred = q->phase + q->omega * (at - q->phase_at);
         const double err = remainder(meas - pred, 2.0 * ML_PI);
@@ -265,49 +272,67 @@ static void end_block(ml_am *q, const sink *o)
         return;
     carrier_phase(q);
     const bool modulated = ml_am_blocks_end(&q->blocks);
+    if (q->blocks.last_absent && q->events.state < 0) /* a trough into a stretch without carrier */
+        q->events.t_absent = true;
     memset(o->out->modulated + *o->count, modulated, fill);
     *o->count += fill;
 }
 
-/* The coherent (in-phase, signed) and quadrature components of n baseband samples against the
- * carrier's phase, and the block's sums of them and of the baseband. The first sample of a
- * stream gives the phase until the first block ends. */
-static ML_INLINE void components(ml_am *q, const double *restrict yy, size_t n)
+/* The coherent (in-phase, signed) component of n baseband samples against the carrier's phase,
+ * and the block's sums of it and of the baseband's moments. Until a block has measured the phase
+ * (after the start, or after a stretch without carrier), each run takes it from its own mean
+ * baseband, when that is at least half its mean magnitude. */
+static ML_INLINE void components(ml_am *q, const double *restrict yy, const double *restrict e, size_t n)
 {
-    if (!q->have_phase && n > 0) {
-        q->phase = carg(CMPLX(yy[0], yy[1]));
-        q->phase_at = (double)q->produced;
-        q->omega = 0;
-        q->have_phase = true;
+    if (!q->phase_locked && n > 0) {
+        double mr = 0, mi = 0, me = 0;
+        for (size_t i = 0; i < n; i++) {
+            mr += yy[2 * i];
+            mi += yy[2 * i + 1];
+            me += e[i];
+        }
+        if (!q->have_phase || hypot(mr, mi) > 0.5 * me) {
+            q->phase = carg(CMPLX(mr, mi));
+            q->phase_at = (double)q->produced + 0.5 * (double)n - 0.5;
+            q->omega = 0;
+            q->have_phase = true;
+        }
     }
     const double complex u0 = cexp(-I * (q->phase + q->omega * ((double)q->produced - q->phase_at)));
     const double u0r = creal(u0), u0i = cimag(u0);
     const double *restrict pr = (const double *)q->prot;
-    double *restrict sc = q->sc, *restrict qc = q->qc;
+    double *restrict sc = q->sc;
     float *restrict ur = q->ur, *restrict ui = q->ui;
     for (size_t i = 0; i < n; i++) {
         const double cr = u0r * pr[2 * i] - u0i * pr[2 * i + 1], ci = u0r * pr[2 * i + 1] + u0i * pr[2 * i];
-        const double yr = yy[2 * i], yi = yy[2 * i + 1];
-        sc[i] = yr * cr - yi * ci; /* Re(y u), u = cr + i ci = exp(-i phase) */
-        qc[i] = yr * ci + yi * cr; /* Im(y u) */
+        sc[i] = yy[2 * i] * cr - yy[2 * i + 1] * ci; /* Re(y u), u = cr + i ci = exp(-i phase) */
         ur[i] = (float)cr;
         ui[i] = (float)ci;
     }
-    double sl[4] = {0}, ssl[4] = {0}, ql[4] = {0}, qql[4] = {0};
+    double sl[4] = {0}, ssl[4] = {0};
     ml_lanes_sum4(sc, n, sl, ssl);
-    ml_lanes_sum4(qc, n, ql, qql);
     q->blocks.sum_s += (sl[0] + sl[1]) + (sl[2] + sl[3]);
-    q->blocks.sum_q += (ql[0] + ql[1]) + (ql[2] + ql[3]);
-    q->blocks.sumsq_q += (qql[0] + qql[1]) + (qql[2] + qql[3]);
     double yl[4] = {0}, yyl[4] = {0}; /* re in lanes 0 and 2, im in 1 and 3 */
     const size_t whole = 2 * n - (2 * n) % 4;
     ml_lanes_sum4(yy, whole, yl, yyl);
-    double sre = yl[0] + yl[2], sim = yl[1] + yl[3];
+    double sre = yl[0] + yl[2], sim = yl[1] + yl[3], srr = yyl[0] + yyl[2], sii = yyl[1] + yyl[3];
     if (whole < 2 * n) {
         sre += yy[whole];
         sim += yy[whole + 1];
+        srr += yy[whole] * yy[whole];
+        sii += yy[whole + 1] * yy[whole + 1];
     }
+    double ri[4] = {0}; /* sum re im, in lanes by sample index */
+    size_t i = 0;
+    for (; i + 4 <= n; i += 4)
+        for (int k = 0; k < 4; k++)
+            ri[k] += yy[2 * (i + k)] * yy[2 * (i + k) + 1];
+    for (; i < n; i++)
+        ri[0] += yy[2 * i] * yy[2 * i + 1];
     q->blocks.sum_y += CMPLX(sre, sim);
+    q->blocks.srr += srr;
+    q->blocks.sii += sii;
+    q->blocks.sri += (ri[0] + ri[1]) + (ri[2] + ri[3]);
 }
 
 /* The levels troughs are judged by (dsp/am.h), from the noise: the quadrature component's
@@ -317,10 +342,8 @@ static void noise_levels(ml_am *q)
 {
     const ml_am_blocks *b = &q->blocks;
     double nv = ml_am_blocks_noise_var(b);
-    if (nv < 0 && b->fill >= 32) {
-        const double n = (double)b->fill, mq = b->sum_q / n;
-        nv = fmax(0.0, b->sumsq_q / n - mq * mq);
-    }
+    if (nv < 0 && b->fill >= 32)
+        nv = ml_am_blocks_var_q(b);
     const double sig = nv >= 0 ? sqrt(nv) / q->cfg.carrier_ref : UNKNOWN_NOISE;
     const double fl = fmax(q->cfg.pinch_rel, FLOOR_SIGMAS * sig);
     q->lv.floor = (float)fl;
@@ -467,7 +490,7 @@ ML_HOT static void envelope_run(ml_am *q, const sink *o, const double complex *y
     ml_lanes_sum4(e, n, sl, ssl);
     q->blocks.sum += (sl[0] + sl[1]) + (sl[2] + sl[3]);
     q->blocks.sumsq += (ssl[0] + ssl[1]) + (ssl[2] + ssl[3]);
-    components(q, yy, n);
+    components(q, yy, e, n);
     q->blocks.fill += n; /* the block's sums now hold this run: noise_levels may read them */
     noise_levels(q);
     q->blocks.fill -= n;
@@ -667,12 +690,16 @@ ml_status ml_am_get_result(const ml_am *q, ml_am_result *out)
         return ML_ENOSIGNAL;
     const ml_am_blocks *b = &q->blocks;
     out->samples = q->produced;
-    out->mean_all = b->sum_all / (double)q->produced;
+    out->absent_samples = b->n_absent;
+    const uint64_t present = b->n_quiet + b->n_mod;
+    if (present == 0)
+        return ML_ENOSIGNAL;
+    out->mean_all = b->sum_all / (double)present;
     out->modulated_samples = b->n_mod;
     out->quiet_samples = b->n_quiet;
     out->mean_modulated = b->n_mod ? b->sum_mod / (double)b->n_mod : 0.0;
     out->mean_quiet = b->n_quiet ? b->sum_quiet / (double)b->n_quiet : 0.0;
-    out->coherent_all = b->sum_s_all / (double)q->produced;
+    out->coherent_all = b->sum_s_all / (double)present;
     out->coherent_modulated = b->n_mod ? b->sum_s_mod / (double)b->n_mod : 0.0;
     /* hold_s per second of signal is the share of time a level must be exceeded to count */
     out->emax = ml_am_blocks_quantile(b, 1.0 - q->cfg.hold_s);

@@ -19,7 +19,10 @@
  *    var(e) - var(Q) < (quiet_rel mean)^2 + allowance (three standard deviations of that
  *    difference for Gaussian noise: 6 var(Q) / sqrt(independent samples of the block)), its noise
  *    is below 10 % of its mean, and its mean is above 5 % of carrier_ref (a missing carrier is not
- *    a quiet carrier). Without noise this is std(e) < quiet_rel mean;
+ *    a quiet carrier). Without noise this is std(e) < quiet_rel mean. A block whose mean is below
+ *    10 % of carrier_ref holds no carrier (no modulation from 20 Hz up brings a 20 ms block's mean
+ *    that low): it enters no figure, is tagged 0 like a quiet one, and a trough that runs into
+ *    it is not judged (the carrier was gone, not modulated away);
  *  - histograms of the *reading*, 4-times oversampled by cubic (Catmull-Rom) interpolation of the
  *    complex baseband so that peaks between samples are not lost, over all blocks and over
  *    modulated blocks, from -0.5 to 3.5 * carrier_ref in 65536 bins; the reading is the envelope
@@ -83,12 +86,14 @@ typedef struct {
 
 typedef struct {
     uint64_t samples;          /* envelope samples produced                                       */
-    double mean_all;           /* mean envelope over all samples                                  */
+    double mean_all;           /* mean envelope over all blocks with carrier                      */
     double mean_modulated;     /* over modulated blocks (0 when none)                             */
     double mean_quiet;         /* over quiet blocks (0 when none)                                 */
-    double coherent_all;       /* mean coherent envelope S over all samples: the carrier line     */
+    double coherent_all;       /* mean coherent envelope S over the blocks with carrier: the line */
     double coherent_modulated; /* ... over modulated blocks (0 when none)                         */
     uint64_t modulated_samples, quiet_samples;
+    uint64_t absent_samples;   /* in blocks without carrier (mean below 10 % of carrier_ref): in
+                                  no figure; ML_ENOSIGNAL when every block was such              */
     double emax, emin;         /* peak readings: the levels the reading exceeds (emax) and stays
                                   under (emin) for a share hold_s per second of the modulated
                                   blocks (all blocks when none is modulated); emin is negative

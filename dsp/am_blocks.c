@@ -38,13 +38,14 @@ void ml_am_blocks_free(ml_am_blocks *b)
 void ml_am_blocks_reset(ml_am_blocks *b)
 {
     b->fill = 0;
-    b->sum = b->sumsq = b->sum_s = b->sum_q = b->sumsq_q = 0;
+    b->sum = b->sumsq = b->sum_s = b->srr = b->sii = b->sri = 0;
     b->sum_y = 0;
     b->npending = 0;
     b->sum_all = b->sum_mod = b->sum_quiet = 0;
     b->sum_s_all = b->sum_s_mod = 0;
     b->q_var_all = b->q_var_quiet = 0;
-    b->n_mod = b->n_quiet = 0;
+    b->n_mod = b->n_quiet = b->n_absent = 0;
+    b->last_absent = false;
     memset(b->hist_quiet, 0, ML_AM_HIST_BINS * sizeof *b->hist_quiet);
     memset(b->hist_mod, 0, ML_AM_HIST_BINS * sizeof *b->hist_mod);
     b->hist_quiet_n = b->hist_mod_n = 0;
@@ -55,9 +56,17 @@ bool ml_am_blocks_end(ml_am_blocks *b)
     const double n = (double)b->fill;
     const double mean = b->sum / n;
     const double var = fmax(0.0, b->sumsq / n - mean * mean);
-    const double mq = b->sum_q / n;
-    const double var_q = fmax(0.0, b->sumsq_q / n - mq * mq);
+    const double var_q = ml_am_blocks_var_q(b);
     const double still = b->quiet_rel * mean;
+    b->last_absent = !(mean >= ML_AM_ABSENT_REL * b->carrier_ref);
+    if (b->last_absent) { /* no carrier: in no sum and no histogram */
+        b->n_absent += b->fill;
+        b->fill = 0;
+        b->sum = b->sumsq = b->sum_s = b->srr = b->sii = b->sri = 0;
+        b->sum_y = 0;
+        b->npending = 0;
+        return false;
+    }
     /* a missing carrier is not a quiet carrier, and one drowned in noise cannot be told quiet */
     const bool quiet = mean > 0.05 * b->carrier_ref && var - var_q < still * still + b->allow * var_q
                        && var_q < 0.01 * mean * mean;
@@ -83,10 +92,24 @@ bool ml_am_blocks_end(ml_am_blocks *b)
     else
         b->hist_mod_n += np;
     b->fill = 0;
-    b->sum = b->sumsq = b->sum_s = b->sum_q = b->sumsq_q = 0;
+    b->sum = b->sumsq = b->sum_s = b->srr = b->sii = b->sri = 0;
     b->sum_y = 0;
     b->npending = 0;
     return !quiet;
+}
+
+double ml_am_blocks_var_q(const ml_am_blocks *b)
+{
+    if (b->fill == 0)
+        return -1.0;
+    const double n = (double)b->fill, mag = cabs(b->sum_y);
+    /* Q = Im(y conj(u)) = im ur - re ui for the block's mean phasor u: its mean is 0, and
+     * sum Q^2 = ur^2 sum im^2 + ui^2 sum re^2 - 2 ur ui sum re im; without a mean phasor (no
+     * carrier) half the total */
+    if (!(mag > 0))
+        return 0.5 * (b->srr + b->sii) / n;
+    const double ur = creal(b->sum_y) / mag, ui = cimag(b->sum_y) / mag;
+    return fmax(0.0, (ur * ur * b->sii + ui * ui * b->srr - 2.0 * ur * ui * b->sri) / n);
 }
 
 double ml_am_blocks_noise_var(const ml_am_blocks *b)

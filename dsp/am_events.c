@@ -33,7 +33,8 @@ void ml_am_events_reset(ml_am_events *ev)
     ev->state = 0;
     ev->t_lo = ev->t_slo = ev->c_hi = 0;
     ev->t_floor = ev->t_floor4 = ev->t_neg = 0;
-    ev->pinch_events = ev->reversal_events = ev->troughs = ev->crests = 0;
+    ev->pinch_events = ev->reversal_events = ev->troughs = ev->crests = ev->absent_troughs = 0;
+    ev->t_absent = false;
     ev->off_values = ev->reversed_values = 0;
     memset(ev->crest_hist, 0, ML_AM_HIST_BINS * sizeof *ev->crest_hist);
 }
@@ -48,6 +49,11 @@ void ml_am_events_reset(ml_am_events *ev)
  * [haykin:2001]. */
 static void trough_end(ml_am_events *ev, const ml_am_levels *lv)
 {
+    if (ev->t_absent) { /* the carrier was gone, not modulated away */
+        ev->absent_troughs++;
+        ev->state = 0;
+        return;
+    }
     ev->troughs++;
     if (ev->t_floor4 >= ML_AM_PINCH_MIN4 && (double)ev->t_floor > lv->share * (double)ev->t_floor4) {
         ev->pinch_events++;
@@ -75,6 +81,7 @@ void ml_am_events_push(ml_am_events *ev, const ml_am_levels *lv, const double *e
         if (ev->state == 0) {
             if (mk->lo[i] < 1.0f - hyst) {
                 ev->state = -1;
+                ev->t_absent = false;
                 ev->t_lo = ev->t_slo = INFINITY;
                 ev->t_floor = ev->t_floor4 = ev->t_neg = 0;
             } else if (mk->hi[i] > 1.0f + hyst) {
@@ -103,6 +110,7 @@ void ml_am_events_push(ml_am_events *ev, const ml_am_levels *lv, const double *e
                 crest_end(ev);
                 if (mk->lo[i] < 1.0f - hyst) { /* straight on into a trough */
                     ev->state = -1;
+                    ev->t_absent = false;
                     ev->t_lo = mk->lo[i];
                     ev->t_slo = mk->slo[i];
                     ev->t_floor = mk->n_floor[i];

@@ -617,9 +617,14 @@ static ml_status conclude(ml_modulation *q)
     q->have_result = true;
     q->prov_rel = nan;
     ml_am_result ar;
-    if (ml_am_get_result(q->am, &ar) != ML_OK)
-        return q->result_status = ML_ENOSIGNAL;
+    const ml_status sa = ml_am_get_result(q->am, &ar);
     r->samples = ar.samples;
+    r->absent_s = (double)ar.absent_samples / q->cfg.rate_hz;
+    if (sa != ML_OK) {
+        if (ar.absent_samples > 0)
+            r->no_carrier = "the carrier is absent (every 20 ms block below 10 % of it)";
+        return q->result_status = ML_ENOSIGNAL;
+    }
     r->modulated_samples = ar.modulated_samples;
     r->quiet_samples = ar.quiet_samples;
     choose_c(q, &ar, r);
@@ -630,7 +635,7 @@ static ml_status conclude(ml_modulation *q)
     ml_spectrum_scale(q->aud, q->prov_rel);
     /* With unmodulated stretches in the span, the spectra cover the wholly modulated FFT
      * segments only, so that a lead-in or pauses do not dilute sidebands and tones. */
-    if (ar.quiet_samples > 0 && ar.modulated_samples > 0 && ml_spectrum_selected_segments(q->rf) > 0
+    if (ar.quiet_samples + ar.absent_samples > 0 && ar.modulated_samples > 0 && ml_spectrum_selected_segments(q->rf) > 0
         && ml_spectrum_selected_segments(q->aud) > 0) {
         ml_spectrum_use_selected(q->rf, 1);
         ml_spectrum_use_selected(q->aud, 1);

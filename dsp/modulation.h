@@ -71,8 +71,10 @@
  * A carrier whose line stands less than ML_MODULATION_MIN_PROMINENCE_DB out of the spectrum
  * around it (ml_rf_line_prominence_db) is no carrier: the span's figures are then not measured
  * and finish returns ML_ENOSIGNAL with no_carrier saying why.
- * With both unmodulated and modulated blocks in the span, both spectra average only the FFT
- * segments lying wholly in modulated blocks (spectra_modulated_only).
+ * Blocks without carrier (dsp/am.h: their mean below 10 % of the provisional C) enter no figure;
+ * absent_s says how long they lasted, and a span of nothing else has no carrier (no_carrier).
+ * With both unmodulated (or carrier-less) and modulated blocks in the span, both spectra average
+ * only the FFT segments lying wholly in modulated blocks (spectra_modulated_only).
  *
  * Threads: ml_modulation_push and ml_modulation_finish run everything on the calling thread. A
  * pipeline may instead split the work in two halves that run on two threads: the demodulation
@@ -134,6 +136,7 @@ typedef struct {
     size_t rf_nfft;            /* the captured spectrum's FFT length                              */
     bool spectra_modulated_only;
     uint64_t samples, modulated_samples, quiet_samples; /* envelope samples                        */
+    double absent_s;           /* time in blocks without carrier (dsp/am.h), in no figure         */
     /* carrier */
     double carrier_hz, carrier_amplitude, carrier_level_dbfs;
     double c;                  /* C (see above) and where it comes from                           */

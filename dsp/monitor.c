@@ -16,6 +16,8 @@
 
 #define CHUNK 4096             /* frames per push into the modulation analysis                 */
 #define LEVEL_REFIND 2.0       /* carrier amplitude change (6 dB) that re-finds the carrier     */
+#define BLOCK_S 0.02           /* blocks whose power is compared (gap_s)                        */
+#define GAP_REL 0.01           /* a block 20 dB below the strongest is a gap                    */
 
 struct ml_monitor {
     ml_monitor_config cfg;
@@ -24,6 +26,7 @@ struct ml_monitor {
     float *ring;
     float *lin;                /* the window in time order                                    */
     double *psd;               /* nbins of spec                                               */
+    double *bpow;              /* power of each 20 ms block of the window (gap_s)              */
     uint64_t pushed;
     ml_spectrum *spec;         /* audio: the input; if/iq: the window, to find the carrier      */
     /* if/iq: present once the carrier is found */
@@ -74,7 +77,8 @@ ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out)
     ml_status st = ML_ENOMEM;
     q->ring = malloc(q->cap * q->width * sizeof *q->ring);
     q->lin = malloc(q->cap * q->width * sizeof *q->lin);
-    if (q->ring == NULL || q->lin == NULL)
+    q->bpow = malloc((q->cap / (size_t)llround(BLOCK_S * cfg->rate_hz) + 1) * sizeof *q->bpow);
+    if (q->ring == NULL || q->lin == NULL || q->bpow == NULL)
         goto fail;
     ml_spectrum_config sc = ml_spectrum_config_default(cfg->rate_hz);
     sc.window = cfg->window;
@@ -108,6 +112,7 @@ void ml_monitor_destroy(ml_monitor *q)
     free(q->ring);
     free(q->lin);
     free(q->psd);
+    free(q->bpow);
     free(q);
 }
 
@@ -210,8 +215,34 @@ static ml_status find_carrier(ml_monitor *q)
     return ML_OK;
 }
 
+/* Time in 20 ms blocks of the window whose power lies more than GAP_DB below the strongest
+ * block's: the signal comes or goes within the window (a modulated carrier's blocks differ by a
+ * few dB at most: 1 + m cos averaged over 20 ms for tones from 25 Hz up). */
+static double gap_s(const ml_monitor *q)
+{
+    const size_t len = (size_t)llround(BLOCK_S * q->cfg.rate_hz), w = q->width;
+    double pmax = 0;
+    size_t nb = q->cap / len;
+    for (size_t b = 0; b < nb; b++) {
+        double p = 0;
+        for (size_t i = b * len * w; i < (b + 1) * len * w; i++)
+            p += (double)q->lin[i] * q->lin[i];
+        q->bpow[b] = p;
+        pmax = p > pmax ? p : pmax;
+    }
+    size_t gaps = 0;
+    for (size_t b = 0; b < nb; b++)
+        gaps += !(q->bpow[b] >= pmax * GAP_REL);
+    return pmax > 0 ? (double)(gaps * len) / q->cfg.rate_hz : (double)q->cap / q->cfg.rate_hz;
+}
+
 static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
 {
+    /* a window the signal leaves or enters holds no carrier throughout: not analysed (its
+     * figures would mix the carrier with what is left without it), and no carrier is found in it */
+    r->gap_s = gap_s(q);
+    if (r->gap_s > 0)
+        return ML_ENOSIGNAL;
     if (!q->have_carrier) {
         ml_status st = find_carrier(q);
         if (st != ML_OK)
@@ -284,6 +315,7 @@ static void empty_result(const ml_monitor *q, ml_monitor_result *r)
     m->sideband_asymmetry_db = m->trapezoid_deviation_pct = m->occupied_bandwidth_hz = nan;
     m->emax_rel = m->emin_rel = nan;
     m->positive_peak_held_pct = m->carrier_off_pct = m->carrier_prominence_db = nan;
+    m->absent_s = 0;
     m->noise_pct = m->floor_pct = m->reversal_pct = m->held_noise_pct = m->top_noise_pct = nan;
     ml_figures_audio_none(&m->audio);
 }
