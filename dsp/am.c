@@ -22,8 +22,9 @@
 #define HIST_RANGE ML_AM_HIST_RANGE
 #define OVERSAMPLE ML_AM_OVERSAMPLE
 #define CHUNK 1024     /* internal processing chunk (stack-free: buffers are in the object) */
-#define PHASE_GAIN 0.25 /* share of a block's phase error that goes into the frequency estimate  */
 #define PHASE_LOST 10   /* blocks in a row far off the predicted phase before it is taken afresh */
+#define RATE_MIN_COHERENCE 0.25 /* a block's raw mean at least this share of the carrier: offsets up
+                                   to 39 Hz with 20 ms blocks (sin(x) / x = 0.25 at x = 2.47)    */
 #define REV_MIN 0.02    /* reversal depth at least 2 % of C: a pinched-off carrier band-limited to
                            the channel rings below zero by about 1 % at tones near 1 kHz          */
 #define HYST_MIN 0.02   /* troughs and crests start 2 % of C from the carrier at least           */
@@ -52,11 +53,13 @@ struct ml_am {
     float slo[CHUNK];                    /* its lowest value per sample                        */
     unsigned char nfl[CHUNK], nfl4[CHUNK], nneg[CHUNK]; /* values below F, 4 F; negative       */
     double er[CHUNK];                    /* the envelope in units of carrier_ref               */
-    double sc[CHUNK];                    /* coherent component of the baseband                  */
+    double sc[CHUNK], qc[CHUNK];         /* the baseband turned back by the followed phase       */
     float ur[CHUNK], ui[CHUNK];          /* the carrier's phasor per sample, conjugated        */
     /* the carrier's phase (carrier_phase): phase (rad) at envelope sample phase_at, turning by
      * omega rad per sample; prot[k] = exp(-i omega k) for omega = prot_omega */
     bool have_phase, phase_locked; /* a phase to use; one measured by a block            */
+    size_t lag, lag_pos;       /* the rate's lag L (half a block) and the ring's position      */
+    double complex *lag_hist;  /* the last L baseband samples                                  */
     unsigned phase_misses;
     double phase, phase_at, omega, prot_omega;
     double complex prot[CHUNK];
@@ -142,11 +145,13 @@ ml_status ml_am_create(const ml_am_config *cfg, ml_am **out)
     q->in_ring = malloc(q->dly_len * sizeof *q->in_ring);
     q->blk_env = malloc(block_len * sizeof *q->blk_env);
     q->blk_in = malloc(block_len * sizeof *q->blk_in);
+    q->lag = block_len / 2;
+    q->lag_hist = malloc(q->lag * sizeof *q->lag_hist);
     /* independent noise samples in a block: the in-phase noise is flat over |f| < B */
     const double neff = (double)block_len * fmin(1.0, 2.0 * cfg->bandwidth_hz / cfg->rate_hz);
     const ml_status sb = ml_am_blocks_init(&q->blocks, block_len, cfg->carrier_ref, cfg->quiet_rel, neff);
     const ml_status se = ml_am_events_init(&q->events);
-    if (sb != ML_OK || se != ML_OK || q->in_ring == NULL || q->blk_env == NULL || q->blk_in == NULL
+    if (sb != ML_OK || se != ML_OK || q->in_ring == NULL || q->lag_hist == NULL || q->blk_env == NULL || q->blk_in == NULL
         || (cfg->has_reference && q->ref_ring == NULL)) {
         ml_am_destroy(q);
         return ML_ENOMEM;
@@ -170,6 +175,7 @@ void ml_am_destroy(ml_am *q)
     free(q->in_ring);
     free(q->blk_env);
     free(q->blk_in);
+    free(q->lag_hist);
     free(q);
 }
 
@@ -191,6 +197,10 @@ void ml_am_reset(ml_am *q)
     q->emin_abs = INFINITY;
     ml_am_events_reset(&q->events);
     q->have_phase = q->phase_locked = false;
+    q->blocks.followed = false;
+    q->lag_pos = 0;
+    for (size_t k = 0; k < q->lag; k++)
+        q->lag_hist[k] = 0;
     q->phase_misses = 0;
     q->phase = q->phase_at = q->omega = q->prot_omega = 0;
     for (size_t k = 0; k < CHUNK; k++)
@@ -213,12 +223,19 @@ typedef struct {
 /* The carrier's phase, followed from block to block: each block's mean baseband (the carrier
  * line's phasor: the modulation averages out of it) at the block's centre is compared with the
  * phase predicted there from the last phase and the turning rate omega (a carrier offset left by
- * the mixer); half the error corrects the phase and PHASE_GAIN of it, per sample, the rate: a
- * frequency-locked reference that does not lag. A block whose mean is more than 90 degrees off
+ * the mixer); half the error corrects the phase. The rate is measured in each block as the angle
+ * of the sum of y[i] conj(y[i - L]) over L samples (an AM baseband only turns with the offset; a
+ * reversed stretch flips the sign of a minority of the products), L half a block: the rate is
+ * unambiguous up to 1 / (2 L) = 1 / block_s = 50 Hz either way, and the noise of the products
+ * moves it L times less than with neighbours' products; it is averaged with the last: the
+ * reference does not lag. The raw block mean of a turning carrier is shortened by the turning
+ * (the factor d below); offsets with d >= RATE_MIN_COHERENCE, up to 39 Hz with 20 ms blocks,
+ * are followed (a carrier found by dsp/carrier.h in the span itself is off by far less).
+ * A block whose mean is more than 90 degrees off
  * the prediction is a reversed stretch (or noise) and changes nothing; after PHASE_LOST such
  * blocks in a row the phase is taken afresh from the block (the first block may have measured
  * it inside a reversed stretch). A block whose mean is less than half
- * its mean envelope (a reversal inside it) is left out too; after a block without carrier
+ * its mean envelope (times d: a reversal inside it) is left out too; after a block without carrier
  * (dsp/am_internal.h) the next block measures the phase afresh (the carrier may come back with
  * another). */
 static void carrier_phase(ml_am *q)
@@ -230,12 +247,16 @@ static void carrier_phase(ml_am *q)
         q->phase_locked = false;
         return;
     }
-    if (!(cabs(m) > 0.5 * b->sum / n))
+    const double rate = cabs(b->sum_lag) > 0 ? carg(b->sum_lag) / (double)q->lag : 0.0;
+    /* the raw mean of a carrier turning by rate per sample is its phasor at the block's centre,
+     * shortened by d = |sum exp(i rate k)| / n */
+    const double half = 0.5 * rate * n, d = fabs(half) > 1e-9 ? fabs(sin(half) / (n * sin(0.5 * rate))) : 1.0;
+    if (!(d >= RATE_MIN_COHERENCE) || !(cabs(m) > 0.5 * d * b->sum / n))
         return;
     const double at = (double)q->produced - 0.5 * n - 0.5, meas = carg(m);
     if (!q->phase_locked || !(at > q->phase_at)) {
         q->phase = meas;
-        q->omega = 0;
+        q->omega = rate;
         q->phase_at = at;
         q->have_phase = q->phase_locked = true;
         q->phase_misses = 0;
@@ -246,11 +267,10 @@ static void carrier_phase(ml_am *q)
             return;
         if (fabs(err) > 0.5 * ML_PI) { /* lost: start again from this block */
             q->phase = meas;
-            q->omega = 0;
         } else {
-            q->omega += PHASE_GAIN * err / (at - q->phase_at);
             q->phase = pred + 0.5 * err;
         }
+        q->omega = 0.5 * (q->omega + rate);
         q->phase_at = at;
         q->phase_misses = 0;
     }
@@ -272,6 +292,7 @@ static void end_block(ml_am *q, const sink *o)
         return;
     carrier_phase(q);
     const bool modulated = ml_am_blocks_end(&q->blocks);
+    q->blocks.followed = q->phase_locked; /* the next block's, turned back by a measured phase */
     if (q->blocks.last_absent && q->events.state < 0) /* a trough into a stretch without carrier */
         q->events.t_absent = true;
     memset(o->out->modulated + *o->count, modulated, fill);
@@ -301,38 +322,54 @@ static ML_INLINE void components(ml_am *q, const double *restrict yy, const doub
     const double complex u0 = cexp(-I * (q->phase + q->omega * ((double)q->produced - q->phase_at)));
     const double u0r = creal(u0), u0i = cimag(u0);
     const double *restrict pr = (const double *)q->prot;
-    double *restrict sc = q->sc;
+    double *restrict sc = q->sc, *restrict qc = q->qc;
     float *restrict ur = q->ur, *restrict ui = q->ui;
     for (size_t i = 0; i < n; i++) {
         const double cr = u0r * pr[2 * i] - u0i * pr[2 * i + 1], ci = u0r * pr[2 * i + 1] + u0i * pr[2 * i];
         sc[i] = yy[2 * i] * cr - yy[2 * i + 1] * ci; /* Re(y u), u = cr + i ci = exp(-i phase) */
+        qc[i] = yy[2 * i] * ci + yy[2 * i + 1] * cr; /* Im(y u) */
         ur[i] = (float)cr;
         ui[i] = (float)ci;
     }
-    double sl[4] = {0}, ssl[4] = {0};
+    double sl[4] = {0}, ssl[4] = {0}, ql[4] = {0}, qql[4] = {0};
     ml_lanes_sum4(sc, n, sl, ssl);
-    q->blocks.sum_s += (sl[0] + sl[1]) + (sl[2] + sl[3]);
-    double yl[4] = {0}, yyl[4] = {0}; /* re in lanes 0 and 2, im in 1 and 3 */
-    const size_t whole = 2 * n - (2 * n) % 4;
-    ml_lanes_sum4(yy, whole, yl, yyl);
-    double sre = yl[0] + yl[2], sim = yl[1] + yl[3], srr = yyl[0] + yyl[2], sii = yyl[1] + yyl[3];
-    if (whole < 2 * n) {
-        sre += yy[whole];
-        sim += yy[whole + 1];
-        srr += yy[whole] * yy[whole];
-        sii += yy[whole + 1] * yy[whole + 1];
-    }
-    double ri[4] = {0}; /* sum re im, in lanes by sample index */
+    ml_lanes_sum4(qc, n, ql, qql);
+    const double ss = (sl[0] + sl[1]) + (sl[2] + sl[3]), sq = (ql[0] + ql[1]) + (ql[2] + ql[3]);
+    double ri[4] = {0}, yl[4] = {0}, lr[4] = {0}, li[4] = {0}; /* in lanes by sample index */
     size_t i = 0;
     for (; i + 4 <= n; i += 4)
-        for (int k = 0; k < 4; k++)
-            ri[k] += yy[2 * (i + k)] * yy[2 * (i + k) + 1];
-    for (; i < n; i++)
-        ri[0] += yy[2 * i] * yy[2 * i + 1];
-    q->blocks.sum_y += CMPLX(sre, sim);
-    q->blocks.srr += srr;
-    q->blocks.sii += sii;
-    q->blocks.sri += (ri[0] + ri[1]) + (ri[2] + ri[3]);
+        for (int k = 0; k < 4; k++) {
+            const size_t j = i + (size_t)k;
+            ri[k] += sc[j] * qc[j];
+            yl[k] += yy[2 * j + 1];
+        }
+    for (; i < n; i++) {
+        ri[0] += sc[i] * qc[i];
+        yl[0] += yy[2 * i + 1];
+    }
+    double yr_sum = 0;
+    for (i = 0; i < n; i++)
+        yr_sum += yy[2 * i];
+    /* the lag products y[i] conj(y[i - lag]), with the lag samples before the run in a ring */
+    const size_t lag = q->lag;
+    double complex *restrict hist = q->lag_hist;
+    size_t at = q->lag_pos;
+    for (i = 0; i < n; i++) {
+        const double r = yy[2 * i], m = yy[2 * i + 1], pr0 = creal(hist[at]), pi0 = cimag(hist[at]);
+        lr[i % 4] += r * pr0 + m * pi0;
+        li[i % 4] += m * pr0 - r * pi0;
+        hist[at] = CMPLX(r, m);
+        at = at + 1 == lag ? 0 : at + 1;
+    }
+    q->lag_pos = at;
+    ml_am_blocks *b = &q->blocks;
+    b->sum_s += ss;
+    b->sum_v += CMPLX(ss, sq);
+    b->srr += (ssl[0] + ssl[1]) + (ssl[2] + ssl[3]);
+    b->sii += (qql[0] + qql[1]) + (qql[2] + qql[3]);
+    b->sri += (ri[0] + ri[1]) + (ri[2] + ri[3]);
+    b->sum_y += CMPLX(yr_sum, (yl[0] + yl[1]) + (yl[2] + yl[3]));
+    b->sum_lag += CMPLX((lr[0] + lr[1]) + (lr[2] + lr[3]), (li[0] + li[1]) + (li[2] + li[3]));
 }
 
 /* The levels troughs are judged by (dsp/am.h), from the noise: the quadrature component's
@@ -352,7 +389,7 @@ static void noise_levels(ml_am *q)
     q->lv.hyst = (float)fmax(HYST_MIN, HYST_SIGMAS * sig);
     /* the noise blurs the time below F: the share a pinch-off needs grows from 60 % (noise far
      * below F) to 70 % (F set by the noise), which keeps a 99 % tone at 30 dB CNR free of
-     * pinch-offs (none in 20000 troughs, tests/unit/test_dsp_am.c) */
+     * pinch-offs (none in its 3000 troughs, tests/e2e/test_am_peaks.py) */
     q->lv.share = (float)(0.6 + 0.1 * fmin(1.0, FLOOR_SIGMAS * sig / fl));
 }
 

@@ -39,12 +39,14 @@ void ml_am_blocks_reset(ml_am_blocks *b)
 {
     b->fill = 0;
     b->sum = b->sumsq = b->sum_s = b->srr = b->sii = b->sri = 0;
-    b->sum_y = 0;
+    b->sum_y = b->sum_lag = b->sum_v = 0;
     b->npending = 0;
     b->sum_all = b->sum_mod = b->sum_quiet = 0;
     b->sum_s_all = b->sum_s_mod = 0;
     b->q_var_all = b->q_var_quiet = 0;
     b->n_mod = b->n_quiet = b->n_absent = 0;
+    b->n_noise_all = b->n_noise_quiet = 0;
+    b->followed = false;
     b->last_absent = false;
     memset(b->hist_quiet, 0, ML_AM_HIST_BINS * sizeof *b->hist_quiet);
     memset(b->hist_mod, 0, ML_AM_HIST_BINS * sizeof *b->hist_mod);
@@ -63,7 +65,7 @@ bool ml_am_blocks_end(ml_am_blocks *b)
         b->n_absent += b->fill;
         b->fill = 0;
         b->sum = b->sumsq = b->sum_s = b->srr = b->sii = b->sri = 0;
-        b->sum_y = 0;
+        b->sum_y = b->sum_lag = b->sum_v = 0;
         b->npending = 0;
         return false;
     }
@@ -73,7 +75,10 @@ bool ml_am_blocks_end(ml_am_blocks *b)
     if (quiet) {
         b->sum_quiet += b->sum;
         b->n_quiet += b->fill;
-        b->q_var_quiet += var_q * n;
+        if (b->followed) {
+            b->q_var_quiet += var_q * n;
+            b->n_noise_quiet += b->fill;
+        }
     } else {
         b->sum_mod += b->sum;
         b->sum_s_mod += b->sum_s;
@@ -81,7 +86,10 @@ bool ml_am_blocks_end(ml_am_blocks *b)
     }
     b->sum_all += b->sum;
     b->sum_s_all += b->sum_s;
-    b->q_var_all += var_q * n;
+    if (b->followed) {
+        b->q_var_all += var_q * n;
+        b->n_noise_all += b->fill;
+    }
     uint64_t *restrict h = quiet ? b->hist_quiet : b->hist_mod;
     const uint16_t *restrict p = b->pending;
     const size_t np = b->npending; /* a local count: h's stores could alias the fields */
@@ -93,7 +101,7 @@ bool ml_am_blocks_end(ml_am_blocks *b)
         b->hist_mod_n += np;
     b->fill = 0;
     b->sum = b->sumsq = b->sum_s = b->srr = b->sii = b->sri = 0;
-    b->sum_y = 0;
+    b->sum_y = b->sum_lag = b->sum_v = 0;
     b->npending = 0;
     return !quiet;
 }
@@ -102,22 +110,21 @@ double ml_am_blocks_var_q(const ml_am_blocks *b)
 {
     if (b->fill == 0)
         return -1.0;
-    const double n = (double)b->fill, mag = cabs(b->sum_y);
-    /* Q = Im(y conj(u)) = im ur - re ui for the block's mean phasor u: its mean is 0, and
+    const double n = (double)b->fill, mag = cabs(b->sum_v);
+    /* Q = Im(v conj(u)) = im ur - re ui for the block's mean phasor u of v: its mean is 0, and
      * sum Q^2 = ur^2 sum im^2 + ui^2 sum re^2 - 2 ur ui sum re im; without a mean phasor (no
      * carrier) half the total */
     if (!(mag > 0))
         return 0.5 * (b->srr + b->sii) / n;
-    const double ur = creal(b->sum_y) / mag, ui = cimag(b->sum_y) / mag;
+    const double ur = creal(b->sum_v) / mag, ui = cimag(b->sum_v) / mag;
     return fmax(0.0, (ur * ur * b->sii + ui * ui * b->srr - 2.0 * ur * ui * b->sri) / n);
 }
 
 double ml_am_blocks_noise_var(const ml_am_blocks *b)
 {
-    if (b->n_quiet > 0)
-        return b->q_var_quiet / (double)b->n_quiet;
-    const uint64_t n = b->n_quiet + b->n_mod;
-    return n > 0 ? b->q_var_all / (double)n : -1.0;
+    if (b->n_noise_quiet > 0)
+        return b->q_var_quiet / (double)b->n_noise_quiet;
+    return b->n_noise_all > 0 ? b->q_var_all / (double)b->n_noise_all : -1.0;
 }
 
 /* Level below which a share p of the histogram's mass lies (linear within a bin). */

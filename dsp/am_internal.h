@@ -23,9 +23,11 @@
  * The envelope is cut into blocks of `len` samples. A block is quiet (unmodulated carrier) when
  * its mean is above 5 % of carrier_ref and the spread of its envelope beyond the noise is small:
  * var(E) - var(Q) < (quiet_rel mean)^2 + allow var(Q), where Q is the baseband's quadrature
- * component (perpendicular to the block's own mean phasor, from the block's second moments, so
- * that it does not depend on following the phase), which holds the noise alone, as much of it as
- * the in-phase part that adds to the envelope, and allow covers the spread of the
+ * component (perpendicular to the block's own mean phasor, from the block's second moments of
+ * the baseband turned back by the followed phase: a phase error does not matter, a frequency
+ * error would add a ramp, and the turning rate is measured each block), which holds the noise
+ * alone, as much of it as the in-phase part that adds to the envelope, and allow covers the
+ * spread of the
  * two variance estimates (6 / sqrt(independent samples in a block): three standard deviations of
  * their difference for Gaussian noise). Without noise this is std(E) < quiet_rel mean. The
  * oversampled values of a block wait as histogram bins in pending[] until the block is
@@ -40,7 +42,9 @@ typedef struct {
     double sum, sumsq;         /* envelope sums of the current block                           */
     double sum_s;              /* coherent envelope sum of the current block                   */
     double complex sum_y;      /* baseband sum of the current block (the carrier's phase)      */
-    double srr, sii, sri;      /* its second moments: sums of re^2, im^2, re im                 */
+    double complex sum_lag;    /* sum of y[i] conj(y[i - L]), L half a block: the turning rate */
+    double complex sum_v;      /* sum of the baseband turned back by the followed phase (v)     */
+    double srr, sii, sri;      /* v's second moments: sums of re^2, im^2, re im                 */
     uint16_t *pending;         /* bins of its ML_AM_OVERSAMPLE * len oversampled values         */
     size_t npending;
     double carrier_ref, quiet_rel, allow;
@@ -48,6 +52,9 @@ typedef struct {
     double sum_s_all, sum_s_mod; /* coherent envelope over all and over modulated blocks        */
     double q_var_all, q_var_quiet; /* sum over blocks of len x var(Q): the noise               */
     uint64_t n_mod, n_quiet, n_absent;
+    bool followed;             /* the current block was turned back by a measured phase and rate:
+                                  only such blocks' quadrature counts as noise                   */
+    uint64_t n_noise_all, n_noise_quiet; /* samples behind q_var_all, q_var_quiet               */
     bool last_absent;          /* the block just ended was one without carrier                  */
     uint64_t *hist_quiet, *hist_mod; /* oversampled readings of quiet and of modulated blocks  */
     uint64_t hist_quiet_n, hist_mod_n;
@@ -68,7 +75,8 @@ double ml_am_blocks_quantile(const ml_am_blocks *b, double p);
 /* Share (0..1) of all envelope time whose reading lies below level. */
 double ml_am_blocks_fraction_below(const ml_am_blocks *b, double level);
 /* The noise: variance of the quadrature component per sample over the quiet blocks when there
- * are any, else over all blocks so far; -1 before the first block ends. */
+ * are any, else over all blocks so far, of those turned back by a measured phase and rate
+ * (followed); -1 before the first such block ends. */
 double ml_am_blocks_noise_var(const ml_am_blocks *b);
 /* The current (partial) block's quadrature variance about its own mean phasor; -1 when empty. */
 double ml_am_blocks_var_q(const ml_am_blocks *b);

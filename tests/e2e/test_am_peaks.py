@@ -294,6 +294,9 @@ def main():
                 ck.check(tag + ": no overmodulation event", g("modulation.pinch_off_events") == 0,
                          repr(g("modulation.pinch_off_events")))
                 ck.close(tag + ": no carrier-off time", g("modulation.carrier_off_pct"), 0.0, 0.0)
+                ck.check(tag + ": no phase reversal", g("modulation.phase_reversal_events") == 0,
+                         repr(g("modulation.phase_reversal_events")))
+                ck.close(tag + ": no overmodulated time", g("modulation.overmodulation_pct"), 0.0, 0.0)
                 sig = sigma_rel(cnr)
                 neg = g("modulation.negative_peak_pct")
                 ck.close(tag + ": negative peak", neg, 100 * m, 100 * Z_HELD * sig + 0.05, "100 m, noise z sigma")
