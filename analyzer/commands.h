@@ -11,5 +11,7 @@ int ml_cmd_live(int argc, char **argv);
 int ml_cmd_compare(int argc, char **argv);
 int ml_cmd_log(int argc, char **argv);
 int ml_cmd_watch(int argc, char **argv);
+int ml_cmd_card(int argc, char **argv);
+int ml_cmd_sweep(int argc, char **argv);
 
 #endif

@@ -8,8 +8,14 @@
  * direction decides: lower-is-better metrics are "better" when d < 0, higher-is-better ones when
  * d > 0, "worse" the other way. A metric without a direction that a profile limits is judged by
  * its distance to the profile's target (the middle of a min..max range, else the one limit);
- * without a target it is "changed". Exit status 1 when a counted metric is "worse": every metric
- * without --limits, only the limited ones with a profile.
+ * without a target it is "changed". A side that is only a bound (io/report.h: "< 0.30") is an
+ * interval open on one side: B - A then lies in an interval, and the verdict is decided only when
+ * that interval lies wholly beyond +-(U + T) (B is larger, or smaller, for certain); it is
+ * "same" when the interval lies wholly within +-(U + T), or the two are bounds of one direction
+ * within U + T of each other (nothing tells them apart); otherwise it is "undecided", which
+ * never counts as worse. Exit status 1 when a counted metric is "worse":
+ * every metric without --limits, only the limited ones with a profile. Two captures of different
+ * kinds (audio against I/Q, ...) are refused (exit 2) unless --mixed-kinds is given.
  */
 #define _POSIX_C_SOURCE 200809L
 #include <math.h>
@@ -47,6 +53,8 @@ static void compare_usage(FILE *f)
             "  --tolerance X             a difference within the measurement uncertainty plus X (in the\n"
             "                            metric's unit) counts as the same, for every metric\n"
             "  --tolerance METRIC=X      the same for one metric only (repeatable; overrides X)\n"
+            "  --mixed-kinds             compare A and B even when they hold different kinds of signal\n"
+            "                            (audio, if, iq): only the figures both have (default: refused)\n"
             "  --limits FILE             check A and B against a profile; only its metrics then decide\n"
             "                            the exit status; modulation peaks are judged by their distance\n"
             "                            to the profile's limit\n"
@@ -61,13 +69,19 @@ static void compare_usage(FILE *f)
             ml_cli_safety);
 }
 
-/* Moves --tolerance arguments out of argv into tol[]; returns the new argc or -1 (error printed). */
-static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol)
+/* Moves --tolerance arguments out of argv into tol[] and --mixed-kinds into *mixed_kinds; returns
+ * the new argc or -1 (error printed). */
+static int take_tolerances(int argc, char **argv, tolerance *tol, size_t *ntol, bool *mixed_kinds)
 {
     int out = 0;
     *ntol = 0;
+    *mixed_kinds = false;
     for (int i = 0; i < argc; i++) {
         const char *val = NULL;
+        if (i > 0 && strcmp(argv[i], "--mixed-kinds") == 0) {
+            *mixed_kinds = true;
+            continue;
+        }
         if (strcmp(argv[i], "--tolerance") == 0) {
             if (i + 1 >= argc) {
                 ml_cli_error("--tolerance needs a value (try 'modlens compare --help')");
@@ -167,6 +181,15 @@ static const ml_limit *limit_for(const ml_limits *l, const char *metric)
     return NULL;
 }
 
+/* The range [lo, hi] of the true value a side's value allows: a point, or open on one side for a
+ * bound; an upper bound in % (the bounded figures in % are ratios of powers: THD, THD+N) reaches
+ * down to 0. */
+static void side_range(const ml_metric_def *d, double v, ml_bound b, double *lo, double *hi)
+{
+    *lo = b == ML_BOUND_UPPER ? (strcmp(d->unit, "%") == 0 ? 0.0 : -INFINITY) : v;
+    *hi = b == ML_BOUND_LOWER ? INFINITY : v;
+}
+
 static void judge(ml_compare_row *r, const ml_metric_def *d, const ml_limit *lim, double u, double tol)
 {
     if (!r->a_valid || !r->b_valid) {
@@ -176,6 +199,22 @@ static void judge(ml_compare_row *r, const ml_metric_def *d, const ml_limit *lim
     r->difference = r->b - r->a;
     const double floor_u = 0.5 * pow(10.0, -r->decimals); /* below the displayed resolution */
     r->uncertainty = fmax(u, floor_u) + tol;
+    if (r->a_bound != ML_BOUND_NONE || r->b_bound != ML_BOUND_NONE) {
+        /* B - A lies in [b_lo - a_hi, b_hi - a_lo]: decided only when wholly beyond the uncertainty */
+        double alo, ahi, blo, bhi;
+        side_range(d, r->a, r->a_bound, &alo, &ahi);
+        side_range(d, r->b, r->b_bound, &blo, &bhi);
+        const double dlo = blo - ahi, dhi = bhi - alo;
+        const int sign = dlo > r->uncertainty ? 1 : dhi < -r->uncertainty ? -1 : 0;
+        if (sign == 0 && ((dlo >= -r->uncertainty && dhi <= r->uncertainty)
+                          || (r->a_bound == r->b_bound && fabs(r->difference) <= r->uncertainty)))
+            r->verdict = "same"; /* every difference allowed is within U + T, or bounds alike */
+        else if (sign == 0 || d->better == ML_BETTER_NONE)
+            r->verdict = sign == 0 ? "undecided" : "changed";
+        else
+            r->verdict = (sign < 0) == (d->better == ML_BETTER_LOWER) ? "better" : "worse";
+        return;
+    }
     if (fabs(r->difference) <= r->uncertainty) {
         r->verdict = "same";
         return;
@@ -240,6 +279,8 @@ static void add_row(ml_comparison *c, const ml_measure_opts *o, const char *name
     r->b_valid = mb && mb->valid;
     r->a = r->a_valid ? ma->value : 0;
     r->b = r->b_valid ? mb->value : 0;
+    r->a_bound = r->a_valid ? ma->bound : ML_BOUND_NONE;
+    r->b_bound = r->b_valid ? mb->bound : ML_BOUND_NONE;
     const double ua = r->a_valid && ma->has_u ? ma->u : 0, ub = r->b_valid && mb->has_u ? mb->u : 0;
     const ml_limit *lim = limit_for(o->out.limits, name);
     judge(r, d, lim, sqrt(ua * ua + ub * ub), tolerance_for(tol, ntol, name));
@@ -258,10 +299,24 @@ static void note(ml_comparison *c, const char *fmt, const char *a, const char *b
     snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.255s", buf);
 }
 
-/* The --tolerance values of a run. */
+/* With a card profile in force on a side: which of its figures the card limits (analyzer/bench.h). */
+static void card_notes(ml_comparison *c, const ml_report *r, const char *side)
+{
+    if (!r->card_checked)
+        return;
+    char names[ML_REPORT_NOTE_LEN] = "";
+    for (size_t i = 0; i < r->ncard_limited; i++) {
+        const size_t n = strlen(names);
+        snprintf(names + n, sizeof names - n, "%s%s", n ? ", " : "", r->card_limited[i]);
+    }
+    note(c, "%s: card-limited (within 10 dB of the card's own floor): %s", side, names[0] ? names : "none");
+}
+
+/* The --tolerance values of a run, and --mixed-kinds. */
 typedef struct {
     tolerance item[MAX_TOLERANCES];
     size_t n;
+    bool mixed_kinds;
 } tolerances;
 
 /* compare A B: both sides measured or read back, the rows and their notes, then the finish step. */
@@ -277,6 +332,10 @@ static int compare_body(ml_measure_opts *o, ml_finish_files *files, const char *
     int rc = load_side(o, o->in.path, &ra, &pa, &ma);
     if (rc == 0)
         rc = load_side(o, o->input2, &rb, &pb, &mb);
+    if (rc == 0 && strcmp(ra.kind, rb.kind) != 0 && !tol->mixed_kinds)
+        rc = ml_cli_error("%s: B holds %s, A (%s) %s: a comparison of different kinds of signal says nothing "
+                          "(give --mixed-kinds to compare the figures both have)",
+                          o->input2, rb.kind, o->in.path, ra.kind);
     if (rc != 0)
         goto done;
     memset(&cmp, 0, sizeof cmp);
@@ -301,6 +360,8 @@ static int compare_body(ml_measure_opts *o, ml_finish_files *files, const char *
             &cmp,
             "%s%s is too short for an uncertainty estimate (fewer than 3 blocks): its figures count as exact",
             "B", "");
+    card_notes(&cmp, &ra, "A");
+    card_notes(&cmp, &rb, "B");
     if ((o->out.plot_path || o->out.report_path) && (!ma || !mb))
         note(&cmp, "%s%s read from a saved report: no spectrum to draw", !ma ? "A" : "",
              !mb ? (!ma ? " and B" : "B") : "");
@@ -321,7 +382,7 @@ int ml_cmd_compare(int argc, char **argv)
         }
     static tolerances tol;
     char *cmdline = ml_plots_cmdline(argc, argv); /* before the tolerances leave argv */
-    argc = take_tolerances(argc, argv, tol.item, &tol.n);
+    argc = take_tolerances(argc, argv, tol.item, &tol.n, &tol.mixed_kinds);
     if (argc < 0) {
         free(cmdline);
         return ML_EXIT_USAGE;

@@ -146,7 +146,9 @@ int ml_finish(const ml_finish_job *j)
         return rc;
     if (j->input_failed)
         return ML_EXIT_USAGE;
-    const bool failed =
-        j->report ? strcmp(ml_report_verdict(j->report), "fail") == 0 : j->comparison->nworse > 0;
+    /* an undecided check (a bound beyond its limit) has not passed either */
+    const bool failed = j->report ? strcmp(ml_report_verdict(j->report), "fail") == 0
+                                        || strcmp(ml_report_verdict(j->report), "undecided") == 0
+                                  : j->comparison->nworse > 0;
     return failed ? ML_EXIT_FAIL : ML_EXIT_OK;
 }

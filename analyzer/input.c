@@ -11,13 +11,12 @@
 #include <string.h>
 
 #include "analyzer/cli.h"
+#include "dsp/kind.h"
+#include "dsp/modulation.h"
 #include "dsp/resolution.h"
-#include "dsp/rf.h"
 #include "dsp/stats.h"
 
 #define CHUNK_FRAMES 4096
-#define IF_MIN_HZ 3000.0     /* an IF carrier lies above the audio range                         */
-#define SIDEBAND_SPAN_HZ 10000.0
 
 static const char *plural(int n)
 {
@@ -79,6 +78,11 @@ int ml_input_open_device(const ml_input_opts *in, ml_live_config *lc, ml_segment
     lc->channels = (int)nch;
     char err[512] = "";
     memset(seg, 0, sizeof *seg);
+    /* --kind auto looks at the next channel too (an I/Q pair?) when the device has it */
+    int most = 0;
+    if (in->kind == ML_KIND_AUTO && in->channels == 0
+        && ml_audio_device_channels(in->device, true, &most, err, sizeof err) == ML_OK && most > nch)
+        lc->channels = (int)nch + 1;
     ml_status st = ml_source_open_live(lc, &seg->src, err, sizeof err);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", in->device ? in->device : "default input", err);
@@ -161,79 +165,117 @@ int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch
     return rc;
 }
 
-/* Whether the strongest component fc of s has a symmetric pair of sidebands: the strongest
- * component within +-min(fc, nyq - fc, 10 kHz) of the carrier but outside its lobe must have a
- * mirror image within 3 dB on the other side, no more than 60 dB below the carrier. */
-static bool symmetric_sidebands(const ml_spectrum *s, double fc, double ac, double *fm)
+/* The Welch spectrum of the analysed channel over the opening `frames` frames at the analysis'
+ * resolution (bins of about 0.75 Hz where the frames allow three segments), for the one-channel
+ * kind evidence (dsp/kind.h: hum sidebands 50 Hz from the carrier must be resolved); the source
+ * is left at the segment's start. */
+static int channel_spectrum(const ml_input_opts *in, ml_segment *seg, int64_t frames, ml_spectrum **out)
 {
-    const double rate = ml_spectrum_rate_hz(s), nyq = rate / 2;
-    const double bin = rate / (double)ml_spectrum_nfft(s), lobe = (double)ml_spectrum_lobe_bins(s) * bin;
-    const double span = fmin(fmin(fc, nyq - fc), SIDEBAND_SPAN_HZ);
-    *fm = 0;
-    if (!(fc >= IF_MIN_HZ && span > 2 * lobe + 20.0))
-        return false;
-    double fu, au, fl, al;
-    ml_status su = ml_rf_find_peak(s, fc + lobe + bin, fc + span, &fu, &au);
-    ml_status sl = ml_rf_find_peak(s, fc - span, fc - lobe - bin, &fl, &al);
-    if (su != ML_OK || sl != ML_OK)
-        return false;
-    /* the stronger side's partner must sit at the mirror frequency with a similar level */
-    const double f_strong = au >= al ? fu : fl, a_strong = fmax(au, al);
-    const double a_mirror = ml_rf_amplitude(s, 2 * fc - f_strong);
-    *fm = fabs(f_strong - fc);
-    return a_mirror > 0 && a_strong > 0 && fabs(20 * log10(a_mirror / a_strong)) < 3.0
-           && a_strong > 1e-3 * ac;
+    *out = NULL;
+    ml_channels ch;
+    if (ml_channels_map(seg->info->channels, in->channel, false, false, 0, &ch) != ML_OK)
+        return ml_cli_error("%s: --channel %ld is not in the input", in->path, in->channel);
+    ml_spectrum_config sc = ml_spectrum_config_default(seg->info->rate_hz);
+    while (sc.nfft > 256 && 2 * (int64_t)sc.nfft > frames)
+        sc.nfft /= 2;
+    sc.hop = sc.nfft / 2;
+    ml_status st = ml_spectrum_create(&sc, out);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", in->path, ml_strerror(st));
+    float *buf = malloc(CHUNK_FRAMES * ch.stride * sizeof *buf), *mono = malloc(CHUNK_FRAMES * sizeof *mono);
+    int rc = buf && mono ? 0 : ml_cli_error("%s: out of memory", in->path);
+    for (int64_t done = 0; rc == 0 && done < frames;) {
+        size_t want = frames - done < CHUNK_FRAMES ? (size_t)(frames - done) : CHUNK_FRAMES, got = 0;
+        if ((rc = ml_input_read(in->path, seg, buf, want, &got, done)) != 0)
+            break;
+        ml_channels_split(&ch, buf, got, mono, NULL);
+        ml_spectrum_push(*out, mono, got);
+        done += (int64_t)got;
+        if (got < want) /* a live capture ended early */
+            break;
+    }
+    free(buf);
+    free(mono);
+    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path,
+                          ml_source_detail(seg->src));
+    return rc;
 }
 
-/* One channel: an AM IF signal when its strongest component lies above 3 kHz with symmetric
- * sidebands; *is_if, its carrier and the reason. */
-static int detect_if(const ml_input_opts *in, ml_segment *seg, double look_s, bool *is_if, double *carrier_hz,
-                     char *reason, size_t len)
+/* The pair evidence (dsp/kind.h) of the analysed channel (x, 0-based cx) and the next (y) over the
+ * opening `frames` frames, the transform shortened to the frames when they are few; the source is
+ * left at the segment's start. */
+static int pair_evidence(const ml_input_opts *in, ml_segment *seg, int64_t frames, ml_pair_result *r)
+{
+    const size_t nch = (size_t)seg->info->channels, cx = (size_t)in->channel - 1;
+    ml_pair_config pc = ml_pair_config_default(seg->info->rate_hz);
+    while (pc.nfft > 256 && 2 * (int64_t)pc.nfft > frames)
+        pc.nfft /= 2;
+    ml_pair *q = NULL;
+    ml_status st = ml_pair_create(&pc, &q);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", in->path, ml_strerror(st));
+    float *buf = malloc(CHUNK_FRAMES * nch * sizeof *buf);
+    int rc = buf ? 0 : ml_cli_error("%s: out of memory", in->path);
+    for (int64_t done = 0; rc == 0 && done < frames;) {
+        size_t want = frames - done < CHUNK_FRAMES ? (size_t)(frames - done) : CHUNK_FRAMES, got = 0;
+        if ((rc = ml_input_read(in->path, seg, buf, want, &got, done)) != 0)
+            break;
+        ml_pair_push(q, buf, got, nch, cx, cx + 1);
+        done += (int64_t)got;
+        if (got < want)
+            break;
+    }
+    free(buf);
+    if (rc == 0)
+        ml_pair_get(q, r);
+    ml_pair_destroy(q);
+    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path,
+                          ml_source_detail(seg->src));
+    return rc;
+}
+
+/* One real channel: an AM IF signal or audio by the evidence of dsp/kind.h; *is_if, its carrier
+ * and the reason appended to reason[len] (which holds `used` bytes). */
+static int detect_if(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, int64_t frames,
+                     bool *is_if, double *carrier_hz, char *reason, size_t len, size_t used)
 {
     *is_if = false;
-    const double rate = seg->info->rate_hz;
-    int64_t frames = (int64_t)(look_s * rate);
-    if (frames > seg->nframes)
-        frames = seg->nframes;
-    ml_channels ch;
-    if (ml_resolution_nfft(rate, frames, ML_RESOLUTION_SPAN) == 0
-        || ml_channels_map(seg->info->channels, in->channel, false, false, 0, &ch) != ML_OK) {
-        snprintf(reason, len, "--kind auto: too short to look for a carrier; treated as audio");
+    if (frames < 256) {
+        snprintf(reason + used, len - used, "too short to look for a carrier: audio");
         return 0;
     }
     ml_spectrum *s = NULL;
-    int rc = ml_input_look_ahead(in->path, seg, &ch, frames, &s);
+    int rc = channel_spectrum(in, seg, frames, &s);
+    ml_if_evidence_result e;
+    ml_status st = rc == 0 ? ml_if_evidence(s, an->audio.mains_hz, &e) : ML_OK;
+    ml_spectrum_destroy(s);
     if (rc != 0)
         return rc;
-    const ml_carrier_config cc = ml_carrier_config_default(rate, false, NAN);
-    ml_carrier car;
-    double fm = 0;
-    if (ml_carrier_find(s, &cc, &car) != ML_OK) {
-        snprintf(reason, len, "--kind auto: no signal found; treated as audio");
-    } else if (car.frequency_hz < IF_MIN_HZ) {
-        snprintf(reason, len,
-                 "--kind auto: the strongest component (%.1f Hz) lies in the audio range below 3 kHz: "
-                 "demodulated audio",
-                 car.frequency_hz);
-    } else if (symmetric_sidebands(s, car.frequency_hz, car.amplitude, &fm)) {
-        *is_if = true;
-        *carrier_hz = car.frequency_hz;
-        snprintf(reason, len,
-                 "--kind auto: one channel whose strongest component (%.1f Hz) has symmetric sidebands "
-                 "(+-%.1f Hz): "
-                 "an AM IF signal",
-                 car.frequency_hz, fm);
-    } else {
-        snprintf(
-            reason, len,
-            "--kind auto: the strongest component (%.1f Hz) has no symmetric sidebands: demodulated audio",
-            car.frequency_hz);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", in->path, ml_strerror(st));
+    if (e.verdict == ML_CHANNEL_UNDECIDED) {
+        snprintf(reason + used, len - used, "no signal found: audio");
+        return 0;
     }
-    ml_spectrum_destroy(s);
+    /* an AM channel needs room around its carrier (dsp/modulation.h: at least 100 Hz a side) */
+    double bw = 0, tr = 0;
+    if (e.verdict == ML_CHANNEL_IF
+        && ml_modulation_channel(seg->info->rate_hz, false, e.carrier_hz, 0, 10000.0, &bw, &tr) != ML_OK) {
+        snprintf(reason + used, len - used,
+                 "the strongest line (%.1f Hz) lies too close to the Nyquist frequency for an AM channel "
+                 "around it: audio",
+                 e.carrier_hz);
+        return 0;
+    }
+    *is_if = e.verdict == ML_CHANNEL_IF;
+    *carrier_hz = e.carrier_hz;
+    ml_if_evidence_reason(&e, reason + used, len - used);
     return 0;
 }
 
-int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
+int ml_input_kind(ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
                   ml_kind *kind, double *carrier_hz, char *reason, size_t len)
 {
     static const char *const given[] = {"", "--kind audio", "--kind if", "--kind iq"};
@@ -243,18 +285,38 @@ int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segmen
         snprintf(reason, len, "%s", given[in->kind]);
         return 0;
     }
-    /* the channels from the analysed one on, the reference channel not counted */
-    const long from = seg->info->channels - in->channel + 1
-                      - (in->reference_channel >= in->channel ? 1 : 0);
-    if (from >= 2) {
-        *kind = ML_KIND_IQ;
-        snprintf(reason, len, "--kind auto: two or more channels, read as I/Q (channels %ld and %ld)",
-                 in->channel, in->channel + 1);
-        return 0;
+    int64_t frames = (int64_t)(look_s * seg->info->rate_hz);
+    if (frames > seg->nframes)
+        frames = seg->nframes;
+    size_t used = (size_t)snprintf(reason, len, "--kind auto: ");
+    /* two channels from the analysed one on (the reference not counted): I/Q only when they
+     * stand in a quadrature relation; otherwise one of them */
+    const long from = seg->info->channels - in->channel + 1 - (in->reference_channel >= in->channel ? 1 : 0);
+    if (from >= 2 && in->reference_channel != in->channel + 1) {
+        ml_pair_result pr;
+        int rc = pair_evidence(in, seg, frames, &pr);
+        if (rc != 0)
+            return rc;
+        char why[256];
+        ml_pair_reason(&pr, why, sizeof why);
+        if (pr.verdict == ML_PAIR_IQ) {
+            *kind = ML_KIND_IQ;
+            snprintf(reason + used, len - used, "channels %ld and %ld are %s: I/Q", in->channel,
+                     in->channel + 1, why);
+            return 0;
+        }
+        const long c1 = in->channel;
+        if (pr.verdict == ML_PAIR_SILENT && pr.silent_channel == 1)
+            in->channel++; /* the analysed channel is silent: the other one holds the signal */
+        used += (size_t)snprintf(reason + used, len - used,
+                                 "channels %ld and %ld: %s; channel %ld read alone: ", c1, c1 + 1, why,
+                                 in->channel);
+        if (used >= len)
+            used = len - 1;
     }
     bool is_if = false;
     double fc = NAN;
-    const int rc = detect_if(in, seg, look_s, &is_if, &fc, reason, len);
+    const int rc = detect_if(in, an, seg, frames, &is_if, &fc, reason, len, used);
     *kind = is_if ? ML_KIND_IF : ML_KIND_AUDIO;
     if (is_if && isnan(an->carrier_hz))
         *carrier_hz = fc;

@@ -32,13 +32,19 @@ typedef struct {
     bool live;                /* a live capture: an early end shortens the segment           */
     bool ended_early;         /* the capture ended before nframes (interrupt or fault)       */
     bool failed;              /* ... because of a device fault (message already printed)     */
+    bool went_silent;         /* a live input stopped delivering: digital silence (or one held
+                                 value) from silent_from_s (file time, s) to the end; set by the
+                                 pipelines' dropout detection                                  */
+    double silent_from_s;
 } ml_segment;
 
 /* Opens in->path and checks the channels and the segment (--start, --duration); seeks to its
  * start. 0 or an exit status (error printed); seg->src may be set either way (close it). */
 int ml_input_open_file(const ml_input_opts *in, ml_segment *seg);
 
-/* The channels a capture needs for in: --channels, else the analysed channel(s) and reference. */
+/* The channels a capture needs for in: --channels, else the analysed channel(s) and reference
+ * (ml_input_open_device opens one more for --kind auto when the device has it: the kind rule
+ * then sees whether the two are an I/Q pair). */
 long ml_input_device_channels(const ml_input_opts *in);
 
 /* Opens the device of in as a live source with lc (device, channels and --rate set from in;
@@ -51,12 +57,19 @@ int ml_input_open_device(const ml_input_opts *in, ml_live_config *lc, ml_segment
  * what arrived and 0 is returned with *got < want. Non-finite samples are errors. */
 int ml_input_read(const char *name, ml_segment *seg, float *buf, size_t want, size_t *got, int64_t done);
 
-/* The kind of the segment (in->kind, or for auto: I/Q when two channels from the analysed one on
- * are not the reference, else an IF signal when the opening look_s seconds (at most the segment's
- * nframes) show one carrier above
- * 3 kHz with symmetric sidebands, else audio) and why, in reason[len]; *carrier_hz gets the IF
- * carrier found (else an->carrier_hz). The source is left at the segment's start. */
-int ml_input_kind(const ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
+/* The kind of the segment and why, in reason[len]: in->kind when given; for auto, the one kind
+ * rule of every command, from the signal of the opening look_s seconds (at most the segment's
+ * nframes), not from the channel count (dsp/kind.h):
+ *  - two channels from the analysed one on (not the reference): I/Q when they are a quadrature
+ *    pair (ml_pair: one-sided spectrum); identical or near-identical channels (a stereo recording
+ *    of one source, an IF saved as stereo), two unrelated real signals or a silent channel are
+ *    not, and one channel is read alone as below (the other one when the analysed one is silent:
+ *    in->channel is then moved to it);
+ *  - one channel: an AM IF signal when ml_if_evidence says so (a carrier above 3 kHz with
+ *    symmetric sidebands, hum sidebands stronger than any baseband hum, or alone), else audio.
+ * *carrier_hz gets the IF carrier found (else an->carrier_hz). The source is left at the
+ * segment's start. 0 or an exit status (error printed). */
+int ml_input_kind(ml_input_opts *in, const ml_analysis_opts *an, ml_segment *seg, double look_s,
                   ml_kind *kind, double *carrier_hz, char *reason, size_t len);
 
 /* The channel map of the segment for the kind: 0 or an exit status (error printed). */

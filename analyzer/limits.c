@@ -32,6 +32,7 @@ typedef struct {
     size_t errlen;
     bool failed;
     bool seen_points, seen_rbw, seen_name, seen_description; /* keys that may appear once */
+    bool seen_range, seen_window, seen_thd;
 } parse_ctx;
 
 static void fail(parse_ctx *c, const char *fmt, const char *a, const char *b)
@@ -126,9 +127,118 @@ static bool once(parse_ctx *c, bool *seen, const char *section, const char *name
     return true;
 }
 
+/* "A:B[:C]" into v[n] (n 2 or 3), each through parse_number with max; false for another shape. */
+static bool colon_numbers(const char *text, double *v, int n, double max)
+{
+    char buf[160];
+    if (snprintf(buf, sizeof buf, "%s", text) >= (int)sizeof buf)
+        return false;
+    char *p = buf;
+    for (int i = 0; i < n; i++) {
+        char *colon = strchr(p, ':');
+        if ((colon == NULL) != (i == n - 1))
+            return false;
+        if (colon)
+            *colon = '\0';
+        while (*p == ' ' || *p == '\t')
+            p++;
+        if (parse_number(p, max, &v[i]) != NULL)
+            return false;
+        p = colon ? colon + 1 : p;
+    }
+    return true;
+}
+
+/* "LO:HI:PCT, ..." of [response]. */
+static bool response_bands(parse_ctx *c, const char *name, const char *value)
+{
+    ml_response_limits *rl = &c->out->response;
+    char *buf = strdup(value);
+    if (buf == NULL) {
+        fail(c, "out of memory%s%s", "", "");
+        return false;
+    }
+    bool ok = true;
+    rl->nbands = 0;
+    for (char *save = NULL, *tok = strtok_r(buf, ",", &save); ok && tok; tok = strtok_r(NULL, ",", &save)) {
+        double v[3];
+        if (!colon_numbers(tok, v, 3, MAX_OFFSET_HZ) || !(v[0] > 0) || !(v[1] > v[0]) || !(v[2] > 0)
+            || v[2] > 1000) {
+            fail(c, "key '%s': '%s' is not LO:HI:PCT with 0 < LO < HI <= 1e9 Hz and 0 < PCT <= 1000", name,
+                 tok);
+            ok = false;
+        } else if (rl->nbands >= ML_RESPONSE_MAX_BANDS) {
+            fail(c, "key '%s': more than 16 bands%s", name, "");
+            ok = false;
+        } else if (rl->nbands > 0 && v[0] < rl->band_hi_hz[rl->nbands - 1]) {
+            fail(c, "key '%s': band '%s' overlaps the one before (bands ascend and may only touch)", name,
+                 tok);
+            ok = false;
+        } else {
+            rl->band_lo_hz[rl->nbands] = v[0];
+            rl->band_hi_hz[rl->nbands] = v[1];
+            rl->band_max_pct[rl->nbands] = v[2];
+            rl->nbands++;
+        }
+    }
+    free(buf);
+    if (ok && rl->nbands == 0) {
+        fail(c, "key '%s': no bands%s", name, "");
+        ok = false;
+    }
+    return ok;
+}
+
+/* One key of [response]. */
+static int response_key(parse_ctx *c, const char *name, const char *value)
+{
+    ml_response_limits *rl = &c->out->response;
+    double v[2];
+    if (strcmp(name, "range_hz") == 0) {
+        if (!once(c, &c->seen_range, "response", name))
+            return 0;
+        if (!colon_numbers(value, v, 2, MAX_OFFSET_HZ) || !(v[0] > 0) || !(v[1] > v[0])) {
+            fail(c, "key '%s': '%s' is not LO:HI with 0 < LO < HI <= 1e9 Hz", name, value);
+            return 0;
+        }
+        rl->has_range = true;
+        rl->range_lo_hz = v[0];
+        rl->range_hi_hz = v[1];
+    } else if (strcmp(name, "window_db") == 0) {
+        if (!once(c, &c->seen_window, "response", name))
+            return 0;
+        if (strchr(value, ':') == NULL) {
+            if (parse_number(value, MAX_DBC, &v[0]) != NULL || !(v[0] > 0)) {
+                fail(c, "key '%s': '%s' is not a window in dB, 0 < D <= 1000 (or MIN:MAX)", name, value);
+                return 0;
+            }
+            v[1] = v[0];
+            v[0] = -v[0];
+        } else if (!colon_numbers(value, v, 2, MAX_DBC) || v[0] > 0 || v[1] < 0 || !(v[0] < v[1])) {
+            fail(c, "key '%s': '%s' is not MIN:MAX in dB with -1000 <= MIN <= 0 <= MAX <= 1000 and MIN < MAX",
+                 name, value);
+            return 0;
+        }
+        rl->has_window = true;
+        rl->window_min_db = v[0];
+        rl->window_max_db = v[1];
+    } else if (strcmp(name, "thd_max_pct") == 0) {
+        if (!once(c, &c->seen_thd, "response", name) || !response_bands(c, name, value))
+            return 0;
+    } else {
+        fail(c, "key '%s': unknown key in [response] (expected range_hz, window_db or thd_max_pct)%s", name,
+             "");
+        return 0;
+    }
+    c->out->has_response = true;
+    return 1;
+}
+
 static int handler(void *user, const char *section, const char *name, const char *value)
 {
     parse_ctx *c = user;
+    if (strcmp(section, "response") == 0)
+        return response_key(c, name, value);
     if (strcmp(section, "mask") == 0) {
         if (strcmp(name, "points") == 0)
             return once(c, &c->seen_points, section, name) && parse_mask_points(c, name, value) ? 1 : 0;
@@ -342,8 +452,12 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
     fclose(f);
     if (out->mask.rbw_hz == 0)
         out->mask.rbw_hz = 300.0; /* 47 CFR 73.44(a): 300 Hz resolution bandwidth */
-    if (out->mask.rbw_hz > 0 && !out->has_mask && out->n == 0) {
+    if (out->mask.rbw_hz > 0 && !out->has_mask && out->n == 0 && !out->has_response) {
         snprintf(err, errlen, "no limits in the file");
+        return ML_EFORMAT;
+    }
+    if (out->response.has_range && !out->response.has_window) {
+        snprintf(err, errlen, "[response]: range_hz needs window_db");
         return ML_EFORMAT;
     }
     if (out->has_mask) {
@@ -361,8 +475,66 @@ ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t err
     return ML_OK;
 }
 
+/* f inside [lo, hi], the edges widened by ML_RESPONSE_EDGE_TOL of themselves. */
+static bool inside(double f, double lo, double hi)
+{
+    return f >= lo * (1 - ML_RESPONSE_EDGE_TOL) && f <= hi * (1 + ML_RESPONSE_EDGE_TOL);
+}
+
+double ml_limits_response_thd_max(const ml_response_limits *rl, double f_hz)
+{
+    double m = NAN;
+    for (size_t i = 0; i < rl->nbands; i++)
+        if (inside(f_hz, rl->band_lo_hz[i], rl->band_hi_hz[i]) && !(rl->band_max_pct[i] >= m))
+            m = rl->band_max_pct[i];
+    return m;
+}
+
+/* A check of point figure leaf against [lo, hi] (either may be infinite: no such limit). */
+static void point_check(ml_report_point *p, const char *leaf, double lo, double hi)
+{
+    if (p->nchecks >= ML_REPORT_POINT_CHECKS)
+        return;
+    ml_check *c = &p->checks[p->nchecks++];
+    memset(c, 0, sizeof *c);
+    snprintf(c->metric, sizeof c->metric, "%s", leaf);
+    c->has_min = isfinite(lo);
+    c->has_max = isfinite(hi);
+    c->min = c->has_min ? lo : 0;
+    c->max = c->has_max ? hi : 0;
+    const ml_metric *m = ml_report_point_find(p, leaf);
+    c->unit = m ? m->unit : "";
+    c->decimals = m ? m->decimals : 3;
+    if (m == NULL || !m->valid)
+        return; /* not measured: a failed check */
+    c->valid = true;
+    c->value = m->value;
+    c->margin = fmin(c->has_min ? m->value - lo : INFINITY, c->has_max ? hi - m->value : INFINITY);
+    c->pass = c->margin >= 0;
+}
+
+/* The [response] checks of every point of r's series. */
+static void apply_response(const ml_response_limits *rl, ml_report *r)
+{
+    ml_report_series *s = r->series;
+    for (size_t k = 0; s && k < s->npoints; k++) {
+        ml_report_point *p = &s->points[k];
+        p->nchecks = 0;
+        const ml_metric *f = ml_report_point_find(p, "frequency_hz");
+        if (f == NULL || !f->valid)
+            continue;
+        if (rl->has_window && (!rl->has_range || inside(f->value, rl->range_lo_hz, rl->range_hi_hz)))
+            point_check(p, "relative_db", rl->window_min_db, rl->window_max_db);
+        const double thd = ml_limits_response_thd_max(rl, f->value);
+        if (isfinite(thd))
+            point_check(p, "thd_pct", -INFINITY, thd);
+    }
+}
+
 void ml_limits_apply(const ml_limits *l, ml_report *r)
 {
+    if (l->has_response)
+        apply_response(&l->response, r);
     for (size_t i = 0; i < l->n && r->nchecks < ML_REPORT_MAX_CHECKS; i++) {
         const ml_limit *lim = &l->items[i];
         ml_check *c = &r->checks[r->nchecks++];
@@ -390,5 +562,18 @@ void ml_limits_apply(const ml_limits *l, ml_report *r)
             margin = lim->max - m->value;
         c->margin = margin;
         c->pass = margin >= 0;
+        /* a bound: the true value lies on one side of it. An upper bound at or below a max passes
+         * it, one below a min fails it for sure; otherwise nothing is known (and likewise for a
+         * lower bound with min and max swapped) */
+        if (m->bound != ML_BOUND_NONE) {
+            const bool up = m->bound == ML_BOUND_UPPER;
+            const bool fails = (up && lim->has_min && m->value < lim->min)
+                               || (!up && lim->has_max && m->value > lim->max);
+            const bool open = (up && lim->has_max && m->value > lim->max) || (up && lim->has_min && !fails)
+                              || (!up && lim->has_min && m->value < lim->min)
+                              || (!up && lim->has_max && !fails);
+            c->pass = !fails && !open;
+            c->undecided = !fails && open;
+        }
     }
 }

@@ -37,9 +37,10 @@ static void devices_usage(FILE *f)
     fprintf(f,
             "usage: modlens devices [--format text|json]\n"
             "\n"
-            "Lists every audio input and output device the sound system offers: index, name, host\n"
-            "API, input and output channels, default sample rate; '>' marks the default input,\n"
-            "'<' the default output. Give a device to 'live' or 'tone --play' by index or name.\n\n%s",
+            "Lists every audio input and output device the sound system offers, one a line: its\n"
+            "number, name, audio system (host API), input and output channels, default sample rate,\n"
+            "and in words whether it is the default input, output or both. Give a device to 'live',\n"
+            "'watch', 'log' or 'tone --play' by number or name.\n\n%s",
             ml_cli_safety);
 }
 
@@ -94,14 +95,18 @@ int ml_cmd_devices(int argc, char **argv)
     } else if (n == 0) {
         printf("no audio devices found (no sound card, and no audio server running)\n");
     } else {
-        printf("%5s  %-32s %-26s %4s %4s %9s\n", "index", "name", "host API", "in", "out", "rate_hz");
+        printf("%3s  %-32s  %-24s  %6s  %7s  %7s  %s\n", "#", "device", "audio system", "inputs", "outputs",
+               "rate Hz", "default for");
         for (size_t i = 0; i < n; i++) {
             char name[4 * sizeof dev[i].name], api[4 * sizeof dev[i].host_api]; /* the system's text */
             ml_printable(name, sizeof name, dev[i].name);
             ml_printable(api, sizeof api, dev[i].host_api);
-            printf("%c%c%3d  %-32s %-26s %4d %4d %9.0f\n", dev[i].default_input ? '>' : ' ',
-                   dev[i].default_output ? '<' : ' ', dev[i].index, name, api, dev[i].max_input_channels,
-                   dev[i].max_output_channels, dev[i].default_rate_hz);
+            const char *def = dev[i].default_input && dev[i].default_output ? "input and output"
+                              : dev[i].default_input                        ? "input"
+                              : dev[i].default_output                       ? "output"
+                                                                            : "";
+            printf("%3d  %-32s  %-24s  %6d  %7d  %7.0f  %s\n", dev[i].index, name, api,
+                   dev[i].max_input_channels, dev[i].max_output_channels, dev[i].default_rate_hz, def);
         }
     }
     return fflush(stdout) == 0 && !ferror(stdout) ? ML_EXIT_OK : ml_cli_error("cannot write the list");
@@ -135,8 +140,9 @@ void ml_live_usage(FILE *f)
             "  --tone, --carrier, --limits, --format, --output, ...); --start and --duration count\n"
             "  from the start of the capture.\n"
             "\n"
-            "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage, device or input\n"
-            "error (a capture cut short by a device fault is still reported, flagged, with status 2).\n"
+            "Exit status: 0 all checks pass (or no limits), 1 a check fails or cannot be decided, 2\n"
+            "usage, device or input error (a capture cut short by a device fault is still reported,\n"
+            "flagged, with status 2).\n"
             "\n"
             "Never connect a sound card input to a transmitter output: use an RF sampler or attenuator\n"
             "and a receiver or downconverter. Before feeding a transmitter's audio input with\n"
@@ -173,16 +179,16 @@ static void feed_tone(void *ctx, float *buf, size_t n)
  * P0 = preroll is A sin(2 pi f n / fs); its first sample above T (after scaling by the returned
  * amplitude) is n1, and the latency is (first captured sample above T) - (P0 + n1): exact for a
  * linear path, within a sample or two with noise. */
-static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t preroll, int64_t *onset,
-                      int64_t *latency)
+int ml_live_find_onset(const char *name, long channel, double tone_hz, ml_segment *seg, uint64_t preroll,
+                       int64_t *onset, int64_t *latency)
 {
     const double rate = seg->info->rate_hz;
     const int64_t noise_n = (int64_t)(NOISE_S * rate),
                   limit = (int64_t)preroll + (int64_t)(ONSET_WAIT_S * rate);
-    const int64_t period = (int64_t)ceil(rate / o->in.play_hz);
+    const int64_t period = (int64_t)ceil(rate / tone_hz);
     ml_channels ch; /* the analysed channel, where the tone comes back */
-    if (ml_channels_map(seg->info->channels, o->in.channel, false, false, 0, &ch) != ML_OK)
-        return ml_cli_error("--channel %ld is not in the capture", o->in.channel);
+    if (ml_channels_map(seg->info->channels, channel, false, false, 0, &ch) != ML_OK)
+        return ml_cli_error("--channel %ld is not in the capture", channel);
     float *buf = malloc(ML_BLOCK_FRAMES * ch.stride * sizeof *buf),
           *mono = malloc(ML_BLOCK_FRAMES * sizeof *mono);
     if (buf == NULL || mono == NULL) {
@@ -197,7 +203,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         size_t got = 0;
         ml_segment whole = *seg;
         whole.nframes = limit;
-        rc = ml_input_read(o->in.path, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
+        rc = ml_input_read(name, &whole, buf, ML_BLOCK_FRAMES, &got, pos);
         if (rc == 0 && got < ML_BLOCK_FRAMES)
             rc = whole.failed ? ML_EXIT_USAGE
                               : ml_cli_error("live: the capture ended while waiting for the tone");
@@ -225,7 +231,7 @@ static int find_onset(const ml_measure_opts *o, ml_segment *seg, uint64_t prerol
         return ml_cli_error("live: the played tone did not come back within %.1f s (threshold %.1f dBFS); "
                             "check the connection and the levels", ONSET_WAIT_S, 20 * log10(thr));
     int64_t n1 = 0;
-    while (amp * fabs(sin(2 * M_PI * o->in.play_hz * (double)n1 / rate)) <= thr && n1 < period)
+    while (amp * fabs(sin(2 * M_PI * tone_hz * (double)n1 / rate)) <= thr && n1 < period)
         n1++;
     *onset = j;
     *latency = j - ((int64_t)preroll + n1);
@@ -268,7 +274,8 @@ static int segment(const ml_measure_opts *o, ml_segment *seg, const tone_feed *f
     *latency = -1;
     if (o->in.play) {
         int64_t onset = 0;
-        rc = find_onset(o, seg, feed->preroll, &onset, latency);
+        rc = ml_live_find_onset(o->in.path, o->in.channel, o->in.play_hz, seg, feed->preroll, &onset,
+                                latency);
         if (rc == 0 && seg->first < onset + (int64_t)(SETTLE_S * rate))
             seg->first = onset + (int64_t)(SETTLE_S * rate);
     }
@@ -303,11 +310,19 @@ static void describe_capture(ml_report *rep, const ml_measure_opts *o, const ml_
     ml_report_add_text(rep, "live.device", shown);
     ml_printable(shown, sizeof shown, ls.host_api);
     ml_report_add_text(rep, "live.host_api", shown);
-    ml_report_add_text(rep, "live.complete", seg->ended_early ? "no" : "yes");
+    /* a capture is complete when the input delivered signal to its end: a feed that stops leaves
+     * digital silence (the dropout detection of the pipelines marks it) */
+    ml_report_add_text(rep, "live.complete", seg->ended_early || seg->went_silent ? "no" : "yes");
     if (seg->ended_early)
         ml_report_note(rep, "capture incomplete: %s after %.3f s of %.3f s",
                        seg->failed ? "the device failed" : "interrupted", (double)ls.captured_frames / rate,
                        o->in.seconds);
+    if (seg->went_silent)
+        ml_report_note(rep,
+                       "capture incomplete: the input stopped delivering at %.3f s (digital silence from "
+                       "there to the end of the %.3f s capture%s)",
+                       seg->silent_from_s, (double)ls.captured_frames / rate,
+                       strcmp(rep->kind, "audio") == 0 ? ", left out of the figures" : "");
     if (ls.lost_frames > 0)
         ml_report_note(rep, "%llu frames were lost (the computer fell behind the sound card)",
                        (unsigned long long)ls.lost_frames);

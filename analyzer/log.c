@@ -20,6 +20,7 @@
 #include <sys/stat.h>
 #include <time.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/input.h"
@@ -68,6 +69,8 @@ static void log_usage(FILE *f)
             "analysis: --mains, --band, --tone, --harmonics, --window, --carrier, --bandwidth,\n"
             "  --carrier-reference, --peak-hold-ms as for 'modlens measure' (C is latched from an\n"
             "  unmodulated stretch the log hears, or taken from --carrier-reference)\n"
+            "  --full-scale-dbu DB, --calibration FILE, --no-settings   as for 'modlens measure':\n"
+            "  with a calibration the level columns are rms_dbu, peak_dbu and a_weighted_dbu\n"
             "testing:\n"
             "  --pace X                read a file at X times real time (to test interruption)\n"
             "\n"
@@ -154,8 +157,8 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
         {"pace", required_argument, NULL, O_PACE}, {"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0},
     };
     struct option longopts[64];
-    ml_options_table(ML_OPTS_SOURCE | ML_OPTS_DEVICE | ML_OPTS_AUDIO | ML_OPTS_MODULATION, own, longopts,
-                     sizeof longopts / sizeof *longopts);
+    ml_options_table(ML_OPTS_SOURCE | ML_OPTS_DEVICE | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_LEVELS,
+                     own, longopts, sizeof longopts / sizeof *longopts);
     memset(o, 0, sizeof *o);
     o->in = ml_input_opts_default();
     o->in.seconds = 0; /* no limit */
@@ -190,7 +193,8 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
     if (optind == argc - 1)
         o->in.path = argv[optind];
     o->in.live = o->in.device != NULL;
-    return check_inputs(o);
+    return (rc = check_inputs(o)) != 0 ? rc
+                                       : ml_bench_setup(ML_BENCH_MAINS | ML_BENCH_CAL, &o->in, &o->an, NULL);
 }
 
 /* The input step for a file: open it, its start in UTC, its kind. */

@@ -13,6 +13,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/log_internal.h"
 #include "analyzer/values.h"
@@ -143,7 +144,8 @@ int ml_log_open_outputs(ml_logger *L, int64_t period, char *last_row, size_t las
     const char *in = L->o->in.live ? NULL : L->o->in.path;
     if (in && (ml_same_file(L->rows_path, in) || ml_same_file(L->events_path, in)))
         return ml_cli_error("%s: refusing to write the log over the input file", L->rows_path);
-    ml_status st = ml_logfile_open(L->rows_path, row_header(), &L->rows, last_row, last_len, err, sizeof err);
+    ml_status st = ml_logfile_open(L->rows_path, ml_bench_log_header(&L->o->an, row_header()), &L->rows,
+                                   last_row, last_len, err, sizeof err);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", L->rows_path, err);
     st = ml_logfile_open(L->events_path, EVENT_HEADER, &L->events, last_ev, sizeof last_ev, err, sizeof err);
@@ -165,6 +167,13 @@ void ml_log_fmt_num(char *b, size_t n, double v, int decimals)
         b[0] = '\0';
 }
 
+/* A level cell in dBFS: empty (NAN) beyond the reportable range (analyzer/values.h), where a
+ * reading is a floor value (-300 for silence), never a measurement. */
+static double level_db(double v)
+{
+    return ml_values_in_range("audio.rms_dbfs", v) ? v : NAN;
+}
+
 /* The level columns of the interval: rms, peak, A-weighted, crest (dsp/figures.h). */
 static size_t level_cells(const ml_logger *L, char *b, size_t n)
 {
@@ -177,11 +186,12 @@ static size_t level_cells(const ml_logger *L, char *b, size_t n)
         aw = L->asum > 0 ? ml_power_dbfs(L->asum / (double)L->data_frames) : NAN;
         /* 20 lg(peak / sqrt(mean square)); rms_dbfs is 10 lg(mean square / 0.5); NAN when either is */
         crest = pk - rms + 10 * log10(2.0);
+        ml_bench_log_levels(&L->o->an, &rms, &pk, &aw);
     }
     char c[4][24];
-    ml_log_fmt_num(c[0], 24, rms, 2);
-    ml_log_fmt_num(c[1], 24, pk, 2);
-    ml_log_fmt_num(c[2], 24, aw, 2);
+    ml_log_fmt_num(c[0], 24, level_db(rms), 2);
+    ml_log_fmt_num(c[1], 24, level_db(pk), 2);
+    ml_log_fmt_num(c[2], 24, level_db(aw), 2);
     ml_log_fmt_num(c[3], 24, crest, 2);
     return (size_t)snprintf(b, n, "%s,%s,%s,%s", c[0], c[1], c[2], c[3]);
 }
@@ -226,10 +236,10 @@ static size_t spectral_cells(ml_logger *L, char *b, size_t n)
     }
     char c[3][24], hs[ML_LOG_HUM_N][24];
     ml_log_fmt_num(c[0], 24, mains, 0);
-    ml_log_fmt_num(c[1], 24, hum, 2);
-    ml_log_fmt_num(c[2], 24, fl, 2);
+    ml_log_fmt_num(c[1], 24, level_db(hum), 2);
+    ml_log_fmt_num(c[2], 24, level_db(fl), 2);
     for (int i = 0; i < ML_LOG_HUM_N; i++)
-        ml_log_fmt_num(hs[i], 24, h[i], 2);
+        ml_log_fmt_num(hs[i], 24, level_db(h[i]), 2);
     return (size_t)snprintf(b, n, "%s,%s,%s,%s,%s,%s,%s,%s,%s", c[0], c[1], hs[0], hs[1], hs[2], hs[3], hs[4],
                             hs[5], c[2]);
 }

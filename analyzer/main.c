@@ -22,11 +22,13 @@ static void usage(FILE *f)
             "commands:\n"
             "  measure FILE   analyse a recording (THD, THD+N, SINAD, SNR, hum, ...) against limits\n"
             "  compare A B    compare two measurements (recordings or saved JSON): better, worse, same\n"
+            "  sweep FILE     frequency response and distortion step by step (a recording, or played live)\n"
             "  live           capture from a sound card, then analyse as measure does\n"
             "  watch          live meter in the terminal: modulation or distortion, updated 10 times a second\n"
             "  devices        list the sound-card inputs and outputs\n"
             "  tone           write a test signal to a file, or play it\n"
             "  log            log levels, hum, noise and interference events for hours (CSV)\n"
+            "  card           qualify the sound card (its own floor) from a loopback; level calibration\n"
             "\n"
             "options:\n"
             "  --help         this summary (also -h or help)\n"
@@ -63,7 +65,11 @@ int main(int argc, char **argv)
         return ml_cmd_compare(argc - 1, argv + 1);
     if (strcmp(cmd, "tone") == 0)
         return ml_cmd_tone(argc - 1, argv + 1);
+    if (strcmp(cmd, "sweep") == 0)
+        return ml_cmd_sweep(argc - 1, argv + 1);
     if (strcmp(cmd, "log") == 0)
         return ml_cmd_log(argc - 1, argv + 1);
+    if (strcmp(cmd, "card") == 0)
+        return ml_cmd_card(argc - 1, argv + 1);
     return ml_cli_error("unknown command '%s' (try 'modlens --help')", cmd);
 }

@@ -11,6 +11,7 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/finish.h"
@@ -35,8 +36,9 @@ static void measure_usage(FILE *f)
         "the modulation of an AM signal captured as a downconverted IF or as I/Q.\n"
         "\n"
         "input:\n"
-        "  --kind auto|audio|if|iq   what the recording holds (default auto: two channels -> iq;\n"
-        "                            one channel -> if when it looks like an AM carrier, else audio)\n"
+        "  --kind auto|audio|if|iq   what the recording holds (default auto, tested on the signal:\n"
+        "                            iq when two channels are a quadrature pair, never for copies of\n"
+        "                            one signal; if when one channel holds an AM carrier; else audio)\n"
         "  --channel N               channel to analyse, 1-based (default 1; for iq the I channel)\n"
         "  --swap-iq                 the I/Q channels are Q then I\n"
         "  --start S                 skip S seconds at the start (default 0)\n"
@@ -45,9 +47,25 @@ static void measure_usage(FILE *f)
         "  --band LO:HI              measurement band in Hz (default 20:20000, clipped to Nyquist\n"
         "                            and, for if/iq, to the channel bandwidth)\n"
         "  --tone HZ                 expected test-tone frequency (default: strongest in band)\n"
+        "  --no-tone                 no test tone: measure hum and noise only (default: decided from\n"
+        "                            the signal; a line 10 dB clear of the noise around it is a tone)\n"
+        "  --with-tone               take the strongest line (or the one at --tone) as the test tone\n"
+        "                            even when it does not stand clear of the noise\n"
         "  --harmonics N             highest harmonic order in THD, 2..%d (default 10)\n"
         "  --mains 50|60             mains frequency for hum (default: detected)\n"
         "  --window NAME             hft248d (default), hft144d, blackman-harris, hann\n"
+        "levels and the sound card:\n"
+        "  --full-scale-dbu DB       the dBu a full-scale sine corresponds to at the input (e.g. 18,\n"
+        "                            EBU R68): levels are then given in dBu, dBV and volts too\n"
+        "  --calibration FILE        the calibration made by 'modlens card --calibrate'\n"
+        "  --load-ohms R             with a calibration: the tone's power into R ohms, in watts\n"
+        "  --card FILE               the sound card's profile ('modlens card --out'): figures within\n"
+        "                            %.0f dB of what the card itself resolves are marked card-limited\n"
+        "  --card-correct            correct the tone's level in volts for the card's response\n"
+        "  --no-settings             ignore the settings file (~/.config/modlens/settings.ini)\n"
+        "  --imd auto|off|smpte|dfd  intermodulation (default auto: measured when the signal is an\n"
+        "                            IMD test signal); smpte:FL,FH or dfd:F1,F2 force the method and\n"
+        "                            name the tones; THD and noise figures are then not measurable\n"
         "modulation analysis (if/iq):\n"
         "  --carrier HZ              carrier frequency (default: detected; the offset is reported)\n"
         "  --bandwidth HZ            one-sided audio bandwidth of the channel filter (default: the\n"
@@ -62,8 +80,9 @@ static void measure_usage(FILE *f)
         "  --plot FILE               pictures: spectrum; envelope and trapezoid for if/iq (.png .svg .pdf)\n"
         "  --report FILE.pdf         a PDF record: what was measured, the metric table, the pictures\n"
         "\n"
-        "Exit status: 0 all checks pass (or no limits), 1 a check fails, 2 usage or input error.\n\n%s",
-        ML_MAX_HARMONICS, ml_cli_safety);
+        "Exit status: 0 all checks pass (or no limits), 1 a check fails or cannot be decided (a\n"
+        "noise-limited bound beyond its limit), 2 usage or input error.\n\n%s",
+        ML_MAX_HARMONICS, ML_CARD_MARGIN_DB, ml_cli_safety);
 }
 
 int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
@@ -73,7 +92,7 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
     /* measure and compare take the device options only to say whose they are */
     struct option longopts[64];
     ml_options_table(ML_OPTS_SOURCE | ML_OPTS_SEGMENT | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_REPORT
-                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE,
+                         | ML_OPTS_DEVICE | ML_OPTS_CAPTURE | ML_OPTS_LEVELS | ML_OPTS_BENCH | ML_OPTS_IMD,
                      own, longopts, sizeof longopts / sizeof *longopts);
     const char *cmd = argv[0]; /* measure, compare, live or watch */
     memset(o, 0, sizeof *o);
@@ -116,7 +135,9 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
             return ml_cli_error("--start %.3f s leaves nothing of --seconds %.3f", o->in.start_s,
                                 o->in.seconds);
         o->in.path = "live";
-        return 0;
+        return ml_bench_setup(ML_BENCH_DEVICE | (o->in.play ? ML_BENCH_OUTPUT : 0) | ML_BENCH_MAINS
+                                  | ML_BENCH_LIMITS | ML_BENCH_CARD | ML_BENCH_CAL,
+                              &o->in, &o->an, &o->out);
     }
     if (ninputs == 2 && argc - optind != 2)
         return ml_cli_error("compare needs two inputs A and B (try 'modlens compare --help')");
@@ -126,20 +147,26 @@ int ml_measure_parse(int argc, char **argv, ml_measure_opts *o, int ninputs)
                             argv[argc - 1]);
     o->in.path = argv[optind];
     o->input2 = ninputs == 2 ? argv[optind + 1] : NULL;
-    return 0;
+    return ml_bench_setup(ML_BENCH_MAINS | ML_BENCH_LIMITS | ML_BENCH_CARD | ML_BENCH_CAL, &o->in, &o->an,
+                          &o->out);
 }
 
 void ml_measure_add(ml_report *r, const char *name, double value)
 {
-    ml_values_report(r, &(ml_value){name, value}, 1);
+    ml_values_report(r, &(ml_value){.name = name, .value = value}, 1);
 }
 
-/* The table of harmonics (order, frequency, dBc) or of hum components (frequency, dBFS, dBc). */
+/* The table of harmonics (order, frequency, dBc) or of hum components (frequency, dBFS, dBc):
+ * the lines that stand above the noise (dsp/metrics.h), each at its power less the noise
+ * expected in its lobe (so that the harmonics' rows add up to THD); dBc NAN without a tone. The
+ * others are no measurement: the figures say what they bound. */
 static void component_table(ml_report *r, bool hum, const ml_component *c, size_t n, double p1)
 {
     static const char *const cols[2][3] = {{"order", "frequency_hz", "level_dbc"},
                                            {"frequency_hz", "level_dbfs", "level_dbc"}};
     static const int decimals[2][3] = {{0, 2, 2}, {1, 2, 2}};
+    if (r->ntables >= ML_REPORT_MAX_TABLES)
+        return;
     ml_table *t = &r->tables[r->ntables++];
     snprintf(t->path, sizeof t->path, "%s", hum ? "hum.components" : "audio.harmonics");
     snprintf(t->title, sizeof t->title, "%s", hum ? "hum components" : "harmonics");
@@ -148,10 +175,13 @@ static void component_table(ml_report *r, bool hum, const ml_component *c, size_
         t->cols[k] = cols[hum][k];
         t->decimals[k] = decimals[hum][k];
     }
-    for (size_t i = 0; i < n && i < ML_REPORT_MAX_ROWS; i++) {
-        t->cell[i][0] = hum ? c[i].frequency_hz : c[i].order;
-        t->cell[i][1] = hum ? ml_power_dbfs(c[i].power) : c[i].frequency_hz;
-        t->cell[i][2] = ml_ratio_db(c[i].power, p1);
+    for (size_t i = 0; i < n && t->nrows < ML_REPORT_MAX_ROWS; i++) {
+        const double p = c[i].line_power, dbfs = 10.0 * log10(p / 0.5), dbc = 10.0 * log10(p / p1);
+        if (!c[i].above_noise || !(p > 0) || !ml_values_in_range("hum.level_dbfs", dbfs))
+            continue;
+        t->cell[t->nrows][0] = hum ? c[i].frequency_hz : c[i].order;
+        t->cell[t->nrows][1] = hum ? dbfs : c[i].frequency_hz;
+        t->cell[t->nrows][2] = p1 > 0 && ml_values_in_range("hum.level_dbc", dbc) ? dbc : NAN;
         t->nrows++;
     }
 }
@@ -164,8 +194,83 @@ void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok)
     ml_values_report(r, v, ml_values_audio(&f, v));
     if (!ok)
         return;
-    component_table(r, false, a->harmonics, a->nharmonics, a->fundamental_power);
-    component_table(r, true, a->hum, a->nhum, a->fundamental_power);
+    /* harmonics only where THD is a figure: with a tone, resolved from it, inside the band */
+    const double p1 = a->tone_present ? a->fundamental_power : NAN;
+    const bool thd = a->tone_present && a->figures.thd.state != ML_FIG_NONE;
+    component_table(r, false, a->harmonics, thd ? a->nharmonics : 0, p1);
+    component_table(r, true, a->hum, a->nhum, p1);
+}
+
+void ml_measure_add_audio_none(ml_report *r, ml_audio_why why)
+{
+    ml_audio_plain_figures f;
+    ml_value v[ML_VALUES_MAX];
+    ml_figures_audio_none(&f);
+    const size_t n = ml_values_audio(&f, v);
+    for (size_t i = 0; i < n; i++)
+        v[i].why = ml_audio_why_text(why);
+    ml_values_report(r, v, n);
+}
+
+void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *what, const char *re)
+{
+    char cand[128] = "";
+    if (a->candidate_hz > 0 && isfinite(a->candidate_margin_db))
+        snprintf(cand, sizeof cand, "; the strongest other line, %.1f Hz, %s", a->candidate_hz,
+                 a->candidate_margin_db > 0 ? "" : "lies in the noise");
+    if (a->candidate_hz > 0 && isfinite(a->candidate_margin_db) && a->candidate_margin_db > 0)
+        snprintf(cand + strlen(cand), sizeof cand - strlen(cand), "stands %.1f dB above the noise around it",
+                 a->candidate_margin_db);
+    if (a->tone_present) {
+        ml_report_add_text(r, "audio.measurement", "tone");
+        if (a->tone_why == ML_WHY_TONE_FORCED && !a->tone_clear)
+            ml_report_note(r,
+                           "%s: the declared test tone at %.1f Hz does not stand %.0f dB clear of the noise "
+                           "around it (%.1f dB): read its figures with care",
+                           what, a->fundamental_hz, ML_TONE_CLEAR_DB, a->candidate_margin_db);
+        return;
+    }
+    ml_report_add_text(r, "audio.measurement", "hum and noise");
+    ml_report_note(r, "hum-and-noise measurement of %s (re %s, no tone figures): %s%s%s", what, re,
+                   ml_audio_why_text(a->tone_why), a->tone_why == ML_WHY_TONE_OFF ? "" : cand,
+                   a->tone_why == ML_WHY_TONE_OFF ? "" : " (--with-tone takes it as the tone)");
+}
+
+bool ml_measure_dropout_notes(ml_report *rep, ml_segment *seg, const ml_dropout_result *r, bool left_out)
+{
+    enum { NOTE_EVENTS = 4 }; /* dropouts listed by time; the rest counted */
+    const double rate = seg->info->rate_hz, t0 = (double)seg->first / rate;
+    if (r->nevents == 0)
+        return false;
+    if (r->nevents == 1 && r->nsilence == 1 && r->events[0].start == 0 && r->ongoing) {
+        ml_report_note(rep, "the input holds one value (%.6g) from start to end: %s", r->events[0].value,
+                       r->events[0].value == 0 ? "digital silence" : "a stuck converter, or DC alone");
+        return false;
+    }
+    char list[ML_REPORT_NOTE_LEN] = "";
+    size_t len = 0;
+    for (size_t i = 0; i < r->nstored && i < NOTE_EVENTS && len < sizeof list; i++) {
+        const ml_dropout_event *e = &r->events[i];
+        const double a = t0 + (double)e->start / rate, b = t0 + (double)(e->end + 1) / rate;
+        if (e->kind == ML_DROPOUT_SILENCE)
+            len += (size_t)snprintf(list + len, sizeof list - len, "%s%s %.3f-%.3f s", i ? "; " : "",
+                                    e->value == 0 ? "silence" : "held value", a, b);
+        else
+            len += (size_t)snprintf(list + len, sizeof list - len, "%sdiscontinuity at %.3f s", i ? "; " : "",
+                                    a);
+    }
+    ml_report_note(rep, "dropouts %s (%zu: %zu silence, %zu discontinuit%s): %s%s",
+                   left_out ? "left out of the figures" : "in the capture, not left out of the figures",
+                   r->nevents, r->nsilence, r->nstep, r->nstep == 1 ? "y" : "ies", list,
+                   r->nevents > NOTE_EVENTS ? "; ..." : "");
+    if (r->ongoing && seg->live) {
+        seg->went_silent = true;
+        seg->silent_from_s = t0 + (double)r->events[r->nstored - 1].start / rate;
+    }
+    if (left_out && r->nevents > r->nstored)
+        ml_report_note(rep, "more than %d dropouts: those after the %dth are counted, not left out",
+                       ML_DROPOUT_MAX_EVENTS, ML_DROPOUT_MAX_EVENTS);
+    return left_out;
 }
 
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
@@ -209,18 +314,20 @@ void ml_measure_progress_end(bool shown)
 
 int ml_measure_prepare(ml_measure_opts *o, ml_limits *limits, ml_finish_files *files)
 {
-    const ml_finish_input ins[3] = {
+    const ml_finish_input ins[5] = {
         {o->in.live ? NULL : o->in.path, o->input2 ? "recording A" : "the recording"},
         {o->input2, "recording B"},
         {o->an.carrier_reference, "the carrier reference"},
+        {o->an.card_path, "the card profile"},
+        {o->an.calibration_path, "the calibration"},
     };
-    return ml_finish_prepare(&o->out, limits, ins, 3, o->in.save_path, files);
+    return ml_finish_prepare(&o->out, limits, ins, 5, o->in.save_path, files);
 }
 
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
 {
     ml_kind kind;
-    char reason[160];
+    char reason[384];
     double carrier;
     int rc = ml_input_kind(&o->in, &o->an, seg, ML_INPUT_LOOK_S, &kind, &carrier, reason, sizeof reason);
     if (rc != 0)
@@ -229,6 +336,8 @@ int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep)
         rc = ml_measure_audio(o, seg, reason, rep);
     else
         rc = ml_measure_modulation(o, seg, kind, reason, carrier, rep);
+    if (rc == 0)
+        ml_bench_finish(&o->an, rep);
     return rc;
 }
 

@@ -12,6 +12,7 @@
 #include "analyzer/input.h"
 #include "analyzer/limits.h"
 #include "analyzer/options.h"
+#include "dsp/dropout.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -37,8 +38,16 @@ int ml_measure_analyse(ml_measure_opts *o, ml_report *rep);
 
 /* Adds a registered metric (unit and precision from the registry); NAN -> not measured. */
 void ml_measure_add(ml_report *r, const char *name, double value);
-/* The audio metrics (audio.*, hum.*) and their tables from an analysis; ok false -> nulls. */
+/* The audio metrics (audio.*, hum.*) with their states, and their tables (the lines above the
+ * noise) from an analysis; ok false -> nulls. */
 void ml_measure_add_audio(ml_report *r, const ml_audio_result *a, bool ok);
+/* The audio metrics, every one not measurable for the reason why (dsp/metrics.h). */
+void ml_measure_add_audio_none(ml_report *r, ml_audio_why why);
+/* The tone decision of a (dsp/metrics.h) as the text audio.measurement ("tone", or "hum and
+ * noise") and, without a clear tone, a note beginning with `what` ("the recording", "the
+ * demodulated audio") that says why and what the hum and noise are relative to (`re`: "full
+ * scale", "100 % modulation"). */
+void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *what, const char *re);
 
 /* ml_finish_prepare for o's inputs (the recording or recordings A and B, the carrier reference)
  * and outputs; 0 with *files to release by ml_finish_files_free, or an exit status (error
@@ -58,6 +67,18 @@ int ml_measure_command(int argc, char **argv, int ninputs, char *cmdline, ml_mea
 int ml_measure_run(ml_measure_opts *o, ml_segment *seg, ml_report *rep);
 /* live's --help (analyzer/live.c). */
 void ml_live_usage(FILE *f);
+/* Where a tone of tone_hz played from frame `preroll` on (after silence) comes back in channel
+ * (1-based) of seg, read from its start (analyzer/live.c, 'live --play-tone'): *onset the first
+ * frame above the threshold (4 x the opening 0.1 s's peak, at least -70 dBFS), *latency the
+ * round trip in frames. 0 or an exit status (error printed, naming name). */
+int ml_live_find_onset(const char *name, long channel, double tone_hz, ml_segment *seg, uint64_t preroll,
+                       int64_t *onset, int64_t *latency);
+
+/* The dropouts r of the segment (dsp/dropout.h) as notes with their times (file time, s),
+ * saying whether they were left out of the figures; a silence run still going on at the end of a
+ * live capture marks seg->went_silent (the input stopped delivering). True when samples were
+ * left out (left_out, and not a capture that is one value from end to end). */
+bool ml_measure_dropout_notes(ml_report *rep, ml_segment *seg, const ml_dropout_result *r, bool left_out);
 /* Fills the report's input description. */
 void ml_measure_describe(ml_report *r, const ml_measure_opts *o, const ml_segment *seg, const char *kind,
                          const char *reason);

@@ -17,13 +17,16 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
+#include "analyzer/imd.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
 #include "analyzer/values.h"
 #include "analyzer/worker.h"
 #include "dsp/carrier.h"
+#include "dsp/dropout.h"
 #include "dsp/figures.h"
 #include "dsp/metrics.h"
 #include "dsp/modulation.h"
@@ -74,6 +77,9 @@ typedef struct {
     ml_modulation_batch *batch[NBATCH];
     ml_stats stats[2];     /* the captured channel(s)                                          */
     float *ref;            /* the reference channel of a batch, for the trapezoid picture      */
+    ml_imd_envelope *imd;  /* the demodulated audio's intermodulation (analyzer/imd.h)          */
+    ml_dropout *drop;      /* dropouts of the captured (I) channel, reported as notes          */
+    float *col;            /* that channel of a batch                                          */
 } mod_pass;
 
 /* Checks the nominal carrier against the input and maps the channels. */
@@ -160,12 +166,19 @@ static int prepare(mod_pass *p, double carrier_hz)
         st = ML_ENOMEM;
     if (st != ML_OK)
         return ml_cli_error("%s: cannot set up the modulation analysis: %s", o->in.path, ml_strerror(st));
-    if (o->out.plot) {
+    if (o->out.plot)
         ml_plots_begin_envelope(o->out.plot, seg->nframes, rate, ml_modulation_edge(p->mod), p->ch.has_ref);
-        ml_modulation_on_envelope(p->mod, envelope_to_plot, o->out.plot);
-    }
+    /* the envelope: to the intermodulation's spectrum, then to the picture */
+    if (ml_imd_envelope_create(&o->an, rate, seg->nframes, bw, transition,
+                               o->out.plot ? envelope_to_plot : NULL, o->out.plot, &p->imd)
+        != ML_OK)
+        return ml_cli_error("%s: out of memory", o->in.path);
+    ml_modulation_on_envelope(p->mod, ml_imd_envelope_hook, p->imd);
     ml_stats_init(&p->stats[0], seg->info->bits);
     ml_stats_init(&p->stats[1], seg->info->bits);
+    const ml_dropout_config dc = ml_dropout_config_default(rate);
+    if (ml_dropout_create(&dc, &p->drop) != ML_OK || (p->col = malloc(BATCH_FRAMES * sizeof *p->col)) == NULL)
+        return ml_cli_error("%s: out of memory", o->in.path);
     return 0;
 }
 
@@ -201,6 +214,8 @@ static int stream(mod_pass *p)
         }
         if (rc != 0)
             break;
+        ml_channels_split(&p->ch, raw, got, p->col, NULL);
+        ml_dropout_push(p->drop, p->col, got);
         if (o->out.plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_channels_split_ref(&p->ch, raw, got, p->ref);
             ml_plots_input(o->out.plot, done, p->ch.has_ref ? p->ref : NULL, got);
@@ -295,8 +310,8 @@ static void mask_values(const mod_pass *p, const ml_modulation_result *r, ml_rep
         return;
     double margin, woff;
     const ml_status st = ml_modulation_get_mask_margin(p->mod, &l->mask, &margin, &woff);
-    const ml_value v[] = {{"spectrum.mask_margin_db", st == ML_OK ? margin : NAN},
-                          {"spectrum.mask_worst_offset_hz", st == ML_OK ? woff : NAN}};
+    const ml_value v[] = {{.name = "spectrum.mask_margin_db", .value = st == ML_OK ? margin : NAN},
+                          {.name = "spectrum.mask_worst_offset_hz", .value = st == ML_OK ? woff : NAN}};
     ml_values_report(rep, v, 2);
     const double nyq = p->seg->info->rate_hz / 2, f = r->carrier_hz;
     if (st != ML_OK)
@@ -332,9 +347,12 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_values_report(rep, v + n - 1, 1);
     mask_values(p, &r, rep);
     ml_measure_add_audio(rep, &r.audio_result, r.audio_valid);
+    if (r.audio_valid)
+        ml_measure_tone_note(rep, &r.audio_result, "the demodulated audio", "100 % modulation");
     ml_level_figures lv;
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
+    ml_bench_modulation_report(&o->an, &r, lv.rms_dbfs, p->iq, rep);
     char cref[160];
     ml_report_add_text(rep, "modulation.carrier_reference",
                        ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
@@ -345,6 +363,13 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
              r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->an.window), r.rf_nfft,
              r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms, r.floor_pct);
     notes(p, &r, &lv, rep);
+    ml_dropout_result *dr = malloc(sizeof *dr);
+    if (dr != NULL && ml_dropout_get(p->drop, dr) == ML_OK && dr->nevents > 0) {
+        ml_measure_dropout_notes(rep, p->seg, dr, false);
+        ml_report_note(rep, "a dropout in an IF or I/Q capture is a gap in the carrier: the modulation "
+                            "figures read it as carrier pinch-off");
+    }
+    free(dr);
     ml_modulation_uncertainty u;
     ml_modulation_get_uncertainty(p->mod, &u);
     ml_values_report_u(rep, v, ml_values_modulation_u(&u, v));
@@ -354,6 +379,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
         ml_plots_modulation(o->out.plot, ml_modulation_get_spectrum(p->mod), &r,
                             o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL,
                             p->c_prov / r.c);
+    ml_imd_envelope_report(p->imd, rep, &o->an); /* intermodulation: analyzer/imd.c */
     return 0;
 }
 
@@ -369,6 +395,9 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     for (int k = 0; k < NBATCH; k++)
         ml_modulation_batch_destroy(p.batch[k]);
     ml_modulation_destroy(p.mod);
+    ml_imd_envelope_destroy(p.imd);
+    ml_dropout_destroy(p.drop);
     free(p.ref);
+    free(p.col);
     return rc;
 }

@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "analyzer/cli.h"
+#include "dsp/levels.h"
 
 ml_input_opts ml_input_opts_default(void)
 {
@@ -19,7 +20,11 @@ ml_analysis_opts ml_analysis_opts_default(void)
     return (ml_analysis_opts){.audio = ml_audio_config_default(),
                               .window = ML_WINDOW_HFT248D,
                               .carrier_hz = NAN,
-                              .peak_hold_ms = 5.0};
+                              .peak_hold_ms = 5.0,
+                              .full_scale_dbu = NAN,
+                              .cal_source = "",
+                              .settings_text = "",
+                              .imd = ml_imd_config_default()};
 }
 
 ml_output_opts ml_output_opts_default(void)
@@ -45,6 +50,8 @@ enum {
     O_OUTDEV,
     O_BAND,
     O_TONE,
+    O_NOTONE,
+    O_WITHTONE,
     O_HARMONICS,
     O_MAINS,
     O_WINDOW,
@@ -56,7 +63,14 @@ enum {
     O_FORMAT,
     O_OUTPUT,
     O_PLOT,
-    O_REPORT
+    O_REPORT,
+    O_FSDBU,
+    O_CAL,
+    O_NOSET,
+    O_LOAD,
+    O_CARD,
+    O_CARDCORR,
+    O_IMD
 };
 
 static const struct {
@@ -78,6 +92,8 @@ static const struct {
     {{"output-device", required_argument, NULL, O_OUTDEV}, ML_OPTS_CAPTURE},
     {{"band", required_argument, NULL, O_BAND}, ML_OPTS_AUDIO},
     {{"tone", required_argument, NULL, O_TONE}, ML_OPTS_AUDIO},
+    {{"no-tone", no_argument, NULL, O_NOTONE}, ML_OPTS_AUDIO},
+    {{"with-tone", no_argument, NULL, O_WITHTONE}, ML_OPTS_AUDIO},
     {{"harmonics", required_argument, NULL, O_HARMONICS}, ML_OPTS_AUDIO},
     {{"mains", required_argument, NULL, O_MAINS}, ML_OPTS_AUDIO},
     {{"window", required_argument, NULL, O_WINDOW}, ML_OPTS_AUDIO},
@@ -90,6 +106,13 @@ static const struct {
     {{"output", required_argument, NULL, O_OUTPUT}, ML_OPTS_REPORT},
     {{"plot", required_argument, NULL, O_PLOT}, ML_OPTS_REPORT},
     {{"report", required_argument, NULL, O_REPORT}, ML_OPTS_REPORT},
+    {{"full-scale-dbu", required_argument, NULL, O_FSDBU}, ML_OPTS_LEVELS},
+    {{"calibration", required_argument, NULL, O_CAL}, ML_OPTS_LEVELS},
+    {{"no-settings", no_argument, NULL, O_NOSET}, ML_OPTS_LEVELS},
+    {{"load-ohms", required_argument, NULL, O_LOAD}, ML_OPTS_BENCH},
+    {{"card", required_argument, NULL, O_CARD}, ML_OPTS_BENCH},
+    {{"card-correct", no_argument, NULL, O_CARDCORR}, ML_OPTS_BENCH},
+    {{"imd", required_argument, NULL, O_IMD}, ML_OPTS_IMD},
 };
 
 size_t ml_options_table(unsigned groups, const struct option *own, struct option *out, size_t cap)
@@ -208,6 +231,40 @@ static int apply_input(int id, const char *arg, ml_input_opts *in)
     }
 }
 
+/* "auto", "off", "smpte" or "dfd", the last two optionally ":F1,F2" (Hz, 0 < F1 < F2). */
+static int parse_imd(const char *s, ml_analysis_opts *an)
+{
+    char buf[64], *tones;
+    double f1, f2;
+    if (!split_at(s, ':', buf, &tones))
+        return 0;
+    ml_imd_config c = ml_imd_config_default();
+    an->imd_off = false;
+    if (strcmp(buf, "off") == 0 || strcmp(buf, "auto") == 0) {
+        an->imd_off = strcmp(buf, "off") == 0;
+        an->imd = c;
+        return tones == NULL;
+    }
+    if (strcmp(buf, "smpte") == 0)
+        c.method = ML_IMD_SMPTE;
+    else if (strcmp(buf, "dfd") == 0)
+        c.method = ML_IMD_DFD;
+    else
+        return 0;
+    if (tones) {
+        char *f2_text = strchr(tones, ',');
+        if (f2_text == NULL)
+            return 0;
+        *f2_text++ = '\0';
+        if (!ml_cli_number(tones, &f1) || !ml_cli_number(f2_text, &f2) || !(f1 > 0) || !(f2 > f1))
+            return 0;
+        c.f1_hz = f1;
+        c.f2_hz = f2;
+    }
+    an->imd = c;
+    return 1;
+}
+
 static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
 {
     double v;
@@ -220,7 +277,18 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
     case O_TONE:
         if (!ml_cli_number(arg, &v) || v <= 0)
             return ml_cli_error("--tone: '%s' is not a frequency in Hz > 0", arg);
+        if (an->audio.tone_mode == ML_TONE_NONE)
+            return ml_cli_error("--tone and --no-tone contradict each other");
         an->audio.tone_hz = v;
+        return 0;
+    case O_NOTONE:
+    case O_WITHTONE:
+        if (an->audio.tone_mode != ML_TONE_AUTO
+            && an->audio.tone_mode != (id == O_NOTONE ? ML_TONE_NONE : ML_TONE_FORCE))
+            return ml_cli_error("--no-tone and --with-tone contradict each other");
+        if (id == O_NOTONE && an->audio.tone_hz > 0)
+            return ml_cli_error("--tone and --no-tone contradict each other");
+        an->audio.tone_mode = id == O_NOTONE ? ML_TONE_NONE : ML_TONE_FORCE;
         return 0;
     case O_HARMONICS:
         if (!ml_cli_int(arg, &n) || n < 2 || n > ML_MAX_HARMONICS)
@@ -238,11 +306,33 @@ static int apply_analysis(int id, const char *arg, ml_analysis_opts *an)
     case O_CARRIER: return ml_cli_carrier(arg, &an->carrier_hz);
     case O_BANDWIDTH: return ml_cli_bandwidth(arg, &an->bandwidth_hz);
     case O_CREF: an->carrier_reference = arg; return 0;
+    case O_IMD:
+        if (!parse_imd(arg, an))
+            return ml_cli_error("--imd: '%s' is not auto, off, smpte[:FL,FH] or dfd[:F1,F2] (Hz, "
+                                "0 < F1 < F2)",
+                                arg);
+        an->imd_given = true;
+        return 0;
     case O_HOLD:
         if (!ml_cli_number(arg, &v) || v <= 0 || v >= 500)
             return ml_cli_error("--peak-hold-ms: '%s' is not a time in ms, 0 < MS < 500", arg);
         an->peak_hold_ms = v;
         return 0;
+    case O_FSDBU:
+        if (!ml_cli_number(arg, &v) || v < ML_LEVEL_CAL_MIN_DBU || v > ML_LEVEL_CAL_MAX_DBU)
+            return ml_cli_error("--full-scale-dbu: '%s' is not a level in dBu, %.0f..%+.0f", arg,
+                                ML_LEVEL_CAL_MIN_DBU, ML_LEVEL_CAL_MAX_DBU);
+        an->full_scale_dbu = v;
+        return 0;
+    case O_CAL: an->calibration_path = arg; return 0;
+    case O_NOSET: an->no_settings = true; return 0;
+    case O_LOAD:
+        if (!ml_cli_number(arg, &v) || v < 0.01 || v > 1e6)
+            return ml_cli_error("--load-ohms: '%s' is not a resistance in ohms, 0.01..1e6", arg);
+        an->load_ohms = v;
+        return 0;
+    case O_CARD: an->card_path = arg; return 0;
+    case O_CARDCORR: an->card_correct = true; return 0;
     default: return ML_OPTS_NOT_MINE;
     }
 }

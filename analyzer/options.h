@@ -11,6 +11,8 @@
 #include <stddef.h>
 
 #include "analyzer/limits.h"
+#include "dsp/card.h"
+#include "dsp/imd.h"
 #include "dsp/metrics.h"
 #include "dsp/window.h"
 #include "io/plot.h"
@@ -42,12 +44,25 @@ typedef struct {
 
 /* Analysis: the audio figures' band and window, the carrier and the channel. */
 typedef struct {
-    ml_audio_config audio;    /* --band, --tone, --harmonics, --mains                           */
+    ml_audio_config audio;    /* --band, --tone, --no-tone, --with-tone, --harmonics, --mains    */
     ml_window_type window;    /* --window                                                        */
     double carrier_hz;        /* --carrier: NAN = detect                                          */
     double bandwidth_hz;      /* --bandwidth: 0 = widest that fits, at most 10 kHz                */
     const char *carrier_reference; /* --carrier-reference FILE, or NULL                          */
     double peak_hold_ms;      /* --peak-hold-ms                                                  */
+    /* levels and the card (analyzer/bench.h fills the last three from the files and settings)   */
+    double full_scale_dbu;    /* --full-scale-dbu, or from --calibration / the settings: NAN none */
+    const char *calibration_path; /* --calibration FILE                                          */
+    double load_ohms;         /* --load-ohms: 0 = none                                            */
+    const char *card_path;    /* --card FILE                                                      */
+    bool card_correct;        /* --card-correct                                                   */
+    bool no_settings;         /* --no-settings                                                    */
+    const ml_card_profile *card; /* the card profile loaded from card_path, or NULL              */
+    const char *cal_source;   /* where full_scale_dbu comes from ("" none)                       */
+    const char *settings_text; /* the settings applied, for the report ("" none)                 */
+    ml_imd_config imd;        /* --imd: auto (default), or a method and perhaps its tones         */
+    bool imd_off;             /* --imd off                                                       */
+    bool imd_given;           /* --imd was given                                                 */
 } ml_analysis_opts;
 
 /* Output: limits, the report and its pictures. */
@@ -67,9 +82,12 @@ enum {
     ML_OPTS_SEGMENT = 1 << 1,    /* --start --duration                                        */
     ML_OPTS_DEVICE = 1 << 2,     /* --device --rate --channels --seconds                      */
     ML_OPTS_CAPTURE = 1 << 3,    /* --save --play-tone --output-device                        */
-    ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --harmonics --mains --window                */
+    ML_OPTS_AUDIO = 1 << 4,      /* --band --tone --no-tone --with-tone --harmonics --mains --window */
     ML_OPTS_MODULATION = 1 << 5, /* --carrier --bandwidth --carrier-reference --peak-hold-ms  */
     ML_OPTS_REPORT = 1 << 6,     /* --limits --format --output --plot --report                */
+    ML_OPTS_LEVELS = 1 << 7,     /* --full-scale-dbu --calibration --no-settings              */
+    ML_OPTS_BENCH = 1 << 8,      /* --load-ohms --card --card-correct                         */
+    ML_OPTS_IMD = 1 << 9,        /* --imd                                                     */
 };
 /* getopt ids: the groups' options use ML_OPT_ID_FIRST .. ML_OPT_ID_FIRST + 63; a command's own
  * options use ids from ML_OPT_ID_OWN on (or single characters). */

@@ -17,6 +17,8 @@
 
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
+#include "dsp/card.h"
+#include "analyzer/plan.h"
 #include "dsp/synth.h"
 #include "io/audio.h"
 #include "io/output.h"
@@ -38,7 +40,20 @@ typedef struct {
     ml_sink_encoding encoding;
     const char *out;
     const char *device;
+    ml_plan_opts plan;       /* --freqs, --levels, --step-seconds, --pause-seconds (analyzer/plan.h) */
+    int imd;                 /* --imd: 0 none, 1 smpte, 2 din, 3 dfd                                  */
 } tone_opts;
+
+/* The intermodulation test signals of --imd (docs/references.md 5 and 12): the low (or first)
+ * tone, the high (or second) tone, and the second's level re the first's: SMPTE RP120 60 Hz +
+ * 7 kHz and DIN 45403 / IEC 60268-3 250 Hz + 8 kHz at 4:1 (20 lg 4 = 12.04 dB), the
+ * difference-frequency twin tone 19 + 20 kHz at equal levels. */
+static const struct {
+    const char *name;
+    double f1_hz, f2_hz, rel2_db;
+} imd_signals[] = {{"smpte", 60, 7000, -12.041199826559248},
+                   {"din", 250, 8000, -12.041199826559248},
+                   {"dfd", 19000, 20000, 0.0}};
 
 static void tone_usage(FILE *f)
 {
@@ -53,9 +68,21 @@ static void tone_usage(FILE *f)
             "signal (one of; default a single tone):\n"
             "  --freq HZ              single tone frequency (default 1000)\n"
             "  --two-tone F1,F2       two tones; the second at --level2\n"
+            "  --imd smpte|din|dfd    an intermodulation test signal: SMPTE 60 Hz + 7 kHz or DIN\n"
+            "                         250 Hz + 8 kHz at 4:1 (the high tone 12.04 dB below --level),\n"
+            "                         or the twin tone 19 + 20 kHz at --level each; --two-tone F1,F2\n"
+            "                         moves the tones, keeping the ratio\n"
             "  --step F,L,S           a tone of F Hz at L dBFS for S seconds (repeatable, in order;\n"
             "                         F = 0 is a pause); the sequence repeats to fill --seconds\n"
             "  --silence              digital silence (plus any hum and noise)\n"
+            "  --freqs LIST           a step plan (as 'modlens sweep --device' plays it): the\n"
+            "                         frequencies in Hz (comma-separated) or a set: octaves (31.5 Hz\n"
+            "                         .. 16 kHz), thirds (20 Hz .. 20 kHz), proof (50 Hz .. 10 kHz);\n"
+            "                         each in turn, one pass per level of --levels (default -20\n"
+            "                         dBFS), --step-seconds long (default 1) with --pause-seconds of\n"
+            "                         silence after each (default 0.25); 'modlens sweep FILE' reads\n"
+            "                         it back\n"
+            "  --levels LIST, --step-seconds S, --pause-seconds S   the plan's (see --freqs)\n"
             "  --carrier HZ           AM test signal on a carrier of HZ (see below)\n"
             "levels and distortion:\n"
             "  --level DBFS           tone level, or peak of the unmodulated AM carrier (default -20;\n"
@@ -88,6 +115,11 @@ static void tone_usage(FILE *f)
             "  --allow-clip           allow peaks above full scale (PCM clips, float keeps them)\n"
             "  --out FILE             output file; written via a temporary, then renamed\n"
             "  --force                replace FILE when it exists (a regular file only)\n"
+            "sound-card test (see 'modlens card'):\n"
+            "  --card-test            the loopback test signal (two channels, about 30 s: silence, 997 Hz\n"
+            "                         at -1 dBFS, silence, each channel alone, third-octave steps at -20\n"
+            "                         dBFS), TPDF-dithered for --bits (24 for 32f); takes only --out,\n"
+            "                         --force, --play, --device, --rate, --bits and --seed\n"
             "playback:\n"
             "  --play                 play the signal instead of writing a file (see 'modlens devices')\n"
             "  --device NAME|INDEX    output device (default: the default output); its rate must\n"
@@ -158,7 +190,8 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
 {
     enum { O_FREQ = 256, O_LEVEL, O_LEVEL2, O_HARM, O_TWO, O_STEP, O_SILENCE, O_CARRIER, O_DEPTH, O_MODF,
            O_POS, O_NEG, O_OVERMOD, O_IQ, O_LEAD, O_NOISE, O_CNR, O_HUM, O_HUML, O_HUMD, O_HUMH, O_SECONDS,
-           O_RATE, O_BITS, O_SEED, O_CLIP, O_OUT, O_PLAY, O_DEVICE, O_FORCE };
+           O_RATE, O_BITS, O_SEED, O_CLIP, O_OUT, O_PLAY, O_DEVICE, O_FORCE, O_FREQS, O_LEVELS, O_STEP_S,
+           O_PAUSE_S, O_IMD };
     static const struct option longopts[] = {
         {"freq", required_argument, NULL, O_FREQ},         {"level", required_argument, NULL, O_LEVEL},
         {"level2", required_argument, NULL, O_LEVEL2},     {"harmonic", required_argument, NULL, O_HARM},
@@ -175,13 +208,18 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         {"seed", required_argument, NULL, O_SEED},         {"allow-clip", no_argument, NULL, O_CLIP},
         {"out", required_argument, NULL, O_OUT},           {"help", no_argument, NULL, 'h'},
         {"play", no_argument, NULL, O_PLAY},               {"device", required_argument, NULL, O_DEVICE},
-        {"force", no_argument, NULL, O_FORCE},             {NULL, 0, NULL, 0},
+        {"force", no_argument, NULL, O_FORCE},             {"freqs", required_argument, NULL, O_FREQS},
+        {"levels", required_argument, NULL, O_LEVELS},
+        {"step-seconds", required_argument, NULL, O_STEP_S},
+        {"pause-seconds", required_argument, NULL, O_PAUSE_S}, {"imd", required_argument, NULL, O_IMD},
+        {NULL, 0, NULL, 0},
     };
     memset(o, 0, sizeof *o);
     o->rate_hz = 48000;
     o->syn = ml_synth_config_default((double)o->rate_hz);
     o->seconds = 10.0;
     o->encoding = ML_SINK_PCM_24;
+    o->plan = ml_plan_opts_default();
     opterr = 0;
     optind = 1;
     int ch, rc;
@@ -336,6 +374,19 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
         case O_PLAY: o->play = true; break;
         case O_FORCE: o->force = true; break;
         case O_DEVICE: o->device = optarg; break;
+        case O_FREQS: case O_LEVELS: case O_STEP_S: case O_PAUSE_S:
+            for (size_t i = 0; longopts[i].name; i++)
+                if (longopts[i].val == ch && (rc = ml_plan_apply(&o->plan, longopts[i].name, optarg)) != 0)
+                    return rc;
+            break;
+        case O_IMD:
+            o->imd = 0;
+            for (int i = 0; i < 3; i++)
+                if (strcmp(optarg, imd_signals[i].name) == 0)
+                    o->imd = i + 1;
+            if (o->imd == 0)
+                return ml_cli_error("--imd: '%s' is not smpte, din or dfd", optarg);
+            break;
         case 'h': tone_usage(stdout); return -1;
         case ':': case '?': return ml_cli_bad_option(ch, argv, "tone");
         default: return ml_cli_error("tone: unhandled option");
@@ -347,15 +398,59 @@ static int parse_tone(int argc, char **argv, tone_opts *o)
     return 0;
 }
 
+/* --freqs ...: the plan as the synth's steps (the sequence sweep --device plays). */
+static int plan_steps(tone_opts *o)
+{
+    if (!o->plan.given)
+        return 0;
+    ml_synth_config *s = &o->syn;
+    int rc = ml_plan_finish(&o->plan, (double)o->rate_hz, NULL);
+    if (rc != 0)
+        return rc;
+    if (ml_step_plan_entries(&o->plan.plan) > ML_SYNTH_MAX_STEPS)
+        return ml_cli_error("the plan has %zu tones and pauses; at most %d (fewer frequencies or levels)",
+                            ml_step_plan_entries(&o->plan.plan), ML_SYNTH_MAX_STEPS);
+    if (ml_step_plan_to_synth(&o->plan.plan, (double)o->rate_hz, s->steps, ML_SYNTH_MAX_STEPS, &s->nsteps)
+        != ML_OK)
+        return ml_cli_error("the plan cannot be written at %ld Hz", o->rate_hz);
+    return 0;
+}
+
+/* --imd: the standard's two tones (or --two-tone's frequencies) at its ratio. */
+static int imd_tones(tone_opts *o)
+{
+    if (o->imd == 0)
+        return 0;
+    ml_synth_config *s = &o->syn;
+    if (o->level2_given)
+        return ml_cli_error("--level2: --imd sets the second tone's level by its standard (use --two-tone "
+                            "alone for other levels)");
+    if (!o->two_tone) {
+        s->freq_hz = imd_signals[o->imd - 1].f1_hz;
+        s->freq2_hz = imd_signals[o->imd - 1].f2_hz;
+    }
+    s->level2_dbfs = s->level_dbfs + imd_signals[o->imd - 1].rel2_db;
+    o->two_tone = true;
+    o->level2_given = true;
+    return 0;
+}
+
 /* Cross-option rules, the signal kind and everything that depends on the sample rate. */
 static int check_tone(tone_opts *o)
 {
     ml_synth_config *s = &o->syn;
     const double rate = (double)o->rate_hz, ny = rate / 2;
     s->rate_hz = rate;
-    const int kinds = o->two_tone + o->silence + (s->nsteps > 0) + o->carrier_given;
+    const int kinds =
+        (o->two_tone || o->imd) + o->silence + (s->nsteps > 0) + o->carrier_given + o->plan.given;
     if (kinds > 1)
-        return ml_cli_error("choose one signal: --two-tone, --step, --silence or --carrier");
+        return ml_cli_error("choose one signal: --two-tone (or --imd), --step, --freqs, --silence or "
+                            "--carrier");
+    if (o->plan.given && !o->plan.freqs_given)
+        return ml_cli_error("--levels, --step-seconds and --pause-seconds belong to a plan: give --freqs");
+    int rc = plan_steps(o);
+    if (rc != 0 || (rc = imd_tones(o)) != 0)
+        return rc;
     s->kind = o->two_tone ? ML_SYNTH_TWO_TONE
               : o->silence ? ML_SYNTH_SILENCE
               : s->nsteps > 0 ? ML_SYNTH_STEPS
@@ -604,8 +699,13 @@ static int play_main(tone_opts *o)
 
 static int tone_write(tone_opts *op, const ml_sink_config *scp, ml_output_set *set, ml_output *out);
 
+static int card_test_main(int argc, char **argv);
+
 int ml_cmd_tone(int argc, char **argv)
 {
+    for (int i = 1; i < argc; i++) /* the card test is an option block of its own */
+        if (strcmp(argv[i], "--card-test") == 0)
+            return card_test_main(argc, argv);
     tone_opts o;
     int rc = parse_tone(argc, argv, &o);
     if (rc != 0)
@@ -709,5 +809,165 @@ static int tone_write(tone_opts *op, const ml_sink_config *scp, ml_output_set *s
     sigaction(SIGINT, &old_int, NULL);
     sigaction(SIGTERM, &old_term, NULL);
     ml_synth_destroy(syn);
+    return rc;
+}
+
+/* ---- tone --card-test: the sound card's loopback test signal (dsp/card.h) -------------------- */
+
+typedef struct {
+    const char *out, *device;
+    long rate_hz;
+    ml_sink_encoding encoding;
+    uint64_t seed;
+    bool play, force;
+} card_test_opts;
+
+static int card_test_parse(int argc, char **argv, card_test_opts *o)
+{
+    enum { C_TEST = 256, C_OUT, C_PLAY, C_DEVICE, C_RATE, C_BITS, C_SEED, C_FORCE };
+    static const struct option longopts[] = {
+        {"card-test", no_argument, NULL, C_TEST},     {"out", required_argument, NULL, C_OUT},
+        {"play", no_argument, NULL, C_PLAY},          {"device", required_argument, NULL, C_DEVICE},
+        {"rate", required_argument, NULL, C_RATE},    {"bits", required_argument, NULL, C_BITS},
+        {"seed", required_argument, NULL, C_SEED},    {"force", no_argument, NULL, C_FORCE},
+        {"help", no_argument, NULL, 'h'},             {NULL, 0, NULL, 0},
+    };
+    *o = (card_test_opts){.rate_hz = 48000, .encoding = ML_SINK_PCM_24, .seed = 1};
+    opterr = 0;
+    optind = 1;
+    int ch;
+    long n;
+    while ((ch = getopt_long(argc, argv, ":h", longopts, NULL)) != -1) {
+        switch (ch) {
+        case C_TEST: break;
+        case C_OUT: o->out = optarg; break;
+        case C_PLAY: o->play = true; break;
+        case C_DEVICE: o->device = optarg; break;
+        case C_FORCE: o->force = true; break;
+        case C_RATE:
+            if (!ml_cli_int(optarg, &n) || n < (long)ML_CARD_MIN_RATE_HZ || n > (long)ML_CARD_MAX_RATE_HZ)
+                return ml_cli_error("--rate: '%s' is not a sample rate in Hz, %.0f..%.0f", optarg,
+                                    ML_CARD_MIN_RATE_HZ, ML_CARD_MAX_RATE_HZ);
+            o->rate_hz = n;
+            break;
+        case C_BITS:
+            if (strcmp(optarg, "16") == 0) o->encoding = ML_SINK_PCM_16;
+            else if (strcmp(optarg, "24") == 0) o->encoding = ML_SINK_PCM_24;
+            else if (strcmp(optarg, "32f") == 0 || strcmp(optarg, "float") == 0) o->encoding = ML_SINK_FLOAT;
+            else return ml_cli_error("--bits: '%s' is not 16, 24 or 32f", optarg);
+            break;
+        case C_SEED:
+            if (!ml_cli_int(optarg, &n) || n < 0)
+                return ml_cli_error("--seed: '%s' is not a whole number >= 0", optarg);
+            o->seed = (uint64_t)n;
+            break;
+        case 'h': tone_usage(stdout); return -1;
+        case ':': return ml_cli_bad_option(ch, argv, "tone");
+        case '?':
+            return optopt ? ml_cli_bad_option(ch, argv, "tone")
+                          : ml_cli_error("%s does not apply to --card-test (try 'modlens tone --help')",
+                                         argv[optind - 1]);
+        default: return ml_cli_error("tone: unhandled option");
+        }
+    }
+    if (optind < argc)
+        return ml_cli_error("tone takes no arguments; unexpected '%s' (the file goes after --out)",
+                            argv[optind]);
+    if (o->play == (o->out != NULL))
+        return ml_cli_error("--card-test needs either --out FILE or --play");
+    if (!o->play && o->device)
+        return ml_cli_error("--device needs --play");
+    if (o->play && o->force)
+        return ml_cli_error("--force applies to --out, not to --play");
+    return 0;
+}
+
+/* Generates the whole signal into the sink or player (one of them). */
+static int card_test_run(const card_test_opts *o, ml_cardgen *gen, ml_sink *sink, ml_player *player)
+{
+    float buf[2 * BLOCK_FRAMES];
+    const uint64_t total = ml_cardgen_frames(gen);
+    for (uint64_t done = 0; done < total && !interrupted;) {
+        const size_t want = total - done < BLOCK_FRAMES ? (size_t)(total - done) : BLOCK_FRAMES;
+        ml_cardgen_generate(gen, buf, want);
+        if (sink && ml_sink_write(sink, buf, want) != ML_OK)
+            return ml_cli_error("%s: %s", o->out, ml_sink_detail(sink));
+        if (player && ml_player_write(player, buf, want) != ML_OK)
+            return ml_cli_error("%s: %s", o->device ? o->device : "default output", ml_player_detail(player));
+        done += want;
+    }
+    if (interrupted)
+        return ml_cli_error("%s: interrupted%s", o->out ? o->out : "tone", o->out ? "; nothing written" : "");
+    return 0;
+}
+
+static int card_test_play(const card_test_opts *o, ml_cardgen *gen)
+{
+    char err[512];
+    ml_player_config pc = {o->device, (double)o->rate_hz, 2, 2.0};
+    ml_player *p = NULL;
+    if (ml_player_open(&pc, &p, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", o->device ? o->device : "default output", err);
+    const int rc = card_test_run(o, gen, NULL, p);
+    ml_player_close(p, rc == 0);
+    return rc;
+}
+
+static int card_test_write(const card_test_opts *o, ml_cardgen *gen)
+{
+    ml_sink_config sc = ml_sink_config_default((int)o->rate_hz, 2);
+    sc.encoding = o->encoding;
+    char err[512];
+    const char *bad = "";
+    if (ml_sink_container_from_path(o->out, &sc.container) != ML_OK)
+        return ml_cli_error("--out: '%s' does not end in .wav or .flac", o->out);
+    if (ml_sink_check(&sc, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", o->out, err);
+    ml_output_set *set = NULL;
+    ml_output *out = NULL;
+    FILE *f = NULL;
+    ml_sink *sink = NULL;
+    int rc = 0;
+    if (ml_output_set_create(&set) != ML_OK
+        || ml_output_set_add(set, o->out, "the signal (--out)", 0, &out) != ML_OK)
+        rc = ml_cli_error("out of memory");
+    else if (ml_output_set_check(set, &bad, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", bad, err);
+    else if (ml_output_exists(out) && !o->force)
+        rc = ml_cli_error("%s: the file exists; give --force to replace it", o->out);
+    else if (ml_output_begin(out, &f, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    else if (ml_sink_open_fd(fileno(f), &sc, &sink, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    if (rc == 0)
+        rc = card_test_run(o, gen, sink, NULL);
+    if (sink && ml_sink_close(sink, err, sizeof err) != ML_OK && rc == 0)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    if (rc == 0 && ml_output_end(out, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", o->out, err);
+    if (rc == 0 && ml_output_set_commit(set, &bad, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", bad, err);
+    ml_output_set_destroy(set);
+    return rc;
+}
+
+static int card_test_main(int argc, char **argv)
+{
+    card_test_opts o;
+    int rc = card_test_parse(argc, argv, &o);
+    if (rc != 0)
+        return rc < 0 ? ML_EXIT_OK : rc;
+    ml_cardgen_config gc = ml_cardgen_config_default((double)o.rate_hz);
+    gc.dither_bits = o.encoding == ML_SINK_PCM_16 ? 16 : 24;
+    gc.seed = o.seed;
+    ml_cardgen *gen = NULL;
+    if (ml_cardgen_create(&gc, &gen) != ML_OK)
+        return ml_cli_error("out of memory");
+    struct sigaction old_int, old_term;
+    catch_signals(&old_int, &old_term);
+    rc = o.play ? card_test_play(&o, gen) : card_test_write(&o, gen);
+    sigaction(SIGINT, &old_int, NULL);
+    sigaction(SIGTERM, &old_term, NULL);
+    ml_cardgen_destroy(gen);
     return rc;
 }

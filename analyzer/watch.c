@@ -17,6 +17,7 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/input.h"
 #include "analyzer/commands.h"
@@ -50,8 +51,10 @@ static void watch_usage(FILE *f)
             "  --window-s S            length of the analysed window, 0.1..10 s (default %.1f)\n"
             "  --seconds S             stop after S seconds (default: run until q or Ctrl-C)\n"
             "  --device, --rate, --channels   as for 'modlens live'\n"
-            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --harmonics,\n"
-            "  --mains, --window, --peak-hold-ms, --carrier-reference, --limits   as for 'modlens measure'\n"
+            "  --kind, --channel, --swap-iq, --carrier, --bandwidth, --band, --tone, --no-tone,\n"
+            "  --with-tone, --harmonics, --mains, --window, --peak-hold-ms, --carrier-reference,\n"
+            "  --limits, --full-scale-dbu, --calibration, --card, --no-settings\n"
+            "                         as for 'modlens measure'\n"
             "\n"
             "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
             "taken from --carrier-reference) and kept until the r key.\n"
@@ -102,11 +105,41 @@ static void pv(FILE *f, const char *name, double v, int decimals)
     }
 }
 
-/* A registered metric's value from v[n] with the registry's decimals. */
+/* A registered metric's value from v[n] as a cell (ml_values_cell: empty when not measured, "<x"
+ * or ">x" for a bound). */
 static void pv_registered(FILE *f, const char *name, const ml_value *v, size_t n, bool have)
 {
-    const ml_metric_def *d = ml_registry_lookup(name, NULL);
-    pv(f, name, have ? ml_values_find(v, n, name) : NAN, d ? d->decimals : 3);
+    const ml_value *x = have ? ml_values_get(v, n, name) : NULL;
+    char cell[64] = "";
+    if (x != NULL)
+        ml_values_cell(x, cell, sizeof cell);
+    fprintf(f, " %s=%s", ml_values_short_name(name), cell);
+}
+
+/* The bench figures of an audio window (analyzer/bench.h): weighted noise; with a calibration the
+ * tone's and the window's level in dBu; with a card profile the figures it limits. */
+static void plain_bench(FILE *f, const ml_watch_view *v)
+{
+    const ml_analysis_opts *an = v->an;
+    const bool volts = an && !isnan(an->full_scale_dbu);
+    ml_volt_figures vf;
+    if (volts) {
+        const ml_level_cal cal = {.full_scale_dbu = an->full_scale_dbu};
+        ml_bench_volts(&cal, 0, 0, &v->res.audio, &v->res.noise, v->res.rms_dbfs, &vf);
+    }
+    ml_value vals[ML_VALUES_MAX];
+    const size_t n = ml_values_bench(&v->res.noise, &vf, volts, false, vals);
+    static const char *const shown[] = {"audio.noise_a_dbfs", "audio.snr_a_db", "audio.fundamental_dbu",
+                                        "audio.rms_dbu"};
+    for (size_t i = 0; i < sizeof shown / sizeof *shown; i++)
+        if (i < 2 || volts)
+            pv_registered(f, shown[i], vals, n, v->have);
+    if (an && an->card) {
+        char names[256] = "";
+        if (v->have)
+            ml_bench_card_limited_names(an, v->channel, &v->res.audio, &v->res.noise, names, sizeof names);
+        fprintf(f, " card_limited=%s", names[0] ? names : "none");
+    }
 }
 
 static void plain_line(FILE *f, const ml_watch_view *v)
@@ -118,7 +151,8 @@ static void plain_line(FILE *f, const ml_watch_view *v)
     size_t n = 0;
     if (v->kind == ML_MONITOR_AUDIO) {
         /* the window's levels under measure's names; the meter's own over the update */
-        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = v->res.peak_dbfs, .dc_offset_pct = NAN};
+        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = v->res.peak_dbfs, .dc_offset_pct = NAN,
+                               .peak_mark = {ML_FIG_NONE, ML_WHY_OK}};
         n = ml_values_level(&lv, "audio", vals);
         n += ml_values_audio(&v->res.audio, vals + n);
         for (size_t i = 0; i < sizeof PLAIN_AUDIO / sizeof *PLAIN_AUDIO; i++)
@@ -126,13 +160,15 @@ static void plain_line(FILE *f, const ml_watch_view *v)
         pv(f, "input_peak_dbfs", v->level_peak_dbfs, 2);
         pv(f, "input_rms_dbfs", v->level_rms_dbfs, 2);
         fprintf(f, " clip=%d", v->clip ? 1 : 0);
+        plain_bench(f, v);
     } else {
         const ml_modulation_result *m = &v->res.modulation;
         n = ml_values_modulation(m, v->nominal_hz, false, vals);
         for (size_t i = 0; i < sizeof PLAIN_MOD / sizeof *PLAIN_MOD; i++) {
             pv_registered(f, PLAIN_MOD[i], vals, n, v->have);
             if (i == PLAIN_MOD_C) /* where C comes from, as in log's rows */
-                fprintf(f, " carrier_reference=%s", v->have ? ml_values_c_word(m) : "");
+                fprintf(f, " carrier_reference=%s",
+                        v->have && ml_values_c_word(m) ? ml_values_c_word(m) : "");
             if (i == PLAIN_MOD_HOLDS) { /* the holds beside the peaks; decimals as the peaks' */
                 pv(f, "positive_peak_hold_pct", v->pos_hold_pct, 2);
                 pv(f, "negative_peak_hold_pct", v->neg_hold_pct, 2);
@@ -230,9 +266,9 @@ static int parse(int argc, char **argv, watcher *w)
     const ml_measure_opts *o = &w->o;
     if (rc == 0
         && (o->in.play || o->in.save_path || o->out.plot_path || o->out.report_path || o->out.output_path
-            || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0))
+            || o->in.reference_channel > 0 || o->in.start_s > 0 || o->in.duration_s > 0 || o->an.imd_given))
         return ml_cli_error("watch does not take --play-tone, --save, --plot, --report, --output, "
-                            "--reference-channel, --start or --duration (see 'modlens live')");
+                            "--reference-channel, --start, --duration or --imd (see 'modlens live')");
     return rc;
 }
 
@@ -255,7 +291,7 @@ static int open_input(watcher *w)
     sigaction(SIGTERM, &sa, &w->old_term);
     sigaction(SIGHUP, &sa, &w->old_hup); /* the terminal went away: stop cleanly, as for Ctrl-C */
     double carrier_hz;
-    char reason[256];
+    char reason[384];
     w->seg.nframes = (int64_t)llround(DETECT_S * w->rate); /* the look ahead's limit */
     rc = ml_input_kind(&w->o.in, &w->o.an, &w->seg, DETECT_S, &w->kind, &carrier_hz, reason, sizeof reason);
     if (rc == 0)
@@ -312,6 +348,12 @@ static int make_meter(watcher *w)
     v->window_s = (double)ml_monitor_window_frames(w->mon) / w->rate;
     v->pos_hold_pct = v->neg_hold_pct = NAN;
     v->nominal_hz = o->an.carrier_hz;
+    v->an = &o->an;
+    v->channel = (int)o->in.channel;
+    char settings[ML_REPORT_SETTINGS_LEN];
+    ml_bench_settings_text(&o->an, settings, sizeof settings);
+    if (settings[0]) /* before the screen takes the terminal */
+        fprintf(stderr, "modlens: watch: %s\n", settings);
     return 0;
 }
 

@@ -9,6 +9,7 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "analyzer/options.h"
 #include "dsp/monitor.h"
 
 #define ML_WATCH_HOLD_S 2.0          /* peak-hold marker: held this long ...                    */
@@ -49,6 +50,8 @@ typedef struct {
     size_t ncols;                   /* spectrum columns filled                                   */
     double col_db[ML_WATCH_MAX_COLS];
     double col_lo_hz, col_hi_hz;
+    const ml_analysis_opts *an;     /* calibration and card profile (analyzer/bench.h)          */
+    int channel;                    /* the analysed channel, 1-based                             */
 } ml_watch_view;
 
 typedef struct ml_screen ml_screen;

@@ -101,7 +101,7 @@ static void on_segment(void *ctx, const double _Complex *x, const double _Comple
     ml_audio_result a;
     if (!q->spec_bad && ml_audio_analyze(q->spec, &q->cfg, &a) == ML_OK) {
         ml_audio_plain_figures f;
-        ml_figures_audio(&a, true, &f);
+        ml_figures_audio_raw(&a, true, &f);
         for (size_t i = 0; i < U_COUNT; i++)
             ml_running_push(&q->acc[i], *field(&f, i));
     }

@@ -10,8 +10,11 @@
  * recording's power spectrum is the mean of the blocks' and the spread of the block figures gives
  * the 95 % interval of the whole figure: u = t(0.975, n - 1) s / sqrt(n) (README "Measurement
  * uncertainty"). No segment is transformed twice. Memory: one spectrum, whatever the length.
- * The figures of a block are those of dsp/figures.h, so a block and the whole recording define
- * them alike.
+ * The figures of a block are the plain estimates of dsp/figures.h (ml_figures_audio_raw): a block
+ * is too short to judge its lines against the noise, and only the spread across blocks is used.
+ * The caller gives the blocks the whole recording's decisions (cfg: tone_mode ML_TONE_FORCE at its
+ * tone_hz, or ML_TONE_NONE; its mains_hz), so that every block measures the same lines; a
+ * reported interval belongs only to a figure the whole recording measured (not a bound).
  */
 #ifndef ML_DSP_BLOCKS_H
 #define ML_DSP_BLOCKS_H

@@ -11,8 +11,10 @@
 
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "dsp/internal.h"
+#include "dsp/order.h"
 
 ml_imd_config ml_imd_config_default(void)
 {
@@ -127,8 +129,31 @@ static int product(const spec_view *v, double hz, int n, double margin, ml_imd_p
     const double pw = lobe_power(v, c), nz = noise_lobe_power(v, c);
     *p = (ml_imd_product){.frequency_hz = hz, .n = n, .amplitude = sqrt(2.0 * pw),
                           .noise_amplitude = sqrt(2.0 * nz),
-                          .upper_bound = pw < nz * pow(10.0, margin / 10.0)};
+                          .upper_bound = !(pw > nz * pow(10.0, margin / 10.0))}; /* 0 over 0 too */
     return 1;
+}
+
+/* A figure is a bound when its bounded products carry more than half of it, or when it is zero
+ * and made of products (all of them then below the noise, which may be zero too). */
+static bool mostly_bound(double bound, double sum, size_t nproducts)
+{
+    return bound > 0.5 * sum || (sum == 0 && nproducts > 0);
+}
+
+/* The noise power a lobe holds from the median density of the bins above DC's lobe (lines are too
+ * few to move the median); NAN when it cannot be formed (no memory, too few bins). */
+static double median_noise_lobe(const spec_view *v)
+{
+    if (v->nbins <= 3 * v->lobe)
+        return NAN;
+    const size_t n = v->nbins - 2 * v->lobe;
+    double *tmp = malloc(n * sizeof *tmp);
+    if (tmp == NULL)
+        return NAN;
+    memcpy(tmp, v->psd + 2 * v->lobe, n * sizeof *tmp);
+    const double med = ml_order_median(tmp, n);
+    free(tmp);
+    return med * (double)(2 * v->lobe + 1) / v->enbw;
 }
 
 /* Checks a forced frequency pair. */
@@ -194,6 +219,10 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
     if (m == ML_IMD_AUTO) {
         out->detected = true;
         const double f1 = out->f1_hz, f2 = out->f2_hz;
+        /* a test signal's tones stand clear of the noise (not two peaks of noise) */
+        const double nl = median_noise_lobe(&v), clear = pow(10.0, ML_IMD_CLEAR_DB / 10.0);
+        if (!(out->u1 * out->u1 / 2.0 > clear * nl && out->u2 * out->u2 / 2.0 > clear * nl))
+            goto done; /* ML_ENOSIGNAL */
         if (f1 < 500.0 && f2 > 3000.0 && out->ratio_db >= 6.0 && out->ratio_db <= 18.0)
             m = ML_IMD_SMPTE;
         else if (fabs(out->ratio_db) <= 3.0 && f2 - f1 <= f2 / 4.0)
@@ -221,6 +250,7 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
     if (m == ML_IMD_SMPTE) {
         out->smpte_orders = cfg->smpte_orders;
         double sum2 = 0.0, bound2 = 0.0, d[2] = {0, 0}, dbound[2] = {0, 0};
+        size_t nd[2] = {0, 0};
         for (int n = 1; n <= cfg->smpte_orders; n++)
             for (int sgn = -1; sgn <= 1; sgn += 2) {
                 if (!product(&v, f2 + sgn * n * f1, sgn * n, margin, &p[out->nproducts])) {
@@ -231,6 +261,7 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
                 sum2 += q->amplitude * q->amplitude;
                 bound2 += q->upper_bound ? q->amplitude * q->amplitude : 0.0;
                 if (n <= 2) {
+                    nd[n - 1]++;
                     d[n - 1] += q->amplitude;
                     dbound[n - 1] += q->upper_bound ? q->amplitude : 0.0;
                 }
@@ -238,15 +269,16 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
         out->smpte_pct = 100.0 * sqrt(sum2) / out->u2;
         out->smpte_d2_pct = 100.0 * d[0] / out->u2;
         out->smpte_d3_pct = 100.0 * d[1] / out->u2;
-        out->smpte_upper_bound = bound2 > 0.5 * sum2;
-        out->smpte_d2_upper_bound = dbound[0] > 0.5 * d[0];
-        out->smpte_d3_upper_bound = dbound[1] > 0.5 * d[1];
+        out->smpte_upper_bound = mostly_bound(bound2, sum2, out->nproducts);
+        out->smpte_d2_upper_bound = mostly_bound(dbound[0], d[0], nd[0]);
+        out->smpte_d3_upper_bound = mostly_bound(dbound[1], d[1], nd[1]);
     } else {
         const struct {
             double hz;
             int n;
         } prods[3] = {{f2 - f1, 2}, {2 * f1 - f2, -3}, {2 * f2 - f1, 3}};
         double d[2] = {0, 0}, dbound[2] = {0, 0};
+        size_t nd[2] = {0, 0};
         for (int i = 0; i < 3; i++) {
             if (!product(&v, prods[i].hz, prods[i].n, margin, &p[out->nproducts])) {
                 out->nskipped++;
@@ -254,13 +286,14 @@ ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_i
             }
             const ml_imd_product *q = &p[out->nproducts++];
             const int o = i == 0 ? 0 : 1;
+            nd[o]++;
             d[o] += q->amplitude;
             dbound[o] += q->upper_bound ? q->amplitude : 0.0;
         }
         out->dfd2_pct = 100.0 * d[0] / (2.0 * out->u2);
         out->dfd3_pct = 100.0 * d[1] / (2.0 * out->u2);
-        out->dfd2_upper_bound = dbound[0] > 0.5 * d[0];
-        out->dfd3_upper_bound = dbound[1] > 0.5 * d[1];
+        out->dfd2_upper_bound = mostly_bound(dbound[0], d[0], nd[0]);
+        out->dfd3_upper_bound = mostly_bound(dbound[1], d[1], nd[1]);
     }
     st = ML_OK;
 done:

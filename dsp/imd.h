@@ -6,9 +6,11 @@
  *    (7 kHz, 8 kHz) at about 4:1 amplitude (fh 12 dB below fl). Products are the sidebands fh +- n fl.
  *  - difference-frequency (DFD, CCIF/IEC twin tone): two tones f1 < f2 of about equal level close
  *    together (19 + 20 kHz, 13 + 14 kHz).
- * Automatic detection (method ML_IMD_AUTO): the two strongest components whose lobes do not overlap;
- * SMPTE when the lower lies below 500 Hz, the upper above 3 kHz and the lower is 6 to 18 dB stronger
- * (4:1 = 12 dB, +-6 dB); DFD when they lie within 3 dB of each other and f2 - f1 <= f2 / 4; else no
+ * Automatic detection (method ML_IMD_AUTO): the two strongest components whose lobes do not overlap,
+ * each standing more than ML_IMD_CLEAR_DB above the noise a lobe holds at the median density of
+ * the bins above DC's lobe (so that two peaks of noise or hum are no test signal); SMPTE when the
+ * lower lies below 500 Hz, the upper above 3 kHz and the lower is 6 to 18 dB stronger (4:1 = 12 dB,
+ * +-6 dB); DFD when they lie within 3 dB of each other and f2 - f1 <= f2 / 4; else no
  * IMD signal (ML_ENOSIGNAL). A forced method uses those two components (or the ones nearest to the
  * given frequencies) whatever their levels.
  *
@@ -25,10 +27,12 @@
  * The two conventions differ for the same spectrum (docs/references.md 10 item 9): both are given.
  * Noise limit: each product's noise reference is the mean power per bin of the bins within
  * +-8 lobes of it that belong to no tone or product lobe, times (2 lobe + 1) / ENBW. A product whose
- * lobe power is less than noise_margin_db above that is below the noise: its U is an upper bound,
- * not a value (upper_bound). A figure is an upper bound when such products carry more than half of
- * it (of the power for smpte_pct, of the amplitude sum for the others). A product outside 0 < f <
- * Nyquist (its lobe clear of DC and Nyquist) is left out of the sums and counted in nskipped.
+ * lobe power is not more than noise_margin_db above that is below the noise: its U is an upper
+ * bound, not a value (upper_bound; also a product of zero power where the noise is zero). A figure
+ * is an upper bound when such products carry more than half of it (of the power for smpte_pct, of
+ * the amplitude sum for the others), or when it is zero (a noiseless spectrum with no products).
+ * A product outside 0 < f < Nyquist (its lobe clear of DC and Nyquist) is left out of the sums and
+ * counted in nskipped.
  * References: [rp120] SMPTE RP120; [iec60268-3] IEC 60268-3 14.12.7, 14.12.8; [din45403] DIN 45403.
  */
 #ifndef ML_DSP_IMD_H
@@ -41,6 +45,7 @@
 #include "dsp/status.h"
 
 #define ML_IMD_MAX_ORDER 10
+#define ML_IMD_CLEAR_DB 30.0 /* auto: each tone this far above the median noise (a lobe's worth) */
 
 typedef enum {
     ML_IMD_AUTO = 0, /* detect from the spectrum (config only)                    */
@@ -88,7 +93,7 @@ ml_imd_config ml_imd_config_default(void);
  * bad config (method, orders, margin out of range; frequencies negative, unordered or not below
  * Nyquist); ML_ENOSIGNAL when no segment is complete, fewer than two tones are found, or (AUTO) the
  * two strongest tones form no IMD test signal; ML_ENOMEM when the temporary copy of the spectrum
- * (8 bytes per bin, freed before return) cannot be allocated. */
+ * (8 bytes per bin, twice for AUTO; freed before return) cannot be allocated. */
 ml_status ml_imd_analyze(const ml_spectrum *spec, const ml_imd_config *cfg, ml_imd_result *out);
 
 const char *ml_imd_method_name(ml_imd_method m); /* "auto", "smpte", "dfd"; "unknown" */

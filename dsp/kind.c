@@ -21,6 +21,8 @@
 #define SPAN_HZ 10000.0      /* sidebands searched within +-10 kHz (channel rule 2)                */
 #define BASEBAND_HUM_DBC (-60.0) /* baseband hum weaker than this may be pickup (channel rule 5)  */
 #define CHUNK 256
+#define FLOOR_MARGIN 4.0     /* a line 6 dB above the analysis' floor (as dsp/metrics.h)           */
+#define RESIDUE 1e-20        /* 200 dB below the carrier: rounding residue (as dsp/figures.h)      */
 
 struct ml_pair {
     ml_pair_config cfg;
@@ -247,18 +249,27 @@ static bool measure_pair(const ml_spectrum *spec, const double *psd, size_t nbin
            && ml_line_measure(spec, psd, nbins, b, excl, 4, cb) == ML_OK;
 }
 
-static bool symmetric(const ml_component *a, const ml_component *b)
+/* A line stands above the noise (dsp/metrics.h) and above `floor`: the analysis' own floor in
+ * its lobe with FLOOR_MARGIN, and rounding residue (RESIDUE of the carrier's power). */
+static bool real_line(const ml_component *c, double floor)
 {
-    return a->above_noise && b->above_noise && a->line_power > 0 && b->line_power > 0
+    return c->above_noise && c->line_power > floor;
+}
+
+static bool symmetric(const ml_component *a, const ml_component *b, double floor)
+{
+    return real_line(a, floor) && real_line(b, floor) && a->line_power > 0 && b->line_power > 0
            && fabs(10.0 * log10(a->line_power / b->line_power)) <= SYMMETRIC_DB;
 }
 
-/* The baseband line at bin c (excluding kf): its line power when it stands above the noise, else 0. */
-static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, size_t kf)
+/* The baseband line at bin c (excluding kf): its line power when it stands above the noise and
+ * the floor, else 0. */
+static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins, size_t c, size_t kf,
+                       double floor)
 {
     ml_component o;
     const size_t excl[1] = {kf};
-    if (ml_line_measure(spec, psd, nbins, c, excl, 1, &o) != ML_OK || !o.above_noise)
+    if (ml_line_measure(spec, psd, nbins, c, excl, 1, &o) != ML_OK || !real_line(&o, floor))
         return 0.0;
     return o.line_power;
 }
@@ -293,7 +304,17 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
     const double fc = a->fundamental_hz, p1 = a->fundamental_power;
     const double bin_hz = rate / (double)ml_spectrum_nfft(spec);
     const size_t lobe = ml_spectrum_lobe_bins(spec), kf = bin_of(fc, bin_hz);
+    const double floor = fmax(FLOOR_MARGIN * a->floor_density * (double)(2 * lobe + 1), RESIDUE * p1);
+    /* rule 0: nothing above the reportable range and the floor is no signal; a line in the noise
+     * is no carrier */
+    if (!(p1 > 0.5 * pow(10.0, -ML_FIGURE_DB_LIMIT / 10.0)) || !(p1 > floor))
+        goto done;
     r->carrier_hz = fc;
+    if (!a->tone_clear) {
+        r->verdict = ML_CHANNEL_AUDIO;
+        r->why = ML_IFW_NOISE;
+        goto done;
+    }
     /* rule 1 */
     if (fc < LOW_HZ) {
         r->verdict = ML_CHANNEL_AUDIO;
@@ -312,14 +333,15 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
     }
     if (ks != 0 && ml_spectrum_clears_dc(spec, ks) && ml_spectrum_clears_dc(spec, 2 * kf - ks)) {
         ml_component ca, cb;
-        if (measure_pair(spec, psd, nbins, kf, ks, 2 * kf - ks, &ca, &cb) && symmetric(&ca, &cb)) {
+        if (measure_pair(spec, psd, nbins, kf, ks, 2 * kf - ks, &ca, &cb) && symmetric(&ca, &cb, floor)) {
             double fs_hz = (double)ks * bin_hz;
             ml_spectrum_get_frequency(spec, ks, &fs_hz);
             const double fm = fabs(fs_hz - fc), ps = fmax(ca.line_power, cb.line_power);
             r->sideband_hz = fm;
             r->sideband_dbc = dbc(ps, p1);
             const size_t cm = bin_of(fm, bin_hz);
-            const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf) : 0.0;
+            const double pb =
+                ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
             r->baseband_dbc = dbc(pb, p1);
             r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
             r->why = pb >= ps ? ML_IFW_SIDEBANDS_IMD : ML_IFW_SIDEBANDS;
@@ -337,7 +359,7 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
             if (d < gap || d > kf || kf + d + lobe >= nbins)
                 continue;
             ml_component ca, cb;
-            if (measure_pair(spec, psd, nbins, kf, kf - d, kf + d, &ca, &cb) && symmetric(&ca, &cb)
+            if (measure_pair(spec, psd, nbins, kf, kf - d, kf + d, &ca, &cb) && symmetric(&ca, &cb, floor)
                 && fmax(ca.line_power, cb.line_power) > best) {
                 best = fmax(ca.line_power, cb.line_power);
                 best_f = k * mains;
@@ -348,7 +370,7 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
         r->sideband_hz = best_f;
         r->sideband_dbc = dbc(best, p1);
         const size_t cm = bin_of(best_f, bin_hz);
-        const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf) : 0.0;
+        const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
         r->baseband_dbc = dbc(pb, p1);
         r->verdict = pb >= best ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
         r->why = pb >= best ? ML_IFW_HUM_IMD : ML_IFW_HUM_SIDEBANDS;
@@ -357,7 +379,7 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
     /* rule 4: harmonics */
     double ph = 0.0;
     for (size_t i = 0; i < a->nharmonics; i++)
-        if (a->harmonics[i].above_noise)
+        if (real_line(&a->harmonics[i], floor))
             ph = fmax(ph, a->harmonics[i].line_power);
     if (ph > 0) {
         r->harmonic_dbc = dbc(ph, p1);
@@ -424,6 +446,12 @@ char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
     case ML_IFW_LONE_CARRIER:
         snprintf(buf, n, "a lone line at %.1f Hz, above 3 kHz, with neither sidebands, harmonics nor hum of its own: "
                          "an unmodulated AM carrier (IF)",
+                 fc);
+        break;
+    case ML_IFW_NOISE:
+        snprintf(buf, n,
+                 "no line stands clear of the noise (the strongest, %.1f Hz, does not): noise or hum, no "
+                 "carrier: audio",
                  fc);
         break;
     default:

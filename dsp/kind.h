@@ -29,7 +29,14 @@
  * principal fraction of 0.95; with equal noise and signal, 0.75, then read (rule 4) as two signals.
  *
  * One real channel (ml_if_evidence, from its Welch spectrum): fc is the band's strongest line (the
- * tone decision of dsp/metrics.h with a tone forced). Verdict (first that applies):
+ * tone decision of dsp/metrics.h with a tone forced). Every line below counts only when it also
+ * stands above the analysis' own floor (ml_audio_result.floor_density: window leakage and
+ * rounding, with the 6 dB margin of dsp/metrics.h) and lies less than 200 dB below fc (float
+ * samples round about 150 dB down, dsp/figures.h): the residue of a synthetic or float capture
+ * is no sideband, harmonic or hum. Verdict (first that applies):
+ *  0. fc below -ML_FIGURE_DB_LIMIT dBFS or not above the floor: undecided (no signal); fc not
+ *     clear of the noise (ml_audio_result.tone_clear, dsp/metrics.h): audio (noise, or hum and
+ *     noise: no carrier);
  *  1. fc below 3 kHz: audio (an IF carrier sits above the audio it carries);
  *  2. a symmetric pair of sidebands at fc +- fm (the strongest component within +-10 kHz of fc,
  *     outside its lobe, and its mirror both stand above the noise, within 3 dB of each other):
@@ -114,6 +121,7 @@ typedef enum {
     ML_IFW_HARMONICS,           /* rule 4: audio                                               */
     ML_IFW_BASEBAND_HUM,        /* rule 5: audio                                               */
     ML_IFW_LONE_CARRIER,        /* rule 6: IF                                                  */
+    ML_IFW_NOISE,               /* rule 0: audio, no line stands clear of the noise             */
 } ml_if_why;
 
 typedef struct {

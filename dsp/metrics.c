@@ -51,6 +51,8 @@ static const char *const why_text[ML_WHY_COUNT] = {
     [ML_WHY_HUM_IN_NOISE] = "no mains line stands above the noise (upper bound)",
     [ML_WHY_MAINS_NONE] = "no mains line stands above the noise",
     [ML_WHY_MAINS_GIVEN] = "mains frequency as configured",
+    [ML_WHY_NO_SIGNAL] = "no signal in the band",
+    [ML_WHY_SILENT] = "the input is silent",
 };
 
 const char *ml_audio_why_text(ml_audio_why why)
@@ -678,7 +680,17 @@ static void look_at(const ctx *x, size_t c, tone_look *t)
     if (third < (double)(2 * x->lobe + 1))
         third = (double)(2 * x->lobe + 1);
     const double n3 = nd * third / x->enbw;
-    t->margin_db = n3 > 0 && o.power > 0 ? 10.0 * log10(o.power / n3) : (o.power > 0 ? INFINITY : NAN);
+    /* a lobe that reaches into DC's holds DC's leakage too: only its bins beyond DC's lobe are the
+     * line's own (the whole lobe of an unmodulated carrier's envelope, flat noise beside DC's
+     * leakage, would otherwise stand clear) */
+    double own = o.power;
+    if (!ml_spectrum_clears_dc(x->spec, c)) {
+        own = 0.0;
+        for (size_t k = c > 2 * x->lobe ? c - x->lobe : x->lobe; k <= c + x->lobe && k < x->nbins; k++)
+            own += x->psd[k];
+        own /= x->enbw;
+    }
+    t->margin_db = n3 > 0 && own > 0 ? 10.0 * log10(own / n3) : (own > 0 ? INFINITY : NAN);
     t->clear = t->stat_ok && t->margin_db >= ML_TONE_CLEAR_DB;
 }
 

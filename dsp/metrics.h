@@ -76,9 +76,12 @@
  *     more than the 1 - 1e-7 quantile of noise alone (it was picked as the strongest of
  *     thousands of lobes), and it is at least ML_TONE_CLEAR_DB above the noise in the third of an
  *     octave around it (local density excluding every line, so strong hum does not mask it; the
- *     ear's critical band is about a third of an octave wide: common practice). A candidate at a
- *     higher multiple of the mains (order > hum_harmonics, within a bin or 0.05 Hz per order of
- *     the measured mains) must also be 6 dB above the base line, or it is taken for hum. A test
+ *     ear's critical band is about a third of an octave wide: common practice); for a candidate
+ *     whose lobe does not clear DC's (ml_spectrum_clears_dc) only the lobe's bins beyond DC's
+ *     lobe count (DC's leakage is no line: an offset, an unmodulated carrier's envelope). A
+ *     candidate at a higher multiple of the mains (order > hum_harmonics, within a bin or 0.05 Hz
+ *     per order of the measured mains) must also be 6 dB above the base line, or it is taken for
+ *     hum. A test
  *     tone at a low multiple of the mains (100 or 150 Hz on 50 Hz mains) needs tone_hz.
  *  ML_TONE_FORCE takes the candidate as the tone whatever its clarity; ML_TONE_NONE has no tone.
  */
@@ -128,6 +131,8 @@ typedef enum {
     ML_WHY_HUM_IN_NOISE,        /* no mains line stands above the noise: an upper bound             */
     ML_WHY_MAINS_NONE,          /* no mains line stands above the noise: mains "none"               */
     ML_WHY_MAINS_GIVEN,         /* mains frequency from the configuration (qualifier)               */
+    ML_WHY_NO_SIGNAL,           /* the analysis found no signal in the band (dsp/figures.h)         */
+    ML_WHY_SILENT,              /* every sample is zero (dsp/figures.h)                             */
     ML_WHY_COUNT
 } ml_audio_why;
 

@@ -507,13 +507,14 @@ static void carrier_figures(ml_modulation *q, ml_modulation_result *r)
     const double p_car = a_car * a_car * ml_spectrum_full_scale_power(q->rf);
     /* noise in the channel: mean density between the lines of carrier, tone sidebands and hum */
     const ml_audio_result *au = &r->audio_result;
-    const double fm = r->audio_valid ? au->fundamental_hz : 0;
+    const bool tone = r->audio_valid && au->tone_present; /* no tone: no sidebands to measure */
+    const double fm = tone ? au->fundamental_hz : 0;
     r->cnr_db = a_car > 0 ? ml_rf_cnr_db(q->rf, f_car, p_car, q->bw, fm, q->cfg.audio.harmonics,
                                          r->audio_valid ? au->mains_hz : 0, q->cfg.audio.hum_harmonics)
                           : NAN;
     r->cnr_bandwidth_hz = 2 * q->bw;
     r->index_spectral = r->sideband_asymmetry_db = NAN;
-    if (r->audio_valid && a_car > 0) {
+    if (tone && a_car > 0) {
         const double up = ml_rf_amplitude(q->rf, f_car + fm), lo = ml_rf_amplitude(q->rf, f_car - fm);
         r->index_spectral = (up + lo) / a_car;
         if (up > 0 && lo > 0)

@@ -293,6 +293,8 @@ static ml_status analyse_audio(ml_monitor *q, ml_monitor_result *r)
         st = ml_audio_analyze(q->spec, &acfg, &au);
     r->audio_ok = st == ML_OK;
     ml_figures_audio(&au, r->audio_ok, &r->audio);
+    if (r->audio_ok)
+        ml_bench_noise(q->spec, &au, NULL, &r->noise);
     q->col_lo = fmax(acfg.band_lo_hz, 1.0);
     q->col_hi = acfg.band_hi_hz;
     q->col_ref = ml_spectrum_full_scale_power(q->spec);
@@ -308,6 +310,7 @@ static void empty_result(const ml_monitor *q, ml_monitor_result *r)
     r->analysed_frames = q->pushed;
     r->rms_dbfs = r->peak_dbfs = nan;
     ml_figures_audio_none(&r->audio);
+    ml_bench_noise_none(&r->noise);
     ml_modulation_result *m = &r->modulation;
     m->carrier_hz = m->carrier_amplitude = m->carrier_level_dbfs = m->c = m->unmodulated_dbfs = nan;
     m->cnr_db = m->cnr_bandwidth_hz = m->bandwidth_hz = m->index = m->index_spectral = nan;

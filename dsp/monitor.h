@@ -25,6 +25,7 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "dsp/benchfig.h"
 #include "dsp/figures.h"
 #include "dsp/metrics.h"
 #include "dsp/modulation.h"
@@ -59,6 +60,8 @@ typedef struct {
     double peak_dbfs;          /* audio kind: its peak level (dsp/figures.h)                       */
     uint64_t clipped;          /* audio kind: its clipped samples (dsp/figures.h, 24-bit LSB)      */
     ml_audio_plain_figures audio;
+    ml_noise_figures noise;    /* audio kind: the weighted noise of the window (dsp/benchfig.h; no
+                                  quasi-peak reading); NAN for if/iq                              */
     /* if/iq (everything NAN for audio)                                                          */
     bool carrier_ok;           /* a carrier line was found in the window                           */
     double gap_s;              /* if/iq: time in 20 ms blocks of the window more than 20 dB below
@@ -96,7 +99,7 @@ ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_
  * analysed, nor searched for a carrier (the line of a carrier present in part would understate
  * it); ML_ENOMEM / ML_EFFT when creating the modulation
  * analysis after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and
- * inside ml_audio_analyze's temporaries. */
+ * inside the temporaries of ml_audio_analyze and ml_bench_noise. */
 ml_status ml_monitor_analyse(ml_monitor *q, ml_monitor_result *out);
 
 /* Coarse spectrum of the latest analysis for display: ncols column maxima (>= 1) in db[ncols].

@@ -46,6 +46,11 @@ ml_status ml_audio_list(ml_audio_device *out, size_t cap, size_t *n, char *detai
  * input is true. ML_EDEVICE with the reason in detail[detail_len]. */
 ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, char *detail, size_t detail_len);
 
+/* The most channels the device spec names offers (an input when input is true), as
+ * ml_audio_device_rate. */
+ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail,
+                                   size_t detail_len);
+
 /* Generates the next nframes interleaved frames to play into buf[nframes * channels]. Called on
  * the thread that reads or writes, never in the audio callback. */
 typedef void (*ml_audio_fill_fn)(void *ctx, float *buf, size_t nframes);

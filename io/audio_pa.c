@@ -282,6 +282,25 @@ ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, ch
     return st;
 }
 
+ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail,
+                                   size_t detail_len)
+{
+    say(detail, detail_len, "%s", "");
+    if (channels == NULL)
+        return ML_EINVAL;
+    const PaError e = init_quiet();
+    if (e != paNoError) {
+        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        return ML_EDEVICE;
+    }
+    PaDeviceIndex d;
+    ml_status st = find_device(spec, input, &d, detail, detail_len);
+    if (st == ML_OK)
+        *channels = input ? Pa_GetDeviceInfo(d)->maxInputChannels : Pa_GetDeviceInfo(d)->maxOutputChannels;
+    Pa_Terminate();
+    return st;
+}
+
 /* ---- live capture ---------------------------------------------------------------------- */
 
 typedef struct {

@@ -9,8 +9,9 @@
  * ML_COMPARE_CSV_COLUMNS (new ones only ever appended), RFC 4180 quoting, LF line ends. Every
  * row carries both files and their kinds, then row_kind: "metric" (one compared figure: the
  * values, b - a, its uncertainty, the verdict, whether it counts for the exit status ("yes" /
- * "no"), the limits and each side's margin and pass/fail where a limit applies), "note" (in the
- * text column) and one "verdict" row ("worse" or "not worse", in the text column).
+ * "no"), the limits and each side's margin and pass/fail where a limit applies; bound_a, bound_b
+ * "upper" or "lower" for a side that is only a bound), "note" (in the text column) and one
+ * "verdict" row ("worse" or "not worse", in the text column).
  */
 #ifndef ML_IO_COMPARE_H
 #define ML_IO_COMPARE_H
@@ -23,7 +24,7 @@
 
 #define ML_COMPARE_CSV_COLUMNS                                                                        \
     "file_a,file_b,kind_a,kind_b,row_kind,metric,unit,a,b,difference,uncertainty,verdict,counted,"   \
-    "lower_limit,upper_limit,margin_a,margin_b,pass_a,pass_b,text"
+    "lower_limit,upper_limit,margin_a,margin_b,pass_a,pass_b,text,bound_a,bound_b"
 
 typedef struct {
     char metric[64];     /* dotted name                                                   */
@@ -31,9 +32,11 @@ typedef struct {
     int decimals;
     bool a_valid, b_valid;
     double a, b;         /* values (meaningful when valid)                                 */
+    ml_bound a_bound, b_bound; /* a value that is only a bound (io/report.h): "< 0.30"     */
     double difference;   /* b - a (both valid)                                             */
     double uncertainty;  /* 95 % half-width of the difference, tolerance included           */
-    const char *verdict; /* "better", "worse", "same", "changed" (no direction), "n/a"     */
+    const char *verdict; /* "better", "worse", "same", "changed" (no direction), "n/a",
+                            "undecided" (a bound on either side leaves the order open)    */
     bool counted;        /* takes part in the exit status                                  */
     bool has_limit;      /* a limit applies: a_pass and b_pass are meaningful              */
     char limit[48];      /* "<= 1.0000", ... or ""                                         */

@@ -41,7 +41,31 @@ void ml_plot_data_free(ml_plot_data *p)
     free(p->level_db);
     free(p->env);
     free(p->ref);
+    free(p->sweep.freq_hz);
+    free(p->sweep.rel_db);
+    free(p->sweep.thd_pct);
+    free(p->sweep.thd_upper);
+    free(p->sweep.group);
     ml_plot_data_init(p);
+}
+
+ml_status ml_plot_alloc_sweep(ml_plot_data *p, size_t n)
+{
+    ml_plot_sweep *s = &p->sweep;
+    if (n == 0 || n > 1000000 || s->n > 0)
+        return ML_EINVAL;
+    s->freq_hz = malloc(n * sizeof *s->freq_hz);
+    s->rel_db = malloc(n * sizeof *s->rel_db);
+    s->thd_pct = malloc(n * sizeof *s->thd_pct);
+    s->thd_upper = calloc(n, 1);
+    s->group = calloc(n, sizeof *s->group);
+    if (s->freq_hz == NULL || s->rel_db == NULL || s->thd_pct == NULL || s->thd_upper == NULL
+        || s->group == NULL)
+        return ML_ENOMEM;
+    for (size_t i = 0; i < n; i++)
+        s->freq_hz[i] = s->rel_db[i] = s->thd_pct[i] = NAN;
+    s->n = n;
+    return ML_OK;
 }
 
 ml_status ml_plot_alloc_spectrum(ml_plot_data *p, size_t nbins)
@@ -491,7 +515,7 @@ double ml_plot_height(const ml_plot_data *p, double w)
     double h = p->nbins ? 0.42 * w : 0;
     if (p->nenv >= 2)
         h += 0.36 * w;
-    return h;
+    return h + ml_plot_sweep_height(p, w);
 }
 
 void ml_draw_pictures(cairo_t *cr, double x, double y, double w, const ml_plot_data *p)
@@ -506,7 +530,9 @@ void ml_draw_pictures(cairo_t *cr, double x, double y, double w, const ml_plot_d
         ml_draw_envelope(cr, x, y, trap ? 0.62 * w : w, 0.34 * w, p);
         if (trap)
             ml_draw_trapezoid(cr, x + 0.64 * w, y, 0.36 * w, 0.34 * w, p);
+        y += 0.36 * w;
     }
+    ml_draw_sweep(cr, x, y, w, p);
 }
 
 /* ---- comparison table ---- */

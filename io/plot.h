@@ -30,6 +30,29 @@ typedef struct {
     char label[16];
 } ml_plot_mark;
 
+#define ML_PLOT_SWEEP_GROUPS 16
+#define ML_PLOT_SWEEP_BANDS 16
+
+/* A sweep's response and distortion against frequency (analyzer/sweep.c): n points, each in a
+ * group (one curve per group, the level it was swept at); arrays owned (ml_plot_alloc_sweep). */
+typedef struct {
+    size_t n;
+    double *freq_hz;           /* > 0                                                        */
+    double *rel_db;            /* level re the group's reference (dB); NAN: not measured    */
+    double *thd_pct;           /* NAN: not measured                                          */
+    unsigned char *thd_upper;  /* 1: thd_pct is only an upper bound (drawn open)             */
+    size_t *group;             /* 0 .. ngroups - 1                                           */
+    size_t ngroups;
+    char label[ML_PLOT_SWEEP_GROUPS][32]; /* each group's level, e.g. "-20 dBFS", "50 %"    */
+    const char *thd_title;     /* "THD" or "envelope THD"                                    */
+    /* the limits profile's [response] window and THD bands (analyzer/limits.h), when given */
+    bool has_window;
+    double win_lo_hz, win_hi_hz, win_min_db, win_max_db;
+    size_t nbands;
+    double band_lo_hz[ML_PLOT_SWEEP_BANDS], band_hi_hz[ML_PLOT_SWEEP_BANDS];
+    double band_max_pct[ML_PLOT_SWEEP_BANDS];
+} ml_plot_sweep;
+
 typedef struct {
     /* spectrum: nbins points in ascending frequency (owned, malloc; NULL when none) */
     size_t nbins;
@@ -58,6 +81,7 @@ typedef struct {
     long long win_first;       /* first input index of the window                           */
     long long env_seen;        /* envelope samples seen so far                               */
     long long env_offset;      /* input index of envelope sample 0                           */
+    ml_plot_sweep sweep;       /* a sweep's curves (n 0: none)                               */
 } ml_plot_data;
 
 void ml_plot_data_init(ml_plot_data *p);  /* empty, nothing allocated */
@@ -67,12 +91,14 @@ ml_status ml_plot_alloc_spectrum(ml_plot_data *p, size_t nbins);
 /* Allocates the envelope window of n <= ML_PLOT_MAX_ENV samples; ML_ENOMEM | ML_EINVAL. */
 ml_status ml_plot_alloc_envelope(ml_plot_data *p, size_t n, bool with_ref);
 void ml_plot_mark_add(ml_plot_data *p, double x_hz, ml_mark_kind kind, const char *label);
+/* Allocates the sweep's arrays for n points (n set, values NAN, groups 0); ML_ENOMEM, ML_EINVAL. */
+ml_status ml_plot_alloc_sweep(ml_plot_data *p, size_t n);
 
 /* The file type from the name's extension: 0 png, 1 svg, 2 pdf, -1 other. */
 int ml_plot_type(const char *path);
 
-/* The measurement's pictures (spectrum; envelope and trapezoid when present), one under the
- * other, in the type of path, written to f. */
+/* The measurement's pictures (spectrum; envelope and trapezoid when present; a sweep's response
+ * and distortion against frequency), one under the other, in the type of path, written to f. */
 ml_status ml_plot_write(FILE *f, const char *path, const ml_plot_data *p, const ml_report *r);
 
 /* A comparison: A and B spectra overlaid (either may be NULL or empty) and the metric table. */

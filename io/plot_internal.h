@@ -18,6 +18,10 @@ size_t ml_draw_compare_table(cairo_t *cr, double x, double y, double w, double h
                              size_t first, double font);
 /* Height the pictures of p need at width w (spectrum + envelope/trapezoid row). */
 double ml_plot_height(const ml_plot_data *p, double w);
+/* A sweep's two panels (response, THD) one under the other at width w (io/plot_sweep.c), and the
+ * height they take (0 without a sweep). */
+void ml_draw_sweep(cairo_t *cr, double x, double y, double w, const ml_plot_data *p);
+double ml_plot_sweep_height(const ml_plot_data *p, double w);
 /* The pictures one under the other. */
 void ml_draw_pictures(cairo_t *cr, double x, double y, double w, const ml_plot_data *p);
 

@@ -6,6 +6,7 @@
 #include <ctype.h>
 #include <math.h>
 #include <stdarg.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "io/report_internal.h"
@@ -94,6 +95,33 @@ ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const
         vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
         va_end(ap);
     }
+    return m;
+}
+
+ml_metric *ml_report_card_limited(ml_report *r, const char *name, const char *fmt, ...)
+{
+    r->card_checked = true;
+    ml_metric *m = exact(r, name);
+    if (m == NULL || !m->valid || r->ncard_limited >= ML_REPORT_MAX_CARD)
+        return NULL;
+    for (size_t i = 0; i < r->ncard_limited; i++)
+        if (strcmp(r->card_limited[i], m->name) == 0)
+            return m;
+    snprintf(r->card_limited[r->ncard_limited++], sizeof r->card_limited[0], "%s", m->name);
+    /* the qualifier it has, then "; " and this one, cut to the qualifier's size */
+    char q[2 * ML_REPORT_WHY_LEN + 2];
+    size_t n = strlen(m->qualifier);
+    memcpy(q, m->qualifier, n);
+    if (n > 0) {
+        memcpy(q + n, "; ", 2);
+        n += 2;
+    }
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(q + n, sizeof q - n, fmt, ap);
+    va_end(ap);
+    q[sizeof m->qualifier - 1] = '\0';
+    memcpy(m->qualifier, q, sizeof m->qualifier);
     return m;
 }
 
@@ -190,14 +218,149 @@ void ml_report_note(ml_report *r, const char *fmt, ...)
     va_end(ap);
 }
 
+void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed, size_t *undecided)
+{
+    size_t n = r->nchecks, f = 0, u = 0;
+    for (size_t i = 0; i < r->nchecks; i++) {
+        f += !r->checks[i].pass && !r->checks[i].undecided;
+        u += r->checks[i].undecided;
+    }
+    const ml_report_series *s = r->series;
+    for (size_t p = 0; s && p < s->npoints; p++) {
+        n += s->points[p].nchecks;
+        for (size_t i = 0; i < s->points[p].nchecks; i++) {
+            f += !s->points[p].checks[i].pass && !s->points[p].checks[i].undecided;
+            u += s->points[p].checks[i].undecided;
+        }
+    }
+    *total = n;
+    *failed = f;
+    *undecided = u;
+}
+
 const char *ml_report_verdict(const ml_report *r)
 {
-    if (r->nchecks == 0)
-        return "unchecked";
-    for (size_t i = 0; i < r->nchecks; i++)
-        if (!r->checks[i].pass)
+    size_t n, failed, undecided;
+    ml_report_check_counts(r, &n, &failed, &undecided);
+    return n == 0 ? "unchecked" : failed > 0 ? "fail" : undecided > 0 ? "undecided" : "pass";
+}
+
+/* ---- series of points ---- */
+
+ml_status ml_report_series_alloc(ml_report_series *s, const char *path, const char *title, size_t cap)
+{
+    memset(s, 0, sizeof *s);
+    if (cap == 0 || cap > 1000000)
+        return ML_EINVAL;
+    s->points = calloc(cap, sizeof *s->points);
+    if (s->points == NULL)
+        return ML_ENOMEM;
+    s->cap = cap;
+    snprintf(s->path, sizeof s->path, "%s", path);
+    snprintf(s->title, sizeof s->title, "%s", title);
+    return ML_OK;
+}
+
+void ml_report_series_free(ml_report_series *s)
+{
+    if (s == NULL)
+        return;
+    free(s->points);
+    memset(s, 0, sizeof *s);
+}
+
+ml_report_point *ml_report_series_add(ml_report_series *s, double start_s, double duration_s)
+{
+    if (s->npoints >= s->cap)
+        return NULL;
+    ml_report_point *p = &s->points[s->npoints++];
+    memset(p, 0, sizeof *p);
+    p->start_s = start_s;
+    p->duration_s = duration_s;
+    return p;
+}
+
+ml_metric *ml_report_point_add(ml_report_point *p, const char *leaf, const char *unit, int decimals,
+                               double value)
+{
+    if (p->nfigures >= ML_REPORT_POINT_FIGURES)
+        return NULL;
+    ml_metric *m = &p->figures[p->nfigures++];
+    memset(m, 0, sizeof *m);
+    snprintf(m->name, sizeof m->name, "%s", leaf);
+    m->unit = unit;
+    m->decimals = decimals;
+    m->valid = isfinite(value);
+    m->value = m->valid ? value : 0.0;
+    return m;
+}
+
+ml_metric *ml_report_point_find(ml_report_point *p, const char *leaf)
+{
+    for (size_t i = 0; i < p->nfigures; i++)
+        if (strcmp(p->figures[i].name, leaf) == 0)
+            return &p->figures[i];
+    return NULL;
+}
+
+const char *ml_report_point_verdict(const ml_report_point *p)
+{
+    if (p->nchecks == 0)
+        return NULL;
+    bool undecided = false;
+    for (size_t i = 0; i < p->nchecks; i++) {
+        if (!p->checks[i].pass && !p->checks[i].undecided)
             return "fail";
-    return "pass";
+        undecided = undecided || p->checks[i].undecided;
+    }
+    return undecided ? "undecided" : "pass";
+}
+
+ml_metric *ml_metric_missing(ml_metric *m, const char *fmt, ...)
+{
+    if (m == NULL)
+        return NULL;
+    m->valid = false;
+    m->value = 0.0;
+    m->has_u = false;
+    m->u = 0.0;
+    m->bound = ML_BOUND_NONE;
+    m->qualifier[0] = m->reason[0] = '\0';
+    if (fmt) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(m->reason, sizeof m->reason, fmt, ap);
+        va_end(ap);
+    }
+    return m;
+}
+
+ml_metric *ml_metric_bound(ml_metric *m, ml_bound bound, const char *fmt, ...)
+{
+    if (m == NULL || !m->valid)
+        return NULL;
+    m->bound = bound;
+    if (fmt) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
+        va_end(ap);
+    }
+    return m;
+}
+
+ml_metric *ml_metric_qualify(ml_metric *m, const char *fmt, ...)
+{
+    if (m == NULL || !m->valid)
+        return NULL;
+    m->qualifier[0] = '\0';
+    if (fmt) {
+        va_list ap;
+        va_start(ap, fmt);
+        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
+        va_end(ap);
+    }
+    return m;
 }
 
 void ml_report_limit_text(const ml_check *c, char *buf, size_t len)
@@ -264,18 +427,18 @@ void ml_csv_field(FILE *f, const char *s, char sep)
         fputc(sep, f);
 }
 
-static bool has_mark(const ml_metric *m)
+bool ml_metric_has_mark(const ml_metric *m)
 {
     return m->valid ? (m->bound != ML_BOUND_NONE || m->qualifier[0]) : m->reason[0] != '\0';
 }
 
 int ml_report_mark(const ml_report *r, size_t i)
 {
-    if (i >= r->nmetrics || !has_mark(&r->metrics[i]))
+    if (i >= r->nmetrics || !ml_metric_has_mark(&r->metrics[i]))
         return 0;
     int n = 0;
     for (size_t k = 0; k <= i; k++)
-        n += has_mark(&r->metrics[k]);
+        n += ml_metric_has_mark(&r->metrics[k]);
     return n;
 }
 
@@ -320,4 +483,9 @@ void ml_report_u_text(const ml_metric *m, char *buf, size_t len)
         snprintf(buf, len, "+- <%.*f", d, pow(10.0, -d));
     else
         snprintf(buf, len, "+- %s", n);
+}
+
+void ml_report_point_name(const ml_report *r, size_t p, const char *leaf, char *buf, size_t len)
+{
+    snprintf(buf, len, "%s[%zu].%s", r->series ? r->series->path : "points", p, leaf);
 }

@@ -58,6 +58,7 @@
 #define ML_REPORT_PATH_LEN 4096   /* PATH_MAX of Linux: a path is never cut in the model       */
 #define ML_REPORT_WHY_LEN 128     /* a reason or qualifier, including the terminating NUL      */
 #define ML_REPORT_SETTINGS_LEN 512
+#define ML_REPORT_MAX_CARD 32     /* card-limited figures listed at most                        */
 
 /* The header line of the CSV report (without the newline), which the report never prints itself. */
 #define ML_REPORT_CSV_COLUMNS                                                                        \
@@ -106,15 +107,51 @@ typedef struct {
     double value;
     bool has_min, has_max;
     double min, max;
-    bool pass;        /* valid and within both limits                                  */
+    bool pass;        /* valid and within both limits (a bound: wholly within them)    */
+    bool undecided;   /* a bound that reaches beyond a limit (an upper bound above a max,
+                         a lower bound below a min): neither pass nor fail; pass false  */
     double margin;    /* distance to the nearest limit, positive inside (0 if !valid)   */
 } ml_check;
+
+/* A series of points measured one after the other (a sweep's steps): each point carries its own
+ * figures, each an ml_metric named by its leaf ("thd_pct") with the states of a report's metrics
+ * (measured, bound, not measured with a reason, qualifier), the span of the input it was measured
+ * on, and its checks (metric = the figure's leaf). Every point has the same figures in the same
+ * order. Where they appear:
+ *   JSON  an array at the series' dotted path ("sweep.points"), one object per point: its figures
+ *         (null when not measured), "start_s" and "duration_s", and "verdict" ("pass", "fail", or
+ *         null without checks); "reasons", "qualifiers" and "bounds" hold an array at the same path
+ *         with one object per point (empty when it has none); "checks" lists the point checks too,
+ *         as "sweep.points[3].relative_db";
+ *   CSV   one "metric" row per figure, named "sweep.points[3].thd_pct", whose start_s and duration_s
+ *         are the point's span and whose limit columns are its check's;
+ *   text  a table, one line per point, marks "[k]" beside values with a bound, qualifier or
+ *         reason (explained under it), and the result of the point's checks;
+ *   PDF   as text.
+ * The report's verdict counts the point checks with the others. */
+#define ML_REPORT_POINT_FIGURES 12
+#define ML_REPORT_POINT_CHECKS 4
+
+typedef struct {
+    double start_s, duration_s;  /* the span measured, in seconds of the input                 */
+    size_t nfigures;
+    ml_metric figures[ML_REPORT_POINT_FIGURES];
+    size_t nchecks;
+    ml_check checks[ML_REPORT_POINT_CHECKS];
+} ml_report_point;
+
+typedef struct {
+    char path[64];               /* dotted path of the JSON array, e.g. "sweep.points"          */
+    char title[64];              /* heading in the text report                                   */
+    size_t npoints, cap;
+    ml_report_point *points;     /* cap entries, owned by the caller (ml_report_series_alloc)    */
+} ml_report_series;
 
 typedef struct {
     /* input */
     char path[ML_REPORT_PATH_LEN];
     char kind[16];           /* "audio", "if", "iq"                                       */
-    char kind_reason[160];   /* why that kind                                              */
+    char kind_reason[384];   /* why that kind                                              */
     char format[64];
     double sample_rate_hz;
     int channels;
@@ -138,6 +175,12 @@ typedef struct {
     ml_check checks[ML_REPORT_MAX_CHECKS];
     size_t nnotes;
     char notes[ML_REPORT_MAX_NOTES][ML_REPORT_NOTE_LEN];
+    /* the sound card's own floor (analyzer/bench.h): with a card profile in force, the figures
+     * within 10 dB of what the card itself resolves (each also qualified "card-limited")      */
+    bool card_checked;       /* a card profile was in force: JSON "card_limited" is written  */
+    size_t ncard_limited;
+    char card_limited[ML_REPORT_MAX_CARD][64];
+    ml_report_series *series; /* points measured one by one (a sweep), or NULL               */
 } ml_report;
 
 typedef enum { ML_FORMAT_TEXT = 0, ML_FORMAT_JSON, ML_FORMAT_CSV } ml_report_format;
@@ -167,6 +210,13 @@ ml_metric *ml_report_qualify(ml_report *r, const char *name, const char *fmt, ..
  * keeps the qualifier). NULL when there is no such metric or it is not measured. */
 ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const char *fmt, ...)
     __attribute__((format(printf, 4, 5)));
+/* Marks the measured metric of this exact dotted name as limited by the sound card (its value
+ * lies within reach of the card's own floor): it is listed in r->card_limited (JSON
+ * "card_limited": a list of metric names) and printf(fmt, ...) is added to its qualifier (after
+ * "; " when it has one: a text mark and a note). Sets r->card_checked. NULL when there is no such
+ * metric, it is not measured, or the list is full. */
+ml_metric *ml_report_card_limited(ml_report *r, const char *name, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
 /* Sets the settings and calibration in force (printf(fmt, ...); "" clears it). */
 void ml_report_settings(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 /* Appends a text-valued field (JSON string at the dotted name; a line in the text header). */
@@ -176,8 +226,33 @@ const ml_metric *ml_report_find(const ml_report *r, const char *name);
 /* Appends a note (a warning or remark shown to the user). */
 void ml_report_note(ml_report *r, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
-/* "pass" when every check passed, "fail" when one failed, "unchecked" without checks. */
+/* "fail" when a check failed, else "undecided" when a check is undecided (a bound beyond its
+ * limit), else "pass" when every check passed; "unchecked" without checks (the series' point
+ * checks counted with the others). */
 const char *ml_report_verdict(const ml_report *r);
+/* The checks of r, the series' point checks included: *total, *failed (failed and not undecided)
+ * and *undecided. */
+void ml_report_check_counts(const ml_report *r, size_t *total, size_t *failed, size_t *undecided);
+
+/* A series of cap points at path ("sweep.points") with its title: the points are allocated
+ * (zeroed), npoints 0. ML_ENOMEM, ML_EINVAL (cap 0 or above 1e6). Free with ml_report_series_free. */
+ml_status ml_report_series_alloc(ml_report_series *s, const char *path, const char *title, size_t cap);
+void ml_report_series_free(ml_report_series *s); /* frees the points and empties s */
+/* The next point (zeroed) of s, its span set; NULL when s is full. */
+ml_report_point *ml_report_series_add(ml_report_series *s, double start_s, double duration_s);
+/* Appends the figure leaf (e.g. "thd_pct") to point p; value NaN/inf: not measured. NULL when full. */
+ml_metric *ml_report_point_add(ml_report_point *p, const char *leaf, const char *unit, int decimals,
+                               double value);
+/* The figure of point p named leaf, or NULL. */
+ml_metric *ml_report_point_find(ml_report_point *p, const char *leaf);
+/* "pass" / "fail" / "undecided" for a point with checks, NULL without. */
+const char *ml_report_point_verdict(const ml_report_point *p);
+/* What a metric's mark says as the metric model's calls set it, usable on any ml_metric (a report's
+ * or a point's): not measured with a reason, or a bound and/or a qualifier. Each returns m. */
+ml_metric *ml_metric_missing(ml_metric *m, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+ml_metric *ml_metric_bound(ml_metric *m, ml_bound bound, const char *fmt, ...)
+    __attribute__((format(printf, 3, 4)));
+ml_metric *ml_metric_qualify(ml_metric *m, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
 /* "upper", "lower" or "" for a bound. */
 const char *ml_report_bound_name(ml_bound b);

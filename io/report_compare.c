@@ -17,6 +17,15 @@ static void num(char *buf, size_t len, bool valid, double v, int decimals)
         snprintf(buf, len, "n/a");
 }
 
+/* A side's value with its bound ("< 0.3000"), "n/a" when not measured. */
+static void side_num(char *buf, size_t len, bool valid, double v, ml_bound b, int decimals)
+{
+    char n[40];
+    num(n, sizeof n, valid, v, decimals);
+    snprintf(buf, len, "%s%s", valid && b == ML_BOUND_UPPER ? "< " : valid && b == ML_BOUND_LOWER ? "> " : "",
+             n);
+}
+
 static json_t *jnum(bool valid, double v, int decimals)
 {
     return valid ? ml_report_json_number(v, decimals) : json_null(); /* as the measure report */
@@ -62,10 +71,11 @@ static ml_status write_text(FILE *f, const ml_comparison *c)
     fputc('\n', f);
     for (size_t i = 0; i < c->nrows; i++) {
         const ml_compare_row *r = &c->rows[i];
-        char a[32], b[32], d[32], u[32];
-        num(a, sizeof a, r->a_valid, r->a, r->decimals);
-        num(b, sizeof b, r->b_valid, r->b, r->decimals);
-        const bool both = r->a_valid && r->b_valid;
+        char a[48], b[48], d[32], u[32];
+        side_num(a, sizeof a, r->a_valid, r->a, r->a_bound, r->decimals);
+        side_num(b, sizeof b, r->b_valid, r->b, r->b_bound, r->decimals);
+        const bool both =
+            r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
         if (both)
             ml_report_number(d, sizeof d, r->difference, r->decimals, true);
         else
@@ -120,7 +130,8 @@ static ml_status write_json(FILE *f, const ml_comparison *c)
     json_t *arr = json_array();
     for (size_t i = 0; i < c->nrows; i++) {
         const ml_compare_row *r = &c->rows[i];
-        const bool both = r->a_valid && r->b_valid;
+        const bool both =
+            r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
         json_t *o = json_object();
         json_object_set_new(o, "metric", json_string(r->metric));
         json_object_set_new(o, "a", jnum(r->a_valid, r->a, r->decimals));
@@ -128,6 +139,10 @@ static ml_status write_json(FILE *f, const ml_comparison *c)
         json_object_set_new(o, "difference", jnum(both, r->difference, r->decimals));
         json_object_set_new(o, "uncertainty", jnum(both, r->uncertainty, r->decimals + 1));
         json_object_set_new(o, "verdict", json_string(r->verdict));
+        if (r->a_valid && r->a_bound != ML_BOUND_NONE)
+            json_object_set_new(o, "a_bound", json_string(ml_report_bound_name(r->a_bound)));
+        if (r->b_valid && r->b_bound != ML_BOUND_NONE)
+            json_object_set_new(o, "b_bound", json_string(ml_report_bound_name(r->b_bound)));
         json_object_set_new(o, "unit", json_string(r->unit));
         json_object_set_new(o, "counted", json_boolean(r->counted));
         if (r->has_limit) {
@@ -165,13 +180,15 @@ static void csv_row(FILE *f, const ml_comparison *c, const char *row_kind, const
         ml_csv_field(f, fields[i] ? fields[i] : "", i + 1 < n ? ',' : '\n');
 }
 
-enum { COLS_AFTER_KIND = 15 }; /* metric .. text */
+enum { COLS_AFTER_KIND = 17 }; /* metric .. text, bound_a, bound_b */
+#define TEXT_COL 14                  /* the text column among them                           */
 
 static ml_status write_csv(FILE *f, const ml_comparison *c)
 {
     for (size_t i = 0; i < c->nrows; i++) {
         const ml_compare_row *r = &c->rows[i];
-        const bool both = r->a_valid && r->b_valid;
+        const bool both =
+            r->a_valid && r->b_valid && r->a_bound == ML_BOUND_NONE && r->b_bound == ML_BOUND_NONE;
         char a[48] = "", b[48] = "", d[48] = "", u[48] = "", lo[40] = "", hi[40] = "", ma[48] = "", mb[48] = "";
         if (r->a_valid)
             ml_report_number(a, sizeof a, r->a, r->decimals, false);
@@ -194,16 +211,18 @@ static ml_status write_csv(FILE *f, const ml_comparison *c)
         const char *pa = r->has_limit ? (r->a_pass ? "pass" : "fail") : "";
         const char *pb = r->has_limit ? (r->b_pass ? "pass" : "fail") : "";
         const char *fields[COLS_AFTER_KIND] = {r->metric, r->unit, a, b, d, u, r->verdict,
-                                               r->counted ? "yes" : "no", lo, hi, ma, mb, pa, pb, ""};
+                                               r->counted ? "yes" : "no", lo, hi, ma, mb, pa, pb, "",
+                                               r->a_valid ? ml_report_bound_name(r->a_bound) : "",
+                                               r->b_valid ? ml_report_bound_name(r->b_bound) : ""};
         csv_row(f, c, "metric", fields, COLS_AFTER_KIND);
     }
     for (size_t i = 0; i < c->nnotes; i++) {
         char t[ML_REPORT_NOTE_LEN];
         ml_report_unsign_zeros(t, sizeof t, c->notes[i]);
-        const char *fields[COLS_AFTER_KIND] = {[COLS_AFTER_KIND - 1] = t};
+        const char *fields[COLS_AFTER_KIND] = {[TEXT_COL] = t};
         csv_row(f, c, "note", fields, COLS_AFTER_KIND);
     }
-    const char *fields[COLS_AFTER_KIND] = {[COLS_AFTER_KIND - 1] = overall(c)};
+    const char *fields[COLS_AFTER_KIND] = {[TEXT_COL] = overall(c)};
     csv_row(f, c, "verdict", fields, COLS_AFTER_KIND);
     return ferror(f) ? ML_EIO : ML_OK;
 }

@@ -30,7 +30,17 @@ static void limit_number(char *buf, size_t len, double v)
     snprintf(buf, len, "%.15g", v == 0 ? 0.0 : v);
 }
 
+/* One figure's row: named name, checked by c (or NULL). */
+static void figure_row(FILE *f, const ml_report *r, const char *start, const char *dur, const ml_metric *m,
+                       const char *name, const ml_check *c);
+
 static void metric_row(FILE *f, const ml_report *r, const char *start, const char *dur, const ml_metric *m)
+{
+    figure_row(f, r, start, dur, m, m->name, ml_report_check_for(r, m->name));
+}
+
+static void figure_row(FILE *f, const ml_report *r, const char *start, const char *dur, const ml_metric *m,
+                       const char *name, const ml_check *c)
 {
     char val[48] = "", u[48] = "", lo[40] = "", hi[40] = "", margin[48] = "", q[ML_REPORT_WHY_LEN],
          why[ML_REPORT_WHY_LEN];
@@ -43,7 +53,6 @@ static void metric_row(FILE *f, const ml_report *r, const char *start, const cha
     }
     ml_report_unsign_zeros(q, sizeof q, m->valid ? m->qualifier : "");
     ml_report_unsign_zeros(why, sizeof why, m->valid ? "" : m->reason);
-    const ml_check *c = ml_report_check_for(r, m->name);
     const char *verdict = NULL;
     if (c) {
         if (c->has_min)
@@ -52,10 +61,10 @@ static void metric_row(FILE *f, const ml_report *r, const char *start, const cha
             limit_number(hi, sizeof hi, c->max);
         if (c->valid)
             ml_report_number(margin, sizeof margin, c->margin, c->decimals, false);
-        verdict = c->pass ? "pass" : "fail";
+        verdict = c->pass ? "pass" : c->undecided ? "undecided" : "fail";
     }
     put(f, r, start, dur,
-        &(row){.row_kind = "metric", .name = m->name, .value = val, .unit = m->unit, .uncertainty = u,
+        &(row){.row_kind = "metric", .name = name, .value = val, .unit = m->unit, .uncertainty = u,
                .bound = m->valid ? ml_report_bound_name(m->bound) : "", .lower = lo, .upper = hi,
                .margin = margin, .verdict = verdict, .qualifier = q, .reason = why});
 }
@@ -116,6 +125,23 @@ ml_status ml_report_write_csv(FILE *f, const ml_report *r)
                 ml_report_number(val, sizeof val, tb->cell[i][c], tb->decimals[c], false);
                 put(f, r, start, dur, &(row){.row_kind = "cell", .name = name, .value = val});
             }
+    }
+    const ml_report_series *sr = r->series;
+    for (size_t k = 0; sr && k < sr->npoints; k++) {
+        const ml_report_point *pt = &sr->points[k];
+        char ps[48], pd[48];
+        ml_report_number(ps, sizeof ps, pt->start_s, 6, false);
+        ml_report_number(pd, sizeof pd, pt->duration_s, 6, false);
+        for (size_t i = 0; i < pt->nfigures; i++) {
+            const ml_metric *m = &pt->figures[i];
+            const ml_check *c = NULL;
+            for (size_t j = 0; j < pt->nchecks; j++)
+                if (strcmp(pt->checks[j].metric, m->name) == 0)
+                    c = &pt->checks[j];
+            char name[160];
+            ml_report_point_name(r, k, m->name, name, sizeof name);
+            figure_row(f, r, ps, pd, m, name, c);
+        }
     }
     for (size_t i = 0; i < r->nnotes; i++) {
         char t[ML_REPORT_NOTE_LEN];

@@ -22,6 +22,11 @@ void ml_csv_field(FILE *f, const char *s, char sep);
 /* The 1-based mark of metric i in the text and PDF reports ("[n]": it has a qualifier, a bound
  * or a reason), 0 when it has none. */
 int ml_report_mark(const ml_report *r, size_t i);
+/* Whether a metric shows a mark: a bound, a qualifier, or (not measured) a reason. */
+bool ml_metric_has_mark(const ml_metric *m);
+/* The marks of the series' figures continue the metric table's numbering, point by point. */
+/* The name a point's figure has outside its point: "sweep.points[3].thd_pct", into buf[len]. */
+void ml_report_point_name(const ml_report *r, size_t p, const char *leaf, char *buf, size_t len);
 /* The explanation behind a mark: "noise-limited: upper bound", "not measured: <reason>". */
 void ml_report_why_text(const ml_metric *m, char *buf, size_t len);
 /* The value of a metric as the text and PDF reports show it: "0.786", "< 0.300", "n/a". */

@@ -57,23 +57,78 @@ static json_t *text(const char *s)
     return json_string(t);
 }
 
+/* The reason (which 0), qualifier (1) or bound (2) of m; "" when it has none. */
+static const char *why_of(const ml_metric *m, int which)
+{
+    return which == 0   ? (m->valid ? "" : m->reason)
+           : which == 1 ? (m->valid ? m->qualifier : "")
+                        : (m->valid ? ml_report_bound_name(m->bound) : "");
+}
+
 /* The "reasons", "qualifiers" or "bounds" object: one string per metric that has one, nested
- * like the metrics. */
+ * like the metrics; a series gets an array of one object per point at its path. */
 static json_t *whys(const ml_report *r, int which)
 {
     json_t *root = json_object();
     for (size_t i = 0; i < r->nmetrics; i++) {
         const ml_metric *m = &r->metrics[i];
-        const char *s = which == 0   ? (m->valid ? "" : m->reason)
-                        : which == 1 ? (m->valid ? m->qualifier : "")
-                                     : (m->valid ? ml_report_bound_name(m->bound) : "");
+        const char *s = why_of(m, which);
         if (s[0] == '\0')
             continue;
         char leaf[64];
         json_t *p = parent_of(root, m->name, leaf, sizeof leaf);
         json_object_set_new(p, leaf, text(s));
     }
+    const ml_report_series *sr = r->series;
+    if (sr != NULL) {
+        json_t *arr = json_array();
+        for (size_t k = 0; k < sr->npoints; k++) {
+            json_t *o = json_object();
+            for (size_t i = 0; i < sr->points[k].nfigures; i++) {
+                const ml_metric *m = &sr->points[k].figures[i];
+                if (why_of(m, which)[0])
+                    json_object_set_new(o, m->name, text(why_of(m, which)));
+            }
+            json_array_append_new(arr, o);
+        }
+        char leaf[64];
+        json_object_set_new(parent_of(root, sr->path, leaf, sizeof leaf), leaf, arr);
+    }
     return root;
+}
+
+/* The series' points: one object per point at the series' path. */
+static void series(json_t *root, const ml_report_series *sr)
+{
+    json_t *arr = json_array();
+    for (size_t k = 0; k < sr->npoints; k++) {
+        const ml_report_point *pt = &sr->points[k];
+        json_t *o = json_object();
+        for (size_t i = 0; i < pt->nfigures; i++) {
+            const ml_metric *m = &pt->figures[i];
+            json_object_set_new(o, m->name, m->valid ? number(m->value, m->decimals) : json_null());
+        }
+        json_object_set_new(o, "start_s", number(pt->start_s, 6));
+        json_object_set_new(o, "duration_s", number(pt->duration_s, 6));
+        const char *v = ml_report_point_verdict(pt);
+        json_object_set_new(o, "verdict", v ? json_string(v) : json_null());
+        json_array_append_new(arr, o);
+    }
+    char leaf[64];
+    json_object_set_new(parent_of(root, sr->path, leaf, sizeof leaf), leaf, arr);
+}
+
+static json_t *check_json(const ml_check *c, const char *metric)
+{
+    json_t *o = json_object();
+    json_object_set_new(o, "metric", json_string(metric));
+    json_object_set_new(o, "value", c->valid ? number(c->value, c->decimals) : json_null());
+    json_object_set_new(o, "min", c->has_min ? json_real(c->min == 0 ? 0.0 : c->min) : json_null());
+    json_object_set_new(o, "max", c->has_max ? json_real(c->max == 0 ? 0.0 : c->max) : json_null());
+    json_object_set_new(o, "pass", json_boolean(c->pass));
+    json_object_set_new(o, "undecided", json_boolean(c->undecided));
+    json_object_set_new(o, "margin", c->valid ? number(c->margin, c->decimals) : json_null());
+    return o;
 }
 
 ml_status ml_report_write_json(FILE *f, const ml_report *r)
@@ -125,6 +180,8 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
         }
         json_object_set_new(p, leaf, arr);
     }
+    if (r->series)
+        series(root, r->series);
     if (r->u_blocks > 0) {
         /* the 95 % half-widths, nested like the metrics themselves */
         json_t *uroot = json_object();
@@ -143,21 +200,25 @@ ml_status ml_report_write_json(FILE *f, const ml_report *r)
         json_object_set_new(um, "coverage", json_real(0.95));
         json_object_set_new(root, "uncertainty_method", um);
     }
+    if (r->card_checked) { /* the figures within reach of the sound card's own floor */
+        json_t *cl = json_array();
+        for (size_t i = 0; i < r->ncard_limited; i++)
+            json_array_append_new(cl, json_string(r->card_limited[i]));
+        json_object_set_new(root, "card_limited", cl);
+    }
     json_object_set_new(root, "reasons", whys(r, 0));
     json_object_set_new(root, "qualifiers", whys(r, 1));
     json_object_set_new(root, "bounds", whys(r, 2));
     json_t *checks = json_array();
-    for (size_t i = 0; i < r->nchecks; i++) {
-        const ml_check *c = &r->checks[i];
-        json_t *o = json_object();
-        json_object_set_new(o, "metric", json_string(c->metric));
-        json_object_set_new(o, "value", c->valid ? number(c->value, c->decimals) : json_null());
-        json_object_set_new(o, "min", c->has_min ? json_real(c->min == 0 ? 0.0 : c->min) : json_null());
-        json_object_set_new(o, "max", c->has_max ? json_real(c->max == 0 ? 0.0 : c->max) : json_null());
-        json_object_set_new(o, "pass", json_boolean(c->pass));
-        json_object_set_new(o, "margin", c->valid ? number(c->margin, c->decimals) : json_null());
-        json_array_append_new(checks, o);
-    }
+    for (size_t i = 0; i < r->nchecks; i++)
+        json_array_append_new(checks, check_json(&r->checks[i], r->checks[i].metric));
+    for (size_t k = 0; r->series && k < r->series->npoints; k++)
+        for (size_t i = 0; i < r->series->points[k].nchecks; i++) {
+            const ml_check *c = &r->series->points[k].checks[i];
+            char name[160];
+            ml_report_point_name(r, k, c->metric, name, sizeof name);
+            json_array_append_new(checks, check_json(c, name));
+        }
     json_object_set_new(root, "checks", checks);
     json_object_set_new(root, "verdict", json_string(ml_report_verdict(r)));
     if (r->limits_path[0])

@@ -311,12 +311,12 @@ static void metric_rows(doc *d, const ml_report *r)
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
-            if (c->valid)
+            if (c->valid && !c->undecided) /* an undecided label fills the margin column */
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
             put(cr, MX[5], b, lim);
-            ml_colour(cr, c->pass ? ML_C_PASS : ML_C_FAIL);
+            ml_colour(cr, c->pass ? ML_C_PASS : c->undecided ? ML_C_HEAD : ML_C_FAIL);
             font(cr, 7.8, true);
-            put(cr, MX[6], b, c->pass ? "PASS" : "FAIL");
+            put(cr, MX[6], b, c->pass ? "PASS" : c->undecided ? "UNDECIDED" : "FAIL");
             font(cr, 7.8, false);
             ml_colour(cr, ML_C_INK);
             put_right(cr, MX[7], b, margin);
@@ -385,7 +385,7 @@ static void tables(doc *d, const ml_report *r)
         if (tb->nrows == 0) {
             font(cr, 7.8, false);
             ml_colour(cr, ML_C_INK);
-            put(cr, MARGIN + 3, d->y + 8.3, "(none within the band)");
+            put(cr, MARGIN + 3, d->y + 8.3, "(none above the noise within the band)");
             d->y += ROW_H;
         }
         for (size_t i = 0; i < tb->nrows; i++) {
@@ -406,6 +406,88 @@ static void tables(doc *d, const ml_report *r)
         }
         d->y += 10;
     }
+}
+
+/* The series' header row: point, each figure's name, result. */
+static void series_head(doc *d, const ml_report_point *p0, double colw)
+{
+    cairo_t *cr = d->cr;
+    ml_colour(cr, ML_C_HEAD);
+    cairo_rectangle(cr, MARGIN, d->y, PAGE_W - 2 * MARGIN, ROW_H + 2);
+    cairo_fill(cr);
+    cairo_set_source_rgb(cr, 1, 1, 1);
+    font(cr, 6.8, true);
+    put(cr, MARGIN + 3, d->y + 9, "point");
+    for (size_t i = 0; p0 && i < p0->nfigures; i++)
+        put_right(cr, MARGIN + 28 + colw * (double)(i + 1) - 4, d->y + 9, p0->figures[i].name);
+    put_right(cr, PAGE_W - MARGIN - 3, d->y + 9, "result");
+    d->y += ROW_H + 2;
+}
+
+/* The series (a sweep's points): one row per point, marks beside values, the marks explained
+ * after the table. */
+static void series(doc *d, const ml_report *r)
+{
+    const ml_report_series *sr = r->series;
+    if (sr == NULL)
+        return;
+    cairo_t *cr = d->cr;
+    const ml_report_point *p0 = sr->npoints ? &sr->points[0] : NULL;
+    const size_t nf = p0 ? p0->nfigures : 0;
+    const double colw = nf ? (PAGE_W - 2 * MARGIN - 28 - 34) / (double)nf : 60.0;
+    need(d, 13 + 3 * ROW_H + 20);
+    section(d, sr->title);
+    series_head(d, p0, colw);
+    int mark = 0;
+    for (size_t i = 0; i < r->nmetrics; i++)
+        mark += ml_metric_has_mark(&r->metrics[i]);
+    const int first_mark = mark;
+    for (size_t k = 0; k < sr->npoints; k++) {
+        const ml_report_point *pt = &sr->points[k];
+        if (d->y + ROW_H > BOTTOM) {
+            new_page(d);
+            series_head(d, p0, colw);
+        }
+        if (k % 2 == 1)
+            shade(d, d->y, ROW_H);
+        font(cr, 7.2, false);
+        ml_colour(cr, ML_C_INK);
+        char n[32];
+        snprintf(n, sizeof n, "%zu", k);
+        put(cr, MARGIN + 3, d->y + 8.3, n);
+        for (size_t i = 0; i < pt->nfigures && i < nf; i++) {
+            char val[64], cell[96];
+            ml_report_value_text(&pt->figures[i], val, sizeof val);
+            if (ml_metric_has_mark(&pt->figures[i]))
+                snprintf(cell, sizeof cell, "%s [%d]", val, ++mark);
+            else
+                snprintf(cell, sizeof cell, "%s", val);
+            put_right(cr, MARGIN + 28 + colw * (double)(i + 1) - 4, d->y + 8.3, cell);
+        }
+        const char *v = ml_report_point_verdict(pt);
+        if (v) {
+            ml_colour(cr, strcmp(v, "pass") == 0 ? ML_C_PASS : ML_C_FAIL);
+            font(cr, 7.2, true);
+            put_right(cr, PAGE_W - MARGIN - 3, d->y + 8.3, strcmp(v, "pass") == 0 ? "PASS" : "FAIL");
+        }
+        d->y += ROW_H;
+    }
+    d->y += 8;
+    mark = first_mark;
+    for (size_t k = 0; k < sr->npoints; k++)
+        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
+            const ml_metric *m = &sr->points[k].figures[i];
+            if (!ml_metric_has_mark(m))
+                continue;
+            char why[ML_REPORT_WHY_LEN + 32], name[160], line[ML_REPORT_WHY_LEN + 256];
+            ml_report_why_text(m, why, sizeof why);
+            ml_report_point_name(r, k, m->name, name, sizeof name);
+            snprintf(line, sizeof line, "[%d] %s: %s", ++mark, name, why);
+            font(cr, 8, false);
+            ml_colour(cr, ML_C_INK);
+            wrapped(d, MARGIN, PAGE_W - 2 * MARGIN, 11.0, line);
+        }
+    d->y += 8;
 }
 
 static void notes(doc *d, const char (*list)[ML_REPORT_NOTE_LEN], size_t n)
@@ -464,22 +546,24 @@ static void measure_layout(doc *d, const measure_job *j, bool draw_pictures)
         field(d, "uncertainty", b);
     }
     const char *v = ml_report_verdict(r);
-    size_t failed = 0;
-    for (size_t i = 0; i < r->nchecks; i++)
-        failed += !r->checks[i].pass;
+    size_t total = 0, failed = 0, undecided = 0;
+    ml_report_check_counts(r, &total, &failed, &undecided);
     if (strcmp(v, "unchecked") == 0)
         snprintf(b, sizeof b, "UNCHECKED: no limits given");
     else
-        snprintf(b, sizeof b, "%s: %zu of %zu checks passed", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",
-                 r->nchecks - failed, r->nchecks);
+        snprintf(b, sizeof b, "%s: %zu of %zu checks passed", strcmp(v, "pass") == 0 ? "PASS"
+                                                               : strcmp(v, "undecided") == 0 ? "UNDECIDED"
+                                                                                             : "FAIL",
+                 total - failed - undecided, total);
     verdict_box(d, strcmp(v, "fail") == 0 ? ML_C_FAIL : strcmp(v, "pass") == 0 ? ML_C_PASS : ML_C_HEAD, b);
     section(d, "Metrics");
     metric_rows(d, r);
     marks(d, r);
+    series(d, r);
     tables(d, r);
     notes(d, r->notes, r->nnotes);
     const ml_plot_data *p = j->p;
-    if (p && (p->nbins || p->nenv >= 2)) {
+    if (p && (p->nbins || p->nenv >= 2 || p->sweep.n)) {
         const char *title = d->title;
         d->title = "Measurement record: pictures";
         new_page(d);

@@ -57,6 +57,10 @@ ml_status ml_report_read_json(const char *path, ml_report *r, char *err, size_t 
             else if (strcmp(name, "uncertainty_method.block_s") == 0) r->u_block_s = v;
         } else if (strcmp(name, "settings.in_force") == 0 && it->type == ML_RESULT_TEXT) {
             copy(r->settings, sizeof r->settings, it->text);
+        } else if (starts(name, "card_limited.")) {
+            r->card_checked = true;
+            if (it->type == ML_RESULT_TEXT && r->ncard_limited < ML_REPORT_MAX_CARD)
+                copy(r->card_limited[r->ncard_limited++], sizeof r->card_limited[0], it->text);
         } else if (!starts(name, "uncertainty.") && !starts(name, "reasons.") && !starts(name, "qualifiers.")
                    && !starts(name, "bounds.") && !starts(name, "settings.")
                    && strlen(name) < sizeof r->metrics[0].name) {

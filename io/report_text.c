@@ -68,7 +68,7 @@ static void metrics(FILE *f, const ml_report *r)
         const ml_check *c = ml_report_check_for(r, m->name);
         if (c) {
             ml_report_limit_text(c, lim, sizeof lim);
-            res = c->pass ? "PASS" : "FAIL";
+            res = c->pass ? "PASS" : c->undecided ? "UNDECIDED" : "FAIL";
             if (c->valid)
                 ml_report_number(margin, sizeof margin, c->margin, c->decimals, true);
         }
@@ -89,6 +89,64 @@ static void metrics(FILE *f, const ml_report *r)
     }
 }
 
+/* The series: one line per point (its figures, marks beside them, the result of its checks), the
+ * marks' explanations, and the failed checks with their limits. */
+static void series(FILE *f, const ml_report *r)
+{
+    const ml_report_series *sr = r->series;
+    if (sr == NULL)
+        return;
+    fprintf(f, "\n%s (%s)\n  %5s", sr->title, sr->path, "point");
+    const ml_report_point *p0 = sr->npoints ? &sr->points[0] : NULL;
+    for (size_t i = 0; p0 && i < p0->nfigures; i++)
+        fprintf(f, " %16s", p0->figures[i].name);
+    fprintf(f, "  %s\n", "result");
+    if (sr->npoints == 0)
+        fprintf(f, "  (no points)\n");
+    int mark = 0;
+    for (size_t i = 0; i < r->nmetrics; i++)
+        mark += ml_metric_has_mark(&r->metrics[i]);
+    const int first_mark = mark;
+    for (size_t k = 0; k < sr->npoints; k++) {
+        const ml_report_point *pt = &sr->points[k];
+        fprintf(f, "  %5zu", k);
+        for (size_t i = 0; i < pt->nfigures; i++) {
+            char val[64], cell[96];
+            ml_report_value_text(&pt->figures[i], val, sizeof val);
+            if (ml_metric_has_mark(&pt->figures[i]))
+                snprintf(cell, sizeof cell, "%s [%d]", val, ++mark);
+            else
+                snprintf(cell, sizeof cell, "%s", val);
+            fprintf(f, " %16s", cell);
+        }
+        const char *v = ml_report_point_verdict(pt);
+        fprintf(f, "  %s\n", v ? (strcmp(v, "pass") == 0 ? "PASS" : "FAIL") : "");
+    }
+    mark = first_mark;
+    for (size_t k = 0; k < sr->npoints; k++)
+        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
+            const ml_metric *m = &sr->points[k].figures[i];
+            if (!ml_metric_has_mark(m))
+                continue;
+            char why[ML_REPORT_WHY_LEN + 32], name[160];
+            ml_report_why_text(m, why, sizeof why);
+            ml_report_point_name(r, k, m->name, name, sizeof name);
+            fprintf(f, "  [%d] %s: %s\n", ++mark, name, why);
+        }
+    for (size_t k = 0; k < sr->npoints; k++)
+        for (size_t i = 0; i < sr->points[k].nchecks; i++) {
+            const ml_check *c = &sr->points[k].checks[i];
+            if (c->pass)
+                continue;
+            char lim[96], val[48], name[160];
+            ml_report_limit_text(c, lim, sizeof lim);
+            ml_report_number(val, sizeof val, c->value, c->decimals, false);
+            ml_report_point_name(r, k, c->metric, name, sizeof name);
+            fprintf(f, "  FAIL %s = %s %s, limit %s\n", name, c->valid ? val : "n/a", c->unit ? c->unit : "",
+                    lim);
+        }
+}
+
 static void tables(FILE *f, const ml_report *r)
 {
     for (size_t t = 0; t < r->ntables; t++) {
@@ -98,7 +156,7 @@ static void tables(FILE *f, const ml_report *r)
             fprintf(f, " %14s", tb->cols[c]);
         fputc('\n', f);
         if (tb->nrows == 0)
-            fprintf(f, "  (none within the band)\n");
+            fprintf(f, "  (none above the noise within the band)\n");
         for (size_t i = 0; i < tb->nrows; i++) {
             fputc(' ', f);
             for (size_t c = 0; c < tb->ncols; c++) {
@@ -115,6 +173,7 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
 {
     header(f, r);
     metrics(f, r);
+    series(f, r);
     tables(f, r);
     if (r->nnotes) {
         fprintf(f, "\nnotes\n");
@@ -124,14 +183,17 @@ ml_status ml_report_write_text(FILE *f, const ml_report *r)
             fprintf(f, "  - %s\n", t);
         }
     }
-    size_t failed = 0;
-    for (size_t i = 0; i < r->nchecks; i++)
-        failed += !r->checks[i].pass;
+    size_t total = 0, failed = 0, undecided = 0;
+    ml_report_check_counts(r, &total, &failed, &undecided);
     const char *v = ml_report_verdict(r);
     if (strcmp(v, "unchecked") == 0)
         fprintf(f, "\nverdict: UNCHECKED (no limits given)\n");
+    else if (undecided > 0)
+        fprintf(f,
+                "\nverdict: %s (%zu of %zu checks passed, %zu undecided: a bound reaches beyond its limit)\n",
+                strcmp(v, "fail") == 0 ? "FAIL" : "UNDECIDED", total - failed - undecided, total, undecided);
     else
         fprintf(f, "\nverdict: %s (%zu of %zu checks passed)\n", strcmp(v, "pass") == 0 ? "PASS" : "FAIL",
-                r->nchecks - failed, r->nchecks);
+                total - failed, total);
     return ferror(f) ? ML_EIO : ML_OK;
 }

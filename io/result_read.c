@@ -237,10 +237,28 @@ static ml_status walk(ctx *c, const json_t *root)
                     || !json_is_boolean(json_object_get(ck, "pass")))
                     return fail(c, "check %zu has no metric name or pass/fail", i + 1);
             }
+        } else if (strcmp(k, "card_limited") == 0) {
+            /* the names of the figures a card profile limits: card_limited.1, .2, ... as text */
+            size_t i;
+            const json_t *n;
+            if (!json_is_array(v))
+                return fail(c, "\"card_limited\" is not an array");
+            json_array_foreach(v, i, n) {
+                char name[ML_RESULT_NAME_MAX];
+                const char *t = json_string_value(n);
+                if (t == NULL || json_string_length(n) == 0 || json_string_length(n) >= 64
+                    || strlen(t) != json_string_length(n))
+                    return fail(c, "card_limited entry %zu is not a metric name", i + 1);
+                snprintf(name, sizeof name, "card_limited.%zu", i + 1);
+                if ((st = add(c, name, ML_RESULT_TEXT, 0, t)) != ML_OK)
+                    return st;
+            }
         } else if (strcmp(k, "verdict") == 0) {
             const char *s = json_string_value(v);
-            if (s == NULL || (strcmp(s, "pass") != 0 && strcmp(s, "fail") != 0 && strcmp(s, "unchecked") != 0))
-                return fail(c, "\"verdict\" is not pass, fail or unchecked");
+            if (s == NULL
+                || (strcmp(s, "pass") != 0 && strcmp(s, "fail") != 0 && strcmp(s, "unchecked") != 0
+                    && strcmp(s, "undecided") != 0))
+                return fail(c, "\"verdict\" is not pass, fail, undecided or unchecked");
             snprintf(c->r->verdict, sizeof c->r->verdict, "%s", s);
         } else if (json_is_object(v)) {
             if ((st = walk_group(c, k, v, 1, &metrics)) != ML_OK)

@@ -8,7 +8,8 @@
  *  - every scalar of the "input" object ("input.path", "input.kind", "input.sample_rate_hz",
  *    "input.frames", ...), numbers as numbers and strings as text.
  * Tables (arrays such as audio.harmonics), "checks", "notes", "analysis" and "limits" are
- * validated but not listed; "verdict" goes to ml_result.verdict.
+ * validated but not listed; "verdict" goes to ml_result.verdict; "card_limited", an array of
+ * metric names (1..63 bytes each), is listed as text items "card_limited.1", "card_limited.2", ...
  *
  * Validation is strict: the text must be one JSON object without duplicate keys; "input" must be
  * an object with a string "path", a "kind" of audio, if or iq, a "sample_rate_hz" in

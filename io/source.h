@@ -33,6 +33,10 @@ typedef struct {
  * detail[detail_len] (may be NULL). */
 ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, size_t detail_len);
 
+/* As ml_source_open_file, for an open file: reads a duplicate of fd from its start (the caller
+ * keeps fd and may close it once this returns). */
+ml_status ml_source_open_fd(int fd, ml_source **out, char *detail, size_t detail_len);
+
 /* Closes and frees; NULL is a no-op. */
 void ml_source_close(ml_source *s);
 

@@ -118,6 +118,8 @@ static bool count_frames(SNDFILE *sf, SF_INFO *fi)
     return true;
 }
 
+static ml_status open_descriptor(int fd, ml_source **out, char *detail, size_t detail_len);
+
 ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, size_t detail_len)
 {
     *out = NULL;
@@ -132,6 +134,28 @@ ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, s
             snprintf(detail, detail_len, "%s", strerror(errno));
         return ML_EIO;
     }
+    return open_descriptor(fd, out, detail, detail_len);
+}
+
+ml_status ml_source_open_fd(int fd, ml_source **out, char *detail, size_t detail_len)
+{
+    *out = NULL;
+    if (detail && detail_len)
+        detail[0] = '\0';
+    const int own = fd < 0 ? -1 : fcntl(fd, F_DUPFD_CLOEXEC, 0);
+    if (own < 0 || lseek(own, 0, SEEK_SET) != 0) {
+        if (detail)
+            snprintf(detail, detail_len, "%s", fd < 0 ? "no file" : strerror(errno));
+        if (own >= 0)
+            close(own);
+        return fd < 0 ? ML_EINVAL : ML_EIO;
+    }
+    return open_descriptor(own, out, detail, detail_len);
+}
+
+/* The checks and libsndfile on fd (ours from here on: closed on every failure). */
+static ml_status open_descriptor(int fd, ml_source **out, char *detail, size_t detail_len)
+{
     struct stat stb;
     const char *problem = NULL;
     ml_status bad = ML_EIO;

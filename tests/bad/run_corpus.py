@@ -2,7 +2,7 @@
 """Runs the bad-input corpus (cases.txt over files/) against the modlens executable.
 
 Arguments run as `modlens measure ARGS`, or `modlens compare ...` / `modlens tone ...` when the
-first word is that command (error outcomes only). Besides the regular files' contents, the kind
+first word is that command (error outcomes only), or `modlens sweep ...` (every outcome). Besides the regular files' contents, the kind
 of every entry of the scratch folder (file, FIFO, device, link and its target) must not change.
 
 Usage: /usr/bin/python3 tests/bad/run_corpus.py /path/to/modlens
@@ -25,6 +25,10 @@ import tempfile
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 TIMEOUT_S = 60 * (10 if os.environ.get("MODLENS_WRAP") else 1)
+# an empty configuration folder: a developer's own settings file must not change any case
+_NO_SETTINGS = tempfile.TemporaryDirectory(prefix="modlens-xdg-")
+os.chmod(_NO_SETTINGS.name, 0o755)  # cases run as another user must see that it is empty
+os.environ["XDG_CONFIG_HOME"] = _NO_SETTINGS.name
 NOBODY = 65534
 
 
@@ -64,6 +68,14 @@ def no_nonfinite_json(text):
     except ValueError:
         return False
     return not bad
+
+
+COMMANDS = (["compare"], ["tone"], ["sweep"])
+
+
+def with_options(args, opts):
+    """opts added to args, after the command word when args start with one."""
+    return args[:1] + opts + args[1:] if args[:1] in COMMANDS else opts + args
 
 
 def main():
@@ -108,7 +120,7 @@ def main():
         def run(args):
             drop = as_root and "unreadable.wav" in args
             pre = (lambda: (os.setgid(NOBODY), os.setuid(NOBODY))) if drop else None
-            cmd = ["measure"] + args if args[:1] not in (["compare"], ["tone"]) else args
+            cmd = ["measure"] + args if args[:1] not in COMMANDS else args
             try:
                 p = subprocess.run(wrap + [exe_nobody if drop else exe] + cmd, cwd=work, capture_output=True,
                                    timeout=TIMEOUT_S, preexec_fn=pre)
@@ -121,8 +133,7 @@ def main():
             problems = []
             if kind == "error":
                 full = args if "--output" in args or args[:1] == ["tone"] else \
-                    (args[:1] + ["--output", "out/report.json"] + args[1:] if args[:1] == ["compare"]
-                     else ["--output", "out/report.json"] + args)
+                    with_options(args, ["--output", "out/report.json"])
                 rc, so, se = run(full)
                 lines = se.splitlines()
                 if rc != 2:
@@ -139,7 +150,7 @@ def main():
                 if args[:1] in (["compare"], ["tone"]):
                     sys.exit("cases.txt: %s: only error outcomes for compare and tone" % name)
                 want = 0 if kind == "report" else 1
-                rc, so, se = run(["--format", "json", "--output", "out/report.json"] + args)
+                rc, so, se = run(with_options(args, ["--format", "json", "--output", "out/report.json"]))
                 text = ""
                 if os.path.exists(os.path.join(out, "report.json")):
                     with open(os.path.join(out, "report.json")) as f:
@@ -153,7 +164,7 @@ def main():
                     if regex != "-" and not any(re.search(regex, n, re.I) for n in notes):
                         problems.append("no note matches /%s/: %r" % (regex, notes))
                 for fmt in ("text", "csv"):
-                    rc2, so2, se2 = run(["--format", fmt] + args)
+                    rc2, so2, se2 = run(with_options(args, ["--format", fmt]))
                     if rc2 != want or re.search(r"\b(nan|inf|infinity)\b", so2, re.I):
                         problems.append("%s report: exit %r or NaN/inf in it" % (fmt, rc2))
             for fn in os.listdir(out):
@@ -163,7 +174,7 @@ def main():
             count += 1
             ok = not problems
             print("%s %s: modlens %s%s" % ("PASS" if ok else "FAIL", name,
-                                           " ".join(args if args[:1] in (["compare"], ["tone"]) else ["measure"] + args),
+                                           " ".join(args if args[:1] in COMMANDS else ["measure"] + args),
                                                   "" if ok else " -- " + "; ".join(problems)), flush=True)
             if not ok:
                 failed.append(name)

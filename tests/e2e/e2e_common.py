@@ -20,6 +20,15 @@ import soundfile as sf
 WRAP = os.environ.get("MODLENS_WRAP", "").split()
 RUN_TIMEOUT_S = 600 if WRAP else 60
 
+# modlens reads a settings file from the user's configuration folder (XDG_CONFIG_HOME, else
+# ~/.config): every command these tests run (this process's children, and those of the live
+# tests' helpers, which inherit this environment) sees an empty configuration folder of its own
+# instead, so that a developer's own settings cannot change a result. Tests of the settings
+# file set XDG_CONFIG_HOME themselves.
+_NO_SETTINGS = tempfile.TemporaryDirectory(prefix="modlens-xdg-")
+os.chmod(_NO_SETTINGS.name, 0o755)  # cases run as another user must see that it is empty
+os.environ["XDG_CONFIG_HOME"] = _NO_SETTINGS.name
+
 
 class Checker:
     """Counts checks, prints one line each, and turns failures into the exit status."""
@@ -79,6 +88,36 @@ def run(exe, args):
     p = subprocess.run(WRAP + [exe, "measure"] + [str(a) for a in args], capture_output=True,
                        timeout=RUN_TIMEOUT_S)
     return p.returncode, p.stdout.decode("utf-8", "replace"), p.stderr.decode("utf-8", "replace")
+
+
+def run_cmd(exe, args, env=None):
+    """Runs `exe args...` (any command); returns (exit status, stdout text, stderr text)."""
+    p = subprocess.run(WRAP + [exe] + [str(a) for a in args], capture_output=True, timeout=RUN_TIMEOUT_S,
+                       env=env)
+    return p.returncode, p.stdout.decode("utf-8", "replace"), p.stderr.decode("utf-8", "replace")
+
+
+def a_weighting_db(f):
+    """IEC 61672-1:2013 Annex E eq. E.6 with the pole frequencies of E.4 (docs/references.md 1.1),
+    normalised exactly to 0 dB at 1 kHz (numpy arrays or numbers)."""
+    f1, f2, f3, f4 = 20.598997057618316, 107.65264864304629, 737.8622307362901, 12194.217147998012
+
+    def raw(x):
+        x2 = np.asarray(x, dtype=float) ** 2
+        return 20 * np.log10(f4 * f4 * x2 * x2 / ((x2 + f1 * f1) * np.sqrt(x2 + f2 * f2) * np.sqrt(x2 + f3 * f3)
+                                                  * (x2 + f4 * f4)))
+    return raw(f) - raw(1000.0)
+
+
+def w468_db(f):
+    """ITU-R BS.468-4 weighting from the closed form of docs/references.md 2.2 (h1, h2, R), normalised
+    exactly to 0 dB at 1 kHz as Table 1 prints it."""
+    def raw(x):
+        x = np.asarray(x, dtype=float)
+        h1 = -4.737338981378384e-24 * x ** 6 + 2.043828333606125e-15 * x ** 4 - 1.363894795463638e-7 * x ** 2 + 1
+        h2 = 1.306612257412824e-19 * x ** 5 - 2.118150887518656e-11 * x ** 3 + 5.559488023498642e-4 * x
+        return 20 * np.log10(1.246332637532143e-4 * x / np.sqrt(h1 * h1 + h2 * h2))
+    return raw(f) - raw(1000.0)
 
 
 def run_json(exe, args):

@@ -11,7 +11,9 @@ error -- a profile error is one stderr line naming the file, the line number and
 Measured signal: 1 kHz at -6.0206 dBFS with a 2nd harmonic at -40 dBc (THD = 1 %), 60 Hz hum
 at -60 dBFS, white noise rms 1e-4; 3 s at 48 kHz, 24-bit.
 """
+import json
 import os
+import subprocess
 import re
 import sys
 
@@ -202,7 +204,7 @@ def check_bundled(ck, exe, wav):
         return
     for p in profiles:
         path = os.path.join(pdir, p)
-        nkeys = 0
+        nkeys, sections = 0, set()
         with open(path) as f:
             section = ""
             for raw in f:
@@ -211,6 +213,18 @@ def check_bundled(ck, exe, wav):
                     section = s.strip("[]").strip()
                 elif s and s[0] not in ";#" and "=" in s and section != "profile":
                     nkeys += 1
+                    sections.add(section)
+        if sections == {"response"}:
+            # a sweep's profile: checked on a stepped recording, one check per point and figure
+            plan = subprocess.run([exe, "tone", "--freqs", "proof", "--step-seconds", "0.6", "--out", "plan.wav",
+                                   "--force"], capture_output=True, text=True, timeout=60)
+            q = subprocess.run(E.WRAP + [exe, "sweep", "--format", "json", "--limits", path, "plan.wav"],
+                               capture_output=True, text=True, timeout=E.RUN_TIMEOUT_S)
+            rep = json.loads(q.stdout) if q.returncode in (0, 1) and plan.returncode == 0 else None
+            ck.check("bundled profile %s: a sweep's points checked, verdict matches exit" % p, rep is not None
+                     and len(rep["checks"]) > 0 and rep["verdict"] == ("pass" if q.returncode == 0 else "fail"),
+                     "exit %d %s" % (q.returncode, q.stderr.strip()))
+            continue
         rc, rep, out, err = E.run_json(exe, ["--limits", path, wav])
         ck.check("bundled profile %s loads and runs (exit 0 or 1)" % p, rc in (0, 1) and rep is not None,
                  "exit %d %s" % (rc, err.strip()))

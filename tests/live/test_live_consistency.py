@@ -122,8 +122,9 @@ def plain_rows(text):
     for line in text.splitlines():
         pairs = [p.split("=", 1) for p in line.split()]
         if pairs and all(len(p) == 2 for p in pairs):
-            # an empty value: not measured (yet)
-            rows.append({k: (v if k == "carrier_reference" else float(v) if v else None) for k, v in pairs})
+            # an empty value is not measured; "<x" / ">x" a bound (its value x)
+            rows.append({k: (v if k == "carrier_reference" else None if v == "" else float(v.lstrip("<>")))
+                         for k, v in pairs})
     return rows
 
 

@@ -50,6 +50,18 @@ def main():
             ck.check("text: a header and one row per device", p.returncode == 0 and len(lines) == 1 + len(devs)
                      and all(any(n in l for l in lines) for n in by), p.stdout)
             ck.check("text: stderr quiet (back-end scan noise hidden)", p.stderr.strip() == "", p.stderr)
+            # the defaults in words in the last column, as JSON has them
+            head = lines[0].split() if lines else []
+            ck.check("text: header names the columns, defaults in words",
+                     head[:2] == ["#", "device"] and lines[0].rstrip().endswith("default for"), repr(lines[:1]))
+            for d in devs:
+                row = next((l for l in lines[1:] if l.split()[:2] == [str(d["index"]), d["name"]]), "")
+                want = {(True, True): "input and output", (True, False): "input", (False, True): "output",
+                        (False, False): ""}[(d["default_input"], d["default_output"])]
+                got = row.rstrip()
+                ck.check("text: %s default column %r" % (d["name"], want),
+                         (got.endswith(want) if want else not got.endswith(("input", "output")))
+                         and ">" not in row and "<" not in row, row)
         # no server, no sound card on these machines: nothing to list, and live says why
         env = dict(os.environ, JACK_NO_START_SERVER="1", JACK_DEFAULT_SERVER="mlnone%d" % os.getpid())
         p = subprocess.run([exe, "devices", "--format", "json"], env=env, capture_output=True, text=True, timeout=60)

@@ -113,8 +113,13 @@ def plain_lines(out):
         pairs = [t.split("=", 1) for t in line.split()]
         if not pairs or any(len(p) != 2 for p in pairs):
             return None
-        rows.append({k: v if k == "carrier_reference" else (float(v) if v else None) for k, v in pairs})
+        rows.append({k: v if k == "carrier_reference" else cell(v) for k, v in pairs})
     return rows
+
+
+def cell(v):
+    """A --plain value: empty when not measured (None), "<x" / ">x" for a bound (its value x)."""
+    return None if v == "" else float(v.lstrip("<>"))
 
 
 def main():

@@ -217,6 +217,36 @@ START_TEST(detection_and_forcing)
 }
 END_TEST
 
+START_TEST(detection_needs_clear_tones)
+{
+    /* White noise of variance sigma^2 puts sigma^2 (2 lobe + 1) / (nfft / 2) into a lobe (its power
+     * spread evenly over nfft/2 bins, Parseval); the median density of a Welch average lies within
+     * a factor 2 of the mean. Tones ML_IMD_CLEAR_DB (30 dB) above that are a test signal; noise
+     * alone, or tones 10 dB short of the threshold, are not (a factor 10 either side of it). */
+    const double sigma = 0.01;
+    ml_spectrum *sp = spectrum_of(NULL, 0, sigma, 4096);
+    const double lobe = (double)ml_spectrum_lobe_bins(sp), nfft = (double)ml_spectrum_nfft(sp);
+    const double nl = sigma * sigma * (2 * lobe + 1) / (nfft / 2), clear = pow(10.0, ML_IMD_CLEAR_DB / 10.0);
+    ml_imd_config c = ml_imd_config_default();
+    analyse(sp, &c, ML_ENOSIGNAL); /* noise alone: its two highest peaks are no twin tone */
+    ml_spectrum_destroy(sp);
+    const double weak = sqrt(2 * 0.1 * clear * nl), strong = sqrt(2 * 10 * clear * nl);
+    const comp w[] = {{13000, weak}, {14000, weak}}, t[] = {{13000, strong}, {14000, strong}};
+    sp = spectrum_of(w, 2, sigma, 4096);
+    analyse(sp, &c, ML_ENOSIGNAL);
+    ml_spectrum_destroy(sp);
+    sp = spectrum_of(t, 2, sigma, 4096);
+    const ml_imd_result r = analyse(sp, &c, ML_OK);
+    ck_assert_int_eq(r.method, ML_IMD_DFD);
+    ml_spectrum_destroy(sp);
+    /* forced, the weak tones are measured all the same */
+    c.method = ML_IMD_DFD;
+    sp = spectrum_of(w, 2, sigma, 4096);
+    analyse(sp, &c, ML_OK);
+    ml_spectrum_destroy(sp);
+}
+END_TEST
+
 START_TEST(block_invariance)
 {
     /* Figures depend on the spectrum only: blocks of 1, 7 and 4096 frames give identical results. */
@@ -287,6 +317,7 @@ static Suite *imd_suite(void)
     tcase_add_test(tc, dfd_polynomial_nonlinearity);
     tcase_add_test(tc, noise_limits_flagged);
     tcase_add_test(tc, detection_and_forcing);
+    tcase_add_test(tc, detection_needs_clear_tones);
     tcase_add_test(tc, block_invariance);
     tcase_add_test(tc, config_rejected);
     suite_add_tcase(s, tc);

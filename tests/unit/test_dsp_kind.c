@@ -250,6 +250,23 @@ static double audio_low(size_t i, ts_rng *g)
 {
     return audio(i, g);
 }
+static double white(size_t i, ts_rng *g)
+{
+    (void)i;
+    return 0.01 * ts_gauss(g);
+}
+static double hum_only(size_t i, ts_rng *g)
+{
+    const double t = (double)i / FS;
+    return 0.003 * sin(2 * TS_PI * 50.0 * t) + 0.001 * sin(2 * TS_PI * 100.0 * t + 1.0) + 1e-5 * ts_gauss(g);
+}
+static double carrier_exact(size_t i, ts_rng *g)
+{
+    /* a 12 kHz carrier at a quarter of the rate: float samples 0.4, 0, -0.4, 0 up to the rounding
+     * of cos(), the only "sidebands" rounding residue more than 200 dB down */
+    (void)g;
+    return 0.4 * cos(2 * TS_PI * 12000.0 * (double)i / FS);
+}
 static double silence(size_t i, ts_rng *g)
 {
     (void)i;
@@ -295,6 +312,20 @@ START_TEST(channel_if_or_audio)
     ck_assert_int_eq(r.why, ML_IFW_LOW);
     r = channel_of(silence, 8);
     ck_assert_int_eq(r.verdict, ML_CHANNEL_UNDECIDED);
+    /* rule 0 (dsp/kind.h): white noise and hum alone hold no line clear of the noise outside the
+     * mains lines: audio, never a "lone carrier" (the strongest bin of noise is no carrier) */
+    r = channel_of(white, 9);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_AUDIO);
+    ck_assert_int_eq(r.why, ML_IFW_NOISE);
+    r = channel_of(hum_only, 10);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_AUDIO);
+    ck_assert_int_eq(r.why, ML_IFW_NOISE);
+    /* rounding residue is no sideband: an exact carrier is a lone line (IF), its reason names no
+     * sideband */
+    r = channel_of(carrier_exact, 11);
+    ck_assert_int_eq(r.verdict, ML_CHANNEL_IF);
+    ck_assert_int_eq(r.why, ML_IFW_LONE_CARRIER);
+    ck_assert(isnan(r.sideband_dbc));
     ck_assert_int_eq(ml_if_evidence(NULL, 0.0, &r), ML_EINVAL);
 }
 END_TEST

@@ -779,6 +779,40 @@ START_TEST(no_tone_noise_only)
 }
 END_TEST
 
+START_TEST(dc_leakage_is_no_tone)
+{
+    /* An unmodulated carrier's envelope in units of C: 1 plus noise of 1e-12 r.m.s., without DC
+     * removal, as the demodulated audio's spectrum is, on 1.46 Hz bins: DC's lobe ends at bin 11,
+     * the band begins at bin 14 (20 Hz) and a line clears DC's lobe from bin 24 on. The band's
+     * strongest line is a weak one at bin 16 (23.4 Hz, away from the mains lobes), power 2 x the
+     * noise in its third octave (25 bins here: 50 sigma^2 / nfft): 3 dB, no tone. Its lobe (bins
+     * 4..28) holds most of DC's power (1): counted whole, it would stand some 270 dB clear.
+     * dsp/metrics.h rule 3: only the lobe's bins beyond DC's count -- no test tone. */
+    const size_t nfft = 32768, n = 32768 * 8;
+    const double a = sqrt(2.0 * 2.0 * 50.0 * 1e-24 / (double)nfft);
+    double *x = zeros(n);
+    add_noise(x, n, 1e-12, 7);
+    for (size_t i = 0; i < n; i++)
+        x[i] += 1.0 + a * sin(2 * TS_PI * 16.0 / (double)nfft * (double)i);
+    ml_spectrum_config sc = ml_spectrum_config_default(FS);
+    sc.nfft = nfft;
+    sc.hop = nfft / 2;
+    ml_spectrum *q = NULL;
+    ck_assert_int_eq(ml_spectrum_create(&sc, &q), ML_OK);
+    ck_assert_int_eq(ml_spectrum_push_double(q, x, n), ML_OK); /* double: the envelope's precision */
+    free(x);
+    ml_audio_config cfg = ml_audio_config_default();
+    ml_audio_result r;
+    ck_assert_int_eq(ml_audio_analyze(q, &cfg, &r), ML_OK);
+    ml_spectrum_destroy(q);
+    ck_assert_msg(!r.tone_present, "a tone at %.2f Hz, %.1f dB clear", r.candidate_hz, r.candidate_margin_db);
+    /* the weak line was the one judged (its frequency estimate pulled by DC's leakage: 3 bins) */
+    ck_assert_double_eq_tol(r.candidate_hz, 16.0 * FS / (double)nfft, 3.0 * FS / (double)nfft);
+    ck_assert_int_eq(r.figures.fundamental.state, ML_FIG_NONE);
+    assert_in_range(&r, "DC leakage");
+}
+END_TEST
+
 START_TEST(tone_clear_six_db_over_hum)
 {
     /* A 1 kHz tone (amplitude 0.01) 6 dB over a 50 Hz hum (0.005), white noise 1e-4: a tone
@@ -1244,6 +1278,7 @@ static Suite *metrics_suite(void)
     tcase_add_test(tc, f_quantile_matches_scipy);
     tcase_add_test(tc, no_tone_hum_and_noise);
     tcase_add_test(tc, no_tone_noise_only);
+    tcase_add_test(tc, dc_leakage_is_no_tone);
     tcase_add_test(tc, tone_clear_six_db_over_hum);
     tcase_add_test(tc, tone_mode_forced_and_tone_hz);
     tcase_add_test(tc, thd_not_measurable_without_harmonic_in_band);

@@ -557,6 +557,126 @@ START_TEST(pdf_record_written)
 }
 END_TEST
 
+/* A report with a series of three points: measured, a bound, not measured; two of them checked. */
+static void series_sample(ml_report *r, ml_report_series *sr)
+{
+    memset(r, 0, sizeof *r);
+    snprintf(r->path, sizeof r->path, "sweep.wav");
+    snprintf(r->kind, sizeof r->kind, "audio");
+    r->analysed_s = 12.0;
+    ck_assert_int_eq(ml_report_series_alloc(sr, "sweep.points", "sweep points", 3), ML_OK);
+    r->series = sr;
+    ml_report_add(r, "sweep.steps", "", 0, 3);
+    const double f[3] = {100, 1000, 10000}, rel[3] = {-0.5, 0.0, -3.25}, thd[3] = {1.25, 0.0042, NAN};
+    for (int k = 0; k < 3; k++) {
+        ml_report_point *p = ml_report_series_add(sr, 1.5 * k, 1.25);
+        ck_assert_ptr_nonnull(p);
+        ml_report_point_add(p, "frequency_hz", "Hz", 3, f[k]);
+        ml_report_point_add(p, "relative_db", "dB", 3, rel[k]);
+        ml_metric *t = ml_report_point_add(p, "thd_pct", "%", 4, thd[k]);
+        if (k == 1)
+            ck_assert_ptr_nonnull(ml_metric_bound(t, ML_BOUND_UPPER, "noise-limited"));
+        if (k == 2)
+            ck_assert_ptr_nonnull(ml_metric_missing(t, "no harmonic in the band"));
+    }
+    /* checks: point 0 passes its window, point 2 fails it */
+    ml_check *c = &sr->points[0].checks[sr->points[0].nchecks++];
+    *c = (ml_check){.metric = "relative_db", .unit = "dB", .decimals = 3, .valid = true, .value = -0.5,
+                    .has_min = true, .has_max = true, .min = -1, .max = 1, .pass = true, .margin = 0.5};
+    c = &sr->points[2].checks[sr->points[2].nchecks++];
+    *c = (ml_check){.metric = "relative_db", .unit = "dB", .decimals = 3, .valid = true, .value = -3.25,
+                    .has_min = true, .has_max = true, .min = -1, .max = 1, .pass = false, .margin = -2.25};
+}
+
+START_TEST(series_in_every_format)
+{
+    static ml_report r;
+    ml_report_series sr;
+    series_sample(&r, &sr);
+    size_t total = 0, failed = 0, undecided = 0;
+    ml_report_check_counts(&r, &total, &failed, &undecided);
+    ck_assert_uint_eq(total, 2);
+    ck_assert_uint_eq(failed, 1);
+    ck_assert_uint_eq(undecided, 0);
+    ck_assert_str_eq(ml_report_verdict(&r), "fail");
+    ck_assert_str_eq(ml_report_point_verdict(&sr.points[0]), "pass");
+    ck_assert_ptr_null(ml_report_point_verdict(&sr.points[1]));
+    /* JSON: one object per point, null with its reason, the bound, the point checks */
+    char *text = capture(ML_FORMAT_JSON, &r);
+    json_error_t e;
+    json_t *root = json_loads(text, 0, &e);
+    ck_assert_msg(root != NULL, "not JSON: %s", e.text);
+    json_t *pts = json_object_get(json_object_get(root, "sweep"), "points");
+    ck_assert_uint_eq(json_array_size(pts), 3);
+    ck_assert_double_eq_tol(json_real_value(json_object_get(json_array_get(pts, 2), "relative_db")), -3.25,
+                            1e-12);
+    ck_assert(json_is_null(json_object_get(json_array_get(pts, 2), "thd_pct")));
+    ck_assert_double_eq_tol(json_real_value(json_object_get(json_array_get(pts, 1), "start_s")), 1.5, 1e-12);
+    ck_assert_str_eq(json_string_value(json_object_get(json_array_get(pts, 0), "verdict")), "pass");
+    ck_assert(json_is_null(json_object_get(json_array_get(pts, 1), "verdict")));
+    json_t *why = json_object_get(json_object_get(json_object_get(root, "reasons"), "sweep"), "points");
+    ck_assert_uint_eq(json_array_size(why), 3);
+    ck_assert_str_eq(json_string_value(json_object_get(json_array_get(why, 2), "thd_pct")),
+                     "no harmonic in the band");
+    ck_assert_uint_eq(json_object_size(json_array_get(why, 0)), 0);
+    json_t *b = json_object_get(json_object_get(json_object_get(root, "bounds"), "sweep"), "points");
+    ck_assert_str_eq(json_string_value(json_object_get(json_array_get(b, 1), "thd_pct")), "upper");
+    json_t *checks = json_object_get(root, "checks");
+    ck_assert_uint_eq(json_array_size(checks), 2);
+    ck_assert_str_eq(json_string_value(json_object_get(json_array_get(checks, 1), "metric")),
+                     "sweep.points[2].relative_db");
+    ck_assert_str_eq(json_string_value(json_object_get(root, "verdict")), "fail");
+    json_decref(root);
+    free(text);
+    /* CSV: a metric row per point figure, with the point's span and its check */
+    text = capture(ML_FORMAT_CSV, &r);
+    static table t;
+    ck_assert_msg(parse_csv(text, &t), "not RFC 4180: %s", text);
+    int k = row_of(&t, "metric", "sweep.points[2].relative_db");
+    ck_assert_int_ge(k, 0);
+    ck_assert_str_eq(cell(&t, k, "start_s"), "3.000000");
+    ck_assert_str_eq(cell(&t, k, "duration_s"), "1.250000");
+    ck_assert_str_eq(cell(&t, k, "value"), "-3.250");
+    ck_assert_str_eq(cell(&t, k, "lower_limit"), "-1");
+    ck_assert_str_eq(cell(&t, k, "verdict"), "fail");
+    k = row_of(&t, "metric", "sweep.points[2].thd_pct");
+    ck_assert_str_eq(cell(&t, k, "value"), "");
+    ck_assert_str_eq(cell(&t, k, "reason"), "no harmonic in the band");
+    ck_assert_str_eq(cell(&t, row_of(&t, "metric", "sweep.points[1].thd_pct"), "bound"), "upper");
+    ck_assert_str_eq(cell(&t, row_of(&t, "metric", "sweep.steps"), "start_s"), "0.000000");
+    free_table(&t);
+    free(text);
+    /* text: the table, the marks explained, the failed check, the verdict counting point checks */
+    text = capture(ML_FORMAT_TEXT, &r);
+    ck_assert_ptr_nonnull(strstr(text, "sweep points (sweep.points)"));
+    ck_assert_ptr_nonnull(strstr(text, "< 0.0042 [1]"));
+    ck_assert_ptr_nonnull(strstr(text, "n/a [2]"));
+    ck_assert_ptr_nonnull(strstr(text, "[2] sweep.points[2].thd_pct: not measured: no harmonic in the band"));
+    ck_assert_ptr_nonnull(strstr(text, "FAIL sweep.points[2].relative_db = -3.250 dB, limit -1.000..1.000"));
+    ck_assert_ptr_nonnull(strstr(text, "verdict: FAIL (1 of 2 checks passed)"));
+    free(text);
+    ml_report_series_free(&sr);
+    ck_assert_ptr_null(sr.points);
+}
+END_TEST
+
+START_TEST(series_bounds)
+{
+    ml_report_series sr;
+    ck_assert_int_eq(ml_report_series_alloc(&sr, "p", "t", 0), ML_EINVAL);
+    ck_assert_int_eq(ml_report_series_alloc(&sr, "p", "t", 1), ML_OK);
+    ml_report_point *p = ml_report_series_add(&sr, 0, 1);
+    ck_assert_ptr_nonnull(p);
+    ck_assert_ptr_null(ml_report_series_add(&sr, 0, 1)); /* full */
+    for (int i = 0; i < ML_REPORT_POINT_FIGURES; i++)
+        ck_assert_ptr_nonnull(ml_report_point_add(p, "x", "", 0, i));
+    ck_assert_ptr_null(ml_report_point_add(p, "y", "", 0, 1));
+    ck_assert_ptr_null(ml_report_point_find(p, "y"));
+    ck_assert_ptr_null(ml_metric_bound(NULL, ML_BOUND_UPPER, "x"));
+    ml_report_series_free(&sr);
+}
+END_TEST
+
 static Suite *suite(void)
 {
     Suite *s = suite_create("io_report");
@@ -569,6 +689,8 @@ static Suite *suite(void)
     tcase_add_test(tc, text_marks_uncertainty_settings);
     tcase_add_test(tc, compare_csv_rows);
     tcase_add_test(tc, pdf_record_written);
+    tcase_add_test(tc, series_in_every_format);
+    tcase_add_test(tc, series_bounds);
     suite_add_tcase(s, tc);
     return s;
 }
