@@ -30,12 +30,13 @@
  *    from noise), where it is S; peak readings are quantiles of these (see get_result);
  *  - troughs and crests: a trough is a stretch where the envelope falls below (1 - h) carrier_ref
  *    until it is back at or above carrier_ref, a crest one above (1 + h) carrier_ref until it is
- *    back at or below. Each trough is judged once, when it ends: the carrier was *off* (a
- *    pinch-off event) when the oversampled envelope stayed below the floor F for more than a
- *    share of the time it spent below 4 F (60 % when the noise is far below F, growing to 70 %
- *    when F is set by the noise: the noise blurs the time below F), judged on at least 8 oversampled values (2 samples) below
- *    4 F (a trough that merely touches zero smoothly stays below F for half the time it is below
- *    4 F, whatever its width and F); otherwise the carrier *reversed* (a phase-reversal event)
+ *    back at or below. Each trough is judged once, when it ends (one cut by either end of the
+ *    input is not judged: the carrier may be coming on or going off there): the carrier was
+ *    *off* (a pinch-off event) when the oversampled envelope stayed below the floor F for more
+ *    than a share of the time it spent below 4 F (60 % when the noise is far below F, growing to
+ *    70 % when F is set by the noise: the noise blurs the time below F), judged on at least 8
+ *    oversampled values (2 samples) below 4 F (a trough that merely touches zero smoothly stays
+ *    below F for half the time it is below 4 F, whatever its width and F); otherwise the carrier *reversed* (a phase-reversal event)
  *    when the coherent envelope went below -rev. The noise-aware levels, in units of
  *    carrier_ref: F = max(pinch_rel, 4 sigma), rev = max(0.02, 5 sigma), h = max(0.02,
  *    3 sigma). The time below F of the pinch-off troughs is the carrier-off time, the time with

@@ -35,6 +35,7 @@ void ml_am_events_reset(ml_am_events *ev)
     ev->t_floor = ev->t_floor4 = ev->t_neg = 0;
     ev->pinch_events = ev->reversal_events = ev->troughs = ev->crests = ev->absent_troughs = 0;
     ev->t_absent = false;
+    ev->seen = false;
     ev->off_values = ev->reversed_values = 0;
     memset(ev->crest_hist, 0, ML_AM_HIST_BINS * sizeof *ev->crest_hist);
 }
@@ -81,16 +82,18 @@ void ml_am_events_push(ml_am_events *ev, const ml_am_levels *lv, const double *e
         if (ev->state == 0) {
             if (mk->lo[i] < 1.0f - hyst) {
                 ev->state = -1;
-                ev->t_absent = false;
+                ev->t_absent = !ev->seen; /* cut by the start: the carrier may be coming on */
                 ev->t_lo = ev->t_slo = INFINITY;
                 ev->t_floor = ev->t_floor4 = ev->t_neg = 0;
             } else if (mk->hi[i] > 1.0f + hyst) {
                 ev->state = 1;
                 ev->c_hi = 0;
             } else {
+                ev->seen = true;
                 continue;
             }
         }
+        ev->seen = true;
         if (ev->state < 0) {
             ev->t_lo = mk->lo[i] < ev->t_lo ? mk->lo[i] : ev->t_lo;
             ev->t_slo = mk->slo[i] < ev->t_slo ? mk->slo[i] : ev->t_slo;
@@ -124,10 +127,12 @@ void ml_am_events_push(ml_am_events *ev, const ml_am_levels *lv, const double *e
 
 void ml_am_events_end(ml_am_events *ev, const ml_am_levels *lv)
 {
-    if (ev->state < 0)
+    if (ev->state < 0) { /* cut by the end: the carrier may be going off */
+        ev->t_absent = true;
         trough_end(ev, lv);
-    else if (ev->state > 0)
+    } else if (ev->state > 0) {
         crest_end(ev);
+    }
 }
 
 uint64_t ml_am_events_crests_above(const ml_am_events *ev, double level)

@@ -100,7 +100,9 @@ typedef struct {
 
 typedef struct {
     int state;                 /* 0 none, -1 in a trough, +1 in a crest                        */
-    bool t_absent;             /* the trough overlaps a block without carrier: not judged      */
+    bool t_absent;             /* the trough overlaps a block without carrier, or is cut by
+                                  either end of the input: not judged                           */
+    bool seen;                 /* a value was pushed since the reset                           */
     float t_lo, t_slo, c_hi;   /* trough: lowest envelope and coherent reading; crest: highest  */
     uint64_t t_floor, t_floor4, t_neg; /* trough: oversampled values below F, 4 F, negative    */
     uint64_t pinch_events, reversal_events, troughs, crests, absent_troughs;

@@ -18,6 +18,9 @@
 #define LEVEL_REFIND 2.0       /* carrier amplitude change (6 dB) that re-finds the carrier     */
 #define BLOCK_S 0.02           /* blocks whose power is compared (gap_s)                        */
 #define GAP_REL 0.01           /* a block 20 dB below the strongest is a gap                    */
+#define EDGE_S 0.005           /* the window's edges checked apart (gap_s)                      */
+#define EDGE_REL 0.001         /* an edge 30 dB below the strongest block is a gap (a 50 Hz tone
+                                  at 100 % has 5 ms around its trough 19.3 dB below its block)    */
 
 struct ml_monitor {
     ml_monitor_config cfg;
@@ -216,8 +219,9 @@ static ml_status find_carrier(ml_monitor *q)
 }
 
 /* Time in 20 ms blocks of the window whose power lies more than GAP_DB below the strongest
- * block's: the signal comes or goes within the window (a modulated carrier's blocks differ by a
- * few dB at most: 1 + m cos averaged over 20 ms for tones from 25 Hz up). */
+ * block's, and a block's time for each edge of EDGE_S 30 dB below it: the signal comes or goes
+ * within the window (a modulated carrier's blocks differ by a few dB at most: 1 + m cos averaged
+ * over 20 ms for tones from 25 Hz up). */
 static double gap_s(const ml_monitor *q)
 {
     const size_t len = (size_t)llround(BLOCK_S * q->cfg.rate_hz), w = q->width;
@@ -233,7 +237,22 @@ static double gap_s(const ml_monitor *q)
     size_t gaps = 0;
     for (size_t b = 0; b < nb; b++)
         gaps += !(q->bpow[b] >= pmax * GAP_REL);
-    return pmax > 0 ? (double)(gaps * len) / q->cfg.rate_hz : (double)q->cap / q->cfg.rate_hz;
+    if (!(pmax > 0))
+        return (double)q->cap / q->cfg.rate_hz;
+    /* the window's first and last EDGE_S (the peak hold's 5 ms: less moves no held reading)
+     * against the strongest block at the same power per frame: the signal comes or goes at an
+     * edge, within a block */
+    const size_t el = (size_t)llround(EDGE_S * q->cfg.rate_hz);
+    if (el > 0 && el <= q->cap) {
+        double ph = 0, pt = 0;
+        for (size_t i = 0; i < el * w; i++) {
+            ph += (double)q->lin[i] * q->lin[i];
+            pt += (double)q->lin[(q->cap - el) * w + i] * q->lin[(q->cap - el) * w + i];
+        }
+        const double lim = pmax * EDGE_REL * (double)el / (double)len;
+        gaps += !(ph >= lim) + !(pt >= lim);
+    }
+    return (double)(gaps * len) / q->cfg.rate_hz;
 }
 
 static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)

@@ -65,8 +65,10 @@ typedef struct {
     /* if/iq (everything NAN for audio)                                                          */
     bool carrier_ok;           /* a carrier line was found in the window                           */
     double gap_s;              /* if/iq: time in 20 ms blocks of the window more than 20 dB below
-                                  its strongest block: the signal comes or goes (then the window is
-                                  not analysed: ML_ENOSIGNAL, carrier_ok false)                     */
+                                  its strongest block, plus a block's time for each of its first
+                                  and last 5 ms more than 30 dB below it (per frame): the signal
+                                  comes or goes (then the window is not analysed: ML_ENOSIGNAL,
+                                  carrier_ok false)                                               */
     ml_modulation_result modulation;
     unsigned carrier_finds;    /* times the carrier was found since create/reset                   */
 } ml_monitor_result;
@@ -95,7 +97,8 @@ ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_
  * carrier, must stand ML_MODULATION_MIN_PROMINENCE_DB out of the noise (dsp/carrier.h), and the
  * window's carrier line too (dsp/modulation.h); after a window without one the carrier is
  * searched afresh (and C forgotten, as on a re-find). A window whose 20 ms blocks differ in power
- * by more than 20 dB (gap_s > 0: the signal comes or goes, which no modulation does) is not
+ * by more than 20 dB, or whose first or last 5 ms lie 30 dB below its strongest block (gap_s > 0:
+ * the signal comes or goes, which no modulation does) is not
  * analysed, nor searched for a carrier (the line of a carrier present in part would understate
  * it); ML_ENOMEM / ML_EFFT when creating the modulation
  * analysis after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and

@@ -1018,6 +1018,44 @@ START_TEST(carrier_offset_followed)
 }
 END_TEST
 
+START_TEST(troughs_cut_by_the_ends)
+{
+    /* The carrier coming on 12 ms into the input, or going off 12 ms before its end (less than a
+     * 20 ms block: no block is without carrier), under a 1 kHz tone at m = 0.8: the envelope
+     * never falls below 0.2 A while the carrier is there, so no trough of the modulation is
+     * overmodulated; the stretch without carrier is cut by an end of the input and not judged
+     * (dsp/am.h): no pinch-off, no reversal, no carrier-off time. The same input with the
+     * carrier switched off for 12 ms in the middle and back (a trough that ends) is one pinch-off
+     * whose time below F is the 12 ms less the channel filter's edges (within 1 ms). */
+    const size_t n = 48000, gap = 576; /* 12 ms */
+    for (size_t c = 0; c < 2; c++) {
+        const bool cplx = c == 1;
+        const double fc = cplx ? -3000.0 : FC_REAL;
+        for (int where = 0; where < 3; where++) {
+            ml_am_config cfg = ml_am_config_default(FS, cplx, fc, BW, AMP);
+            ml_am *q = make(&cfg);
+            double *e = envelope(n, ENV_TONE, 0.8, 1000.0, 0.0, 0);
+            const size_t at = where == 0 ? ml_am_edge(q) : where == 1 ? n - ml_am_edge(q) - gap : n / 2;
+            for (size_t i = at; i < at + gap; i++)
+                e[i] = 0.0;
+            double complex *z = on_carrier(e, n, AMP, fc, cplx);
+            run_out o = run(q, z, NULL, n, 4096);
+            ck_assert_uint_eq(o.r.reversal_events, 0);
+            if (where < 2) {
+                ck_assert_msg(o.r.pinch_events == 0 && o.r.off_samples == 0.0, "%s, %s: %llu pinch-offs, %g off",
+                              cplx ? "iq" : "if", where ? "end" : "start", (unsigned long long)o.r.pinch_events,
+                              o.r.off_samples);
+            } else {
+                ck_assert_uint_eq(o.r.pinch_events, 1);
+                ck_assert_msg(fabs(o.r.off_samples - (double)gap) <= 48.0, "%s: %g samples off", cplx ? "iq" : "if",
+                              o.r.off_samples);
+            }
+            free_case(&o, z, e, q);
+        }
+    }
+}
+END_TEST
+
 /* ---- trapezoid ------------------------------------------------------------------------------ */
 
 START_TEST(trapezoid_linear_and_quadratic)
@@ -1129,6 +1167,7 @@ static Suite *am_suite(void)
     tcase_add_test(tc, reversal_time_and_reading);
     tcase_add_test(tc, positive_peak_limit);
     tcase_add_test(tc, carrier_offset_followed);
+    tcase_add_test(tc, troughs_cut_by_the_ends);
     tcase_add_test(tc, trapezoid_linear_and_quadratic);
     tcase_add_test(tc, trapezoid_needs_varying_reference);
     suite_add_tcase(s, tc);
