@@ -59,7 +59,8 @@ static void card_usage(FILE *f)
         "\n"
         "  --out FILE.json           the card profile (or with --calibrate the calibration) to write\n"
         "  --device NAME|INDEX       play the test signal and capture the loopback (see 'modlens devices')\n"
-        "  --output-device NAME|INDEX  the output that plays it (default: the default output)\n"
+        "  --output-device NAME|INDEX  the output that plays it (default: the default output);\n"
+        "                            --play-device is the same option\n"
         "  --rate HZ                 sample rate with --device (default: the device's)\n"
         "  --channels N              channels captured with --device, 1 or 2 (default 2)\n"
         "  --calibrate VRMS          FILE holds a steady tone of VRMS volts r.m.s. at the input (read\n"
@@ -82,6 +83,7 @@ static int parse(int argc, char **argv, card_opts *o)
         {"out", required_argument, NULL, O_OUT},
         {"device", required_argument, NULL, O_DEVICE},
         {"output-device", required_argument, NULL, O_OUTDEV},
+        {"play-device", required_argument, NULL, O_OUTDEV},
         {"rate", required_argument, NULL, O_RATE},
         {"channels", required_argument, NULL, O_CHANNELS},
         {"calibrate", required_argument, NULL, O_CAL},

@@ -28,8 +28,11 @@ int ml_input_open_file(const ml_input_opts *in, ml_segment *seg)
     char err[512];
     memset(seg, 0, sizeof *seg);
     ml_status st = ml_source_open_file(in->path, &seg->src, err, sizeof err);
-    if (st != ML_OK)
+    if (st != ML_OK) {
+        if (st == ML_EIO && err[0]) /* cannot open, not a regular file, ...: the detail says it all */
+            return ml_cli_error("%s: %s", in->path, err);
         return ml_cli_error("%s: %s%s%s", in->path, ml_strerror(st), err[0] ? ": " : "", err);
+    }
     const ml_source_info *info = ml_source_get_info(seg->src);
     seg->info = info;
     const double rate = info->rate_hz;

@@ -135,7 +135,7 @@ void ml_live_usage(FILE *f)
             "                          output while capturing; the round-trip latency is measured and\n"
             "                          the analysis starts %.0f ms after the tone comes back\n"
             "  --output-device NAME|INDEX  output for the tone (default: the default output; same\n"
-            "                          audio system as the input)\n"
+            "                          audio system as the input); --play-device is the same option\n"
             "analysis: every option of 'modlens measure' except FILE (--kind, --channel, --band,\n"
             "  --tone, --carrier, --limits, --format, --output, ...); --start and --duration count\n"
             "  from the start of the capture.\n"

@@ -2,16 +2,20 @@
  * SPDX-License-Identifier: MIT
  *
  * argv -> options (the input, analysis and the log's own groups) -> the input step
- * (analyzer/input.h: a file or a live device, its kind and channels) -> the time grid
- * (analyzer/log_grid.c: per-interval levels, spectra, detectors and, for if/iq, measure's
- * modulation figures of each interval) -> events (analyzer/log_events.c) and append-safe CSV
- * rows (analyzer/log_rows.c) -> summary (and plot). ml_log_run works on any ml_source: unknown
- * length (frames == -1), lost frames (ml_source_lost_frames before/after each read: a marked gap)
- * and a read error mid-stream (the log ends cleanly with the reason).
+ * (analyzer/input.h: a file or a live device, its kind and channels) -> the start-up: every
+ * output checked (io/output.h) and every existing log file looked at before anything is written
+ * (analyzer/log_rows.c), what is logged compared with what the files hold (analyzer/log_state.c),
+ * the saved detectors' state read back -> the time grid (analyzer/log_grid.c: per-interval
+ * levels, spectra, detectors and, for if/iq, measure's modulation figures of each interval) and
+ * what the listener hears (analyzer/log_listen.c: impulses, buzz, quasi-peak) -> events
+ * (analyzer/log_events.c) and append-safe CSV rows -> summary (and plot). ml_log_run works on any
+ * ml_source: unknown length (frames == -1), lost frames (ml_source_lost_frames before/after each
+ * read: a marked gap) and a read error mid-stream (the log ends cleanly with the reason).
  */
 #define _POSIX_C_SOURCE 200809L
 #include <errno.h>
 #include <getopt.h>
+#include <limits.h>
 #include <math.h>
 #include <signal.h>
 #include <stdio.h>
@@ -19,16 +23,22 @@
 #include <string.h>
 #include <sys/stat.h>
 #include <time.h>
+#include <unistd.h>
 
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/commands.h"
 #include "analyzer/input.h"
 #include "analyzer/log_internal.h"
+#include "dsp/mmnoise.h"
+#include "io/csv.h"
 #include "io/logplot.h"
+#include "io/plot.h"
 
-#define MAX_LEVEL 1e30f    /* largest sample magnitude logged as it is                               */
+#define MAX_LEVEL 1e30f   /* largest sample magnitude logged as it is                               */
 #define DEVICE_LOOK_S 1.0 /* opening capture looked at by --kind auto and for the carrier (live) */
+#define MAX_PACE 1e6      /* --pace: fastest speed-up                                            */
+#define MAX_NEW_LOGS 999  /* --new-log: NAME-2 .. NAME-999                                       */
 
 static volatile sig_atomic_t g_stop = 0;
 
@@ -43,8 +53,10 @@ static void log_usage(FILE *f)
             "usage: modlens log [options] --out FILE.csv (FILE | --device NAME|INDEX)\n"
             "\n"
             "Logs level, hum, noise floor and interference events for hours or days, one CSV row per\n"
-            "interval (written and flushed as soon as it is complete) and one line per event; for an IF\n"
-            "or I/Q input each row also carries measure's carrier and modulation figures of its interval.\n"
+            "interval (written as soon as it is complete) and one line per event; for an IF or I/Q input\n"
+            "each row also carries the quasi-peak reading and measure's carrier and modulation figures of\n"
+            "its interval. Impulses are found in what the listener hears (the audio, or the demodulated\n"
+            "envelope of an IF or I/Q input); periodic impulses are one buzz event with their rate.\n"
             "\n"
             "input:\n"
             "  FILE                    an audio file of any length (streamed)\n"
@@ -53,19 +65,33 @@ static void log_usage(FILE *f)
             "                          does)\n"
             "  --channel N, --swap-iq  channel to log, 1-based (for iq the I channel; default 1)\n"
             "  --start-time ISO        UTC time of a file's start, YYYY-MM-DDTHH:MM:SS[.fff]Z (default:\n"
-            "                          the file's modification time minus its duration)\n"
+            "                          the file's modification time minus its duration; a continued log\n"
+            "                          keeps the start it recorded)\n"
             "  --seconds S             stop after S seconds (default: end of input or Ctrl-C)\n"
             "output:\n"
-            "  --out FILE              interval rows (CSV); an existing log is continued, not overwritten\n"
+            "  --out FILE              interval rows (CSV); an existing log of the same input and settings\n"
+            "                          is continued (never overwritten); anything else is refused\n"
             "  --events FILE           events (CSV; default: --out with -events before the extension)\n"
+            "  --new-log               when --out holds a log of something else, start a new log beside it\n"
+            "                          (NAME-2.csv, NAME-3.csv, ...)\n"
             "  --interval S            row interval in seconds, 0.05 .. 86400 (default 1)\n"
-            "  --rotate-hours H        new files every H hours of UTC time (NAME-YYYYMMDDTHHMMSSZ.csv)\n"
-            "  --plot FILE.png         at the end, draw the level history with events and a spectrogram\n"
+            "  --rotate-hours H        new files every H hours of UTC time (NAME-YYYYMMDDTHHMMSSZ.csv),\n"
+            "                          at least --interval and 1 s, at most 8760\n"
+            "  --timezone NAME         time zone of the local-time columns (default: the system's; a zone\n"
+            "                          name such as Europe/Berlin, UTC, or a POSIX TZ rule)\n"
+            "  --plot FILE             at the end, draw the level history with events and a spectrogram\n"
+            "                          (.png, .svg or .pdf)\n"
             "detection:\n"
             "  --impulse-db DB         impulse: 1 ms level above the median of the last second (20)\n"
             "  --hum-db DB             hum event: hum-over-floor rise above its baseline (10)\n"
             "  --noise-db DB           noise event: noise-floor rise above its baseline (6)\n"
+            "  --level-db DB           level event: broadband level rise above its baseline (6)\n"
             "  --carrier-loss-db DB    carrier-loss event (if/iq): carrier fall below its baseline (10)\n"
+            "absolute noise (if/iq):\n"
+            "  --fullscale-dbm DBM     calibration: the input power (dBm) of a full-scale sine (IF) or\n"
+            "                          full-scale complex tone (I/Q), -200 .. 100\n"
+            "  --rf-hz HZ              the receive frequency, 0.3e6 .. 30e6 (with --fullscale-dbm: Fa and\n"
+            "                          the nearest ITU-R P.372 man-made noise environment per row)\n"
             "analysis: --mains, --band, --tone, --harmonics, --window, --carrier, --bandwidth,\n"
             "  --carrier-reference, --peak-hold-ms as for 'modlens measure' (C is latched from an\n"
             "  unmodulated stretch the log hears, or taken from --carrier-reference)\n"
@@ -86,12 +112,148 @@ enum {
     O_INTERVAL,
     O_ROTATE,
     O_PLOT,
+    O_PACE,
+    O_TZ,
+    O_NEWLOG,
+    O_FSDBM,
+    O_RFHZ,
     O_IMP,
     O_HUM,
     O_NOISE,
     O_LOSS,
-    O_PACE
+    O_LEVEL,
 };
+
+/* ---- time zones ------------------------------------------------------------------------------ */
+
+/* A POSIX TZ name part: 3+ letters, or <...> of letters, digits, + and -. */
+static const char *tz_name(const char *p)
+{
+    const char *s = p;
+    if (*p == '<') {
+        for (p++; (*p >= 'A' && *p <= 'Z') || (*p >= 'a' && *p <= 'z') || (*p >= '0' && *p <= '9') || *p == '+'
+                  || *p == '-';
+             p++)
+            ;
+        return *p == '>' && p - s >= 4 ? p + 1 : NULL;
+    }
+    while ((*p >= 'A' && *p <= 'Z') || (*p >= 'a' && *p <= 'z'))
+        p++;
+    return p - s >= 3 ? p : NULL;
+}
+
+/* [+-]hh[:mm[:ss]] (hh up to 24, or 167 in a rule's time). */
+static const char *tz_offset(const char *p, int max_h)
+{
+    if (*p == '+' || *p == '-')
+        p++;
+    int h = 0, n = 0;
+    for (; *p >= '0' && *p <= '9' && n < 3; p++, n++)
+        h = h * 10 + (*p - '0');
+    if (n == 0 || h > max_h)
+        return NULL;
+    for (int part = 0; part < 2 && *p == ':'; part++) {
+        if (!(p[1] >= '0' && p[1] <= '5' && p[2] >= '0' && p[2] <= '9'))
+            return NULL;
+        p += 3;
+    }
+    return p;
+}
+
+/* ,Mm.w.d[/time] or ,Jn or ,n rule of a POSIX TZ string. */
+static const char *tz_rule(const char *p)
+{
+    if (*p == 'M') {
+        int m = 0, w = 0, d = 0;
+        if (sscanf(p, "M%d.%d.%d", &m, &w, &d) != 3 || m < 1 || m > 12 || w < 1 || w > 5 || d < 0 || d > 6)
+            return NULL;
+        while (*p && *p != ',' && *p != '/')
+            p++;
+    } else {
+        if (*p == 'J')
+            p++;
+        const char *s = p;
+        while (*p >= '0' && *p <= '9')
+            p++;
+        if (p == s || p - s > 3)
+            return NULL;
+    }
+    return *p == '/' ? tz_offset(p + 1, 167) : p;
+}
+
+/* A POSIX TZ rule such as "CET-1CEST,M3.5.0,M10.5.0/3" or "EST5". */
+static bool tz_posix(const char *p)
+{
+    if ((p = tz_name(p)) == NULL || (p = tz_offset(p, 24)) == NULL)
+        return false;
+    if (*p == '\0')
+        return true;
+    if ((p = tz_name(p)) == NULL)
+        return false;
+    if (*p != ',' && *p != '\0' && (p = tz_offset(p, 24)) == NULL)
+        return false;
+    if (*p == '\0')
+        return true;
+    if (*p != ',' || (p = tz_rule(p + 1)) == NULL || *p != ',' || (p = tz_rule(p + 1)) == NULL)
+        return false;
+    return *p == '\0';
+}
+
+/* A zone of the time-zone database (a TZif file under $TZDIR or /usr/share/zoneinfo). */
+static bool tz_file(const char *name)
+{
+    if (name[0] == '\0' || name[0] == '/' || strstr(name, "..") || strlen(name) > 200)
+        return false;
+    for (const char *p = name; *p; p++)
+        if (!((*p >= 'A' && *p <= 'Z') || (*p >= 'a' && *p <= 'z') || (*p >= '0' && *p <= '9')
+              || strchr("/_+-", *p)))
+            return false;
+    const char *dir = getenv("TZDIR");
+    char path[4096];
+    snprintf(path, sizeof path, "%s/%s", dir && dir[0] ? dir : "/usr/share/zoneinfo", name);
+    FILE *f = fopen(path, "rb");
+    char magic[4] = {0};
+    const bool ok = f && fread(magic, 1, 4, f) == 4 && memcmp(magic, "TZif", 4) == 0;
+    if (f)
+        fclose(f);
+    return ok;
+}
+
+static bool tz_ok(const char *s)
+{
+    if (s[0] == ':')
+        s++;
+    return strcmp(s, "UTC") == 0 || tz_file(s) || tz_posix(s);
+}
+
+/* The time zone of the local times: --timezone (set as the process's TZ), else TZ, else the
+ * system's zone (the link /etc/localtime names). */
+static int apply_timezone(const ml_log_opts *o, char *name, size_t n)
+{
+    if (o->timezone) {
+        setenv("TZ", o->timezone, 1);
+        snprintf(name, n, "%s", o->timezone[0] == ':' ? o->timezone + 1 : o->timezone);
+    } else {
+        const char *tz = getenv("TZ");
+        char link[4096];
+        ssize_t k;
+        if (tz && tz[0]) {
+            if (!tz_ok(tz))
+                return ml_cli_error("TZ=%s is not a time zone this system knows; give --timezone NAME", tz);
+            snprintf(name, n, "%s", tz[0] == ':' ? tz + 1 : tz);
+        } else if ((k = readlink("/etc/localtime", link, sizeof link - 1)) > 0) {
+            link[k] = '\0';
+            const char *z = strstr(link, "zoneinfo/");
+            snprintf(name, n, "%.*s", (int)(n - 1), z ? z + 9 : link);
+        } else {
+            snprintf(name, n, "%s", access("/etc/localtime", R_OK) == 0 ? "localtime" : "UTC");
+        }
+    }
+    tzset();
+    return 0;
+}
+
+/* ---- options --------------------------------------------------------------------------------- */
 
 /* The log's own options; 0 or an exit status. */
 static int own_option(int ch, const char *arg, const char *name, ml_log_opts *o)
@@ -106,20 +268,38 @@ static int own_option(int ch, const char *arg, const char *name, ml_log_opts *o)
     case O_OUT: o->out = arg; return 0;
     case O_EVENTS: o->events = arg; return 0;
     case O_PLOT: o->plot = arg; return 0;
+    case O_NEWLOG: o->new_log = true; return 0;
+    case O_TZ:
+        if (!tz_ok(arg))
+            return ml_cli_error("--timezone: '%s' is not a time zone (a zone name such as Europe/Berlin, UTC, "
+                                "or a POSIX TZ rule such as CET-1CEST,M3.5.0,M10.5.0/3)", arg);
+        o->timezone = arg;
+        return 0;
     case O_INTERVAL:
         if (!ml_cli_number(arg, &v) || v < 0.05 || v > 86400)
             return ml_cli_error("--interval: '%s' is not a time in seconds, 0.05 .. 86400", arg);
         o->interval_s = v;
         return 0;
     case O_ROTATE:
-        if (!ml_cli_number(arg, &v) || v <= 0 || v > 8760)
-            return ml_cli_error("--rotate-hours: '%s' is not a number of hours, 0 < H <= 8760", arg);
+        if (!ml_cli_number(arg, &v) || v < 1.0 / 3600 || v > 8760)
+            return ml_cli_error("--rotate-hours: '%s' is not a number of hours, 1/3600 (1 s) .. 8760", arg);
         o->rotate_h = v;
         return 0;
     case O_PACE:
-        if (!ml_cli_number(arg, &v) || v <= 0)
-            return ml_cli_error("--pace: '%s' is not a speed factor > 0", arg);
+        if (!ml_cli_number(arg, &v) || v <= 0 || v > MAX_PACE)
+            return ml_cli_error("--pace: '%s' is not a speed factor, 0 < X <= %.0f", arg, MAX_PACE);
         o->pace = v;
+        return 0;
+    case O_FSDBM:
+        if (!ml_cli_number(arg, &v) || v < -200 || v > 100)
+            return ml_cli_error("--fullscale-dbm: '%s' is not a power in dBm, -200 .. 100", arg);
+        o->fullscale_dbm = v;
+        return 0;
+    case O_RFHZ:
+        if (!ml_cli_number(arg, &v) || v < ML_MMNOISE_MIN_HZ || v > ML_MMNOISE_MAX_HZ)
+            return ml_cli_error("--rf-hz: '%s' is not a frequency of the noise model, %.0f .. %.0f Hz", arg,
+                                ML_MMNOISE_MIN_HZ, ML_MMNOISE_MAX_HZ);
+        o->rf_hz = v;
         return 0;
     default: /* the detection thresholds */
         if (!ml_cli_number(arg, &v) || v <= 0 || v > 200)
@@ -127,13 +307,14 @@ static int own_option(int ch, const char *arg, const char *name, ml_log_opts *o)
         *(ch == O_IMP     ? &o->impulse_db
           : ch == O_HUM   ? &o->hum_db
           : ch == O_NOISE ? &o->noise_db
+          : ch == O_LEVEL ? &o->level_db
                           : &o->loss_db) = v;
         return 0;
     }
 }
 
 /* The input and output named on the command line fit together. */
-static int check_inputs(const ml_log_opts *o)
+static int check_inputs(ml_log_opts *o)
 {
     if (o->in.path && o->in.device)
         return ml_cli_error("log takes either an input FILE or --device, not both");
@@ -143,6 +324,15 @@ static int check_inputs(const ml_log_opts *o)
         return ml_cli_error("--rate and --channels apply to --device input only");
     if (o->out == NULL)
         return ml_cli_error("log needs --out FILE.csv");
+    if (o->rotate_h > 0 && o->rotate_h * 3600.0 < o->interval_s)
+        return ml_cli_error("--rotate-hours: %g h is shorter than --interval %g s", o->rotate_h, o->interval_s);
+    if (isnan(o->fullscale_dbm) != isnan(o->rf_hz))
+        return ml_cli_error("%s needs %s too (the calibration and the receive frequency)",
+                            isnan(o->rf_hz) ? "--fullscale-dbm" : "--rf-hz",
+                            isnan(o->rf_hz) ? "--rf-hz" : "--fullscale-dbm");
+    o->have_cal = !isnan(o->fullscale_dbm);
+    if (o->plot && ml_plot_type(o->plot) < 0)
+        return ml_cli_error("--plot: '%s' names no picture type: end it in .png, .svg or .pdf", o->plot);
     return 0;
 }
 
@@ -154,9 +344,12 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
         {"rotate-hours", required_argument, NULL, O_ROTATE}, {"plot", required_argument, NULL, O_PLOT},
         {"impulse-db", required_argument, NULL, O_IMP}, {"hum-db", required_argument, NULL, O_HUM},
         {"noise-db", required_argument, NULL, O_NOISE}, {"carrier-loss-db", required_argument, NULL, O_LOSS},
-        {"pace", required_argument, NULL, O_PACE}, {"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0},
+        {"level-db", required_argument, NULL, O_LEVEL}, {"timezone", required_argument, NULL, O_TZ},
+        {"new-log", no_argument, NULL, O_NEWLOG}, {"fullscale-dbm", required_argument, NULL, O_FSDBM},
+        {"rf-hz", required_argument, NULL, O_RFHZ}, {"pace", required_argument, NULL, O_PACE},
+        {"help", no_argument, NULL, 'h'}, {NULL, 0, NULL, 0},
     };
-    struct option longopts[64];
+    struct option longopts[80];
     ml_options_table(ML_OPTS_SOURCE | ML_OPTS_DEVICE | ML_OPTS_AUDIO | ML_OPTS_MODULATION | ML_OPTS_LEVELS,
                      own, longopts, sizeof longopts / sizeof *longopts);
     memset(o, 0, sizeof *o);
@@ -169,6 +362,8 @@ int ml_log_parse(int argc, char **argv, ml_log_opts *o)
     o->hum_db = 10.0;
     o->noise_db = 6.0;
     o->loss_db = 10.0;
+    o->level_db = 6.0;
+    o->fullscale_dbm = o->rf_hz = NAN;
     opterr = 0;
     optind = 1;
     int ch, rc, li;
@@ -254,60 +449,80 @@ int ml_cmd_log(int argc, char **argv)
     return rc;
 }
 
-/* ---- the run --------------------------------------------------------------------------------- */
+/* ---- the start-up ------------------------------------------------------------------------------ */
 
-/* Reads an existing log's last row and resumes after it: a file input continues at that offset,
- * a live one keeps counting offsets from the first run's start. 1: the file is already logged. */
-static int resume(ml_logger *L, const char *last)
+/* The end of the rows file's last row, and the first run's start (live). */
+typedef struct {
+    bool have;
+    double end_off;   /* offset_s + duration_s                          */
+    double t0;        /* its start_utc - offset_s: the log's first start */
+} last_row;
+
+static int read_last(const ml_logger *L, const char *last, last_row *r)
 {
-    char f[64];
+    char f[64], u[64];
     double off, dur;
-    if (!ml_log_csv_field(last, 1, f, sizeof f) || !ml_cli_number(f, &off)
-        || !ml_log_csv_field(last, 2, f, sizeof f) || !ml_cli_number(f, &dur) || off < 0 || dur < 0)
+    r->have = last[0] != '\0';
+    if (!r->have)
+        return 0;
+    if (!ml_csv_get_field(last, 2, f, sizeof f) || !ml_cli_number(f, &off) || !ml_csv_get_field(last, 3, f, sizeof f)
+        || !ml_cli_number(f, &dur) || off < 0 || dur < 0 || !ml_csv_get_field(last, 0, u, sizeof u)
+        || !ml_cli_utc(u, &r->t0))
         return ml_cli_error("%s: the last row cannot be read; choose another --out", L->rows_path);
-    if (!L->o->in.live) {
-        const int64_t at = (int64_t)llround((off + dur) * L->rate);
-        if (L->info->frames >= 0 && at >= L->info->frames)
-            return 1; /* already complete */
-        if (ml_source_seek(L->src, at) != ML_OK)
-            return ml_cli_error("%s: cannot continue at %.3f s: %s", L->o->in.path, off + dur,
-                                ml_source_detail(L->src));
-        L->pos = L->origin = at;
-    } else {
-        char u[64];
-        double t0;
-        if (ml_log_csv_field(last, 0, u, sizeof u) && ml_cli_utc(u, &t0)) {
-            L->offset0_s = (t0 - off) > 0 ? L->start_utc - (t0 - off) : off + dur;
-            if (L->offset0_s < off + dur)
-                L->offset0_s = off + dur; /* a clock set back must not make offsets overlap */
-            L->start_utc -= L->offset0_s;
-        }
-    }
+    r->end_off = off + dur;
+    r->t0 -= off;
     return 0;
 }
 
-/* Finds the files this run continues: follows rotation while the period's file has rows.
- * 1: the input is already logged. */
-static int continue_files(ml_logger *L)
+/* Finds the files this run continues (--new-log: the first name free for it), follows rotation
+ * while the next period's file has rows; nothing is written. r: the last row written. */
+static int continue_files(ml_logger *L, last_row *r)
 {
     const ml_log_opts *o = L->o;
-    char last[4096];
+    char *last = malloc(ML_LOGFILE_LINE_MAX + 1);
+    if (last == NULL)
+        return ml_cli_error("%s: out of memory", L->name);
+    int rc = 0, adopted = 0, n = 1;
     int64_t period = ml_log_period_of(o, L->start_utc);
     for (int hop = 0;; hop++) {
-        int rc = ml_log_open_outputs(L, period, last, sizeof last);
-        if (rc != 0 || last[0] == '\0')
-            return rc;
-        if ((rc = resume(L, last)) != 0)
-            return rc;
-        const int64_t p2 = ml_log_period_of(o, L->start_utc + ml_log_offset_of(L, L->pos));
-        if (p2 == period || hop > 100000 || o->in.live)
-            return 0;
-        char rp[1100], ep[1100];
-        ml_log_paths_for(o, p2, rp, ep, sizeof rp);
+        free(L->state_path);
+        if ((L->state_path = ml_log_state_path(L)) == NULL) {
+            rc = ml_cli_error("%s: out of memory", L->name);
+            break;
+        }
+        rc = ml_log_open_outputs(L, period, last, ML_LOGFILE_LINE_MAX + 1);
+        if (rc == ML_LOG_ADOPT_START && hop == 0 && !adopted++) { /* the log keeps the start it recorded */
+            if ((rc = ml_log_make_meta(L)) != 0)
+                break;
+            period = ml_log_period_of(o, L->start_utc);
+            hop = -1;
+            continue;
+        }
+        if (rc == ML_LOG_TAKEN && hop == 0 && n < MAX_NEW_LOGS) { /* --new-log: the next name */
+            snprintf(L->suffix, sizeof L->suffix, "-%d", ++n);
+            hop = -1;
+            continue;
+        }
+        if (rc == ML_LOG_TAKEN || rc == ML_LOG_ADOPT_START)
+            rc = ml_cli_error("%s: no free name for a new log beside it", o->out);
+        if (rc != 0 || (rc = read_last(L, last, r)) != 0 || !r->have || o->in.live)
+            break;
+        const int64_t p2 = ml_log_period_of(o, L->start_utc + r->end_off);
+        if (p2 == period || hop > 100000)
+            break;
+        /* the next period's file: continue there when it has rows (or is new) */
+        char *rp = ml_log_rows_path(L, p2);
+        struct stat sb;
+        const bool exists = rp && stat(rp, &sb) == 0;
+        free(rp);
         period = p2;
-        if (!ml_logfile_has_rows(rp))
-            return ml_log_open_outputs(L, period, last, sizeof last);
+        if (!exists) {
+            rc = ml_log_open_outputs(L, period, last, ML_LOGFILE_LINE_MAX + 1);
+            break;
+        }
     }
+    free(last);
+    return rc;
 }
 
 /* if/iq: the carrier (the opening seconds from where the log starts, then back) and C's
@@ -322,16 +537,17 @@ static int setup_carrier(ml_logger *L)
     seg.nframes = (int64_t)(look * L->rate);
     if (L->info->frames >= 0 && seg.nframes > L->info->frames - L->pos)
         seg.nframes = L->info->frames - L->pos;
-    const char *name = o->in.live ? o->in.device : o->in.path;
     ml_spectrum *s = NULL;
-    if (seg.nframes >= 256) {
-        const int rc = ml_input_look_ahead(name, &seg, &L->ch, seg.nframes, &s);
+    if (isnan(L->carrier_hz) && seg.nframes >= 256) {
+        const int rc = ml_input_look_ahead(L->name, &seg, &L->ch, seg.nframes, &s);
         if (rc != 0)
             return rc;
         const ml_carrier_config cc = ml_carrier_config_default(L->rate, L->is_complex, o->an.carrier_hz);
         ml_carrier car;
-        if (ml_carrier_find(s, &cc, &car) == ML_OK) /* else not yet: a transmitter may come on later */
-            ml_log_set_carrier(L, car.frequency_hz, car.amplitude);
+        if (ml_carrier_find(s, &cc, &car) == ML_OK) { /* else not yet: a transmitter may come on later */
+            L->carrier_hz = car.frequency_hz;
+            L->carrier_amp = car.amplitude;
+        }
         ml_spectrum_destroy(s);
     }
     if (o->an.carrier_reference) {
@@ -341,54 +557,135 @@ static int setup_carrier(ml_logger *L)
         if (rc != 0)
             return rc;
     }
-    ml_log_start_modulation(L);
     return 0;
 }
 
-/* Sets up the logger for src: channels, carrier checks, objects, output files. 1: the input is
- * already logged; else 0 or an exit status. */
+/* --plot: checked with every file the log reads or writes (ml_log_check_paths did so for each
+ * period's files); written at the end. */
+static int check_plot(ml_logger *L)
+{
+    const ml_log_opts *o = L->o;
+    if (o->plot == NULL)
+        return 0;
+    const char *bad = o->plot;
+    char err[512] = "";
+    ml_status st = ml_output_set_create(&L->plot_set);
+    if (st == ML_OK)
+        st = ml_log_register(L, L->plot_set, L->rows_path, L->events_path, &L->plot_out);
+    if (st == ML_OK)
+        st = ml_output_set_check(L->plot_set, &bad, err, sizeof err);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", bad ? bad : o->plot, err[0] ? err : ml_strerror(st));
+    ml_history_config hc = ml_history_config_default();
+    hc.nrows = ML_LOG_SG_ROWS;
+    if (ml_history_create(&hc, &L->sgram) != ML_OK)
+        return ml_cli_error("%s: out of memory", o->plot);
+    ml_log_sgram_bands(L);
+    return 0;
+}
+
+/* Where this run starts: after the last row written (a live log keeps counting offsets from the
+ * first run's start), or back at the saved state (a file log replays from there, writing nothing
+ * twice). 1: the file is already logged. */
+static int resume(ml_logger *L, const last_row *r)
+{
+    if (!r->have)
+        return 0;
+    L->skip_rows_until = r->end_off;
+    if (L->o->in.live) {
+        if (r->t0 > 0) {
+            L->offset0_s = L->start_utc - r->t0;
+            if (L->offset0_s < r->end_off)
+                L->offset0_s = r->end_off; /* a clock set back must not make offsets overlap */
+            L->start_utc -= L->offset0_s;
+        }
+    } else if (L->info->frames >= 0 && llround(r->end_off * L->rate) >= L->info->frames) {
+        return 1; /* already complete */
+    }
+    char why[200];
+    int64_t pos = 0, origin = 0;
+    const int st = ml_log_load_state(L, &pos, &origin, why, sizeof why);
+    if (st > 1)
+        return st;
+    if (st == 1 && !L->o->in.live && ml_log_offset_of(L, pos) <= r->end_off + 0.5 / L->rate) {
+        L->pos = pos;
+        L->origin = origin;
+    } else {
+        if (st == 1) { /* a state that lies after the rows (cannot happen: it follows them) */
+            free(L->state_text);
+            L->state_text = NULL;
+        }
+        if (!L->o->in.live)
+            L->pos = L->origin = llround(r->end_off * L->rate);
+        if (L->state_text == NULL) {
+            L->resumed_fresh = true;
+            snprintf(L->resume_note, sizeof L->resume_note, "detectors started afresh (%.150s)",
+                     why[0] ? why : "no saved state");
+            /* events are written when they end, so not in start order: the latest start of any line */
+            double v;
+            if (ml_logfile_max_field(L->events_path, 2, 2, &v) == ML_OK)
+                L->skip_events_until = v;
+        }
+    }
+    if (!L->o->in.live && L->pos > 0 && ml_source_seek(L->src, L->pos) != ML_OK)
+        return ml_cli_error("%s: cannot continue at %.3f s: %s", L->name, (double)L->pos / L->rate,
+                            ml_source_detail(L->src));
+    return 0;
+}
+
+/* The basics of the input, every check, the objects, the files (looked at, not yet written). */
 static int setup(ml_logger *L, const ml_log_opts *o, ml_source *src, double start_utc)
 {
     L->o = o;
     L->src = src;
     L->start_utc = start_utc;
-    L->carrier_hz = L->reference_c = NAN;
+    L->carrier_hz = L->reference_c = L->carrier_amp = NAN;
+    L->mains_given = o->an.audio.mains_hz > 0;
     L->mains_hz = o->an.audio.mains_hz;
-    L->skip_events_until = -INFINITY;
+    L->skip_events_until = L->skip_rows_until = -INFINITY;
     L->imp_counted = -1;
     L->info = ml_source_get_info(src);
     L->rate = L->info->rate_hz;
     L->is_complex = o->in.kind == ML_KIND_IQ;
     L->is_if = o->in.kind == ML_KIND_IF;
-    const char *name = o->in.live ? o->in.device : o->in.path;
+    L->name = o->in.live ? (o->in.device ? o->in.device : "default") : o->in.path;
     if (ml_channels_map(L->info->channels, o->in.channel, L->is_complex, o->in.swap_iq, 0, &L->ch) != ML_OK)
-        return ml_cli_error("%s: --channel %ld%s but the input has %d channel%s", name, o->in.channel,
+        return ml_cli_error("%s: --channel %ld%s but the input has %d channel%s", L->name, o->in.channel,
                             L->is_complex ? " (and the next, for iq)" : "", L->info->channels,
                             L->info->channels == 1 ? "" : "s");
     if ((L->is_complex || L->is_if) && !isnan(o->an.carrier_hz)
         && !(fabs(o->an.carrier_hz) < L->rate / 2 && (L->is_complex || o->an.carrier_hz > 0)))
         return ml_cli_error("--carrier %.1f Hz is outside the input's band (rate %.0f Hz)", o->an.carrier_hz,
                             L->rate);
+    if (o->have_cal && !L->is_complex && !L->is_if)
+        return ml_cli_error("%s: --fullscale-dbm and --rf-hz apply to an IF or I/Q input (this one is audio)",
+                            L->name);
     L->ival_frames = (int64_t)llround(o->interval_s * L->rate);
     if (L->ival_frames < 256)
         return ml_cli_error("%s: --interval %.3f s is only %lld frames at %.0f Hz (at least 256 needed)",
-                            name, o->interval_s, (long long)L->ival_frames, L->rate);
+                            L->name, o->interval_s, (long long)L->ival_frames, L->rate);
+    int rc = apply_timezone(o, L->tz, sizeof L->tz);
+    if (rc != 0)
+        return rc;
     ml_status st = ml_log_make_objects(L);
     if (st != ML_OK)
-        return ml_cli_error("%s: %s", name, ml_strerror(st));
-    if (o->plot) {
-        ml_history_config hc = ml_history_config_default();
-        hc.nrows = ML_LOG_SG_ROWS;
-        if (ml_history_create(&hc, &L->sgram) != ML_OK)
-            return ml_cli_error("%s: out of memory", o->plot);
-        ml_log_sgram_bands(L);
-    }
+        return ml_cli_error("%s: %s", L->name, ml_strerror(st));
+    if ((rc = ml_log_make_meta(L)) != 0)
+        return rc;
+    last_row r = {0};
+    if ((rc = continue_files(L, &r)) != 0 || (rc = check_plot(L)) != 0)
+        return rc;
     ml_log_reset_interval(L);
-    int rc = continue_files(L);
-    if (rc == 0)
-        rc = setup_carrier(L);
-    L->imp_base = L->pos;
-    return rc;
+    if ((rc = resume(L, &r)) != 0)
+        return rc;
+    if ((rc = setup_carrier(L)) != 0)
+        return rc;
+    L->imp_base = L->imp_judged = L->pos;
+    ml_log_listen_setup(L);
+    if ((rc = ml_log_restore_state(L)) != 0)
+        return rc;
+    ml_log_start_modulation(L);
+    return ml_log_begin_outputs(L);
 }
 
 static void pace(const ml_logger *L, const struct timespec *t0, int64_t frames)
@@ -407,11 +704,7 @@ static void pace(const ml_logger *L, const struct timespec *t0, int64_t frames)
 /* Frames the input lost (live overflow): a marked gap, and the detectors start afresh after it. */
 static int gap(ml_logger *L, uint64_t lost)
 {
-    size_t nev = 0;
-    ml_impulse_finish(L->imp, L->ev, ML_LOG_EV_CAP, &nev);
-    int rc = ml_log_impulse_events(L, nev);
-    if (rc == 0)
-        rc = ml_log_flush_impulses(L);
+    int rc = ml_log_listen_finish(L, NULL);
     char det[80];
     snprintf(det, sizeof det, "%llu frames lost (input overflow)", (unsigned long long)lost);
     if (rc == 0)
@@ -419,8 +712,7 @@ static int gap(ml_logger *L, uint64_t lost)
     snprintf(L->note, sizeof L->note, "gap");
     if (rc == 0)
         rc = ml_log_advance(L, NULL, (size_t)lost);
-    ml_impulse_reset(L->imp);
-    L->imp_base = L->pos;
+    ml_log_listen_gap(L);
     return rc;
 }
 
@@ -477,29 +769,40 @@ static int stream(ml_logger *L, const char **why, char *reason, size_t rlen)
     return rc;
 }
 
+/* The picture into the output checked at the start, published alone. */
+static int write_plot(ml_logger *L)
+{
+    const ml_log_opts *o = L->o;
+    char err[512], title[1200];
+    const char *bad = o->plot;
+    FILE *f = NULL;
+    snprintf(title, sizeof title, "%s: level history (this file) and spectrogram (this run)", L->name);
+    const ml_logplot_spec ps = {L->sgram, L->band_hz, !L->is_complex, ml_spectrum_full_scale_power(L->spec), title};
+    ml_status st = ml_output_begin(L->plot_out, &f, err, sizeof err);
+    if (st == ML_OK && (st = ml_logplot_write(f, o->plot, L->rows_path, L->events_path, &ps, err, sizeof err)) != ML_OK)
+        ml_output_discard(L->plot_out);
+    else if (st == ML_OK)
+        st = ml_output_end(L->plot_out, err, sizeof err);
+    if (st == ML_OK)
+        st = ml_output_set_commit(L->plot_set, &bad, err, sizeof err);
+    return st == ML_OK ? 0 : ml_cli_error("%s: %s", bad ? bad : o->plot, err);
+}
+
 /* The end: the input-end event, the last row, the summary and the picture. */
 static int conclude(ml_logger *L, int rc, const char *why, const char *reason)
 {
-    const ml_log_opts *o = L->o;
-    const char *name = o->in.live ? o->in.device : o->in.path;
     if (rc == 0 && reason[0])
         rc = ml_log_write_event(L, ML_LOG_END, L->pos, L->pos, NAN, NAN, reason);
     if (rc == 0)
-        rc = ml_log_finish(L, reason[0] ? reason : (g_stop ? why : NULL));
+        rc = ml_log_finish(L, reason[0] ? reason : (g_stop ? why : NULL), why);
     if (rc == 0 || !L->wrote_error) {
         ml_log_print_summary(L, stdout, why);
         fflush(stdout);
     }
-    if (rc == 0 && o->plot) {
-        char err[512], title[1200];
-        snprintf(title, sizeof title, "%s: level history (this file) and spectrogram (this run)", name);
-        const ml_logplot_spec ps = {L->sgram, L->band_hz, !L->is_complex,
-                                    ml_spectrum_full_scale_power(L->spec), title};
-        if (ml_logplot_write(o->plot, L->rows_path, L->events_path, &ps, err, sizeof err) != ML_OK)
-            rc = ml_cli_error("%s: %s", o->plot, err);
-    }
+    if (rc == 0 && L->o->plot)
+        rc = write_plot(L);
     if (rc == 0 && reason[0]) {
-        fprintf(stderr, "modlens: %s: %s\n", name, reason);
+        ml_cli_error("%s: %s", L->name, reason);
         rc = ML_EXIT_FAIL;
     }
     return rc;

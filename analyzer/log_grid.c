@@ -7,9 +7,11 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "analyzer/log_internal.h"
 #include "dsp/carrier.h"
+#include "dsp/figures.h"
 #include "dsp/noisefloor.h"
 #include "dsp/resolution.h"
 #include "dsp/rf.h"
@@ -19,17 +21,24 @@ double ml_log_offset_of(const ml_logger *L, int64_t pos)
     return L->offset0_s + (double)pos / L->rate;
 }
 
-/* The change detectors: hum over floor (not for iq), noise floor, carrier loss (if/iq). */
+int64_t ml_log_pos_of(const ml_logger *L, double offset_s)
+{
+    return (int64_t)llround((offset_s - L->offset0_s) * L->rate);
+}
+
+/* The change detectors: hum over floor (not for iq), noise floor, carrier loss (if/iq), the
+ * broadband level. */
 static ml_status make_detectors(ml_logger *L)
 {
     const ml_log_opts *o = L->o;
     const double step_rate = (double)L->steps_per_ival / o->interval_s;
-    const double thr[3] = {o->hum_db, o->noise_db, o->loss_db};
-    for (int w = 0; w < 3; w++) {
-        if ((w == 0 && L->is_complex) || (w == 2 && !L->is_if && !L->is_complex))
+    const double thr[ML_LOG_NCHG] = {o->hum_db, o->noise_db, o->loss_db, o->level_db};
+    for (int w = 0; w < ML_LOG_NCHG; w++) {
+        L->chg_peak[w] = L->chg_old_start[w] = L->chg_old_in[w] = NAN;
+        if ((w == ML_CHG_HUM && L->is_complex) || (w == ML_CHG_CARRIER && !L->is_if && !L->is_complex))
             continue;
-        ml_change_config cc = ml_change_config_default(step_rate, w == 2 ? -1 : 1, thr[w]);
-        cc.min_s = w == 2 ? 0.5 : 1.0;
+        ml_change_config cc = ml_change_config_default(step_rate, w == ML_CHG_CARRIER ? -1 : 1, thr[w]);
+        cc.min_s = w == ML_CHG_CARRIER ? 0.5 : 1.0;
         if (cc.baseline_s * step_rate < 1)
             cc.baseline_s = 1.0 / step_rate;
         if (cc.warmup_s > cc.baseline_s)
@@ -37,7 +46,6 @@ static ml_status make_detectors(ml_logger *L)
         ml_status st = ml_change_create(&cc, &L->chg[w]);
         if (st != ML_OK)
             return st;
-        L->chg_peak[w] = NAN;
     }
     return ML_OK;
 }
@@ -47,11 +55,7 @@ ml_status ml_log_make_objects(ml_logger *L)
     const double rate = L->rate;
     ml_aweight_config ac = ml_aweight_config_default(rate);
     ml_status st = ml_aweight_create(&ac, &L->aw);
-    if (st != ML_OK)
-        return st;
-    ml_impulse_config ic = ml_impulse_config_default(rate);
-    ic.threshold_db = L->o->impulse_db;
-    if ((st = ml_impulse_create(&ic, &L->imp)) != ML_OK)
+    if (st != ML_OK || (st = ml_log_listen_create(L)) != ML_OK)
         return st;
     /* steps: the power of two <= rate/5 and <= the interval; K steps tile each interval */
     size_t nfft = 256;
@@ -86,8 +90,8 @@ ml_status ml_log_make_objects(ml_logger *L)
 void ml_log_free_objects(ml_logger *L)
 {
     ml_aweight_destroy(L->aw);
-    ml_impulse_destroy(L->imp);
-    for (int w = 0; w < 3; w++)
+    ml_log_listen_destroy(L);
+    for (int w = 0; w < ML_LOG_NCHG; w++)
         ml_change_destroy(L->chg[w]);
     ml_spectrum_destroy(L->spec);
     ml_modulation_destroy(L->mod);
@@ -102,6 +106,17 @@ void ml_log_free_objects(ml_logger *L)
     ml_logfile_close(L->rows);
     ml_logfile_close(L->events);
     ml_history_destroy(L->sgram);
+    ml_output_set_destroy(L->plot_set);
+    free(L->rows_path);
+    free(L->events_path);
+    free(L->state_path);
+    free(L->meta);
+    free(L->seen);
+    free(L->row_a);
+    free(L->row_b);
+    free(L->snap);
+    free(L->tmp);
+    free(L->state_text);
 }
 
 void ml_log_reset_interval(ml_logger *L)
@@ -111,7 +126,7 @@ void ml_log_reset_interval(ml_logger *L)
     L->data_frames = L->lost_frames = 0;
     L->impulses = 0;
     memset(L->psd_sum, 0, L->nbins * sizeof *L->psd_sum);
-    L->nspectra = 0;
+    L->nspectra = L->nsegments = 0;
     L->note[0] = '\0';
 }
 
@@ -121,6 +136,7 @@ void ml_log_set_carrier(ml_logger *L, double hz, double amplitude)
 {
     L->carrier_hz = hz;
     L->carrier_amp = amplitude;
+    ml_log_listen_setup(L);
 }
 
 /* The analysis for the carrier found, once (an interval too short for the channel filter, or a
@@ -201,20 +217,29 @@ static double carrier_value(ml_logger *L)
 /* End of a step: one value per change detector (NaN without a complete spectrum). */
 static int step_done(ml_logger *L)
 {
-    double value[3] = {NAN, NAN, NAN}, level[3] = {NAN, NAN, NAN};
+    double value[ML_LOG_NCHG] = {NAN, NAN, NAN, NAN}, level[ML_LOG_NCHG] = {NAN, NAN, NAN, NAN};
+    /* the broadband level: the mean square of the second difference of what the listener heard
+     * in the step (events report the step's plain level) */
+    if (L->hf_n > 0 && L->hf_sum > 0)
+        value[ML_CHG_LEVEL] = ml_power_dbfs(L->hf_sum / (double)L->hf_n);
+    if (L->step_n > 0 && L->step_sumsq > 0)
+        level[ML_CHG_LEVEL] = ml_power_dbfs(L->step_sumsq / (double)L->step_n);
+    L->hf_sum = 0;
+    L->hf_n = 0;
     if (ml_spectrum_segments(L->spec) > 0 && ml_spectrum_get_psd(L->spec, L->psd, L->nbins) == ML_OK) {
         for (size_t k = 0; k < L->nbins; k++)
             L->psd_sum[k] += L->psd[k];
         L->nspectra++;
+        L->nsegments += ml_spectrum_segments(L->spec);
         size_t lo, hi;
         ml_noisefloor_band(L->spec, &lo, &hi);
         const double fl = ml_noisefloor_dbfs_hz(L->spec, L->psd, lo, hi, L->scratch);
         value[1] = fl;
         level[1] = L->step_n > 0 ? ml_power_dbfs(L->step_sumsq / (double)L->step_n) : NAN;
         if (!L->is_complex)
-            hum_value(L, fl, &value[0], &level[0]);
+            hum_value(L, fl, &value[ML_CHG_HUM], &level[ML_CHG_HUM]);
         if (L->is_if || L->is_complex)
-            level[2] = value[2] = carrier_value(L);
+            level[ML_CHG_CARRIER] = value[ML_CHG_CARRIER] = carrier_value(L);
     }
     ml_spectrum_reset(L->spec);
     L->step_sumsq = 0;
@@ -276,9 +301,7 @@ static int take_data(ml_logger *L, const float *b, size_t m)
         L->step_sumsq += (double)L->mono[i] * L->mono[i];
     }
     L->step_n += (int64_t)m;
-    size_t nev = 0;
-    ml_impulse_push(L->imp, L->mono, m, L->ev, ML_LOG_EV_CAP, &nev);
-    return ml_log_impulse_events(L, nev);
+    return ml_log_listen_push(L, b, m);
 }
 
 /* The chunk's samples to the step spectrum (the analysed column, or I/Q). */
@@ -296,14 +319,23 @@ static void step_spectrum(ml_logger *L, const float *b, size_t m)
     ml_spectrum_push_complex_float_tagged(L->spec, L->pairs, NULL, m);
 }
 
-/* The end of an interval: its row, and the next interval starts. */
+/* The end of an interval: its row, and the next interval starts; now and then the detectors'
+ * state (saved once the row is out). */
 static int interval_done(ml_logger *L)
 {
     ml_modulation_result r;
-    int rc = ml_log_write_row(L, end_span(L, &r));
+    int rc = ml_log_row(L, end_span(L, &r));
     L->ipos = 0;
     ml_log_reset_interval(L);
     ml_spectrum_reset(L->spec);
+    struct timespec now;
+    clock_gettime(CLOCK_MONOTONIC, &now);
+    const double t = (double)now.tv_sec + 1e-9 * (double)now.tv_nsec;
+    if (rc == 0 && t - L->state_wall >= ML_LOG_STATE_EVERY_S && ml_log_offset_of(L, L->pos) > L->skip_rows_until) {
+        rc = ml_log_snapshot(L, false);
+        if (rc == 0 && !L->row_pending)
+            rc = ml_log_save_state(L);
+    }
     return rc;
 }
 
@@ -347,23 +379,21 @@ int ml_log_advance(ml_logger *L, const float *buf, size_t n)
     return 0;
 }
 
-int ml_log_finish(ml_logger *L, const char *end_note)
+int ml_log_finish(ml_logger *L, const char *end_note, const char *why)
 {
-    size_t nev = 0;
-    ml_impulse_finish(L->imp, L->ev, ML_LOG_EV_CAP, &nev);
-    int rc = ml_log_impulse_events(L, nev);
-    if (rc == 0)
-        rc = ml_log_flush_impulses(L);
-    for (int w = 0; w < 3 && rc == 0; w++)
-        if (L->chg[w]) {
-            ml_change_finish(L->chg[w], L->ev, ML_LOG_EV_CAP, &nev);
-            rc = ml_log_change_events(L, w, nev);
-        }
+    int rc = ml_log_close_events(L, why);
     if (end_note)
         snprintf(L->note, sizeof L->note, "%s", end_note);
     if (rc == 0 && L->ipos > 0) {
         ml_modulation_result r;
-        rc = ml_log_write_row(L, end_span(L, &r));
+        rc = ml_log_row(L, end_span(L, &r));
     }
+    if (rc == 0)
+        rc = ml_log_release_row(L, true);
+    /* the state at the stop: baselines kept, every event closed */
+    if (rc == 0 && ml_log_offset_of(L, L->pos) > L->skip_rows_until)
+        rc = ml_log_snapshot(L, true);
+    if (rc == 0)
+        rc = ml_log_save_state(L);
     return rc;
 }

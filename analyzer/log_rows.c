@@ -1,9 +1,10 @@
-/* The log's output files (names, rotation, continuation) and its rows.
+/* The log's output files (names, checks, rotation, continuation) and its rows.
  * SPDX-License-Identifier: MIT
  *
- * A row's modulation columns carry measure's figures of the interval under the registry's names
- * (analyzer/values.h, values and decimals as in the reports); the other columns are the log's own
- * (README "Logging noise and interference" defines each).
+ * A row's modulation and quasi-peak columns carry measure's figures of the interval under the
+ * registry's names (analyzer/values.h, values and decimals as in the reports); the other columns
+ * are the log's own (README "Logging noise and interference" defines each). Every field is
+ * written through io/csv.h (RFC 4180 quoting).
  */
 #define _POSIX_C_SOURCE 200809L
 #include <errno.h>
@@ -12,24 +13,34 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <unistd.h>
 
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/log_internal.h"
 #include "analyzer/values.h"
 #include "dsp/figures.h"
+#include "dsp/mmnoise.h"
 #include "dsp/noisefloor.h"
-#include "io/output.h"
+#include "dsp/order.h"
+#include "io/csv.h"
 
-/* The columns before and after the modulation figures. */
+#define MAINS_LINE 10.0     /* a mains line stands 10 dB above the median of its range          */
+#define MAINS_DECIDE_S 0.0  /* ... for this long to decide the mains: the first clear line       */
+#define MAINS_CHANGE_S 60.0 /* ... and for this long to change a decided one (with an event)    */
+
+/* The columns before the modulation figures. */
 static const char LEAD_HEADER[] =
-    "start_utc,offset_s,duration_s,rms_dbfs,peak_dbfs,a_weighted_dbfs,crest_db,mains_hz,hum_dbfs,"
+    "start_utc,start_local,offset_s,duration_s,rms_dbfs,peak_dbfs,a_weighted_dbfs,crest_db,mains_hz,hum_dbfs,"
     "hum_h1_dbfs,hum_h2_dbfs,hum_h3_dbfs,hum_h4_dbfs,hum_h5_dbfs,hum_h6_dbfs,noise_floor_dbfs_hz,impulses,"
     "lost_s";
-static const char EVENT_HEADER[] = "start_utc,start_offset_s,end_offset_s,kind,peak_dbfs,rise_db,detail";
+static const char EVENT_HEADER[] =
+    "start_utc,start_local,start_offset_s,end_offset_s,kind,peak_dbfs,rise_db,rate_hz,detail";
 
-/* The modulation figures of a row (if/iq), registered names: measure's definitions, applied to
- * the interval. carrier_reference (the source of C) follows unmodulated_dbfs. */
+/* Registered figures of a row: the quasi-peak readings (if/iq), then after the absolute noise the
+ * modulation figures (if/iq): measure's definitions, applied to the interval. carrier_reference
+ * (the source of C) follows unmodulated_dbfs. */
+static const char *const QP_COLUMNS[] = {"interference.qp_dbfs", "interference.av_dbfs"};
 static const char *const MOD_COLUMNS[] = {
     "carrier.frequency_hz", "carrier.level_dbfs", "carrier.unmodulated_dbfs", "carrier.cnr_db",
     "modulation.index", "modulation.positive_peak_pct", "modulation.negative_peak_pct",
@@ -38,12 +49,14 @@ static const char *const MOD_COLUMNS[] = {
 };
 #define NMOD (sizeof MOD_COLUMNS / sizeof *MOD_COLUMNS)
 
-/* The rows' header: the lead columns, the modulation columns under their short names, note. */
-static const char *row_header(void)
+const char *ml_log_rows_header(const ml_analysis_opts *an)
 {
     static char h[1024];
     if (h[0] == '\0') {
         size_t n = (size_t)snprintf(h, sizeof h, "%s", LEAD_HEADER);
+        for (size_t i = 0; i < 2; i++)
+            n += (size_t)snprintf(h + n, sizeof h - n, ",%s", ml_values_short_name(QP_COLUMNS[i]));
+        n += (size_t)snprintf(h + n, sizeof h - n, ",fa_db,noise_environment,environment_distance_db");
         for (size_t i = 0; i < NMOD; i++) {
             n += (size_t)snprintf(h + n, sizeof h - n, ",%s", ml_values_short_name(MOD_COLUMNS[i]));
             if (i == 2)
@@ -51,113 +64,261 @@ static const char *row_header(void)
         }
         snprintf(h + n, sizeof h - n, ",note");
     }
-    return h;
+    return ml_bench_log_header(an, h); /* with a calibration: the level columns in dBu */
+}
+
+const char *ml_log_events_header(void)
+{
+    return EVENT_HEADER;
+}
+
+char *ml_log_head(const ml_logger *L, bool events)
+{
+    const char *h = events ? EVENT_HEADER : ml_log_rows_header(&L->o->an);
+    const size_t n = strlen(L->meta) + strlen(h) + 3;
+    char *s = malloc(n);
+    if (s)
+        snprintf(s, n, "%s\n%s\n", L->meta, h);
+    return s;
+}
+
+/* ---- times ------------------------------------------------------------------------------------- */
+
+/* Whole seconds and milliseconds of t, rounded to the millisecond. */
+static time_t split_ms(double t, long *ms)
+{
+    double whole = floor(t);
+    *ms = lround((t - whole) * 1000.0);
+    if (*ms >= 1000) {
+        whole += 1;
+        *ms = 0;
+    }
+    return (time_t)whole;
 }
 
 void ml_log_format_utc(double t, char *b, size_t n)
 {
-    double whole = floor(t);
-    long ms = lround((t - whole) * 1000.0);
-    if (ms == 1000) {
-        whole += 1;
-        ms = 0;
-    }
-    time_t tt = (time_t)whole;
+    long ms;
+    const time_t tt = split_ms(t, &ms);
     struct tm tm;
     gmtime_r(&tt, &tm);
     char day[32];
     strftime(day, sizeof day, "%Y-%m-%dT%H:%M:%S", &tm);
-    snprintf(b, n, "%s.%03ldZ", day, ms % 1000);
+    snprintf(b, n, "%s.%03ldZ", day, ms);
 }
 
-/* "dir/name.csv" + "-events" -> "dir/name-events.csv" (inserted before the extension). */
-static void insert_before_ext(const char *path, const char *ins, char *out, size_t n)
+void ml_log_format_local(double t, char *b, size_t n)
 {
-    const char *slash = strrchr(path, '/'), *dot = strrchr(path, '.');
-    if (dot == NULL || (slash && dot < slash) || dot == (slash ? slash + 1 : path))
-        snprintf(out, n, "%s%s", path, ins);
+    long ms;
+    const time_t tt = split_ms(t, &ms);
+    struct tm tm;
+    localtime_r(&tt, &tm);
+    char day[32];
+    strftime(day, sizeof day, "%Y-%m-%dT%H:%M:%S", &tm);
+    const long off = tm.tm_gmtoff, a = labs(off);
+    if (a % 60 != 0)
+        snprintf(b, n, "%s.%03ld%c%02ld:%02ld:%02ld", day, ms, off < 0 ? '-' : '+', a / 3600, a / 60 % 60, a % 60);
     else
-        snprintf(out, n, "%.*s%s%s", (int)(dot - path), path, ins, dot);
+        snprintf(b, n, "%s.%03ld%c%02ld:%02ld", day, ms, off < 0 ? '-' : '+', a / 3600, a / 60 % 60);
 }
+
+/* ---- files ------------------------------------------------------------------------------------- */
 
 int64_t ml_log_period_of(const ml_log_opts *o, double utc)
 {
     return o->rotate_h > 0 ? (int64_t)floor(utc / (o->rotate_h * 3600.0)) : 0;
 }
 
-void ml_log_paths_for(const ml_log_opts *o, int64_t period, char *rows, char *events, size_t n)
+/* "dir/name.csv" + ins -> "dir/name<ins>.csv" (inserted before the extension), allocated. */
+static char *insert_before_ext(const char *path, const char *ins)
 {
-    char base[1100];
-    if (o->rotate_h > 0) {
-        char stamp[40], iso[40];
-        ml_log_format_utc((double)period * o->rotate_h * 3600.0, iso, sizeof iso);
-        /* 2026-12-02T13:00:00.000Z -> 20261202T130000Z */
-        size_t k = 0;
-        for (const char *p = iso; *p && *p != '.' && k + 1 < sizeof stamp; p++)
-            if (*p != '-' && *p != ':')
-                stamp[k++] = *p;
-        stamp[k++] = 'Z';
-        stamp[k] = '\0';
-        char ins[48];
-        snprintf(ins, sizeof ins, "-%s", stamp);
-        insert_before_ext(o->out, ins, base, sizeof base);
-    } else {
-        snprintf(base, sizeof base, "%s", o->out);
-    }
-    snprintf(rows, n, "%s", base);
-    if (o->events && o->rotate_h <= 0)
-        snprintf(events, n, "%s", o->events);
-    else if (o->events) {
-        char ins[48];
-        const char *dash = strrchr(base, '-');
-        snprintf(ins, sizeof ins, "%.*s", dash ? (int)strcspn(dash, ".") : 0, dash ? dash : "");
-        insert_before_ext(o->events, ins, events, n);
-    } else
-        insert_before_ext(base, "-events", events, n);
+    const char *slash = strrchr(path, '/'), *dot = strrchr(path, '.');
+    const size_t n = strlen(path) + strlen(ins) + 1;
+    char *out = malloc(n);
+    if (out == NULL)
+        return NULL;
+    if (dot == NULL || (slash && dot < slash) || dot == (slash ? slash + 1 : path))
+        snprintf(out, n, "%s%s", path, ins);
+    else
+        snprintf(out, n, "%.*s%s%s", (int)(dot - path), path, ins, dot);
+    return out;
 }
 
-bool ml_log_csv_field(const char *line, int i, char *b, size_t n)
+/* "-YYYYMMDDTHHMMSSZ" of a rotation period, or "" without rotation. */
+static void stamp_of(const ml_log_opts *o, int64_t period, char *b, size_t n)
 {
-    for (; i > 0; i--) {
-        line = strchr(line, ',');
-        if (line == NULL)
-            return false;
-        line++;
+    if (o->rotate_h <= 0) {
+        b[0] = '\0';
+        return;
     }
-    size_t len = strcspn(line, ",");
-    if (len >= n)
-        len = n - 1;
-    memcpy(b, line, len);
-    b[len] = '\0';
-    return true;
+    char iso[40];
+    ml_log_format_utc((double)period * o->rotate_h * 3600.0, iso, sizeof iso);
+    /* 2026-12-02T13:00:00.000Z -> -20261202T130000Z */
+    size_t k = 0;
+    b[k++] = '-';
+    for (const char *p = iso; *p && *p != '.' && k + 2 < n; p++)
+        if (*p != '-' && *p != ':')
+            b[k++] = *p;
+    b[k++] = 'Z';
+    b[k] = '\0';
+}
+
+char *ml_log_rows_path(const ml_logger *L, int64_t period)
+{
+    char st[48], ins[80];
+    stamp_of(L->o, period, st, sizeof st);
+    snprintf(ins, sizeof ins, "%s%s", L->suffix, st);
+    return insert_before_ext(L->o->out, ins);
+}
+
+char *ml_log_events_path(const ml_logger *L, int64_t period)
+{
+    char st[48], ins[80];
+    stamp_of(L->o, period, st, sizeof st);
+    snprintf(ins, sizeof ins, "%s%s%s", L->suffix, st, L->o->events ? "" : "-events");
+    return insert_before_ext(L->o->events ? L->o->events : L->o->out, ins);
+}
+
+char *ml_log_state_path(const ml_logger *L)
+{
+    char *base = insert_before_ext(L->o->out, L->suffix);
+    if (base == NULL)
+        return NULL;
+    const size_t n = strlen(base) + 8;
+    char *s = malloc(n);
+    if (s)
+        snprintf(s, n, "%s.state", base);
+    free(base);
+    return s;
+}
+
+/* Registers the files the log reads and writes: the input and the carrier reference, the rows,
+ * events and state files (never begun in this set: they are appended to or replaced elsewhere),
+ * and --plot. */
+ml_status ml_log_register(const ml_logger *L, ml_output_set *set, const char *rows, const char *events,
+                          ml_output **plot)
+{
+    ml_output *unused;
+    ml_status st = ml_output_set_input(set, L->o->in.live ? NULL : L->o->in.path, "the input");
+    if (st == ML_OK)
+        st = ml_output_set_input(set, L->o->an.carrier_reference, "the carrier reference");
+    if (st == ML_OK)
+        st = ml_output_set_add(set, rows, "--out", 0, &unused);
+    if (st == ML_OK)
+        st = ml_output_set_add(set, events, "--events", 0, &unused);
+    if (st == ML_OK)
+        st = ml_output_set_add(set, L->state_path, "the log's state", 0, &unused);
+    if (st == ML_OK)
+        st = ml_output_set_add(set, L->o->plot, "--plot", 0, plot);
+    return st;
+}
+
+int ml_log_check_paths(ml_logger *L, const char *rows, const char *events)
+{
+    ml_output_set *set = NULL;
+    ml_output *plot = NULL;
+    const char *bad = rows;
+    char err[512] = "";
+    ml_status st = ml_output_set_create(&set);
+    if (st == ML_OK)
+        st = ml_log_register(L, set, rows, events, &plot);
+    if (st == ML_OK)
+        st = ml_output_set_check(set, &bad, err, sizeof err);
+    ml_output_set_destroy(set);
+    if (st != ML_OK)
+        return ml_cli_error("%s: %s", bad ? bad : rows, err[0] ? err : ml_strerror(st));
+    return 0;
+}
+
+/* Why an existing file cannot be continued, as one error. */
+static int refuse(const ml_logger *L, const ml_logfile *f, bool events)
+{
+    const char *what = events ? "--events" : "--out";
+    const char *path = ml_logfile_path(f);
+    if (ml_logfile_get_match(f) == ML_LOGFILE_FOREIGN)
+        return ml_cli_error("%s: holds something other than a modlens log (its first line is not '%s ...'); "
+                            "nothing was changed: choose another %s",
+                            path, ML_LOG_PREFIX, what);
+    char why[400];
+    ml_log_meta_diff(L, ml_logfile_line(f, 0), why, sizeof why);
+    const char *cols = events ? EVENT_HEADER : ml_log_rows_header(&L->o->an);
+    if (why[0] == '\0' && strcmp(ml_logfile_line(f, 1), cols) != 0)
+        snprintf(why, sizeof why, "it has other columns");
+    return ml_cli_error("%s: holds a log of something else (%s); nothing was changed: choose another %s%s", path,
+                        why[0] ? why : "its start differs", what, L->o->new_log ? "" : " or give --new-log");
 }
 
 int ml_log_open_outputs(ml_logger *L, int64_t period, char *last_row, size_t last_len)
 {
-    char err[512], last_ev[4096];
     ml_logfile_close(L->rows);
     ml_logfile_close(L->events);
     L->rows = L->events = NULL;
-    ml_log_paths_for(L->o, period, L->rows_path, L->events_path, sizeof L->rows_path);
-    if (strcmp(L->rows_path, L->events_path) == 0 || ml_same_file(L->rows_path, L->events_path))
-        return ml_cli_error("%s: --out and --events name the same file", L->rows_path);
-    const char *in = L->o->in.live ? NULL : L->o->in.path;
-    if (in && (ml_same_file(L->rows_path, in) || ml_same_file(L->events_path, in)))
-        return ml_cli_error("%s: refusing to write the log over the input file", L->rows_path);
-    ml_status st = ml_logfile_open(L->rows_path, ml_bench_log_header(&L->o->an, row_header()), &L->rows,
-                                   last_row, last_len, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", L->rows_path, err);
-    st = ml_logfile_open(L->events_path, EVENT_HEADER, &L->events, last_ev, sizeof last_ev, err, sizeof err);
-    if (st != ML_OK)
-        return ml_cli_error("%s: %s", L->events_path, err);
-    /* events are written when they end, so not in start order: the latest start of any line */
-    double v;
-    if (last_ev[0] && ml_logfile_max_field(L->events_path, 1, &v) == ML_OK && v > L->skip_events_until)
-        L->skip_events_until = v;
+    free(L->rows_path);
+    free(L->events_path);
+    L->rows_path = ml_log_rows_path(L, period);
+    L->events_path = ml_log_events_path(L, period);
+    char *hr = ml_log_head(L, false), *he = ml_log_head(L, true);
+    int rc = 0;
+    char err[512];
+    if (!L->rows_path || !L->events_path || !hr || !he)
+        rc = ml_cli_error("%s: out of memory", L->name);
+    if (rc == 0)
+        rc = ml_log_check_paths(L, L->rows_path, L->events_path);
+    if (rc == 0 && ml_logfile_attach(L->rows_path, hr, ML_LOG_PREFIX, &L->rows, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", L->rows_path, err);
+    if (rc == 0 && ml_logfile_attach(L->events_path, he, ML_LOG_PREFIX, &L->events, err, sizeof err) != ML_OK)
+        rc = ml_cli_error("%s: %s", L->events_path, err);
+    free(hr);
+    free(he);
+    if (rc != 0)
+        return rc;
+    const ml_logfile_match mr = ml_logfile_get_match(L->rows), me = ml_logfile_get_match(L->events);
+    const ml_logfile *kin = mr == ML_LOGFILE_KIN ? L->rows : me == ML_LOGFILE_KIN ? L->events : NULL;
+    if (kin && !L->o->in.live) {
+        /* the same recording and settings, logged from another start: the log keeps its start */
+        char why[400];
+        ml_log_meta_diff(L, ml_logfile_line(kin, 0), why, sizeof why);
+        const double t = ml_log_meta_start(ml_logfile_line(kin, 0));
+        const bool cols =
+            strcmp(ml_logfile_line(kin, 1), kin == L->rows ? ml_log_rows_header(&L->o->an) : EVENT_HEADER) == 0;
+        if (why[0] == '\0' && cols && isfinite(t)) {
+            char a[40], b[40];
+            ml_log_format_utc(t, a, sizeof a);
+            ml_log_format_utc(L->o->start_utc, b, sizeof b);
+            if (L->o->have_start)
+                return ml_cli_error("%s: holds this recording's log from a start of %s; --start-time says %s", ml_logfile_path(kin), a, b);
+            L->start_utc = t;
+            return ML_LOG_ADOPT_START;
+        }
+    }
+    if ((mr == ML_LOGFILE_KIN || mr == ML_LOGFILE_FOREIGN || me == ML_LOGFILE_KIN) && L->o->new_log)
+        return ML_LOG_TAKEN;
+    if (mr == ML_LOGFILE_KIN || mr == ML_LOGFILE_FOREIGN)
+        return refuse(L, L->rows, false);
+    if (me == ML_LOGFILE_KIN || me == ML_LOGFILE_FOREIGN)
+        return refuse(L, L->events, true);
     L->period = period;
+    snprintf(last_row, last_len, "%s", ml_logfile_last(L->rows));
     return 0;
 }
+
+/* Begins the attached files: the events file first; the rows file only once it is good (a rows
+ * file that cannot begin takes back an events file this run created). */
+int ml_log_begin_outputs(ml_logger *L)
+{
+    char err[512];
+    const bool ev_new = ml_logfile_get_match(L->events) == ML_LOGFILE_ABSENT;
+    if (ml_logfile_begin(L->events, err, sizeof err) != ML_OK)
+        return ml_cli_error("%s: %s", L->events_path, err);
+    if (ml_logfile_begin(L->rows, err, sizeof err) != ML_OK) {
+        if (ev_new)
+            unlink(L->events_path);
+        return ml_cli_error("%s: %s", L->rows_path, err);
+    }
+    return 0;
+}
+
+/* ---- rows -------------------------------------------------------------------------------------- */
 
 void ml_log_fmt_num(char *b, size_t n, double v, int decimals)
 {
@@ -174,133 +335,289 @@ static double level_db(double v)
     return ml_values_in_range("audio.rms_dbfs", v) ? v : NAN;
 }
 
+/* Appends a number cell. */
+static void num_cell(char *b, size_t n, size_t *k, double v, int decimals)
+{
+    char c[40];
+    ml_log_fmt_num(c, sizeof c, v, decimals);
+    ml_csv_append(b, n, k, c);
+}
+
 /* The level columns of the interval: rms, peak, A-weighted, crest (dsp/figures.h). */
-static size_t level_cells(const ml_logger *L, char *b, size_t n)
+static void level_cells(const ml_logger *L, char *b, size_t n, size_t *k)
 {
     double rms = NAN, pk = NAN, aw = NAN, crest = NAN;
     if (L->data_frames > 0) {
         ml_level_figures lv;
         ml_figures_level(&L->st, 1, &lv);
-        rms = lv.rms_dbfs;
-        pk = lv.peak_dbfs;
-        aw = L->asum > 0 ? ml_power_dbfs(L->asum / (double)L->data_frames) : NAN;
+        rms = level_db(lv.rms_dbfs);
+        pk = level_db(lv.peak_dbfs);
+        aw = L->asum > 0 ? level_db(ml_power_dbfs(L->asum / (double)L->data_frames)) : NAN;
         /* 20 lg(peak / sqrt(mean square)); rms_dbfs is 10 lg(mean square / 0.5); NAN when either is */
         crest = pk - rms + 10 * log10(2.0);
         ml_bench_log_levels(&L->o->an, &rms, &pk, &aw);
     }
-    char c[4][24];
-    ml_log_fmt_num(c[0], 24, level_db(rms), 2);
-    ml_log_fmt_num(c[1], 24, level_db(pk), 2);
-    ml_log_fmt_num(c[2], 24, level_db(aw), 2);
-    ml_log_fmt_num(c[3], 24, crest, 2);
-    return (size_t)snprintf(b, n, "%s,%s,%s,%s", c[0], c[1], c[2], c[3]);
+    num_cell(b, n, k, rms, 2);
+    num_cell(b, n, k, pk, 2);
+    num_cell(b, n, k, aw, 2);
+    num_cell(b, n, k, crest, 2);
+}
+
+/* The mains line of the interval's mean spectrum: for k = 1, 2, 3 the strongest bin between
+ * k x 45 and k x 65 Hz, its frequency refined by a parabola through the logarithms of its
+ * neighbours; a line when it stands MAINS_LINE above the median of that range, and a vote for 50
+ * or 60 Hz when it lies within 3 % of k x 50 or k x 60. The strongest line votes (0: none). Hum at
+ * 50 and 60 Hz is 1.7 bins apart at 48 kHz and 8192 points, so the lobes' powers cannot tell them
+ * apart; the line's frequency can. */
+static double mains_vote(const ml_logger *L)
+{
+    const double bin_hz = L->rate / (double)ml_spectrum_nfft(L->spec);
+    double best = 0, vote = 0;
+    for (int k = 1; k <= 3; k++) {
+        const long a = lround(k * 45.0 / bin_hz), b = lround(k * 65.0 / bin_hz);
+        if (a < 2 || b + 1 >= (long)L->nbins || b - a + 1 > 256)
+            continue;
+        double w[256];
+        long m = a;
+        for (long j = a; j <= b; j++) {
+            w[j - a] = L->psd[j];
+            if (L->psd[j] > L->psd[m])
+                m = j;
+        }
+        const size_t n = (size_t)(b - a + 1);
+        const double med = ml_order_median(w, n);
+        if (!(L->psd[m] > MAINS_LINE * med) || m <= a || m >= b)
+            continue;
+        const double y0 = log(L->psd[m - 1]), y1 = log(L->psd[m]), y2 = log(L->psd[m + 1]);
+        const double den = y0 - 2 * y1 + y2, d = den < 0 ? 0.5 * (y0 - y2) / den : 0;
+        const double f = ((double)m + d) * bin_hz / k;
+        const double cand = fabs(f - 50) <= 1.5 ? 50 : fabs(f - 60) <= 1.8 ? 60 : 0;
+        if (cand > 0 && L->psd[m] / med > best) {
+            best = L->psd[m] / med;
+            vote = cand;
+        }
+    }
+    return vote;
+}
+
+/* The mains frequency: decided by the first interval's vote (mains_vote), then held; the other frequency must win every vote for MAINS_CHANGE_S to change it, which is
+ * logged as a mains event. Intervals without a vote do not count either way. */
+static int decide_mains(ml_logger *L, double off, double dur)
+{
+    if (L->mains_given)
+        return 0;
+    const double lead = mains_vote(L);
+    if (lead == 0)
+        return 0;
+    if (lead == L->mains_hz) {
+        L->mains_votes = 0;
+        return 0;
+    }
+    if (L->mains_votes > 0 && L->mains_vote == lead) {
+        L->mains_votes++;
+    } else {
+        L->mains_vote = lead;
+        L->mains_votes = 1;
+        L->mains_vote_s = off;
+    }
+    const double held = off + dur - L->mains_vote_s;
+    if (L->mains_hz == 0 && held >= fmin(MAINS_DECIDE_S, dur) - 1e-9) {
+        L->mains_hz = lead;
+        L->mains_votes = 0;
+    } else if (L->mains_hz > 0 && held >= fmax(MAINS_CHANGE_S, dur) - 1e-9) {
+        char det[160];
+        snprintf(det, sizeof det, "mains %.0f -> %.0f Hz: the hum's lines lay at multiples of %.0f Hz for %.0f s",
+                 L->mains_hz, lead, lead, held);
+        L->mains_hz = lead;
+        L->mains_votes = 0;
+        return ml_log_write_event_at(L, ML_LOG_MAINS, L->mains_vote_s, off + dur, NAN, NAN, NAN, det);
+    }
+    return 0;
 }
 
 /* The hum and floor columns from the interval's mean spectrum (L->psd): mains, hum, its six
- * components and the noise floor. */
-static size_t spectral_cells(ml_logger *L, char *b, size_t n)
+ * components and the noise floor; the floor density in *floor_dbfs_hz. */
+static int spectral_cells(ml_logger *L, double off, double dur, char *b, size_t n, size_t *k,
+                          double *floor_dbfs_hz)
 {
     double mains = NAN, hum = NAN, h[ML_LOG_HUM_N], fl = NAN;
     for (int i = 0; i < ML_LOG_HUM_N; i++)
         h[i] = NAN;
+    int rc = 0;
     if (L->nspectra > 0) {
-        for (size_t k = 0; k < L->nbins; k++)
-            L->psd[k] = L->psd_sum[k] / (double)L->nspectra;
+        for (size_t j = 0; j < L->nbins; j++)
+            L->psd[j] = L->psd_sum[j] / (double)L->nspectra;
         if (!L->is_complex) {
+            rc = decide_mains(L, off, dur);
             ml_audio_result hr;
-            mains = L->mains_hz;
-            if (mains == 0) {
-                /* not given: the frequency whose first four multiples hold more power in this
-                 * interval; fixed for the rest of the log once one leads by 6 dB */
-                ml_audio_result h50, h60;
-                if (ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 50, 4, &h50) == ML_OK
-                    && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, 60, 4, &h60) == ML_OK) {
-                    mains = h60.hum_power > h50.hum_power ? 60.0 : 50.0;
-                    if (h50.hum_power > 4.0 * h60.hum_power || h60.hum_power > 4.0 * h50.hum_power)
-                        L->mains_hz = mains;
-                }
-            }
-            if (mains > 0
-                && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, mains, ML_LOG_HUM_N, &hr) == ML_OK) {
+            if (L->mains_hz > 0
+                && ml_hum_analyze_psd(L->spec, L->psd, L->nbins, L->mains_hz, ML_LOG_HUM_N, &hr) == ML_OK) {
+                mains = L->mains_hz;
                 hum = ml_power_dbfs(hr.hum_power);
                 for (size_t i = 0; i < hr.nhum; i++)
                     if (hr.hum[i].order >= 1 && hr.hum[i].order <= ML_LOG_HUM_N)
                         h[hr.hum[i].order - 1] = ml_power_dbfs(hr.hum[i].power);
             }
-            if (mains == 0)
-                mains = NAN;
         }
         size_t lo, hi;
         ml_noisefloor_band(L->spec, &lo, &hi);
         fl = ml_noisefloor_dbfs_hz(L->spec, L->psd, lo, hi, L->scratch);
     }
-    char c[3][24], hs[ML_LOG_HUM_N][24];
-    ml_log_fmt_num(c[0], 24, mains, 0);
-    ml_log_fmt_num(c[1], 24, level_db(hum), 2);
-    ml_log_fmt_num(c[2], 24, level_db(fl), 2);
+    num_cell(b, n, k, mains, 0);
+    num_cell(b, n, k, level_db(hum), 2);
     for (int i = 0; i < ML_LOG_HUM_N; i++)
-        ml_log_fmt_num(hs[i], 24, level_db(h[i]), 2);
-    return (size_t)snprintf(b, n, "%s,%s,%s,%s,%s,%s,%s,%s,%s", c[0], c[1], hs[0], hs[1], hs[2], hs[3], hs[4],
-                            hs[5], c[2]);
+        num_cell(b, n, k, level_db(h[i]), 2);
+    num_cell(b, n, k, level_db(fl), 2);
+    *floor_dbfs_hz = fl;
+    return rc;
 }
 
-/* The modulation columns: measure's figures of the interval (empty without them). */
-static size_t modulation_cells(const ml_logger *L, const ml_modulation_result *m, char *b, size_t n)
+/* The absolute noise (if/iq with a calibration): Fa and the nearest P.372 environment
+ * (dsp/mmnoise.h) of the floor density. The floor is a median of averaged periodograms; the mean
+ * density lies above it by the median of chi-square(nu)/nu, nu = 2 x the periodograms averaged
+ * (Wilson-Hilferty: (1 - 2/(9 nu))^3; 0.29 dB for nu = 10). */
+static void noise_cells(ml_logger *L, double floor_dbfs_hz, char *b, size_t n, size_t *k)
+{
+    double fa = NAN, dist = NAN;
+    const char *env = "";
+    if (L->o->have_cal && (L->is_if || L->is_complex) && isfinite(floor_dbfs_hz) && L->nsegments > 0) {
+        const double nu = 2.0 * (double)L->nsegments, med = pow(1.0 - 2.0 / (9.0 * nu), 3.0);
+        ml_mmnoise_result r;
+        if (ml_mmnoise_assess(floor_dbfs_hz - 10 * log10(med), L->o->fullscale_dbm, L->o->rf_hz, &r) == ML_OK) {
+            fa = r.fa_db;
+            dist = r.distance_db;
+            env = ml_mmnoise_env_name(r.nearest);
+            const long bin = lround((fa + 100.0) * 10.0);
+            if (bin >= 0 && bin < (long)(sizeof L->fa_hist / sizeof *L->fa_hist))
+                L->fa_hist[bin]++;
+        }
+    }
+    num_cell(b, n, k, fa, 1);
+    ml_csv_append(b, n, k, env);
+    num_cell(b, n, k, dist, 1);
+}
+
+/* The registered figures: quasi-peak, then (after the noise cells) the modulation figures. */
+static void registered_cells(const char *const *names, size_t count, const double *v, char *b, size_t n,
+                             size_t *k)
+{
+    for (size_t i = 0; i < count; i++) {
+        char cell[32];
+        ml_values_format(names[i], v[i], cell, sizeof cell);
+        ml_csv_append(b, n, k, cell);
+    }
+}
+
+static void modulation_cells(const ml_logger *L, const ml_modulation_result *m, char *b, size_t n, size_t *k)
 {
     ml_value v[ML_VALUES_MAX];
     const size_t nv = m ? ml_values_modulation(m, L->o->an.carrier_hz, false, v) : 0;
-    size_t k = 0;
     for (size_t i = 0; i < NMOD; i++) {
-        char cell[32];
-        ml_values_format(MOD_COLUMNS[i], ml_values_find(v, nv, MOD_COLUMNS[i]), cell, sizeof cell);
-        k += (size_t)snprintf(b + k, n - k, "%s%s", i ? "," : "", cell);
+        const double x = ml_values_find(v, nv, MOD_COLUMNS[i]);
+        registered_cells(MOD_COLUMNS + i, 1, &x, b, n, k);
         if (i == 2)
-            k += (size_t)snprintf(b + k, n - k, ",%s", m ? ml_values_c_word(m) : "");
+            ml_csv_append(b, n, k, m ? ml_values_c_word(m) : "");
     }
-    return k;
 }
 
-int ml_log_write_row(ml_logger *L, const ml_modulation_result *mres)
+int ml_log_row(ml_logger *L, const ml_modulation_result *mres)
 {
+    int rc = ml_log_release_row(L, true);
+    if (rc != 0)
+        return rc;
     const int64_t start = L->pos - L->ipos;
+    const double off = ml_log_offset_of(L, start), dur = (double)L->ipos / L->rate, utc = L->start_utc + off;
+    const size_t n = ML_LOGFILE_LINE_MAX + 1;
+    if ((L->row_a == NULL && (L->row_a = malloc(n)) == NULL) || (L->row_b == NULL && (L->row_b = malloc(n)) == NULL))
+        return ml_cli_error("%s: out of memory", L->name);
+    char t[48], *a = L->row_a, *b = L->row_b;
+    size_t k = 0;
+    ml_log_format_utc(utc, t, sizeof t);
+    ml_csv_append(a, n, &k, t);
+    ml_log_format_local(utc, t, sizeof t);
+    ml_csv_append(a, n, &k, t);
+    num_cell(a, n, &k, off, 3);
+    num_cell(a, n, &k, dur, 3);
+    level_cells(L, a, n, &k);
+    double fl;
+    if ((rc = spectral_cells(L, off, dur, a, n, &k, &fl)) != 0)
+        return rc;
+    k = 0;
+    num_cell(b, n, &k, (double)L->lost_frames / L->rate, 3);
+    double qp[2];
+    ml_log_listen_span(L, &qp[0], &qp[1]);
+    registered_cells(QP_COLUMNS, 2, qp, b, n, &k);
+    noise_cells(L, fl, b, n, &k);
+    modulation_cells(L, mres, b, n, &k);
+    if (L->resume_note[0] && off >= L->skip_rows_until - 0.5 / L->rate) {
+        char note[sizeof L->resume_note + sizeof L->note + 4];
+        snprintf(note, sizeof note, "%s%s%s", L->resume_note, L->note[0] ? "; " : "", L->note);
+        ml_csv_append(b, n, &k, note);
+        L->resume_note[0] = '\0';
+    } else {
+        ml_csv_append(b, n, &k, L->note);
+    }
+    if (L->sgram && L->nspectra > 0) {
+        ml_log_sgram_column(L);
+        ml_history_push(L->sgram, off, off + dur, L->sg_col);
+    }
+    L->row_pending = true;
+    L->row_start = start;
+    L->row_end = L->pos;
+    L->row_utc = utc;
+    L->row_impulses = L->impulses;
+    return ml_log_release_row(L, false);
+}
+
+int ml_log_release_row(ml_logger *L, bool force)
+{
+    if (!L->row_pending || (!force && L->imp_judged < L->row_end))
+        return 0;
     /* An impulse is confirmed up to 5 ms (gap) after it ends: one still open that started in this
      * interval is counted here, and not again when it closes. (Should it then grow beyond 0.2 s it
      * is dropped as a level change, leaving this count one too high: rare by construction.) */
     int64_t open_frame;
     if (ml_impulse_get_open(L->imp, &open_frame)) {
         const int64_t sp = L->imp_base + open_frame * (int64_t)ml_impulse_frame_samples(L->imp);
-        if (sp >= start && sp != L->imp_counted) {
-            L->impulses++;
+        if (sp >= L->row_start && sp < L->row_end && sp != L->imp_counted) {
+            L->row_impulses++;
             L->imp_counted = sp;
         }
     }
-    const double off = ml_log_offset_of(L, start), dur = (double)L->ipos / L->rate, utc = L->start_utc + off;
+    L->row_pending = false;
+    if (ml_log_offset_of(L, L->row_start) < L->skip_rows_until - 0.5 / L->rate)
+        return 0; /* written by the run this one continues */
     /* rotation: the row's start time chooses the file */
-    const int64_t p = ml_log_period_of(L->o, utc);
+    const int64_t p = ml_log_period_of(L->o, L->row_utc);
     if (p != L->period) {
         char last[16];
         int rc = ml_log_open_outputs(L, p, last, sizeof last);
+        if (rc == 0)
+            rc = ml_log_begin_outputs(L);
         if (rc != 0)
             return rc;
     }
-    char line[1536], utcs[40];
-    ml_log_format_utc(utc, utcs, sizeof utcs);
-    size_t k = (size_t)snprintf(line, sizeof line, "%s,%.3f,%.3f,", utcs, off, dur);
-    k += level_cells(L, line + k, sizeof line - k);
-    line[k++] = ',';
-    k += spectral_cells(L, line + k, sizeof line - k);
-    k += (size_t)snprintf(line + k, sizeof line - k, ",%ld,%.3f,", L->impulses,
-                          (double)L->lost_frames / L->rate);
-    k += modulation_cells(L, mres, line + k, sizeof line - k);
-    snprintf(line + k, sizeof line - k, ",%s", L->note);
-    if (L->sgram && L->nspectra > 0) {
-        ml_log_sgram_column(L);
-        ml_history_push(L->sgram, off, off + dur, L->sg_col);
+    const size_t n = ML_LOGFILE_LINE_MAX + 1;
+    char *line = malloc(n), cnt[24];
+    if (line == NULL)
+        return ml_cli_error("%s: out of memory", L->name);
+    snprintf(cnt, sizeof cnt, "%ld", L->row_impulses);
+    size_t k = 0;
+    snprintf(line, n, "%s", L->row_a);
+    k = strlen(line);
+    ml_csv_append(line, n, &k, cnt);
+    if (k + 1 + strlen(L->row_b) < n) {
+        line[k++] = ',';
+        memcpy(line + k, L->row_b, strlen(L->row_b) + 1);
     }
-    if (ml_logfile_write_line(L->rows, line) != ML_OK) {
+    const ml_status st = ml_logfile_write_line(L->rows, line);
+    free(line);
+    if (st != ML_OK) {
         L->wrote_error = true;
         return ml_cli_error("%s: cannot write: %s", L->rows_path, strerror(errno));
     }
     L->rows_written++;
+    if (L->snap_len > 0 && L->snap_row_end <= L->row_end && ml_log_offset_of(L, L->row_end) > L->skip_rows_until)
+        return ml_log_save_state(L);
     return 0;
 }

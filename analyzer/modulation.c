@@ -20,6 +20,7 @@
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
 #include "analyzer/imd.h"
+#include "analyzer/interference.h"
 #include "analyzer/measure.h"
 #include "analyzer/plots.h"
 #include "analyzer/uncertainty.h"
@@ -76,6 +77,7 @@ typedef struct {
     ml_modulation *mod;
     ml_modulation_batch *batch[NBATCH];
     ml_stats stats[2];     /* the captured channel(s)                                          */
+    ml_qp_pass *qp;        /* the quasi-peak readings (analyzer/interference.h)               */
     float *ref;            /* the reference channel of a batch, for the trapezoid picture      */
     ml_imd_envelope *imd;  /* the demodulated audio's intermodulation (analyzer/imd.h)          */
     ml_dropout *drop;      /* dropouts of the captured (I) channel, reported as notes          */
@@ -177,7 +179,8 @@ static int prepare(mod_pass *p, double carrier_hz)
     ml_stats_init(&p->stats[0], seg->info->bits);
     ml_stats_init(&p->stats[1], seg->info->bits);
     const ml_dropout_config dc = ml_dropout_config_default(rate);
-    if (ml_dropout_create(&dc, &p->drop) != ML_OK || (p->col = malloc(BATCH_FRAMES * sizeof *p->col)) == NULL)
+    if (ml_dropout_create(&dc, &p->drop) != ML_OK || (p->col = malloc(BATCH_FRAMES * sizeof *p->col)) == NULL
+        || (p->qp = ml_qp_pass_create(rate, p->iq, car.frequency_hz)) == NULL)
         return ml_cli_error("%s: out of memory", o->in.path);
     return 0;
 }
@@ -216,6 +219,7 @@ static int stream(mod_pass *p)
             break;
         ml_channels_split(&p->ch, raw, got, p->col, NULL);
         ml_dropout_push(p->drop, p->col, got);
+        ml_qp_pass_push(p->qp, raw, got, &p->ch); /* this half has room: the feed half is the larger */
         if (o->out.plot) { /* the reference channel's window; the envelope's goes in on the feed thread */
             ml_channels_split_ref(&p->ch, raw, got, p->ref);
             ml_plots_input(o->out.plot, done, p->ch.has_ref ? p->ref : NULL, got);
@@ -353,6 +357,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
     ml_bench_modulation_report(&o->an, &r, lv.rms_dbfs, p->iq, rep);
+    ml_qp_pass_report(p->qp, rep);
     char cref[160];
     ml_report_add_text(rep, "modulation.carrier_reference",
                        ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
@@ -397,6 +402,7 @@ int ml_measure_modulation(ml_measure_opts *o, ml_segment *seg, ml_kind kind, con
     ml_modulation_destroy(p.mod);
     ml_imd_envelope_destroy(p.imd);
     ml_dropout_destroy(p.drop);
+    ml_qp_pass_destroy(p.qp);
     free(p.ref);
     free(p.col);
     return rc;

@@ -90,6 +90,7 @@ static const struct {
     {{"save", required_argument, NULL, O_SAVE}, ML_OPTS_CAPTURE},
     {{"play-tone", required_argument, NULL, O_PLAY}, ML_OPTS_CAPTURE},
     {{"output-device", required_argument, NULL, O_OUTDEV}, ML_OPTS_CAPTURE},
+    {{"play-device", required_argument, NULL, O_OUTDEV}, ML_OPTS_CAPTURE}, /* the same option */
     {{"band", required_argument, NULL, O_BAND}, ML_OPTS_AUDIO},
     {{"tone", required_argument, NULL, O_TONE}, ML_OPTS_AUDIO},
     {{"no-tone", no_argument, NULL, O_NOTONE}, ML_OPTS_AUDIO},

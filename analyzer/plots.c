@@ -140,18 +140,29 @@ void ml_plots_modulation(ml_plot_data *p, const ml_spectrum *rf, const ml_modula
             p->obw_lo_hz = lo;
             p->obw_hi_hz = hi;
         }
-        if (mask && mask->npoints > 1 && 2 * mask->npoints <= ML_PLOT_MAX_MASK) {
+        if (mask && mask->npoints > 1 && 2 * mask->npoints + 1 <= ML_PLOT_MAX_MASK) {
             for (size_t i = 0; i < mask->npoints; i++) { /* lower side, from far to near */
                 const size_t j = mask->npoints - 1 - i;
                 p->mask_hz[p->nmask] = f_car - mask->offset_hz[j];
                 p->mask_db[p->nmask++] = mask->dbc[j];
             }
+            /* the mask applies only from its first offset out: nothing across the carrier and
+             * the sidebands between the sides */
+            p->mask_hz[p->nmask] = NAN;
+            p->mask_db[p->nmask++] = NAN;
             for (size_t i = 0; i < mask->npoints; i++) {
                 p->mask_hz[p->nmask] = f_car + mask->offset_hz[i];
                 p->mask_db[p->nmask++] = mask->dbc[i];
             }
-            /* the two sides meet at the carrier: start the upper one as a new polyline */
             p->mask_rbw_hz = mask->rbw_hz;
+            /* the offsets the capture holds on both sides (I/Q: up to +-Nyquist; real: 0 .. Nyquist) */
+            const double held = fmin(nyq - f_car, cx ? f_car + nyq : f_car);
+            const double last = mask->offset_hz[mask->npoints - 1];
+            if (held < last)
+                snprintf(p->mask_note, sizeof p->mask_note,
+                         held > mask->offset_hz[0] ? "the capture covers the mask only to +-%.1f kHz of its %.1f kHz"
+                                                   : "the capture covers none of the mask (+-%.1f kHz of %.1f kHz)",
+                         fmax(held, 0) / 1e3, last / 1e3);
         }
     } else {
         p->nbins = 0;

@@ -87,6 +87,8 @@ static const ml_metric_def defs[] = {
     {"imd.smpte_d3_pct", "%", 4, ML_BETTER_LOWER},
     {"imd.dfd2_pct", "%", 4, ML_BETTER_LOWER},
     {"imd.dfd3_pct", "%", 4, ML_BETTER_LOWER},
+    {"interference.qp_dbfs", "dBFS", 2, ML_BETTER_LOWER},
+    {"interference.av_dbfs", "dBFS", 2, ML_BETTER_LOWER},
 };
 
 const ml_metric_def *ml_registry_all(size_t *count)

@@ -128,3 +128,25 @@ double ml_aweight_get_response_db(const ml_aweight *q, double f_hz)
         return NAN;
     return 20.0 * log10(q->gain * response(q, f_hz));
 }
+
+void ml_aweight_get_state(const ml_aweight *q, double *s)
+{
+    for (int i = 0; q && s && i < 3; i++) {
+        s[2 * i] = q->s[i].z1;
+        s[2 * i + 1] = q->s[i].z2;
+    }
+}
+
+ml_status ml_aweight_set_state(ml_aweight *q, const double *s)
+{
+    if (q == NULL || s == NULL)
+        return ML_EINVAL;
+    for (int i = 0; i < ML_AWEIGHT_STATE; i++)
+        if (!isfinite(s[i]))
+            return ML_EINVAL;
+    for (int i = 0; i < 3; i++) {
+        q->s[i].z1 = s[2 * i];
+        q->s[i].z2 = s[2 * i + 1];
+    }
+    return ML_OK;
+}

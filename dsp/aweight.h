@@ -36,4 +36,10 @@ ml_status ml_aweight_push(ml_aweight *q, const float *x, double *y, size_t n);
  * coefficients (not measured). NAN for a bad f_hz. */
 double ml_aweight_get_response_db(const ml_aweight *q, double f_hz);
 
+/* The filter's state (ML_AWEIGHT_STATE values) into s, and back (set_state: finite values, else
+ * ML_EINVAL and nothing changes): a stream continued in another process. */
+#define ML_AWEIGHT_STATE 6
+void ml_aweight_get_state(const ml_aweight *q, double *s);
+ml_status ml_aweight_set_state(ml_aweight *q, const double *s);
+
 #endif

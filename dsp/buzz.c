@@ -425,6 +425,95 @@ bool ml_buzz_get_active(const ml_buzz *q, ml_buzz_event *e)
     return true;
 }
 
+/* ---- state as numbers ---- */
+
+enum { BUZZ_TAG = 3, EV_N = 10, BUZZ_FIXED = 16 + 2 * EV_N };
+
+static void put_event(double *s, const ml_buzz_event *e)
+{
+    const double v[EV_N] = {e->start_s,   e->end_s,    e->rate_hz,        e->rate_min_hz, e->rate_max_hz,
+                            e->jitter_s,  (double)e->impulses, (double)e->tie, e->mains_hz,  e->multiple};
+    memcpy(s, v, sizeof v);
+}
+
+static bool get_event(const double *s, ml_buzz_event *e)
+{
+    for (int i = 0; i < EV_N; i++)
+        if (!isfinite(s[i]))
+            return false;
+    if (!(s[6] >= 0 && s[6] <= 9e15 && s[6] == floor(s[6])) || !(s[7] >= 0 && s[7] < ML_BUZZ_TIE_COUNT)
+        || s[7] != floor(s[7]) || !(fabs(s[9]) <= 1000) || s[9] != floor(s[9]))
+        return false;
+    *e = (ml_buzz_event){.start_s = s[0], .end_s = s[1], .rate_hz = s[2], .rate_min_hz = s[3],
+                         .rate_max_hz = s[4], .jitter_s = s[5], .impulses = (uint64_t)s[6],
+                         .tie = (ml_buzz_tie)s[7], .mains_hz = s[8], .multiple = (int)s[9]};
+    return true;
+}
+
+size_t ml_buzz_save(const ml_buzz *q, double *s, size_t cap)
+{
+    if (q == NULL)
+        return 0;
+    const size_t need = BUZZ_FIXED + q->count;
+    if (s == NULL || cap < need)
+        return need;
+    const double fixed[16] = {BUZZ_TAG,        (double)q->count,   (double)q->next_eval, q->last_t,
+                              q->last_now,     (double)q->run_on,  (double)q->run_off,   q->active,
+                              q->pending,      q->pend_rate_sum,   q->pend_jit_sum,      (double)q->pend_n,
+                              q->rate_sum,     q->jit_sum,         (double)q->nevals,    q->counted_to};
+    memcpy(s, fixed, sizeof fixed);
+    put_event(s + 16, &q->ev);
+    put_event(s + 16 + EV_N, &q->pend);
+    for (size_t i = 0; i < q->count; i++)
+        s[BUZZ_FIXED + i] = q->ring[(q->head + i) % q->cap];
+    return need;
+}
+
+ml_status ml_buzz_restore(ml_buzz *q, const double *s, size_t n)
+{
+    if (q == NULL || s == NULL || n < BUZZ_FIXED || s[0] != BUZZ_TAG || !(s[1] >= 0 && s[1] <= (double)q->cap)
+        || s[1] != floor(s[1]) || n != BUZZ_FIXED + (size_t)s[1])
+        return ML_EINVAL;
+    const size_t counts[] = {2, 5, 6, 11, 14};
+    for (size_t i = 0; i < sizeof counts / sizeof *counts; i++)
+        if (!(s[counts[i]] >= 0 && s[counts[i]] <= 9e15 && s[counts[i]] == floor(s[counts[i]])))
+            return ML_EINVAL;
+    for (size_t i = 3; i < 16; i++)
+        if (i != 15 && !isfinite(s[i]))
+            return ML_EINVAL;
+    if (isnan(s[15]) || s[15] == INFINITY || !(s[3] >= 0) || !(s[4] >= s[3]))
+        return ML_EINVAL;
+    ml_buzz_event ev, pend;
+    if (!get_event(s + 16, &ev) || !get_event(s + 16 + EV_N, &pend))
+        return ML_EINVAL;
+    for (size_t i = BUZZ_FIXED; i < n; i++)
+        if (!isfinite(s[i]) || s[i] < 0 || s[i] > s[3] || (i > BUZZ_FIXED && s[i] < s[i - 1]))
+            return ML_EINVAL;
+    if ((s[7] != 0 && s[14] < 1) || (s[8] != 0 && s[11] < 1))
+        return ML_EINVAL;
+    ml_buzz_reset(q);
+    q->count = (size_t)s[1];
+    for (size_t i = 0; i < q->count; i++)
+        q->ring[i] = s[BUZZ_FIXED + i];
+    q->next_eval = (uint64_t)s[2];
+    q->last_t = s[3];
+    q->last_now = s[4];
+    q->run_on = (size_t)s[5];
+    q->run_off = (size_t)s[6];
+    q->active = s[7] != 0;
+    q->pending = s[8] != 0;
+    q->pend_rate_sum = s[9];
+    q->pend_jit_sum = s[10];
+    q->pend_n = (size_t)s[11];
+    q->rate_sum = s[12];
+    q->jit_sum = s[13];
+    q->nevals = (size_t)s[14];
+    q->counted_to = s[15];
+    q->ev = ev;
+    q->pend = pend;
+    return ML_OK;
+}
+
 /* ---- comb of lines ---- */
 
 #define COMB_HALF 32

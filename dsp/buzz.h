@@ -112,6 +112,14 @@ ml_status ml_buzz_finish(ml_buzz *q, ml_buzz_event *ev, size_t cap, size_t *nev)
 /* True while a buzz is in progress; *e (may be NULL) gets it as it stands. */
 bool ml_buzz_get_active(const ml_buzz *q, ml_buzz_event *e);
 
+/* The state as numbers, to continue it in another process (a log resumed after a kill): save
+ * writes it into s[cap] and returns the count it needs (s NULL: only sizes; nothing written when
+ * cap is smaller): fixed values and the impulse times held. restore puts it back into a detector
+ * created with the same config (reset first); the times go on where they were. ML_EINVAL when s
+ * is not such a state (the detector is then left alone). */
+size_t ml_buzz_save(const ml_buzz *q, double *s, size_t cap);
+ml_status ml_buzz_restore(ml_buzz *q, const double *s, size_t n);
+
 /* Comb of lines in a power spectrum: psd[nbins] (any power unit, bin k at k * bin_hz, from 0 Hz).
  * A bin is a line when it is a local maximum standing at least threshold_db above the median of
  * the bins within +-32 bins of it. The comb is the spacing s in [lo_hz, hi_hz] for which the most

@@ -22,6 +22,7 @@ struct ml_impulse {
     bool active;
     ml_event burst;
     int64_t last_hot;
+    int prime;              /* input samples that only fill x1, x2 (after a restore)           */
 };
 
 ml_impulse_config ml_impulse_config_default(double rate_hz)
@@ -81,6 +82,7 @@ void ml_impulse_reset(ml_impulse *q)
     q->acc_n = 0;
     q->frame = 0;
     q->active = false;
+    q->prime = 0;
 }
 
 size_t ml_impulse_frame_samples(const ml_impulse *q)
@@ -136,7 +138,11 @@ ml_status ml_impulse_push(ml_impulse *q, const float *x, size_t n, ml_event *ev,
     bool ok = true;
     for (size_t i = 0; i < n; i++) {
         const double v = x[i];
-        const double d = q->cfg.order == 0 ? v : q->cfg.order == 1 ? v - q->x1 : v - 2.0 * q->x1 + q->x2;
+        double d = q->cfg.order == 0 ? v : q->cfg.order == 1 ? v - q->x1 : v - 2.0 * q->x1 + q->x2;
+        if (q->prime > 0) {
+            d = 0;
+            q->prime--;
+        }
         q->x2 = q->x1;
         q->x1 = v;
         q->acc += d * d;
@@ -178,6 +184,7 @@ struct ml_change {
     size_t min_n, warm_n, max_n;
     int state;
     int64_t idx, in_start;
+    bool in_run;            /* a run of in values is under way (since in_start)                */
     ml_event ev;
 };
 
@@ -234,7 +241,8 @@ void ml_change_reset(ml_change *q)
     ml_floor_reset(q->base);
     q->state = CH_IDLE;
     q->idx = 0;
-    q->in_start = -1;
+    q->in_start = 0;
+    q->in_run = false;
 }
 
 static bool emit(ml_change *q, int64_t end, ml_event *ev, size_t cap, size_t *nev)
@@ -267,7 +275,7 @@ ml_status ml_change_push(ml_change *q, const double *v, size_t n, ml_event *ev, 
                 q->ev = (ml_event){.start = q->idx, .peak_db = x, .baseline_db = base};
                 if (q->min_n == 1)
                     q->state = CH_ACTIVE;
-                q->in_start = -1;
+                q->in_run = false;
             } else {
                 ml_floor_push(q->base, &x, 1);
             }
@@ -287,10 +295,12 @@ ml_status ml_change_push(ml_change *q, const double *v, size_t n, ml_event *ev, 
             if (out) {
                 if (dir * (x - q->ev.peak_db) > 0)
                     q->ev.peak_db = x;
-                q->in_start = -1;
+                q->in_run = false;
             } else {
-                if (q->in_start < 0)
+                if (!q->in_run) {
                     q->in_start = q->idx;
+                    q->in_run = true;
+                }
                 if ((size_t)(q->idx - q->in_start + 1) >= q->min_n) {
                     ok &= emit(q, q->in_start, ev, cap, nev);
                     ml_floor_push(q->base, &x, 1);
@@ -312,7 +322,7 @@ ml_status ml_change_finish(ml_change *q, ml_event *ev, size_t cap, size_t *nev)
     if (q == NULL || nev == NULL || (cap > 0 && ev == NULL))
         return ML_EINVAL;
     *nev = 0;
-    if (q->state == CH_ACTIVE && !emit(q, q->in_start >= 0 ? q->in_start : q->idx, ev, cap, nev))
+    if (q->state == CH_ACTIVE && !emit(q, q->in_run ? q->in_start : q->idx, ev, cap, nev))
         return ML_EINVAL;
     q->state = CH_IDLE;
     return ML_OK;
@@ -325,7 +335,122 @@ double ml_change_get_baseline(const ml_change *q)
     return q->state == CH_IDLE ? ml_floor_get_level(q->base) : q->ev.baseline_db;
 }
 
+bool ml_change_get_open(const ml_change *q, int64_t *start, bool *in_run, int64_t *in_start)
+{
+    if (q == NULL || q->state == CH_IDLE)
+        return false;
+    if (start)
+        *start = q->ev.start;
+    if (in_run)
+        *in_run = q->in_run;
+    if (in_start)
+        *in_start = q->in_start;
+    return true;
+}
+
 int ml_change_get_state(const ml_change *q)
 {
     return q == NULL || q->state == CH_IDLE ? 0 : q->state == CH_PENDING ? 1 : 2;
+}
+
+/* ---- state as numbers ------------------------------------------------------------------------- */
+
+enum { IMP_TAG = 1, IMP_FIXED = 14, CH_TAG = 2, CH_FIXED = 9 };
+
+size_t ml_impulse_save(const ml_impulse *q, double *s, size_t cap)
+{
+    if (q == NULL)
+        return 0;
+    const size_t nv = ml_floor_get_count(q->floor), need = IMP_FIXED + nv;
+    if (s == NULL || cap < need)
+        return need;
+    const double fixed[IMP_FIXED] = {IMP_TAG,
+                                     q->x1,
+                                     q->x2,
+                                     q->acc,
+                                     q->frame_peak,
+                                     (double)q->acc_n,
+                                     (double)q->frame,
+                                     q->active,
+                                     (double)q->burst.start,
+                                     q->burst.peak_abs,
+                                     q->burst.peak_db,
+                                     q->burst.baseline_db,
+                                     (double)q->last_hot,
+                                     (double)nv};
+    for (size_t i = 0; i < IMP_FIXED; i++)
+        s[i] = fixed[i];
+    ml_floor_get_values(q->floor, s + IMP_FIXED, nv);
+    return need;
+}
+
+/* A saved count: a whole number in [lo, hi]. */
+static bool count_ok(double v, double lo, double hi)
+{
+    return v >= lo && v <= hi && v == floor(v);
+}
+
+ml_status ml_impulse_restore(ml_impulse *q, const double *s, size_t n, bool continuous)
+{
+    if (q == NULL || s == NULL || n < IMP_FIXED || s[0] != IMP_TAG || !count_ok(s[13], 0, (double)(1 << 24))
+        || n != IMP_FIXED + (size_t)s[13] || !count_ok(s[5], 0, (double)q->frame_n - 1)
+        || !count_ok(s[6], 0, 9e15) || !count_ok(s[8], -9e15, 9e15) || !count_ok(s[12], -9e15, 9e15))
+        return ML_EINVAL;
+    for (size_t i = 1; i < n; i++)
+        if (i != 10 && i != 11 && !isfinite(s[i]))
+            return ML_EINVAL;
+    ml_impulse_reset(q);
+    ml_floor_push(q->floor, s + IMP_FIXED, n - IMP_FIXED);
+    if (!continuous) {
+        q->prime = q->cfg.order;
+        return ML_OK;
+    }
+    q->x1 = s[1];
+    q->x2 = s[2];
+    q->acc = s[3];
+    q->frame_peak = s[4];
+    q->acc_n = (size_t)s[5];
+    q->frame = (int64_t)s[6];
+    q->active = s[7] != 0;
+    q->burst = (ml_event){.start = (int64_t)s[8], .peak_abs = s[9], .peak_db = s[10], .baseline_db = s[11]};
+    q->last_hot = (int64_t)s[12];
+    return ML_OK;
+}
+
+size_t ml_change_save(const ml_change *q, double *s, size_t cap)
+{
+    if (q == NULL)
+        return 0;
+    const size_t nv = ml_floor_get_count(q->base), need = CH_FIXED + nv;
+    if (s == NULL || cap < need)
+        return need;
+    const double fixed[CH_FIXED] = {CH_TAG,         q->state,       (double)q->idx,
+                                    q->in_run ? (double)q->in_start : NAN, (double)q->ev.start,
+                                    q->ev.peak_db,  q->ev.baseline_db, 0, (double)nv};
+    for (size_t i = 0; i < CH_FIXED; i++)
+        s[i] = fixed[i];
+    ml_floor_get_values(q->base, s + CH_FIXED, nv);
+    return need;
+}
+
+ml_status ml_change_restore(ml_change *q, const double *s, size_t n, bool rebase)
+{
+    if (q == NULL || s == NULL || n < CH_FIXED || s[0] != CH_TAG || !count_ok(s[1], CH_IDLE, CH_ACTIVE)
+        || !count_ok(s[2], 0, 9e15) || !(isnan(s[3]) || count_ok(s[3], -9e15, 9e15))
+        || !count_ok(s[4], -9e15, 9e15) || !count_ok(s[8], 0, (double)(1 << 24)) || n != CH_FIXED + (size_t)s[8])
+        return ML_EINVAL;
+    if (s[1] != CH_IDLE && !(isfinite(s[5]) && isfinite(s[6])))
+        return ML_EINVAL;
+    for (size_t i = CH_FIXED; i < n; i++)
+        if (!isfinite(s[i]))
+            return ML_EINVAL;
+    ml_change_reset(q);
+    ml_floor_push(q->base, s + CH_FIXED, n - CH_FIXED);
+    const int64_t shift = rebase ? (int64_t)s[2] : 0;
+    q->state = (int)s[1];
+    q->idx = (int64_t)s[2] - shift;
+    q->in_run = !isnan(s[3]);
+    q->in_start = q->in_run ? (int64_t)s[3] - shift : 0;
+    q->ev = (ml_event){.start = (int64_t)s[4] - shift, .peak_db = s[5], .baseline_db = s[6]};
+    return ML_OK;
 }

@@ -100,5 +100,30 @@ ml_status ml_change_finish(ml_change *q, ml_event *ev, size_t cap, size_t *nev);
 int ml_change_get_state(const ml_change *q);
 /* Current baseline (dB), NAN before the first value. */
 double ml_change_get_baseline(const ml_change *q);
+/* True while a change is pending or active: *start its first value's index, *in_run whether a
+ * run of in values is under way and *in_start that run's first index (any pointer may be NULL). */
+bool ml_change_get_open(const ml_change *q, int64_t *start, bool *in_run, int64_t *in_start);
+
+/* ---- state as numbers: a detector continued in another process (a log resumed after a kill) ----
+ *
+ * save writes the detector's state into s[cap] and returns the number of values it needs (call
+ * with s NULL to size; nothing is written when cap is smaller): a few fixed values and the
+ * floor's or baseline's window (at most its length). restore puts a state back into a detector
+ * created with the same config (it is reset first). ML_EINVAL when s is not such a state (wrong
+ * tag or count, a value out of range or not finite); the detector is then left alone.
+ *
+ * ml_impulse_restore with continuous true continues exactly (the next sample pushed follows the
+ * last one before the save: frame indices go on); with continuous false only the floor is kept
+ * and the input starts afresh (frame 0, no open burst; the first `order` samples only fill the
+ * difference's history, so the step from silence to the signal is not an impulse), and judging
+ * starts at once when the floor holds enough values.
+ *
+ * ml_change_restore with rebase false continues the value indices; with rebase true the next value
+ * pushed gets index 0, so an open change's start (and the start of its run of in values) become
+ * negative indices of values before the restore. */
+size_t ml_impulse_save(const ml_impulse *q, double *s, size_t cap);
+ml_status ml_impulse_restore(ml_impulse *q, const double *s, size_t n, bool continuous);
+size_t ml_change_save(const ml_change *q, double *s, size_t cap);
+ml_status ml_change_restore(ml_change *q, const double *s, size_t n, bool rebase);
 
 #endif

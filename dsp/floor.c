@@ -120,3 +120,13 @@ size_t ml_floor_get_count(const ml_floor *q)
 {
     return q ? q->count : 0;
 }
+
+size_t ml_floor_get_values(const ml_floor *q, double *v, size_t cap)
+{
+    if (q == NULL)
+        return 0;
+    const size_t first = (q->head + q->cfg.window - q->count) % q->cfg.window;
+    for (size_t i = 0; i < q->count && i < cap && v != NULL; i++)
+        v[i] = q->cfg.lo_db + ((double)q->ring[(first + i) % q->cfg.window] + 0.5) * q->cfg.step_db;
+    return q->count;
+}

@@ -41,4 +41,9 @@ double ml_floor_get_level(const ml_floor *q);
 /* Number of values held: min(pushed since reset, window). */
 size_t ml_floor_get_count(const ml_floor *q);
 
+/* The values held, oldest first, as the centres of the bins they were counted in, into v[cap]
+ * (the first min(count, cap)); returns the number held. Pushing them into a floor of the same
+ * config after a reset rebuilds this one exactly (a log resumed in a new process). */
+size_t ml_floor_get_values(const ml_floor *q, double *v, size_t cap);
+
 #endif

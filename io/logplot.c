@@ -1,10 +1,12 @@
 /* Picture of a noise log with cairo (see io/logplot.h).
  * SPDX-License-Identifier: MIT
  *
- * References: cairo API documentation (image surfaces, cairo_surface_write_to_png, toy text API).
+ * References: cairo API documentation (image, SVG and PDF surfaces, the toy text API).
  */
 #include "io/logplot.h"
 
+#include <cairo-pdf.h>
+#include <cairo-svg.h>
 #include <cairo.h>
 #include <errno.h>
 #include <math.h>
@@ -13,70 +15,47 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "io/csv.h"
+#include "io/plot.h"
+#include "io/plot_internal.h"
+#include "io/ticks.h"
+
 #define W 1200
 #define H 820
 #define X0 70.0
-#define X1 (W - 20.0)
-#define NB 1000 /* level buckets: one per pixel column or so */
-#define LINE 4096
+#define X1 (W - 100.0) /* room for the spectrogram's colour scale on the right */
+#define NB 1000        /* level buckets: one per pixel column or so */
+#define LINE 8194      /* a CSV line of io/logfile.h's longest, '\n' and NUL */
 
 typedef struct {
     double lo, hi, sum;
     long n;
 } bucket;
 
-/* Index of column name in a header line; -1 when absent. */
-static int column(const char *header, const char *name)
+/* A line of the file that is not its '#' head line; false at the end. */
+static bool next_line(FILE *f, char *line, size_t n)
 {
-    int i = 0;
-    size_t len = strlen(name);
-    for (const char *p = header;; i++) {
-        size_t f = strcspn(p, ",\r\n");
-        if (f == len && strncmp(p, name, len) == 0)
-            return i;
-        if (p[f] != ',')
-            return -1;
-        p += f + 1;
-    }
+    while (fgets(line, (int)n, f))
+        if (line[0] != '#')
+            return true;
+    return false;
 }
 
 /* Value of field i of a line (NAN when empty or missing). */
 static double field(const char *line, int i)
 {
-    const char *p = line;
-    for (; i > 0 && p; i--) {
-        p = strchr(p, ',');
-        if (p)
-            p++;
-    }
-    if (p == NULL || *p == ',' || *p == '\n' || *p == '\0')
+    char b[64], *end;
+    if (i < 0 || !ml_csv_get_field(line, i, b, sizeof b) || b[0] == '\0')
         return NAN;
-    char *end;
-    double v = strtod(p, &end);
-    return end == p ? NAN : v;
-}
-
-static void field_str(const char *line, int i, char *b, size_t n)
-{
-    const char *p = line;
-    for (; i > 0 && p; i--) {
-        p = strchr(p, ',');
-        if (p)
-            p++;
-    }
-    size_t len = p ? strcspn(p, ",\r\n") : 0;
-    if (len >= n)
-        len = n - 1;
-    if (p)
-        memcpy(b, p, len);
-    b[len] = '\0';
+    const double v = strtod(b, &end);
+    return *end == '\0' ? v : NAN;
 }
 
 static void text(cairo_t *cr, double x, double y, const char *s, double align)
 {
     cairo_text_extents_t te;
     cairo_text_extents(cr, s, &te);
-    cairo_move_to(cr, x - align * te.width, y);
+    cairo_move_to(cr, x - align * te.x_advance, y);
     cairo_show_text(cr, s);
 }
 
@@ -109,7 +88,7 @@ static double yl(const frame *fr, double v)
 
 /* The level columns of the rows' header. */
 typedef struct {
-    int off, rms, pk, aw;
+    int off, dur, rms, pk, aw;
 } columns;
 
 /* Pass 1: the time and level ranges of the rows into fr; the row count. */
@@ -118,18 +97,21 @@ static long ranges(FILE *f, const columns *c, frame *fr)
     char line[LINE];
     double tmin = INFINITY, tmax = -INFINITY, lmin = INFINITY, lmax = -INFINITY;
     long rows = 0;
-    while (fgets(line, sizeof line, f)) {
-        const double t = field(line, c->off), r = field(line, c->rms), p = field(line, c->pk);
+    while (next_line(f, line, sizeof line)) {
+        const double t = field(line, c->off), d = field(line, c->dur), r = field(line, c->rms),
+                     p = field(line, c->pk);
         if (!isfinite(t))
             continue;
         rows++;
         tmin = fmin(tmin, t);
-        tmax = fmax(tmax, t);
+        tmax = fmax(tmax, t + (isfinite(d) ? d : 0));
         if (isfinite(r) && r > -200)
             lmin = fmin(lmin, r);
         if (isfinite(p))
             lmax = fmax(lmax, p);
     }
+    if (!(tmin >= 0))
+        tmin = 0;
     if (!(tmax > tmin))
         tmax = tmin + 1;
     if (!isfinite(lmin))
@@ -140,10 +122,10 @@ static long ranges(FILE *f, const columns *c, frame *fr)
                   .tmax = tmax,
                   .lmin = floor(lmin / 10) * 10 - 10,
                   .lmax = ceil(lmax / 10) * 10 + 5,
-                  .ly0 = 40,
+                  .ly0 = 48,
                   .ly1 = 400,
-                  .sy0 = 450,
-                  .sy1 = 780};
+                  .sy0 = 460,
+                  .sy1 = 770};
     return rows;
 }
 
@@ -154,9 +136,9 @@ static void buckets(FILE *f, const columns *c, const frame *fr, bucket *b)
     for (int i = 0; i < 3 * NB; i++)
         b[i] = (bucket){INFINITY, -INFINITY, 0, 0};
     rewind(f);
-    if (fgets(line, sizeof line, f) == NULL)
+    if (!next_line(f, line, sizeof line)) /* the header */
         return;
-    while (fgets(line, sizeof line, f)) {
+    while (next_line(f, line, sizeof line)) {
         const double t = field(line, c->off);
         if (!isfinite(t))
             continue;
@@ -175,34 +157,68 @@ static void buckets(FILE *f, const columns *c, const frame *fr, bucket *b)
     }
 }
 
-/* Grid, level and time labels. */
+/* Time ticks under both panels, level ticks, their grid lines and axis titles. */
 static void axes(cairo_t *cr, const frame *fr)
 {
     cairo_set_line_width(cr, 1);
-    for (double v = fr->lmin; v <= fr->lmax; v += 10) {
-        cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
-        cairo_move_to(cr, X0, yl(fr, v));
-        cairo_line_to(cr, X1, yl(fr, v));
-        cairo_stroke(cr);
-        char b[32];
-        snprintf(b, sizeof b, "%.0f", v);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        text(cr, X0 - 6, yl(fr, v) + 4, b, 1);
+    ml_ticks tk;
+    if (ml_ticks_linear(fr->lmin, fr->lmax, 10, &tk) == ML_OK)
+        for (size_t i = 0; i < tk.n; i++) {
+            const double y = yl(fr, tk.tick[i].value);
+            cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
+            cairo_move_to(cr, X0, y);
+            cairo_line_to(cr, X1, y);
+            cairo_stroke(cr);
+            cairo_set_source_rgb(cr, 0, 0, 0);
+            text(cr, X0 - 6, y + 4, tk.tick[i].label, 1);
+        }
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    text(cr, 8, fr->ly0 - 6, "dBFS", 0);
+    if (ml_ticks_time(fr->tmin, fr->tmax, 12, &tk) != ML_OK)
+        return;
+    for (size_t i = 0; i < tk.n; i++) {
+        const double x = xt(fr, tk.tick[i].value);
+        for (int p = 0; p < 2; p++) {
+            const double y0 = p ? fr->sy0 : fr->ly0, y1 = p ? fr->sy1 : fr->ly1;
+            cairo_set_source_rgba(cr, 0.5, 0.5, 0.5, p ? 0.35 : 0.3);
+            cairo_move_to(cr, x, y0);
+            cairo_line_to(cr, x, y1);
+            cairo_stroke(cr);
+            cairo_set_source_rgb(cr, 0, 0, 0);
+            text(cr, x, y1 + 15, tk.tick[i].label, 0.5);
+        }
     }
-    text(cr, 8, fr->ly0 - 10, "dBFS", 0);
-    for (int k = 0; k <= 8; k++) {
-        const double t = fr->tmin + (fr->tmax - fr->tmin) * k / 8.0;
-        char b[32];
-        if (fr->tmax - fr->tmin > 7200)
-            snprintf(b, sizeof b, "%.2f h", t / 3600);
-        else
-            snprintf(b, sizeof b, "%.0f s", t);
-        text(cr, xt(fr, t), fr->ly1 + 16, b, 0.5);
-        text(cr, xt(fr, t), fr->sy1 + 16, b, 0.5);
-    }
+    char t[64];
+    snprintf(t, sizeof t, "time since the input's start (%s)", tk.unit);
+    text(cr, (X0 + X1) / 2, fr->sy1 + 32, t, 0.5);
 }
 
-/* Events as vertical marks (impulses) or shaded spans, streamed from the events file. */
+/* The colour of an event kind (and whether it is drawn as a span or a tick). */
+typedef struct {
+    const char *kind;
+    double r, g, b;
+    bool span;
+} kind_style;
+
+static const kind_style STYLES[] = {
+    {"impulse", 0.80, 0.10, 0.10, false}, {"buzz", 0.85, 0.00, 0.70, true},
+    {"hum", 1.00, 0.55, 0.00, true},      {"noise", 0.55, 0.20, 0.75, true},
+    {"level", 0.10, 0.55, 0.55, true},    {"carrier-loss", 0.00, 0.00, 0.00, true},
+    {"mains", 0.10, 0.20, 0.90, false},   {"gap", 0.60, 0.60, 0.60, true},
+    {"input-end", 0.30, 0.30, 0.30, false},
+};
+#define NSTYLES (sizeof STYLES / sizeof *STYLES)
+
+static const kind_style *style_of(const char *kind)
+{
+    for (size_t i = 0; i < NSTYLES; i++)
+        if (strcmp(kind, STYLES[i].kind) == 0)
+            return &STYLES[i];
+    return &STYLES[NSTYLES - 2];
+}
+
+/* Events as shaded spans (or ticks) in the level panel and ticks above the spectrogram, streamed
+ * from the events file. */
 static void events(cairo_t *cr, const frame *fr, const char *events_csv)
 {
     char line[LINE];
@@ -210,37 +226,33 @@ static void events(cairo_t *cr, const frame *fr, const char *events_csv)
     if (e == NULL)
         return;
     int c_s = -1, c_e = -1, c_k = -1;
-    if (fgets(line, sizeof line, e)) {
-        c_s = column(line, "start_offset_s");
-        c_e = column(line, "end_offset_s");
-        c_k = column(line, "kind");
+    if (next_line(e, line, sizeof line)) {
+        c_s = ml_csv_column(line, "start_offset_s");
+        c_e = ml_csv_column(line, "end_offset_s");
+        c_k = ml_csv_column(line, "kind");
     }
-    while (c_s >= 0 && c_e >= 0 && c_k >= 0 && fgets(line, sizeof line, e)) {
+    while (c_s >= 0 && c_e >= 0 && c_k >= 0 && next_line(e, line, sizeof line)) {
         const double t0 = field(line, c_s), t1 = field(line, c_e);
         char kind[32];
-        field_str(line, c_k, kind, sizeof kind);
-        if (!isfinite(t0) || t0 > fr->tmax + 1e9)
+        if (!isfinite(t0) || t0 > fr->tmax || !ml_csv_get_field(line, c_k, kind, sizeof kind))
             continue;
-        double r = 0.8, g = 0.1, b = 0.1;
-        if (strcmp(kind, "hum") == 0) r = 1.0, g = 0.55, b = 0.0;
-        else if (strcmp(kind, "noise") == 0) r = 0.55, g = 0.2, b = 0.75;
-        else if (strcmp(kind, "carrier-loss") == 0) r = 0.0, g = 0.0, b = 0.0;
-        else if (strcmp(kind, "impulse") != 0) r = g = b = 0.6;
-        const double xa = xt(fr, t0), xb = fmax(xt(fr, isfinite(t1) ? t1 : t0), xa + 1);
-        cairo_set_source_rgba(cr, r, g, b, strcmp(kind, "impulse") == 0 ? 0.6 : 0.18);
-        if (strcmp(kind, "impulse") == 0) {
-            cairo_move_to(cr, xa, fr->ly0);
-            cairo_line_to(cr, xa, fr->ly0 + 14);
-            cairo_stroke(cr);
-        } else {
+        const kind_style *st = style_of(kind);
+        const double xa = xt(fr, fmax(t0, fr->tmin)), xb = fmax(xt(fr, isfinite(t1) ? fmin(t1, fr->tmax) : t0), xa + 1);
+        if (st->span) {
+            cairo_set_source_rgba(cr, st->r, st->g, st->b, 0.16);
             cairo_rectangle(cr, xa, fr->ly0, xb - xa, fr->ly1 - fr->ly0);
             cairo_fill(cr);
         }
+        cairo_set_source_rgba(cr, st->r, st->g, st->b, 0.8);
+        cairo_rectangle(cr, xa, st->span ? fr->ly0 : fr->ly0, st->span ? xb - xa : 1.2, 8);
+        cairo_fill(cr);
+        cairo_rectangle(cr, xa, fr->sy0 - 7, st->span ? xb - xa : 1.2, 6);
+        cairo_fill(cr);
     }
     fclose(e);
 }
 
-/* The levels: the mean line of each bucket, with a legend. */
+/* The levels: the mean line of each bucket, with a legend; the events' legend. */
 static void levels(cairo_t *cr, const frame *fr, const bucket *b)
 {
     const struct {
@@ -271,10 +283,63 @@ static void levels(cairo_t *cr, const frame *fr, const bucket *b)
         cairo_set_source_rgb(cr, 0, 0, 0);
         text(cr, X1 - 282 + 100 * k, 20, series[k].name, 0);
     }
-    text(cr, X0, 33, "events: impulse (red ticks), hum (orange), noise (violet), carrier-loss (grey)", 0);
+    double x = X0;
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    text(cr, x, 36, "events:", 0);
+    x += 52;
+    for (size_t i = 0; i < NSTYLES; i++) {
+        cairo_set_source_rgb(cr, STYLES[i].r, STYLES[i].g, STYLES[i].b);
+        cairo_rectangle(cr, x, 28, STYLES[i].span ? 12 : 2, 9);
+        cairo_fill(cr);
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        cairo_text_extents_t te;
+        cairo_text_extents(cr, STYLES[i].kind, &te);
+        text(cr, x + 15, 36, STYLES[i].kind, 0);
+        x += 24 + te.x_advance;
+    }
 }
 
-/* The spectrogram from the bounded history, in dB re the spec's unit power (at most 100 dB). */
+/* Frequency of a spectrogram row position u in 0..1 (bottom to top), and back. */
+typedef struct {
+    bool log;
+    double lo, hi;
+} faxis;
+
+static double fy(const frame *fr, const faxis *a, double f)
+{
+    const double u = a->log ? log(f / a->lo) / log(a->hi / a->lo) : (f - a->lo) / (a->hi - a->lo);
+    return fr->sy1 - u * (fr->sy1 - fr->sy0);
+}
+
+/* The spectrogram's colour scale: a bar of the colour map with round dB ticks. */
+static void colour_scale(cairo_t *cr, const frame *fr, double dmin, double dmax)
+{
+    const double x = X1 + 14, w = 14, y0 = fr->sy0, y1 = fr->sy1;
+    for (int i = 0; i < 200; i++) {
+        double r, g, b;
+        colormap((i + 0.5) / 200.0, &r, &g, &b);
+        cairo_set_source_rgb(cr, r, g, b);
+        const double ya = y1 - (i + 1) * (y1 - y0) / 200.0;
+        cairo_rectangle(cr, x, ya, w, (y1 - y0) / 200.0 + 0.5);
+        cairo_fill(cr);
+    }
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_set_line_width(cr, 1);
+    cairo_rectangle(cr, x, y0, w, y1 - y0);
+    cairo_stroke(cr);
+    ml_ticks tk;
+    if (ml_ticks_linear(dmin, dmax, 8, &tk) == ML_OK)
+        for (size_t i = 0; i < tk.n; i++) {
+            const double y = y1 - (tk.tick[i].value - dmin) / (dmax - dmin) * (y1 - y0);
+            cairo_move_to(cr, x + w, y);
+            cairo_line_to(cr, x + w + 4, y);
+            cairo_stroke(cr);
+            text(cr, x + w + 6, y + 4, tk.tick[i].label, 0);
+        }
+    text(cr, x - 4, y0 - 8, "dBFS/Hz", 0);
+}
+
+/* The spectrogram from the bounded history, in dBFS/Hz (at most 100 dB shown). */
 static void spectrogram(cairo_t *cr, const frame *fr, const ml_logplot_spec *spec)
 {
     const ml_history *h = spec ? spec->sgram : NULL;
@@ -292,8 +357,10 @@ static void spectrogram(cairo_t *cr, const frame *fr, const ml_logplot_spec *spe
     }
     if (dmax - dmin > 100)
         dmin = dmax - 100;
+    dmin = floor(dmin / 10) * 10;
+    dmax = ceil(dmax / 10) * 10;
     if (!(dmax > dmin))
-        dmax = dmin + 1;
+        dmax = dmin + 10;
     for (size_t i = 0; i < nc; i++) {
         double t0, t1;
         const double *col = ml_history_get_column(h, i, &t0, &t1);
@@ -309,31 +376,66 @@ static void spectrogram(cairo_t *cr, const frame *fr, const ml_logplot_spec *spe
             cairo_fill(cr);
         }
     }
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    char b[64];
-    for (int k = 0; k <= 4; k++) {
-        const size_t row = (size_t)((double)(nr - 1) * k / 4.0);
-        snprintf(b, sizeof b, "%.0f", spec->band_hz[row]);
-        text(cr, X0 - 6, fr->sy1 - ((double)row + 0.5) / (double)nr * (fr->sy1 - fr->sy0) + 4, b, 1);
+    /* the rows' edges: halfway (geometrically for a log axis) between their centres */
+    faxis a = {spec->log_freq, 0, 0};
+    const double *c = spec->band_hz;
+    if (a.log) {
+        const double r = sqrt(c[1] / c[0]);
+        a.lo = c[0] / r;
+        a.hi = c[nr - 1] * r;
+    } else {
+        const double s = (c[1] - c[0]) / 2;
+        a.lo = c[0] - s;
+        a.hi = c[nr - 1] + s;
     }
-    snprintf(b, sizeof b, "spectrogram, Hz (%s axis; colour %.0f .. %.0f dB)",
-             spec->log_freq ? "log" : "linear", dmin, dmax);
-    text(cr, X0, fr->sy0 - 8, b, 0);
+    ml_ticks tk;
+    const ml_status st = a.log ? ml_ticks_log_hz(a.lo, a.hi, 10, &tk) : ml_ticks_linear(a.lo, a.hi, 9, &tk);
+    cairo_set_line_width(cr, 1);
+    for (size_t i = 0; st == ML_OK && i < tk.n; i++) {
+        const double y = fy(fr, &a, tk.tick[i].value);
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        cairo_move_to(cr, X0 - 4, y);
+        cairo_line_to(cr, X0, y);
+        cairo_stroke(cr);
+        text(cr, X0 - 6, y + 4, tk.tick[i].label, 1);
+    }
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    text(cr, 8, fr->sy0 - 10, "Hz", 0);
+    text(cr, X0 + 40, fr->sy0 - 10,
+         a.log ? "spectrogram of this run (logarithmic frequency axis)" : "spectrogram of this run (I/Q: offset from the centre)",
+         0);
+    colour_scale(cr, fr, dmin, dmax);
 }
 
-ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *events_csv,
+/* The surface for the file type (0 PNG, 1 SVG, 2 PDF). */
+static cairo_surface_t *surface(int type, FILE *f)
+{
+    switch (type) {
+    case 0: return cairo_image_surface_create(CAIRO_FORMAT_RGB24, W, H);
+    case 1: return cairo_svg_surface_create_for_stream(ml_plot_write_file, f, W, H);
+    default: return cairo_pdf_surface_create_for_stream(ml_plot_write_file, f, W, H);
+    }
+}
+
+ml_status ml_logplot_write(FILE *out, const char *type_path, const char *rows_csv, const char *events_csv,
                            const ml_logplot_spec *spec, char *err, size_t err_len)
 {
+    const int type = ml_plot_type(type_path);
+    if (type < 0) {
+        snprintf(err, err_len, "no picture type (end the name in .png, .svg or .pdf)");
+        return ML_EINVAL;
+    }
     char line[LINE];
     FILE *f = fopen(rows_csv, "r");
     if (f == NULL) {
         snprintf(err, err_len, "cannot read %s: %s", rows_csv, strerror(errno));
         return ML_EIO;
     }
-    columns c = {-1, -1, -1, -1};
-    if (fgets(line, sizeof line, f))
-        c = (columns){column(line, "offset_s"), column(line, "rms_dbfs"), column(line, "peak_dbfs"),
-                      column(line, "a_weighted_dbfs")};
+    columns c = {-1, -1, -1, -1, -1};
+    if (next_line(f, line, sizeof line))
+        c = (columns){ml_csv_column(line, "offset_s"), ml_csv_column(line, "duration_s"),
+                      ml_csv_column(line, "rms_dbfs"), ml_csv_column(line, "peak_dbfs"),
+                      ml_csv_column(line, "a_weighted_dbfs")};
     frame fr;
     bucket *b = NULL;
     ml_status st = ML_OK;
@@ -352,7 +454,7 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
     fclose(f);
     if (st != ML_OK)
         return st;
-    cairo_surface_t *s = cairo_image_surface_create(CAIRO_FORMAT_RGB24, W, H);
+    cairo_surface_t *s = surface(type, out);
     cairo_t *cr = cairo_create(s);
     cairo_set_source_rgb(cr, 1, 1, 1);
     cairo_paint(cr);
@@ -366,7 +468,13 @@ ml_status ml_logplot_write(const char *png, const char *rows_csv, const char *ev
     spectrogram(cr, &fr, spec);
     cairo_destroy(cr);
     free(b);
-    cairo_status_t cs = cairo_surface_write_to_png(s, png);
+    cairo_surface_flush(s);
+    cairo_status_t cs = cairo_surface_status(s);
+    if (cs == CAIRO_STATUS_SUCCESS && type == 0)
+        cs = cairo_surface_write_to_png_stream(s, ml_plot_write_file, out);
+    cairo_surface_finish(s);
+    if (cs == CAIRO_STATUS_SUCCESS)
+        cs = cairo_surface_status(s);
     cairo_surface_destroy(s);
     if (cs != CAIRO_STATUS_SUCCESS) {
         snprintf(err, err_len, "cannot write: %s", cairo_status_to_string(cs));

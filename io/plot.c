@@ -331,8 +331,10 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
         ml_colour(cr, ML_C_MASK);
         cairo_set_line_width(cr, 1.4);
         for (size_t i = 0; i < p->nmask; i++) {
+            if (isnan(p->mask_hz[i])) /* one side ends: the mask does not apply in between */
+                continue;
             const double xv = ax_x(&ax, p->mask_hz[i]), yv = ax_y(&ax, p->mask_db[i]);
-            if (i == 0 || p->mask_hz[i] < p->mask_hz[i - 1]) /* a new side starts */
+            if (i == 0 || isnan(p->mask_hz[i - 1]))
                 cairo_move_to(cr, xv, yv);
             else
                 cairo_line_to(cr, xv, yv);
@@ -396,6 +398,8 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
         snprintf(b2, sizeof b2, "mask levels refer to %.0f Hz bandwidth", p->mask_rbw_hz);
         ml_colour(cr, ML_C_INK);
         text_at(cr, lx, ly, b2, 1.0, 0.0);
+        if (p->mask_note[0])
+            text_at(cr, lx, ly + fs * 1.35, p->mask_note, 1.0, 0.0);
     }
 }
 

@@ -65,9 +65,11 @@ typedef struct {
     ml_plot_mark marks[ML_PLOT_MAX_MARKS];
     bool has_obw;              /* occupied bandwidth edges                                   */
     double obw_lo_hz, obw_hi_hz;
-    size_t nmask;              /* emission mask polyline (absolute Hz, dBc), both sides      */
+    size_t nmask;              /* emission mask polylines (absolute Hz, dBc), both sides; a
+                                  NAN frequency ends one polyline (the sides are drawn apart)  */
     double mask_hz[ML_PLOT_MAX_MASK], mask_db[ML_PLOT_MAX_MASK];
     double mask_rbw_hz;
+    char mask_note[128];       /* drawn under the mask's legend ("" for none)                 */
     /* envelope in units of the unmodulated carrier Ec (owned; nenv <= ML_PLOT_MAX_ENV) */
     size_t nenv, env_cap;
     double *env;

@@ -104,7 +104,8 @@ static bool whole_number(const json_t *v, double lo, double hi)
     return finite_number(v, &x) && x == floor(x) && x >= lo && x <= hi;
 }
 
-/* a table: an array of objects whose members are numbers or null */
+/* a table: an array of objects whose members are numbers, text or null (a sweep's points carry
+ * their verdict, and the reasons, qualifiers and bounds of a series hold text per point) */
 static ml_status check_table(ctx *c, const char *name, const json_t *arr)
 {
     size_t i;
@@ -116,8 +117,9 @@ static ml_status check_table(ctx *c, const char *name, const json_t *arr)
         const json_t *v;
         double x;
         json_object_foreach((json_t *)row, k, v) {
-            if (!json_is_null(v) && !finite_number(v, &x))
-                return fail(c, "'%s' row %zu: '%.40s' is not a number within +-1e15 or null", name, i + 1, k);
+            if (!json_is_null(v) && !json_is_string(v) && !finite_number(v, &x))
+                return fail(c, "'%s' row %zu: '%.40s' is not a number within +-1e15, text or null", name, i + 1,
+                            k);
         }
     }
     return ML_OK;

@@ -131,7 +131,7 @@ ml_status ml_source_open_file(const char *path, ml_source **out, char *detail, s
     const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
     if (fd < 0) {
         if (detail)
-            snprintf(detail, detail_len, "%s", strerror(errno));
+            snprintf(detail, detail_len, "cannot open: %s", strerror(errno));
         return ML_EIO;
     }
     return open_descriptor(fd, out, detail, detail_len);

@@ -1,9 +1,10 @@
 #!/usr/bin/python3
 """Runs the bad-input corpus (cases.txt over files/) against the modlens executable.
 
-Arguments run as `modlens measure ARGS`, or `modlens compare ...` / `modlens tone ...` when the
-first word is that command (error outcomes only), or `modlens sweep ...` (every outcome). Besides the regular files' contents, the kind
-of every entry of the scratch folder (file, FIFO, device, link and its target) must not change.
+Arguments run as `modlens measure ARGS`, or `modlens compare ...` / `modlens tone ...` /
+`modlens log ...` when the first word is that command (error outcomes only), or `modlens sweep ...`
+(every outcome). Besides the regular files' contents, the kind of every entry of the scratch folder
+(file, FIFO, device, link and its target) must not change.
 
 Usage: /usr/bin/python3 tests/bad/run_corpus.py /path/to/modlens
 
@@ -70,7 +71,7 @@ def no_nonfinite_json(text):
     return not bad
 
 
-COMMANDS = (["compare"], ["tone"], ["sweep"])
+COMMANDS = (["compare"], ["tone"], ["sweep"], ["log"])
 
 
 def with_options(args, opts):
@@ -95,6 +96,13 @@ def main():
             for fn in files:
                 os.chmod(os.path.join(root, fn), 0o644)
         os.mkfifo(os.path.join(work, "fifo.wav"))
+        os.mkfifo(os.path.join(work, "fifo.png"))
+        os.symlink("good.wav", os.path.join(work, "plot-good.png"))  # an input a picture's name reaches
+        # someone's data: 100 kB without a single line break, and a CSV of another program
+        with open(os.path.join(work, "foreign-100k.csv"), "wb") as f:
+            f.write(bytes((7 * i) % 251 + 1 if (7 * i) % 251 + 1 != 10 else 11 for i in range(100000)))
+        with open(os.path.join(work, "other.csv"), "w") as f:
+            f.write("when,what\n2024-01-01,x\n")
         os.mkdir(os.path.join(work, "adir.wav"))
         # links: to an input, to nothing, and to a device node (made here when allowed, else the
         # system's null device, which an unprivileged process cannot replace anyway)
@@ -132,7 +140,7 @@ def main():
             before = digest_tree(work)
             problems = []
             if kind == "error":
-                full = args if "--output" in args or args[:1] == ["tone"] else \
+                full = args if "--output" in args or args[:1] in (["tone"], ["log"]) else \
                     with_options(args, ["--output", "out/report.json"])
                 rc, so, se = run(full)
                 lines = se.splitlines()
@@ -147,8 +155,8 @@ def main():
                 if os.listdir(out) or os.path.exists(os.path.join(work, "nofolder")):
                     problems.append("something was written: %r" % os.listdir(out))
             else:
-                if args[:1] in (["compare"], ["tone"]):
-                    sys.exit("cases.txt: %s: only error outcomes for compare and tone" % name)
+                if args[:1] in (["compare"], ["tone"], ["log"]):
+                    sys.exit("cases.txt: %s: only error outcomes for compare, tone and log" % name)
                 want = 0 if kind == "report" else 1
                 rc, so, se = run(with_options(args, ["--format", "json", "--output", "out/report.json"]))
                 text = ""

@@ -221,3 +221,23 @@ def csv_rows(text):
 def csv_metrics(text):
     """{name: row} of the metric rows of a CSV report."""
     return {r["name"]: r for r in csv_rows(text) if r["row_kind"] == "metric"}
+
+
+def log_lines(path):
+    """The CSV lines of a log's rows or events file as lists of fields (RFC 4180), header first,
+    without the '#' line at its top that says what is logged."""
+    import csv
+    with open(path, newline="") as f:
+        return [r for r in csv.reader(line for line in f if not line.startswith("#"))]
+
+
+def log_dicts(path):
+    """The rows (or events) of a log file as dicts keyed by its header."""
+    lines = log_lines(path)
+    return [dict(zip(lines[0], r)) for r in lines[1:]] if lines else []
+
+
+def log_meta(path):
+    """The first line of a log's file (what is logged), without its newline."""
+    with open(path) as f:
+        return f.readline().rstrip("\n")

@@ -1,13 +1,20 @@
-"""End-to-end test of `modlens log` surviving interruption: kill -9, SIGTERM, restart, rotation.
+"""End-to-end test of `modlens log` surviving interruption: kill -9, SIGTERM, restart, rotation,
+the lock, what a log holds.
 
 Usage: /usr/bin/python3 test_log_restart.py /path/to/modlens
 
 A 40 s file is logged at 0.5 s intervals, read at 8 times real time (--pace, a documented testing
-option) and, once its CSV holds some rows, killed with SIGKILL mid-way: the CSV must parse and end with a complete row. A partial
-line is then appended by hand (as a kill inside a write would leave) and the same command is run
-again: it must cut the partial line, keep one header, and continue so that the rows are exactly
-those of an uninterrupted run. SIGTERM must end a run cleanly with the summary; --rotate-hours
-must split rows by UTC period; bad inputs exit 2 with one line; --plot writes a PNG.
+option) and, once its CSV holds some rows, killed with SIGKILL mid-way: the CSV must parse and end
+with a complete row. A partial line is then appended by hand (as a kill inside a write would
+leave) and the same command is run again: it must cut the partial line, keep one head, and continue
+so that the rows and events are exactly those of an uninterrupted run. A 60 s file with hum from
+20 s is killed inside the hum: resumed from the detectors' state saved beside the log, its events
+are those of an uninterrupted run (one hum event, none lost at the kill, none invented at the
+restart). SIGTERM ends a run cleanly with the summary and closes open events with the reason. A
+second log on the same --out is locked out; another input or other settings are refused (or start
+a new log with --new-log); a file's start recorded in the log does not move when the file's
+modification time does. --rotate-hours splits rows by UTC period; bad inputs exit 2 with one line
+and write nothing; --plot writes a PNG.
 """
 import csv
 import os
@@ -33,8 +40,7 @@ def log(exe, args, **kw):
 
 
 def rows_of(path):
-    with open(path, newline="") as f:
-        return list(csv.reader(f))
+    return E.log_lines(path)
 
 
 def wait_rows(path, n, proc):
@@ -53,6 +59,96 @@ def clean(*names):
     for n in names:
         if os.path.exists(n):
             os.remove(n)
+
+
+def hum_restart(exe, c):
+    """kill -9 inside a hum event, then resume; SIGTERM inside it."""
+    t = np.arange(60 * FS) / FS
+    x = 0.1 * np.sin(2 * np.pi * 1000 * t) + np.random.default_rng(6).normal(0, 1e-3, t.size)
+    on = t >= 20
+    x[on] += 3e-3 * np.sin(2 * np.pi * 50 * t[on]) + 1.5e-3 * np.sin(2 * np.pi * 150 * t[on])
+    E.write("hum.wav", x.astype(np.float32), FS, "FLOAT")
+    common = ["--start-time", "2026-05-01T09:00:00Z", "hum.wav"]
+    rc, _, err = log(exe, ["--out", "href.csv"] + common)
+    ref, ref_ev = rows_of("href.csv"), rows_of("href-events.csv")
+    hum = [r for r in ref_ev[1:] if r[4] == "hum"]
+    c.check("hum reference: one hum event from 20 s to the end", rc == 0 and len(hum) == 1
+            and abs(float(hum[0][2]) - 20) <= 1 and hum[0][3] == "60.000", str(ref_ev[1:]))
+    p = subprocess.Popen([exe, "log", "--out", "hk.csv", "--pace", "8"] + common,
+                         stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    c.check("hum: paced log under way", wait_rows("hk.csv", 2 + 40, p))  # head and 40 rows: 40 s in
+    time.sleep(0.3)
+    p.send_signal(signal.SIGKILL)
+    p.wait(timeout=10)
+    c.check("hum: killed by SIGKILL inside the hum", p.returncode == -signal.SIGKILL
+            and 40 < len(rows_of("hk.csv")) < 61, "%s, %d rows" % (p.returncode, len(rows_of("hk.csv"))))
+    c.check("hum: no hum event written before the kill",
+            not [r for r in rows_of("hk-events.csv")[1:] if r[4] == "hum"])
+    c.check("hum: the detectors' state lies beside the log", os.path.exists("hk.csv.state"))
+    rc, out, err = log(exe, ["--out", "hk.csv"] + common)
+    c.check("hum: resumed, exit 0", rc == 0, err.strip())
+    c.check("hum: resumed rows as in the reference", rows_of("hk.csv") == ref)
+    c.check("hum: resumed events as in the reference (one hum event, none invented)",
+            sorted(rows_of("hk-events.csv")[1:]) == sorted(ref_ev[1:]), str(rows_of("hk-events.csv")[1:]))
+
+    # SIGTERM inside the hum: the open event is closed with the reason
+    p = subprocess.Popen([exe, "log", "--out", "ht.csv", "--pace", "8"] + common,
+                         stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    c.check("hum: paced log under way (2)", wait_rows("ht.csv", 2 + 30, p))
+    p.send_signal(signal.SIGTERM)
+    p.communicate(timeout=10)
+    hum = [r for r in rows_of("ht-events.csv")[1:] if r[4] == "hum"]
+    c.check("SIGTERM closes the open hum event with the reason", p.returncode == 0 and len(hum) == 1
+            and hum[0][8].endswith("; open at terminated (SIGTERM)"), str(hum))
+
+
+def lock_and_identity(exe, c, common):
+    """Two logs on one --out; another input, other settings, a moved modification time."""
+    p = subprocess.Popen([exe, "log", "--out", "lk.csv", "--pace", "8"] + common,
+                         stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    c.check("lock: first log under way", wait_rows("lk.csv", 6, p))
+    rc, out, err = log(exe, ["--out", "lk.csv"] + common)
+    lines = err.strip().splitlines()
+    c.check("lock: a second log on the same --out is refused", rc == 2 and len(lines) == 1
+            and "lk.csv: is being written by another process" in lines[0], err.strip())
+    p.wait(timeout=30)
+    c.check("lock: the first log is whole, rows once each", p.returncode == 0
+            and rows_of("lk.csv") == rows_of("ref.csv"))
+
+    x = E.synth(FS, 5, [(700, 0.2, 0)], seed=5)
+    E.write("other.wav", x, FS, "FLOAT")
+    before = open("ref.csv", "rb").read()
+    rc, out, err = log(exe, ["--out", "ref.csv", "--start-time", "2026-05-01T08:00:00Z", "other.wav"])
+    c.check("another input is refused, the log untouched", rc == 2
+            and "holds a log of something else (it logs input=file:long.wav, this run input=file:other.wav)" in err
+            and open("ref.csv", "rb").read() == before, err.strip())
+    rc, out, err = log(exe, ["--out", "ref.csv", "--interval", "1"] + common[2:])
+    c.check("other settings are refused", rc == 2 and "interval_s=0.5, this run interval_s=1" in err, err.strip())
+    rc, out, err = log(exe, ["--out", "ref.csv", "--new-log", "--start-time", "2026-05-01T08:00:00Z", "other.wav"])
+    c.check("--new-log starts a new log beside it", rc == 0 and len(rows_of("ref-2.csv")) == 6
+            and open("ref.csv", "rb").read() == before and E.log_meta("ref-2.csv").find("other.wav") > 0, err.strip())
+
+    # a file's start: its modification time minus its length, recorded in the log; a later
+    # modification time does not move the rows of the same log
+    os.utime("long.wav", (1700000000, 1700000000))
+    rc, _, err = log(exe, ["--out", "mt.csv", "--seconds", "10", "long.wav"])
+    os.utime("long.wav", (1800000000, 1800000000))
+    rc2, _, err2 = log(exe, ["--out", "mt.csv", "long.wav"])
+    rows = E.log_dicts("mt.csv")
+    t0 = {round(E_utc(r["start_utc"]) - float(r["offset_s"]), 3) for r in rows}
+    # 1700000000 - 40 s = 2023-11-14T22:12:40Z: every row's start is that plus its offset
+    c.check("start times never jump inside one log", rc == 0 and rc2 == 0 and len(rows) == 40
+            and t0 == {1700000000 - 40.0}, "%s %s %s" % (sorted(t0)[:3], err.strip(), err2.strip()))
+    rc, _, err = log(exe, ["--out", "mt.csv", "--start-time", "2026-05-01T08:00:00Z", "long.wav"])
+    c.check("a --start-time that contradicts the log is refused", rc == 2 and "--start-time says" in err,
+            err.strip())
+
+
+def E_utc(s):
+    """Seconds since 1970 of an ISO 8601 UTC time with milliseconds (YYYY-MM-DDTHH:MM:SS.fffZ)."""
+    import datetime
+    d = datetime.datetime.strptime(s, "%Y-%m-%dT%H:%M:%S.%fZ").replace(tzinfo=datetime.timezone.utc)
+    return d.timestamp()
 
 
 def main():
@@ -91,12 +187,15 @@ def main():
         c.check("restart exit 0", rc == 0, err.strip())
         c.check("one header after restart", sum(1 for r in k2 if r and r[0] == "start_utc") == 1)
         c.check("restart continues: offsets as in the reference",
-                [r[1] for r in k2] == [r[1] for r in ref], "%d vs %d rows" % (len(k2), len(ref)))
-        c.check("levels as in the reference", [r[3:5] for r in k2] == [r[3:5] for r in ref])
+                [r[2] for r in k2] == [r[2] for r in ref], "%d vs %d rows" % (len(k2), len(ref)))
+        # every cell, A-weighting included: the filter's state comes back from the saved state
+        c.check("rows as in the reference, cell by cell", k2 == ref,
+                str([(a, b) for a, b in zip(k2, ref) if a != b][:2]))
         ev = rows_of("k-events.csv")
-        keys = [(r[1], r[3]) for r in ev[1:]]
+        keys = [(r[2], r[4]) for r in ev[1:]]
         c.check("no duplicated events", len(keys) == len(set(keys)), str(keys))
-        c.check("impulses found across the restart", sum(1 for r in ev[1:] if r[3] == "impulse") >= 3, str(keys))
+        c.check("impulses found across the restart", sum(1 for r in ev[1:] if r[4] == "impulse") >= 3, str(keys))
+        c.check("events as in the reference", sorted(ev[1:]) == sorted(rows_of("ref-events.csv")[1:]))
         rc, out, err = log(exe, ["--out", "k.csv"] + common)
         c.check("a complete log is left alone", rc == 0 and rows_of("k.csv") == k2 and "already" in out, out.strip())
 
@@ -112,10 +211,13 @@ def main():
         c.check("SIGTERM: last row marked", t[-1][-1] == "terminated (SIGTERM)", str(t[-1][-3:]))
         rc, _, _ = log(exe, ["--out", "t.csv"] + common)
         t = rows_of("t.csv")
-        off = [(float(r[1]), float(r[2])) for r in t[1:]]
+        off = [(float(r[2]), float(r[3])) for r in t[1:]]
         contiguous = all(abs(a[0] + a[1] - b[0]) < 1.5e-3 for a, b in zip(off, off[1:]))
         c.check("after SIGTERM the restart is contiguous to the end",
                 contiguous and abs(off[-1][0] + off[-1][1] - 40.0) < 1e-3, str(off[-2:]))
+
+        hum_restart(exe, c)
+        lock_and_identity(exe, c, common)
 
         # rotation every 0.0025 h = 9 s of UTC time: rows 0..8.5 s, 9..17.5 s, ... in five files
         rc, _, err = log(exe, ["--out", "rot.csv", "--rotate-hours", "0.0025"] + common)
@@ -125,7 +227,7 @@ def main():
         total = sum(len(rows_of(n)) - 1 for n in names)
         c.check("rotation keeps every row once", total == 80, str(total))
         c.check("rotation: events files beside rows", all(os.path.exists(n[:-4] + "-events.csv") for n in names))
-        c.check("rotated rows start in their period", names and rows_of(names[1])[1][1] == "9.000")
+        c.check("rotated rows start in their period", names and rows_of(names[1])[1][2] == "9.000")
 
         # plot: a PNG of the documented size
         rc, _, err = log(exe, ["--out", "pl.csv", "--plot", "pl.png"] + common)
@@ -140,7 +242,7 @@ def main():
                 ("missing file", ["--out", "m.csv", "nosuch.wav"], "nosuch.wav:"),
                 # no sound card and no audio server on the test machines (a live log: tests/live)
                 ("unknown device", ["--out", "m.csv", "--device", "nosuch-device"], "nosuch-device:"),
-                ("foreign csv", ["--out", "other.csv", "long.wav"], "different columns"),
+                ("foreign csv", ["--out", "other.csv", "long.wav"], "holds something other than a modlens log"),
                 ("no --out", ["long.wav"], "--out"),
                 ("bad interval", ["--out", "m.csv", "--interval", "0", "long.wav"], "--interval"),
                 ("same rows and events", ["--out", "m.csv", "--events", "m.csv", "long.wav"], "same file")):

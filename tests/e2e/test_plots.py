@@ -105,6 +105,70 @@ def a4(w, h):
     return abs(w - 298) <= 1 and abs(h - 421) <= 1
 
 
+def svg_mask_subpaths(path):
+    """The emission mask's polylines in an SVG picture (io/plot.c draws them in ML_C_MASK,
+    0.85/0.25/0.20, dashed): [[(x, y), ...], ...] from the paths' M/L commands."""
+    root = ET.parse(path).getroot()
+    out = []
+    for e in root.iter():
+        st = (e.get("style") or "").replace(" ", "") + ";stroke:" + (e.get("stroke") or "")
+        if e.tag.endswith("path") and "stroke:rgb(85%,25%,20%)" in st and "stroke-dasharray" in st:
+            sub = None
+            tok = e.get("d", "").replace(",", " ").split()
+            i = 0
+            while i < len(tok):
+                if tok[i] in ("M", "L"):
+                    pt = (float(tok[i + 1]), float(tok[i + 2]))
+                    if tok[i] == "M":
+                        sub = [pt]
+                        out.append(sub)
+                    else:
+                        sub.append(pt)
+                    i += 3
+                else:
+                    i += 1
+    return out
+
+
+def mask_plot(exe, ck):
+    """The emission mask applies from its first offset out: its line must not run across the
+    carrier and its sidebands; a capture that holds only part of the mask says so. The profile is
+    47 CFR 73.44's (profiles/am-broadcast-us.ini: from 10.2 kHz to 75 kHz); at 48 kHz I/Q with the
+    carrier 2 kHz above the centre the capture holds +-22 kHz of it."""
+    fc, a = 2000.0, 0.3
+    t = np.arange(4 * FS) / FS
+    z = a * (1 + 0.5 * np.cos(2 * np.pi * 1000 * t)) * np.exp(2j * np.pi * fc * t)
+    z[:FS] = a * np.exp(2j * np.pi * fc * t[:FS])  # an unmodulated second first
+    E.write("mask-iq.wav", np.column_stack([z.real, z.imag]), FS, "FLOAT")
+    prof = os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "..", "profiles", "am-broadcast-us.ini")
+    for ext in ("svg", "pdf"):
+        rc, _, err = E.run(exe, ["--limits", prof, "--plot", "mask." + ext, "--kind", "iq", "mask-iq.wav"])
+        ck.check("mask --plot %s written" % ext, rc in (0, 1) and os.path.exists("mask." + ext), err.strip())
+    subs = svg_mask_subpaths("mask.svg") if os.path.exists("mask.svg") else []
+    pts = sorted(p for s in subs for p in s)
+    # the carrier lies midway between the two innermost points (f_c -+ 10.2 kHz)
+    inner = sorted((p[0] for p in pts), key=lambda x: x)
+    ok = len(subs) == 2 and len(pts) >= 4
+    if ok:
+        lo_side = max(subs, key=lambda s: -max(p[0] for p in s))
+        hi_side = max(subs, key=lambda s: min(p[0] for p in s))
+        xc = (max(p[0] for p in lo_side) + min(p[0] for p in hi_side)) / 2
+        ok = all(not (min(a[0], b[0]) < xc < max(a[0], b[0])) for s in subs for a, b in zip(s, s[1:]))
+    ck.check("the mask's line stops where the mask does (two sides, nothing across the carrier)", ok,
+             "%d polylines %s" % (len(subs), [len(s) for s in subs]) + (" x %s" % inner[:2] if inner else ""))
+    text = subprocess.run(["pdftotext", "mask.pdf", "-"], capture_output=True, timeout=60).stdout.decode() \
+        if os.path.exists("mask.pdf") else ""
+    ck.check("a note says the capture holds only part of the mask",
+             "the capture covers the mask only to +-22.0 kHz of its 75.0 kHz" in text, text[-300:])
+    # a mask the capture holds whole: no such note
+    open("mask-in.ini", "w").write("[mask]\npoints = 5000:-25, 10000:-25, 10000:-35, 15000:-35\nrbw_hz = 300\n")
+    rc, _, err = E.run(exe, ["--limits", "mask-in.ini", "--plot", "mask-in.pdf", "--kind", "iq", "mask-iq.wav"])
+    text = subprocess.run(["pdftotext", "mask-in.pdf", "-"], capture_output=True, timeout=60).stdout.decode() \
+        if os.path.exists("mask-in.pdf") else ""
+    ck.check("a mask the capture holds whole: no note", rc in (0, 1) and "emission mask" in text
+             and "covers" not in text, err.strip())
+
+
 def main():
     exe = E.modlens_path()
     ck = E.Checker("test_plots")
@@ -189,6 +253,8 @@ def main():
             ck.check("compare report: 2 A4 pages, not blank",
                      len(pages) == 2 and all(a4(w, h) and ink(q) > 0.02 for w, h, q in pages),
                      repr([(w, h, round(ink(q), 3)) for w, h, q in pages]))
+
+        mask_plot(exe, ck)
 
         # bad names: usage error, one line, nothing written
         for args, bad in ((["--plot", "x.txt", "tone.wav"], "x.txt"), (["--report", "x.png", "tone.wav"], "x.png"),

@@ -171,6 +171,15 @@ def check_audio(exe, ck):
     rc, out, err = sweep(exe, ["audio.wav"])
     ck.check("audio: text report lists the points", rc == 0 and "sweep points (sweep.points)" in out
              and "n/a [" in out, err.strip())
+    # a saved sweep report is read back by compare (its points' verdicts and reasons are text)
+    rc, _, err = sweep(exe, ["--format", "json", "--output", "sweep-a.json", "audio.wav"])
+    rc2, out, err2 = E.run_cmd(exe, ["compare", "--format", "json", "sweep-a.json", "sweep-a.json"])
+    try:
+        names = [m["metric"] for m in json.loads(out)["metrics"]] if rc2 == 0 else []
+    except (ValueError, KeyError, TypeError):
+        names = []
+    ck.check("audio: compare reads two saved sweep reports and compares their summary figures",
+             rc == 0 and rc2 == 0 and "sweep.reference_hz" in names, (err + err2).strip() + out[:300])
 
 
 def check_am(exe, ck, iq):

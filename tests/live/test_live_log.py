@@ -29,9 +29,10 @@ CAPTURE = os.path.join(HERE, "..", "..", "captures", "receiver-1khz.wav")
 
 
 def rows(path):
+    """The file's text and its rows as dicts (the '#' line that says what is logged skipped)."""
     with open(path, newline="") as f:
         text = f.read()
-    return text, list(csv.DictReader(text.splitlines()))
+    return text, list(csv.DictReader(line for line in text.splitlines() if not line.startswith("#")))
 
 
 def main():
@@ -63,10 +64,9 @@ def main():
             log.send_signal(signal.SIGKILL)
             log.wait(timeout=10)
             text, r = rows("k.csv")
-            header = text.splitlines()[0].split(",")
+            lines = list(csv.reader(line for line in text.splitlines() if not line.startswith("#")))
             ck.check("after kill -9: ends with a newline, every row complete", text.endswith("\n")
-                     and all(len(line.split(",")) == len(header) for line in text.splitlines()) and len(r) >= 2,
-                     f"{len(r)} rows")
+                     and all(len(f) == len(lines[0]) for f in lines) and len(r) >= 2, f"{len(r)} rows")
             n_before = len(r)
             last = float(r[-1]["offset_s"]) if r else 0.0
             # restart with the same --out: appends after the last row, one header
@@ -90,6 +90,11 @@ def main():
                      err.strip())
             text, r = rows("g.csv")
             ck.check("server gone: rows kept", len(r) >= 2 and text.endswith("\n"), str(len(r)))
+            # the last row's note holds the reason, commas and all, in one quoted field (RFC 4180)
+            lines = list(csv.reader(line for line in text.splitlines() if not line.startswith("#")))
+            ck.check("server gone: every row has the header's fields, the reason in the note",
+                     all(len(f) == len(lines[0]) for f in lines) and "stopped delivering" in r[-1]["note"],
+                     r[-1]["note"] if r else "")
             _, ev = rows("g-events.csv")
             ck.check("server gone: an input-end event", any(e["kind"] == "input-end" for e in ev), str(ev))
     ck.finish()

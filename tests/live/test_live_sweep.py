@@ -74,7 +74,8 @@ def main():
                          == [(x["frequency_hz"], x["relative_db"], x["thd_pct"]) for x in b],
                          "%s / %s" % (a[:1], b[:1]))
             # two levels: two groups, each with its own reference
-            rc, rep, err = sweep_json(srv, exe, ["--device", "loopback", "--freqs", "200,1000,5000",
+            rc, rep, err = sweep_json(srv, exe, ["--device", "loopback", "--play-device", "loopback",
+                                                 "--freqs", "200,1000,5000",
                                                  "--levels", "-30,-10", "--step-seconds", "0.6",
                                                  "--pause-seconds", "0.2"])
             ck.check("two levels: exits 0", rc == 0 and rep is not None, err.strip())

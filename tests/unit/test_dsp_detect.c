@@ -252,6 +252,99 @@ START_TEST(change_config_rejected)
 }
 END_TEST
 
+/* The events of two detectors whose stream is cut at `cut`: the first saves its state there, the
+ * second (a new object of the same config) restores it and takes the rest. */
+START_TEST(impulse_save_restore_continues_exactly)
+{
+    /* A continued stream must give exactly the events of an uninterrupted one (a log resumed in
+     * another process): the cut falls inside an open click's burst (the burst's frames, the
+     * partial frame and the difference's history all carry over) and elsewhere. */
+    float *x = noisy(clicks, 3, 1);
+    ml_impulse_config c = ml_impulse_config_default(RATE);
+    ml_impulse *a = NULL, *b = NULL;
+    ck_assert_int_eq(ml_impulse_create(&c, &a), ML_OK);
+    ck_assert_int_eq(ml_impulse_create(&c, &b), ML_OK);
+    ml_event ref[16], ev[16];
+    const size_t nref = run_impulse(a, x, NS, 4096, ref, 16);
+    const size_t cuts[] = {120011 + 30, 150001, 60000};
+    for (size_t k = 0; k < 3; k++) {
+        ml_impulse_reset(a);
+        size_t n1 = 0, n2 = 0;
+        ck_assert_int_eq(ml_impulse_push(a, x, cuts[k], ev, 16, &n1), ML_OK);
+        const size_t need = ml_impulse_save(a, NULL, 0);
+        double *st = malloc(need * sizeof *st);
+        ck_assert_uint_eq(ml_impulse_save(a, st, need), need);
+        ck_assert_int_eq(ml_impulse_restore(b, st, need, true), ML_OK);
+        n2 = run_impulse(b, x + cuts[k], NS - cuts[k], 4096, ev + n1, 16 - n1);
+        ck_assert_uint_eq(n1 + n2, nref);
+        for (size_t i = 0; i < nref; i++) {
+            ck_assert_int_eq(ev[i].start, ref[i].start);
+            ck_assert_int_eq(ev[i].end, ref[i].end);
+            ck_assert_double_eq(ev[i].peak_db, ref[i].peak_db);
+            ck_assert_double_eq(ev[i].baseline_db, ref[i].baseline_db);
+        }
+        /* not continuous: only the floor; the next samples start afresh, judged at once, and the
+         * step from silence to the signal is no impulse */
+        ck_assert_int_eq(ml_impulse_restore(b, st, need, false), ML_OK);
+        size_t n3 = run_impulse(b, x + 150001, NS - 150001, 4096, ev, 16);
+        ck_assert_uint_eq(n3, 1); /* the click at 200000 */
+        ck_assert_int_eq(ev[0].start, (200000 - 150001) / 48);
+        /* damaged states are refused and change nothing */
+        st[0] = 99;
+        ck_assert_int_eq(ml_impulse_restore(b, st, need, true), ML_EINVAL);
+        st[0] = 1;
+        ck_assert_int_eq(ml_impulse_restore(b, st, need - 1, true), ML_EINVAL);
+        st[5] = 1e9;
+        ck_assert_int_eq(ml_impulse_restore(b, st, need, true), ML_EINVAL);
+        free(st);
+    }
+    ml_impulse_destroy(a);
+    ml_impulse_destroy(b);
+    free(x);
+}
+END_TEST
+
+START_TEST(change_save_restore_continues)
+{
+    /* Cut inside the rise (30..50 s): the restored detector finishes the same event; rebased, the
+     * next value is index 0 and the open change's start is a negative index of the values before. */
+    double v[700];
+    levels(v, 700);
+    ml_change_config c = ml_change_config_default(10.0, +1, 6.0);
+    ml_change *a = NULL, *b = NULL;
+    ck_assert_int_eq(ml_change_create(&c, &a), ML_OK);
+    ck_assert_int_eq(ml_change_create(&c, &b), ML_OK);
+    ml_event ev[8];
+    size_t n = 0;
+    ck_assert_int_eq(ml_change_push(a, v, 400, ev, 8, &n), ML_OK);
+    ck_assert_uint_eq(n, 0);
+    int64_t start = 0, in_start = 0;
+    bool in_run = true;
+    ck_assert(ml_change_get_open(a, &start, &in_run, &in_start));
+    ck_assert_int_eq(start, 300);
+    ck_assert(!in_run);
+    const size_t need = ml_change_save(a, NULL, 0);
+    double *st = malloc(need * sizeof *st);
+    ck_assert_uint_eq(ml_change_save(a, st, need), need);
+    ck_assert_int_eq(ml_change_restore(b, st, need, false), ML_OK);
+    ck_assert_double_eq(ml_change_get_baseline(b), ml_change_get_baseline(a)); /* frozen at the rise's start */
+    ck_assert_int_eq(ml_change_get_state(b), 2);
+    ck_assert_uint_eq(run_change(b, v + 400, 300, 7, ev, 8), 1);
+    ck_assert_int_eq(ev[0].start, 300);
+    ck_assert_int_eq(ev[0].end, 500);
+    ck_assert_double_eq_tol(ev[0].rise_db, 15.0, 0.1);
+    ck_assert_int_eq(ml_change_restore(b, st, need, true), ML_OK);
+    ck_assert_uint_eq(run_change(b, v + 400, 300, 700, ev, 8), 1);
+    ck_assert_int_eq(ev[0].start, 300 - 400);
+    ck_assert_int_eq(ev[0].end, 500 - 400);
+    st[1] = 7; /* no such state */
+    ck_assert_int_eq(ml_change_restore(b, st, need, false), ML_EINVAL);
+    free(st);
+    ml_change_destroy(a);
+    ml_change_destroy(b);
+}
+END_TEST
+
 int main(void)
 {
     Suite *s = suite_create("dsp_detect");
@@ -265,6 +358,8 @@ int main(void)
     tcase_add_test(tc, change_rise_found_spike_ignored);
     tcase_add_test(tc, change_fall_finish_and_max);
     tcase_add_test(tc, change_config_rejected);
+    tcase_add_test(tc, impulse_save_restore_continues_exactly);
+    tcase_add_test(tc, change_save_restore_continues);
     suite_add_tcase(s, tc);
     return ml_check_run(s);
 }
