@@ -249,19 +249,61 @@ static void notes(const mod_pass *p, const ml_modulation_result *r, const ml_lev
                        "carrier shift is not measured (give --carrier-reference, or include a carrier-only "
                        "stretch)");
     if (isfinite(r->index) && isfinite(r->index_spectral)
-        && fabs(r->index - r->index_spectral) > INDEX_TOLERANCE)
+        && fabs(r->index - r->index_spectral) > INDEX_TOLERANCE && !r->peaks_noise_biased)
         ml_report_note(
             rep,
             "envelope and spectral modulation index disagree by %.3f (more than %.2f): the modulation is "
             "not a single clean tone, or it is distorted or over 100 %%",
             fabs(r->index - r->index_spectral), INDEX_TOLERANCE);
+    if (r->peaks_noise_biased)
+        ml_report_note(rep,
+                       "noise: the envelope index exceeds the spectral one by %.4f, about what noise of %.2f %% "
+                       "of C does to the held peaks (up to %.2f %%); index_spectral is the better reading",
+                       r->index - r->index_spectral, r->noise_pct, r->held_noise_pct);
     if (r->pinch_events + r->reversal_events > 0)
-        ml_report_note(rep, "overmodulation: %llu carrier pinch-off and %llu phase-reversal events",
-                       (unsigned long long)r->pinch_events, (unsigned long long)r->reversal_events);
+        ml_report_note(rep,
+                       "overmodulation: %llu carrier pinch-off and %llu phase-reversal troughs; the carrier was "
+                       "off %.3f %% and reversed %.3f %% of the modulated time",
+                       (unsigned long long)r->pinch_events, (unsigned long long)r->reversal_events,
+                       r->carrier_off_pct, r->overmodulation_pct - r->carrier_off_pct);
+    if (r->absent_s > 0)
+        ml_report_note(rep,
+                       "the carrier was absent for %.2f s (20 ms blocks whose mean envelope is below 10 %% of the "
+                       "carrier): those stretches are in no figure",
+                       r->absent_s);
     if (lv->clipped > 0)
         ml_report_note(rep, "clipping: %llu samples at or within 1 LSB of full scale",
                        (unsigned long long)lv->clipped);
     (void)p;
+}
+
+/* Reasons and qualifiers of the peak figures (dsp/modulation.h says when each applies). */
+static void qualify(const ml_modulation_result *r, ml_report *rep)
+{
+    if (r->positive_peak_why) {
+        ml_report_unmeasured(rep, "modulation.positive_peak_held_pct", "%s", r->positive_peak_why);
+        if (!isfinite(r->positive_peak_pct))
+            ml_report_unmeasured(rep, "modulation.positive_peak_pct", "%s", r->positive_peak_why);
+    }
+    if (r->negative_peak_why)
+        ml_report_unmeasured(rep, "modulation.negative_peak_pct", "%s", r->negative_peak_why);
+    if (r->top_noise_pct >= 0.5)
+        ml_report_qualify(rep, "modulation.positive_peak_pct",
+                          "true peak: noise of %.2f %% of C lifts it by up to about %.1f %%", r->noise_pct,
+                          r->top_noise_pct);
+    if (r->peaks_noise_biased) {
+        static const char *const names[] = {"modulation.index", "modulation.positive_peak_held_pct",
+                                            "modulation.negative_peak_pct"};
+        for (size_t i = 0; i < sizeof names / sizeof *names; i++)
+            ml_report_qualify(rep, names[i], "noise-biased: noise moves held peaks by up to %.2f %% of C "
+                              "(index_spectral %.4f)", r->held_noise_pct, r->index_spectral);
+    }
+    if (r->shift_from_line)
+        ml_report_qualify(rep, "modulation.carrier_shift_pct",
+                          "from the carrier line: under phase reversal the mean envelope is not the carrier");
+    if (r->floor_from_noise)
+        ml_report_qualify(rep, "modulation.carrier_off_pct",
+                          "noise-limited: the carrier counts as off below %.1f %% of C", r->floor_pct);
 }
 
 /* The emission mask's margin, when the profile has one. */
@@ -286,16 +328,24 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
 {
     const ml_measure_opts *o = p->o;
     ml_modulation_result r;
-    if (ml_modulation_get_result(p->mod, &r) != ML_OK)
+    if (ml_modulation_get_result(p->mod, &r) != ML_OK) {
+        if (r.no_carrier != NULL && isfinite(r.carrier_prominence_db))
+            return ml_cli_error("%s: no carrier at %.1f Hz: its line stands %.1f dB out of the spectrum around it "
+                                "(at least %.0f dB needed)",
+                                o->in.path, r.carrier_hz, r.carrier_prominence_db, ML_MODULATION_MIN_PROMINENCE_DB);
+        if (r.no_carrier != NULL)
+            return ml_cli_error("%s: no carrier at %.1f Hz: %s", o->in.path, r.carrier_hz, r.no_carrier);
         return ml_cli_error(r.samples == 0 ? "%s: no envelope could be measured"
                                            : "%s: the carrier vanishes: no envelope to measure",
                             o->in.path);
+    }
     ml_measure_describe(rep, o, p->seg, p->iq ? "iq" : "if", reason);
     if (r.audio_no_signal != NULL)
         ml_report_note(rep, "no modulation in the demodulated audio band: %s", r.audio_no_signal);
     ml_value v[ML_VALUES_MAX];
     const size_t n = ml_values_modulation(&r, p->nominal_hz, p->ch.has_ref, v);
     ml_values_report(rep, v, n - 1); /* spectrum.occupied_bandwidth_hz after the trapezoid's note */
+    qualify(&r, rep);
     if (p->ch.has_ref && !r.has_trapezoid)
         ml_report_note(rep, "the reference channel is silent: no trapezoid");
     ml_values_report(rep, v + n - 1, 1);
@@ -314,9 +364,9 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_report_add_text(rep, "modulation.overmodulation_kind", ml_values_overmodulation_kind(&r));
     snprintf(rep->analysis, sizeof rep->analysis,
              "carrier %.1f Hz, channel filter +-%.0f Hz (%zu taps; %zu samples of settling left out at each "
-             "end), %s window, %zu-point FFT%s, peak hold %.3g ms/s",
+             "end), %s window, %zu-point FFT%s, peak hold %.3g ms/s, pinch-off floor %.2f %% of C",
              r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->an.window), r.rf_nfft,
-             r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms);
+             r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms, r.floor_pct);
     notes(p, &r, &lv, rep);
     ml_dropout_result *dr = malloc(sizeof *dr);
     if (dr != NULL && ml_dropout_get(p->drop, dr) == ML_OK && dr->nevents > 0) {

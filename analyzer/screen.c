@@ -3,7 +3,9 @@
  *
  * Readings view (if/iq): two horizontal bars on a 0..150 % scale, negative peak above positive
  * peak, each with its hold marker 'H' and the profile's limit '|'; the latched overmodulation
- * banner; carrier and envelope figures. Audio: level, distortion, noise and hum figures. The
+ * banner, or "no carrier" when the window holds none; carrier and envelope figures. Audio: the
+ * input level bar (peak and r.m.s. dBFS over -60..0 dBFS) with its latched clip mark, then level,
+ * distortion, noise and hum figures. The
  * spectrum view draws one column per character cell. The status line and the key line are at the
  * bottom. Everything is laid out from the current terminal size (at least 80 x 24).
  */
@@ -126,24 +128,47 @@ static void scale(int y)
     mvprintw(y, 1, "%%");
 }
 
+/* A banner across row y in the warning's colours. */
+static void banner(const ml_screen *s, int y, const char *text)
+{
+    if (s->color)
+        attron(COLOR_PAIR(1));
+    attron(A_BOLD | A_REVERSE);
+    mvprintw(y, 1, "%-*s", COLS - 2, "");
+    mvprintw(y, 2, "%s", text);
+    attroff(A_BOLD | A_REVERSE);
+    if (s->color)
+        attroff(COLOR_PAIR(1));
+}
+
 static void readings_mod(const ml_screen *s, const ml_watch_view *v)
 {
     const ml_modulation_result *r = &v->res.modulation;
     bar(s, 2, "negative peak", v->have ? r->negative_peak_pct : NAN, v->neg_hold_pct, v->neg_limit_pct);
     bar(s, 5, "positive peak", v->have ? r->positive_peak_pct : NAN, v->pos_hold_pct, v->pos_limit_pct);
     scale(7);
+    if (v->no_signal) { /* before the latch: a warning latched earlier is still shown below */
+        char t[160], why[64];
+        if (isfinite(v->absent_s))
+            snprintf(why, sizeof why, "the signal is gone for %.2f s of the window", v->absent_s);
+        else
+            snprintf(why, sizeof why, "the window holds no carrier line");
+        snprintf(t, sizeof t, "no carrier / no signal: %s%s", why,
+                 v->overmod ? " (overmodulation latched earlier; r clears)" : "");
+        banner(s, 8, t);
+    }
     if (v->overmod) {
         if (s->color)
             attron(COLOR_PAIR(1));
         attron(A_BOLD | A_REVERSE);
         mvprintw(9, 1, "%-*s", COLS - 2, "");
-        mvprintw(9, 2, "*** OVERMODULATION *** %.34s at %.1f s (r clears)", v->overmod_why, v->overmod_at_s);
+        mvprintw(9, 2, "*** OVERMODULATION *** %.48s at %.1f s (r clears)", v->overmod_why, v->overmod_at_s);
         attroff(A_BOLD | A_REVERSE);
         if (s->color)
             attroff(COLOR_PAIR(1));
     } else {
-        mvprintw(9, 2, "no overmodulation (latches at 100 %% negative or %.0f %% positive)",
-                 v->latch_limit_pct);
+        mvprintw(9, 2, "no overmodulation (latches beyond %.0f %% negative, carrier off over %.1f %%, or %.0f %% "
+                 "positive)", v->neg_latch_pct, v->off_latch_pct, v->latch_limit_pct);
     }
     char a[32], b[32], c[32];
     num(a, sizeof a, "%.3f Hz", v->have ? r->carrier_hz : NAN);
@@ -160,6 +185,9 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
     num(a, sizeof a, "%.1f Hz", v->have ? r->audio.fundamental_hz : NAN);
     mvprintw(14, 2, "tone        %-16s overmodulated updates %llu", a,
              (unsigned long long)v->overmod_updates);
+    num(a, sizeof a, "%.1f %%", v->have ? r->positive_peak_held_pct : NAN);
+    num(b, sizeof b, "%.2f %%", v->have ? r->carrier_off_pct : NAN);
+    mvprintw(16, 2, "held peak   %-16s carrier off %s", a, b);
     num(a, sizeof a, "%.2f dBFS", v->have ? r->unmodulated_dbfs : NAN);
     num(b, sizeof b, "%+.2f %%", v->have ? r->carrier_shift_pct : NAN);
     static const char *const from[] = {"reference file", "unmodulated stretch", "latched", "mean envelope"};
@@ -167,24 +195,66 @@ static void readings_mod(const ml_screen *s, const ml_watch_view *v)
              v->have && r->c_source <= ML_C_MEAN ? from[r->c_source] : "-");
 }
 
-static void readings_audio(const ml_watch_view *v)
+#define LEVEL_MIN_DBFS (-60.0)
+
+/* The input level bar: '#' up to the r.m.s. level, '=' on to the peak, over -60..0 dBFS. */
+static void level_bar(const ml_screen *s, const ml_watch_view *v, int y)
+{
+    char a[32], b[32];
+    num(a, sizeof a, "%6.1f dBFS", v->level_peak_dbfs);
+    num(b, sizeof b, "%6.1f dBFS", v->level_rms_dbfs);
+    mvprintw(y, 1, "input level    peak %s   r.m.s. %s", a, b);
+    if (v->clip) {
+        char t[64];
+        snprintf(t, sizeof t, " CLIP at %.1f s (r clears) ", v->clip_at_s);
+        if (s->color)
+            attron(COLOR_PAIR(1));
+        attron(A_BOLD | A_REVERSE);
+        mvprintw(y, COLS - (int)strlen(t) - 2, "%s", t);
+        attroff(A_BOLD | A_REVERSE);
+        if (s->color)
+            attroff(COLOR_PAIR(1));
+    }
+    const int x0 = 8, w = COLS - x0 - 2;
+    const double span = -LEVEL_MIN_DBFS;
+    const int pk = isfinite(v->level_peak_dbfs)
+                       ? (int)lround(fmin(fmax(v->level_peak_dbfs - LEVEL_MIN_DBFS, 0), span) / span * w) : 0;
+    const int rm = isfinite(v->level_rms_dbfs)
+                       ? (int)lround(fmin(fmax(v->level_rms_dbfs - LEVEL_MIN_DBFS, 0), span) / span * w) : 0;
+    mvaddch(y + 1, x0 - 1, '[');
+    mvaddch(y + 1, x0 + w, ']');
+    for (int i = 0; i < w; i++)
+        mvaddch(y + 1, x0 + i, i < rm ? '#' : i < pk ? '=' : '.');
+    for (int d = (int)LEVEL_MIN_DBFS; d <= 0; d += 10) {
+        int x = x0 + (int)lround((d - LEVEL_MIN_DBFS) / span * w);
+        if (x > x0 + w - 3)
+            x = x0 + w - 3;
+        mvprintw(y + 2, x, "%d", d);
+    }
+    mvprintw(y + 2, 1, "dBFS");
+}
+
+static void readings_audio(const ml_screen *s, const ml_watch_view *v)
 {
     const ml_audio_plain_figures *r = &v->res.audio;
     char a[32], b[32];
+    level_bar(s, v, 2);
+    if (v->no_signal)
+        banner(s, 5, "no signal: the input is digital silence");
     num(a, sizeof a, "%.2f dBFS", v->have ? v->res.rms_dbfs : NAN);
     num(b, sizeof b, "%.2f dBFS", v->have ? r->fundamental_dbfs : NAN);
-    mvprintw(3, 2, "level (RMS)      %-16s tone level  %s", a, b);
+    mvprintw(7, 2, "level (RMS)      %-16s tone level  %s", a, b);
     num(a, sizeof a, "%.3f Hz", v->have ? r->fundamental_hz : NAN);
-    mvprintw(5, 2, "tone frequency   %s", a);
+    mvprintw(9, 2, "tone frequency   %s", a);
     num(a, sizeof a, "%.4f %%", v->have ? r->thd_pct : NAN);
     num(b, sizeof b, "%.4f %%", v->have ? r->thdn_pct : NAN);
-    mvprintw(7, 2, "THD              %-16s THD+N       %s", a, b);
+    mvprintw(11, 2, "THD              %-16s THD+N       %s", a, b);
     num(a, sizeof a, "%.2f dB", v->have ? r->snr_db : NAN);
     num(b, sizeof b, "%.2f dB", v->have ? r->sinad_db : NAN);
-    mvprintw(9, 2, "SNR              %-16s SINAD       %s", a, b);
+    mvprintw(13, 2, "SNR              %-16s SINAD       %s", a, b);
     num(a, sizeof a, "%.2f dBFS", v->have ? r->hum_dbfs : NAN);
     num(b, sizeof b, "%.2f dBc", v->have ? r->hum_dbc : NAN);
-    mvprintw(11, 2, "hum              %-16s re tone     %s", a, b);
+    mvprintw(15, 2, "hum              %-16s re tone     %s", a, b);
 }
 
 static void spectrum(const ml_watch_view *v, int top, int bottom)
@@ -222,11 +292,11 @@ void ml_screen_draw(ml_screen *s, const ml_watch_view *v)
              v->spectrum ? "- spectrum" : "- readings");
     attroff(A_BOLD);
     mvprintw(0, COLS - 30, "window %.2f s %s", v->window_s,
-             v->frozen ? " [FROZEN]" : (v->have ? "" : " [filling]"));
+             v->frozen ? " [FROZEN]" : v->no_signal ? " [no signal]" : v->filled ? "" : " [filling]");
     if (v->spectrum)
         spectrum(v, 2, LINES - 4);
     else if (v->kind == ML_MONITOR_AUDIO)
-        readings_audio(v);
+        readings_audio(s, v);
     else
         readings_mod(s, v);
     if (v->spectrum && v->overmod) {

@@ -87,14 +87,18 @@ size_t ml_values_modulation(const ml_modulation_result *r, double nominal_hz, bo
     out[n++] = plain("modulation.index", r->index);
     out[n++] = plain("modulation.index_spectral", r->index_spectral);
     out[n++] = plain("modulation.positive_peak_pct", r->positive_peak_pct);
+    out[n++] = plain("modulation.positive_peak_held_pct", r->positive_peak_held_pct);
     out[n++] = plain("modulation.negative_peak_pct", r->negative_peak_pct);
     out[n++] = plain("modulation.carrier_shift_pct", r->carrier_shift_pct);
     out[n++] = plain("modulation.overmodulation_pct", r->overmodulation_pct);
+    out[n++] = plain("modulation.carrier_off_pct", r->carrier_off_pct);
     out[n++] = plain("modulation.pinch_off_events", (double)(r->pinch_events + r->reversal_events));
     out[n++] = plain("modulation.carrier_pinch_events", (double)r->pinch_events);
     out[n++] = plain("modulation.phase_reversal_events", (double)r->reversal_events);
     out[n++] = plain("modulation.positive_peaks_over_limit", (double)r->positive_over);
     out[n++] = plain("modulation.sideband_asymmetry_db", r->sideband_asymmetry_db);
+    out[n++] = plain("modulation.noise_pct", r->noise_pct);
+    out[n++] = plain("modulation.pinch_floor_pct", r->floor_pct);
     n += ml_values_envelope(&r->audio, out + n);
     if (with_trapezoid)
         out[n++] = plain("modulation.trapezoid_deviation_pct", r->trapezoid_deviation_pct);
@@ -115,7 +119,7 @@ size_t ml_values_modulation_u(const ml_modulation_uncertainty *u, ml_value *out)
 {
     size_t n = 0;
     out[n++] = plain("modulation.index", u->index);
-    out[n++] = plain("modulation.positive_peak_pct", u->positive_peak_pct);
+    out[n++] = plain("modulation.positive_peak_held_pct", u->positive_peak_held_pct);
     out[n++] = plain("modulation.negative_peak_pct", u->negative_peak_pct);
     n += ml_values_envelope(&u->audio, out + n);
     n += ml_values_audio(&u->audio, out + n);

@@ -25,9 +25,12 @@
 #include "analyzer/registry.h"
 #include "analyzer/values.h"
 #include "dsp/channels.h"
+#include "dsp/figures.h"
 #include "dsp/peakhold.h"
+#include "dsp/stats.h"
 #include "io/audio.h"
 #include "io/printable.h"
+#include "io/report.h"
 
 #define UPDATE_S 0.1          /* analysis and display period                                 */
 #define DEFAULT_WINDOW_S 1.0
@@ -56,9 +59,13 @@ static void watch_usage(FILE *f)
             "C, the unmodulated carrier, is latched from an unmodulated stretch the window holds (or\n"
             "taken from --carrier-reference) and kept until the r key.\n"
             "Peak-hold markers hold a peak for %.0f s, then fall by %.0f %% of modulation per second.\n"
-            "The overmodulation warning latches when the negative peak reaches 100 %% (carrier pinch-off)\n"
-            "or the positive peak exceeds the profile's limit (125 %% without one), until reset.\n"
-            "keys: q quit, r reset holds and counters, space freeze, s readings/spectrum.\n\n%s",
+            "The overmodulation warning latches when the negative peak goes beyond the profile's limit\n"
+            "(100 %% without one: a reversed carrier), the carrier is off for more than the profile's\n"
+            "carrier_off_pct_max of the window (0.5 %% without one: pinch-off), or the positive peak\n"
+            "exceeds the profile's limit (125 %% without one), until reset. A window without a carrier\n"
+            "line shows 'no carrier' and latches nothing; audio shows the input level with a latched\n"
+            "clip mark.\n"
+            "keys: q quit, r reset holds, counters and clip mark, space freeze, s readings/spectrum.\n\n%s",
             1000 * UPDATE_S, DEFAULT_WINDOW_S, ML_WATCH_HOLD_S, ML_WATCH_DECAY_PCT_S, ml_cli_safety);
 }
 
@@ -76,19 +83,26 @@ static const char *const PLAIN_MOD[] = {
     "carrier.frequency_hz", "carrier.offset_hz", "carrier.level_dbfs", "carrier.unmodulated_dbfs",
     "carrier.cnr_db", "modulation.index", "modulation.positive_peak_pct", "modulation.negative_peak_pct",
     "modulation.carrier_shift_pct", "modulation.envelope_thd_pct", "modulation.hum_db",
-    "modulation.pinch_off_events",
+    "modulation.pinch_off_events", "modulation.positive_peak_held_pct", "modulation.carrier_off_pct",
 };
+#define PLAIN_MOD_C 3     /* carrier_reference follows the fourth name                      */
+#define PLAIN_MOD_HOLDS 7 /* the holds follow the eighth                                    */
 static const char *const PLAIN_AUDIO[] = {
     "audio.rms_dbfs", "audio.fundamental_hz", "audio.fundamental_dbfs", "audio.thd_pct", "audio.thdn_pct",
-    "audio.snr_db", "audio.sinad_db", "hum.level_dbfs", "hum.level_dbc",
+    "audio.snr_db", "audio.sinad_db", "hum.level_dbfs", "hum.level_dbc", "audio.peak_dbfs",
 };
+/* below one 24-bit LSB (2^-23): nothing but zeros (or denormals) in the window */
+#define SILENCE_DBFS (-138.5)
 
-/* " name=value" under the short name (analyzer/values.h), an empty value when not measured. */
+/* " name=value" under the short name (analyzer/values.h), the value empty when not measured. */
 static void pv(FILE *f, const char *name, double v, int decimals)
 {
     fprintf(f, " %s=", ml_values_short_name(name));
-    if (isfinite(v))
-        fprintf(f, "%.*f", decimals, v);
+    if (isfinite(v)) {
+        char buf[64];
+        ml_report_number(buf, sizeof buf, v, decimals, false); /* never "-0.00" */
+        fputs(buf, f);
+    }
 }
 
 /* A registered metric's value from v[n] as a cell (ml_values_cell: empty when not measured, "<x"
@@ -130,26 +144,32 @@ static void plain_bench(FILE *f, const ml_watch_view *v)
 
 static void plain_line(FILE *f, const ml_watch_view *v)
 {
-    fprintf(f, "elapsed_s=%.2f window_s=%.2f", v->elapsed_s, v->window_s);
+    /* signal: 1 a carrier (if/iq) or a signal (audio) in the window, 0 none, empty before it is full */
+    fprintf(f, "elapsed_s=%.2f window_s=%.2f signal=%s", v->elapsed_s, v->window_s,
+            v->kind != ML_MONITOR_AUDIO && !v->filled ? "" : v->no_signal ? "0" : "1");
     ml_value vals[ML_VALUES_MAX];
     size_t n = 0;
     if (v->kind == ML_MONITOR_AUDIO) {
-        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = NAN, .dc_offset_pct = NAN,
+        /* the window's levels under measure's names; the meter's own over the update */
+        ml_level_figures lv = {.rms_dbfs = v->res.rms_dbfs, .peak_dbfs = v->res.peak_dbfs, .dc_offset_pct = NAN,
                                .peak_mark = {ML_FIG_NONE, ML_WHY_OK}};
         n = ml_values_level(&lv, "audio", vals);
         n += ml_values_audio(&v->res.audio, vals + n);
         for (size_t i = 0; i < sizeof PLAIN_AUDIO / sizeof *PLAIN_AUDIO; i++)
             pv_registered(f, PLAIN_AUDIO[i], vals, n, v->have);
+        pv(f, "input_peak_dbfs", v->level_peak_dbfs, 2);
+        pv(f, "input_rms_dbfs", v->level_rms_dbfs, 2);
+        fprintf(f, " clip=%d", v->clip ? 1 : 0);
         plain_bench(f, v);
     } else {
         const ml_modulation_result *m = &v->res.modulation;
         n = ml_values_modulation(m, v->nominal_hz, false, vals);
         for (size_t i = 0; i < sizeof PLAIN_MOD / sizeof *PLAIN_MOD; i++) {
             pv_registered(f, PLAIN_MOD[i], vals, n, v->have);
-            if (i == 3) /* where C comes from, as in log's rows */
+            if (i == PLAIN_MOD_C) /* where C comes from, as in log's rows */
                 fprintf(f, " carrier_reference=%s",
                         v->have && ml_values_c_word(m) ? ml_values_c_word(m) : "");
-            if (i == 7) { /* the holds beside the peaks; decimals as the peaks' */
+            if (i == PLAIN_MOD_HOLDS) { /* the holds beside the peaks; decimals as the peaks' */
                 pv(f, "positive_peak_hold_pct", v->pos_hold_pct, 2);
                 pv(f, "negative_peak_hold_pct", v->neg_hold_pct, 2);
             }
@@ -300,6 +320,11 @@ static int make_meter(watcher *w)
     v->pos_limit_pct = profile_max(o->out.limits, "modulation.positive_peak_pct");
     v->neg_limit_pct = profile_max(o->out.limits, "modulation.negative_peak_pct");
     v->latch_limit_pct = isfinite(v->pos_limit_pct) ? v->pos_limit_pct : mc.positive_limit_pct;
+    v->neg_latch_pct = isfinite(v->neg_limit_pct) ? v->neg_limit_pct : 100.0;
+    v->off_latch_pct = profile_max(o->out.limits, "modulation.carrier_off_pct");
+    if (!isfinite(v->off_latch_pct))
+        v->off_latch_pct = 0.5;
+    v->level_peak_dbfs = v->level_rms_dbfs = NAN;
     mc.positive_limit_pct = v->latch_limit_pct;
     const ml_peakhold_config hc = {.hold_s = ML_WATCH_HOLD_S, .decay_per_s = ML_WATCH_DECAY_PCT_S};
     w->upd = (size_t)llround(UPDATE_S * w->rate);
@@ -332,26 +357,51 @@ static int make_meter(watcher *w)
     return 0;
 }
 
-/* The latched overmodulation warning: a pinch-off or reversal, a negative peak of 100 %, or a
- * positive peak over the limit in the window. */
+/* The latched overmodulation warning, on the figures of a window that holds a carrier: negative
+ * peaks beyond the limit (a reversed carrier), the carrier off longer than its share (pinch-off),
+ * or a positive peak over the limit: the checks of the profile (profiles/am-broadcast-us.ini). */
 static void overmodulation(watcher *w, const ml_modulation_result *m)
 {
     ml_watch_view *v = w->v;
-    const bool pinch = m->pinch_events + m->reversal_events > 0 || m->negative_peak_pct >= 100.0;
+    const bool neg = m->negative_peak_pct > v->neg_latch_pct;
+    const bool off = m->carrier_off_pct > v->off_latch_pct;
     const bool high = m->positive_peak_pct > v->latch_limit_pct;
-    if (!pinch && !high)
+    if (!neg && !off && !high)
         return;
     v->overmod_updates++;
     if (!v->overmod) {
         v->overmod = true;
         v->overmod_at_s = (double)w->frames / w->rate;
         snprintf(v->overmod_why, sizeof v->overmod_why, "%s",
-                 pinch ? "carrier pinch-off" : "positive peak over the limit");
+                 off   ? "carrier pinch-off"
+                 : neg ? "phase reversal: negative peak beyond the limit"
+                       : "positive peak over the limit");
+    }
+}
+
+/* The audio input's level over the update's n frames x[n] (dsp/figures.h: peak and r.m.s. dBFS,
+ * samples within one 24-bit LSB of full scale clipped) and its latched clip mark: every captured
+ * sample is looked at once. */
+static void input_level(watcher *w, const float *x, size_t n)
+{
+    ml_watch_view *v = w->v;
+    if (n == 0)
+        return;
+    ml_stats st;
+    ml_stats_init(&st, 24);
+    ml_stats_push(&st, x, n);
+    ml_level_figures lv;
+    ml_figures_level(&st, 1, &lv);
+    v->level_peak_dbfs = lv.peak_dbfs;
+    v->level_rms_dbfs = lv.rms_dbfs;
+    if (lv.clipped > 0 && !v->clip) {
+        v->clip = true;
+        v->clip_at_s = (double)w->frames / w->rate;
     }
 }
 
 /* The display's state after an update (not while frozen). */
-static void show(watcher *w, const ml_monitor_result *r, bool have)
+static void show(watcher *w, const ml_monitor_result *r, bool have, bool filled)
 {
     ml_watch_view *v = w->v;
     if (v->frozen)
@@ -360,6 +410,13 @@ static void show(watcher *w, const ml_monitor_result *r, bool have)
     v->overflows = w->ls.overflow_events - w->base_over;
     v->lost_frames = w->ls.lost_frames - w->base_lost;
     v->have = have;
+    v->filled = filled;
+    v->no_signal = v->kind == ML_MONITOR_AUDIO ? !(v->level_peak_dbfs >= SILENCE_DBFS)
+                                               : filled && (!r->carrier_ok || r->modulation.absent_s > 0);
+    v->absent_s = v->kind == ML_MONITOR_AUDIO ? NAN
+                  : r->gap_s > 0          ? r->gap_s
+                  : r->carrier_ok         ? r->modulation.absent_s
+                                          : NAN;
     if (have)
         v->res = *r;
     v->pos_hold_pct = ml_peakhold_get_value(w->hold_pos);
@@ -386,6 +443,7 @@ static bool keys(watcher *w)
             ml_monitor_set_reference(w->mon, w->ref_c); /* forgets a latched C */
             v->pos_hold_pct = v->neg_hold_pct = NAN;
             v->overmod = false;
+            v->clip = false;
             v->overmod_updates = 0;
             w->base_over = w->ls.overflow_events;
             w->base_lost = w->ls.lost_frames;
@@ -425,14 +483,20 @@ static int update(watcher *w, uint64_t stop_at)
     st = ml_monitor_analyse(w->mon, &r);
     if (st == ML_ENOMEM || st == ML_EFFT)
         return ml_cli_error("watch: analysis failed: %s", ml_strerror(st));
-    const bool have = st == ML_OK;
+    /* if/iq: ML_OK only for a window with a carrier line; a window where it is absent for a while
+     * (blocks without carrier, dsp/modulation.h) is shown as without carrier too: the signal is
+     * going or coming, and nothing latches then */
+    const bool have = st == ML_OK && !(w->kind != ML_KIND_AUDIO && r.modulation.absent_s > 0);
+    const bool filled = ml_monitor_fill(w->mon) == ml_monitor_window_frames(w->mon);
     const double dt = (double)got / w->rate;
     ml_peakhold_push(w->hold_pos, dt, have ? r.modulation.positive_peak_pct : NAN);
     ml_peakhold_push(w->hold_neg, dt, have ? r.modulation.negative_peak_pct : NAN);
     if (have && w->kind != ML_KIND_AUDIO)
         overmodulation(w, &r.modulation);
+    if (w->kind == ML_KIND_AUDIO)
+        input_level(w, w->re, got);
     ml_source_live_stats(w->seg.src, &w->ls);
-    show(w, &r, have);
+    show(w, &r, have, filled);
     if (w->scr == NULL) {
         if (!w->v->frozen)
             plain_line(stdout, w->v);

@@ -25,11 +25,22 @@ typedef struct {
     double window_s;
     uint64_t overflows, lost_frames; /* since the last reset                                     */
     bool have;                      /* res holds an analysis                                     */
+    bool filled;                    /* the window was full at the last update                    */
+    bool no_signal;                 /* ... and held no carrier, or not throughout (if/iq), or the
+                                       update was digital silence (audio)                         */
+    double absent_s;                /* if/iq: how long the carrier was absent from a window that
+                                       held it for a while (NAN when it held none)                */
     ml_monitor_result res;
     double nominal_hz;              /* --carrier (NAN: none; the offset is then not shown)         */
     double pos_hold_pct, neg_hold_pct; /* peak-hold markers (NAN before the first reading)       */
     double pos_limit_pct, neg_limit_pct; /* the profile's limits (NAN when none)                  */
     double latch_limit_pct;         /* positive peak above this latches the warning              */
+    double neg_latch_pct;           /* negative peak beyond this latches it (the limit, or 100)    */
+    double off_latch_pct;           /* carrier off longer than this share latches it (the
+                                       profile's carrier_off_pct_max, or 0.5: 5 ms per second)    */
+    double level_peak_dbfs, level_rms_dbfs; /* audio: the window's input level (NAN: none yet)   */
+    bool clip;                      /* audio: latched clip mark                                  */
+    double clip_at_s;               /* elapsed time when it latched                              */
     bool overmod;                   /* latched overmodulation warning                            */
     double overmod_at_s;            /* elapsed time when it latched                              */
     char overmod_why[64];

@@ -5,21 +5,43 @@
  * by a linear-phase low-pass of one-sided width bandwidth_hz (dsp/cfir.h), and its magnitude is
  * the envelope e[n] (for real input the mixer output is doubled, so e equals the carrier's
  * amplitude). A carrier offset left by the mixer only rotates the baseband, so e does not depend on
- * it. The object keeps, over the whole input:
- *  - sums for the mean envelope, over all samples and separately over "quiet" and "modulated"
- *    blocks: the envelope is cut into blocks of block_s; a block is quiet (unmodulated carrier)
- *    when the standard deviation of its envelope is below quiet_rel times its mean and its mean is
- *    above 5 % of carrier_ref (a missing carrier is not a quiet carrier);
- *  - histograms of the envelope, 4-times oversampled by cubic (Catmull-Rom) interpolation so
- *    that peaks between samples are not lost, over all blocks and over modulated blocks, from 0
- *    to 4 * carrier_ref in 65536 bins; peak readings are quantiles of these (see get_result);
- *  - overmodulation events, from "low runs" (stretches below 10 % of carrier_ref): a run after
- *    which the carrier phase differs by more than 90 degrees from before it is a phase reversal
- *    (the envelope passed through zero); otherwise a run whose oversampled envelope reached below
- *    pinch_rel * carrier_ref is a carrier pinch-off. A reversal too fast for any sample to fall
- *    in a run shows as a phase jump of more than 90 degrees between consecutive samples both
- *    below 50 % of carrier_ref, and counts as well;
- *  - excursions above (1 + positive_limit_pct/100) * carrier_ref (hysteresis pinch_rel);
+ * it. The carrier's phase is followed through the input (measured at each block's end from the
+ * block's mean baseband, which is the carrier line's phasor, with its turning rate; see dsp/am.c)
+ * and splits the baseband into the coherent envelope S (its in-phase, signed part: S = e while the
+ * carrier keeps its phase, S < 0 where it is reversed) and the quadrature component Q, which
+ * holds the noise of the channel (as much of it as adds to the envelope) and any incidental phase
+ * modulation. sigma, the noise, is the r.m.s. of Q over the quiet blocks when there are any, else
+ * over all blocks so far (before the first block ends, over the part of it seen). The object
+ * keeps, over the whole input:
+ *  - sums for the mean envelope and the mean coherent envelope, over all samples and separately
+ *    over "quiet" and "modulated" blocks: the envelope is cut into blocks of block_s; a block is
+ *    quiet (unmodulated carrier) when the envelope's spread beyond the noise is small,
+ *    var(e) - var(Q) < (quiet_rel mean)^2 + allowance (three standard deviations of that
+ *    difference for Gaussian noise: 6 var(Q) / sqrt(independent samples of the block)), its noise
+ *    is below 10 % of its mean, and its mean is above 5 % of carrier_ref (a missing carrier is not
+ *    a quiet carrier). Without noise this is std(e) < quiet_rel mean. A block whose mean is below
+ *    10 % of carrier_ref holds no carrier (no modulation from 20 Hz up brings a 20 ms block's mean
+ *    that low): it enters no figure, is tagged 0 like a quiet one, and a trough that runs into
+ *    it is not judged (the carrier was gone, not modulated away);
+ *  - histograms of the *reading*, 4-times oversampled by cubic (Catmull-Rom) interpolation of the
+ *    complex baseband so that peaks between samples are not lost, over all blocks and over
+ *    modulated blocks, from -0.5 to 3.5 * carrier_ref in 65536 bins; the reading is the envelope
+ *    e, except where the coherent envelope lies below -rev (a carrier reversed beyond any doubt
+ *    from noise), where it is S; peak readings are quantiles of these (see get_result);
+ *  - troughs and crests: a trough is a stretch where the envelope falls below (1 - h) carrier_ref
+ *    until it is back at or above carrier_ref, a crest one above (1 + h) carrier_ref until it is
+ *    back at or below. Each trough is judged once, when it ends (one cut by either end of the
+ *    input is not judged: the carrier may be coming on or going off there): the carrier was
+ *    *off* (a pinch-off event) when the oversampled envelope stayed below the floor F for more
+ *    than a share of the time it spent below 4 F (60 % when the noise is far below F, growing to
+ *    70 % when F is set by the noise: the noise blurs the time below F), judged on at least 8
+ *    oversampled values (2 samples) below 4 F (a trough that merely touches zero smoothly stays
+ *    below F for half the time it is below 4 F, whatever its width and F); otherwise the carrier *reversed* (a phase-reversal event)
+ *    when the coherent envelope went below -rev. The noise-aware levels, in units of
+ *    carrier_ref: F = max(pinch_rel, 4 sigma), rev = max(0.02, 5 sigma), h = max(0.02,
+ *    3 sigma). The time below F of the pinch-off troughs is the carrier-off time, the time with
+ *    S < 0 of the reversal troughs the reversed time. The crests' highest values go into a
+ *    histogram, so that crests above any level can be counted at the end;
  *  - with a reference channel (the modulating audio a[n], delayed internally to line up with the
  *    envelope): the least-squares line e = intercept + slope * a and its RMS residual (the
  *    trapezoid's straightness).
@@ -57,8 +79,8 @@ typedef struct {
     double hold_s;             /* peak hold: 0 < hold_s < 0.5 (default 0.001)                      */
     double block_s;            /* quiet/modulated classification block (default 0.02)             */
     double quiet_rel;          /* quiet when std/mean < quiet_rel (default 0.02)                   */
-    double pinch_rel;          /* pinch-off level, fraction of carrier_ref (default 0.01)          */
-    double positive_limit_pct; /* positive peak limit for counting excursions (default 125)        */
+    double pinch_rel;          /* pinch-off floor F at least this, fraction of carrier_ref (0.02) */
+    double positive_limit_pct; /* result.positive_over counts crests above it (default 125)         */
     bool has_reference;        /* a reference channel is pushed alongside                         */
     bool single_precision;     /* channel filter transforms in float (dsp/cfir.h: about half the
                                   time, rounding some 140 dB below the signal); default false      */
@@ -66,17 +88,28 @@ typedef struct {
 
 typedef struct {
     uint64_t samples;          /* envelope samples produced                                       */
-    double mean_all;           /* mean envelope over all samples                                  */
+    double mean_all;           /* mean envelope over all blocks with carrier                      */
     double mean_modulated;     /* over modulated blocks (0 when none)                             */
     double mean_quiet;         /* over quiet blocks (0 when none)                                 */
+    double coherent_all;       /* mean coherent envelope S over the blocks with carrier: the line */
+    double coherent_modulated; /* ... over modulated blocks (0 when none)                         */
     uint64_t modulated_samples, quiet_samples;
-    double emax, emin;         /* peak readings: the levels the envelope exceeds (emax) and stays
+    uint64_t absent_samples;   /* in blocks without carrier (mean below 10 % of carrier_ref): in
+                                  no figure; ML_ENOSIGNAL when every block was such              */
+    double emax, emin;         /* peak readings: the levels the reading exceeds (emax) and stays
                                   under (emin) for a share hold_s per second of the modulated
-                                  blocks (all blocks when none is modulated)                       */
+                                  blocks (all blocks when none is modulated); emin is negative
+                                  where the carrier was reversed beyond -rev                       */
     double emax_abs, emin_abs; /* absolute extremes of the oversampled envelope                   */
-    uint64_t pinch_events;     /* carrier pinch-off events                                        */
-    uint64_t reversal_events;  /* phase-reversal events (zero crossings of the signed envelope)   */
-    uint64_t positive_over;    /* excursions above the positive limit                             */
+    uint64_t pinch_events;     /* troughs in which the carrier was off                            */
+    uint64_t reversal_events;  /* troughs in which it reversed (one per trough)                   */
+    uint64_t troughs, crests;  /* all troughs and crests                                          */
+    uint64_t positive_over;    /* crests above (1 + positive_limit_pct / 100) carrier_ref         */
+    double off_samples;        /* carrier-off time, in samples                                    */
+    double reversed_samples;   /* reversed time, in samples                                       */
+    double noise_rms;          /* sigma, envelope units (NAN before the first block ended)        */
+    double floor_rel, reversal_rel; /* F and rev at the end, units of carrier_ref                 */
+    bool floor_from_noise;     /* F was set by the noise (4 sigma above pinch_rel)                */
     bool has_trapezoid;        /* reference given and it varied                                   */
     double trap_slope, trap_intercept, trap_residual_rms, trap_ref_rms;
 } ml_am_result;
@@ -138,7 +171,11 @@ ml_status ml_am_finish(ml_am *q, const ml_am_output *out, size_t *count);
 
 ml_status ml_am_get_result(const ml_am *q, ml_am_result *out);
 
-/* Share (0..1) of all envelope time spent below level (same units as the envelope). */
+/* Share (0..1) of all envelope time whose reading lies below level (same units as the envelope). */
 double ml_am_fraction_below(const ml_am *q, double level);
+
+/* Crests whose highest oversampled envelope exceeds level (same units as the envelope; resolved to
+ * the histogram's bins of 6e-5 carrier_ref). */
+uint64_t ml_am_crests_above(const ml_am *q, double level);
 
 #endif

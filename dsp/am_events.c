@@ -1,5 +1,5 @@
-/* The demodulator's overmodulation events (carrier pinch-off, phase reversal) and positive
- * excursions over the limit.
+/* The demodulator's troughs and crests: carrier pinch-off and phase-reversal events, one per
+ * trough, and the crests' highest values.
  * SPDX-License-Identifier: MIT
  *
  * References:
@@ -7,105 +7,141 @@
  *     A_c[1 + mu m(t)] cos(2 pi f_c t); over-modulation and phase reversal).
  */
 #include <math.h>
+#include <stdlib.h>
+#include <string.h>
 
 #include "dsp/am_internal.h"
 
-void ml_am_events_init(ml_am_events *ev, double carrier_ref, double pinch_rel, double positive_limit_pct)
+ml_status ml_am_events_init(ml_am_events *ev)
 {
-    ev->half = 0.5 * carrier_ref;
-    ev->thr_in = pinch_rel * carrier_ref;
-    ev->thr_good = 0.1 * carrier_ref;
-    ev->thr_pos_in = (1.0 + positive_limit_pct / 100.0) * carrier_ref;
-    ev->thr_pos_out = ev->thr_pos_in - ev->thr_in; /* hysteresis of pinch_rel * C */
+    memset(ev, 0, sizeof *ev);
+    ev->crest_hist = malloc(ML_AM_HIST_BINS * sizeof *ev->crest_hist);
+    if (ev->crest_hist == NULL)
+        return ML_ENOMEM;
     ml_am_events_reset(ev);
+    return ML_OK;
+}
+
+void ml_am_events_free(ml_am_events *ev)
+{
+    free(ev->crest_hist);
+    ev->crest_hist = NULL;
 }
 
 void ml_am_events_reset(ml_am_events *ev)
 {
-    ev->in_low = ev->in_pos = ev->have_prev = false;
-    ev->low_min = ev->prev_env = 0;
-    ev->y_before = ev->prev_y = 0;
-    ev->pinch_events = ev->reversal_events = ev->positive_over = 0;
+    ev->state = 0;
+    ev->t_lo = ev->t_slo = ev->c_hi = 0;
+    ev->t_floor = ev->t_floor4 = ev->t_neg = 0;
+    ev->pinch_events = ev->reversal_events = ev->troughs = ev->crests = ev->absent_troughs = 0;
+    ev->t_absent = false;
+    ev->seen = false;
+    ev->off_values = ev->reversed_values = 0;
+    memset(ev->crest_hist, 0, ML_AM_HIST_BINS * sizeof *ev->crest_hist);
 }
 
-/* Whether |phase(y) - phase(y0)|, wrapped into [0, pi], exceeds pi/2: the same as
- * cos(phase(y) - phase(y0)) < 0, i.e. Re(y conj(y0)) < 0, with no arctangent. A zero sample has
- * phase 0 (as carg(0) = 0), so it stands in as 1. */
-static bool phase_reversed(double complex y, double complex y0)
+/* A trough ends: one judgement. The carrier was off (pinch-off) when the envelope stayed below
+ * the floor F for more than the share lv->share (60 to 70 %) of the time it spent below 4 F: a
+ * trough that only touches zero, smoothly (a parabola e = a t^2, as an exactly 100 % modulated
+ * tone), stays below F for sqrt(F / 4F) = half that time whatever its width and F; a V-shaped
+ * zero crossing (a reversal seen in the magnitude) a quarter; a carrier that sits at the floor
+ * longer. Otherwise
+ * the carrier reversed when the coherent reading went below -rev, beyond what the noise reaches
+ * [haykin:2001]. */
+static void trough_end(ml_am_events *ev, const ml_am_levels *lv)
 {
-    if (y == 0)
-        y = 1;
-    if (y0 == 0)
-        y0 = 1;
-    return creal(y) * creal(y0) + cimag(y) * cimag(y0) < 0;
+    if (ev->t_absent) { /* the carrier was gone, not modulated away */
+        ev->absent_troughs++;
+        ev->state = 0;
+        return;
+    }
+    ev->troughs++;
+    if (ev->t_floor4 >= ML_AM_PINCH_MIN4 && (double)ev->t_floor > lv->share * (double)ev->t_floor4) {
+        ev->pinch_events++;
+        ev->off_values += ev->t_floor;
+    } else if (ev->t_slo < -lv->rev) {
+        ev->reversal_events++;
+        ev->reversed_values += ev->t_neg;
+    }
+    ev->state = 0;
 }
 
-/* A "low run" is a stretch below 10 % of C. When it ends, a carrier phase that differs by more
- * than 90 degrees from before the run means the envelope passed through zero with a phase
- * reversal; otherwise a run that reached below pinch_rel * C is a carrier pinch-off. A reversal
- * so fast that no sample falls in a run shows as a phase jump of more than 90 degrees between two
- * consecutive samples below 50 % of C [haykin:2001]. */
-void ml_am_events_push(ml_am_events *ev, const double complex *y, const double *e, const double *low,
+static void crest_end(ml_am_events *ev)
+{
+    const float b = ev->c_hi * (float)(ML_AM_HIST_BINS / ML_AM_HIST_RANGE);
+    ev->crest_hist[(size_t)(b > 0 ? (b < ML_AM_HIST_BINS - 1 ? b : ML_AM_HIST_BINS - 1) : 0)]++;
+    ev->crests++;
+    ev->state = 0;
+}
+
+void ml_am_events_push(ml_am_events *ev, const ml_am_levels *lv, const double *er, const ml_am_marks *mk,
                        size_t n)
 {
-    /* the state in locals for the loop: stores through ev could alias the arrays read */
-    const double half = ev->half, thr_good = ev->thr_good, thr_in = ev->thr_in;
-    const double thr_pos_in = ev->thr_pos_in, thr_pos_out = ev->thr_pos_out;
-    bool in_low = ev->in_low, in_pos = ev->in_pos, have_prev = ev->have_prev;
-    double low_min = ev->low_min, prev_env = ev->prev_env;
-    double complex y_before = ev->y_before, prev_y = ev->prev_y;
-    uint64_t reversals = 0, pinches = 0, over = 0;
+    const float hyst = lv->hyst;
     for (size_t i = 0; i < n; i++) {
-        if (!in_low && have_prev) {
-            /* A run of samples at or above half the carrier that leave the positive excursion
-             * state as it is changes nothing but the previous sample: passed over in one scan. */
-            const double top = in_pos ? INFINITY : thr_pos_in,
-                         bottom = in_pos ? fmax(half, thr_pos_out) : half;
-            size_t j = i;
-            while (j < n && e[j] >= bottom && e[j] <= top)
-                j++;
-            if (j > i) {
-                prev_env = e[j - 1];
-                prev_y = y[j - 1];
-                i = j - 1;
+        if (ev->state == 0) {
+            if (mk->lo[i] < 1.0f - hyst) {
+                ev->state = -1;
+                ev->t_absent = !ev->seen; /* cut by the start: the carrier may be coming on */
+                ev->t_lo = ev->t_slo = INFINITY;
+                ev->t_floor = ev->t_floor4 = ev->t_neg = 0;
+            } else if (mk->hi[i] > 1.0f + hyst) {
+                ev->state = 1;
+                ev->c_hi = 0;
+            } else {
+                ev->seen = true;
                 continue;
             }
         }
-        if (e[i] < thr_good) {
-            if (!in_low) {
-                in_low = true;
-                low_min = INFINITY;
-                y_before = have_prev ? prev_y : y[i];
+        ev->seen = true;
+        if (ev->state < 0) {
+            ev->t_lo = mk->lo[i] < ev->t_lo ? mk->lo[i] : ev->t_lo;
+            ev->t_slo = mk->slo[i] < ev->t_slo ? mk->slo[i] : ev->t_slo;
+            ev->t_floor += mk->n_floor[i];
+            ev->t_floor4 += mk->n_floor4[i];
+            ev->t_neg += mk->n_neg[i];
+            if (mk->lo[i] >= 1.0f && er[i] >= 1.0) {
+                trough_end(ev, lv);
+                if (mk->hi[i] > 1.0f + hyst) { /* straight on into a crest */
+                    ev->state = 1;
+                    ev->c_hi = mk->hi[i];
+                }
             }
-            if (low[i] < low_min)
-                low_min = low[i];
-        } else if (in_low) {
-            if (phase_reversed(y[i], y_before))
-                reversals++;
-            else if (low_min < thr_in)
-                pinches++;
-            in_low = false;
-        } else if (have_prev && prev_env < half && e[i] < half && phase_reversed(y[i], prev_y)) {
-            reversals++;
-        }
-        prev_env = e[i];
-        prev_y = y[i];
-        have_prev = true;
-        if (!in_pos && e[i] > thr_pos_in) {
-            in_pos = true;
-            over++;
-        } else if (in_pos && e[i] < thr_pos_out) {
-            in_pos = false;
+        } else {
+            ev->c_hi = mk->hi[i] > ev->c_hi ? mk->hi[i] : ev->c_hi;
+            if (mk->hi[i] <= 1.0f && er[i] <= 1.0) {
+                crest_end(ev);
+                if (mk->lo[i] < 1.0f - hyst) { /* straight on into a trough */
+                    ev->state = -1;
+                    ev->t_absent = false;
+                    ev->t_lo = mk->lo[i];
+                    ev->t_slo = mk->slo[i];
+                    ev->t_floor = mk->n_floor[i];
+                    ev->t_floor4 = mk->n_floor4[i];
+                    ev->t_neg = mk->n_neg[i];
+                }
+            }
         }
     }
-    ev->in_low = in_low;
-    ev->in_pos = in_pos;
-    ev->have_prev = have_prev;
-    ev->low_min = low_min;
-    ev->prev_env = prev_env;
-    ev->y_before = y_before;
-    ev->prev_y = prev_y;
-    ev->reversal_events += reversals;
-    ev->pinch_events += pinches;
-    ev->positive_over += over;
+}
+
+void ml_am_events_end(ml_am_events *ev, const ml_am_levels *lv)
+{
+    if (ev->state < 0) { /* cut by the end: the carrier may be going off */
+        ev->t_absent = true;
+        trough_end(ev, lv);
+    } else if (ev->state > 0) {
+        crest_end(ev);
+    }
+}
+
+uint64_t ml_am_events_crests_above(const ml_am_events *ev, double level)
+{
+    /* a bin counts when its centre lies above the level */
+    const double v = level * (ML_AM_HIST_BINS / ML_AM_HIST_RANGE) - 0.5;
+    size_t k = v < 0 ? 0 : v >= ML_AM_HIST_BINS ? ML_AM_HIST_BINS : (size_t)floor(v) + 1;
+    uint64_t n = 0;
+    for (; k < ML_AM_HIST_BINS; k++)
+        n += ev->crest_hist[k];
+    return n;
 }

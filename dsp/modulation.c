@@ -20,7 +20,8 @@
 #define QUIET_MIN_S 0.1       /* unmodulated time needed before C is taken from it              */
 #define MAX_BANDWIDTH_HZ 10000.0
 #define BATCH_FRAMES 32768
-#define PINCH_REL 0.01        /* pinch-off level, fraction of C (dsp/am.h's default)            */
+#define PINCH_REL 0.02        /* pinch-off floor at least, fraction of C (dsp/am.h's default)    */
+#define INDEX_U_MIN 0.002     /* least uncertainty of the envelope index (peaks_noise_biased)     */
 
 struct ml_modulation_batch {
     float *frames;         /* room for the frames read (owned)                                */
@@ -466,7 +467,8 @@ static void choose_c(ml_modulation *q, const ml_am_result *ar, ml_modulation_res
         r->c_source = ML_C_LATCHED;
         r->c_quiet_s = q->c_keep_quiet_s;
     } else {
-        r->c = ar->mean_all;
+        /* under phase reversal the mean of E folds the reversed stretches up: the carrier line */
+        r->c = ar->reversal_events > 0 ? ar->coherent_all : ar->mean_all;
         r->c_source = ML_C_MEAN;
     }
 }
@@ -522,28 +524,76 @@ static void carrier_figures(ml_modulation *q, ml_modulation_result *r)
     r->occupied_bandwidth_hz = ml_rf_occupied_bandwidth(q->rf, 0.99, &lo, &hi) == ML_OK ? hi - lo : NAN;
 }
 
-/* The envelope figures [cfr73.14]. */
-static void envelope_figures(ml_modulation *q, const ml_am_result *ar, ml_modulation_result *r)
+/* The z of the standard normal distribution exceeded with probability p (0 < p < 0.5), by
+ * bisection on erfc: 2.576 for 0.005. */
+static double normal_upper_quantile(double p)
+{
+    double lo = 0.0, hi = 40.0;
+    for (int i = 0; i < 60; i++) {
+        const double mid = 0.5 * (lo + hi);
+        if (0.5 * erfc(mid / sqrt(2.0)) > p)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return 0.5 * (lo + hi);
+}
+
+/* The peaks and the index against the noise (dsp/modulation.h: held_noise_pct, top_noise_pct,
+ * peaks_noise_biased). */
+static void noise_figures(ml_modulation *q, const ml_am_result *ar, ml_modulation_result *r)
 {
     const double c = r->c;
-    const double emax = ar->emax;
-    /* a pinch-off or reversal event means the envelope did reach zero: it is then no noise spike */
-    const double emin = ar->pinch_events + ar->reversal_events > 0 ? fmin(ar->emin, ar->emin_abs) : ar->emin;
-    r->index = emax + emin > 0 ? (emax - emin) / (emax + emin) : NAN;
-    r->positive_peak_pct = 100 * (emax - c) / c;
+    r->noise_pct = isfinite(ar->noise_rms) ? 100 * ar->noise_rms / c : NAN;
+    r->floor_pct = 100 * ar->floor_rel * q->cfg.carrier_amplitude / c;
+    r->reversal_pct = 100 * ar->reversal_rel * q->cfg.carrier_amplitude / c;
+    r->floor_from_noise = ar->floor_from_noise;
+    const double n_indep = (double)ar->samples * fmin(1.0, 2.0 * q->bw / q->cfg.rate_hz);
+    r->held_noise_pct = r->noise_pct * normal_upper_quantile(q->hold_s);
+    r->top_noise_pct = n_indep > 1 ? r->noise_pct * sqrt(2.0 * log(n_indep)) : NAN;
+    double u_max = NAN, u_min = NAN, u_index = NAN;
+    if (q->blocks)
+        ml_blocks_get_peaks(q->blocks, &u_max, &u_min, &u_index);
+    const double u = isfinite(u_index) ? fmax(u_index, INDEX_U_MIN) : INDEX_U_MIN;
+    const double d = r->index - r->index_spectral;
+    r->peaks_noise_biased = isfinite(d) && d > u && isfinite(r->held_noise_pct) && d <= 1.5 * r->held_noise_pct / 100;
+}
+
+/* The envelope figures [cfr73.14]: peaks, index, carrier shift, the overmodulation. */
+static void envelope_figures(ml_modulation *q, const ml_am_result *ar, ml_modulation_result *r)
+{
+    const double c = r->c, emax = ar->emax, emin = ar->emin;
+    r->index = emax + emin > 0 && emax >= emin ? (emax - emin) / (emax + emin) : NAN;
+    r->positive_peak_pct = 100 * (ar->emax_abs - c) / c;
+    r->positive_peak_held_pct = 100 * (emax - c) / c;
     r->negative_peak_pct = 100 * (c - emin) / c;
-    r->carrier_shift_pct = r->c_source != ML_C_MEAN && ar->modulated_samples > 0
-                               ? 100 * (ar->mean_modulated - c) / c
-                               : NAN;
-    r->pinch_rel = PINCH_REL;
-    r->overmodulation_pct = 100 * ml_am_fraction_below(q->am, PINCH_REL * c);
+    /* a peak is a distance from C on its side: never negative */
+    if (!(r->positive_peak_pct >= 0)) {
+        r->positive_peak_pct = r->positive_peak_held_pct = NAN;
+        r->positive_peak_why = "the envelope never rises above C";
+    } else if (!(r->positive_peak_held_pct >= 0)) {
+        r->positive_peak_held_pct = NAN;
+        r->positive_peak_why = "the envelope does not stay above C long enough for a held peak";
+    }
+    if (!(r->negative_peak_pct >= 0)) {
+        r->negative_peak_pct = NAN;
+        r->negative_peak_why = "the envelope does not stay below C long enough for a held peak";
+    }
+    r->shift_from_line = ar->reversal_events > 0;
+    const double emod = r->shift_from_line ? ar->coherent_modulated : ar->mean_modulated;
+    r->carrier_shift_pct = r->c_source != ML_C_MEAN && ar->modulated_samples > 0 ? 100 * (emod - c) / c : NAN;
+    r->pinch_rel = ar->floor_rel * q->cfg.carrier_amplitude / c;
+    const double t_mod = (double)ar->modulated_samples;
+    r->carrier_off_pct = t_mod > 0 ? 100 * ar->off_samples / t_mod : 0.0;
+    r->overmodulation_pct = t_mod > 0 ? 100 * (ar->off_samples + ar->reversed_samples) / t_mod : 0.0;
     r->pinch_events = ar->pinch_events;
     r->reversal_events = ar->reversal_events;
-    r->positive_over = ar->positive_over;
+    r->positive_over = ml_am_crests_above(q->am, (1.0 + q->cfg.positive_limit_pct / 100.0) * c);
     r->has_trapezoid = ar->has_trapezoid;
     r->trapezoid_deviation_pct = ar->has_trapezoid ? 100 * ar->trap_residual_rms / c : NAN;
     r->emax_rel = emax / c;
     r->emin_rel = emin / c;
+    noise_figures(q, ar, r);
 }
 
 /* The end of a span: C, the spectra's scale and selection, and every figure. */
@@ -560,14 +610,22 @@ static ml_status conclude(ml_modulation *q)
                                 .negative_peak_pct = nan, .carrier_shift_pct = nan, .overmodulation_pct = nan,
                                 .sideband_asymmetry_db = nan, .trapezoid_deviation_pct = nan,
                                 .occupied_bandwidth_hz = nan, .emax_rel = nan, .emin_rel = nan,
-                                .pinch_rel = PINCH_REL};
+                                .pinch_rel = PINCH_REL, .carrier_prominence_db = nan,
+                                .positive_peak_held_pct = nan, .carrier_off_pct = nan, .noise_pct = nan,
+                                .floor_pct = nan, .reversal_pct = nan, .held_noise_pct = nan,
+                                .top_noise_pct = nan};
     ml_figures_audio_none(&r->audio);
     q->have_result = true;
     q->prov_rel = nan;
     ml_am_result ar;
-    if (ml_am_get_result(q->am, &ar) != ML_OK)
-        return q->result_status = ML_ENOSIGNAL;
+    const ml_status sa = ml_am_get_result(q->am, &ar);
     r->samples = ar.samples;
+    r->absent_s = (double)ar.absent_samples / q->cfg.rate_hz;
+    if (sa != ML_OK) {
+        if (ar.absent_samples > 0)
+            r->no_carrier = "the carrier is absent (every 20 ms block below 10 % of it)";
+        return q->result_status = ML_ENOSIGNAL;
+    }
     r->modulated_samples = ar.modulated_samples;
     r->quiet_samples = ar.quiet_samples;
     choose_c(q, &ar, r);
@@ -578,7 +636,7 @@ static ml_status conclude(ml_modulation *q)
     ml_spectrum_scale(q->aud, q->prov_rel);
     /* With unmodulated stretches in the span, the spectra cover the wholly modulated FFT
      * segments only, so that a lead-in or pauses do not dilute sidebands and tones. */
-    if (ar.quiet_samples > 0 && ar.modulated_samples > 0 && ml_spectrum_selected_segments(q->rf) > 0
+    if (ar.quiet_samples + ar.absent_samples > 0 && ar.modulated_samples > 0 && ml_spectrum_selected_segments(q->rf) > 0
         && ml_spectrum_selected_segments(q->aud) > 0) {
         ml_spectrum_use_selected(q->rf, 1);
         ml_spectrum_use_selected(q->aud, 1);
@@ -586,6 +644,12 @@ static ml_status conclude(ml_modulation *q)
     }
     audio_figures(q, r);
     carrier_figures(q, r);
+    r->carrier_prominence_db =
+        r->carrier_amplitude > 0 ? ml_rf_line_prominence_db(q->rf, r->carrier_hz) : -INFINITY;
+    if (!(r->carrier_prominence_db >= ML_MODULATION_MIN_PROMINENCE_DB)) {
+        r->no_carrier = "no carrier line stands out of the noise";
+        return q->result_status = ML_ENOSIGNAL;
+    }
     envelope_figures(q, &ar, r);
     return q->result_status = ML_OK;
 }
@@ -605,7 +669,7 @@ ml_status ml_modulation_get_uncertainty(const ml_modulation *q, ml_modulation_un
     if (q == NULL || out == NULL)
         return ML_EINVAL;
     const double nan = NAN;
-    *out = (ml_modulation_uncertainty){.index = nan, .positive_peak_pct = nan, .negative_peak_pct = nan};
+    *out = (ml_modulation_uncertainty){.index = nan, .positive_peak_held_pct = nan, .negative_peak_pct = nan};
     ml_figures_audio_none(&out->audio);
     if (q->blocks == NULL || !q->have_result)
         return ML_OK;
@@ -615,7 +679,7 @@ ml_status ml_modulation_get_uncertainty(const ml_modulation *q, ml_modulation_un
     double u_max, u_min, u_index;
     ml_blocks_get_peaks(q->blocks, &u_max, &u_min, &u_index);
     /* the blocks read the envelope in units of the provisional C */
-    out->positive_peak_pct = 100.0 * q->prov_rel * u_max;
+    out->positive_peak_held_pct = 100.0 * q->prov_rel * u_max;
     out->negative_peak_pct = 100.0 * q->prov_rel * u_min;
     out->index = u_index;
     return ML_OK;

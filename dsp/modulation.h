@@ -22,32 +22,59 @@
  *   ML_C_MEAN       the mean envelope over the whole span (peaks then fold in any carrier shift,
  *                   and carrier shift is not measured).
  *
- * Figures (README "Modulation" repeats them for users), with Emax and Emin the peak readings:
- * the levels the oversampled envelope exceeds, and stays under, for a share peak_hold_s of the
- * modulated blocks' time; when a pinch-off or phase-reversal event was seen Emin is the absolute
- * minimum (the envelope really reached zero):
+ * Figures (README "Modulation" repeats them for users). The demodulator (dsp/am.h) gives the
+ * envelope E, the coherent envelope S (signed: negative where the carrier is reversed), the
+ * noise sigma (r.m.s. of the quadrature component) and the reading (E, or S where S < -rev);
+ * Emax and Emin are the held readings: the levels the reading exceeds, and stays under, for a
+ * share peak_hold_s per second of the modulated blocks' time (peaks of frequent recurrence:
+ * 47 CFR 73.1570(b)(1) leaves "frequent" undefined; the default 5 ms per second is the project's
+ * judgement, README "Modulation"); Etop is the highest oversampled envelope at any time:
  *   carrier_hz, carrier_level_dbfs  the carrier line in the captured spectrum (phase-advance
- *                   frequency; 20 lg A of its amplitude A: the mean envelope under modulation);
+ *                   frequency; 20 lg A of its amplitude A: the mean coherent envelope under
+ *                   modulation);
  *   unmodulated_dbfs = 20 lg C;
  *   cnr_db = 10 lg(P_car / (nd 2B / bin)): the carrier line's power over the noise in the channel
  *                   carrier +- B, nd the mean density over the channel's bins outside the lobes
  *                   of the carrier, the tone's sidebands and hum sidebands (ml_rf_cnr_db);
- *   index = (Emax - Emin) / (Emax + Emin);  index_spectral = (U + L) / A for the demodulated
- *                   tone's sidebands U, L;
- *   positive_peak_pct = 100 (Emax - C) / C;  negative_peak_pct = 100 (C - Emin) / C;
- *   carrier_shift_pct = 100 (Emod - C) / C, Emod the mean envelope of the modulated blocks
- *                   (NAN when C is the mean envelope);
- *   overmodulation_pct = 100 x the share of time the oversampled envelope lies below pinch
- *                   level (1 % of C);
- *   pinch_events, reversal_events, positive_over (excursions above positive_limit_pct): counts;
+ *   index = (Emax - Emin) / (Emax + Emin) (above 1 for a reversed carrier: Emin < 0);
+ *   index_spectral = (U + L) / A for the demodulated tone's sidebands U, L;
+ *   positive_peak_pct = 100 (Etop - C) / C: the positive peak at any time (a true peak);
+ *   positive_peak_held_pct = 100 (Emax - C) / C;
+ *   negative_peak_pct = 100 (C - Emin) / C: the negative peak of frequent recurrence, beyond 100
+ *                   where the carrier reversed (a pinched-off carrier reads at most 100: its
+ *                   overmodulation is the carrier-off time);
+ *                   a peak that would be negative (the envelope never crosses C on that side) is
+ *                   NAN with a reason (positive_peak_why, negative_peak_why);
+ *   carrier_shift_pct = 100 (Emod - C) / C, Emod the mean envelope of the modulated blocks, or
+ *                   with phase-reversal events the mean coherent envelope there (the carrier
+ *                   line: the mean of E folds the reversed stretches up; shift_from_line); NAN
+ *                   when C is the mean envelope;
+ *   carrier_off_pct = 100 x the carrier-off time of the pinch-off troughs / the modulated time;
+ *   overmodulation_pct = 100 x (carrier-off time + reversed time) / the modulated time;
+ *   pinch_events, reversal_events: troughs judged so (dsp/am.h), one event per trough;
+ *   positive_over: crests whose highest value exceeds (1 + positive_limit_pct / 100) C;
+ *   noise_pct = 100 sigma / C; floor_pct, reversal_pct: the levels F and rev in % of C;
+ *   held_noise_pct = 100 z sigma / C (z: the standard normal's 1 - hold quantile, 2.58 at
+ *                   5 ms/s): about how far noise moves the held peaks and the index (x 1/100);
+ *   top_noise_pct = 100 sqrt(2 ln N) sigma / C, N the independent noise samples of the span
+ *                   (2 B per second): about how far noise lifts the true peak;
+ *   peaks_noise_biased: the envelope index exceeds the spectral one by more than its uncertainty
+ *                   (the blocks' 95 % interval, at least 0.002) and by no more than 1.5 x
+ *                   held_noise_pct / 100: the peaks and the index read noise, the spectral index
+ *                   does not;
  *   sideband_asymmetry_db = 20 lg(U / L);
  *   trapezoid_deviation_pct = 100 x RMS deviation of E from its line against the reference
  *                   channel, / C;
  *   occupied_bandwidth_hz  the 99 % power bandwidth (ITU-R SM.328) of the captured spectrum;
  *   audio           the demodulated audio's figures (dsp/figures.h): the envelope's AC part in
  *                   units of C, so 0 dBFS is 100 % modulation.
- * With both unmodulated and modulated blocks in the span, both spectra average only the FFT
- * segments lying wholly in modulated blocks (spectra_modulated_only).
+ * A carrier whose line stands less than ML_MODULATION_MIN_PROMINENCE_DB out of the spectrum
+ * around it (ml_rf_line_prominence_db) is no carrier: the span's figures are then not measured
+ * and finish returns ML_ENOSIGNAL with no_carrier saying why.
+ * Blocks without carrier (dsp/am.h: their mean below 10 % of the provisional C) enter no figure;
+ * absent_s says how long they lasted, and a span of nothing else has no carrier (no_carrier).
+ * With both unmodulated (or carrier-less) and modulated blocks in the span, both spectra average
+ * only the FFT segments lying wholly in modulated blocks (spectra_modulated_only).
  *
  * Threads: ml_modulation_push and ml_modulation_finish run everything on the calling thread. A
  * pipeline may instead split the work in two halves that run on two threads: the demodulation
@@ -77,6 +104,9 @@ typedef struct ml_modulation_batch ml_modulation_batch;
 
 typedef enum { ML_C_REFERENCE, ML_C_QUIET, ML_C_LATCHED, ML_C_MEAN } ml_c_source;
 
+/* A carrier line must stand this far out of the spectrum around it (dsp/rf.h) */
+#define ML_MODULATION_MIN_PROMINENCE_DB 10.0
+
 typedef struct {
     double rate_hz;            /* sample rate: > 0                                                */
     ml_channels channels;      /* the pushed frames' layout; complex_input: I/Q, else a real IF   */
@@ -85,7 +115,7 @@ typedef struct {
     double bandwidth_hz;       /* one-sided channel bandwidth B; 0: the widest that fits (default)  */
     double max_bandwidth_hz;   /* the widest B chosen when bandwidth_hz is 0 (default 10000)       */
     double peak_hold_s;        /* peak readings' share of time per second: 0 .. 0.5 (0.005)        */
-    double positive_limit_pct; /* positive excursions counted above this (default 125)             */
+    double positive_limit_pct; /* crests counted above this positive peak (default 125)            */
     ml_window_type window;     /* spectral window (default HFT248D)                               */
     ml_audio_config audio;     /* the demodulated audio's analysis (band clipped to B)             */
     int64_t span_frames;       /* frames a span holds (chooses the FFT lengths): > 0              */
@@ -106,6 +136,7 @@ typedef struct {
     size_t rf_nfft;            /* the captured spectrum's FFT length                              */
     bool spectra_modulated_only;
     uint64_t samples, modulated_samples, quiet_samples; /* envelope samples                        */
+    double absent_s;           /* time in blocks without carrier (dsp/am.h), in no figure         */
     /* carrier */
     double carrier_hz, carrier_amplitude, carrier_level_dbfs;
     double c;                  /* C (see above) and where it comes from                           */
@@ -113,16 +144,24 @@ typedef struct {
     double c_quiet_s;          /* the unmodulated time C was taken from (QUIET, LATCHED; else 0)   */
     double unmodulated_dbfs;
     double cnr_db, cnr_bandwidth_hz;
+    double carrier_prominence_db; /* the carrier line out of the spectrum around it          */
+    const char *no_carrier;    /* why the span has no carrier (static text), or NULL             */
     /* modulation */
-    double index, index_spectral, positive_peak_pct, negative_peak_pct, carrier_shift_pct;
-    double overmodulation_pct;
+    double index, index_spectral, positive_peak_pct, positive_peak_held_pct, negative_peak_pct;
+    const char *positive_peak_why, *negative_peak_why; /* why NAN (static text), or NULL       */
+    double carrier_shift_pct;
+    bool shift_from_line;      /* carrier shift from the carrier line (phase reversal)           */
+    double overmodulation_pct, carrier_off_pct;
     uint64_t pinch_events, reversal_events, positive_over;
+    double noise_pct, floor_pct, reversal_pct, held_noise_pct, top_noise_pct;
+    bool floor_from_noise;     /* the floor F was set by the noise, not by the 1 % least          */
+    bool peaks_noise_biased;
     double sideband_asymmetry_db;
     bool has_trapezoid;        /* a reference channel that varied                                 */
     double trapezoid_deviation_pct;
     double occupied_bandwidth_hz;
-    double emax_rel, emin_rel; /* the peak readings / C                                           */
-    double pinch_rel;          /* pinch-off level / C                                             */
+    double emax_rel, emin_rel; /* the held readings / C                                           */
+    double pinch_rel;          /* pinch-off floor F / C                                           */
     /* the demodulated audio (units of C) */
     bool audio_valid;
     const char *audio_no_signal; /* why not valid when the band holds nothing (static text) or NULL */
@@ -130,9 +169,10 @@ typedef struct {
     ml_audio_plain_figures audio;
 } ml_modulation_result;
 
-/* 95 % half-widths (dsp/blocks.h) where the blocks estimate them; NAN elsewhere. */
+/* 95 % half-widths (dsp/blocks.h) where the blocks estimate them; NAN elsewhere. The blocks read
+ * held peaks: positive_peak_held_pct's interval (the true peak has none). */
 typedef struct {
-    double index, positive_peak_pct, negative_peak_pct;
+    double index, positive_peak_held_pct, negative_peak_pct;
     ml_audio_plain_figures audio;
     size_t blocks;
     double block_s;

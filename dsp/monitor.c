@@ -16,6 +16,11 @@
 
 #define CHUNK 4096             /* frames per push into the modulation analysis                 */
 #define LEVEL_REFIND 2.0       /* carrier amplitude change (6 dB) that re-finds the carrier     */
+#define BLOCK_S 0.02           /* blocks whose power is compared (gap_s)                        */
+#define GAP_REL 0.01           /* a block 20 dB below the strongest is a gap                    */
+#define EDGE_S 0.005           /* the window's edges checked apart (gap_s)                      */
+#define EDGE_REL 0.001         /* an edge 30 dB below the strongest block is a gap (a 50 Hz tone
+                                  at 100 % has 5 ms around its trough 19.3 dB below its block)    */
 
 struct ml_monitor {
     ml_monitor_config cfg;
@@ -24,6 +29,7 @@ struct ml_monitor {
     float *ring;
     float *lin;                /* the window in time order                                    */
     double *psd;               /* nbins of spec                                               */
+    double *bpow;              /* power of each 20 ms block of the window (gap_s)              */
     uint64_t pushed;
     ml_spectrum *spec;         /* audio: the input; if/iq: the window, to find the carrier      */
     /* if/iq: present once the carrier is found */
@@ -74,7 +80,8 @@ ml_status ml_monitor_create(const ml_monitor_config *cfg, ml_monitor **out)
     ml_status st = ML_ENOMEM;
     q->ring = malloc(q->cap * q->width * sizeof *q->ring);
     q->lin = malloc(q->cap * q->width * sizeof *q->lin);
-    if (q->ring == NULL || q->lin == NULL)
+    q->bpow = malloc((q->cap / (size_t)llround(BLOCK_S * cfg->rate_hz) + 1) * sizeof *q->bpow);
+    if (q->ring == NULL || q->lin == NULL || q->bpow == NULL)
         goto fail;
     ml_spectrum_config sc = ml_spectrum_config_default(cfg->rate_hz);
     sc.window = cfg->window;
@@ -108,6 +115,7 @@ void ml_monitor_destroy(ml_monitor *q)
     free(q->ring);
     free(q->lin);
     free(q->psd);
+    free(q->bpow);
     free(q);
 }
 
@@ -175,7 +183,8 @@ static ml_status find_carrier(ml_monitor *q)
     const double rate = q->cfg.rate_hz;
     const bool iq = q->cfg.kind == ML_MONITOR_IQ;
     window_spectrum(q);
-    const ml_carrier_config cc = ml_carrier_config_default(rate, iq, q->cfg.carrier_hz);
+    ml_carrier_config cc = ml_carrier_config_default(rate, iq, q->cfg.carrier_hz);
+    cc.min_prominence_db = ML_MODULATION_MIN_PROMINENCE_DB; /* a window of noise holds no carrier */
     ml_carrier car;
     if (ml_carrier_find(q->spec, &cc, &car) != ML_OK || !(car.amplitude > 0))
         return ML_ENOSIGNAL;
@@ -209,8 +218,50 @@ static ml_status find_carrier(ml_monitor *q)
     return ML_OK;
 }
 
+/* Time in 20 ms blocks of the window whose power lies more than GAP_DB below the strongest
+ * block's, and a block's time for each edge of EDGE_S 30 dB below it: the signal comes or goes
+ * within the window (a modulated carrier's blocks differ by a few dB at most: 1 + m cos averaged
+ * over 20 ms for tones from 25 Hz up). */
+static double gap_s(const ml_monitor *q)
+{
+    const size_t len = (size_t)llround(BLOCK_S * q->cfg.rate_hz), w = q->width;
+    double pmax = 0;
+    size_t nb = q->cap / len;
+    for (size_t b = 0; b < nb; b++) {
+        double p = 0;
+        for (size_t i = b * len * w; i < (b + 1) * len * w; i++)
+            p += (double)q->lin[i] * q->lin[i];
+        q->bpow[b] = p;
+        pmax = p > pmax ? p : pmax;
+    }
+    size_t gaps = 0;
+    for (size_t b = 0; b < nb; b++)
+        gaps += !(q->bpow[b] >= pmax * GAP_REL);
+    if (!(pmax > 0))
+        return (double)q->cap / q->cfg.rate_hz;
+    /* the window's first and last EDGE_S (the peak hold's 5 ms: less moves no held reading)
+     * against the strongest block at the same power per frame: the signal comes or goes at an
+     * edge, within a block */
+    const size_t el = (size_t)llround(EDGE_S * q->cfg.rate_hz);
+    if (el > 0 && el <= q->cap) {
+        double ph = 0, pt = 0;
+        for (size_t i = 0; i < el * w; i++) {
+            ph += (double)q->lin[i] * q->lin[i];
+            pt += (double)q->lin[(q->cap - el) * w + i] * q->lin[(q->cap - el) * w + i];
+        }
+        const double lim = pmax * EDGE_REL * (double)el / (double)len;
+        gaps += !(ph >= lim) + !(pt >= lim);
+    }
+    return (double)(gaps * len) / q->cfg.rate_hz;
+}
+
 static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
 {
+    /* a window the signal leaves or enters holds no carrier throughout: not analysed (its
+     * figures would mix the carrier with what is left without it), and no carrier is found in it */
+    r->gap_s = gap_s(q);
+    if (r->gap_s > 0)
+        return ML_ENOSIGNAL;
     if (!q->have_carrier) {
         ml_status st = find_carrier(q);
         if (st != ML_OK)
@@ -224,8 +275,11 @@ static ml_status analyse_modulation(ml_monitor *q, ml_monitor_result *r)
     const ml_status st = ml_modulation_get_result(q->mod, m);
     const double a_car = m->carrier_amplitude;
     r->carrier_ok = st == ML_OK && a_car > 0;
-    if (st != ML_OK)
+    if (st != ML_OK) {
+        /* the carrier went (no line stands out of the noise): find it afresh next time */
+        q->have_carrier = false;
         return ML_ENOSIGNAL;
+    }
     r->audio_ok = m->audio_valid;
     r->audio = m->audio;
     const double p_car = a_car * a_car * ml_spectrum_full_scale_power(ml_modulation_get_spectrum(q->mod));
@@ -248,6 +302,8 @@ static ml_status analyse_audio(ml_monitor *q, ml_monitor_result *r)
     ml_level_figures lv;
     ml_figures_level(&s, 1, &lv);
     r->rms_dbfs = lv.rms_dbfs;
+    r->peak_dbfs = lv.peak_dbfs;
+    r->clipped = lv.clipped;
     ml_audio_config acfg = q->cfg.audio;
     acfg.band_hi_hz = fmin(acfg.band_hi_hz, q->cfg.rate_hz / 2);
     ml_audio_result au;
@@ -271,7 +327,7 @@ static void empty_result(const ml_monitor *q, ml_monitor_result *r)
     memset(r, 0, sizeof *r);
     r->window_s = (double)q->cap / q->cfg.rate_hz;
     r->analysed_frames = q->pushed;
-    r->rms_dbfs = nan;
+    r->rms_dbfs = r->peak_dbfs = nan;
     ml_figures_audio_none(&r->audio);
     ml_bench_noise_none(&r->noise);
     ml_modulation_result *m = &r->modulation;
@@ -280,6 +336,9 @@ static void empty_result(const ml_monitor *q, ml_monitor_result *r)
     m->positive_peak_pct = m->negative_peak_pct = m->carrier_shift_pct = m->overmodulation_pct = nan;
     m->sideband_asymmetry_db = m->trapezoid_deviation_pct = m->occupied_bandwidth_hz = nan;
     m->emax_rel = m->emin_rel = nan;
+    m->positive_peak_held_pct = m->carrier_off_pct = m->carrier_prominence_db = nan;
+    m->absent_s = 0;
+    m->noise_pct = m->floor_pct = m->reversal_pct = m->held_noise_pct = m->top_noise_pct = nan;
     ml_figures_audio_none(&m->audio);
 }
 

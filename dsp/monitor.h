@@ -57,11 +57,18 @@ typedef struct {
     /* audio kind: the input's figures; if/iq: the demodulated audio's (modulation.audio)         */
     bool audio_ok;             /* the audio analysis succeeded (otherwise its figures are NAN)    */
     double rms_dbfs;           /* audio kind: RMS level of the window (dsp/figures.h)              */
+    double peak_dbfs;          /* audio kind: its peak level (dsp/figures.h)                       */
+    uint64_t clipped;          /* audio kind: its clipped samples (dsp/figures.h, 24-bit LSB)      */
     ml_audio_plain_figures audio;
     ml_noise_figures noise;    /* audio kind: the weighted noise of the window (dsp/benchfig.h; no
                                   quasi-peak reading); NAN for if/iq                              */
     /* if/iq (everything NAN for audio)                                                          */
     bool carrier_ok;           /* a carrier line was found in the window                           */
+    double gap_s;              /* if/iq: time in 20 ms blocks of the window more than 20 dB below
+                                  its strongest block, plus a block's time for each of its first
+                                  and last 5 ms more than 30 dB below it (per frame): the signal
+                                  comes or goes (then the window is not analysed: ML_ENOSIGNAL,
+                                  carrier_ok false)                                               */
     ml_modulation_result modulation;
     unsigned carrier_finds;    /* times the carrier was found since create/reset                   */
 } ml_monitor_result;
@@ -86,7 +93,14 @@ size_t ml_monitor_fill(const ml_monitor *q);
 ml_status ml_monitor_push(ml_monitor *q, const float *re, const float *im, size_t n);
 
 /* Analyses the ring. ML_ENOSIGNAL until the ring is full, and for if/iq when no carrier is found
- * or it vanishes (out->carrier_ok false); ML_ENOMEM / ML_EFFT when creating the modulation
+ * or it vanishes (out->carrier_ok false): the strongest component, or the one near the nominal
+ * carrier, must stand ML_MODULATION_MIN_PROMINENCE_DB out of the noise (dsp/carrier.h), and the
+ * window's carrier line too (dsp/modulation.h); after a window without one the carrier is
+ * searched afresh (and C forgotten, as on a re-find). A window whose 20 ms blocks differ in power
+ * by more than 20 dB, or whose first or last 5 ms lie 30 dB below its strongest block (gap_s > 0:
+ * the signal comes or goes, which no modulation does) is not
+ * analysed, nor searched for a carrier (the line of a carrier present in part would understate
+ * it); ML_ENOMEM / ML_EFFT when creating the modulation
  * analysis after a carrier (re-)find fails. Allocates only when it (re-)finds the carrier and
  * inside the temporaries of ml_audio_analyze and ml_bench_noise. */
 ml_status ml_monitor_analyse(ml_monitor *q, ml_monitor_result *out);

@@ -13,6 +13,7 @@
 #include <stdlib.h>
 
 #include "dsp/internal.h"
+#include "dsp/order.h"
 
 /* Lines one CNR measurement may leave out on each side: harmonics and hum multiples. */
 #define ML_RF_MAX_EXCLUDED 160
@@ -299,4 +300,35 @@ double ml_rf_cnr_db(const ml_spectrum *s, double f_car_hz, double p_car, double 
         || !(nd > 0))
         return NAN;
     return 10 * log10(p_car / (nd * 2 * bw_hz / bin_hz(s)));
+}
+
+double ml_rf_line_prominence_db(const ml_spectrum *s, double f_hz)
+{
+    size_t k;
+    if (s == NULL || ml_spectrum_segments(s) == 0 || !freq_to_bin(s, f_hz, &k))
+        return NAN;
+    const double *acc = ml_spectrum_sum(s);
+    const size_t nbins = ml_spectrum_nbins(s), lobe = ml_spectrum_lobe_bins(s);
+    const bool cplx = ml_spectrum_is_complex(s);
+    double around[2 * ML_RF_PROMINENCE_BINS];
+    size_t n = 0;
+    for (long long d = (long long)lobe + 1; d <= (long long)(lobe + ML_RF_PROMINENCE_BINS); d++)
+        for (int side = -1; side <= 1; side += 2) {
+            long long j = (long long)k + side * d;
+            if (cplx) {
+                if (d >= (long long)nbins / 2)
+                    continue;
+                j = (j % (long long)nbins + (long long)nbins) % (long long)nbins;
+            } else if (j < (long long)lobe || j >= (long long)nbins) {
+                continue;
+            }
+            around[n++] = acc[j];
+        }
+    if (n == 0)
+        return NAN;
+    const double med = ml_order_median(around, n);
+    const double p = lobe_power(s, acc, k, 1.0);
+    if (!(med > 0))
+        return p > 0 ? INFINITY : NAN;
+    return 10.0 * log10(p / (med * (double)(2 * lobe + 1)));
 }

@@ -56,6 +56,15 @@ ml_status ml_rf_mask_margin(const ml_spectrum *s, double carrier_hz, double carr
 ml_status ml_rf_noise_density(const ml_spectrum *s, double lo_hz, double hi_hz, const double *exclude,
                               size_t nexclude, double *per_bin);
 
+/* How far the component at f_hz stands out of the spectrum around it: 10 lg(P / (m (2 lobe + 1))),
+ * P the component's power (its +-lobe bins) and m the median power per bin of the
+ * ML_RF_PROMINENCE_BINS bins on each side beyond its lobe (bins outside the spectrum, and a real
+ * spectrum's DC lobe, left out). A line of power P reads 10 lg(P / (density x lobe width)); the
+ * strongest component of white noise a few dB (the median of a Welch average sits up to 1.6 dB
+ * below the mean). NAN when no bin is left or the median is 0 with P 0; +inf over a median of 0. */
+#define ML_RF_PROMINENCE_BINS 512
+double ml_rf_line_prominence_db(const ml_spectrum *s, double f_hz);
+
 /* Carrier-to-noise ratio in the channel f_car_hz +- bw_hz: 10 lg(p_car / (nd * 2 bw_hz / bin)),
  * where p_car is the carrier's power and nd the noise density (ml_rf_noise_density over the
  * channel) with the lines of the carrier, of the tone's sidebands f_car +- h fm_hz (h = 1 ..

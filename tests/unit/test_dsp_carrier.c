@@ -7,6 +7,8 @@
  * between half-overlapping segments, better than 1 mHz on a noise-free tone.
  *
  * References:
+ * [haykin:2001] S. Haykin, Communication Systems, 4th ed., Wiley 2001, sec. 3.1: tone AM puts
+ *     m A / 2 at each side frequency (docs/references.md 6).
  * [heinzel:2002] G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density estimation
  *     by the Discrete Fourier transform (DFT)", MPI fuer Gravitationsphysik, 2002: HFT248D
  *     sidelobes -248.4 dB (docs/references.md 3.2).
@@ -151,6 +153,72 @@ START_TEST(silence_has_no_carrier)
 }
 END_TEST
 
+START_TEST(nominal_sideband_is_no_carrier)
+{
+    /* Tone AM [haykin:2001, docs/references.md 6]: a carrier of A at 12 kHz and side frequencies
+     * of m A / 2 at 12 +- 1 kHz. --carrier 11000 (or 13000) lands on a side frequency: within its
+     * channel (+-10 kHz) the carrier is stronger (m = 1: 6 dB) and the mirror image about it, at
+     * 13 (11) kHz, is there with the same amplitude: a sideband, no carrier; stronger_hz names
+     * it. --carrier 12000 finds the carrier. At m = 2 the side frequencies equal the carrier
+     * (not 3 dB weaker): the side frequency is taken (the rule needs the carrier 3 dB stronger). */
+    const double A = 0.4, f[3] = {12000, 11000, 13000};
+    for (int k = 0; k < 2; k++) {
+        const double m = k == 0 ? 1.0 : 2.0, a[3] = {A, m * A / 2, m * A / 2};
+        ml_spectrum *s = spectrum_of(a, f, 3, false, 1e-6);
+        ml_carrier car;
+        ml_carrier_config c = ml_carrier_config_default(FS, false, 12000);
+        ck_assert_int_eq(ml_carrier_find(s, &c, &car), ML_OK);
+        ck_assert_double_eq_tol(car.frequency_hz, 12000, 1e-2);
+        for (int side = 1; side <= 2; side++) {
+            c.nominal_hz = f[side];
+            if (m == 1.0) {
+                ck_assert_int_eq(ml_carrier_find(s, &c, &car), ML_ENOSIGNAL);
+                ck_assert_double_eq_tol(car.stronger_hz, 12000, 1e-2);
+                ck_assert_double_eq(car.amplitude, 0.0);
+            } else {
+                ck_assert_int_eq(ml_carrier_find(s, &c, &car), ML_OK);
+                ck_assert_double_eq_tol(car.frequency_hz, f[side], 1e-2);
+            }
+        }
+        ml_spectrum_destroy(s);
+    }
+}
+END_TEST
+
+START_TEST(nominal_must_be_a_line)
+{
+    /* --carrier 13500 next to a tone at 13000 Hz (a strong component 500 Hz away, outside the
+     * 200 Hz capture range): the strongest bin of 13300 .. 13700 Hz is the skirt of the 13 kHz
+     * line's window or noise, no line: it stands less than 10 dB out of the spectrum around it
+     * (its prominence is reported). With white noise of sigma 1e-3 alone near 13.5 kHz the same.
+     * A real line at 13.5 kHz 50 dB below the tone (above the noise floor by far) is found. */
+    const double a2[2] = {0.5, 0.5 * pow(10, -50 / 20.0)}, f2[2] = {13000, 13500};
+    ml_spectrum *s1 = spectrum_of(a2, f2, 1, false, 1e-3), *s2 = spectrum_of(a2, f2, 2, false, 1e-3);
+    ml_carrier car;
+    ml_carrier_config c = ml_carrier_config_default(FS, false, 13500);
+    ck_assert_double_eq(c.min_prominence_db, 10.0);
+    c.min_rel = 0; /* the level check off: the prominence alone decides */
+    ck_assert_int_eq(ml_carrier_find(s1, &c, &car), ML_ENOSIGNAL);
+    ck_assert(car.prominence_db < 10.0);
+    ck_assert_int_eq(ml_carrier_find(s2, &c, &car), ML_OK);
+    ck_assert_double_eq_tol(car.frequency_hz, 13500, 0.05);
+    ck_assert_double_ge(car.prominence_db, 10.0);
+    /* the strongest mode asks for no prominence unless told */
+    ml_carrier_config cs = ml_carrier_config_default(FS, false, NAN);
+    ck_assert(isinf(cs.min_prominence_db) && cs.min_prominence_db < 0);
+    /* white noise only: the strongest bin is no line when the prominence is asked for */
+    const double z = 0, fz = 3000;
+    ml_spectrum *sn = spectrum_of(&z, &fz, 1, true, 1e-3);
+    ck_assert_int_eq(ml_carrier_find(sn, &cs, &car), ML_OK);
+    cs.min_prominence_db = 10.0;
+    ck_assert_int_eq(ml_carrier_find(sn, &cs, &car), ML_ENOSIGNAL);
+    ck_assert(car.prominence_db < 10.0);
+    ml_spectrum_destroy(s1);
+    ml_spectrum_destroy(s2);
+    ml_spectrum_destroy(sn);
+}
+END_TEST
+
 int main(void)
 {
     Suite *s = suite_create("dsp_carrier");
@@ -161,6 +229,8 @@ int main(void)
     tcase_add_test(tc, nominal_capture_range);
     tcase_add_test(tc, nominal_level_check);
     tcase_add_test(tc, silence_has_no_carrier);
+    tcase_add_test(tc, nominal_sideband_is_no_carrier);
+    tcase_add_test(tc, nominal_must_be_a_line);
     suite_add_tcase(s, tc);
     return ml_check_run(s);
 }

@@ -148,6 +148,52 @@ START_TEST(pinch_off_reads_100_percent)
 }
 END_TEST
 
+START_TEST(carrier_going_at_the_edge)
+{
+    /* m = 0.8 at 1 kHz with the carrier gone for the window's last 8 ms (zeros: a 20 ms block
+     * keeps 60 % of its power, no block is 20 dB down): the last 5 ms are silent, so the signal
+     * goes within the window (gap_s > 0), which is not analysed and latches nothing
+     * (ML_ENOSIGNAL, carrier_ok false). Gone for the last 3 ms only (less than the peak hold's
+     * 5 ms per second) it is analysed, without a pinch-off (a trough cut by the end is not
+     * judged, dsp/am.h). A 50 Hz tone at m = 1 whose window ends in its trough (the 5 ms there
+     * hold 1/85 of the block's power [haykin:2001: mean of (1 - cos x)^2 over |x| < pi/4 against
+     * 1.5 over the cycle], 19 dB down) is no gap. */
+    for (int k = 0; k < 3; k++) {
+        ml_monitor *q = make(ML_MONITOR_IQ);
+        const size_t n = 48000, off = k == 0 ? 384 : k == 1 ? 144 : 0;
+        float *re = malloc(n * sizeof *re), *im = malloc(n * sizeof *im);
+        if (k < 2) {
+            am_signal(re, im, n, 0, 3000, 0.8);
+        } else {
+            for (size_t i = 0; i < n; i++) { /* ends at cos = -1: t = 1 s is 50 whole cycles */
+                const double t = (double)(i + 1) / FS - 1.0 + 0.01;
+                const double e = 1.0 + cos(2 * TS_PI * 50.0 * t);
+                re[i] = (float)(AMP * e * cos(2 * TS_PI * 3000 * t));
+                im[i] = (float)(AMP * e * sin(2 * TS_PI * 3000 * t));
+            }
+        }
+        for (size_t i = n - off; i < n; i++)
+            re[i] = im[i] = 0.0f;
+        ck_assert_int_eq(ml_monitor_push(q, re, im, n), ML_OK);
+        ml_monitor_result r;
+        const ml_status st = ml_monitor_analyse(q, &r);
+        if (k == 0) {
+            ck_assert_int_eq(st, ML_ENOSIGNAL);
+            ck_assert(!r.carrier_ok);
+            ck_assert_double_gt(r.gap_s, 0.0);
+        } else {
+            ck_assert_int_eq(st, ML_OK);
+            ck_assert(r.carrier_ok);
+            ck_assert_double_eq(r.gap_s, 0.0);
+            ck_assert_uint_eq(r.modulation.pinch_events, 0);
+        }
+        free(re);
+        free(im);
+        ml_monitor_destroy(q);
+    }
+}
+END_TEST
+
 START_TEST(window_slides)
 {
     /* 1 s at m = 0.5, then 1 s at m = 0.8: the window holds only the second second, so it reads
@@ -298,6 +344,7 @@ static Suite *monitor_suite(void)
     tcase_add_test(tc, not_before_the_window_is_full);
     tcase_add_test(tc, tone_modulation_iq_and_if);
     tcase_add_test(tc, pinch_off_reads_100_percent);
+    tcase_add_test(tc, carrier_going_at_the_edge);
     tcase_add_test(tc, window_slides);
     tcase_add_test(tc, block_invariance_and_reset);
     tcase_add_test(tc, audio_tone_with_harmonic);

@@ -628,6 +628,55 @@ START_TEST(noise_density_with_lines_excluded)
 }
 END_TEST
 
+/* ---- ml_rf_line_prominence_db ---------------------------------------------------------------- */
+
+START_TEST(line_prominence_in_white_noise)
+{
+    /* A tone of amplitude a in white noise of variance s2 (real: a^2/2 against a density of
+     * d = 2 s2 / nfft per bin; I/Q: a^2 against s2 / nfft, as in noise_density_with_lines_
+     * excluded): the prominence is 10 lg(P / (m (2 lobe + 1))), P the power of the line's lobe
+     * (the line's, plus the (2 lobe + 1) d of noise in it) and m the median per-bin density
+     * around the line. The noise of a Welch average of 64 segments per bin is a chi-square of 128
+     * degrees of freedom scaled to its mean, whose median is the mean times
+     * (1 - 2/(9 x 128))^3 = 0.9948 (Wilson-Hilferty). Expected: 10 lg(p / (0.9948 d (2 lobe + 1))
+     * + 1 / 0.9948). Tolerance 0.3 dB, two standard deviations of the lobe's power: the noise in
+     * it (2.4 % of the line here) beats with the line, 2 sqrt(0.024) / sqrt(64) = 3.9 % (0.17 dB);
+     * the median of 1024 bins spreads by 0.5 % more. A bin of noise alone stands out little: less
+     * than 10 dB. */
+    const size_t nfft = 4096, nseg = 64, n = nfft * nseg;
+    const double s2 = 1e-4, a = 0.01;
+    for (int cplx = 0; cplx < 2; cplx++) {
+        const double fc = cplx ? -3001.3 : 12003.7;
+        ml_spectrum *q = make(FS, nfft, nfft, cplx);
+        ts_rng r = {cplx ? 0x5151ULL : 0x6161ULL};
+        if (cplx) {
+            double complex *z = malloc(n * sizeof *z);
+            for (size_t i = 0; i < n; i++)
+                z[i] = sqrt(s2 / 2.0) * (ts_gauss(&r) + I * ts_gauss(&r));
+            add_cexp(z, n, a, fc, FS, 0.2);
+            ck_assert_int_eq(ml_spectrum_push_complex(q, z, n), ML_OK);
+            free(z);
+        } else {
+            double *x = malloc(n * sizeof *x);
+            for (size_t i = 0; i < n; i++)
+                x[i] = sqrt(s2) * ts_gauss(&r);
+            add_cos(x, n, a, fc, FS, 0.2);
+            ck_assert_int_eq(ml_spectrum_push_double(q, x, n), ML_OK);
+            free(x);
+        }
+        const double p = cplx ? a * a : a * a / 2, density = (cplx ? 1.0 : 2.0) * s2 / (double)nfft;
+        const double lobe = (double)ml_spectrum_lobe_bins(q);
+        const double want = 10 * log10(p / (0.9948 * density * (2 * lobe + 1)) + 1 / 0.9948);
+        const double got = ml_rf_line_prominence_db(q, fc);
+        ck_assert_msg(fabs(got - want) <= 0.3, "cplx %d: prominence %.3f dB, expected %.3f", cplx, got, want);
+        /* 1 kHz away there is noise only */
+        ck_assert_double_lt(ml_rf_line_prominence_db(q, fc + 1000.0), 10.0);
+        ck_assert(isnan(ml_rf_line_prominence_db(q, 1e6))); /* outside the spectrum */
+        ml_spectrum_destroy(q);
+    }
+}
+END_TEST
+
 static Suite *rf_suite(void)
 {
     Suite *s = suite_create("dsp_rf");
@@ -644,6 +693,7 @@ static Suite *rf_suite(void)
     tcase_add_test(tc, mask_margin_sloped_segment);
     tcase_add_test(tc, mask_margin_arguments);
     tcase_add_test(tc, noise_density_with_lines_excluded);
+    tcase_add_test(tc, line_prominence_in_white_noise);
     suite_add_tcase(s, tc);
     return s;
 }
