@@ -442,6 +442,31 @@ int ml_report_mark(const ml_report *r, size_t i)
     return n;
 }
 
+int ml_report_metric_marks(const ml_report *r)
+{
+    int n = 0;
+    for (size_t i = 0; i < r->nmetrics; i++)
+        n += ml_metric_has_mark(&r->metrics[i]);
+    return n;
+}
+
+void ml_report_cell_text(const ml_metric *m, int *mark, char *buf, size_t len)
+{
+    char val[64];
+    ml_report_value_text(m, val, sizeof val);
+    if (ml_metric_has_mark(m))
+        snprintf(buf, len, "%s [%d]", val, ++*mark);
+    else
+        snprintf(buf, len, "%s", val);
+}
+
+void ml_report_mark_line(int k, const char *name, const ml_metric *m, char *buf, size_t len)
+{
+    char why[ML_REPORT_WHY_LEN + 32];
+    ml_report_why_text(m, why, sizeof why);
+    snprintf(buf, len, "[%d] %s: %s", k, name, why);
+}
+
 void ml_report_why_text(const ml_metric *m, char *buf, size_t len)
 {
     char t[ML_REPORT_WHY_LEN];
