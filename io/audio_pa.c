@@ -264,11 +264,10 @@ ml_status ml_audio_list(ml_audio_device *out, size_t cap, size_t *n, char *detai
     return ML_OK;
 }
 
-ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, char *detail, size_t detail_len)
+/* The numbers PortAudio gives for the device spec names (input or output): a copy of its info,
+ * whose name must not be used (it dies with the audio system, which this shuts down again). */
+static ml_status device_numbers(const char *spec, bool input, PaDeviceInfo *info, char *detail, size_t detail_len)
 {
-    say(detail, detail_len, "%s", "");
-    if (rate_hz == NULL)
-        return ML_EINVAL;
     const PaError e = init_quiet();
     if (e != paNoError) {
         say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
@@ -276,9 +275,23 @@ ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, ch
     }
     PaDeviceIndex d;
     ml_status st = find_device(spec, input, &d, detail, detail_len);
-    if (st == ML_OK)
-        *rate_hz = Pa_GetDeviceInfo(d)->defaultSampleRate;
+    if (st == ML_OK) {
+        *info = *Pa_GetDeviceInfo(d);
+        info->name = NULL;
+    }
     Pa_Terminate();
+    return st;
+}
+
+ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, char *detail, size_t detail_len)
+{
+    say(detail, detail_len, "%s", "");
+    if (rate_hz == NULL)
+        return ML_EINVAL;
+    PaDeviceInfo info;
+    const ml_status st = device_numbers(spec, input, &info, detail, detail_len);
+    if (st == ML_OK)
+        *rate_hz = info.defaultSampleRate;
     return st;
 }
 
@@ -288,16 +301,10 @@ ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, 
     say(detail, detail_len, "%s", "");
     if (channels == NULL)
         return ML_EINVAL;
-    const PaError e = init_quiet();
-    if (e != paNoError) {
-        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
-        return ML_EDEVICE;
-    }
-    PaDeviceIndex d;
-    ml_status st = find_device(spec, input, &d, detail, detail_len);
+    PaDeviceInfo info;
+    const ml_status st = device_numbers(spec, input, &info, detail, detail_len);
     if (st == ML_OK)
-        *channels = input ? Pa_GetDeviceInfo(d)->maxInputChannels : Pa_GetDeviceInfo(d)->maxOutputChannels;
-    Pa_Terminate();
+        *channels = input ? info.maxInputChannels : info.maxOutputChannels;
     return st;
 }
 
