@@ -19,8 +19,9 @@
 
 #include "analyzer/registry.h"
 #include "io/printable.h"
+#include "io/smallfile.h"
 
-#define MAX_BYTES ((off_t)1 << 20) /* a profile is a few hundred bytes; larger files are refused */
+#define MAX_BYTES ((size_t)1 << 20) /* a profile is a few hundred bytes; larger files are refused */
 #define MAX_LIMIT 1e15             /* |limit| in the metric's unit: counts stay exact integers  */
 #define MAX_OFFSET_HZ 1e9
 #define MAX_DBC 1000.0
@@ -406,29 +407,18 @@ static bool parse_line(parse_ctx *c, char *line, size_t len, char *section, size
 ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t errlen)
 {
     memset(out, 0, sizeof *out);
-    /* O_NONBLOCK: a FIFO must not block the open (it is refused below) */
-    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
-    if (fd < 0) {
+    int fd;
+    size_t size;
+    const ml_status opened = ml_smallfile_open(path, "limits profile", MAX_BYTES, "1 MiB", false, &fd, &size, err,
+                                               errlen);
+    if (opened != ML_OK)
+        return opened;
+    FILE *f = fdopen(fd, "r");
+    if (f == NULL) {
         snprintf(err, errlen, "%s", strerror(errno));
+        close(fd);
         return ML_EIO;
     }
-    struct stat st;
-    const char *problem = NULL;
-    if (fstat(fd, &st) != 0)
-        problem = strerror(errno);
-    else if (S_ISDIR(st.st_mode))
-        problem = "is a directory, not a limits profile";
-    else if (!S_ISREG(st.st_mode)) /* a FIFO or device could block forever */
-        problem = "not a regular file";
-    else if (st.st_size > MAX_BYTES)
-        problem = "larger than 1 MiB: not a limits profile";
-    FILE *f = problem ? NULL : fdopen(fd, "r");
-    if (f == NULL) {
-        snprintf(err, errlen, "%s", problem ? problem : strerror(errno));
-        close(fd);
-        return problem && strstr(problem, "MiB") ? ML_EFORMAT : ML_EIO;
-    }
-    fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) & ~O_NONBLOCK);
     parse_ctx c = {.out = out, .err = err, .errlen = errlen};
     char section[64] = "";
     char *line = NULL;

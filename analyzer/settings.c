@@ -18,6 +18,7 @@
 #include <unistd.h>
 
 #include "io/printable.h"
+#include "io/smallfile.h"
 
 typedef struct {
     int line;
@@ -217,37 +218,17 @@ ml_status ml_settings_parse(const char *data, size_t len, const char *dir, ml_se
 ml_status ml_settings_read(const char *path, ml_settings *s, char *err, size_t errlen)
 {
     *s = (ml_settings){.full_scale_dbu = NAN};
-    /* O_NONBLOCK: a FIFO must not block the open (it is refused below) */
-    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
-    if (fd < 0) {
-        if (errno == ENOENT || errno == ENOTDIR)
-            return ML_OK; /* no settings */
-        snprintf(err, errlen, "%s", strerror(errno));
-        return ML_EIO;
-    }
-    struct stat st;
-    const char *problem = fstat(fd, &st) != 0                  ? strerror(errno)
-                          : S_ISDIR(st.st_mode)                ? "is a directory, not a settings file"
-                          : !S_ISREG(st.st_mode)               ? "not a regular file"
-                          : st.st_size > ML_SETTINGS_MAX_BYTES ? "larger than 64 KiB: not a settings file"
-                                                               : NULL;
-    if (problem) {
-        snprintf(err, errlen, "%s", problem);
-        close(fd);
-        return strstr(problem, "KiB") ? ML_EFORMAT : ML_EIO;
-    }
-    char *buf = malloc((size_t)st.st_size + 1);
-    size_t got = 0;
-    while (buf && got < (size_t)st.st_size) {
-        const ssize_t n = read(fd, buf + got, (size_t)st.st_size - got);
-        if (n < 0 && errno == EINTR)
-            continue;
-        if (n <= 0)
-            break;
-        got += (size_t)n;
-    }
-    close(fd);
-    if (buf == NULL)
+    int fd;
+    size_t size;
+    const ml_status opened = ml_smallfile_open(path, "settings file", ML_SETTINGS_MAX_BYTES, "64 KiB", true, &fd,
+                                               &size, err, errlen);
+    if (opened != ML_OK)
+        return opened;
+    if (fd < 0)
+        return ML_OK; /* no settings */
+    char *buf;
+    size_t got;
+    if (ml_smallfile_read(fd, size, &buf, &got) != ML_OK)
         return ML_ENOMEM;
     char *dir = strdup(path);
     char *slash = dir ? strrchr(dir, '/') : NULL;

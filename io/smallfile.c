@@ -1,0 +1,72 @@
+/* Small text files: open, check, read whole.
+ * SPDX-License-Identifier: MIT
+ */
+#include "io/smallfile.h"
+
+#include <errno.h>
+#include <fcntl.h>
+#include <stdint.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+ml_status ml_smallfile_open(const char *path, const char *what, size_t max_bytes, const char *max_text,
+                            bool missing_ok, int *fd, size_t *size, char *err, size_t errlen)
+{
+    char none[1];
+    if (err == NULL || errlen == 0) {
+        err = none;
+        errlen = sizeof none;
+    }
+    *fd = -1;
+    *size = 0;
+    /* O_NONBLOCK: a FIFO must not block the open (it is refused below) */
+    const int f = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
+    if (f < 0) {
+        if (missing_ok && (errno == ENOENT || errno == ENOTDIR))
+            return ML_OK;
+        snprintf(err, errlen, "%s", strerror(errno));
+        return ML_EIO;
+    }
+    struct stat st;
+    ml_status s = ML_OK;
+    if (fstat(f, &st) != 0)
+        s = (snprintf(err, errlen, "%s", strerror(errno)), ML_EIO);
+    else if (S_ISDIR(st.st_mode))
+        s = (snprintf(err, errlen, "is a directory, not a %s", what), ML_EIO);
+    else if (!S_ISREG(st.st_mode))
+        s = (snprintf(err, errlen, "not a regular file"), ML_EIO);
+    else if ((uintmax_t)st.st_size > max_bytes)
+        s = (snprintf(err, errlen, "larger than %s: not a %s", max_text, what), ML_EFORMAT);
+    if (s != ML_OK) {
+        close(f);
+        return s;
+    }
+    fcntl(f, F_SETFL, fcntl(f, F_GETFL) & ~O_NONBLOCK);
+    *fd = f;
+    *size = (size_t)st.st_size;
+    return ML_OK;
+}
+
+ml_status ml_smallfile_read(int fd, size_t size, char **data, size_t *got)
+{
+    char *buf = malloc(size + 1);
+    size_t n = 0;
+    while (buf && n < size) {
+        const ssize_t k = read(fd, buf + n, size - n);
+        if (k < 0 && errno == EINTR)
+            continue;
+        if (k <= 0)
+            break;
+        n += (size_t)k;
+    }
+    close(fd);
+    *data = buf;
+    *got = n;
+    if (buf == NULL)
+        return ML_ENOMEM;
+    buf[n] = '\0';
+    return ML_OK;
+}

@@ -1,0 +1,27 @@
+/* Small text files read whole or line by line (settings, limits profiles, card profiles,
+ * calibrations): the checks they share before a byte is read.
+ * SPDX-License-Identifier: MIT
+ */
+#ifndef ML_IO_SMALLFILE_H
+#define ML_IO_SMALLFILE_H
+
+#include <stdbool.h>
+#include <stddef.h>
+
+#include "dsp/status.h"
+
+/* Opens path to read a small file of the kind `what` ("settings file", "limits profile" ...). It
+ * must be a regular file (a FIFO or a device could block forever; the open itself does not block)
+ * of at most max_bytes, which max_text says in words ("1 MiB"). On success *fd is open (blocking)
+ * and *size is the file's size; otherwise *fd is -1 and err[errlen] (when given) holds the
+ * problem: "is a directory, not a <what>", "not a regular file", "larger than <max_text>: not a
+ * <what>" (ML_EFORMAT), or the system's reason (ML_EIO). With missing_ok, a path that does not
+ * exist (ENOENT, ENOTDIR) is ML_OK with *fd -1 and err untouched. */
+ml_status ml_smallfile_open(const char *path, const char *what, size_t max_bytes, const char *max_text,
+                            bool missing_ok, int *fd, size_t *size, char *err, size_t errlen);
+
+/* Reads up to size bytes of fd into a new buffer (*data, with a NUL after the *got bytes read; a
+ * read error ends it early) and closes fd. ML_ENOMEM when there is no memory (*data NULL). */
+ml_status ml_smallfile_read(int fd, size_t size, char **data, size_t *got);
+
+#endif
