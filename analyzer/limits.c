@@ -385,22 +385,11 @@ static bool parse_line(parse_ctx *c, char *line, size_t len, char *section, size
         snprintf(section, seclen, "%s", name);
         return true;
     }
-    char *eq = strchr(line, '=');
-    if (eq == NULL || eq == line) {
+    char *value = ml_smallfile_key_value(line);
+    if (value == NULL) {
         fail(c, "'%.100s' is not a 'key = value' line or a [section] header%s", line, "");
         return false;
     }
-    *eq = '\0';
-    rtrim(line);
-    char *value = eq + 1;
-    for (char *p = value; *p; p++)
-        if (*p == ';' && (p == value || blank(p[-1]))) {
-            *p = '\0';
-            break;
-        }
-    while (blank(*value))
-        value++;
-    rtrim(value);
     return handler(c, section, line, value) == 1;
 }
 

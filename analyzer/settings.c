@@ -162,20 +162,9 @@ static ml_status parse_line(ctx *c, char *line)
         return ML_OK;
     if (*line == '[')
         return fail(c, "'%.100s': the settings file has no sections%s", line, "");
-    char *eq = strchr(line, '=');
-    if (eq == NULL || eq == line)
+    char *value = ml_smallfile_key_value(line);
+    if (value == NULL)
         return fail(c, "'%.100s' is not a 'key = value' line%s", line, "");
-    *eq = '\0';
-    rtrim(line);
-    char *value = eq + 1;
-    for (char *p = value; *p; p++)
-        if (*p == ';' && (p == value || blank(p[-1]))) {
-            *p = '\0';
-            break;
-        }
-    while (blank(*value))
-        value++;
-    rtrim(value);
     return handle(c, line, value);
 }
 

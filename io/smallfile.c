@@ -1,4 +1,4 @@
-/* Small text files: open, check, read whole.
+/* Small text files: open, check, read whole; key = value lines.
  * SPDX-License-Identifier: MIT
  */
 #include "io/smallfile.h"
@@ -69,4 +69,35 @@ ml_status ml_smallfile_read(int fd, size_t size, char **data, size_t *got)
         return ML_ENOMEM;
     buf[n] = '\0';
     return ML_OK;
+}
+
+static bool blank(char ch)
+{
+    return ch == ' ' || ch == '\t';
+}
+
+static void rtrim(char *s)
+{
+    size_t n = strlen(s);
+    while (n > 0 && (blank(s[n - 1]) || s[n - 1] == '\r' || s[n - 1] == '\n'))
+        s[--n] = '\0';
+}
+
+char *ml_smallfile_key_value(char *line)
+{
+    char *eq = strchr(line, '=');
+    if (eq == NULL || eq == line)
+        return NULL;
+    *eq = '\0';
+    rtrim(line);
+    char *value = eq + 1;
+    for (char *p = value; *p; p++)
+        if (*p == ';' && (p == value || blank(p[-1]))) {
+            *p = '\0';
+            break;
+        }
+    while (blank(*value))
+        value++;
+    rtrim(value);
+    return value;
 }

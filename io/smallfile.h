@@ -1,5 +1,5 @@
 /* Small text files read whole or line by line (settings, limits profiles, card profiles,
- * calibrations): the checks they share before a byte is read.
+ * calibrations): the checks they share before a byte is read, and the "key = value" line.
  * SPDX-License-Identifier: MIT
  */
 #ifndef ML_IO_SMALLFILE_H
@@ -23,5 +23,11 @@ ml_status ml_smallfile_open(const char *path, const char *what, size_t max_bytes
 /* Reads up to size bytes of fd into a new buffer (*data, with a NUL after the *got bytes read; a
  * read error ends it early) and closes fd. ML_ENOMEM when there is no memory (*data NULL). */
 ml_status ml_smallfile_read(int fd, size_t size, char **data, size_t *got);
+
+/* Splits a "key = value" line in place (line trimmed of blanks at both ends before): line becomes
+ * the key, the value is returned, both without blanks (space, tab) or line ends around them; the
+ * value ends before a ';' that starts it or follows a blank (an inline comment). NULL, line
+ * untouched, when there is no '=' or it comes first. */
+char *ml_smallfile_key_value(char *line);
 
 #endif
