@@ -467,6 +467,23 @@ void ml_report_mark_line(int k, const char *name, const ml_metric *m, char *buf,
     snprintf(buf, len, "[%d] %s: %s", k, name, why);
 }
 
+void ml_report_series_marks(const ml_report *r, int first_mark, void (*each)(void *ctx, const char *line),
+                            void *ctx)
+{
+    const ml_report_series *sr = r->series;
+    int mark = first_mark;
+    for (size_t k = 0; sr && k < sr->npoints; k++)
+        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
+            const ml_metric *m = &sr->points[k].figures[i];
+            if (!ml_metric_has_mark(m))
+                continue;
+            char name[160], line[ML_REPORT_WHY_LEN + 256];
+            ml_report_point_name(r, k, m->name, name, sizeof name);
+            ml_report_mark_line(++mark, name, m, line, sizeof line);
+            each(ctx, line);
+        }
+}
+
 void ml_report_why_text(const ml_metric *m, char *buf, size_t len)
 {
     char t[ML_REPORT_WHY_LEN];

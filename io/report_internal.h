@@ -31,6 +31,10 @@ int ml_report_metric_marks(const ml_report *r);
 void ml_report_cell_text(const ml_metric *m, int *mark, char *buf, size_t len);
 /* The line that explains mark k of the metric or figure m shown as name: "[k] name: why". */
 void ml_report_mark_line(int k, const char *name, const ml_metric *m, char *buf, size_t len);
+/* Calls each(ctx, line) with the mark line of every marked figure of r's series, point by point,
+ * the marks numbered from first_mark + 1 (the series' figures named "sweep.points[3].thd_pct"). */
+void ml_report_series_marks(const ml_report *r, int first_mark, void (*each)(void *ctx, const char *line),
+                            void *ctx);
 /* The name a point's figure has outside its point: "sweep.points[3].thd_pct", into buf[len]. */
 void ml_report_point_name(const ml_report *r, size_t p, const char *leaf, char *buf, size_t len);
 /* The explanation behind a mark: "noise-limited: upper bound", "not measured: <reason>". */

@@ -416,6 +416,12 @@ static void tables(doc *d, const ml_report *r)
     }
 }
 
+/* A mark explained, in small print, in the doc ctx. */
+static void mark_line(void *ctx, const char *line)
+{
+    small_print(ctx, line);
+}
+
 /* The series' header row: point, each figure's name, result. */
 static void series_head(doc *d, const ml_report_point *p0, double colw)
 {
@@ -471,17 +477,7 @@ static void series(doc *d, const ml_report *r)
         d->y += ROW_H;
     }
     d->y += 8;
-    mark = first_mark;
-    for (size_t k = 0; k < sr->npoints; k++)
-        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
-            const ml_metric *m = &sr->points[k].figures[i];
-            if (!ml_metric_has_mark(m))
-                continue;
-            char name[160], line[ML_REPORT_WHY_LEN + 256];
-            ml_report_point_name(r, k, m->name, name, sizeof name);
-            ml_report_mark_line(++mark, name, m, line, sizeof line);
-            small_print(d, line);
-        }
+    ml_report_series_marks(r, first_mark, mark_line, d);
     d->y += 8;
 }
 

@@ -89,6 +89,12 @@ static void metrics(FILE *f, const ml_report *r)
     }
 }
 
+/* A mark explained, on its own indented line of the file ctx. */
+static void mark_line(void *ctx, const char *line)
+{
+    fprintf((FILE *)ctx, "  %s\n", line);
+}
+
 /* The series: one line per point (its figures, marks beside them, the result of its checks), the
  * marks' explanations, and the failed checks with their limits. */
 static void series(FILE *f, const ml_report *r)
@@ -116,17 +122,7 @@ static void series(FILE *f, const ml_report *r)
         const char *v = ml_report_point_verdict(pt);
         fprintf(f, "  %s\n", v ? (strcmp(v, "pass") == 0 ? "PASS" : "FAIL") : "");
     }
-    mark = first_mark;
-    for (size_t k = 0; k < sr->npoints; k++)
-        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
-            const ml_metric *m = &sr->points[k].figures[i];
-            if (!ml_metric_has_mark(m))
-                continue;
-            char name[160], line[ML_REPORT_WHY_LEN + 256];
-            ml_report_point_name(r, k, m->name, name, sizeof name);
-            ml_report_mark_line(++mark, name, m, line, sizeof line);
-            fprintf(f, "  %s\n", line);
-        }
+    ml_report_series_marks(r, first_mark, mark_line, f);
     for (size_t k = 0; k < sr->npoints; k++)
         for (size_t i = 0; i < sr->points[k].nchecks; i++) {
             const ml_check *c = &sr->points[k].checks[i];
