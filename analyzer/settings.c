@@ -8,14 +8,11 @@
 #include "analyzer/settings.h"
 
 #include <errno.h>
-#include <fcntl.h>
 #include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
-#include <unistd.h>
 
 #include "io/printable.h"
 #include "io/smallfile.h"

@@ -4,15 +4,12 @@
 #define _POSIX_C_SOURCE 200809L
 #include "io/cardfile.h"
 
-#include <errno.h>
-#include <fcntl.h>
 #include <jansson.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <unistd.h>
 
 #include "io/printable.h"
