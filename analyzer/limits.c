@@ -334,18 +334,6 @@ static int handler(void *user, const char *section, const char *name, const char
     return 1;
 }
 
-static bool blank(char ch)
-{
-    return ch == ' ' || ch == '\t';
-}
-
-static void rtrim(char *s)
-{
-    size_t n = strlen(s);
-    while (n > 0 && (blank(s[n - 1]) || s[n - 1] == '\r' || s[n - 1] == '\n'))
-        s[--n] = '\0';
-}
-
 /* One line of the profile (len bytes with its newline, of any length): a comment, a [section] header
  * or a key = value line. A value ends at " ;" (an inline comment); ";" and "#" at the start of a
  * line begin a comment line. false when parsing must stop (the error is set). */
@@ -355,27 +343,18 @@ static bool parse_line(parse_ctx *c, char *line, size_t len, char *section, size
         fail(c, "holds a NUL byte: not a text line%s%s", "", "");
         return false;
     }
-    if (c->line == 1 && strncmp(line, "\xef\xbb\xbf", 3) == 0) /* a UTF-8 byte order mark */
-        line += 3;
-    while (blank(*line))
-        line++;
-    rtrim(line);
-    if (*line == '\0' || *line == ';' || *line == '#')
+    line = ml_smallfile_line(line, c->line == 1);
+    if (line == NULL)
         return true;
     if (*line == '[') {
         char *end = strchr(line, ']');
-        char *rest = end ? end + 1 : NULL;
-        while (rest && blank(*rest))
-            rest++;
+        const char *rest = end ? ml_smallfile_trim(end + 1) : NULL;
         if (end == NULL || (*rest != '\0' && *rest != ';' && *rest != '#')) {
             fail(c, "'%.100s' is not a 'key = value' line or a [section] header%s", line, "");
             return false;
         }
         *end = '\0';
-        char *name = line + 1;
-        while (blank(*name))
-            name++;
-        rtrim(name);
+        const char *name = ml_smallfile_trim(line + 1);
         if (strlen(name) >= seclen) {
             fail(c, "section [%.100s] is not known%s", name, "");
             return false;

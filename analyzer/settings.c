@@ -135,27 +135,11 @@ static ml_status handle(ctx *c, const char *key, const char *value)
                 key, "");
 }
 
-static bool blank(char ch)
-{
-    return ch == ' ' || ch == '\t';
-}
-
-static void rtrim(char *s)
-{
-    size_t n = strlen(s);
-    while (n > 0 && (blank(s[n - 1]) || s[n - 1] == '\r'))
-        s[--n] = '\0';
-}
-
 /* One line (NUL-terminated, no newline): a comment, blank, or key = value. */
 static ml_status parse_line(ctx *c, char *line)
 {
-    if (c->line == 1 && strncmp(line, "\xef\xbb\xbf", 3) == 0) /* a UTF-8 byte order mark */
-        line += 3;
-    while (blank(*line))
-        line++;
-    rtrim(line);
-    if (*line == '\0' || *line == ';' || *line == '#')
+    line = ml_smallfile_line(line, c->line == 1);
+    if (line == NULL)
         return ML_OK;
     if (*line == '[')
         return fail(c, "'%.100s': the settings file has no sections%s", line, "");

@@ -83,6 +83,22 @@ static void rtrim(char *s)
         s[--n] = '\0';
 }
 
+char *ml_smallfile_trim(char *s)
+{
+    while (blank(*s))
+        s++;
+    rtrim(s);
+    return s;
+}
+
+char *ml_smallfile_line(char *line, bool first_line)
+{
+    if (first_line && strncmp(line, "\xef\xbb\xbf", 3) == 0) /* a UTF-8 byte order mark */
+        line += 3;
+    line = ml_smallfile_trim(line);
+    return *line == '\0' || *line == ';' || *line == '#' ? NULL : line;
+}
+
 char *ml_smallfile_key_value(char *line)
 {
     char *eq = strchr(line, '=');

@@ -24,6 +24,13 @@ ml_status ml_smallfile_open(const char *path, const char *what, size_t max_bytes
  * read error ends it early) and closes fd. ML_ENOMEM when there is no memory (*data NULL). */
 ml_status ml_smallfile_read(int fd, size_t size, char **data, size_t *got);
 
+/* s trimmed in place of blanks (space, tab) and line ends ('\r', '\n') at both ends; returns
+ * where it now starts. */
+char *ml_smallfile_trim(char *s);
+/* A line of a "key = value" file trimmed (ml_smallfile_trim; on the first line a UTF-8 byte order
+ * mark is skipped too), or NULL for a blank line or a comment (starting with ';' or '#'). */
+char *ml_smallfile_line(char *line, bool first_line);
+
 /* Splits a "key = value" line in place (line trimmed of blanks at both ends before): line becomes
  * the key, the value is returned, both without blanks (space, tab) or line ends around them; the
  * value ends before a ';' that starts it or follows a blank (an inline comment). NULL, line
