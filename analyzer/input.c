@@ -119,6 +119,38 @@ int ml_input_read(const char *name, ml_segment *seg, float *buf, size_t want, si
     return 0;
 }
 
+/* Pushes the opening `frames` frames of seg's channel(s) ch into s (the complex pair for complex
+ * input, else the one channel), then seeks the source back to the segment's start. 0 or an exit
+ * status (error printed). */
+static int push_opening(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames, ml_spectrum *s)
+{
+    float *buf = malloc(CHUNK_FRAMES * ch->stride * sizeof *buf);
+    double complex *z = ch->complex_input ? malloc(CHUNK_FRAMES * sizeof *z) : NULL;
+    float *mono = malloc(CHUNK_FRAMES * sizeof *mono);
+    int rc = buf && (z || !ch->complex_input) && mono ? 0 : ml_cli_error("%s: out of memory", name);
+    for (int64_t done = 0; rc == 0 && done < frames;) {
+        size_t want = frames - done < CHUNK_FRAMES ? (size_t)(frames - done) : CHUNK_FRAMES, got = 0;
+        if ((rc = ml_input_read(name, seg, buf, want, &got, done)) != 0)
+            break;
+        if (ch->complex_input) {
+            ml_channels_split_complex(ch, buf, got, z);
+            ml_spectrum_push_complex(s, z, got);
+        } else {
+            ml_channels_split(ch, buf, got, mono, NULL);
+            ml_spectrum_push(s, mono, got);
+        }
+        done += (int64_t)got;
+        if (got < want) /* a live capture ended early */
+            break;
+    }
+    free(buf);
+    free(z);
+    free(mono);
+    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
+        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", name, ml_source_detail(seg->src));
+    return rc;
+}
+
 int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch, int64_t frames,
                         ml_spectrum **out)
 {
@@ -137,30 +169,7 @@ int ml_input_look_ahead(const char *name, ml_segment *seg, const ml_channels *ch
     ml_status st = ml_spectrum_create(&sc, out);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", name, ml_strerror(st));
-    float *buf = malloc(CHUNK_FRAMES * ch->stride * sizeof *buf);
-    double complex *z = malloc(CHUNK_FRAMES * sizeof *z);
-    float *mono = malloc(CHUNK_FRAMES * sizeof *mono);
-    int rc = buf && z && mono ? 0 : ml_cli_error("%s: out of memory", name);
-    for (int64_t done = 0; rc == 0 && done < frames;) {
-        size_t want = frames - done < CHUNK_FRAMES ? (size_t)(frames - done) : CHUNK_FRAMES, got = 0;
-        if ((rc = ml_input_read(name, seg, buf, want, &got, done)) != 0)
-            break;
-        if (ch->complex_input) {
-            ml_channels_split_complex(ch, buf, got, z);
-            ml_spectrum_push_complex(*out, z, got);
-        } else {
-            ml_channels_split(ch, buf, got, mono, NULL);
-            ml_spectrum_push(*out, mono, got);
-        }
-        done += (int64_t)got;
-        if (got < want) /* a live capture ended early */
-            break;
-    }
-    free(buf);
-    free(z);
-    free(mono);
-    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", name, ml_source_detail(seg->src));
+    const int rc = push_opening(name, seg, ch, frames, *out);
     if (rc != 0) {
         ml_spectrum_destroy(*out);
         *out = NULL;
@@ -185,24 +194,7 @@ static int channel_spectrum(const ml_input_opts *in, ml_segment *seg, int64_t fr
     ml_status st = ml_spectrum_create(&sc, out);
     if (st != ML_OK)
         return ml_cli_error("%s: %s", in->path, ml_strerror(st));
-    float *buf = malloc(CHUNK_FRAMES * ch.stride * sizeof *buf), *mono = malloc(CHUNK_FRAMES * sizeof *mono);
-    int rc = buf && mono ? 0 : ml_cli_error("%s: out of memory", in->path);
-    for (int64_t done = 0; rc == 0 && done < frames;) {
-        size_t want = frames - done < CHUNK_FRAMES ? (size_t)(frames - done) : CHUNK_FRAMES, got = 0;
-        if ((rc = ml_input_read(in->path, seg, buf, want, &got, done)) != 0)
-            break;
-        ml_channels_split(&ch, buf, got, mono, NULL);
-        ml_spectrum_push(*out, mono, got);
-        done += (int64_t)got;
-        if (got < want) /* a live capture ended early */
-            break;
-    }
-    free(buf);
-    free(mono);
-    if (rc == 0 && ml_source_seek(seg->src, seg->first) != ML_OK)
-        rc = ml_cli_error("%s: cannot seek back to the segment start: %s", in->path,
-                          ml_source_detail(seg->src));
-    return rc;
+    return push_opening(in->path, seg, &ch, frames, *out);
 }
 
 /* The pair evidence (dsp/kind.h) of the analysed channel (x, 0-based cx) and the next (y) over the

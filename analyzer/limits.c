@@ -9,18 +9,17 @@
 #include "analyzer/limits.h"
 
 #include <errno.h>
-#include <fcntl.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <unistd.h>
 
 #include "analyzer/registry.h"
 #include "io/printable.h"
+#include "io/smallfile.h"
 
-#define MAX_BYTES ((off_t)1 << 20) /* a profile is a few hundred bytes; larger files are refused */
+#define MAX_BYTES ((size_t)1 << 20) /* a profile is a few hundred bytes; larger files are refused */
 #define MAX_LIMIT 1e15             /* |limit| in the metric's unit: counts stay exact integers  */
 #define MAX_OFFSET_HZ 1e9
 #define MAX_DBC 1000.0
@@ -335,18 +334,6 @@ static int handler(void *user, const char *section, const char *name, const char
     return 1;
 }
 
-static bool blank(char ch)
-{
-    return ch == ' ' || ch == '\t';
-}
-
-static void rtrim(char *s)
-{
-    size_t n = strlen(s);
-    while (n > 0 && (blank(s[n - 1]) || s[n - 1] == '\r' || s[n - 1] == '\n'))
-        s[--n] = '\0';
-}
-
 /* One line of the profile (len bytes with its newline, of any length): a comment, a [section] header
  * or a key = value line. A value ends at " ;" (an inline comment); ";" and "#" at the start of a
  * line begin a comment line. false when parsing must stop (the error is set). */
@@ -356,27 +343,18 @@ static bool parse_line(parse_ctx *c, char *line, size_t len, char *section, size
         fail(c, "holds a NUL byte: not a text line%s%s", "", "");
         return false;
     }
-    if (c->line == 1 && strncmp(line, "\xef\xbb\xbf", 3) == 0) /* a UTF-8 byte order mark */
-        line += 3;
-    while (blank(*line))
-        line++;
-    rtrim(line);
-    if (*line == '\0' || *line == ';' || *line == '#')
+    line = ml_smallfile_line(line, c->line == 1);
+    if (line == NULL)
         return true;
     if (*line == '[') {
         char *end = strchr(line, ']');
-        char *rest = end ? end + 1 : NULL;
-        while (rest && blank(*rest))
-            rest++;
+        const char *rest = end ? ml_smallfile_trim(end + 1) : NULL;
         if (end == NULL || (*rest != '\0' && *rest != ';' && *rest != '#')) {
             fail(c, "'%.100s' is not a 'key = value' line or a [section] header%s", line, "");
             return false;
         }
         *end = '\0';
-        char *name = line + 1;
-        while (blank(*name))
-            name++;
-        rtrim(name);
+        const char *name = ml_smallfile_trim(line + 1);
         if (strlen(name) >= seclen) {
             fail(c, "section [%.100s] is not known%s", name, "");
             return false;
@@ -384,51 +362,29 @@ static bool parse_line(parse_ctx *c, char *line, size_t len, char *section, size
         snprintf(section, seclen, "%s", name);
         return true;
     }
-    char *eq = strchr(line, '=');
-    if (eq == NULL || eq == line) {
+    char *value = ml_smallfile_key_value(line);
+    if (value == NULL) {
         fail(c, "'%.100s' is not a 'key = value' line or a [section] header%s", line, "");
         return false;
     }
-    *eq = '\0';
-    rtrim(line);
-    char *value = eq + 1;
-    for (char *p = value; *p; p++)
-        if (*p == ';' && (p == value || blank(p[-1]))) {
-            *p = '\0';
-            break;
-        }
-    while (blank(*value))
-        value++;
-    rtrim(value);
     return handler(c, section, line, value) == 1;
 }
 
 ml_status ml_limits_load(const char *path, ml_limits *out, char *err, size_t errlen)
 {
     memset(out, 0, sizeof *out);
-    /* O_NONBLOCK: a FIFO must not block the open (it is refused below) */
-    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
-    if (fd < 0) {
+    int fd;
+    size_t size;
+    const ml_status opened = ml_smallfile_open(path, "limits profile", MAX_BYTES, "1 MiB", false, &fd, &size, err,
+                                               errlen);
+    if (opened != ML_OK)
+        return opened;
+    FILE *f = fdopen(fd, "r");
+    if (f == NULL) {
         snprintf(err, errlen, "%s", strerror(errno));
+        close(fd);
         return ML_EIO;
     }
-    struct stat st;
-    const char *problem = NULL;
-    if (fstat(fd, &st) != 0)
-        problem = strerror(errno);
-    else if (S_ISDIR(st.st_mode))
-        problem = "is a directory, not a limits profile";
-    else if (!S_ISREG(st.st_mode)) /* a FIFO or device could block forever */
-        problem = "not a regular file";
-    else if (st.st_size > MAX_BYTES)
-        problem = "larger than 1 MiB: not a limits profile";
-    FILE *f = problem ? NULL : fdopen(fd, "r");
-    if (f == NULL) {
-        snprintf(err, errlen, "%s", problem ? problem : strerror(errno));
-        close(fd);
-        return problem && strstr(problem, "MiB") ? ML_EFORMAT : ML_EIO;
-    }
-    fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) & ~O_NONBLOCK);
     parse_ctx c = {.out = out, .err = err, .errlen = errlen};
     char section[64] = "";
     char *line = NULL;

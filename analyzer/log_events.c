@@ -117,14 +117,20 @@ static int write_impulses(ml_logger *L, const ml_log_impulses *m)
     return ml_log_write_event(L, ML_LOG_IMPULSE, m->start, m->end, m->peak_dbfs, m->rise_db, det);
 }
 
+/* Takes the oldest held group of impulses off the list and writes it. */
+static int write_oldest_held(ml_logger *L)
+{
+    const ml_log_impulses m = L->held[0];
+    memmove(L->held, L->held + 1, (L->nheld - 1) * sizeof *L->held);
+    L->nheld--;
+    return write_impulses(L, &m);
+}
+
 int ml_log_release_held(ml_logger *L, bool force)
 {
     const int64_t hold = (int64_t)llround(BUZZ_CLAIM_S * L->rate);
     while (L->nheld > 0 && (force || L->imp_judged - L->held[0].end > hold)) {
-        const ml_log_impulses m = L->held[0];
-        memmove(L->held, L->held + 1, (L->nheld - 1) * sizeof *L->held);
-        L->nheld--;
-        int rc = write_impulses(L, &m);
+        int rc = write_oldest_held(L);
         if (rc != 0)
             return rc;
     }
@@ -136,10 +142,7 @@ int ml_log_flush_impulses(ml_logger *L)
     if (L->mi.n == 0)
         return 0;
     if (L->nheld == sizeof L->held / sizeof *L->held) {
-        const ml_log_impulses m = L->held[0];
-        memmove(L->held, L->held + 1, (L->nheld - 1) * sizeof *L->held);
-        L->nheld--;
-        int rc = write_impulses(L, &m);
+        int rc = write_oldest_held(L);
         if (rc != 0)
             return rc;
     }

@@ -96,25 +96,33 @@ static time_t split_ms(double t, long *ms)
     return (time_t)whole;
 }
 
+/* t in UTC or local time: *tm, the date and time to the second in day ("2026-12-05T03:14:38"),
+ * the milliseconds in *ms. */
+static void day_and_ms(double t, bool local, struct tm *tm, char day[32], long *ms)
+{
+    const time_t tt = split_ms(t, ms);
+    if (local)
+        localtime_r(&tt, tm);
+    else
+        gmtime_r(&tt, tm);
+    strftime(day, 32, "%Y-%m-%dT%H:%M:%S", tm);
+}
+
 void ml_log_format_utc(double t, char *b, size_t n)
 {
     long ms;
-    const time_t tt = split_ms(t, &ms);
     struct tm tm;
-    gmtime_r(&tt, &tm);
     char day[32];
-    strftime(day, sizeof day, "%Y-%m-%dT%H:%M:%S", &tm);
+    day_and_ms(t, false, &tm, day, &ms);
     snprintf(b, n, "%s.%03ldZ", day, ms);
 }
 
 void ml_log_format_local(double t, char *b, size_t n)
 {
     long ms;
-    const time_t tt = split_ms(t, &ms);
     struct tm tm;
-    localtime_r(&tt, &tm);
     char day[32];
-    strftime(day, sizeof day, "%Y-%m-%dT%H:%M:%S", &tm);
+    day_and_ms(t, true, &tm, day, &ms);
     const long off = tm.tm_gmtoff, a = labs(off);
     if (a % 60 != 0)
         snprintf(b, n, "%s.%03ld%c%02ld:%02ld:%02ld", day, ms, off < 0 ? '-' : '+', a / 3600, a / 60 % 60, a % 60);

@@ -8,16 +8,14 @@
 #include "analyzer/settings.h"
 
 #include <errno.h>
-#include <fcntl.h>
 #include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
-#include <unistd.h>
 
 #include "io/printable.h"
+#include "io/smallfile.h"
 
 typedef struct {
     int line;
@@ -137,44 +135,17 @@ static ml_status handle(ctx *c, const char *key, const char *value)
                 key, "");
 }
 
-static bool blank(char ch)
-{
-    return ch == ' ' || ch == '\t';
-}
-
-static void rtrim(char *s)
-{
-    size_t n = strlen(s);
-    while (n > 0 && (blank(s[n - 1]) || s[n - 1] == '\r'))
-        s[--n] = '\0';
-}
-
 /* One line (NUL-terminated, no newline): a comment, blank, or key = value. */
 static ml_status parse_line(ctx *c, char *line)
 {
-    if (c->line == 1 && strncmp(line, "\xef\xbb\xbf", 3) == 0) /* a UTF-8 byte order mark */
-        line += 3;
-    while (blank(*line))
-        line++;
-    rtrim(line);
-    if (*line == '\0' || *line == ';' || *line == '#')
+    line = ml_smallfile_line(line, c->line == 1);
+    if (line == NULL)
         return ML_OK;
     if (*line == '[')
         return fail(c, "'%.100s': the settings file has no sections%s", line, "");
-    char *eq = strchr(line, '=');
-    if (eq == NULL || eq == line)
+    char *value = ml_smallfile_key_value(line);
+    if (value == NULL)
         return fail(c, "'%.100s' is not a 'key = value' line%s", line, "");
-    *eq = '\0';
-    rtrim(line);
-    char *value = eq + 1;
-    for (char *p = value; *p; p++)
-        if (*p == ';' && (p == value || blank(p[-1]))) {
-            *p = '\0';
-            break;
-        }
-    while (blank(*value))
-        value++;
-    rtrim(value);
     return handle(c, line, value);
 }
 
@@ -217,37 +188,17 @@ ml_status ml_settings_parse(const char *data, size_t len, const char *dir, ml_se
 ml_status ml_settings_read(const char *path, ml_settings *s, char *err, size_t errlen)
 {
     *s = (ml_settings){.full_scale_dbu = NAN};
-    /* O_NONBLOCK: a FIFO must not block the open (it is refused below) */
-    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
-    if (fd < 0) {
-        if (errno == ENOENT || errno == ENOTDIR)
-            return ML_OK; /* no settings */
-        snprintf(err, errlen, "%s", strerror(errno));
-        return ML_EIO;
-    }
-    struct stat st;
-    const char *problem = fstat(fd, &st) != 0                  ? strerror(errno)
-                          : S_ISDIR(st.st_mode)                ? "is a directory, not a settings file"
-                          : !S_ISREG(st.st_mode)               ? "not a regular file"
-                          : st.st_size > ML_SETTINGS_MAX_BYTES ? "larger than 64 KiB: not a settings file"
-                                                               : NULL;
-    if (problem) {
-        snprintf(err, errlen, "%s", problem);
-        close(fd);
-        return strstr(problem, "KiB") ? ML_EFORMAT : ML_EIO;
-    }
-    char *buf = malloc((size_t)st.st_size + 1);
-    size_t got = 0;
-    while (buf && got < (size_t)st.st_size) {
-        const ssize_t n = read(fd, buf + got, (size_t)st.st_size - got);
-        if (n < 0 && errno == EINTR)
-            continue;
-        if (n <= 0)
-            break;
-        got += (size_t)n;
-    }
-    close(fd);
-    if (buf == NULL)
+    int fd;
+    size_t size;
+    const ml_status opened = ml_smallfile_open(path, "settings file", ML_SETTINGS_MAX_BYTES, "64 KiB", true, &fd,
+                                               &size, err, errlen);
+    if (opened != ML_OK)
+        return opened;
+    if (fd < 0)
+        return ML_OK; /* no settings */
+    char *buf;
+    size_t got;
+    if (ml_smallfile_read(fd, size, &buf, &got) != ML_OK)
         return ML_ENOMEM;
     char *dir = strdup(path);
     char *slash = dir ? strrchr(dir, '/') : NULL;

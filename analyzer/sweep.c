@@ -556,26 +556,36 @@ int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_repor
 
 /* ---- the command ------------------------------------------------------------------------- */
 
+void ml_sweep_output_init(ml_sweep_output *out, ml_report *rep, ml_sweep_opts *o)
+{
+    memset(rep, 0, sizeof *rep);
+    out->rep = rep;
+    memset(&out->ser, 0, sizeof out->ser);
+    ml_plot_data_init(&out->pd);
+    if (o->m.out.plot_path || o->m.out.report_path)
+        o->m.out.plot = &out->pd;
+}
+
+void ml_sweep_output_free(ml_sweep_output *out)
+{
+    ml_report_series_free(&out->ser);
+    ml_plot_data_free(&out->pd);
+}
+
 static int sweep_file(ml_sweep_opts *o, ml_finish_files *files, const char *cmdline)
 {
     static ml_report rep;
-    memset(&rep, 0, sizeof rep);
-    ml_report_series ser;
-    memset(&ser, 0, sizeof ser);
-    ml_plot_data pd;
-    ml_plot_data_init(&pd);
-    if (o->m.out.plot_path || o->m.out.report_path)
-        o->m.out.plot = &pd;
+    ml_sweep_output out;
+    ml_sweep_output_init(&out, &rep, o);
     ml_segment seg;
     int rc = ml_input_open_file(&o->m.in, &seg);
     if (rc == 0)
-        rc = ml_sweep_analyse(o, &seg, &rep, &ser);
+        rc = ml_sweep_analyse(o, &seg, out.rep, &out.ser);
     ml_source_close(seg.src);
     if (rc == 0)
-        rc = ml_finish(&(ml_finish_job){.out = &o->m.out, .files = files, .report = &rep, .plot = &pd,
+        rc = ml_finish(&(ml_finish_job){.out = &o->m.out, .files = files, .report = out.rep, .plot = &out.pd,
                                         .cmdline = cmdline});
-    ml_report_series_free(&ser);
-    ml_plot_data_free(&pd);
+    ml_sweep_output_free(&out);
     return rc;
 }
 

@@ -89,6 +89,18 @@ void ml_sweep_run_free(ml_sweep_run *r);
  * an exit status. */
 int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_report_series *series);
 
+/* What a sweep fills and hands to ml_finish: the report (the caller's, in static storage: it is
+ * large), its series and the pictures' data. */
+typedef struct {
+    ml_report *rep;
+    ml_report_series ser;
+    ml_plot_data pd;
+} ml_sweep_output;
+/* Clears rep and sets out up empty around it; o->m.out.plot points at out->pd when pictures or a
+ * PDF report are asked for (out must stay where it is until ml_sweep_output_free). */
+void ml_sweep_output_init(ml_sweep_output *out, ml_report *rep, ml_sweep_opts *o);
+void ml_sweep_output_free(ml_sweep_output *out);
+
 /* Play-and-measure (analyzer/sweep_live.c): plays o's plan on the output while capturing the
  * input into a temporary file (or --save's), measures the round trip as 'live --play-tone' does,
  * then analyses the capture as a file; finishes the report. An exit status. */

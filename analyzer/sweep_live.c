@@ -244,31 +244,25 @@ int ml_sweep_live(ml_sweep_opts *o, ml_finish_files *files, const char *cmdline)
     g_capture = NULL;
     ml_source_close(seg.src); /* completes the capture file */
     static ml_report rep;
-    memset(&rep, 0, sizeof rep);
-    ml_report_series ser;
-    memset(&ser, 0, sizeof ser);
-    ml_plot_data pd;
-    ml_plot_data_init(&pd);
-    if (o->m.out.plot_path || o->m.out.report_path)
-        o->m.out.plot = &pd;
+    ml_sweep_output out;
+    ml_sweep_output_init(&out, &rep, o);
     int64_t latency = -1;
     const char *latency_why = "";
     if (rc == 0 && ls.captured_frames == 0)
         rc = ml_cli_error("%s: no frame was captured", o->m.in.device);
     if (rc == 0)
-        rc = analyse_capture(o, fd, &feed, &rep, &ser, &latency, &latency_why);
+        rc = analyse_capture(o, fd, &feed, out.rep, &out.ser, &latency, &latency_why);
     if (rc == 0)
-        describe_capture(&rep, o, &ls, rate, latency, latency_why, seg.ended_early);
+        describe_capture(out.rep, o, &ls, rate, latency, latency_why, seg.ended_early);
     if (own >= 0)
         close(own);
     const int crc = ml_finish_capture_end(files, ls.captured_frames > 0);
     if (rc == 0 && crc == 0)
-        rc = ml_finish(&(ml_finish_job){.out = &o->m.out, .files = files, .report = &rep, .plot = &pd,
+        rc = ml_finish(&(ml_finish_job){.out = &o->m.out, .files = files, .report = out.rep, .plot = &out.pd,
                                         .cmdline = cmdline, .input_failed = seg.failed});
     else
         rc = ml_finish_failed(files, rc != 0 ? rc : crc);
     ml_synth_destroy(feed.syn);
-    ml_report_series_free(&ser);
-    ml_plot_data_free(&pd);
+    ml_sweep_output_free(&out);
     return rc;
 }

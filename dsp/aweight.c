@@ -13,21 +13,18 @@
 #include <math.h>
 #include <stdlib.h>
 
+#include "dsp/biquad.h"
 #include "dsp/internal.h"
 
 /* [iec61672:2013] E.4: pole frequencies in Hz */
 static const double F1 = 20.598997057618316, F2 = 107.65264864304629, F3 = 737.8622307362901,
                     F4 = 12194.217147998012;
 
-typedef struct {
-    double b[3], a[3]; /* a[0] = 1 */
-    double z1, z2;     /* transposed direct form II state */
-} biquad;
 
 struct ml_aweight {
     ml_aweight_config cfg;
     double gain;
-    biquad s[3];
+    ml_biquad s[3];
 };
 
 ml_aweight_config ml_aweight_config_default(double rate_hz)
@@ -44,12 +41,12 @@ static double warp(double f_hz, double fs)
 
 /* Bilinear image (s = K (1 - z^-1)/(1 + z^-1), K = 2 fs) of N(s) / ((s + pa)(s + pb)), where N is
  * s^2 (highpass = 1) or 1. Denominator ((K + pa) - (K - pa) z^-1)((K + pb) - (K - pb) z^-1). */
-static biquad section(double pa, double pb, double fs, int highpass)
+static ml_biquad section(double pa, double pb, double fs, int highpass)
 {
     const double k = 2.0 * fs;
     const double d0 = (k + pa) * (k + pb), d1 = -(k + pa) * (k - pb) - (k - pa) * (k + pb),
                  d2 = (k - pa) * (k - pb);
-    biquad q = {{0}, {1.0, d1 / d0, d2 / d0}, 0, 0};
+    ml_biquad q = {{0}, {1.0, d1 / d0, d2 / d0}, 0, 0};
     const double g = highpass ? k * k : 1.0;
     q.b[0] = g / d0;
     q.b[1] = (highpass ? -2.0 : 2.0) * g / d0;
@@ -57,17 +54,12 @@ static biquad section(double pa, double pb, double fs, int highpass)
     return q;
 }
 
-static double complex biquad_h(const biquad *q, double complex zi)
-{
-    return (q->b[0] + q->b[1] * zi + q->b[2] * zi * zi) / (1.0 + q->a[1] * zi + q->a[2] * zi * zi);
-}
-
 static double response(const ml_aweight *q, double f_hz)
 {
     const double complex zi = cexp(-I * 2.0 * ML_PI * f_hz / q->cfg.rate_hz);
     double complex h = 1.0;
     for (int i = 0; i < 3; i++)
-        h *= biquad_h(&q->s[i], zi);
+        h *= ml_biquad_h(&q->s[i], zi);
     return cabs(h);
 }
 
@@ -111,11 +103,7 @@ ml_status ml_aweight_push(ml_aweight *q, const float *x, double *y, size_t n)
     for (size_t i = 0; i < n; i++) {
         double v = q->gain * (double)x[i];
         for (int k = 0; k < 3; k++) {
-            biquad *s = &q->s[k];
-            const double o = s->b[0] * v + s->z1;
-            s->z1 = s->b[1] * v - s->a[1] * o + s->z2;
-            s->z2 = s->b[2] * v - s->a[2] * o;
-            v = o;
+            v = ml_biquad_step(&q->s[k], v);
         }
         y[i] = v;
     }

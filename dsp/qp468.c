@@ -16,6 +16,7 @@
 #include <math.h>
 #include <stdlib.h>
 
+#include "dsp/biquad.h"
 #include "dsp/internal.h"
 
 #define FIR_MAX 8 /* cosine terms */
@@ -35,14 +36,10 @@ static const double T1_TOL[20] = {2.0, 1.4, 1.0, 0.85, 0.7, 0.55, 0.5, 0.5, 0.5,
 /* Fitted to [bs468:1986] Tables 2 and 3 (see the header): seconds */
 static const double TAU_A1 = 1.48492e-3, TAU_R1 = 0.290620, TAU_2 = 0.140221;
 
-typedef struct {
-    double b[3], a[3]; /* a[0] = 1 */
-    double z1, z2;
-} biquad;
 
 struct ml_qp468 {
     ml_qp468_config cfg;
-    biquad s[3];
+    ml_biquad s[3];
     double gain; /* makes the filter 0 dB at 1 kHz */
     double fir[2 * FIR_MAX - 1];
     size_t ntaps;
@@ -59,17 +56,12 @@ ml_qp468_config ml_qp468_config_default(double rate_hz)
     return (ml_qp468_config){.rate_hz = rate_hz, .weighted = true, .settle_s = 0.5};
 }
 
-static double complex biquad_h(const biquad *q, double complex zi)
-{
-    return (q->b[0] + q->b[1] * zi + q->b[2] * zi * zi) / (q->a[0] + q->a[1] * zi + q->a[2] * zi * zi);
-}
-
 static double iir_mag(const ml_qp468 *q, double f)
 {
     const double complex zi = cexp(CMPLX(0.0, -2.0 * ML_PI * f / q->cfg.rate_hz));
     double complex h = 1.0;
     for (int i = 0; i < 3; i++)
-        h *= biquad_h(&q->s[i], zi);
+        h *= ml_biquad_h(&q->s[i], zi);
     return cabs(h);
 }
 
@@ -146,11 +138,11 @@ static int design(ml_qp468 *q)
     const double fs = q->cfg.rate_hz, T = 1.0 / fs;
     /* zeros at z = 1 and z = -1 over the two real poles */
     const double r0 = exp(P_REAL[0] * T), r1 = exp(P_REAL[1] * T);
-    q->s[0] = (biquad){{1.0, 0.0, -1.0}, {1.0, -(r0 + r1), r0 * r1}, 0, 0};
+    q->s[0] = (ml_biquad){{1.0, 0.0, -1.0}, {1.0, -(r0 + r1), r0 * r1}, 0, 0};
     for (int i = 0; i < 2; i++) {
         const double complex p = cexp(CMPLX(P_CPLX_RE[i] * T, P_CPLX_IM[i] * T));
         const double m2 = creal(p) * creal(p) + cimag(p) * cimag(p);
-        q->s[1 + i] = (biquad){{1.0, 0.0, 0.0}, {1.0, -2.0 * creal(p), m2}, 0, 0};
+        q->s[1 + i] = (ml_biquad){{1.0, 0.0, 0.0}, {1.0, -2.0 * creal(p), m2}, 0, 0};
     }
     const size_t kk = fs < 64000 ? 8 : 3;
     q->ntaps = 2 * kk - 1;
@@ -197,11 +189,7 @@ static inline double step(ml_qp468 *q, double x)
     if (q->cfg.weighted) {
         double v = q->gain * x;
         for (int k = 0; k < 3; k++) {
-            biquad *s = &q->s[k];
-            const double o = s->b[0] * v + s->z1;
-            s->z1 = s->b[1] * v - s->a[1] * o + s->z2;
-            s->z2 = s->b[2] * v - s->a[2] * o;
-            v = o;
+            v = ml_biquad_step(&q->s[k], v);
         }
         q->ring[q->pos] = v;
         double acc = 0.0;

@@ -57,18 +57,6 @@ static PaError init_quiet(void)
     return e;
 }
 
-/* snprintf into a caller's optional detail buffer (NULL: nothing to say). */
-static void say(char *detail, size_t len, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-static void say(char *detail, size_t len, const char *fmt, ...)
-{
-    if (detail == NULL || len == 0)
-        return;
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(detail, len, fmt, ap);
-    va_end(ap);
-}
-
 /* Output side of a callback: n frames from the ring, silence (counted) for what is missing. */
 static void pour(ml_ring *r, void *output, size_t n, size_t ch, atomic_uint_least64_t *underflows)
 {
@@ -130,13 +118,13 @@ static ml_status find_device(const char *spec, bool input, PaDeviceIndex *out, c
     const char *dir = input ? "input" : "output";
     const int count = Pa_GetDeviceCount();
     if (count <= 0) {
-        say(detail, len, "no audio devices found (no sound card, and no audio server running)");
+        ml_say(detail, len, "no audio devices found (no sound card, and no audio server running)");
         return ML_EDEVICE;
     }
     if (spec == NULL) {
         const PaDeviceIndex d = input ? Pa_GetDefaultInputDevice() : Pa_GetDefaultOutputDevice();
         if (d == paNoDevice) {
-            say(detail, len, "there is no default %s device", dir);
+            ml_say(detail, len, "there is no default %s device", dir);
             return ML_EDEVICE;
         }
         *out = d;
@@ -147,7 +135,7 @@ static ml_status find_device(const char *spec, bool input, PaDeviceIndex *out, c
     if (all_digits(spec)) {
         const long i = strtol(spec, NULL, 10);
         if (i >= count) {
-            say(detail, len, "no audio device with index %s (there are %d; see 'modlens devices')", spec, count);
+            ml_say(detail, len, "no audio device with index %s (there are %d; see 'modlens devices')", spec, count);
             return ML_EDEVICE;
         }
         found = (PaDeviceIndex)i;
@@ -173,17 +161,17 @@ static ml_status find_device(const char *spec, bool input, PaDeviceIndex *out, c
             }
     }
     if (matches == 0) {
-        say(detail, len, "no %s device named '%s' (see 'modlens devices')", dir, spec);
+        ml_say(detail, len, "no %s device named '%s' (see 'modlens devices')", dir, spec);
         return ML_EDEVICE;
     }
     if (matches > 1) {
-        say(detail, len, "'%s' names %d %s devices; give the full name or the index (see 'modlens devices')",
+        ml_say(detail, len, "'%s' names %d %s devices; give the full name or the index (see 'modlens devices')",
                  spec, matches, dir);
         return ML_EDEVICE;
     }
     const PaDeviceInfo *d = Pa_GetDeviceInfo(found);
     if (d == NULL || (input ? d->maxInputChannels : d->maxOutputChannels) <= 0) {
-        say(detail, len, "device %s ('%s') has no %s channels", spec, d ? d->name : "?", dir);
+        ml_say(detail, len, "device %s ('%s') has no %s channels", spec, d ? d->name : "?", dir);
         return ML_EDEVICE;
     }
     *out = found;
@@ -197,7 +185,7 @@ static ml_status stream_params(PaDeviceIndex d, bool input, int channels, PaStre
     const PaDeviceInfo *info = Pa_GetDeviceInfo(d);
     const int max = input ? info->maxInputChannels : info->maxOutputChannels;
     if (channels < 1 || channels > max) {
-        say(detail, len, "device '%s' has %d %s channel%s; %d asked for", info->name, max,
+        ml_say(detail, len, "device '%s' has %d %s channel%s; %d asked for", info->name, max,
                  input ? "input" : "output", max == 1 ? "" : "s", channels);
         return ML_EDEVICE;
     }
@@ -218,12 +206,12 @@ static ml_status open_stream(PaStream **stream, const PaStreamParameters *in, co
     if (e == paFormatIsSupported)
         e = Pa_OpenStream(stream, in, out, rate, BUFFER_FRAMES, paClipOff, cb, user);
     if (e == paInvalidSampleRate) {
-        say(detail, len, "device '%s' refuses %.0f Hz (its default rate is %.0f Hz)", info->name, rate,
+        ml_say(detail, len, "device '%s' refuses %.0f Hz (its default rate is %.0f Hz)", info->name, rate,
                  info->defaultSampleRate);
         return ML_EDEVICE;
     }
     if (e != paNoError) {
-        say(detail, len, "device '%s' cannot open a stream at %.0f Hz: %s", info->name, rate,
+        ml_say(detail, len, "device '%s' cannot open a stream at %.0f Hz: %s", info->name, rate,
                  Pa_GetErrorText(e));
         return ML_EDEVICE;
     }
@@ -234,13 +222,13 @@ static ml_status open_stream(PaStream **stream, const PaStreamParameters *in, co
 
 ml_status ml_audio_list(ml_audio_device *out, size_t cap, size_t *n, char *detail, size_t detail_len)
 {
-    say(detail, detail_len, "%s", "");
+    ml_say(detail, detail_len, "%s", "");
     if ((out == NULL && cap > 0) || n == NULL)
         return ML_EINVAL;
     *n = 0;
     const PaError e = init_quiet();
     if (e != paNoError) {
-        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        ml_say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         return ML_EDEVICE;
     }
     const int count = Pa_GetDeviceCount();
@@ -264,40 +252,47 @@ ml_status ml_audio_list(ml_audio_device *out, size_t cap, size_t *n, char *detai
     return ML_OK;
 }
 
-ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, char *detail, size_t detail_len)
+/* The numbers PortAudio gives for the device spec names (input or output): a copy of its info,
+ * whose name must not be used (it dies with the audio system, which this shuts down again). */
+static ml_status device_numbers(const char *spec, bool input, PaDeviceInfo *info, char *detail, size_t detail_len)
 {
-    say(detail, detail_len, "%s", "");
-    if (rate_hz == NULL)
-        return ML_EINVAL;
     const PaError e = init_quiet();
     if (e != paNoError) {
-        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        ml_say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         return ML_EDEVICE;
     }
     PaDeviceIndex d;
     ml_status st = find_device(spec, input, &d, detail, detail_len);
-    if (st == ML_OK)
-        *rate_hz = Pa_GetDeviceInfo(d)->defaultSampleRate;
+    if (st == ML_OK) {
+        *info = *Pa_GetDeviceInfo(d);
+        info->name = NULL;
+    }
     Pa_Terminate();
+    return st;
+}
+
+ml_status ml_audio_device_rate(const char *spec, bool input, double *rate_hz, char *detail, size_t detail_len)
+{
+    ml_say(detail, detail_len, "%s", "");
+    if (rate_hz == NULL)
+        return ML_EINVAL;
+    PaDeviceInfo info;
+    const ml_status st = device_numbers(spec, input, &info, detail, detail_len);
+    if (st == ML_OK)
+        *rate_hz = info.defaultSampleRate;
     return st;
 }
 
 ml_status ml_audio_device_channels(const char *spec, bool input, int *channels, char *detail,
                                    size_t detail_len)
 {
-    say(detail, detail_len, "%s", "");
+    ml_say(detail, detail_len, "%s", "");
     if (channels == NULL)
         return ML_EINVAL;
-    const PaError e = init_quiet();
-    if (e != paNoError) {
-        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
-        return ML_EDEVICE;
-    }
-    PaDeviceIndex d;
-    ml_status st = find_device(spec, input, &d, detail, detail_len);
+    PaDeviceInfo info;
+    const ml_status st = device_numbers(spec, input, &info, detail, detail_len);
     if (st == ML_OK)
-        *channels = input ? Pa_GetDeviceInfo(d)->maxInputChannels : Pa_GetDeviceInfo(d)->maxOutputChannels;
-    Pa_Terminate();
+        *channels = input ? info.maxInputChannels : info.maxOutputChannels;
     return st;
 }
 
@@ -509,14 +504,14 @@ ml_live_config ml_live_config_default(void)
 
 ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *detail, size_t detail_len)
 {
-    say(detail, detail_len, "%s", "");
+    ml_say(detail, detail_len, "%s", "");
     if (out == NULL)
         return ML_EINVAL;
     *out = NULL;
     if (cfg == NULL || cfg->channels < 1 || cfg->channels > 64 || cfg->rate_hz < 0 || !(cfg->head_s >= 0)
         || !(cfg->stall_s > 0)
         || (cfg->fill && (cfg->output_channels < 1 || cfg->output_channels > 64))) {
-        say(detail, detail_len, "invalid capture configuration");
+        ml_say(detail, detail_len, "invalid capture configuration");
         return ML_EINVAL;
     }
     ml_source *s = calloc(1, sizeof *s);
@@ -538,7 +533,7 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
     ml_status st = ML_EDEVICE;
     PaError e = init_quiet();
     if (e != paNoError) {
-        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        ml_say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         goto fail;
     }
     q->pa_up = true;
@@ -554,7 +549,7 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
         if ((st = find_device(cfg->output_device, false, &dout, detail, detail_len)) != ML_OK)
             goto fail;
         if (Pa_GetDeviceInfo(dout)->hostApi != di->hostApi) {
-            say(detail, detail_len, "the input '%s' and output '%s' belong to different audio systems; "
+            ml_say(detail, detail_len, "the input '%s' and output '%s' belong to different audio systems; "
                      "play and capture need one full-duplex stream", di->name, Pa_GetDeviceInfo(dout)->name);
             st = ML_EDEVICE;
             goto fail;
@@ -597,7 +592,7 @@ ml_status ml_source_open_live(const ml_live_config *cfg, ml_source **out, char *
     live_top_up(q);
     e = Pa_StartStream(q->stream);
     if (e != paNoError) {
-        say(detail, detail_len, "device '%s' cannot start: %s", di->name, Pa_GetErrorText(e));
+        ml_say(detail, detail_len, "device '%s' cannot start: %s", di->name, Pa_GetErrorText(e));
         st = ML_EDEVICE;
         goto fail;
     }
@@ -656,12 +651,12 @@ static int play_callback(const void *input, void *output, unsigned long n, const
 
 ml_status ml_player_open(const ml_player_config *cfg, ml_player **out, char *detail, size_t detail_len)
 {
-    say(detail, detail_len, "%s", "");
+    ml_say(detail, detail_len, "%s", "");
     if (out == NULL)
         return ML_EINVAL;
     *out = NULL;
     if (cfg == NULL || !(cfg->rate_hz > 0) || cfg->channels < 1 || cfg->channels > 64) {
-        say(detail, detail_len, "invalid playback configuration");
+        ml_say(detail, detail_len, "invalid playback configuration");
         return ML_EINVAL;
     }
     ml_player *p = calloc(1, sizeof *p);
@@ -674,7 +669,7 @@ ml_status ml_player_open(const ml_player_config *cfg, ml_player **out, char *det
     ml_status st = ML_EDEVICE;
     PaError e = init_quiet();
     if (e != paNoError) {
-        say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
+        ml_say(detail, detail_len, "the audio system cannot start: %s", Pa_GetErrorText(e));
         goto fail;
     }
     p->pa_up = true;

@@ -4,18 +4,16 @@
 #define _POSIX_C_SOURCE 200809L
 #include "io/cardfile.h"
 
-#include <errno.h>
-#include <fcntl.h>
 #include <jansson.h>
 #include <math.h>
 #include <stdarg.h>
 #include <stdbool.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <unistd.h>
 
 #include "io/printable.h"
+#include "io/smallfile.h"
 
 /* ---- writing ------------------------------------------------------------------------------ */
 
@@ -382,43 +380,16 @@ static ml_status slurp(const char *path, const char *what, char **data, size_t *
 {
     rd r = {err, errlen};
     *data = NULL;
-    const int fd = open(path, O_RDONLY | O_NONBLOCK | O_CLOEXEC | O_NOCTTY);
-    if (fd < 0) {
-        fail(&r, "%s", strerror(errno));
-        return ML_EIO;
-    }
-    struct stat st;
-    ml_status s = ML_OK;
-    if (fstat(fd, &st) != 0)
-        s = (fail(&r, "%s", strerror(errno)), ML_EIO);
-    else if (S_ISDIR(st.st_mode))
-        s = (fail(&r, "is a directory, not a %s", what), ML_EIO);
-    else if (!S_ISREG(st.st_mode))
-        s = (fail(&r, "not a regular file"), ML_EIO);
-    else if (st.st_size == 0)
+    int fd;
+    size_t size;
+    ml_status s = ml_smallfile_open(path, what, ML_CARDFILE_MAX_BYTES, "1 MiB", false, &fd, &size, err, errlen);
+    if (s == ML_OK && size == 0) {
+        close(fd);
         s = fail(&r, "the file is empty: not a %s", what);
-    else if ((uintmax_t)st.st_size > ML_CARDFILE_MAX_BYTES)
-        s = fail(&r, "larger than 1 MiB: not a %s", what);
-    char *buf = s == ML_OK ? malloc((size_t)st.st_size) : NULL;
-    if (s == ML_OK && buf == NULL)
-        s = ML_ENOMEM;
-    size_t got = 0;
-    while (s == ML_OK && got < (size_t)st.st_size) {
-        const ssize_t n = read(fd, buf + got, (size_t)st.st_size - got);
-        if (n < 0 && errno == EINTR)
-            continue;
-        if (n <= 0)
-            break;
-        got += (size_t)n;
     }
-    close(fd);
-    if (s != ML_OK) {
-        free(buf);
+    if (s != ML_OK)
         return s;
-    }
-    *data = buf;
-    *len = got;
-    return ML_OK;
+    return ml_smallfile_read(fd, size, data, len);
 }
 
 ml_status ml_card_profile_read(const char *path, ml_card_profile *p, char *recording, size_t reclen,

@@ -1,4 +1,4 @@
-/* Private to io/: the source vtable that each back end fills in.
+/* Private to io/: the source vtable that each back end fills in, and the message helper.
  * SPDX-License-Identifier: MIT
  */
 #ifndef ML_IO_INTERNAL_H
@@ -19,5 +19,8 @@ struct ml_source {
     char detail[256];
     void *impl;
 };
+
+/* vsnprintf into a caller's optional message buffer buf[len] (NULL or 0: nothing to say). */
+void ml_say(char *buf, size_t len, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
 
 #endif

@@ -19,6 +19,8 @@
 #include <sys/types.h>
 #include <unistd.h>
 
+#include "io/internal.h"
+
 #ifndef PATH_MAX
 #define PATH_MAX 4096
 #endif
@@ -56,18 +58,6 @@ struct ml_output_set {
     } in[ML_OUTPUT_MAX_INPUTS];
     ml_output out[ML_OUTPUT_MAX];
 };
-
-static void say(char *err, size_t errlen, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-
-static void say(char *err, size_t errlen, const char *fmt, ...)
-{
-    if (err == NULL || errlen == 0)
-        return;
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(err, errlen, fmt, ap);
-    va_end(ap);
-}
 
 /* a + b + c in a new string, or NULL */
 static char *concat3(const char *a, const char *b, const char *c)
@@ -218,7 +208,7 @@ static ml_status check_one(ml_output_set *s, ml_output *o, char *err, size_t err
     forget(o);
     if (o->is_stdout) {
         if (!(o->flags & ML_OUTPUT_STDOUT_OK)) {
-            say(err, errlen, "%s cannot go to standard output; give a file name", o->what);
+            ml_say(err, errlen, "%s cannot go to standard output; give a file name", o->what);
             return ML_EIO;
         }
         o->checked = true;
@@ -227,15 +217,15 @@ static ml_status check_one(ml_output_set *s, ml_output *o, char *err, size_t err
     const char *path = o->path;
     const size_t len = strlen(path);
     if (len == 0) {
-        say(err, errlen, "%s: an empty file name", o->what);
+        ml_say(err, errlen, "%s: an empty file name", o->what);
         return ML_EIO;
     }
     if (len >= PATH_MAX) {
-        say(err, errlen, "the path is %zu bytes long; the system allows at most %d", len, PATH_MAX - 1);
+        ml_say(err, errlen, "the path is %zu bytes long; the system allows at most %d", len, PATH_MAX - 1);
         return ML_EIO;
     }
     if (path[len - 1] == '/') {
-        say(err, errlen, "names a folder, not a file");
+        ml_say(err, errlen, "names a folder, not a file");
         return ML_EIO;
     }
     struct stat st;
@@ -244,17 +234,17 @@ static ml_status check_one(ml_output_set *s, ml_output *o, char *err, size_t err
             /* written through: the link's regular target is replaced, the link stays */
             o->final = realpath(path, NULL);
             if (o->final == NULL) {
-                say(err, errlen, "is a symbolic link to nothing usable (%s)", strerror(errno));
+                ml_say(err, errlen, "is a symbolic link to nothing usable (%s)", strerror(errno));
                 return ML_EIO;
             }
             if (stat(o->final, &st) != 0) {
-                say(err, errlen, "is a symbolic link to nothing usable (%s)", strerror(errno));
+                ml_say(err, errlen, "is a symbolic link to nothing usable (%s)", strerror(errno));
                 return ML_EIO;
             }
         }
         const char *problem = type_problem(st.st_mode);
         if (problem != NULL) {
-            say(err, errlen, "%s", problem);
+            ml_say(err, errlen, "%s", problem);
             return ML_EIO;
         }
         o->exists = true;
@@ -262,7 +252,7 @@ static ml_status check_one(ml_output_set *s, ml_output *o, char *err, size_t err
         o->ino = st.st_ino;
         o->mode = st.st_mode & 0777;
     } else if (errno != ENOENT) {
-        say(err, errlen, "cannot use this path: %s", strerror(errno));
+        ml_say(err, errlen, "cannot use this path: %s", strerror(errno));
         return ML_EIO;
     } else {
         o->mode = 0666 & ~s->umask;
@@ -273,16 +263,16 @@ static ml_status check_one(ml_output_set *s, ml_output *o, char *err, size_t err
         return ML_ENOMEM;
     struct stat sd;
     if (stat(o->dir, &sd) != 0) {
-        say(err, errlen, "cannot write in the folder '%s': %s", o->dir, strerror(errno));
+        ml_say(err, errlen, "cannot write in the folder '%s': %s", o->dir, strerror(errno));
         return ML_EIO;
     }
     if (!S_ISDIR(sd.st_mode)) {
-        say(err, errlen, "cannot write in '%s': not a folder", o->dir);
+        ml_say(err, errlen, "cannot write in '%s': not a folder", o->dir);
         return ML_EIO;
     }
     char *real_dir = realpath(o->dir, NULL);
     if (real_dir == NULL) {
-        say(err, errlen, "cannot write in the folder '%s': %s", o->dir, strerror(errno));
+        ml_say(err, errlen, "cannot write in the folder '%s': %s", o->dir, strerror(errno));
         return ML_EIO;
     }
     o->canon = concat3(real_dir, strcmp(real_dir, "/") == 0 ? "" : "/", base_of(o->final));
@@ -294,13 +284,13 @@ static ml_status check_one(ml_output_set *s, ml_output *o, char *err, size_t err
     if (probe == NULL)
         return ML_ENOMEM;
     if (strlen(probe) >= PATH_MAX) {
-        say(err, errlen, "the path is too long for a temporary beside it (at most %d bytes)", PATH_MAX - 8);
+        ml_say(err, errlen, "the path is too long for a temporary beside it (at most %d bytes)", PATH_MAX - 8);
         free(probe);
         return ML_EIO;
     }
     int fd = mkstemp(probe);
     if (fd < 0) {
-        say(err, errlen, "cannot create a file in the folder '%s': %s", o->dir, strerror(errno));
+        ml_say(err, errlen, "cannot create a file in the folder '%s': %s", o->dir, strerror(errno));
         free(probe);
         return ML_EIO;
     }
@@ -330,10 +320,10 @@ static ml_status check_inputs(const ml_output_set *s, const ml_output *o, char *
         struct stat si;
         if (stat(s->in[i].path, &si) == 0 && si.st_dev == so.st_dev && si.st_ino == so.st_ino) {
             if (o->is_stdout)
-                say(err, errlen, "is redirected into an input file (%s, %s): refusing to write %s there",
+                ml_say(err, errlen, "is redirected into an input file (%s, %s): refusing to write %s there",
                     s->in[i].what, s->in[i].path, o->what);
             else
-                say(err, errlen, "refusing to overwrite an input file (%s) with %s", s->in[i].what, o->what);
+                ml_say(err, errlen, "refusing to overwrite an input file (%s) with %s", s->in[i].what, o->what);
             return ML_EIO;
         }
     }
@@ -360,7 +350,7 @@ ml_status ml_output_set_check(ml_output_set *s, const char **bad, char *err, siz
 {
     if (bad != NULL)
         *bad = "";
-    say(err, errlen, "%s", "");
+    ml_say(err, errlen, "%s", "");
     if (s == NULL)
         return ML_EINVAL;
     s->checked = false;
@@ -372,14 +362,14 @@ ml_status ml_output_set_check(ml_output_set *s, const char **bad, char *err, siz
         for (size_t j = 0; st == ML_OK && j < i; j++)
             if (same_output(&s->out[j], o)) {
                 if (o->is_stdout && s->out[j].is_stdout)
-                    say(err, errlen, "%s and %s both go to standard output", s->out[j].what, o->what);
+                    ml_say(err, errlen, "%s and %s both go to standard output", s->out[j].what, o->what);
                 else
-                    say(err, errlen, "%s and %s name the same file", s->out[j].what, o->what);
+                    ml_say(err, errlen, "%s and %s name the same file", s->out[j].what, o->what);
                 st = ML_EIO;
             }
         if (st != ML_OK) {
             if (st == ML_ENOMEM)
-                say(err, errlen, "out of memory");
+                ml_say(err, errlen, "out of memory");
             if (bad != NULL)
                 *bad = ml_output_path(o);
             return st;
@@ -394,13 +384,13 @@ ml_status ml_output_begin(ml_output *o, FILE **f, char *err, size_t errlen)
     if (f != NULL)
         *f = NULL;
     if (o == NULL || f == NULL || o->state != ST_IDLE || !o->set->checked || !o->checked) {
-        say(err, errlen, "internal error: output not checked or already begun");
+        ml_say(err, errlen, "internal error: output not checked or already begun");
         return ML_EINVAL;
     }
     if (o->is_stdout) {
         o->f = open_memstream(&o->mem, &o->memlen);
         if (o->f == NULL) {
-            say(err, errlen, "out of memory");
+            ml_say(err, errlen, "out of memory");
             return ML_ENOMEM;
         }
         o->state = ST_WRITING;
@@ -409,18 +399,18 @@ ml_status ml_output_begin(ml_output *o, FILE **f, char *err, size_t errlen)
     }
     o->tmp = temp_template(o->dir, base_of(o->final));
     if (o->tmp == NULL) {
-        say(err, errlen, "out of memory");
+        ml_say(err, errlen, "out of memory");
         return ML_ENOMEM;
     }
     int fd = mkstemp(o->tmp);
     if (fd < 0) {
-        say(err, errlen, "cannot create a temporary in the folder '%s': %s", o->dir, strerror(errno));
+        ml_say(err, errlen, "cannot create a temporary in the folder '%s': %s", o->dir, strerror(errno));
         free(o->tmp);
         o->tmp = NULL;
         return ML_EIO;
     }
     if (fchmod(fd, o->mode) != 0 || (o->f = fdopen(fd, "w+b")) == NULL) {
-        say(err, errlen, "cannot open a temporary: %s", strerror(errno));
+        ml_say(err, errlen, "cannot open a temporary: %s", strerror(errno));
         close(fd);
         unlink(o->tmp);
         free(o->tmp);
@@ -435,7 +425,7 @@ ml_status ml_output_begin(ml_output *o, FILE **f, char *err, size_t errlen)
 ml_status ml_output_end(ml_output *o, char *err, size_t errlen)
 {
     if (o == NULL || o->state != ST_WRITING) {
-        say(err, errlen, "internal error: output not being written");
+        ml_say(err, errlen, "internal error: output not being written");
         return ML_EINVAL;
     }
     int e = 0;
@@ -447,7 +437,7 @@ ml_status ml_output_end(ml_output *o, char *err, size_t errlen)
         e = errno ? errno : EIO;
     o->f = NULL;
     if (e != 0) {
-        say(err, errlen, "cannot write: %s", strerror(e));
+        ml_say(err, errlen, "cannot write: %s", strerror(e));
         o->state = ST_WRITING; /* discard removes the temporary */
         ml_output_discard(o);
         return ML_EIO;
@@ -487,16 +477,16 @@ static ml_status recheck(const ml_output_set *s, const ml_output *o, char *err, 
 {
     struct stat st;
     if (lstat(o->final, &st) != 0)
-        return errno == ENOENT ? ML_OK : (say(err, errlen, "cannot use this path: %s", strerror(errno)), ML_EIO);
+        return errno == ENOENT ? ML_OK : (ml_say(err, errlen, "cannot use this path: %s", strerror(errno)), ML_EIO);
     const char *problem = type_problem(st.st_mode);
     if (problem != NULL) {
-        say(err, errlen, "%s now (it changed while modlens ran)", problem);
+        ml_say(err, errlen, "%s now (it changed while modlens ran)", problem);
         return ML_EIO;
     }
     for (size_t i = 0; i < s->nin; i++) {
         struct stat si;
         if (stat(s->in[i].path, &si) == 0 && si.st_dev == st.st_dev && si.st_ino == st.st_ino) {
-            say(err, errlen, "refusing to overwrite an input file (%s) with %s", s->in[i].what, o->what);
+            ml_say(err, errlen, "refusing to overwrite an input file (%s) with %s", s->in[i].what, o->what);
             return ML_EIO;
         }
     }
@@ -516,7 +506,7 @@ ml_status ml_output_set_commit(ml_output_set *s, const char **bad, char *err, si
 {
     if (bad != NULL)
         *bad = "";
-    say(err, errlen, "%s", "");
+    ml_say(err, errlen, "%s", "");
     if (s == NULL)
         return ML_EINVAL;
     ml_status st = ML_OK;
@@ -524,7 +514,7 @@ ml_status ml_output_set_commit(ml_output_set *s, const char **bad, char *err, si
     for (size_t i = 0; i < s->nout && st == ML_OK; i++) {
         const ml_output *o = &s->out[i];
         if (o->state == ST_WRITING) {
-            say(err, errlen, "internal error: %s was not finished", o->what);
+            ml_say(err, errlen, "internal error: %s was not finished", o->what);
             st = ML_EIO;
         } else if (o->state == ST_DONE && !o->is_stdout) {
             st = recheck(s, o, err, errlen);
@@ -537,7 +527,7 @@ ml_status ml_output_set_commit(ml_output_set *s, const char **bad, char *err, si
         if (o->state != ST_DONE || !o->is_stdout)
             continue;
         if ((o->memlen > 0 && fwrite(o->mem, 1, o->memlen, stdout) != o->memlen) || fflush(stdout) != 0) {
-            say(err, errlen, "cannot write: %s", strerror(errno));
+            ml_say(err, errlen, "cannot write: %s", strerror(errno));
             st = ML_EIO;
             culprit = o;
         } else {
@@ -551,7 +541,7 @@ ml_status ml_output_set_commit(ml_output_set *s, const char **bad, char *err, si
         if (o->state != ST_DONE)
             continue;
         if (rename(o->tmp, o->final) != 0) {
-            say(err, errlen, "cannot replace the file: %s", strerror(errno));
+            ml_say(err, errlen, "cannot replace the file: %s", strerror(errno));
             st = ML_EIO;
             culprit = o;
             break;
@@ -590,7 +580,7 @@ ml_status ml_output_check_path(const char *path, const char *what, const char *c
     ml_output_set *s = NULL;
     ml_status st = ml_output_set_create(&s);
     if (st != ML_OK) {
-        say(err, errlen, "out of memory");
+        ml_say(err, errlen, "out of memory");
         return st;
     }
     for (size_t i = 0; i < ninputs && st == ML_OK; i++)
@@ -600,7 +590,7 @@ ml_status ml_output_check_path(const char *path, const char *what, const char *c
     if (st == ML_OK)
         st = ml_output_set_check(s, NULL, err, errlen);
     else
-        say(err, errlen, "too many inputs");
+        ml_say(err, errlen, "too many inputs");
     ml_output_set_destroy(s);
     return st;
 }

@@ -145,12 +145,45 @@ static double nice_step(double span, int target)
     return (m < 1.5 ? 1 : m < 3.5 ? 2 : m < 7.5 ? 5 : 10) * p;
 }
 
-static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
+void ml_text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
 {
     cairo_text_extents_t e;
     cairo_text_extents(cr, s, &e);
     cairo_move_to(cr, x - ax * e.width - e.x_bearing, y - ay * e.height - e.y_bearing);
     cairo_show_text(cr, s);
+}
+
+ml_box ml_panel_area(cairo_t *cr, double x, double y, double w, double h, double fs)
+{
+    const ml_box a = {x + 5.2 * fs, y + 2.2 * fs, w - 5.2 * fs - 1.2 * fs, h - 2.2 * fs - 3.6 * fs};
+    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+    ml_colour(cr, ML_C_SHADE);
+    cairo_rectangle(cr, a.x, a.y, a.w, a.h);
+    cairo_fill(cr);
+    cairo_set_line_width(cr, 0.6);
+    cairo_set_font_size(cr, fs * 0.85);
+    return a;
+}
+
+void ml_panel_labels(cairo_t *cr, double x, double y, ml_box a, double fs, const char *xlabel,
+                     const char *ylabel, const char *title)
+{
+    ml_colour(cr, ML_C_INK);
+    cairo_set_line_width(cr, 1.0);
+    cairo_rectangle(cr, a.x, a.y, a.w, a.h);
+    cairo_stroke(cr);
+    cairo_set_font_size(cr, fs);
+    ml_text_at(cr, a.x + a.w / 2, a.y + a.h + 2.0 * fs, xlabel, 0.5, 0.0);
+    cairo_save(cr);
+    cairo_translate(cr, x + 0.3 * fs, a.y + a.h / 2);
+    cairo_rotate(cr, -M_PI / 2);
+    ml_text_at(cr, 0, 0, ylabel, 0.5, 0.0);
+    cairo_restore(cr);
+    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
+    cairo_set_font_size(cr, fs * 1.1);
+    ml_text_at(cr, a.x, y + 0.3 * fs, title, 0.0, 0.0);
+    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+    cairo_set_font_size(cr, fs * 0.85);
 }
 
 static void hz_label(char *buf, size_t len, double v)
@@ -175,16 +208,11 @@ static void frame(cairo_t *cr, axes *a, const panel *pn)
     const char *title = pn->title, *xl = pn->xlabel, *yl = pn->ylabel;
     const bool hz_ticks = pn->hz_ticks;
     const double fs = fmax(8.0, fmin(11.0, h / 26));
-    a->x = x + 5.2 * fs;
-    a->y = y + 2.2 * fs;
-    a->w = w - 5.2 * fs - 1.2 * fs;
-    a->h = h - 2.2 * fs - 3.6 * fs;
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    ml_colour(cr, ML_C_SHADE);
-    cairo_rectangle(cr, a->x, a->y, a->w, a->h);
-    cairo_fill(cr);
-    cairo_set_line_width(cr, 0.6);
-    cairo_set_font_size(cr, fs * 0.85);
+    const ml_box box = ml_panel_area(cr, x, y, w, h, fs);
+    a->x = box.x;
+    a->y = box.y;
+    a->w = box.w;
+    a->h = box.h;
     /* vertical grid */
     if (a->logx) {
         for (double dec = pow(10, floor(log10(a->x0))); dec <= a->x1; dec *= 10)
@@ -200,7 +228,7 @@ static void frame(cairo_t *cr, axes *a, const panel *pn)
                     char b[32];
                     hz_label(b, sizeof b, v);
                     ml_colour(cr, ML_C_INK);
-                    text_at(cr, ax_x(a, v), a->y + a->h + 0.4 * fs, b, 0.5, 0.0);
+                    ml_text_at(cr, ax_x(a, v), a->y + a->h + 0.4 * fs, b, 0.5, 0.0);
                 }
             }
     } else {
@@ -216,7 +244,7 @@ static void frame(cairo_t *cr, axes *a, const panel *pn)
             else
                 snprintf(b, sizeof b, "%g", fabs(v) < 1e-9 * st ? 0 : v);
             ml_colour(cr, ML_C_INK);
-            text_at(cr, ax_x(a, v), a->y + a->h + 0.4 * fs, b, 0.5, 0.0);
+            ml_text_at(cr, ax_x(a, v), a->y + a->h + 0.4 * fs, b, 0.5, 0.0);
         }
     }
     double st = nice_step(a->y1 - a->y0, 6);
@@ -228,24 +256,9 @@ static void frame(cairo_t *cr, axes *a, const panel *pn)
         char b[32];
         snprintf(b, sizeof b, "%g", fabs(v) < 1e-9 * st ? 0 : v);
         ml_colour(cr, ML_C_INK);
-        text_at(cr, a->x - 0.4 * fs, ax_y(a, v), b, 1.0, 0.5);
+        ml_text_at(cr, a->x - 0.4 * fs, ax_y(a, v), b, 1.0, 0.5);
     }
-    ml_colour(cr, ML_C_INK);
-    cairo_set_line_width(cr, 1.0);
-    cairo_rectangle(cr, a->x, a->y, a->w, a->h);
-    cairo_stroke(cr);
-    cairo_set_font_size(cr, fs);
-    text_at(cr, a->x + a->w / 2, a->y + a->h + 2.0 * fs, xl, 0.5, 0.0);
-    cairo_save(cr);
-    cairo_translate(cr, x + 0.3 * fs, a->y + a->h / 2);
-    cairo_rotate(cr, -M_PI / 2);
-    text_at(cr, 0, 0, yl, 0.5, 0.0);
-    cairo_restore(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
-    cairo_set_font_size(cr, fs * 1.1);
-    text_at(cr, a->x, y + 0.3 * fs, title, 0.0, 0.0);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, fs * 0.85);
+    ml_panel_labels(cr, x, y, box, fs, xl, yl, title);
 }
 
 /* ---- spectrum ---- */
@@ -360,7 +373,7 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
         cairo_line_to(cr, xv + 3.5, yv - 9);
         cairo_close_path(cr);
         cairo_fill(cr);
-        text_at(cr, xv, yv - 11, m->label, 0.5, 1.0);
+        ml_text_at(cr, xv, yv - 11, m->label, 0.5, 1.0);
     }
     cairo_restore(cr);
     /* legend */
@@ -390,16 +403,16 @@ void ml_draw_spectrum(cairo_t *cr, double x, double y, double w, double h, const
         cairo_rectangle(cr, lx - e.width - 16, ly + 1, 10, fs - 2);
         cairo_fill(cr);
         ml_colour(cr, ML_C_INK);
-        text_at(cr, lx, ly, leg[i].t, 1.0, 0.0);
+        ml_text_at(cr, lx, ly, leg[i].t, 1.0, 0.0);
         ly += fs * 1.35;
     }
     if (p->nmask > 1) {
         char b2[96];
         snprintf(b2, sizeof b2, "mask levels refer to %.0f Hz bandwidth", p->mask_rbw_hz);
         ml_colour(cr, ML_C_INK);
-        text_at(cr, lx, ly, b2, 1.0, 0.0);
+        ml_text_at(cr, lx, ly, b2, 1.0, 0.0);
         if (p->mask_note[0])
-            text_at(cr, lx, ly + fs * 1.35, p->mask_note, 1.0, 0.0);
+            ml_text_at(cr, lx, ly + fs * 1.35, p->mask_note, 1.0, 0.0);
     }
 }
 
@@ -472,20 +485,20 @@ void ml_draw_envelope(cairo_t *cr, double x, double y, double w, double h, const
     const double fs = fmax(7.0, fmin(10.0, h / 26));
     cairo_set_font_size(cr, fs);
     ml_colour(cr, ML_C_INK);
-    text_at(cr, ax.x + 4, ax_y(&ax, 1.0) - 2, "Ec", 0.0, 1.0);
+    ml_text_at(cr, ax.x + 4, ax_y(&ax, 1.0) - 2, "Ec", 0.0, 1.0);
     ml_colour(cr, ML_C_PEAK);
     char b[48];
     if (isfinite(p->emax)) {
         snprintf(b, sizeof b, "Emax %.3f Ec", p->emax);
-        text_at(cr, ax.x + ax.w - 4, ax_y(&ax, p->emax) - 2, b, 1.0, 1.0);
+        ml_text_at(cr, ax.x + ax.w - 4, ax_y(&ax, p->emax) - 2, b, 1.0, 1.0);
     }
     if (isfinite(p->emin)) {
         snprintf(b, sizeof b, "Emin %.3f Ec", p->emin);
-        text_at(cr, ax.x + ax.w - 4, ax_y(&ax, p->emin) + 2, b, 1.0, 0.0);
+        ml_text_at(cr, ax.x + ax.w - 4, ax_y(&ax, p->emin) + 2, b, 1.0, 0.0);
     }
     if (isfinite(p->pinch_level)) {
         ml_colour(cr, ML_C_FAIL);
-        text_at(cr, ax.x + 4, ax_y(&ax, 0) - 2, "below 10 % of Ec (dots: pinch-off, below 1 %)", 0.0, 1.0);
+        ml_text_at(cr, ax.x + 4, ax_y(&ax, 0) - 2, "below 10 % of Ec (dots: pinch-off, below 1 %)", 0.0, 1.0);
     }
 }
 
@@ -554,7 +567,7 @@ size_t ml_draw_compare_table(cairo_t *cr, double x, double y, double w, double h
     cairo_fill(cr);
     cairo_set_source_rgb(cr, 1, 1, 1);
     for (int k = 0; k < 6; k++)
-        text_at(cr, k == 0 ? x + 3 : x + w * (colx[k] + (k < 5 ? 0.12 : 0.11)) - 3, y + rowh / 2, head[k],
+        ml_text_at(cr, k == 0 ? x + 3 : x + w * (colx[k] + (k < 5 ? 0.12 : 0.11)) - 3, y + rowh / 2, head[k],
                 k == 0 ? 0.0 : 1.0, 0.5);
     cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
     size_t n = 0;
@@ -588,7 +601,7 @@ size_t ml_draw_compare_table(cairo_t *cr, double x, double y, double w, double h
                                                                   : ML_C_INK);
             else
                 ml_colour(cr, ML_C_INK);
-            text_at(cr, k == 0 ? x + 3 : x + w * (colx[k] + (k < 5 ? 0.12 : 0.11)) - 3, yy + rowh / 2,
+            ml_text_at(cr, k == 0 ? x + 3 : x + w * (colx[k] + (k < 5 ? 0.12 : 0.11)) - 3, yy + rowh / 2,
                     cell[k], k == 0 ? 0.0 : 1.0, 0.5);
         }
     }
@@ -663,7 +676,7 @@ ml_status ml_plot_write(FILE *f, const char *path, const ml_plot_data *p, const 
     char t[ML_REPORT_PATH_LEN + 200];
     snprintf(t, sizeof t, "modlens: %s (%s, %.0f Hz, %.3f s)", r->path, r->kind, r->sample_rate_hz,
              r->analysed_s);
-    text_at(cr, margin, margin, t, 0.0, 0.0);
+    ml_text_at(cr, margin, margin, t, 0.0, 0.0);
     ml_draw_pictures(cr, margin, margin + 24, w - 2 * margin, p);
     cairo_destroy(cr);
     return canvas_close(&cv, f);
@@ -683,7 +696,7 @@ ml_status ml_plot_write_compare(FILE *f, const char *path, const ml_comparison *
         return st;
     char t[2 * ML_REPORT_PATH_LEN + 200];
     snprintf(t, sizeof t, "modlens comparison: A = %s, B = %s", c->a->path, c->b->path);
-    text_at(cr, margin, margin, t, 0.0, 0.0);
+    ml_text_at(cr, margin, margin, t, 0.0, 0.0);
     double y = margin + 24;
     if (spec) {
         ml_draw_spectrum(cr, margin, y, w - 2 * margin, 0.40 * (w - 2 * margin), a, b, "Spectra, A and B");

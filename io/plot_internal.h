@@ -28,6 +28,23 @@ void ml_draw_pictures(cairo_t *cr, double x, double y, double w, const ml_plot_d
 /* cairo write callback into a FILE * closure. */
 cairo_status_t ml_plot_write_file(void *closure, const unsigned char *data, unsigned int length);
 
+/* A rectangle in cairo user units. */
+typedef struct {
+    double x, y, w, h;
+} ml_box;
+
+/* Draws s with its ink box placed so that the point (ax, ay) of the box (0..1 across and down)
+ * lies at x, y. */
+void ml_text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay);
+/* The plot area of a panel at x, y, w, h with font size fs (room for the tick labels at the left
+ * and below, for the title above), filled with the panel shade; leaves the tick font (fs * 0.85)
+ * and the grid line width (0.6) set. */
+ml_box ml_panel_area(cairo_t *cr, double x, double y, double w, double h, double fs);
+/* The border of the plot area a, the x label under it, the y label turned up at the panel's left
+ * edge x, the title (bold) at the panel's top y; leaves the tick font set again. */
+void ml_panel_labels(cairo_t *cr, double x, double y, ml_box a, double fs, const char *xlabel,
+                     const char *ylabel, const char *title);
+
 /* Colours of the project (r, g, b in 0..1). */
 void ml_colour(cairo_t *cr, int which);
 enum {

@@ -35,30 +35,17 @@ static double py(const area *a, double v)
     return a->y + a->h * (1.0 - (t - a->y0) / (a->y1 - a->y0));
 }
 
-static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
-{
-    cairo_text_extents_t e;
-    cairo_text_extents(cr, s, &e);
-    cairo_move_to(cr, x - ax * e.width - e.x_bearing, y - ay * e.height - e.y_bearing);
-    cairo_show_text(cr, s);
-}
-
 /* Frame, grid, ticks (io/ticks.h) and labels of a panel at x, y, w, h; the plot area in *a (its
  * data ranges set by the caller before). */
 static void frame(cairo_t *cr, area *a, double x, double y, double w, double h, const char *title,
                   const char *ylabel)
 {
     const double fs = fmax(8.0, fmin(11.0, h / 24));
-    a->x = x + 5.2 * fs;
-    a->y = y + 2.2 * fs;
-    a->w = w - 5.2 * fs - 1.2 * fs;
-    a->h = h - 2.2 * fs - 3.6 * fs;
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    ml_colour(cr, ML_C_SHADE);
-    cairo_rectangle(cr, a->x, a->y, a->w, a->h);
-    cairo_fill(cr);
-    cairo_set_line_width(cr, 0.6);
-    cairo_set_font_size(cr, fs * 0.85);
+    const ml_box box = ml_panel_area(cr, x, y, w, h, fs);
+    a->x = box.x;
+    a->y = box.y;
+    a->w = box.w;
+    a->h = box.h;
     ml_ticks t;
     if (ml_ticks_log_hz(pow(10, a->lx0), pow(10, a->lx1), 12, &t) == ML_OK)
         for (size_t i = 0; i < t.n; i++) {
@@ -68,7 +55,7 @@ static void frame(cairo_t *cr, area *a, double x, double y, double w, double h, 
             cairo_line_to(cr, xv, a->y + a->h);
             cairo_stroke(cr);
             ml_colour(cr, ML_C_INK);
-            text_at(cr, xv, a->y + a->h + 0.4 * fs, t.tick[i].label, 0.5, 0.0);
+            ml_text_at(cr, xv, a->y + a->h + 0.4 * fs, t.tick[i].label, 0.5, 0.0);
         }
     const ml_status st = a->logy ? ml_ticks_log_hz(pow(10, a->y0), pow(10, a->y1), 8, &t)
                                  : ml_ticks_linear(a->y0, a->y1, 8, &t);
@@ -79,24 +66,9 @@ static void frame(cairo_t *cr, area *a, double x, double y, double w, double h, 
         cairo_line_to(cr, a->x + a->w, yv);
         cairo_stroke(cr);
         ml_colour(cr, ML_C_INK);
-        text_at(cr, a->x - 0.4 * fs, yv, t.tick[i].label, 1.0, 0.5);
+        ml_text_at(cr, a->x - 0.4 * fs, yv, t.tick[i].label, 1.0, 0.5);
     }
-    ml_colour(cr, ML_C_INK);
-    cairo_set_line_width(cr, 1.0);
-    cairo_rectangle(cr, a->x, a->y, a->w, a->h);
-    cairo_stroke(cr);
-    cairo_set_font_size(cr, fs);
-    text_at(cr, a->x + a->w / 2, a->y + a->h + 2.0 * fs, "frequency (Hz)", 0.5, 0.0);
-    cairo_save(cr);
-    cairo_translate(cr, x + 0.3 * fs, a->y + a->h / 2);
-    cairo_rotate(cr, -M_PI / 2);
-    text_at(cr, 0, 0, ylabel, 0.5, 0.0);
-    cairo_restore(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
-    cairo_set_font_size(cr, fs * 1.1);
-    text_at(cr, a->x, y + 0.3 * fs, title, 0.0, 0.0);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, fs * 0.85);
+    ml_panel_labels(cr, x, y, box, fs, "frequency (Hz)", ylabel, title);
 }
 
 /* The points of group g in ascending frequency into idx[]; returns their count. */
@@ -164,7 +136,7 @@ static void legend(cairo_t *cr, const area *a, const ml_plot_sweep *s)
         cairo_rectangle(cr, a->x + a->w - 92, y - 5, 14, 4);
         cairo_fill(cr);
         ml_colour(cr, ML_C_INK);
-        text_at(cr, a->x + a->w - 74, y - 3, s->label[g], 0.0, 0.5);
+        ml_text_at(cr, a->x + a->w - 74, y - 3, s->label[g], 0.0, 0.5);
         y += 12;
     }
 }

@@ -7,10 +7,13 @@
  */
 #include "io/printable.h"
 
+#include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+
+#include "io/internal.h"
 
 /* Length of the valid UTF-8 sequence at s (2..4), with its code point; 0 when s does not start
  * one (Unicode table 3-7). */
@@ -131,4 +134,14 @@ bool ml_is_printable(const char *src)
 {
     /* every escape is longer than what it replaces */
     return ml_printable(NULL, 0, src) == strlen(src ? src : "");
+}
+
+void ml_say(char *buf, size_t len, const char *fmt, ...)
+{
+    if (buf == NULL || len == 0)
+        return;
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(buf, len, fmt, ap);
+    va_end(ap);
 }

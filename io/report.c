@@ -47,9 +47,13 @@ static ml_metric *exact(ml_report *r, const char *name)
     return NULL;
 }
 
-ml_metric *ml_report_unmeasured(ml_report *r, const char *name, const char *fmt, ...)
+/* The setters below, by metric and by name, share these three: each takes the format's
+ * arguments as a va_list, and a NULL format leaves the text empty (missing, qualify) or as it
+ * is (bound). */
+
+/* Marks m not measured: no value, uncertainty, bound or qualifier; the reason from fmt. */
+static ml_metric *metric_missing_v(ml_metric *m, const char *fmt, va_list ap)
 {
-    ml_metric *m = exact(r, name);
     if (m == NULL)
         return NULL;
     m->valid = false;
@@ -57,44 +61,60 @@ ml_metric *ml_report_unmeasured(ml_report *r, const char *name, const char *fmt,
     m->has_u = false;
     m->u = 0.0;
     m->bound = ML_BOUND_NONE;
-    m->qualifier[0] = '\0';
-    m->reason[0] = '\0';
-    if (fmt) {
-        va_list ap;
-        va_start(ap, fmt);
+    m->qualifier[0] = m->reason[0] = '\0';
+    if (fmt)
         vsnprintf(m->reason, sizeof m->reason, fmt, ap);
-        va_end(ap);
-    }
+    return m;
+}
+
+/* Sets a measured m's bound, and its qualifier from fmt when fmt is given. */
+static ml_metric *metric_bound_v(ml_metric *m, ml_bound bound, const char *fmt, va_list ap)
+{
+    if (m == NULL || !m->valid)
+        return NULL;
+    m->bound = bound;
+    if (fmt)
+        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
+    return m;
+}
+
+/* Replaces a measured m's qualifier with fmt (empty when fmt is NULL). */
+static ml_metric *metric_qualify_v(ml_metric *m, const char *fmt, va_list ap)
+{
+    if (m == NULL || !m->valid)
+        return NULL;
+    m->qualifier[0] = '\0';
+    if (fmt)
+        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
+    return m;
+}
+
+ml_metric *ml_report_unmeasured(ml_report *r, const char *name, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    ml_metric *m = metric_missing_v(exact(r, name), fmt, ap);
+    va_end(ap);
     return m;
 }
 
 ml_metric *ml_report_qualify(ml_report *r, const char *name, const char *fmt, ...)
 {
-    ml_metric *m = exact(r, name);
-    if (m == NULL || !m->valid)
-        return NULL;
-    m->qualifier[0] = '\0';
-    if (fmt) {
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
-        va_end(ap);
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    ml_metric *m = metric_qualify_v(exact(r, name), fmt, ap);
+    va_end(ap);
     return m;
 }
 
 ml_metric *ml_report_bound(ml_report *r, const char *name, ml_bound bound, const char *fmt, ...)
 {
-    ml_metric *m = exact(r, name);
-    if (m == NULL || !m->valid || (bound != ML_BOUND_NONE && bound != ML_BOUND_UPPER && bound != ML_BOUND_LOWER))
+    if (bound != ML_BOUND_NONE && bound != ML_BOUND_UPPER && bound != ML_BOUND_LOWER)
         return NULL;
-    m->bound = bound;
-    if (fmt) {
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
-        va_end(ap);
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    ml_metric *m = metric_bound_v(exact(r, name), bound, fmt, ap);
+    va_end(ap);
     return m;
 }
 
@@ -318,48 +338,28 @@ const char *ml_report_point_verdict(const ml_report_point *p)
 
 ml_metric *ml_metric_missing(ml_metric *m, const char *fmt, ...)
 {
-    if (m == NULL)
-        return NULL;
-    m->valid = false;
-    m->value = 0.0;
-    m->has_u = false;
-    m->u = 0.0;
-    m->bound = ML_BOUND_NONE;
-    m->qualifier[0] = m->reason[0] = '\0';
-    if (fmt) {
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(m->reason, sizeof m->reason, fmt, ap);
-        va_end(ap);
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    m = metric_missing_v(m, fmt, ap);
+    va_end(ap);
     return m;
 }
 
 ml_metric *ml_metric_bound(ml_metric *m, ml_bound bound, const char *fmt, ...)
 {
-    if (m == NULL || !m->valid)
-        return NULL;
-    m->bound = bound;
-    if (fmt) {
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
-        va_end(ap);
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    m = metric_bound_v(m, bound, fmt, ap);
+    va_end(ap);
     return m;
 }
 
 ml_metric *ml_metric_qualify(ml_metric *m, const char *fmt, ...)
 {
-    if (m == NULL || !m->valid)
-        return NULL;
-    m->qualifier[0] = '\0';
-    if (fmt) {
-        va_list ap;
-        va_start(ap, fmt);
-        vsnprintf(m->qualifier, sizeof m->qualifier, fmt, ap);
-        va_end(ap);
-    }
+    va_list ap;
+    va_start(ap, fmt);
+    m = metric_qualify_v(m, fmt, ap);
+    va_end(ap);
     return m;
 }
 
@@ -440,6 +440,48 @@ int ml_report_mark(const ml_report *r, size_t i)
     for (size_t k = 0; k <= i; k++)
         n += ml_metric_has_mark(&r->metrics[k]);
     return n;
+}
+
+int ml_report_metric_marks(const ml_report *r)
+{
+    int n = 0;
+    for (size_t i = 0; i < r->nmetrics; i++)
+        n += ml_metric_has_mark(&r->metrics[i]);
+    return n;
+}
+
+void ml_report_cell_text(const ml_metric *m, int *mark, char *buf, size_t len)
+{
+    char val[64];
+    ml_report_value_text(m, val, sizeof val);
+    if (ml_metric_has_mark(m))
+        snprintf(buf, len, "%s [%d]", val, ++*mark);
+    else
+        snprintf(buf, len, "%s", val);
+}
+
+void ml_report_mark_line(int k, const char *name, const ml_metric *m, char *buf, size_t len)
+{
+    char why[ML_REPORT_WHY_LEN + 32];
+    ml_report_why_text(m, why, sizeof why);
+    snprintf(buf, len, "[%d] %s: %s", k, name, why);
+}
+
+void ml_report_series_marks(const ml_report *r, int first_mark, void (*each)(void *ctx, const char *line),
+                            void *ctx)
+{
+    const ml_report_series *sr = r->series;
+    int mark = first_mark;
+    for (size_t k = 0; sr && k < sr->npoints; k++)
+        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
+            const ml_metric *m = &sr->points[k].figures[i];
+            if (!ml_metric_has_mark(m))
+                continue;
+            char name[160], line[ML_REPORT_WHY_LEN + 256];
+            ml_report_point_name(r, k, m->name, name, sizeof name);
+            ml_report_mark_line(++mark, name, m, line, sizeof line);
+            each(ctx, line);
+        }
 }
 
 void ml_report_why_text(const ml_metric *m, char *buf, size_t len)

@@ -24,7 +24,17 @@ void ml_csv_field(FILE *f, const char *s, char sep);
 int ml_report_mark(const ml_report *r, size_t i);
 /* Whether a metric shows a mark: a bound, a qualifier, or (not measured) a reason. */
 bool ml_metric_has_mark(const ml_metric *m);
-/* The marks of the series' figures continue the metric table's numbering, point by point. */
+/* The marks of the series' figures continue the metric table's numbering, point by point: this
+ * is the number of marks in the metric table, the last number before the series' first. */
+int ml_report_metric_marks(const ml_report *r);
+/* A series cell: the figure's value text, then " [n]" when it has a mark, n being ++*mark. */
+void ml_report_cell_text(const ml_metric *m, int *mark, char *buf, size_t len);
+/* The line that explains mark k of the metric or figure m shown as name: "[k] name: why". */
+void ml_report_mark_line(int k, const char *name, const ml_metric *m, char *buf, size_t len);
+/* Calls each(ctx, line) with the mark line of every marked figure of r's series, point by point,
+ * the marks numbered from first_mark + 1 (the series' figures named "sweep.points[3].thd_pct"). */
+void ml_report_series_marks(const ml_report *r, int first_mark, void (*each)(void *ctx, const char *line),
+                            void *ctx);
 /* The name a point's figure has outside its point: "sweep.points[3].thd_pct", into buf[len]. */
 void ml_report_point_name(const ml_report *r, size_t p, const char *leaf, char *buf, size_t len);
 /* The explanation behind a mark: "noise-limited: upper bound", "not measured: <reason>". */

@@ -222,6 +222,14 @@ static void wrapped(doc *d, double x, double width, double lineh, const char *te
     } while (n > 0);
 }
 
+/* A line of small print across the page (a mark explained, a note), wrapped. */
+static void small_print(doc *d, const char *line)
+{
+    font(d->cr, 8, false);
+    ml_colour(d->cr, ML_C_INK);
+    wrapped(d, MARGIN, PAGE_W - 2 * MARGIN, 11.0, line);
+}
+
 /* "label  value": the value wrapped beside the label, never cut. */
 static void field(doc *d, const char *label, const char *value)
 {
@@ -261,14 +269,21 @@ static void shade(doc *d, double y, double h)
 static const double MX[] = {MARGIN + 3, MARGIN + 244, MARGIN + 247, MARGIN + 263, MARGIN + 318, MARGIN + 350,
                             MARGIN + 432, PAGE_W - MARGIN - 3};
 
-static void metric_head(doc *d)
+/* The band of a table's header row at d->y; leaves white bold text of size set. */
+static void head_band(doc *d, double size)
 {
     cairo_t *cr = d->cr;
     ml_colour(cr, ML_C_HEAD);
     cairo_rectangle(cr, MARGIN, d->y, PAGE_W - 2 * MARGIN, ROW_H + 2);
     cairo_fill(cr);
     cairo_set_source_rgb(cr, 1, 1, 1);
-    font(cr, 8, true);
+    font(cr, size, true);
+}
+
+static void metric_head(doc *d)
+{
+    cairo_t *cr = d->cr;
+    head_band(d, 8);
     const double b = d->y + 9;
     put(cr, MX[0], b, "metric");
     put_right(cr, MX[1], b, "value");
@@ -337,12 +352,9 @@ static void marks(doc *d, const ml_report *r)
         if (!any)
             section(d, "Reasons and qualifiers");
         any = true;
-        char why[ML_REPORT_WHY_LEN + 32], line[ML_REPORT_WHY_LEN + 128];
-        ml_report_why_text(&r->metrics[i], why, sizeof why);
-        snprintf(line, sizeof line, "[%d] %s: %s", k, r->metrics[i].name, why);
-        font(d->cr, 8, false);
-        ml_colour(d->cr, ML_C_INK);
-        wrapped(d, MARGIN, PAGE_W - 2 * MARGIN, 11.0, line);
+        char line[ML_REPORT_WHY_LEN + 256];
+        ml_report_mark_line(k, r->metrics[i].name, &r->metrics[i], line, sizeof line);
+        small_print(d, line);
     }
     if (any)
         d->y += 8;
@@ -351,11 +363,7 @@ static void marks(doc *d, const ml_report *r)
 static void table_head(doc *d, const ml_table *tb, double colw)
 {
     cairo_t *cr = d->cr;
-    ml_colour(cr, ML_C_HEAD);
-    cairo_rectangle(cr, MARGIN, d->y, PAGE_W - 2 * MARGIN, ROW_H + 2);
-    cairo_fill(cr);
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    font(cr, 8, true);
+    head_band(d, 8);
     for (size_t c = 0; c < tb->ncols; c++)
         put_right(cr, MARGIN + colw * (double)(c + 1) - 6, d->y + 9, tb->cols[c]);
     d->y += ROW_H + 2;
@@ -408,15 +416,17 @@ static void tables(doc *d, const ml_report *r)
     }
 }
 
+/* A mark explained, in small print, in the doc ctx. */
+static void mark_line(void *ctx, const char *line)
+{
+    small_print(ctx, line);
+}
+
 /* The series' header row: point, each figure's name, result. */
 static void series_head(doc *d, const ml_report_point *p0, double colw)
 {
     cairo_t *cr = d->cr;
-    ml_colour(cr, ML_C_HEAD);
-    cairo_rectangle(cr, MARGIN, d->y, PAGE_W - 2 * MARGIN, ROW_H + 2);
-    cairo_fill(cr);
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    font(cr, 6.8, true);
+    head_band(d, 6.8);
     put(cr, MARGIN + 3, d->y + 9, "point");
     for (size_t i = 0; p0 && i < p0->nfigures; i++)
         put_right(cr, MARGIN + 28 + colw * (double)(i + 1) - 4, d->y + 9, p0->figures[i].name);
@@ -438,9 +448,7 @@ static void series(doc *d, const ml_report *r)
     need(d, 13 + 3 * ROW_H + 20);
     section(d, sr->title);
     series_head(d, p0, colw);
-    int mark = 0;
-    for (size_t i = 0; i < r->nmetrics; i++)
-        mark += ml_metric_has_mark(&r->metrics[i]);
+    int mark = ml_report_metric_marks(r);
     const int first_mark = mark;
     for (size_t k = 0; k < sr->npoints; k++) {
         const ml_report_point *pt = &sr->points[k];
@@ -456,12 +464,8 @@ static void series(doc *d, const ml_report *r)
         snprintf(n, sizeof n, "%zu", k);
         put(cr, MARGIN + 3, d->y + 8.3, n);
         for (size_t i = 0; i < pt->nfigures && i < nf; i++) {
-            char val[64], cell[96];
-            ml_report_value_text(&pt->figures[i], val, sizeof val);
-            if (ml_metric_has_mark(&pt->figures[i]))
-                snprintf(cell, sizeof cell, "%s [%d]", val, ++mark);
-            else
-                snprintf(cell, sizeof cell, "%s", val);
+            char cell[96];
+            ml_report_cell_text(&pt->figures[i], &mark, cell, sizeof cell);
             put_right(cr, MARGIN + 28 + colw * (double)(i + 1) - 4, d->y + 8.3, cell);
         }
         const char *v = ml_report_point_verdict(pt);
@@ -473,20 +477,7 @@ static void series(doc *d, const ml_report *r)
         d->y += ROW_H;
     }
     d->y += 8;
-    mark = first_mark;
-    for (size_t k = 0; k < sr->npoints; k++)
-        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
-            const ml_metric *m = &sr->points[k].figures[i];
-            if (!ml_metric_has_mark(m))
-                continue;
-            char why[ML_REPORT_WHY_LEN + 32], name[160], line[ML_REPORT_WHY_LEN + 256];
-            ml_report_why_text(m, why, sizeof why);
-            ml_report_point_name(r, k, m->name, name, sizeof name);
-            snprintf(line, sizeof line, "[%d] %s: %s", ++mark, name, why);
-            font(cr, 8, false);
-            ml_colour(cr, ML_C_INK);
-            wrapped(d, MARGIN, PAGE_W - 2 * MARGIN, 11.0, line);
-        }
+    ml_report_series_marks(r, first_mark, mark_line, d);
     d->y += 8;
 }
 
@@ -499,9 +490,7 @@ static void notes(doc *d, const char (*list)[ML_REPORT_NOTE_LEN], size_t n)
         char t[ML_REPORT_NOTE_LEN], line[ML_REPORT_NOTE_LEN + 8];
         ml_report_unsign_zeros(t, sizeof t, list[i]);
         snprintf(line, sizeof line, "- %s", t);
-        font(d->cr, 8, false);
-        ml_colour(d->cr, ML_C_INK);
-        wrapped(d, MARGIN, PAGE_W - 2 * MARGIN, 11.0, line);
+        small_print(d, line);
     }
 }
 

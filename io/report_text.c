@@ -83,10 +83,16 @@ static void metrics(FILE *f, const ml_report *r)
         if (!any)
             fputc('\n', f);
         any = true;
-        char why[ML_REPORT_WHY_LEN + 32];
-        ml_report_why_text(&r->metrics[i], why, sizeof why);
-        fprintf(f, "  [%d] %s: %s\n", k, r->metrics[i].name, why);
+        char line[ML_REPORT_WHY_LEN + 256];
+        ml_report_mark_line(k, r->metrics[i].name, &r->metrics[i], line, sizeof line);
+        fprintf(f, "  %s\n", line);
     }
+}
+
+/* A mark explained, on its own indented line of the file ctx. */
+static void mark_line(void *ctx, const char *line)
+{
+    fprintf((FILE *)ctx, "  %s\n", line);
 }
 
 /* The series: one line per point (its figures, marks beside them, the result of its checks), the
@@ -103,36 +109,20 @@ static void series(FILE *f, const ml_report *r)
     fprintf(f, "  %s\n", "result");
     if (sr->npoints == 0)
         fprintf(f, "  (no points)\n");
-    int mark = 0;
-    for (size_t i = 0; i < r->nmetrics; i++)
-        mark += ml_metric_has_mark(&r->metrics[i]);
+    int mark = ml_report_metric_marks(r);
     const int first_mark = mark;
     for (size_t k = 0; k < sr->npoints; k++) {
         const ml_report_point *pt = &sr->points[k];
         fprintf(f, "  %5zu", k);
         for (size_t i = 0; i < pt->nfigures; i++) {
-            char val[64], cell[96];
-            ml_report_value_text(&pt->figures[i], val, sizeof val);
-            if (ml_metric_has_mark(&pt->figures[i]))
-                snprintf(cell, sizeof cell, "%s [%d]", val, ++mark);
-            else
-                snprintf(cell, sizeof cell, "%s", val);
+            char cell[96];
+            ml_report_cell_text(&pt->figures[i], &mark, cell, sizeof cell);
             fprintf(f, " %16s", cell);
         }
         const char *v = ml_report_point_verdict(pt);
         fprintf(f, "  %s\n", v ? (strcmp(v, "pass") == 0 ? "PASS" : "FAIL") : "");
     }
-    mark = first_mark;
-    for (size_t k = 0; k < sr->npoints; k++)
-        for (size_t i = 0; i < sr->points[k].nfigures; i++) {
-            const ml_metric *m = &sr->points[k].figures[i];
-            if (!ml_metric_has_mark(m))
-                continue;
-            char why[ML_REPORT_WHY_LEN + 32], name[160];
-            ml_report_why_text(m, why, sizeof why);
-            ml_report_point_name(r, k, m->name, name, sizeof name);
-            fprintf(f, "  [%d] %s: %s\n", ++mark, name, why);
-        }
+    ml_report_series_marks(r, first_mark, mark_line, f);
     for (size_t k = 0; k < sr->npoints; k++)
         for (size_t i = 0; i < sr->points[k].nchecks; i++) {
             const ml_check *c = &sr->points[k].checks[i];

@@ -14,6 +14,8 @@
 #include <string.h>
 #include <sys/stat.h>
 
+#include "io/internal.h"
+
 struct ml_result {
     size_t n, cap;
     ml_result_item *items;
@@ -25,17 +27,6 @@ typedef struct {
     char *err;
     size_t errlen;
 } ctx;
-
-/* snprintf into err when there is one */
-static void say(char *err, size_t errlen, const char *fmt, ...)
-{
-    if (err == NULL || errlen == 0)
-        return;
-    va_list ap;
-    va_start(ap, fmt);
-    vsnprintf(err, errlen, fmt, ap);
-    va_end(ap);
-}
 
 /* The reason, as one printable line: names and jansson's token excerpts may hold any byte. */
 static ml_status fail(ctx *c, const char *fmt, ...)
@@ -299,7 +290,7 @@ ml_status ml_result_parse(const char *data, size_t len, ml_result **out, char *e
     json_decref(root);
     if (st != ML_OK) {
         if (st == ML_ENOMEM)
-            say(err, errlen, "out of memory");
+            ml_say(err, errlen, "out of memory");
         ml_result_destroy(r);
         return st;
     }
@@ -316,35 +307,35 @@ ml_status ml_result_read_file(const char *path, ml_result **out, char *err, size
         return ML_EINVAL;
     struct stat st;
     if (stat(path, &st) != 0) {
-        say(err, errlen, "%s", strerror(errno));
+        ml_say(err, errlen, "%s", strerror(errno));
         return ML_EIO;
     }
     if (S_ISDIR(st.st_mode)) {
-        say(err, errlen, "is a directory");
+        ml_say(err, errlen, "is a directory");
         return ML_EIO;
     }
     if (!S_ISREG(st.st_mode)) {
-        say(err, errlen, "not a regular file");
+        ml_say(err, errlen, "not a regular file");
         return ML_EIO;
     }
     if (st.st_size == 0) {
-        say(err, errlen, "the file is empty");
+        ml_say(err, errlen, "the file is empty");
         return ML_EFORMAT;
     }
     if ((uintmax_t)st.st_size > ML_RESULT_MAX_BYTES) {
-        say(err, errlen, "larger than %zu MiB: not a saved report", ML_RESULT_MAX_BYTES >> 20);
+        ml_say(err, errlen, "larger than %zu MiB: not a saved report", ML_RESULT_MAX_BYTES >> 20);
         return ML_EFORMAT;
     }
     FILE *f = fopen(path, "rb");
     if (f == NULL) {
-        say(err, errlen, "%s", strerror(errno));
+        ml_say(err, errlen, "%s", strerror(errno));
         return ML_EIO;
     }
     size_t n = (size_t)st.st_size;
     char *buf = malloc(n);
     if (buf == NULL) {
         fclose(f);
-        say(err, errlen, "out of memory");
+        ml_say(err, errlen, "out of memory");
         return ML_ENOMEM;
     }
     size_t got = fread(buf, 1, n, f);
@@ -352,7 +343,7 @@ ml_status ml_result_read_file(const char *path, ml_result **out, char *err, size
     fclose(f);
     if (bad) {
         free(buf);
-        say(err, errlen, "read error");
+        ml_say(err, errlen, "read error");
         return ML_EIO;
     }
     ml_status s = ml_result_parse(buf, got, out, err, errlen);
