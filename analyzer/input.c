@@ -350,6 +350,14 @@ int ml_input_find_carrier(const char *name, ml_segment *seg, const ml_channels *
     const ml_carrier_config cc = ml_carrier_config_default(rate, ch->complex_input, nominal_hz);
     ml_status st = ml_carrier_find(look, &cc, car);
     ml_spectrum_destroy(look);
+    if (st != ML_OK && car->stronger_hz > 0 && !isnan(nominal_hz))
+        return ml_cli_error("%s: --carrier %.1f Hz falls on a side frequency of the carrier at %.1f Hz, not on "
+                            "a carrier of its own",
+                            name, nominal_hz, car->stronger_hz);
+    if (st != ML_OK && car->strongest_amplitude > 0 && !isnan(nominal_hz) && isfinite(car->prominence_db))
+        return ml_cli_error("%s: near --carrier %.1f Hz nothing stands out as a carrier line (only %.1f dB above "
+                            "the spectrum around it; the strongest component lies at %.1f Hz)",
+                            name, nominal_hz, car->prominence_db, car->strongest_hz);
     if (st != ML_OK && car->strongest_amplitude > 0 && !isnan(nominal_hz))
         return ml_cli_error(
             "%s: no carrier within +-%.0f Hz of --carrier %.1f Hz (the strongest component lies at "

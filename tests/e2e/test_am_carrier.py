@@ -99,6 +99,9 @@ def main():
                 ck.check("%s --carrier %.0f (carrier at %.0f): an error" % (kind, nominal, fc),
                          rc == 2 and out == "" and len(lines) == 1 and lines[0].startswith("modlens: " + path + ": "),
                          "rc %d, stdout %r, stderr %r" % (rc, out[:80], err))
+                if abs(abs(nominal - fc) - FM) < 1:
+                    ck.check("%s --carrier %.0f: the error names the side frequency of the carrier at %.0f"
+                             % (kind, nominal, fc), "side frequency of the carrier at %.1f Hz" % fc in err, err)
 
         # 3. --swap-iq
         x = S.carrier_wave(am(t4, 0.6), "iq", 1500.0)
