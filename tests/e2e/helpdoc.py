@@ -8,6 +8,7 @@ import os
 import re
 import shlex
 import subprocess
+import tempfile
 
 HERE = os.path.dirname(os.path.abspath(__file__))
 FAKE_MODLENS = os.path.join(HERE, "fake_modlens.py")
@@ -100,8 +101,14 @@ class Completer:
             lines.append("COMPREPLY=(); fn=${spec#*-F }; fn=${fn%% *}")
             lines.append('"$fn" modlens "${COMP_WORDS[COMP_CWORD]}" "${COMP_WORDS[COMP_CWORD-1]}"')
             lines.append("echo @@begin; printf '%s\\n' \"${COMPREPLY[@]}\"; echo @@end")
-        p = run(["bash", "--norc", "--noprofile", "-c", "\n".join(lines)], cwd=self.cwd,
-                env=self.env if self.env is not None else dict(os.environ))
+        # the script goes in a file: as one -c argument it can pass the kernel's 128 KiB limit
+        with tempfile.NamedTemporaryFile("w", suffix=".sh", delete=False) as f:
+            f.write("\n".join(lines) + "\n")
+        try:
+            p = run(["bash", "--norc", "--noprofile", f.name], cwd=self.cwd, stdin=subprocess.DEVNULL,
+                    env=self.env if self.env is not None else dict(os.environ))
+        finally:
+            os.unlink(f.name)
         results, cur, spec = [], None, None
         for line in p.stdout.splitlines():
             if line.startswith("@@spec "):
