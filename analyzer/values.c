@@ -323,7 +323,10 @@ char *ml_values_cell(const ml_value *v, char *buf, size_t len)
             buf[0] = '\0';
         return buf;
     }
-    ml_report_number(num, sizeof num, x.value, d ? d->decimals : 3, false);
+    ml_report_bound_number(num, sizeof num, x.value, d ? d->decimals : 3,
+                           x.state == ML_FIG_UPPER   ? ML_BOUND_UPPER
+                           : x.state == ML_FIG_LOWER ? ML_BOUND_LOWER
+                                                     : ML_BOUND_NONE);
     snprintf(buf, len, "%s%s", x.state == ML_FIG_UPPER ? "<" : x.state == ML_FIG_LOWER ? ">" : "", num);
     return buf;
 }

@@ -179,6 +179,18 @@ void ml_report_number(char *buf, size_t len, double v, int decimals, bool plus)
     }
 }
 
+void ml_report_bound_number(char *buf, size_t len, double v, int decimals, ml_bound bound)
+{
+    if (isfinite(v) && bound != ML_BOUND_NONE && decimals >= 0 && decimals <= 12) {
+        /* outward to the printed resolution, so the printed bound still holds: an upper bound of
+         * 2e-7 % at 4 decimals is "< 0.0001", never "< 0.0000" */
+        const double scale = pow(10.0, decimals), x = v * scale, r = nearbyint(x);
+        if (fabs(x - r) > 1e-9 * fmax(1.0, fabs(x)))
+            v = (bound == ML_BOUND_UPPER ? ceil(x) : floor(x)) / scale;
+    }
+    ml_report_number(buf, len, v, decimals, false);
+}
+
 void ml_report_unsign_zeros(char *dst, size_t len, const char *src)
 {
     if (len == 0)
@@ -507,7 +519,7 @@ void ml_report_value_text(const ml_metric *m, char *buf, size_t len)
         return;
     }
     char v[48];
-    ml_report_number(v, sizeof v, m->value, m->decimals, false);
+    ml_report_bound_number(v, sizeof v, m->value, m->decimals, m->bound);
     snprintf(buf, len, "%s%s", m->bound == ML_BOUND_UPPER ? "< " : m->bound == ML_BOUND_LOWER ? "> " : "", v);
 }
 

@@ -262,6 +262,9 @@ const char *ml_report_bound_name(ml_bound b);
  * '+' before positive values (as "%+.*f", zero still unsigned). A value that is not finite gives
  * "". Every writer prints its numbers through this. */
 void ml_report_number(char *buf, size_t len, double v, int decimals, bool plus);
+/* A bound's number at decimals, rounded outward (an upper bound up, a lower bound down) so that
+ * the printed bound still holds; with ML_BOUND_NONE as ml_report_number. */
+void ml_report_bound_number(char *buf, size_t len, double v, int decimals, ml_bound bound);
 
 ml_status ml_report_write(FILE *f, const ml_report *r, ml_report_format fmt);
 /* The CSV header line (ML_REPORT_CSV_COLUMNS and a newline), for the one header of a table made

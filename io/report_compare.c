@@ -21,7 +21,10 @@ static void num(char *buf, size_t len, bool valid, double v, int decimals)
 static void side_num(char *buf, size_t len, bool valid, double v, ml_bound b, int decimals)
 {
     char n[40];
-    num(n, sizeof n, valid, v, decimals);
+    if (valid)
+        ml_report_bound_number(n, sizeof n, v, decimals, b);
+    else
+        num(n, sizeof n, valid, v, decimals);
     snprintf(buf, len, "%s%s", valid && b == ML_BOUND_UPPER ? "< " : valid && b == ML_BOUND_LOWER ? "> " : "",
              n);
 }

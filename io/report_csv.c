@@ -45,7 +45,7 @@ static void figure_row(FILE *f, const ml_report *r, const char *start, const cha
     char val[48] = "", u[48] = "", lo[40] = "", hi[40] = "", margin[48] = "", q[ML_REPORT_WHY_LEN],
          why[ML_REPORT_WHY_LEN];
     if (m->valid)
-        ml_report_number(val, sizeof val, m->value, m->decimals, false);
+        ml_report_bound_number(val, sizeof val, m->value, m->decimals, m->bound);
     if (m->valid && m->has_u) {
         ml_report_number(u, sizeof u, m->u, m->decimals + 1, false);
         if (strspn(u, "0.") == strlen(u) && m->u > 0) /* below that precision: two digits, not "0.000" */

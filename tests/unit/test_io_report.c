@@ -263,6 +263,25 @@ START_TEST(numbers_without_negative_zero)
 }
 END_TEST
 
+START_TEST(bounds_rounded_outward)
+{
+    /* io/report.h: a printed bound still holds -- an upper bound rounds up, a lower bound down */
+    char b[64];
+    ml_report_bound_number(b, sizeof b, 2e-7, 4, ML_BOUND_UPPER);
+    ck_assert_str_eq(b, "0.0001");
+    ml_report_bound_number(b, sizeof b, 0.27196, 4, ML_BOUND_UPPER);
+    ck_assert_str_eq(b, "0.2720");
+    ml_report_bound_number(b, sizeof b, -29.5649, 2, ML_BOUND_LOWER);
+    ck_assert_str_eq(b, "-29.57");
+    ml_report_bound_number(b, sizeof b, -29.5649, 2, ML_BOUND_UPPER);
+    ck_assert_str_eq(b, "-29.56");
+    ml_report_bound_number(b, sizeof b, 0.25, 2, ML_BOUND_UPPER); /* exact at the resolution: kept */
+    ck_assert_str_eq(b, "0.25");
+    ml_report_bound_number(b, sizeof b, 2e-7, 4, ML_BOUND_NONE); /* no bound: plain rounding */
+    ck_assert_str_eq(b, "0.0000");
+}
+END_TEST
+
 START_TEST(model_reasons_qualifiers_bounds)
 {
     static ml_report r;
@@ -682,6 +701,7 @@ static Suite *suite(void)
     Suite *s = suite_create("io_report");
     TCase *tc = tcase_create("report");
     tcase_add_test(tc, numbers_without_negative_zero);
+    tcase_add_test(tc, bounds_rounded_outward);
     tcase_add_test(tc, model_reasons_qualifiers_bounds);
     tcase_add_test(tc, json_reasons_qualifiers_bounds);
     tcase_add_test(tc, json_read_back);
