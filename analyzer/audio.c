@@ -255,7 +255,7 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
         ml_measure_tone_note(rep, &ar, "the recording", "full scale");
     ml_uncertainty_report(p->blocks, rep);
     ml_bench_audio_report(p->bench, &o->an, (int)o->in.channel, p->spec, &ar, ok, lv.rms_dbfs, rep);
-    ml_imd_report(rep, ok ? p->spec : NULL, &o->an); /* intermodulation: analyzer/imd.c */
+    ml_imd_report(rep, ok ? p->spec : NULL, &o->an, ok && ar.tone_present); /* analyzer/imd.c */
     return 0;
 }
 

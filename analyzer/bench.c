@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include "analyzer/cli.h"
+#include "analyzer/registry.h"
 #include "analyzer/settings.h"
 #include "analyzer/values.h"
 #include "dsp/card.h"
@@ -320,6 +321,28 @@ void ml_bench_audio_report(const ml_bench_pass *p, const ml_analysis_opts *an, i
     if (an->card) {
         const ml_card_dut d = dut_of(a, ok, &f, &nf);
         card_marks(an, channel, spec ? ml_spectrum_rate_hz(spec) : an->card->rate_hz, &d, rep);
+    }
+}
+
+void ml_bench_demod_noise_report(const ml_spectrum *aud, const ml_audio_result *a, bool ok, ml_report *rep)
+{
+    ml_noise_figures nf;
+    ml_bench_noise_none(&nf);
+    const bool measured = ok && aud != NULL && ml_bench_noise(aud, a, NULL, &nf) == ML_OK;
+    ml_value v[ML_VALUES_MAX];
+    const size_t nv = ml_values_bench(&nf, NULL, false, false, v);
+    for (size_t i = 0; i < nv; i++) {
+        if (strcmp(v[i].name, "audio.noise_468_qp_dbfs") == 0)
+            continue; /* the meter reads an audio pass's captured samples only */
+        if (isfinite(v[i].value)) {
+            ml_values_report(rep, &v[i], 1);
+            continue;
+        }
+        const char *why = !measured                                   ? "the demodulated audio was not analysed"
+                          : strcmp(v[i].name, "audio.snr_a_db") == 0 ? "no test tone"
+                                                                      : "not measurable on this capture";
+        const ml_metric_def *d = ml_registry_lookup(v[i].name, NULL);
+        ml_report_add_missing_why(rep, v[i].name, d ? d->unit : "", d ? d->decimals : 2, why);
     }
 }
 

@@ -60,6 +60,12 @@ void ml_bench_audio_end(ml_bench_pass *p); /* NULL is a no-op                   
 void ml_bench_modulation_report(const ml_analysis_opts *an, const ml_modulation_result *r,
                                 double capture_rms_dbfs, bool iq, ml_report *rep);
 
+/* if/iq: the weighted noise of the demodulated audio (audio.noise_a_dbfs, audio.snr_a_db,
+ * audio.noise_468_dbfs), from its spectrum aud and the analysis a made on it (ok false: not
+ * measured), in dB re 100 % modulation like the pass's other audio figures (dsp/benchfig.h). No
+ * quasi-peak reading: the meter runs on the captured audio of an audio pass only. */
+void ml_bench_demod_noise_report(const ml_spectrum *aud, const ml_audio_result *a, bool ok, ml_report *rep);
+
 /* The settings and calibration in force into the report's settings line. */
 void ml_bench_finish(const ml_analysis_opts *an, ml_report *rep);
 

@@ -82,9 +82,9 @@ static void figure(ml_report *rep, const char *name, double pct, bool upper)
                         "noise-limited: the products do not stand above the noise");
 }
 
-void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an)
+void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an, bool tone)
 {
-    if (an->imd_off || spec == NULL)
+    if (an->imd_off || spec == NULL || (an->imd.method == ML_IMD_AUTO && !tone))
         return;
     ml_imd_result r;
     const ml_status st = ml_imd_analyze(spec, &an->imd, &r);
@@ -189,8 +189,8 @@ void ml_imd_envelope_hook(void *ctx, const double *env, size_t n)
         e->next(e->next_ctx, env, n);
 }
 
-void ml_imd_envelope_report(const ml_imd_envelope *e, ml_report *rep, const ml_analysis_opts *an)
+void ml_imd_envelope_report(const ml_imd_envelope *e, ml_report *rep, const ml_analysis_opts *an, bool tone)
 {
     if (e != NULL && e->spec != NULL)
-        ml_imd_report(rep, e->spec, an);
+        ml_imd_report(rep, e->spec, an, tone);
 }

@@ -28,8 +28,10 @@
 
 /* The imd.* figures of spec (the audio's Welch spectrum) into rep, after its audio figures: with
  * an IMD signal (found, or forced by --imd), the single-tone figures withdrawn (see above). With
- * --imd off, or auto and no IMD signal, nothing. */
-void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an);
+ * --imd off, or auto and no IMD signal, nothing. tone: the audio analysis found a line standing
+ * clear of the noise (ml_audio_result.tone_present); auto looks for two tones only then, so that
+ * noise (whose strongest bins are no tones) is never read as an IMD signal. */
+void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an, bool tone);
 
 /* The demodulated audio's spectrum for IMD in the if/iq pass, fed from the modulation analysis'
  * envelope hook (which it passes on to next(next_ctx) when next is not NULL). */
@@ -47,6 +49,6 @@ void ml_imd_envelope_destroy(ml_imd_envelope *e); /* NULL is a no-op */
 /* The envelope hook (ctx: the ml_imd_envelope): into the spectrum, then to next. */
 void ml_imd_envelope_hook(void *ctx, const double *env, size_t n);
 /* ml_imd_report on the demodulated audio's spectrum (e NULL: nothing). */
-void ml_imd_envelope_report(const ml_imd_envelope *e, ml_report *rep, const ml_analysis_opts *an);
+void ml_imd_envelope_report(const ml_imd_envelope *e, ml_report *rep, const ml_analysis_opts *an, bool tone);
 
 #endif

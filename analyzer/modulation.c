@@ -356,6 +356,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_level_figures lv;
     ml_figures_level(p->stats, p->iq ? 2 : 1, &lv);
     ml_values_report(rep, v, ml_values_level(&lv, "capture", v));
+    ml_bench_demod_noise_report(ml_modulation_get_audio_spectrum(p->mod), &r.audio_result, r.audio_valid, rep);
     ml_bench_modulation_report(&o->an, &r, lv.rms_dbfs, p->iq, rep);
     ml_qp_pass_report(p->qp, rep);
     char cref[160];
@@ -384,7 +385,7 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
         ml_plots_modulation(o->out.plot, ml_modulation_get_spectrum(p->mod), &r,
                             o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL,
                             p->c_prov / r.c);
-    ml_imd_envelope_report(p->imd, rep, &o->an); /* intermodulation: analyzer/imd.c */
+    ml_imd_envelope_report(p->imd, rep, &o->an, r.audio_valid && r.audio_result.tone_present); /* imd.c */
     return 0;
 }
 

@@ -1005,8 +1005,14 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
             const double order = nearbyint(out->candidate_hz / fm);
             if (order > cfg->hum_harmonics
                 && fabs(out->candidate_hz - order * fm) <= fmax(bin_hz, 0.05 * order)
-                && look.power < 4.0 * fam->base_power)
-                at_mains = true;
+                && look.power < 4.0 * fam->base_power) {
+                /* ... and a line of a buzz: a neighbouring multiple stands above the noise too (a
+                 * lone line that happens to fall on a multiple, 6 kHz beside 50 Hz hum, is a tone) */
+                ml_component nb[2];
+                for (int i = 0; i < 2; i++)
+                    line_stats(&x, nearest_bin((order + (i ? 1.0 : -1.0)) * fm, bin_hz), Z_TONE, &nb[i], NULL);
+                at_mains = nb[0].above_noise || nb[1].above_noise;
+            }
         }
     }
     out->tone_clear = look.clear && !at_mains;

@@ -86,7 +86,8 @@
  *     lobe count (DC's leakage is no line: an offset, an unmodulated carrier's envelope). A
  *     candidate at a higher multiple of the mains (order > hum_harmonics, within a bin or 0.05 Hz
  *     per order of the measured mains) must also be 6 dB above the base line, or it is taken for
- *     hum. A test
+ *     hum when a neighbouring multiple (order - 1 or order + 1) stands above the noise too (a
+ *     buzz's lines come in rows; a lone line on a multiple, 6 kHz beside 50 Hz hum, is a tone). A test
  *     tone at a low multiple of the mains (100 or 150 Hz on 50 Hz mains) needs tone_hz.
  *  ML_TONE_FORCE takes the candidate as the tone whatever its clarity; ML_TONE_NONE has no tone.
  */

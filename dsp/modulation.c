@@ -690,6 +690,11 @@ const ml_spectrum *ml_modulation_get_spectrum(const ml_modulation *q)
     return q ? q->rf : NULL;
 }
 
+const ml_spectrum *ml_modulation_get_audio_spectrum(const ml_modulation *q)
+{
+    return q ? q->aud : NULL;
+}
+
 ml_status ml_modulation_get_mask_margin(const ml_modulation *q, const ml_mask *mask, double *margin_db,
                                         double *worst_offset_hz)
 {

@@ -238,6 +238,9 @@ ml_status ml_modulation_get_result(const ml_modulation *q, ml_modulation_result 
 ml_status ml_modulation_get_uncertainty(const ml_modulation *q, ml_modulation_uncertainty *out);
 /* The captured signal's spectrum of the last finished span (for pictures and the mask). */
 const ml_spectrum *ml_modulation_get_spectrum(const ml_modulation *q);
+/* The Welch spectrum of the demodulated audio (units of C: a 100 % sine is amplitude 1) that
+ * ml_modulation_result.audio_result was measured on (NULL for NULL q). */
+const ml_spectrum *ml_modulation_get_audio_spectrum(const ml_modulation *q);
 /* Worst margin of the captured spectrum against an emission mask referred to C's power
  * (ml_rf_mask_margin). ML_ENOSIGNAL when the mask lies outside the captured band. */
 ml_status ml_modulation_get_mask_margin(const ml_modulation *q, const ml_mask *mask, double *margin_db,

@@ -191,6 +191,41 @@ def modulation(ck, exe):
                  repr(rep.get("notes")))
 
 
+def demodulated_noise(ck, exe):
+    """if/iq: the demodulated audio's weighted noise re 100 % modulation. A 12 kHz IF carrier whose
+    envelope is 1 + n(t), n band noise 300 Hz - 4 kHz at -40 dB re a 100 % sine (power 0.5): the
+    demodulated audio is n in units of C, so its A- and 468-weighted noise are the curves
+    (docs/references.md 1.1, 2.2) integrated over n's own periodogram, in dB re 0.5."""
+    n = FS * 10
+    f = np.fft.rfftfreq(n, 1 / FS)
+    rng = np.random.default_rng(11)
+    X = np.where((f >= 300) & (f <= 4000), np.exp(2j * np.pi * rng.random(len(f))), 0)
+    x = np.fft.irfft(X, n)
+    x *= 10 ** (-40 / 20) / math.sqrt(2) / np.sqrt(np.mean(x ** 2))
+    env = 1 + x  # stationary: a lead-in without the noise would dilute it
+    tt = np.arange(len(env)) / FS
+    E.write("if-noise.wav", (0.4 * env * np.cos(2 * np.pi * 12000 * tt)).astype(np.float32), FS, "FLOAT")
+    p = 2 * np.abs(np.fft.rfft(x)) ** 2 / n ** 2
+    band = (f >= 20) & (f <= 20000)
+    want_a = 10 * math.log10((p[band] * 10 ** (E.a_weighting_db(f[band]) / 10)).sum() / 0.5)
+    want_468 = 10 * math.log10((p[band] * 10 ** (E.w468_db(f[band]) / 10)).sum() / 0.5)
+    rc, rep, _, err = E.run_json(exe, ["--kind", "if", "if-noise.wav"])
+    ck.check("if, envelope noise: exit 0", rc == 0 and rep is not None, err.strip())
+    if not rep:
+        return
+    ck.close("if: unweighted noise of the demodulated audio = n's power re 0.5 (-40 dB)",
+             E.get(rep, "audio.noise_nohum_dbfs"), 10 * math.log10(p[band].sum() / 0.5), 0.3)
+    ck.check("if: band noise is no two-tone IMD signal", not E.has(rep, "imd"), repr(rep.get("imd")))
+    ck.close("if: A-weighted noise of the demodulated audio re 100 % modulation (IEC 61672-1 curve over n)",
+             E.get(rep, "audio.noise_a_dbfs"), want_a, 0.3)
+    ck.close("if: 468-weighted noise of the demodulated audio (BS.468-4 curve over n)",
+             E.get(rep, "audio.noise_468_dbfs"), want_468, 0.3)
+    ck.check("if: no tone, so no A-weighted SNR, with a reason", E.get(rep, "audio.snr_a_db") is None
+             and E.has(rep, "reasons.audio.snr_a_db"), repr(rep.get("reasons", {}).get("audio")))
+    ck.check("if: no quasi-peak reading of the demodulated audio", not E.has(rep, "audio.noise_468_qp_dbfs"),
+             repr(rep["audio"].keys()))
+
+
 def log_columns(ck, exe):
     rc1, _, err1 = E.run_cmd(exe, ["log", "--out", "plain.csv", "--kind", "audio", "r68.wav"])
     rc2, _, err2 = E.run_cmd(exe, ["log", "--out", "dbu.csv", "--kind", "audio", "--full-scale-dbu", "18", "r68.wav"])
@@ -222,6 +257,7 @@ def main():
         calibration(ck, exe)
         tables(ck, exe)
         modulation(ck, exe)
+        demodulated_noise(ck, exe)
         log_columns(ck, exe)
     ck.finish()
 

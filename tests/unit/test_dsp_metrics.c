@@ -877,6 +877,38 @@ START_TEST(tone_clear_among_sidebands)
 }
 END_TEST
 
+START_TEST(tone_on_a_mains_multiple)
+{
+    /* dsp/metrics.h, the tone decision: a line at a high multiple of the mains that is weaker than
+     * the hum is hum only as one of a row (a buzz: its neighbouring multiples stand above the noise
+     * too). 50 Hz hum at 0.4 with a lone 6 kHz tone at 0.1 (the 120th multiple; a SMPTE-like pair):
+     * the tone. The same with lines at 5950 and 6050 Hz as well: a buzz, no tone. */
+    for (int buzz = 0; buzz <= 1; buzz++) {
+        double *x = zeros(N_STAT);
+        add_noise(x, N_STAT, 1e-6, 43);
+        ts_add_sine(x, N_STAT, 0.4, 50.0, FS, 0.0);
+        ts_add_sine(x, N_STAT, 0.1, 6000.0, FS, 0.3);
+        if (buzz) {
+            ts_add_sine(x, N_STAT, 0.08, 5950.0, FS, 0.1);
+            ts_add_sine(x, N_STAT, 0.08, 6050.0, FS, 0.2);
+        }
+        ml_audio_config cfg = ml_audio_config_default();
+        ml_audio_result r;
+        ck_assert_int_eq(analyse_hop(x, N_STAT, NFFT, &cfg, &r), ML_OK);
+        free(x);
+        assert_in_range(&r, buzz ? "buzz rows" : "lone line on a multiple");
+        ck_assert_double_eq_tol(r.candidate_hz, 6000.0, 1e-3);
+        if (buzz) {
+            ck_assert_msg(!r.tone_present, "a row of mains multiples taken for a tone");
+            ck_assert_int_eq(r.tone_why, ML_WHY_TONE_ONLY_HUM);
+        } else {
+            ck_assert_msg(r.tone_present && r.tone_clear, "the lone 6 kHz line taken for hum");
+            ck_assert_double_eq_tol(r.fundamental_hz, 6000.0, 1e-3);
+        }
+    }
+}
+END_TEST
+
 START_TEST(tone_mode_forced_and_tone_hz)
 {
     double *x = zeros(N_DET);
@@ -1315,6 +1347,7 @@ static Suite *metrics_suite(void)
     tcase_add_test(tc, dc_leakage_is_no_tone);
     tcase_add_test(tc, tone_clear_six_db_over_hum);
     tcase_add_test(tc, tone_clear_among_sidebands);
+    tcase_add_test(tc, tone_on_a_mains_multiple);
     tcase_add_test(tc, tone_mode_forced_and_tone_hz);
     tcase_add_test(tc, thd_not_measurable_without_harmonic_in_band);
     tcase_add_test(tc, thd_noise_limited_is_a_bound);
