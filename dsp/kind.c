@@ -278,6 +278,22 @@ static double baseband(const ml_spectrum *spec, const double *psd, size_t nbins,
     return o.line_power;
 }
 
+/* Sidebands of power ps at fc +- fm_hz: IF (why_if), unless the band holds a line at fm_hz itself
+ * at least as strong (intermodulation of a tone with that line: audio, why_audio). Rules 2 and 3. */
+static void sideband_verdict(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, double p1,
+                             double floor, double fm_hz, double ps, ml_if_why why_audio, ml_if_why why_if,
+                             ml_if_evidence_result *r)
+{
+    const double bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec);
+    r->sideband_hz = fm_hz;
+    r->sideband_dbc = dbc(ps, p1);
+    const size_t cm = bin_of(fm_hz, bin_hz);
+    const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
+    r->baseband_dbc = dbc(pb, p1);
+    r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
+    r->why = pb >= ps ? why_audio : why_if;
+}
+
 /* The verdict of a symmetric pair ca, cb at bins ks and its mirror around fc (rule 2): IF, unless
  * the band holds a line at fm itself at least as strong (intermodulation: audio). */
 static void pair_verdict(const ml_spectrum *spec, const double *psd, size_t nbins, size_t kf, size_t ks,
@@ -287,14 +303,8 @@ static void pair_verdict(const ml_spectrum *spec, const double *psd, size_t nbin
     const double bin_hz = ml_spectrum_rate_hz(spec) / (double)ml_spectrum_nfft(spec);
     double fs_hz = (double)ks * bin_hz;
     ml_spectrum_get_frequency(spec, ks, &fs_hz);
-    const double fm = fabs(fs_hz - fc), ps = fmax(ca->line_power, cb->line_power);
-    r->sideband_hz = fm;
-    r->sideband_dbc = dbc(ps, p1);
-    const size_t cm = bin_of(fm, bin_hz);
-    const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
-    r->baseband_dbc = dbc(pb, p1);
-    r->verdict = pb >= ps ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
-    r->why = pb >= ps ? ML_IFW_SIDEBANDS_IMD : ML_IFW_SIDEBANDS;
+    sideband_verdict(spec, psd, nbins, kf, p1, floor, fabs(fs_hz - fc), fmax(ca->line_power, cb->line_power),
+                     ML_IFW_SIDEBANDS_IMD, ML_IFW_SIDEBANDS, r);
 }
 
 /* True when bin k lies in the lobe (with the 1 % tolerance of dsp/metrics.h) of a mains multiple
@@ -453,13 +463,7 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
         }
     }
     if (best > 0) {
-        r->sideband_hz = best_f;
-        r->sideband_dbc = dbc(best, p1);
-        const size_t cm = bin_of(best_f, bin_hz);
-        const double pb = ml_spectrum_clears_dc(spec, cm) ? baseband(spec, psd, nbins, cm, kf, floor) : 0.0;
-        r->baseband_dbc = dbc(pb, p1);
-        r->verdict = pb >= best ? ML_CHANNEL_AUDIO : ML_CHANNEL_IF;
-        r->why = pb >= best ? ML_IFW_HUM_IMD : ML_IFW_HUM_SIDEBANDS;
+        sideband_verdict(spec, psd, nbins, kf, p1, floor, best_f, best, ML_IFW_HUM_IMD, ML_IFW_HUM_SIDEBANDS, r);
         goto done;
     }
     /* rule 4: harmonics */
