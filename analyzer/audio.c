@@ -189,21 +189,7 @@ static void describe_analysis(const audio_pass *p, ml_report *rep)
              "%s window, %zu-point FFT (%.3f Hz bins), %zu segments, band %.1f..%.1f Hz",
              ml_window_name(p->sc.window), p->sc.nfft, rate / (double)p->sc.nfft,
              ml_spectrum_segments(p->spec), a->band_lo_hz, a->band_hi_hz);
-    if (p->sc.window != o->an.window)
-        ml_report_note(rep, "the %s window was used instead of %s: on a capture this short its narrower lobe "
-                            "is needed to resolve the mains lines",
-                       ml_window_name(p->sc.window), ml_window_name(o->an.window));
-    const double need_s = (double)p->plan.hum_min_frames / rate;
-    if (!p->plan.hum_fundamental_resolved)
-        ml_report_note(rep,
-                       "hum not measurable: the capture (%.3f s) is too short to tell the mains frequency "
-                       "from DC (at least %.3f s needed)",
-                       (double)p->seg->nframes / rate, need_s);
-    else if (!p->plan.hum_resolved)
-        ml_report_note(rep,
-                       "the capture (%.3f s) resolves the mains fundamental but not every multiple: hum is a "
-                       "lower bound (%.3f s needed for all)",
-                       (double)p->seg->nframes / rate, need_s);
+    ml_measure_plan_notes(rep, &p->plan, o->an.window, (double)p->seg->nframes / rate, 0.0);
 }
 
 /* The figures into the report, with the notes that qualify them and their intervals. */

@@ -212,6 +212,26 @@ void ml_measure_add_audio_none(ml_report *r, ml_audio_why why)
     ml_values_report(r, v, n);
 }
 
+void ml_measure_plan_notes(ml_report *rep, const ml_audio_plan *plan, ml_window_type preferred, double capture_s,
+                           double overhead_s)
+{
+    if (plan->spectrum.window != preferred)
+        ml_report_note(rep, "the %s window was used instead of %s: on a capture this short its narrower lobe "
+                            "is needed to resolve the mains lines",
+                       ml_window_name(plan->spectrum.window), ml_window_name(preferred));
+    const double need_s = (double)plan->hum_min_frames / plan->spectrum.rate_hz + overhead_s;
+    if (!plan->hum_fundamental_resolved)
+        ml_report_note(rep,
+                       "hum not measurable: the capture (%.3f s) is too short to tell the mains frequency "
+                       "from DC (at least %.3f s needed)",
+                       capture_s, need_s);
+    else if (!plan->hum_resolved)
+        ml_report_note(rep,
+                       "the capture (%.3f s) resolves the mains fundamental but not every multiple: hum is a "
+                       "lower bound (%.3f s needed for all)",
+                       capture_s, need_s);
+}
+
 void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *what, const char *re)
 {
     char cand[128] = "";
@@ -231,9 +251,10 @@ void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *wh
         return;
     }
     ml_report_add_text(r, "audio.measurement", "hum and noise");
+    const bool named = a->tone_why != ML_WHY_TONE_OFF && cand[0] != '\0';
     ml_report_note(r, "hum-and-noise measurement of %s (re %s, no tone figures): %s%s%s", what, re,
-                   ml_audio_why_text(a->tone_why), a->tone_why == ML_WHY_TONE_OFF ? "" : cand,
-                   a->tone_why == ML_WHY_TONE_OFF ? "" : " (--with-tone takes it as the tone)");
+                   ml_audio_why_text(a->tone_why), named ? cand : "",
+                   named ? " (--with-tone takes it as the tone)" : "");
 }
 
 bool ml_measure_dropout_notes(ml_report *rep, ml_segment *seg, const ml_dropout_result *r, bool left_out)

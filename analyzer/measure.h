@@ -48,6 +48,11 @@ void ml_measure_add_audio_none(ml_report *r, ml_audio_why why);
  * demodulated audio") that says why and what the hum and noise are relative to (`re`: "full
  * scale", "100 % modulation"). */
 void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *what, const char *re);
+/* The notes on the analysis transform of plan (ml_audio_plan_transform): a window other than the
+ * preferred one, and hum not measurable or a lower bound on a capture of capture_s seconds (the
+ * length needed: the plan's plus overhead_s, what the capture loses before the analysis). */
+void ml_measure_plan_notes(ml_report *rep, const ml_audio_plan *plan, ml_window_type preferred, double capture_s,
+                           double overhead_s);
 
 /* ml_finish_prepare for o's inputs (the recording or recordings A and B, the carrier reference)
  * and outputs; 0 with *files to release by ml_finish_files_free, or an exit status (error

@@ -368,6 +368,12 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
              "end), %s window, %zu-point FFT%s, peak hold %.3g ms/s, pinch-off floor %.2f %% of C",
              r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->an.window), r.rf_nfft,
              r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms, r.floor_pct);
+    const ml_audio_plan *plan = ml_modulation_get_audio_plan(p->mod);
+    const double rate = p->seg->info->rate_hz;
+    const size_t used = strlen(rep->analysis);
+    snprintf(rep->analysis + used, sizeof rep->analysis - used, "; demodulated audio: %s window, %zu-point FFT (%.3f Hz bins)",
+             ml_window_name(plan->spectrum.window), plan->spectrum.nfft, plan->spectrum.rate_hz / (double)plan->spectrum.nfft);
+    ml_measure_plan_notes(rep, plan, o->an.window, (double)p->seg->nframes / rate, 2.0 * (double)r.edge / rate);
     notes(p, &r, &lv, rep);
     ml_dropout_result *dr = malloc(sizeof *dr);
     if (dr != NULL && ml_dropout_get(p->drop, dr) == ML_OK && dr->nevents > 0) {

@@ -123,7 +123,81 @@ typedef struct {
     /* m NULL (ml_hum_analyze_psd, ml_line_measure): the line centres whose lobes are not noise */
     const size_t *slot;
     size_t nslot;
+    const struct skirt *sk; /* lines whose leakage is not signal (the tone search); NULL: none  */
 } ctx;
+
+/* ---- the skirts of known lines --------------------------------------------------------------- */
+
+/* Lines already accounted for (the mains lines, while the tone is looked for) and the reach of
+ * their leakage: with a window of high sidelobes (Hann, on a short capture) a strong line's skirt
+ * stands far above the noise many bins away, and a bin on it is no line of its own. */
+struct skirt {
+    size_t n;
+    double nu[ML_MAX_HUM];    /* the line's position in bins (fractional)                     */
+    double pw[ML_MAX_HUM];    /* its power (psd units at its peak)                             */
+    size_t reach[ML_MAX_HUM]; /* beyond this many bins its leakage is under 1 % of the psd     */
+};
+
+/* The window's leakage at offset d bins, its largest within half a bin of d: the envelope of the
+ * sidelobes, so that a line's position, known to a fraction of a bin, never leaves its skirt
+ * under-counted between two sidelobes (ml_window_leakage). */
+static double leak_envelope(ml_window_type win, size_t nfft, double d)
+{
+    double v = 0.0;
+    for (int i = -2; i <= 2; i++)
+        v = fmax(v, ml_window_leakage(win, nfft, d + 0.25 * i));
+    return v;
+}
+
+/* The leakage at bin k of the lines of s (each from +nu and its mirror -nu), in psd units. */
+static double skirt_at(const ctx *x, size_t k)
+{
+    const struct skirt *s = x->sk;
+    if (s == NULL)
+        return 0.0;
+    const ml_window_type win = ml_spectrum_window(x->spec);
+    const size_t nfft = ml_spectrum_nfft(x->spec);
+    double v = 0.0;
+    for (size_t i = 0; i < s->n; i++) {
+        const double d = (double)k - s->nu[i];
+        if (fabs(d) <= (double)s->reach[i])
+            v += s->pw[i] * (leak_envelope(win, nfft, d) + leak_envelope(win, nfft, (double)k + s->nu[i]));
+    }
+    return v;
+}
+
+/* Adds a line at nu bins of power pw to s; its reach is the first offset beyond its lobe where
+ * its leakage falls under 1 % of the psd on both sides (at most nbins). */
+static void skirt_add(const ctx *x, struct skirt *s, double nu, double pw)
+{
+    if (s->n >= ML_MAX_HUM || !(pw > 0))
+        return;
+    const ml_window_type win = ml_spectrum_window(x->spec);
+    const size_t nfft = ml_spectrum_nfft(x->spec), c = (size_t)llround(nu);
+    size_t d = x->lobe;
+    for (; d < x->nbins; d++) {
+        const double l = pw * leak_envelope(win, nfft, (double)d);
+        const bool lo = c < d || l < 0.01 * x->psd[c - d];
+        const bool hi = c + d >= x->nbins || l < 0.01 * x->psd[c + d];
+        if (lo && hi)
+            break;
+    }
+    s->nu[s->n] = nu;
+    s->pw[s->n] = pw;
+    s->reach[s->n] = d;
+    s->n++;
+}
+
+/* The skirts' leakage summed over the lobe around c, in power (lobe_sum's units / enbw). */
+static double skirt_lobe(const ctx *x, size_t c)
+{
+    if (x->sk == NULL)
+        return 0.0;
+    double v = 0.0;
+    for (size_t k = c > x->lobe ? c - x->lobe : 0; k <= c + x->lobe && k < x->nbins; k++)
+        v += skirt_at(x, k);
+    return v / x->enbw;
+}
 
 /* ml_spectrum_dof, or (a psd from elsewhere: no segment in spec) that of one segment, about two
  * per ENBW of bins. */
@@ -276,7 +350,7 @@ static void line_stats(const ctx *x, size_t c, double z, ml_component *o, double
 {
     size_t cnt = 0, n = 0;
     const double nd = local_density(x, c, &cnt);
-    const double p = lobe_sum(x->psd, x->nbins, c, x->lobe, &n) / x->enbw;
+    const double p = fmax(0.0, lobe_sum(x->psd, x->nbins, c, x->lobe, &n) / x->enbw - skirt_lobe(x, c));
     const double noise = fmax(nd, x->floor_bin) * (double)n / x->enbw;
     const double nu = cnt ? dof(x, cnt) : INFINITY;
     const double t = ml_f_quantile(x->dof_lobe, nu, z), tb = ml_f_quantile(x->dof_lobe, nu, Z_BOUND);
@@ -616,17 +690,20 @@ static size_t strongest(const double *psd, const unsigned char *m, size_t lo, si
 
 /* The strongest bin in [lo, hi] farther than half from every one of the n ascending centres;
  * NONE_BIN when none. */
-static size_t strongest_skipping(const double *psd, size_t lo, size_t hi, const size_t *centre, size_t n,
-                                 size_t half)
+static size_t strongest_skipping(const ctx *x, size_t lo, size_t hi, const size_t *centre, size_t n, size_t half)
 {
     size_t best = NONE_BIN, j = 0;
+    double vbest = 0.0;
     for (size_t k = lo; k <= hi; k++) {
         while (j < n && centre[j] + half < k)
             j++;
         if (j < n && centre[j] <= k + half)
             continue;
-        if (best == NONE_BIN || psd[k] > psd[best])
+        const double v = x->psd[k] - skirt_at(x, k); /* a bin on a skipped line's skirt is not a line */
+        if (best == NONE_BIN || v > vbest) {
             best = k;
+            vbest = v;
+        }
     }
     return best;
 }
@@ -740,7 +817,7 @@ static void look_at(const ctx *x, size_t c, tone_look *t)
     if (!ml_spectrum_clears_dc(x->spec, c)) {
         own = 0.0;
         for (size_t k = c > 2 * x->lobe ? c - x->lobe : x->lobe; k <= c + x->lobe && k < x->nbins; k++)
-            own += x->psd[k];
+            own += fmax(0.0, x->psd[k] - skirt_at(x, k));
         own /= x->enbw;
     }
     t->margin_db = n3 > 0 && own > 0 ? 10.0 * log10(own / n3) : (own > 0 ? INFINITY : NAN);
@@ -977,6 +1054,7 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
     /* 3. the candidate and the tone decision */
     size_t cand = NONE_BIN;
     bool at_mains = false;
+    struct skirt sk = {0}; /* the mains lines' skirts, while the tone is looked for */
     if (cfg->tone_hz > 0) {
         const size_t c = nearest_bin(cfg->tone_hz, bin_hz);
         const size_t lo = c > klo + lobe ? c - lobe : klo, hi = c + lobe < khi ? c + lobe : khi;
@@ -985,9 +1063,13 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         /* outside the lobes of the mains lines */
         size_t skip[ML_MAX_HUM], nskip = 0;
         for (size_t i = 0; mains_found && i < fam->n; i++)
-            if (fam->comp[i].above_noise)
+            if (fam->comp[i].above_noise) {
                 skip[nskip++] = fam->bin[i];
-        cand = strongest_skipping(psd, klo, khi, skip, nskip, lobe);
+                skirt_add(&x, &sk, fam->f_known[i] ? fam->f_est[i] / bin_hz : (double)fam->bin[i],
+                          fam->comp[i].line_power);
+            }
+        x.sk = &sk;
+        cand = strongest_skipping(&x, klo, khi, skip, nskip, lobe);
         if (cand == NONE_BIN && cfg->tone_mode == ML_TONE_FORCE)
             cand = ks;
     }
@@ -999,22 +1081,29 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         out->candidate_hz = (double)cand * bin_hz;
         ml_spectrum_get_frequency(spec, cand, &out->candidate_hz);
         out->candidate_margin_db = look.margin_db;
-        /* a higher multiple of the mains is hum unless 6 dB above the strongest mains line */
+        /* a multiple of the mains is hum unless 6 dB above the strongest mains line */
         if (mains_found && cfg->tone_hz == 0) {
             const double fm = fam->mains_measured_hz > 0 ? fam->mains_measured_hz : fam->mains;
             const double order = nearbyint(out->candidate_hz / fm);
-            if (order > cfg->hum_harmonics
-                && fabs(out->candidate_hz - order * fm) <= fmax(bin_hz, 0.05 * order)
+            if (order >= 1 && fabs(out->candidate_hz - order * fm) <= fmax(bin_hz, 0.05 * order)
                 && look.power < 4.0 * fam->base_power) {
-                /* ... and a line of a buzz: a neighbouring multiple stands above the noise too (a
-                 * lone line that happens to fall on a multiple, 6 kHz beside 50 Hz hum, is a tone) */
-                ml_component nb[2];
-                for (int i = 0; i < 2; i++)
-                    line_stats(&x, nearest_bin((order + (i ? 1.0 : -1.0)) * fm, bin_hz), Z_TONE, &nb[i], NULL);
-                at_mains = nb[0].above_noise || nb[1].above_noise;
+                if (order <= cfg->hum_harmonics) {
+                    /* one the scan left out (its lobe overlaps the previous multiple's on a short
+                     * capture): hum, not a test tone */
+                    at_mains = true;
+                } else {
+                    /* a higher one, if a line of a buzz: a neighbouring multiple stands above the
+                     * noise too (a lone line that happens to fall on a multiple, 6 kHz beside 50 Hz
+                     * hum, is a tone) */
+                    ml_component nb[2];
+                    for (int i = 0; i < 2; i++)
+                        line_stats(&x, nearest_bin((order + (i ? 1.0 : -1.0)) * fm, bin_hz), Z_TONE, &nb[i], NULL);
+                    at_mains = nb[0].above_noise || nb[1].above_noise;
+                }
             }
         }
     }
+    x.sk = NULL;
     out->tone_clear = look.clear && !at_mains;
     switch (cfg->tone_mode) {
     case ML_TONE_NONE:

@@ -39,6 +39,7 @@ struct ml_modulation {
     ml_spectrum *rf, *aud; /* the captured signal; the demodulated audio (units of C)        */
     ml_blocks *blocks;     /* uncertainty blocks on aud, or NULL                               */
     size_t decim;          /* the audio spectrum takes every decim-th envelope sample         */
+    ml_audio_plan plan;    /* aud's transform (at rate / decim) and what it resolves           */
     double hold_s;
     /* feed half */
     double inv_c;          /* 1 / provisional C                                               */
@@ -136,17 +137,42 @@ static ml_status audio_spectrum(ml_modulation *q, int64_t env_frames)
 {
     const ml_modulation_config *c = &q->cfg;
     const double rate = c->rate_hz;
+    const bool narrow = q->bw + q->transition <= rate / 4;
     q->decim = 1;
-    if (q->bw + q->transition <= rate / 4 && ml_resolution_nfft(rate, env_frames, c->resolution) >= 512
-        && ml_resolution_nfft(rate / 2, env_frames / 2, c->resolution)
-               == ml_resolution_nfft(rate, env_frames, c->resolution) / 2)
-        q->decim = 2;
-    ml_spectrum_config sc = ml_spectrum_config_default(rate / (double)q->decim);
-    sc.window = c->window;
-    sc.nfft = ml_resolution_nfft(rate / (double)q->decim, env_frames / (int64_t)q->decim, c->resolution);
-    sc.hop = ml_resolution_hop(sc.nfft, c->resolution);
-    if (env_frames <= 0 || sc.nfft == 0)
-        return ML_ENOSIGNAL;
+    ml_spectrum_config sc;
+    if (c->resolution == ML_RESOLUTION_SPAN) {
+        /* a whole recording: the audio measurement's own transform (ml_audio_plan_transform), so
+         * that a short capture resolves the mains lines as it does for audio, the envelope's DC
+         * (C itself) removed from each segment */
+        if (env_frames < 256)
+            return ML_ENOSIGNAL;
+        ml_audio_plan full, half;
+        ml_status st = ml_audio_plan_transform(rate, env_frames, c->window, c->audio.mains_hz, &full);
+        if (st != ML_OK)
+            return st;
+        q->plan = full;
+        if (narrow && full.spectrum.nfft >= 512
+            && ml_audio_plan_transform(rate / 2, env_frames / 2, c->window, c->audio.mains_hz, &half) == ML_OK
+            && half.spectrum.nfft == full.spectrum.nfft / 2 && half.spectrum.window == full.spectrum.window
+            && half.hum_resolved == full.hum_resolved
+            && half.hum_fundamental_resolved == full.hum_fundamental_resolved) {
+            q->decim = 2;
+            q->plan = half;
+        }
+        sc = q->plan.spectrum;
+    } else {
+        if (narrow && ml_resolution_nfft(rate, env_frames, c->resolution) >= 512
+            && ml_resolution_nfft(rate / 2, env_frames / 2, c->resolution)
+                   == ml_resolution_nfft(rate, env_frames, c->resolution) / 2)
+            q->decim = 2;
+        sc = ml_spectrum_config_default(rate / (double)q->decim);
+        sc.window = c->window;
+        sc.nfft = ml_resolution_nfft(rate / (double)q->decim, env_frames / (int64_t)q->decim, c->resolution);
+        sc.hop = ml_resolution_hop(sc.nfft, c->resolution);
+        if (env_frames <= 0 || sc.nfft == 0)
+            return ML_ENOSIGNAL;
+        q->plan = (ml_audio_plan){.spectrum = sc, .hum_resolved = true, .hum_fundamental_resolved = true};
+    }
     ml_status st = ml_spectrum_create(&sc, &q->aud);
     if (st != ML_OK || !c->uncertainty)
         return st;
@@ -688,6 +714,11 @@ ml_status ml_modulation_get_uncertainty(const ml_modulation *q, ml_modulation_un
 const ml_spectrum *ml_modulation_get_spectrum(const ml_modulation *q)
 {
     return q ? q->rf : NULL;
+}
+
+const ml_audio_plan *ml_modulation_get_audio_plan(const ml_modulation *q)
+{
+    return q ? &q->plan : NULL;
 }
 
 const ml_spectrum *ml_modulation_get_audio_spectrum(const ml_modulation *q)

@@ -241,6 +241,11 @@ const ml_spectrum *ml_modulation_get_spectrum(const ml_modulation *q);
 /* The Welch spectrum of the demodulated audio (units of C: a 100 % sine is amplitude 1) that
  * ml_modulation_result.audio_result was measured on (NULL for NULL q). */
 const ml_spectrum *ml_modulation_get_audio_spectrum(const ml_modulation *q);
+/* That spectrum's transform (at the rate over the decimation it takes) and whether it resolves the
+ * mains lines: for ML_RESOLUTION_SPAN the audio measurement's plan (ml_audio_plan_transform, on
+ * the envelope samples of the span); for ML_RESOLUTION_WINDOW the window's transform, resolved
+ * taken as true. NULL for NULL q. */
+const ml_audio_plan *ml_modulation_get_audio_plan(const ml_modulation *q);
 /* Worst margin of the captured spectrum against an emission mask referred to C's power
  * (ml_rf_mask_margin). ML_ENOSIGNAL when the mask lies outside the captured band. */
 ml_status ml_modulation_get_mask_margin(const ml_modulation *q, const ml_mask *mask, double *margin_db,

@@ -160,7 +160,7 @@ typedef struct {
     double duration_s;
     double start_s, analysed_s;
     char limits_path[ML_REPORT_PATH_LEN]; /* "" when none                                   */
-    char analysis[320];      /* method summary: window, nfft, segments                     */
+    char analysis[512];      /* method summary: window, nfft, segments                     */
     char settings[ML_REPORT_SETTINGS_LEN]; /* settings and calibration in force ("" none):
                                 * printed in every format when set (ml_report_settings)     */
     size_t u_blocks;         /* blocks behind the uncertainties (0: none estimated)         */
