@@ -280,6 +280,29 @@ static double correction(const ml_analysis_opts *an, int channel, const ml_audio
     return c;
 }
 
+/* The weighted noise figures of v[n] as bounds where the unweighted noise of a lies at the
+ * analysis' own floor (window leakage and rounding, dsp/metrics.h): they sum the same bins, so they
+ * hold that floor too -- the noise an upper bound, the signal-to-noise ratio a lower one. */
+static void weighted_at_floor(const ml_audio_result *a, bool measured, ml_value *v, size_t n)
+{
+    if (!measured || a->figures.noise.state != ML_FIG_UPPER || a->figures.noise.why != ML_WHY_AT_FLOOR)
+        return;
+    static const char *const noise[] = {"audio.noise_a_dbfs", "audio.noise_468_dbfs", "audio.noise_a_dbu"};
+    for (size_t i = 0; i < n; i++) {
+        if (!isfinite(v[i].value) || v[i].state != ML_FIG_MEASURED)
+            continue;
+        for (size_t j = 0; j < sizeof noise / sizeof *noise; j++)
+            if (strcmp(v[i].name, noise[j]) == 0) {
+                v[i].state = ML_FIG_UPPER;
+                v[i].why = ml_audio_why_text(ML_WHY_AT_FLOOR);
+            }
+        if (strcmp(v[i].name, "audio.snr_a_db") == 0) {
+            v[i].state = ML_FIG_LOWER;
+            v[i].why = ml_audio_why_text(ML_WHY_AT_FLOOR);
+        }
+    }
+}
+
 void ml_bench_audio_report(const ml_bench_pass *p, const ml_analysis_opts *an, int channel,
                            const ml_spectrum *spec, const ml_audio_result *a, bool ok, double rms_dbfs,
                            ml_report *rep)
@@ -297,6 +320,7 @@ void ml_bench_audio_report(const ml_bench_pass *p, const ml_analysis_opts *an, i
     }
     ml_value v[ML_VALUES_MAX];
     const size_t nv = ml_values_bench(&nf, &vf, volts, an->load_ohms > 0, v);
+    weighted_at_floor(a, measured, v, nv);
     const bool tone = ok && a->tone_present;
     /* the quasi-peak reading is a noise measurement: reported only without a test tone */
     for (size_t i = 0; i < nv; i++)
@@ -331,6 +355,7 @@ void ml_bench_demod_noise_report(const ml_spectrum *aud, const ml_audio_result *
     const bool measured = ok && aud != NULL && ml_bench_noise(aud, a, NULL, &nf) == ML_OK;
     ml_value v[ML_VALUES_MAX];
     const size_t nv = ml_values_bench(&nf, NULL, false, false, v);
+    weighted_at_floor(a, measured, v, nv);
     for (size_t i = 0; i < nv; i++) {
         if (strcmp(v[i].name, "audio.noise_468_qp_dbfs") == 0)
             continue; /* the meter reads an audio pass's captured samples only */

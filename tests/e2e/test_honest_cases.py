@@ -171,6 +171,13 @@ def check_short(ck, exe):
         ck.close(name + " hum.level_dbfs = least-squares hum power", got, hum_true, 0.3,
                  "IEEE 1057 3-parameter fits of the known lines; 0.3 dB: window scalloping of a short transform")
         ck.check(name + " hum a measurement (not a bound)", bound(rep, "hum.level_dbfs") == "", bound(rep, "hum.level_dbfs"))
+        # the weighted noise sums the unweighted noise's bins (docs/references.md 1 and 2 weight
+        # them): where that noise is a bound at the analysis' floor, so are they
+        nb = bound(rep, "audio.noise_dbfs")
+        ck.check(name + " noise_a / noise_468 / snr_a carry the unweighted noise's bound (%r)" % nb,
+                 bound(rep, "audio.noise_a_dbfs") == nb and bound(rep, "audio.noise_468_dbfs") == nb
+                 and bound(rep, "audio.snr_a_db") == {"upper": "lower", "": ""}[nb],
+                 repr([bound(rep, k) for k in ("audio.noise_a_dbfs", "audio.noise_468_dbfs", "audio.snr_a_db")]))
     # 0.1 s: the mains fundamental may be resolved, its multiples not: never a floor value
     rc, rep, _, err = E.run_json(exe, ["short0.1.wav"])
     if ck.check("short0.1 runs", rc == 0 and rep is not None, err.strip()):
