@@ -192,6 +192,31 @@ static void describe_analysis(const audio_pass *p, ml_report *rep)
     ml_measure_plan_notes(rep, &p->plan, o->an.window, (double)p->seg->nframes / rate, 0.0);
 }
 
+/* Every spectral figure read from segments that all hold a dropout says so (the level figures of
+ * the samples, which leave dropouts out, and the frequencies keep their marks): a gap lowers the
+ * tone and adds its edges' splatter to the noise. */
+static void dropout_qualifiers(ml_report *rep)
+{
+    static const char *const kept[] = {"audio.rms_dbfs", "audio.peak_dbfs", "audio.dc_offset_pct",
+                                       "audio.clipped_samples", "audio.fundamental_hz", "hum.mains_hz",
+                                       "audio.measurement"};
+    for (size_t i = 0; i < rep->nmetrics; i++) {
+        ml_metric *m = &rep->metrics[i];
+        if (!m->valid || (strncmp(m->name, "audio.", 6) != 0 && strncmp(m->name, "hum.", 4) != 0)
+            || strncmp(m->name, "audio.imd", 9) == 0)
+            continue;
+        bool keep = false;
+        for (size_t j = 0; j < sizeof kept / sizeof *kept; j++)
+            keep = keep || strcmp(m->name, kept[j]) == 0;
+        if (keep)
+            continue;
+        char q[ML_REPORT_WHY_LEN];
+        snprintf(q, sizeof q, "%s%sincludes a dropout (every analysis segment holds one)", m->qualifier,
+                 m->qualifier[0] ? "; " : "");
+        ml_report_qualify(rep, m->name, "%s", q);
+    }
+}
+
 /* The figures into the report, with the notes that qualify them and their intervals. */
 static int report(audio_pass *p, const char *reason, ml_report *rep)
 {
@@ -202,7 +227,8 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     ml_dropout_get(p->drop, p->dr);
     const bool excluded = ml_measure_dropout_notes(rep, p->seg, p->dr, true);
     /* the segments free of dropouts, when any are (else all of them, with the note above) */
-    if (excluded && ml_spectrum_use_selected(p->spec, 1) != ML_OK)
+    const bool held = excluded && ml_spectrum_use_selected(p->spec, 1) != ML_OK;
+    if (held)
         ml_report_note(rep, "every analysis segment holds a dropout: the figures include them");
     const ml_stats *s = excluded && p->stats.count > 0 ? &p->stats : &p->stats_all;
     ml_audio_result ar;
@@ -242,6 +268,8 @@ static int report(audio_pass *p, const char *reason, ml_report *rep)
     ml_uncertainty_report(p->blocks, rep);
     ml_bench_audio_report(p->bench, &o->an, (int)o->in.channel, p->spec, &ar, ok, lv.rms_dbfs, rep);
     ml_imd_report(rep, ok ? p->spec : NULL, &o->an, ok && ar.tone_present); /* analyzer/imd.c */
+    if (held)
+        dropout_qualifiers(rep);
     return 0;
 }
 

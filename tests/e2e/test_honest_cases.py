@@ -278,6 +278,25 @@ def check_dropout(ck, exe):
     sinad = db(0.125 / (1e-8 * BAND_SHARE + 2 ** -46 / 3 * BAND_SHARE))
     ck.close("dropout: SINAD of the tone in its noise (the gap left out)", E.get(rep, "audio.sinad_db"), sinad, 0.3,
              "0.5 sin in white noise sigma 1e-4 plus 24-bit rounding")
+    # a 1.1 s grab at 44.1 kHz with 80 ms of zeros at 0.45 s: every analysis segment holds it, so the
+    # spectral figures include it and each says so; the sample levels leave it out (AES17 dBFS of the
+    # samples outside the gap, docs/references.md 5)
+    fs = 44100
+    t = np.arange(int(1.1 * fs)) / fs
+    x = 0.3 * np.sin(2 * np.pi * 700 * t) + np.random.default_rng(8).normal(0, 1e-4, t.size)
+    x[int(0.45 * fs):int(0.53 * fs)] = 0.0
+    sf.write("dropout_short.wav", x, fs, subtype="PCM_24")
+    rc, rep, _, err = E.run_json(exe, ["dropout_short.wav"])
+    if ck.check("dropout_short runs", rc == 0 and rep is not None, err.strip()):
+        qual = rep.get("qualifiers", {}).get("audio", {})
+        spectral = ("thdn_db", "sinad_db", "snr_db", "noise_dbfs", "fundamental_dbfs", "noise_a_dbfs")
+        ck.check("dropout_short: every spectral figure says it includes the dropout",
+                 all("includes a dropout" in qual.get(k, "") for k in spectral if E.get(rep, "audio." + k) is not None),
+                 repr({k: qual.get(k) for k in spectral}))
+        keep = np.r_[x[:int(0.45 * fs)], x[int(0.53 * fs):]]
+        ck.close("dropout_short: audio.rms_dbfs of the samples outside the gap", E.get(rep, "audio.rms_dbfs"),
+                 db(np.mean(keep ** 2) / 0.5), 0.01, "AES17 dBFS (docs/references.md 5)")
+        ck.check("dropout_short: the sample levels carry no such qualifier", "rms_dbfs" not in qual, repr(qual.get("rms_dbfs")))
 
 
 def check_compare_and_limits(ck, exe):
