@@ -227,8 +227,8 @@ void ml_measure_plan_notes(ml_report *rep, const ml_audio_plan *plan, ml_window_
                        capture_s, need_s);
     else if (!plan->hum_resolved)
         ml_report_note(rep,
-                       "the capture (%.3f s) resolves the mains fundamental but not every multiple: hum is a "
-                       "lower bound (%.3f s needed for all)",
+                       "the capture (%.3f s) resolves the mains fundamental but not every multiple: hum leaves "
+                       "the unresolved multiples out (%.3f s needed for all)",
                        capture_s, need_s);
 }
 

@@ -124,6 +124,9 @@ typedef struct {
     const size_t *slot;
     size_t nslot;
     const struct skirt *sk; /* lines whose leakage is not signal (the tone search); NULL: none  */
+    /* the lines whose leakage makes the floor (floor_per_bin's), for the floor at a given bin */
+    size_t floor_n;
+    double floor_nu[2], floor_pw[2], floor_round;
 } ctx;
 
 /* ---- the skirts of known lines --------------------------------------------------------------- */
@@ -147,6 +150,27 @@ static double leak_envelope(ml_window_type win, size_t nfft, double d)
     for (int i = -2; i <= 2; i++)
         v = fmax(v, ml_window_leakage(win, nfft, d + 0.25 * i));
     return v;
+}
+
+/* The analysis floor around bin c (psd units): the leakage of floor_per_bin's lines averaged over
+ * c's lobe, plus the transform's rounding. A window of high sidelobes leaks far more near a strong
+ * line than far from it: the band's mean (floor_bin) would hide weak lines far away and flatter
+ * those close by. floor_bin where the lines are not known. */
+static double floor_at(const ctx *x, size_t c)
+{
+    if (x->floor_n == 0)
+        return x->floor_bin;
+    const ml_window_type win = ml_spectrum_window(x->spec);
+    const size_t nfft = ml_spectrum_nfft(x->spec);
+    double s = 0.0;
+    size_t n = 0;
+    /* only the skirts count: a bin in a floor line's own lobe holds the line, not its leakage */
+    for (size_t k = c > x->lobe ? c - x->lobe : 0; k <= c + x->lobe && k < x->nbins; k++, n++)
+        for (size_t l = 0; l < x->floor_n; l++)
+            if (x->floor_pw[l] > 0 && fabs((double)k - x->floor_nu[l]) > (double)x->lobe)
+                s += x->floor_pw[l] * (leak_envelope(win, nfft, (double)k - x->floor_nu[l])
+                                       + leak_envelope(win, nfft, (double)k + x->floor_nu[l]));
+    return (n ? s / (double)n : 0.0) + x->floor_round;
 }
 
 /* The leakage at bin k of the lines of s (each from +nu and its mirror -nu), in psd units. */
@@ -351,7 +375,7 @@ static void line_stats(const ctx *x, size_t c, double z, ml_component *o, double
     size_t cnt = 0, n = 0;
     const double nd = local_density(x, c, &cnt);
     const double p = fmax(0.0, lobe_sum(x->psd, x->nbins, c, x->lobe, &n) / x->enbw - skirt_lobe(x, c));
-    const double noise = fmax(nd, x->floor_bin) * (double)n / x->enbw;
+    const double noise = fmax(nd, floor_at(x, c)) * (double)n / x->enbw;
     const double nu = cnt ? dof(x, cnt) : INFINITY;
     const double t = ml_f_quantile(x->dof_lobe, nu, z), tb = ml_f_quantile(x->dof_lobe, nu, Z_BOUND);
     o->power = p;
@@ -808,7 +832,7 @@ static void look_at(const ctx *x, size_t c, tone_look *t)
     double third = (double)c * (pow(2.0, 1.0 / 6.0) - pow(2.0, -1.0 / 6.0));
     if (third < (double)(2 * x->lobe + 1))
         third = (double)(2 * x->lobe + 1);
-    const double nd = fmax(local_density_robust(x, c, (size_t)ceil(third / 2.0)), x->floor_bin);
+    const double nd = fmax(local_density_robust(x, c, (size_t)ceil(third / 2.0)), floor_at(x, c));
     const double n3 = nd * third / x->enbw;
     /* a lobe that reaches into DC's holds DC's leakage too: only its bins beyond DC's lobe are the
      * line's own (the whole lobe of an unmodulated carrier's envelope, flat noise beside DC's
@@ -1020,6 +1044,10 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
         const double nu[2] = {f_strong / bin_hz, 0.0};
         const double pw[2] = {component_power(psd, nbins, ks, lobe, enbw), psd[0]};
         x.floor_bin = floor_per_bin(&x, nu, pw, 2, psd[ks]);
+        x.floor_n = 2;
+        memcpy(x.floor_nu, nu, sizeof nu);
+        memcpy(x.floor_pw, pw, sizeof pw);
+        x.floor_round = ROUNDING_PER_BIN * fmax(1.0, (double)nfft / 4096.0) * psd[ks];
     }
     out->floor_density = x.floor_bin / enbw;
 
@@ -1207,14 +1235,15 @@ ml_status ml_audio_analyze(const ml_spectrum *spec, const ml_audio_config *cfg, 
     /* hum and mains: the final scan's lines; bounds where none stands above the noise */
     const double lobe_floor = x.floor_bin * (double)(2 * lobe + 1) / enbw;
     const ml_figure given = fig(ML_FIG_MEASURED, cfg->mains_hz, ML_WHY_MAINS_GIVEN);
+    double fin_hum = 0.0; /* the final scan's mains lines (none may remain above its noise) */
+    for (size_t i = 0; i < fin.n; i++)
+        if (fin.comp[i].above_noise)
+            fin_hum += fin.comp[i].line_power;
     if (!s50.any_resolvable && !s60.any_resolvable && !fin.any_resolvable) {
         F->hum = fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNRESOLVED);
         F->mains_hz = cfg->mains_hz > 0 ? given : fig(ML_FIG_NONE, NAN, ML_WHY_HUM_UNRESOLVED);
-    } else if (fin.ndet > 0) {
-        double h = 0.0;
-        for (size_t i = 0; i < fin.n; i++)
-            if (fin.comp[i].above_noise)
-                h += fin.comp[i].line_power;
+    } else if (fin.ndet > 0 && fin_hum > 0) {
+        const double h = fin_hum;
         F->hum = fin.fund_resolved && !fin.multiples_unresolved ? fig(ML_FIG_MEASURED, h, ML_WHY_OK)
                                                                  : fig(ML_FIG_LOWER, h, ML_WHY_HUM_PARTIAL);
         F->mains_hz = cfg->mains_hz > 0 ? given : fig(ML_FIG_MEASURED, mains, ML_WHY_OK);
