@@ -14,6 +14,7 @@
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
+#include <sys/stat.h>
 
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
@@ -221,8 +222,27 @@ ml_status ml_log_register(const ml_logger *L, ml_output_set *set, const char *ro
     return st;
 }
 
+/* A file whose name the log made (the events file beside --out, a rotated period's file, a new
+ * log's "-N"): never written through a symbolic link, as the state is not. */
+static int derived_not_link(const char *path, const char *given)
+{
+    struct stat sb;
+    if (given && strcmp(path, given) == 0)
+        return 0; /* named by the user: io/output.h's rules (a link to a regular file is followed) */
+    if (lstat(path, &sb) == 0 && S_ISLNK(sb.st_mode))
+        return ml_cli_error("%s: is a symbolic link, and a log never writes a file it named itself through a link; "
+                            "nothing was changed: remove it or choose another --out",
+                            path);
+    return 0;
+}
+
 int ml_log_check_paths(ml_logger *L, const char *rows, const char *events)
 {
+    int rc = derived_not_link(rows, L->o->out);
+    if (rc == 0)
+        rc = derived_not_link(events, L->o->events);
+    if (rc != 0)
+        return rc;
     ml_output_set *set = NULL;
     ml_output *plot = NULL;
     const char *bad = rows;
@@ -305,6 +325,8 @@ int ml_log_open_outputs(ml_logger *L, int64_t period, char *last_row, size_t las
         return refuse(L, L->rows, false);
     if (me == ML_LOGFILE_KIN || me == ML_LOGFILE_FOREIGN)
         return refuse(L, L->events, true);
+    if ((rc = ml_log_check_state(L)) != 0)
+        return rc;
     L->period = period;
     snprintf(last_row, last_len, "%s", ml_logfile_last(L->rows));
     return 0;
