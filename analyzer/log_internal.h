@@ -109,6 +109,8 @@ typedef struct {
     double chg_old_start[ML_LOG_NCHG], chg_old_in[ML_LOG_NCHG]; /* offsets of a restored open
                                                                    change's start, its in-run */
     ml_spectrum *spec;     /* the step's spectrum                                            */
+    ml_spectrum *mspec;    /* the interval's spectrum on measure's transform, for the mains vote
+                              (real input, --mains not given; else NULL)                        */
     size_t nbins;
 
     /* what the listener hears (if/iq: the envelope of a demodulator of its own) */
