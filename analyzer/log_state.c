@@ -755,6 +755,11 @@ int ml_log_restore_state(ml_logger *L)
     }
     v = ok ? counted(L, &s, "buzz", &n) : NULL;
     ok = ok && v && ml_buzz_restore(L->buzz, v, n) == ML_OK;
+    /* a stop closed the buzz with the impulses it held: they are counted; the run goes on with
+     * the impulses after the stop alone (restored, the detector would count them again in a new
+     * buzz starting before the stop) */
+    if (ok && closed)
+        ml_buzz_reset(L->buzz);
     double aw[ML_AWEIGHT_STATE + 1], base[1], cnt[1], bz[3], hf[3];
     ok = ok && numbers(&s, "aweight", aw, ML_AWEIGHT_STATE + 1) && numbers(&s, "imp_base", base, 1)
          && numbers(&s, "imp_counted", cnt, 1) && numbers(&s, "buzz_peak", bz, 3) && numbers(&s, "hf", hf, 3)

@@ -153,6 +153,35 @@ def main():
         _, err = p.communicate(timeout=E.RUN_TIMEOUT_S)
         c.check("a link put at the state's name meanwhile: its target never written",
                 swapped and open("precious2.txt").read() == "precious too\n", "stderr %r" % err.decode())
+
+        # a stop (SIGTERM) inside a buzz, then the same command again: no impulse counted twice --
+        # the buzz closed at the stop and the one after it do not overlap, and together they hold
+        # at most the impulses the capture has (constructed: 100 Hz clicks from 10 to 20 s)
+        t = np.arange(30 * FS) / FS
+        x = 0.001 * np.random.default_rng(9).standard_normal(len(t))
+        clicks = np.arange(10.0, 20.0, 0.01)
+        for tc in clicks:
+            i = int(round(tc * FS))
+            x[i:i + 10] += 0.2 * np.hanning(10)
+        E.write("buzz.wav", x.astype(np.float32), FS, "FLOAT")
+        a = ["buzz.wav", "--out", "z.csv", "--start-time", "2024-01-01T00:00:00Z"]
+        p = subprocess.Popen([exe, "log"] + a + ["--pace", "10"], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline and p.poll() is None:  # wait until 14 rows: inside the buzz
+            if os.path.exists("z.csv") and open("z.csv", "rb").read().count(b"\n") >= 16:
+                break
+            time.sleep(0.02)
+        p.send_signal(signal.SIGTERM)
+        p.communicate(timeout=E.RUN_TIMEOUT_S)
+        rc, _, err = log(exe, a)
+        buzz = [r for r in E.log_dicts("z-events.csv") if r["kind"] == "buzz"]
+        spans = sorted((float(b["start_offset_s"]), float(b["end_offset_s"])) for b in buzz)
+        n = sum(int(b["detail"].split(" ")[0]) for b in buzz)
+        c.check("stop inside a buzz, resumed: the buzz events do not overlap",
+                rc == 0 and len(spans) >= 1 and all(spans[i][1] <= spans[i + 1][0] for i in range(len(spans) - 1)),
+                "spans %r, %r" % (spans, err))
+        c.check("stop inside a buzz, resumed: at most the %d constructed impulses counted" % len(clicks),
+                0 < n <= len(clicks), "%d impulses in %d buzz events" % (n, len(buzz)))
     c.finish()
 
 
