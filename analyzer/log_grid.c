@@ -72,6 +72,13 @@ ml_status ml_log_make_objects(ml_logger *L)
     sc.complex_input = L->is_complex;
     if ((st = ml_spectrum_create(&sc, &L->spec)) != ML_OK || (st = make_detectors(L)) != ML_OK)
         return st;
+    if (!L->is_complex && !L->mains_given) {
+        /* the mains vote: measure's transform for a capture of an interval's length */
+        ml_audio_plan plan;
+        if ((st = ml_audio_plan_transform(rate, L->ival_frames, L->o->an.window, 0, &plan)) != ML_OK
+            || (st = ml_spectrum_create(&plan.spectrum, &L->mspec)) != ML_OK)
+            return st;
+    }
     L->nbins = ml_spectrum_nbins(L->spec);
     ml_stats_init(&L->st, L->info->bits >= 2 && L->info->bits <= 32 ? L->info->bits : 24);
     L->psd = calloc(L->nbins, sizeof *L->psd);
@@ -94,6 +101,7 @@ void ml_log_free_objects(ml_logger *L)
     for (int w = 0; w < ML_LOG_NCHG; w++)
         ml_change_destroy(L->chg[w]);
     ml_spectrum_destroy(L->spec);
+    ml_spectrum_destroy(L->mspec);
     ml_modulation_destroy(L->mod);
     free(L->psd);
     free(L->psd_sum);
@@ -128,6 +136,8 @@ void ml_log_reset_interval(ml_logger *L)
     memset(L->psd_sum, 0, L->nbins * sizeof *L->psd_sum);
     L->nspectra = L->nsegments = 0;
     L->note[0] = '\0';
+    if (L->mspec)
+        ml_spectrum_reset(L->mspec);
 }
 
 /* ---- the modulation analysis of an interval ---------------------------------------------------- */
@@ -309,6 +319,8 @@ static void step_spectrum(ml_logger *L, const float *b, size_t m)
 {
     if (!L->is_complex) {
         ml_spectrum_push(L->spec, L->mono, m);
+        if (L->mspec)
+            ml_spectrum_push(L->mspec, L->mono, m);
         return;
     }
     /* I and Q from the frames as (re, im) pairs */
@@ -363,6 +375,8 @@ int ml_log_advance(ml_logger *L, const float *buf, size_t n)
             L->lost_frames += (int64_t)m;
             /* no spectrum, filter or envelope spans a gap */
             ml_spectrum_reset(L->spec);
+            if (L->mspec)
+                ml_spectrum_reset(L->mspec);
             ml_aweight_reset(L->aw);
             L->mod_span = false;
         }

@@ -19,6 +19,7 @@
 #include <stdbool.h>
 #include <stdint.h>
 #include <stdio.h>
+#include <sys/types.h>
 
 #include "analyzer/log.h"
 #include "dsp/am.h"
@@ -108,6 +109,8 @@ typedef struct {
     double chg_old_start[ML_LOG_NCHG], chg_old_in[ML_LOG_NCHG]; /* offsets of a restored open
                                                                    change's start, its in-run */
     ml_spectrum *spec;     /* the step's spectrum                                            */
+    ml_spectrum *mspec;    /* the interval's spectrum on measure's transform, for the mains vote
+                              (real input, --mains not given; else NULL)                        */
     size_t nbins;
 
     /* what the listener hears (if/iq: the envelope of a demodulator of its own) */
@@ -199,6 +202,8 @@ typedef struct {
     char *state_text;      /* the saved state read at the start, until the detectors take it   */
     bool state_closed;     /* it was written at a stop                                         */
     size_t tmp_n;
+    dev_t state_dev;       /* the state file checked at the start or last written (ino 0: none) */
+    ino_t state_ino;
 
     /* summary */
     long count[ML_LOG_KINDS];
@@ -313,6 +318,9 @@ void ml_log_meta_diff(const ml_logger *L, const char *meta, char *why, size_t n)
  * its events are closed); ml_log_save_state writes the latest one beside the log. */
 int ml_log_snapshot(ml_logger *L, bool closed);
 int ml_log_save_state(ml_logger *L);
+/* Refuses a state path holding anything but a modlens log state (a symbolic link, not a regular
+ * file, another program's data): one error line, nothing written; 0 when it is absent or a state. */
+int ml_log_check_state(ml_logger *L);
 /* Reads the state beside the log and restores the detectors. 1 when restored (*pos_out: where the
  * grid resumes, *origin_out its origin), 0 when there is none usable (why[] says why, "" when there is
  * no file), else an exit status. */

@@ -14,6 +14,7 @@
 #include <string.h>
 #include <time.h>
 #include <unistd.h>
+#include <sys/stat.h>
 
 #include "analyzer/bench.h"
 #include "analyzer/cli.h"
@@ -25,9 +26,7 @@
 #include "dsp/order.h"
 #include "io/csv.h"
 
-#define MAINS_LINE 10.0     /* a mains line stands 10 dB above the median of its range          */
-#define MAINS_DECIDE_S 0.0  /* ... for this long to decide the mains: the first clear line       */
-#define MAINS_CHANGE_S 60.0 /* ... and for this long to change a decided one (with an event)    */
+#define MAINS_CHANGE_S 60.0 /* the other mains must win every vote this long to change a decided one */
 
 /* The columns before the modulation figures. */
 static const char LEAD_HEADER[] =
@@ -221,8 +220,27 @@ ml_status ml_log_register(const ml_logger *L, ml_output_set *set, const char *ro
     return st;
 }
 
+/* A file whose name the log made (the events file beside --out, a rotated period's file, a new
+ * log's "-N"): never written through a symbolic link, as the state is not. */
+static int derived_not_link(const char *path, const char *given)
+{
+    struct stat sb;
+    if (given && strcmp(path, given) == 0)
+        return 0; /* named by the user: io/output.h's rules (a link to a regular file is followed) */
+    if (lstat(path, &sb) == 0 && S_ISLNK(sb.st_mode))
+        return ml_cli_error("%s: is a symbolic link, and a log never writes a file it named itself through a link; "
+                            "nothing was changed: remove it or choose another --out",
+                            path);
+    return 0;
+}
+
 int ml_log_check_paths(ml_logger *L, const char *rows, const char *events)
 {
+    int rc = derived_not_link(rows, L->o->out);
+    if (rc == 0)
+        rc = derived_not_link(events, L->o->events);
+    if (rc != 0)
+        return rc;
     ml_output_set *set = NULL;
     ml_output *plot = NULL;
     const char *bad = rows;
@@ -305,6 +323,8 @@ int ml_log_open_outputs(ml_logger *L, int64_t period, char *last_row, size_t las
         return refuse(L, L->rows, false);
     if (me == ML_LOGFILE_KIN || me == ML_LOGFILE_FOREIGN)
         return refuse(L, L->events, true);
+    if ((rc = ml_log_check_state(L)) != 0)
+        return rc;
     L->period = period;
     snprintf(last_row, last_len, "%s", ml_logfile_last(L->rows));
     return 0;
@@ -371,44 +391,25 @@ static void level_cells(const ml_logger *L, char *b, size_t n, size_t *k)
     num_cell(b, n, k, crest, 2);
 }
 
-/* The mains line of the interval's mean spectrum: for k = 1, 2, 3 the strongest bin between
- * k x 45 and k x 65 Hz, its frequency refined by a parabola through the logarithms of its
- * neighbours; a line when it stands MAINS_LINE above the median of that range, and a vote for 50
- * or 60 Hz when it lies within 3 % of k x 50 or k x 60. The strongest line votes (0: none). Hum at
- * 50 and 60 Hz is 1.7 bins apart at 48 kHz and 8192 points, so the lobes' powers cannot tell them
- * apart; the line's frequency can. */
+/* The interval's vote for the mains: measure's definition (dsp/metrics.h, "tone or no tone" rule
+ * 1 and figures.mains_hz) applied to the interval on measure's transform for its length
+ * (ml_audio_plan_transform, L->mspec): 50 or 60 when a mains line stands above the noise (a lone
+ * line on the mains itself is hum), 0 for none or when the interval holds too few segments. */
 static double mains_vote(const ml_logger *L)
 {
-    const double bin_hz = L->rate / (double)ml_spectrum_nfft(L->spec);
-    double best = 0, vote = 0;
-    for (int k = 1; k <= 3; k++) {
-        const long a = lround(k * 45.0 / bin_hz), b = lround(k * 65.0 / bin_hz);
-        if (a < 2 || b + 1 >= (long)L->nbins || b - a + 1 > 256)
-            continue;
-        double w[256];
-        long m = a;
-        for (long j = a; j <= b; j++) {
-            w[j - a] = L->psd[j];
-            if (L->psd[j] > L->psd[m])
-                m = j;
-        }
-        const size_t n = (size_t)(b - a + 1);
-        const double med = ml_order_median(w, n);
-        if (!(L->psd[m] > MAINS_LINE * med) || m <= a || m >= b)
-            continue;
-        const double y0 = log(L->psd[m - 1]), y1 = log(L->psd[m]), y2 = log(L->psd[m + 1]);
-        const double den = y0 - 2 * y1 + y2, d = den < 0 ? 0.5 * (y0 - y2) / den : 0;
-        const double f = ((double)m + d) * bin_hz / k;
-        const double cand = fabs(f - 50) <= 1.5 ? 50 : fabs(f - 60) <= 1.8 ? 60 : 0;
-        if (cand > 0 && L->psd[m] / med > best) {
-            best = L->psd[m] / med;
-            vote = cand;
-        }
-    }
-    return vote;
+    if (L->mspec == NULL || ml_spectrum_segments(L->mspec) < 2)
+        return 0;
+    ml_audio_config ac = L->o->an.audio;
+    ac.mains_hz = 0;
+    ml_audio_result ar;
+    if (ml_audio_analyze(L->mspec, &ac, &ar) != ML_OK || ar.figures.mains_hz.state != ML_FIG_MEASURED)
+        return 0;
+    const double f = ar.figures.mains_hz.value;
+    return f == 50 || f == 60 ? f : 0;
 }
 
-/* The mains frequency: decided by the first interval's vote (mains_vote), then held; the other frequency must win every vote for MAINS_CHANGE_S to change it, which is
+/* The mains frequency: decided by the first interval's vote (mains_vote), then held; the other
+ * frequency must win every vote for MAINS_CHANGE_S to change it, which is
  * logged as a mains event. Intervals without a vote do not count either way. */
 static int decide_mains(ml_logger *L, double off, double dur)
 {
@@ -429,7 +430,7 @@ static int decide_mains(ml_logger *L, double off, double dur)
         L->mains_vote_s = off;
     }
     const double held = off + dur - L->mains_vote_s;
-    if (L->mains_hz == 0 && held >= fmin(MAINS_DECIDE_S, dur) - 1e-9) {
+    if (L->mains_hz == 0) { /* the first interval with a vote decides */
         L->mains_hz = lead;
         L->mains_votes = 0;
     } else if (L->mains_hz > 0 && held >= fmax(MAINS_CHANGE_S, dur) - 1e-9) {

@@ -9,7 +9,8 @@
  * line is the same, except the start of a file, which the log keeps: a file's start is the one
  * recorded (a later modification time does not move the rows), and --start-time must agree.
  *
- * The state (NAME.state beside --out, replaced atomically through io/output.h): every interval's
+ * The state (NAME.state beside --out, a regular file replaced atomically: a temporary beside it renamed
+ * over it; a path holding anything else is refused at the start): every interval's
  * end, at most once a second of wall-clock time, and at a stop, the detectors' state (the
  * baselines, the impulse floor, open events, the buzz detector, the mains decided, the carrier
  * found, the A-weighting filter) and where the grid stood. A file log resumed after a kill goes
@@ -21,6 +22,7 @@
  */
 #define _POSIX_C_SOURCE 200809L
 #include <errno.h>
+#include <fcntl.h>
 #include <inttypes.h>
 #include <math.h>
 #include <stdarg.h>
@@ -28,6 +30,8 @@
 #include <stdlib.h>
 #include <string.h>
 #include <time.h>
+#include <sys/stat.h>
+#include <unistd.h>
 
 #include "analyzer/cli.h"
 #include "analyzer/log_internal.h"
@@ -319,38 +323,160 @@ int ml_log_snapshot(ml_logger *L, bool closed)
     return 0;
 }
 
+/* What lies at the state's path: 0 when nothing, or a regular file (not a link) whose first line
+ * is STATE_TAG (its device and inode into *dev, *ino); else why not, into why[n], and -1. */
+static int state_file_ok(const char *path, dev_t *dev, ino_t *ino, char *why, size_t n)
+{
+    struct stat sb;
+    *dev = 0;
+    *ino = 0;
+    if (lstat(path, &sb) != 0) {
+        if (errno == ENOENT)
+            return 0;
+        snprintf(why, n, "cannot inspect the log's state file: %s", strerror(errno));
+        return -1;
+    }
+    if (S_ISLNK(sb.st_mode)) {
+        snprintf(why, n, "the log's state file is a symbolic link (the state is never written through a link)");
+        return -1;
+    }
+    if (!S_ISREG(sb.st_mode)) {
+        snprintf(why, n, "the log's state file is not a regular file");
+        return -1;
+    }
+    const int fd = open(path, O_RDONLY | O_NOFOLLOW | O_NOCTTY | O_CLOEXEC | O_NONBLOCK);
+    char head[sizeof STATE_TAG + 1];
+    ssize_t got = -1;
+    struct stat fb;
+    if (fd >= 0 && fstat(fd, &fb) == 0 && fb.st_dev == sb.st_dev && fb.st_ino == sb.st_ino)
+        got = read(fd, head, sizeof head);
+    if (fd >= 0)
+        close(fd);
+    if (got < 0) {
+        snprintf(why, n, "the log's state file cannot be read: %s", strerror(errno));
+        return -1;
+    }
+    if ((size_t)got != sizeof head || memcmp(head, STATE_TAG "\n", sizeof STATE_TAG) != 0) {
+        snprintf(why, n, "holds something other than a modlens log state (its first line is not '%s')", STATE_TAG);
+        return -1;
+    }
+    *dev = sb.st_dev;
+    *ino = sb.st_ino;
+    return 0;
+}
+
+int ml_log_check_state(ml_logger *L)
+{
+    char why[300];
+    if (state_file_ok(L->state_path, &L->state_dev, &L->state_ino, why, sizeof why) != 0)
+        return ml_cli_error("%s: %s; nothing was changed: remove it or choose another --out", L->state_path, why);
+    return 0;
+}
+
+/* The folder of path and its file name: dir[n] ("." when none), *base into path. */
+static void split_path(const char *path, char *dir, size_t n, const char **base)
+{
+    const char *slash = strrchr(path, '/');
+    if (slash == NULL) {
+        snprintf(dir, n, ".");
+        *base = path;
+    } else {
+        snprintf(dir, n, "%.*s", slash == path ? 1 : (int)(slash - path), path);
+        *base = slash + 1;
+    }
+}
+
+/* The snapshot into a new temporary beside the state (mkstemp: never an existing file, never
+ * through a link), synced, then renamed over the state's name: a rename replaces the name itself,
+ * so a link put there meanwhile is replaced, never followed. Before the rename the name must
+ * still hold nothing, the state this run wrote or checked, or a modlens state. 0 or -1 (why[n]). */
+static int write_state(ml_logger *L, char *why, size_t n)
+{
+    const size_t plen = strlen(L->state_path);
+    char *dir = malloc(plen + 2), *tmp = malloc(plen + 16);
+    const char *base;
+    int rc = -1, fd = -1;
+    if (tmp)
+        tmp[0] = '\0';
+    if (dir == NULL || tmp == NULL) {
+        snprintf(why, n, "out of memory");
+        goto out;
+    }
+    split_path(L->state_path, dir, plen + 2, &base);
+    /* "<dir>/.<name cut to 200 bytes>.XXXXXX": a hidden name that fits any file system */
+    snprintf(tmp, plen + 16, "%s/.%.200s.XXXXXX", dir, base);
+    if ((fd = mkstemp(tmp)) < 0) {
+        tmp[0] = '\0';
+        snprintf(why, n, "cannot create a temporary beside it: %s", strerror(errno));
+        goto out;
+    }
+    const mode_t mask = umask(0);
+    umask(mask);
+    size_t done = 0;
+    while (done < L->snap_len) {
+        const ssize_t w = write(fd, L->snap + done, L->snap_len - done);
+        if (w < 0 && errno == EINTR)
+            continue;
+        if (w <= 0) {
+            snprintf(why, n, "cannot write: %s", w < 0 ? strerror(errno) : "nothing written");
+            goto out;
+        }
+        done += (size_t)w;
+    }
+    if (fchmod(fd, 0666 & ~mask) != 0 || fsync(fd) != 0) {
+        snprintf(why, n, "cannot write: %s", strerror(errno));
+        goto out;
+    }
+    struct stat tb;
+    if (fstat(fd, &tb) != 0) {
+        snprintf(why, n, "cannot write: %s", strerror(errno));
+        goto out;
+    }
+    close(fd);
+    fd = -1;
+    dev_t dev;
+    ino_t ino;
+    struct stat sb;
+    const bool ours = lstat(L->state_path, &sb) == 0 && S_ISREG(sb.st_mode) && L->state_ino != 0
+                      && sb.st_dev == L->state_dev && sb.st_ino == L->state_ino;
+    if (!ours && state_file_ok(L->state_path, &dev, &ino, why, n) != 0)
+        goto out; /* something else was put there while the log ran */
+    if (rename(tmp, L->state_path) != 0) {
+        snprintf(why, n, "cannot replace it: %s", strerror(errno));
+        goto out;
+    }
+    tmp[0] = '\0';
+    L->state_dev = tb.st_dev;
+    L->state_ino = tb.st_ino;
+    const int dfd = open(dir, O_RDONLY | O_DIRECTORY | O_CLOEXEC);
+    if (dfd >= 0) { /* the rename made durable (best effort: some file systems refuse) */
+        fsync(dfd);
+        close(dfd);
+    }
+    rc = 0;
+out:
+    if (fd >= 0)
+        close(fd);
+    if (tmp && tmp[0] && rc != 0)
+        unlink(tmp);
+    free(dir);
+    free(tmp);
+    return rc;
+}
+
 int ml_log_save_state(ml_logger *L)
 {
     if (L->snap == NULL || L->snap_len == 0)
         return 0;
-    ml_output_set *set = NULL;
-    ml_output *out = NULL;
-    FILE *f = NULL;
-    const char *bad = L->state_path;
     char err[512] = "";
-    ml_status st = ml_output_set_create(&set);
-    if (st == ML_OK)
-        st = ml_output_set_add(set, L->state_path, "the log's state", 0, &out);
-    if (st == ML_OK)
-        st = ml_output_set_check(set, &bad, err, sizeof err);
-    if (st == ML_OK)
-        st = ml_output_begin(out, &f, err, sizeof err);
-    if (st == ML_OK && fwrite(L->snap, 1, L->snap_len, f) != L->snap_len) {
-        snprintf(err, sizeof err, "cannot write: %s", strerror(errno));
-        st = ML_EIO;
-    }
-    if (st == ML_OK)
-        st = ml_output_end(out, err, sizeof err);
-    if (st == ML_OK)
-        st = ml_output_set_commit(set, &bad, err, sizeof err);
-    ml_output_set_destroy(set);
+    const int rc = write_state(L, err, sizeof err);
     L->snap_len = 0;
     struct timespec now;
     clock_gettime(CLOCK_MONOTONIC, &now);
     L->state_wall = (double)now.tv_sec + 1e-9 * (double)now.tv_nsec;
-    if (st != ML_OK) {
+    if (rc != 0) {
         L->wrote_error = true;
-        return ml_cli_error("%s: %s", bad ? bad : L->state_path, err[0] ? err : ml_strerror(st));
+        return ml_cli_error("%s: %s", L->state_path, err);
     }
     return 0;
 }
@@ -629,6 +755,11 @@ int ml_log_restore_state(ml_logger *L)
     }
     v = ok ? counted(L, &s, "buzz", &n) : NULL;
     ok = ok && v && ml_buzz_restore(L->buzz, v, n) == ML_OK;
+    /* a stop closed the buzz with the impulses it held: they are counted; the run goes on with
+     * the impulses after the stop alone (restored, the detector would count them again in a new
+     * buzz starting before the stop) */
+    if (ok && closed)
+        ml_buzz_reset(L->buzz);
     double aw[ML_AWEIGHT_STATE + 1], base[1], cnt[1], bz[3], hf[3];
     ok = ok && numbers(&s, "aweight", aw, ML_AWEIGHT_STATE + 1) && numbers(&s, "imp_base", base, 1)
          && numbers(&s, "imp_counted", cnt, 1) && numbers(&s, "buzz_peak", bz, 3) && numbers(&s, "hf", hf, 3)

@@ -267,13 +267,56 @@ static ml_value in_range(const ml_value *v, const ml_metric_def *d)
     return x;
 }
 
+/* The figure in dBFS a level in other units (dBu, dBV, V, W) is derived from (NULL: none). */
+static const char *level_source(const char *name)
+{
+    static const char *const map[][2] = {
+        {"audio.fundamental_dbu", "audio.fundamental_dbfs"}, {"audio.fundamental_dbv", "audio.fundamental_dbfs"},
+        {"audio.fundamental_vrms", "audio.fundamental_dbfs"}, {"audio.fundamental_w", "audio.fundamental_dbfs"},
+        {"audio.rms_dbu", "audio.rms_dbfs"},                  {"audio.noise_dbu", "audio.noise_dbfs"},
+        {"audio.noise_a_dbu", "audio.noise_a_dbfs"},          {"hum.level_dbu", "hum.level_dbfs"},
+        {"carrier.level_dbu", "carrier.level_dbfs"},          {"capture.rms_dbu", "capture.rms_dbfs"},
+    };
+    for (size_t i = 0; i < sizeof map / sizeof *map; i++)
+        if (strcmp(map[i][0], name) == 0)
+            return map[i][1];
+    return NULL;
+}
+
+/* A derived level takes its source figure's state, as reported in r: not measured (with its
+ * reason) or a bound in the same direction (every derived unit grows with the dBFS level). */
+static ml_value derived_state(const ml_report *r, const ml_value *v, const char **why_buf)
+{
+    ml_value x = *v;
+    const char *src = level_source(v->name);
+    const ml_metric *m = src ? ml_report_find(r, src) : NULL;
+    if (m == NULL || x.state == ML_FIG_NONE)
+        return x;
+    if (!m->valid) {
+        x.state = ML_FIG_NONE;
+        x.value = NAN;
+        x.why = m->reason[0] ? (*why_buf = m->reason) : x.why;
+    } else if (m->bound != ML_BOUND_NONE && isfinite(x.value)) {
+        x.state = m->bound == ML_BOUND_UPPER ? ML_FIG_UPPER : ML_FIG_LOWER;
+        x.why = m->qualifier[0] ? (*why_buf = m->qualifier) : x.why;
+    }
+    return x;
+}
+
 void ml_values_report(ml_report *r, const ml_value *v, size_t n)
 {
     for (size_t i = 0; i < n; i++) {
         const ml_metric_def *d = ml_registry_lookup(v[i].name, NULL);
         const char *unit = d ? d->unit : "";
         const int dec = d ? d->decimals : 3;
-        const ml_value x = in_range(&v[i], d);
+        const char *src_why = NULL;
+        ml_value dv = derived_state(r, &v[i], &src_why);
+        char why[ML_REPORT_WHY_LEN];
+        if (src_why) { /* a copy: adding to the report may move its metrics */
+            snprintf(why, sizeof why, "%s", src_why);
+            dv.why = why;
+        }
+        const ml_value x = in_range(&dv, d);
         const bool said = x.why != NULL && x.why[0] != '\0';
         if (x.state == ML_FIG_NONE || !isfinite(x.value)) {
             ml_report_add_missing_why(r, x.name, unit, dec, said ? x.why : NULL);
