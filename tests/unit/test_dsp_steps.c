@@ -282,7 +282,7 @@ START_TEST(config_rejected)
         case 6: c.level_tol_db = 0; break;
         case 7: c.tonal_db = 61; break;
         case 8: c.min_level_dbfs = 1; break;
-        case 9: c.pause_db = 0; break;
+        case 9: c.line_db = 2; break;
         default: c.max_steps = 0; break;
         }
         ck_assert_msg(ml_steps_create(&c, &q) == ML_EINVAL, "case %d", i);
