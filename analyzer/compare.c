@@ -136,25 +136,39 @@ static double tolerance_for(const tolerance *tol, size_t ntol, const char *metri
     return all;
 }
 
-/* True when the file's first non-blank byte opens a JSON object. */
-static bool looks_like_json(const char *path)
+typedef enum { NOT_JSON, JSON_TEXT, JSON_BOM } json_start;
+
+/* How the file starts: its first non-blank byte opens a JSON object or array (JSON_TEXT), or a
+ * UTF-8 byte-order mark comes before one (JSON_BOM); else NOT_JSON (a recording). */
+static json_start starts_like_json(const char *path)
 {
     FILE *f = fopen(path, "rb");
     if (f == NULL)
-        return false;
+        return NOT_JSON;
+    unsigned char bom[3];
+    const bool has_bom = fread(bom, 1, 3, f) == 3 && bom[0] == 0xEF && bom[1] == 0xBB && bom[2] == 0xBF;
+    if (!has_bom)
+        rewind(f);
     int c;
     do
         c = fgetc(f);
     while (c == ' ' || c == '\t' || c == '\r' || c == '\n');
     fclose(f);
-    return c == '{';
+    if (c != '{' && c != '[')
+        return NOT_JSON;
+    return has_bom ? JSON_BOM : JSON_TEXT;
 }
 
 /* One side: a saved report (limits re-applied) or a fresh measurement. */
 static int load_side(ml_measure_opts *o, const char *path, ml_report *rep, ml_plot_data *plot, bool *measured)
 {
     *measured = false;
-    if (looks_like_json(path)) {
+    const json_start js = starts_like_json(path);
+    if (js == JSON_BOM)
+        return ml_cli_error("%s: not a modlens JSON report: it starts with a UTF-8 byte-order mark (a saved "
+                            "report has none)",
+                            path);
+    if (js == JSON_TEXT) {
         char err[512];
         ml_status st = ml_saved_read(path, rep, err, sizeof err); /* typed by the registry */
         if (st != ML_OK)
@@ -284,7 +298,8 @@ static void add_row(ml_comparison *c, const ml_measure_opts *o, const char *name
     const double ua = r->a_valid && ma->has_u ? ma->u : 0, ub = r->b_valid && mb->has_u ? mb->u : 0;
     const ml_limit *lim = limit_for(o->out.limits, name);
     judge(r, d, lim, sqrt(ua * ua + ub * ub), tolerance_for(tol, ntol, name));
-    r->counted = o->out.limits ? lim != NULL : true;
+    /* a figure one side does not have at all is not compared: it never counts (and a note names it) */
+    r->counted = ma != NULL && mb != NULL && (o->out.limits ? lim != NULL : true);
     if (r->counted && strcmp(r->verdict, "worse") == 0)
         c->nworse++;
     fill_limit(r, c->a, c->b);
@@ -297,6 +312,34 @@ static void note(ml_comparison *c, const char *fmt, const char *a, const char *b
     char buf[2200];
     snprintf(buf, sizeof buf, fmt, a, b);
     snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "%.255s", buf);
+}
+
+/* The metrics one side has and the other lacks altogether, named in a note per side (a report
+ * that lost a section must not read as "not worse on any"). */
+static void absent_notes(ml_comparison *c)
+{
+    for (int side = 0; side < 2; side++) {
+        const ml_report *other = side == 0 ? c->a : c->b;
+        char names[ML_REPORT_NOTE_LEN] = "";
+        size_t n = 0, shown = 0;
+        for (size_t i = 0; i < c->nrows; i++) {
+            if (ml_report_find(other, c->rows[i].metric) != NULL)
+                continue;
+            n++;
+            const size_t k = strlen(names);
+            if (k + strlen(c->rows[i].metric) + 2 < sizeof names - 64) {
+                snprintf(names + k, sizeof names - k, "%s%s", k ? ", " : "", c->rows[i].metric);
+                shown++;
+            }
+        }
+        if (n == 0 || c->nnotes >= ML_REPORT_MAX_NOTES)
+            continue;
+        char more[32] = "";
+        if (shown < n)
+            snprintf(more, sizeof more, " and %zu more", n - shown);
+        snprintf(c->notes[c->nnotes++], sizeof c->notes[0], "not compared, %s lacks %zu metric%s: %s%s",
+                 side == 0 ? "A" : "B", n, n == 1 ? "" : "s", names, more);
+    }
 }
 
 /* With a card profile in force on a side: which of its figures the card limits (analyzer/bench.h). */
@@ -347,6 +390,7 @@ static int compare_body(ml_measure_opts *o, ml_finish_files *files, const char *
         add_row(&cmp, o, ra.metrics[i].name, tol->item, tol->n);
     for (size_t i = 0; i < rb.nmetrics; i++)
         add_row(&cmp, o, rb.metrics[i].name, tol->item, tol->n);
+    absent_notes(&cmp);
     if (strcmp(ra.kind, rb.kind) != 0)
         note(&cmp, "A was measured as %s and B as %s: only the metrics both have are compared", ra.kind,
              rb.kind);

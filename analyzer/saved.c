@@ -8,8 +8,80 @@
 #include <string.h>
 
 #include "analyzer/registry.h"
+#include "analyzer/values.h"
+#include "dsp/levels.h"
+#include "dsp/metrics.h"
 #include "io/compare.h"
 #include "io/printable.h"
+
+/* A calibrated level (dBu, dBV) is a full-scale figure plus the full-scale level (at most
+ * +-ML_LEVEL_CAL_MAX_DBU dBu; dBV lies 2.2 dB below dBu). */
+#define CAL_DB (ML_LEVEL_CAL_MAX_DBU + 3.0)
+
+/* Figures in % or Hz that may be negative: a signed offset or shift. */
+static bool is_signed(const char *name)
+{
+    static const char *const names[] = {"audio.dc_offset_pct", "capture.dc_offset_pct",
+                                        "modulation.carrier_shift_pct", "carrier.offset_hz",
+                                        "spectrum.mask_worst_offset_hz", "carrier.frequency_hz"};
+    for (size_t i = 0; i < sizeof names / sizeof names[0]; i++)
+        if (strcmp(name, names[i]) == 0)
+            return true;
+    return false;
+}
+
+/* Why value v of the registered figure d cannot be (NULL when it can): the reportable range of
+ * dB and ENOB figures (analyzer/values.h), the sign of ratios, times, frequencies, voltages and
+ * powers, 100 % for a share of time. rate_hz: the input's sample rate (0: unknown). */
+static const char *impossible(const ml_metric_def *d, double v, double rate_hz)
+{
+    const char *u = d->unit;
+    if (!ml_values_in_range(d->name, v))
+        return strcmp(u, "bits") == 0 ? "outside 0..32 bits, the range of an ENOB"
+                                      : "beyond +-290 dB, the reportable range of a level or ratio";
+    if ((strcmp(u, "dBu") == 0 || strcmp(u, "dBV") == 0) && !(fabs(v) <= ML_FIGURE_DB_LIMIT + CAL_DB))
+        return "beyond the reportable range of a calibrated level";
+    if (is_signed(d->name))
+        return NULL;
+    const bool nonneg = strcmp(u, "%") == 0 || strcmp(u, "Hz") == 0 || strcmp(u, "ms") == 0
+                        || strcmp(u, "V") == 0 || strcmp(u, "W") == 0 || strcmp(d->name, "modulation.index") == 0
+                        || strcmp(d->name, "modulation.index_spectral") == 0;
+    if (nonneg && v < 0)
+        return strcmp(u, "%") == 0    ? "negative: this percentage is a ratio or a share, never below 0"
+               : strcmp(u, "Hz") == 0 ? "a negative frequency"
+                                      : "negative, which this figure cannot be";
+    if ((strcmp(d->name, "modulation.overmodulation_pct") == 0 || strcmp(d->name, "modulation.carrier_off_pct") == 0)
+        && v > 100)
+        return "over 100 %: a share of the modulated time";
+    if (strcmp(u, "Hz") == 0 && rate_hz > 0 && v > rate_hz)
+        return "above the recording's sample rate";
+    return NULL;
+}
+
+/* The sections a report of its kind holds (measure and live: the audio figures and hum always, if
+ * and iq also the carrier and the modulation; sweep: its own); NULL-terminated. */
+static const char *const *sections_of(const ml_result *r)
+{
+    static const char *const sweep[] = {"sweep", NULL};
+    static const char *const audio[] = {"audio", "hum", NULL};
+    static const char *const mod[] = {"carrier", "modulation", "audio", "hum", NULL};
+    const ml_result_item *kind = ml_result_find(r, "input.kind");
+    for (size_t i = 0; i < ml_result_count(r); i++)
+        if (strncmp(ml_result_item_at(r, i)->name, "sweep.", 6) == 0)
+            return sweep;
+    return kind && strcmp(kind->text, "audio") == 0 ? audio : mod;
+}
+
+static bool has_section(const ml_result *r, const char *group)
+{
+    const size_t n = strlen(group);
+    for (size_t i = 0; i < ml_result_count(r); i++) {
+        const char *name = ml_result_item_at(r, i)->name;
+        if (strncmp(name, group, n) == 0 && name[n] == '.')
+            return true;
+    }
+    return false;
+}
 
 static ml_status refuse(char *err, size_t errlen, const char *name, const char *problem)
 {
@@ -22,6 +94,9 @@ static ml_status refuse(char *err, size_t errlen, const char *name, const char *
 ml_status ml_saved_check(const ml_result *r, char *err, size_t errlen)
 {
     const size_t n = ml_result_count(r);
+    const ml_result_item *rate = ml_result_find(r, "input.sample_rate_hz");
+    if (rate && rate->type != ML_RESULT_NUMBER)
+        rate = NULL;
     for (size_t i = 0; i < n; i++) {
         const ml_result_item *it = ml_result_item_at(r, i);
         const char *name = it->name;
@@ -38,7 +113,28 @@ ml_status ml_saved_check(const ml_result *r, char *err, size_t errlen)
         const bool count = d->unit[0] == '\0' && d->decimals == 0;
         if (count && it->type == ML_RESULT_NUMBER && !(it->value >= 0 && it->value == floor(it->value)))
             return refuse(err, errlen, name, "a count must be a whole number >= 0");
+        const char *why = it->type == ML_RESULT_NUMBER ? impossible(d, it->value, rate ? rate->value : 0) : NULL;
+        if (why != NULL) {
+            char problem[160];
+            snprintf(problem, sizeof problem, "%.10g%s%s is impossible: %s", it->value, d->unit[0] ? " " : "",
+                     d->unit, why);
+            return refuse(err, errlen, name, problem);
+        }
     }
+    /* the sections its kind always has: a report without them would compare as "not worse" */
+    const char *const *need = sections_of(r);
+    const ml_result_item *kind = ml_result_find(r, "input.kind");
+    char list[96] = "";
+    for (size_t i = 0; need[i] != NULL; i++) {
+        const size_t k = strlen(list);
+        snprintf(list + k, sizeof list - k, "%s%s", i ? ", " : "", need[i]);
+    }
+    for (size_t i = 0; need[i] != NULL; i++)
+        if (!has_section(r, need[i])) {
+            snprintf(err, errlen, "no \"%s\" section: a saved %s report always has %s", need[i],
+                     strcmp(need[0], "sweep") == 0 ? "sweep" : kind ? kind->text : "measurement", list);
+            return ML_EFORMAT;
+        }
     return ML_OK;
 }
 

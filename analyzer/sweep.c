@@ -475,6 +475,31 @@ static int report_points(ml_sweep_opts *o, const ml_sweep_run *r, ml_report *rep
     return rc;
 }
 
+/* A note naming the steady tones left out (the first ML_SWEEP_NAMED of n: frequency, start time
+ * in the input, level; the rest counted) and why. */
+static void name_tones(ml_report *rep, const ml_step *t, uint64_t n, double rate, double t0, bool mod,
+                       const char *why)
+{
+    char list[ML_REPORT_NOTE_LEN];
+    size_t len = 0;
+    uint64_t named = 0;
+    list[0] = '\0';
+    for (uint64_t i = 0; i < n && i < ML_SWEEP_NAMED; i++) {
+        char one[96];
+        snprintf(one, sizeof one, "%s%.1f Hz at %.2f s (%.1f %s)", i ? ", " : "", t[i].frequency_hz,
+                 t0 + (double)t[i].start / rate, t[i].level_dbfs, mod ? "dB re 100 %" : "dBFS");
+        const size_t k = strlen(one);
+        if (len + k + strlen(why) + 48 > sizeof list) /* room for the count, why and "and N more" */
+            break;
+        memcpy(list + len, one, k + 1);
+        len += k;
+        named++;
+    }
+    if (named < n)
+        snprintf(list + len, sizeof list - len, " and %llu more", (unsigned long long)(n - named));
+    ml_report_note(rep, "%llu steady tone%s %s: %s", (unsigned long long)n, n == 1 ? "" : "s", why, list);
+}
+
 /* The analysis line and the notes on how the steps were measured. */
 static void describe(const ml_sweep_opts *o, const ml_sweep_run *r, ml_report *rep)
 {
@@ -508,14 +533,16 @@ static void describe(const ml_sweep_opts *o, const ml_sweep_run *r, ml_report *r
                  : r->c_source == ML_C_QUIET   ? "the unmodulated pauses"
                                                : "each step's mean envelope",
                  o->reference_hz);
-    if (r->nsteps == 0)
-        ml_report_note(rep, "no steps found: a step is a steady tone of at least %.2f s (plus %.2f s at each "
-                            "end), holding 91 %% of the power of its frames",
-                       c->min_step_s, c->edge_s);
+    const double rate = r->seg->info->rate_hz, t0 = (double)r->seg->first / rate;
     if (r->nhum > 0)
-        ml_report_note(rep, "%zu steady tone%s at a mains frequency more than %.0f dB below the loudest step "
-                            "taken for hum and left out",
-                       r->nhum, r->nhum == 1 ? "" : "s", ML_SWEEP_HUM_DB);
+        name_tones(rep, r->hum, r->nhum, rate, t0, r->kind != ML_KIND_AUDIO,
+                   "left out as hum (a mains frequency, over 30 dB below the loudest step)");
+    if (r->nskipped > 0) {
+        char why[128];
+        snprintf(why, sizeof why, "left out as too short to measure (a step lasts %.2f s plus %.2f s at each end)",
+                 c->min_step_s, c->edge_s);
+        name_tones(rep, r->skipped, r->nskipped, rate, t0, r->kind != ML_KIND_AUDIO, why);
+    }
     if (unmeasured > 0)
         ml_report_note(rep, "%zu step%s could not be measured (reasons beside their figures)", unmeasured,
                        unmeasured == 1 ? "" : "s");
@@ -534,6 +561,11 @@ int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_repor
         return rc;
     ml_sweep_run r = {.o = o, .seg = seg, .kind = kind};
     rc = ml_sweep_find_steps(&r, carrier);
+    if (rc == 0 && r.nsteps == 0)
+        rc = ml_cli_error("%s: no step to measure%s: a step is a steady tone of at least %.2f s (plus %.2f s at "
+                          "each end) standing clear of the noise", o->m.in.path,
+                          r.nhum ? " (only hum at a mains frequency)" : "", r.steps_cfg.min_step_s,
+                          r.steps_cfg.edge_s);
     /* the series exists (perhaps empty) in every sweep report */
     const size_t cap = r.nsteps ? r.nsteps : 1;
     if (rc == 0 && ml_report_series_alloc(ser, "sweep.points", "sweep points", cap) != ML_OK)

@@ -34,6 +34,7 @@
  * the loudest step is hum heard in the pauses (or under a step lost in it), not a step: it is left
  * out and counted (a real step at 50 Hz lies within a few tens of dB of the others) */
 #define ML_SWEEP_HUM_DB 30.0
+#define ML_SWEEP_NAMED 8 /* tones left out that the notes name one by one (the rest are counted) */
 
 typedef struct {
     ml_measure_opts m;        /* input, analysis and output groups; m.in.path the FILE or "live" */
@@ -75,6 +76,9 @@ typedef struct {
     ml_sweep_meas *meas;      /* nsteps entries (malloc)                                           */
     uint64_t nfound;          /* steps dsp/steps.h found (more than ML_SWEEP_MAX_STEPS: refused)  */
     size_t nhum;              /* of those, hum left out (ML_SWEEP_HUM_DB)                         */
+    ml_step hum[ML_SWEEP_NAMED];     /* the first of them (named in a note, input time)          */
+    uint64_t nskipped;               /* steady tones too short to measure (dsp/steps.h)          */
+    ml_step skipped[ML_SWEEP_NAMED]; /* the first of them (named in a note, input time)          */
 } ml_sweep_run;
 
 /* Pass 1 (analyzer/sweep_steps.c): finds the steps of r->seg (r->kind and r->o set; for if/iq

@@ -215,6 +215,10 @@ int ml_sweep_find_steps(ml_sweep_run *r, double carrier_hz)
         ml_sweep_meas *m = &r->meas[r->nsteps];
         ml_steps_get(steps, i, &m->step);
         if (is_hum(m->step.frequency_hz, m->step.level_dbfs, loudest)) {
+            if (r->nhum < ML_SWEEP_NAMED) {
+                r->hum[r->nhum] = m->step;
+                r->hum[r->nhum].start += r->edge;
+            }
             r->nhum++;
             continue;
         }
@@ -225,6 +229,12 @@ int ml_sweep_find_steps(ml_sweep_run *r, double carrier_hz)
         m->index = m->carrier_shift_pct = NAN;
         r->nsteps++;
     }
+    /* the steady tones too short to be steps: the oldest still kept first */
+    r->nskipped = ml_steps_skipped_count(steps);
+    const uint64_t base = r->nskipped > ML_STEPS_MAX_SKIPPED ? r->nskipped - ML_STEPS_MAX_SKIPPED : 0;
+    for (uint64_t i = 0; rc == 0 && base + i < r->nskipped && i < ML_SWEEP_NAMED; i++)
+        if (ml_steps_get_skipped(steps, base + i, &r->skipped[i]) == ML_OK)
+            r->skipped[i].start += r->edge;
     ml_steps_destroy(steps);
     return rc;
 }

@@ -14,6 +14,7 @@
 #include <complex.h>
 #include <fftw3.h>
 #include <math.h>
+#include <stddef.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -30,13 +31,12 @@ struct ml_steps {
     ml_steps_config cfg;
     size_t F, hop, nfft, lobe, kmin;
     double scale; /* 2 / (nfft sum w^2) */
-    double *w, *ring, *in;
+    double *w, *ring, *in, *pw; /* pw: the bins' powers, scratch for the median */
     fftw_complex *out;
     fftw_plan plan;
     uint64_t pos;    /* samples pushed */
     uint64_t frames; /* frames analysed */
     size_t rpos;     /* next write position in ring */
-    double loudest_db;
     /* open run */
     int open;
     uint64_t run_start, run_end, edge;
@@ -54,13 +54,16 @@ struct ml_steps {
     /* steps found */
     ml_step *steps;
     uint64_t count;
+    /* steady runs too short to measure (ML_STEPS_MAX_SKIPPED kept) */
+    ml_step skipped[ML_STEPS_MAX_SKIPPED];
+    uint64_t nskipped;
 };
 
 ml_steps_config ml_steps_config_default(double rate_hz)
 {
     return (ml_steps_config){.rate_hz = rate_hz, .frame_s = 0.2, .edge_s = 0.1, .min_step_s = 0.3,
                              .freq_tol_pct = 2.0, .freq_tol_hz = 2.0, .level_tol_db = 0.5, .tonal_db = 10.0,
-                             .min_level_dbfs = -90.0, .pause_db = 50.0, .max_steps = 4096};
+                             .line_db = 15.0, .min_level_dbfs = -200.0, .max_steps = 4096};
 }
 
 static int in_range(double v, double lo, double hi)
@@ -74,7 +77,7 @@ static int config_ok(const ml_steps_config *c)
            && in_range(c->edge_s, 0, 10) && c->min_step_s > 0 && c->min_step_s <= 3600
            && in_range(c->freq_tol_pct, 0.01, 50) && in_range(c->freq_tol_hz, 0, 1000)
            && in_range(c->level_tol_db, 0.01, 40) && in_range(c->tonal_db, 0, 60)
-           && in_range(c->min_level_dbfs, -200, 0) && in_range(c->pause_db, 1, 200) && c->max_steps >= 1
+           && in_range(c->line_db, 3, 100) && in_range(c->min_level_dbfs, -200, 0) && c->max_steps >= 1
            && c->max_steps <= 1000000;
 }
 
@@ -119,10 +122,11 @@ ml_status ml_steps_create(const ml_steps_config *cfg, ml_steps **out)
     q->ring = calloc(q->F, sizeof *q->ring);
     q->in = fftw_alloc_real(q->nfft);
     q->out = fftw_alloc_complex(q->nfft / 2 + 1);
+    q->pw = malloc((q->nfft / 2 + 1) * sizeof *q->pw);
     q->fifo = malloc((q->hold + 1) * sizeof *q->fifo);
     q->steps = malloc(cfg->max_steps * sizeof *q->steps);
     if (q->w == NULL || q->ring == NULL || q->in == NULL || q->out == NULL || q->fifo == NULL
-        || q->steps == NULL)
+        || q->steps == NULL || q->pw == NULL)
         goto fail;
     double s2 = 0.0;
     for (size_t n = 0; n < q->F; n++) {
@@ -152,6 +156,7 @@ void ml_steps_destroy(ml_steps *q)
     fftw_free(q->out);
     free(q->w);
     free(q->ring);
+    free(q->pw);
     free(q->fifo);
     free(q->steps);
     free(q);
@@ -164,8 +169,7 @@ void ml_steps_reset(ml_steps *q)
     memset(q->ring, 0, q->F * sizeof *q->ring);
     q->pos = q->frames = 0;
     q->rpos = 0;
-    q->loudest_db = -INFINITY;
-    q->count = 0;
+    q->count = q->nskipped = 0;
     clear_run(q);
 }
 
@@ -206,6 +210,12 @@ static void close_run(ml_steps *q)
         s.level_spread_db = q->lev_max - q->lev_min;
         q->steps[q->count % q->cfg.max_steps] = s;
         q->count++;
+    } else if (q->nrun >= ML_STEPS_SKIP_FRAMES) {
+        const ml_step s = {.index = q->nskipped, .start = q->run_start, .end = q->run_end,
+                           .frequency_hz = q->sum_f / (double)q->nrun,
+                           .level_dbfs = q->sum_lev / (double)q->nrun, .nframes = q->nrun};
+        q->skipped[q->nskipped % ML_STEPS_MAX_SKIPPED] = s;
+        q->nskipped++;
     }
     clear_run(q);
 }
@@ -214,6 +224,35 @@ static void close_run(ml_steps *q)
 static double p2(double complex x)
 {
     return creal(x) * creal(x) + cimag(x) * cimag(x);
+}
+
+/* The k-th smallest of a[0..n) (k < n; a is reordered): Hoare's selection, middle pivot. */
+static double select_kth(double *a, size_t n, size_t k)
+{
+    ptrdiff_t lo = 0, hi = (ptrdiff_t)n - 1;
+    const ptrdiff_t kk = (ptrdiff_t)k;
+    while (lo < hi) {
+        const double pivot = a[lo + (hi - lo) / 2];
+        ptrdiff_t i = lo, j = hi;
+        while (i <= j) {
+            while (a[i] < pivot)
+                i++;
+            while (a[j] > pivot)
+                j--;
+            if (i <= j) {
+                const double t = a[i];
+                a[i++] = a[j];
+                a[j--] = t;
+            }
+        }
+        if (kk <= j)
+            hi = j;
+        else if (kk >= i)
+            lo = i;
+        else
+            break;
+    }
+    return a[kk];
 }
 
 static void analyse_frame(ml_steps *q)
@@ -232,6 +271,7 @@ static void analyse_frame(ml_steps *q)
     size_t kp = q->kmin;
     for (size_t k = q->kmin; k <= half; k++) {
         const double p = p2(q->out[k]);
+        q->pw[k - q->kmin] = p;
         tot += p;
         if (k + q->lobe <= half && p > best) {
             best = p;
@@ -260,12 +300,16 @@ static void analyse_frame(ml_steps *q)
     fi.lev_db = fi.pt > 0 ? 10.0 * log10(fi.pt / 0.5) : -INFINITY;
     fi.x = q->out[kp];
     const double rest = (tot - pt) * q->scale;
-    int tonal = fi.pt > 0 && fi.pt >= pow(10.0, q->cfg.tonal_db / 10.0) * rest
-                && fi.lev_db >= q->cfg.min_level_dbfs;
-    if (tonal) {
-        q->loudest_db = fmax(q->loudest_db, fi.lev_db);
-        tonal = fi.lev_db >= q->loudest_db - q->cfg.pause_db;
-    }
+    /* the noise in the lobe: the median bin power / ln 2 (the mean of exponentially distributed
+     * bin powers) times the lobe's bins */
+    const size_t nb = half + 1 - q->kmin, nlobe = 2 * q->lobe + 1;
+    const double med = select_kth(q->pw, nb, nb / 2), noise = med / log(2.0) * (double)nlobe;
+    int tonal = fi.pt > 0 && fi.lev_db >= q->cfg.min_level_dbfs;
+    if (tonal && !(fi.pt >= pow(10.0, q->cfg.tonal_db / 10.0) * rest)) /* else a line above the noise */
+        tonal = pt / (double)nlobe >= pow(10.0, q->cfg.line_db / 10.0) * med;
+    /* the level's scatter from the noise: P = |A + n|^2 varies by sqrt(2 N / A^2) (first order) */
+    const double snr = noise > 0 ? pt / noise : INFINITY;
+    const double ltol = fmax(q->cfg.level_tol_db, 3.0 * 10.0 / log(10.0) * sqrt(2.0 / snr));
     if (!tonal) {
         close_run(q);
         return;
@@ -273,7 +317,7 @@ static void analyse_frame(ml_steps *q)
     if (q->open) {
         const double mf = q->sum_f / (double)q->nrun, ml = q->sum_lev / (double)q->nrun;
         const double ftol = fmax(q->cfg.freq_tol_pct / 100.0 * mf, q->cfg.freq_tol_hz);
-        if (fabs(fi.f - mf) > ftol || fabs(fi.lev_db - ml) > q->cfg.level_tol_db)
+        if (fabs(fi.f - mf) > ftol || fabs(fi.lev_db - ml) > ltol)
             close_run(q);
     }
     if (!q->open) {
@@ -328,6 +372,21 @@ ml_status ml_steps_finish(ml_steps *q)
 uint64_t ml_steps_count(const ml_steps *q)
 {
     return q == NULL ? 0 : q->count;
+}
+
+uint64_t ml_steps_skipped_count(const ml_steps *q)
+{
+    return q == NULL ? 0 : q->nskipped;
+}
+
+ml_status ml_steps_get_skipped(const ml_steps *q, uint64_t i, ml_step *out)
+{
+    if (q == NULL || out == NULL || i >= q->nskipped)
+        return ML_EINVAL;
+    if (q->nskipped - i > ML_STEPS_MAX_SKIPPED)
+        return ML_ENOSIGNAL;
+    *out = q->skipped[i % ML_STEPS_MAX_SKIPPED];
+    return ML_OK;
 }
 
 ml_status ml_steps_get(const ml_steps *q, uint64_t i, ml_step *out)

@@ -8,12 +8,22 @@
  *    around the peak (Parseval: a sine of amplitude A gives A^2 / 2), frame power Pf likewise over all
  *    bins above DC; level = 10 lg(Pt / 0.5) dBFS (the fundamental only, harmonics excluded);
  *  - frequency: parabolic interpolation of ln |X_k|^2 around the peak;
- *  - the frame is TONAL when Pt >= 10^(tonal_db/10) (Pf - Pt), its level >= min_level_dbfs and it
- *    is less than pause_db below the loudest tonal frame so far; else it is a pause.
+ *  - the frame is TONAL when its level >= min_level_dbfs and its tone is a spectral line: either it
+ *    holds the frame's power (Pt >= 10^(tonal_db/10) (Pf - Pt)), or the mean bin power over the
+ *    lobe stands at least line_db above the median bin power above DC's lobe (the noise floor per
+ *    bin: a line far below broadband noise in power is still seen); else it is a pause. No level
+ *    rule relative to other steps: a step 80 dB below the others (a response's stop band) is a
+ *    step like any other. White noise alone puts the lobe's mean about 2 dB (1 / ln 2) over the
+ *    median, its largest bin about ln(nfft / 2) times the mean (~10 dB), a lobe around it less:
+ *    line_db 15 keeps clear of it, and a run needs 3 frames agreeing in frequency and level.
  * A step is a run of tonal frames each within max(freq_tol_pct % , freq_tol_hz) in frequency and
  * level_tol_db in level of the run's running mean; a pause or a frame outside those ends it. A run
  * whose frames span [start, end) gives measure_start = start + edge_s, measure_end = end - edge_s
- * (settling edges cut); it becomes a step when measure_end - measure_start >= min_step_s.
+ * (settling edges cut); it becomes a step when measure_end - measure_start >= min_step_s. A run of
+ * at least ML_STEPS_SKIP_FRAMES frames that is too short for that is a SKIPPED run (a steady tone
+ * too short to measure, not the one or two frames that straddle a change): its start, end, mean
+ * interpolated frequency and mean level are kept (the last ML_STEPS_MAX_SKIPPED) so the caller can
+ * name it.
  * Step figures over the frames lying wholly inside [measure_start, measure_end):
  *  - level_dbfs: 10 lg of the mean tone power / 0.5; level_spread_db: highest minus lowest frame;
  *  - frequency_hz: from the phase advance of the peak bin between consecutive frames (arg of the
@@ -22,8 +32,9 @@
  *    when fewer than two frames share the peak bin.
  * Steps of tone --step files (a pause is a step of 0 Hz) and of a step plan are found without being
  * told the plan. Two consecutive steps without a pause between them must differ by more than the
- * tolerances. Frequencies below about 4 / frame_s Hz are not seen (the DC lobe); a hum alone in a
- * pause (before any louder step) is a tone to this definition and may be reported as a step.
+ * tolerances. Frequencies below about 4 / frame_s Hz are not seen (the DC lobe); a hum (or any
+ * steady line) alone in a pause is a tone to this definition and is reported as a step: the
+ * caller decides what it is.
  * Memory: the frame buffers and a ring of the last max_steps steps, fixed at create.
  *
  * Plan: frequencies x levels, each tone step_s long and followed by pause_s of silence (none when
@@ -50,8 +61,8 @@ typedef struct {
     double freq_tol_hz;    /* 0 .. 1000 (default 2)                                         */
     double level_tol_db;   /* 0.01 .. 40 (default 0.5)                                      */
     double tonal_db;       /* 0 .. 60 (default 10: the tone holds >= 91 % of the power)     */
-    double min_level_dbfs; /* -200 .. 0 (default -90)                                       */
-    double pause_db;       /* 1 .. 200 (default 50)                                         */
+    double line_db;        /* 3 .. 100 (default 15): a line over the median bin              */
+    double min_level_dbfs; /* -200 .. 0 (default -200: no level rule)                       */
     size_t max_steps;      /* 1 .. 1e6: steps kept for get (default 4096)                   */
 } ml_steps_config;
 
@@ -85,6 +96,13 @@ uint64_t ml_steps_count(const ml_steps *q);
 /* Step number i (0 .. count - 1). ML_EINVAL for i >= count, ML_ENOSIGNAL when it has left the ring
  * (i < count - max_steps). */
 ml_status ml_steps_get(const ml_steps *q, uint64_t i, ml_step *out);
+#define ML_STEPS_SKIP_FRAMES 3   /* a run this long that is no step is a skipped run */
+#define ML_STEPS_MAX_SKIPPED 64  /* skipped runs kept for get */
+/* Skipped runs found so far, and number i of them (index, start, end, frequency_hz, level_dbfs
+ * and nframes = the run's frames set; the measured fields 0). ML_EINVAL for i >= count,
+ * ML_ENOSIGNAL when it has left the ring. */
+uint64_t ml_steps_skipped_count(const ml_steps *q);
+ml_status ml_steps_get_skipped(const ml_steps *q, uint64_t i, ml_step *out);
 /* Samples between a step's end and the moment push reports it: at most frame + hop frames. */
 size_t ml_steps_latency(const ml_steps *q);
 

@@ -198,7 +198,8 @@ static ml_status walk_input(ctx *c, const json_t *in)
 static ml_status walk(ctx *c, const json_t *root)
 {
     if (!json_is_object(root))
-        return fail(c, "not a JSON object");
+        return fail(c, "not a modlens JSON report: the JSON text is %s, not an object",
+                    json_is_array(root) ? "an array" : "a single value");
     ml_status st = walk_input(c, json_object_get(root, "input"));
     if (st != ML_OK)
         return st;
@@ -284,7 +285,7 @@ ml_status ml_result_parse(const char *data, size_t len, ml_result **out, char *e
     json_t *root = json_loadb(data ? data : "", len, JSON_REJECT_DUPLICATES, &je);
     ml_status st;
     if (root == NULL)
-        st = fail(&c, "not a JSON report: line %d, column %d: %s", je.line, je.column, je.text);
+        st = fail(&c, "not a modlens JSON report: line %d, column %d: %s", je.line, je.column, je.text);
     else
         st = walk(&c, root);
     json_decref(root);

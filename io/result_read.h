@@ -22,7 +22,9 @@
  * most ML_RESULT_NAME_MAX - 1 bytes when dotted; "verdict", when present, is "pass", "fail" or
  * "unchecked"; at least one metric. Which names must be numbers (the metric registry) is the
  * caller's check (analyzer/saved.h).
- * Anything else is ML_EFORMAT with a one-line reason in err (with line and column for JSON syntax).
+ * Anything else is ML_EFORMAT with a one-line reason in err (with line and column for JSON syntax);
+ * text that is no JSON object at all (bad syntax, an array, too deeply nested) is reported as
+ * "not a modlens JSON report: why".
  */
 #ifndef ML_IO_RESULT_READ_H
 #define ML_IO_RESULT_READ_H

@@ -157,7 +157,8 @@ def main():
     base = {"input": {"path": "x.wav", "kind": "audio", "kind_reason": "--kind audio", "format": "WAV 16-bit PCM",
                       "sample_rate_hz": 8000.0, "channels": 1, "channel": 1, "frames": 8000, "duration_s": 1.0,
                       "start_s": 0.0, "analysed_s": 1.0},
-            "audio": {"thd_pct": 0.01, "thd_db": -80.0, "clipped_samples": 0}, "verdict": "unchecked"}
+            "audio": {"thd_pct": 0.01, "thd_db": -80.0, "clipped_samples": 0},
+            "hum": {"mains_hz": 50.0, "level_dbfs": -90.0}, "verdict": "unchecked"}
 
     def report(name, change=None, text=None):
         r = json.loads(json.dumps(base))
@@ -172,6 +173,14 @@ def main():
     report("rep-neg-count.json", lambda r: r["audio"].__setitem__("clipped_samples", -3))
     report("rep-channels-huge.json", lambda r: r["input"].__setitem__("channels", 2 ** 62))
     report("rep-frames-2p63.json", text=json.dumps(base).replace('"frames": 8000', '"frames": 9223372036854775807'))
+    # impossible figures (the registry's ranges) and a lost section; JSON that is no report
+    report("rep-neg-thd.json", lambda r: r["audio"].__setitem__("thd_pct", -5.0))
+    report("rep-enob-40.json", lambda r: r["audio"].__setitem__("enob_bits", 40.0))
+    report("rep-db-299.json", lambda r: r["audio"].__setitem__("thd_db", -299.0))
+    report("rep-no-audio.json", lambda r: r.pop("audio"))
+    report("rep-array.json", text="[1, 2]")
+    raw("rep-bom.json", b"\xef\xbb\xbf" + json.dumps(base).encode())
+    report("rep-deep.json", text="[" * 5000 + "]" * 5000)
     # a FLAC file with a header and no frames; a rate so high that 20..20000 Hz is under one bin
     # FLAC format: "fLaC", then the last metadata block (flag 0x80, type 0 STREAMINFO, 34 bytes):
     # block sizes 4096, frame sizes unknown (0), 8000 Hz, 1 channel, 16 bits, 0 samples, no MD5

@@ -332,7 +332,11 @@ def check_hum(exe, ck):
     if ok:
         f = [round(p["frequency_hz"]) for p in rep["sweep"]["points"]]
         ck.check("hum: the steps, not the hum between them", f == [50, 400, 1000, 3000], str(f))
-        ck.check("hum: a note says so", any("taken for hum" in n for n in rep["notes"]), str(rep["notes"]))
+        # each tone left out is named: its frequency and when it starts (the pauses begin at 1.0,
+        # 2.8, 4.6 and 6.4 s by construction)
+        note = [n for n in rep["notes"] if "as hum" in n]
+        ck.check("hum: a note names each hum tone left out", len(note) == 1 and note[0].startswith("4 ")
+                 and all("50.0 Hz at %.2f s" % t in note[0] for t in (1.0, 2.8, 4.6, 6.4)), str(rep["notes"]))
 
 
 def check_usage(exe, ck):
@@ -344,11 +348,14 @@ def check_usage(exe, ck):
         rc, out, err = sweep(exe, args)
         ck.check("usage: %s" % " ".join(args), rc == 2 and out == "" and len(err.strip().splitlines()) == 1
                  and word in err, err.strip())
-    # a recording without steps: a report with no points and the reason
+    # a recording without a usable step (noise alone; one frame) is bad input, as for measure:
+    # one line naming the file, exit 2, nothing on standard output
     sf.write("noise.wav", (0.01 * np.random.default_rng(3).standard_normal(RATE * 2)).astype(np.float32), RATE)
-    rc, rep, err = sweep_json(exe, ["noise.wav"])
-    ck.check("no steps: exit 0, no points, a note", rc == 0 and rep is not None and E.get(rep, "sweep.steps") == 0 and rep["sweep"]["points"] == []
-             and any("no steps" in n for n in rep["notes"]), err)
+    sf.write("one.wav", np.array([0.1], dtype=np.float32), RATE, subtype="FLOAT")
+    for name in ("noise.wav", "one.wav"):
+        rc, out, err = sweep(exe, [name])
+        ck.check("no step in %s: exit 2, one line naming it" % name, rc == 2 and out == ""
+                 and len(err.strip().splitlines()) == 1 and name in err and "no step" in err, err.strip())
 
 
 def main():

@@ -17,7 +17,7 @@
 
 #define INPUT \
     "\"input\": {\"path\": \"x.wav\", \"kind\": \"audio\", \"sample_rate_hz\": 48000.0, \"channels\": 1, " \
-    "\"frames\": 48000}"
+    "\"frames\": 48000}, \"hum\": {\"mains_hz\": 50}"
 
 static ml_status check_text(const char *text, char *err, size_t errlen)
 {
@@ -43,7 +43,9 @@ START_TEST(registered_metrics_are_numbers)
     ck_assert_int_eq(check_text("{" INPUT ", \"audio\": {\"clipped_samples\": 2.5}}", err, sizeof err), ML_EFORMAT);
     ck_assert_ptr_nonnull(strstr(err, "audio.clipped_samples"));
     ck_assert_int_eq(check_text("{" INPUT ", \"audio\": {\"clipped_samples\": -1}}", err, sizeof err), ML_EFORMAT);
-    ck_assert_int_eq(check_text("{" INPUT ", \"live\": {\"lost_frames\": 1e15}}", err, sizeof err), ML_OK);
+    ck_assert_int_eq(check_text("{" INPUT ", \"audio\": {\"thd_pct\": 1}, \"live\": {\"lost_frames\": 1e15}}", err,
+                                sizeof err),
+                     ML_OK);
     /* uncertainties */
     ck_assert_int_eq(check_text("{" INPUT ", \"audio\": {\"thd_pct\": 1}, \"uncertainty\": {\"audio\": {\"thd_pct\": -0.1}}}",
                                 err, sizeof err),
@@ -56,6 +58,59 @@ START_TEST(registered_metrics_are_numbers)
                                 sizeof err),
                      ML_EFORMAT);
     ck_assert_ptr_nonnull(strstr(err, "a\\x1bb"));
+}
+END_TEST
+
+/* Values no figure can take (analyzer/values.h: the reportable range, |dB| <= ML_FIGURE_DB_LIMIT
+ * and ENOB 0..ML_ENOB_MAX_BITS; the definitions of README "Metrics": THD and THD+N are r.m.s.
+ * ratios, a share of time lies in 0..100 %, a frequency is not negative and a sampled one not
+ * above the rate) and reports without the sections their kind always has. */
+START_TEST(impossible_values_and_missing_sections)
+{
+    static const struct {
+        const char *group, *value, *key;
+    } bad[] = {
+        {"audio", "\"thd_pct\": -5", "audio.thd_pct"},
+        {"audio", "\"thdn_pct\": -0.001", "audio.thdn_pct"},
+        {"audio", "\"enob_bits\": 33", "audio.enob_bits"},
+        {"audio", "\"enob_bits\": -1", "audio.enob_bits"},
+        {"audio", "\"thd_db\": -299", "audio.thd_db"},
+        {"audio", "\"noise_dbfs\": 300", "audio.noise_dbfs"},
+        {"audio", "\"fundamental_hz\": -1000", "audio.fundamental_hz"},
+        {"audio", "\"fundamental_hz\": 96001", "audio.fundamental_hz"},
+        {"audio", "\"fundamental_vrms\": -1", "audio.fundamental_vrms"},
+        {"modulation", "\"overmodulation_pct\": 101", "modulation.overmodulation_pct"},
+        {"modulation", "\"index\": -0.5", "modulation.index"},
+    };
+    char text[512], err[256];
+    for (size_t i = 0; i < sizeof bad / sizeof bad[0]; i++) {
+        if (strcmp(bad[i].group, "audio") == 0)
+            snprintf(text, sizeof text, "{" INPUT ", \"audio\": {%s}}", bad[i].value);
+        else
+            snprintf(text, sizeof text, "{" INPUT ", \"audio\": {\"thd_db\": -60}, \"%s\": {%s}}", bad[i].group,
+                     bad[i].value);
+        ck_assert_msg(check_text(text, err, sizeof err) == ML_EFORMAT, "case %zu accepted", i);
+        ck_assert_msg(strstr(err, bad[i].key) && strstr(err, "impossible"), "case %zu: %s", i, err);
+    }
+    /* at the edges, and the signed figures */
+    ck_assert_int_eq(check_text("{" INPUT ", \"audio\": {\"thd_pct\": 0, \"enob_bits\": 32, \"thd_db\": -290, "
+                                "\"dc_offset_pct\": -3, \"fundamental_hz\": 24000}}",
+                                err, sizeof err),
+                     ML_OK);
+    /* an audio report without its audio figures; an if report without the carrier */
+    ck_assert_int_eq(check_text("{" INPUT ", \"imd\": {\"smpte_pct\": 1}}", err, sizeof err), ML_EFORMAT);
+    ck_assert_str_eq(err, "no \"audio\" section: a saved audio report always has audio, hum");
+    ck_assert_int_eq(check_text("{\"input\": {\"path\": \"x.wav\", \"kind\": \"if\", \"sample_rate_hz\": 48000, "
+                                "\"channels\": 1, \"frames\": 9}, \"audio\": {\"thd_pct\": 1}, \"hum\": {\"mains_hz\": 50}, "
+                                "\"modulation\": {\"index\": 0.5}}",
+                                err, sizeof err),
+                     ML_EFORMAT);
+    ck_assert_ptr_nonnull(strstr(err, "\"carrier\""));
+    /* a sweep report holds its own section only */
+    ck_assert_int_eq(check_text("{\"input\": {\"path\": \"x.wav\", \"kind\": \"audio\", \"sample_rate_hz\": 48000, "
+                                "\"channels\": 1, \"frames\": 9}, \"sweep\": {\"steps\": 3}}",
+                                err, sizeof err),
+                     ML_OK);
 }
 END_TEST
 
@@ -83,6 +138,7 @@ int main(void)
     Suite *s = suite_create("analyzer_saved");
     TCase *tc = tcase_create("core");
     tcase_add_test(tc, registered_metrics_are_numbers);
+    tcase_add_test(tc, impossible_values_and_missing_sections);
     tcase_add_test(tc, read_gives_registry_units);
     suite_add_tcase(s, tc);
     return ml_check_run(s);

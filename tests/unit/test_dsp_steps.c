@@ -11,6 +11,7 @@
 
 #include "tests/unit/ml_check.h"
 #include <math.h>
+#include <stdbool.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -134,6 +135,55 @@ START_TEST(block_invariance_and_reset)
             ck_assert(memcmp(&s, &ref[i], sizeof s) == 0);
         }
     }
+    ml_steps_destroy(q);
+    free(x);
+}
+END_TEST
+
+START_TEST(quiet_line_and_skipped_run)
+{
+    /* By construction (dsp/synth.h steps, AES17 levels): 1 kHz at -10 dBFS, 3 kHz at -90 dBFS,
+     * 2 kHz at -10 dBFS (1 s each), then 5 kHz for 0.35 s, each with 0.25 s of pause, all under
+     * white noise at -80 dBFS. The -90 dBFS step holds a tenth of the noise's power but its line
+     * stands ~35 dB over the noise per bin: a step, at its level within 0.5 dB (the noise in its
+     * lobe, 15 % r.m.s. in amplitude per frame, averages over the frames). The 0.35 s tone is
+     * steady but shorter than min_step_s plus both edges: a skipped run, named at 5 kHz. */
+    const double rate = 48000;
+    ml_synth_config sc = ml_synth_config_default(rate);
+    sc.kind = ML_SYNTH_STEPS;
+    const ml_synth_step seq[] = {{1000, -10, 1}, {0, -10, 0.25}, {3000, -90, 1}, {0, -10, 0.25},
+                                 {2000, -10, 1}, {0, -10, 0.25}, {5000, -20, 0.35}, {0, -10, 0.25}};
+    memcpy(sc.steps, seq, sizeof seq);
+    sc.nsteps = sizeof seq / sizeof seq[0];
+    sc.noise_dbfs = -80.0;
+    ml_synth *syn = NULL;
+    ck_assert_int_eq(ml_synth_create(&sc, &syn), ML_OK);
+    const size_t n = (size_t)ml_synth_cycle_frames(syn);
+    float *x = malloc(n * sizeof *x);
+    ck_assert_int_eq(ml_synth_generate(syn, x, n), ML_OK);
+    ml_synth_destroy(syn);
+    ml_steps *q = make(rate);
+    ck_assert_int_eq(ml_steps_push(q, x, n), ML_OK);
+    ck_assert_int_eq(ml_steps_finish(q), ML_OK);
+    ck_assert_uint_eq(ml_steps_count(q), 3);
+    const double f[] = {1000, 3000, 2000}, l[] = {-10, -90, -10};
+    for (uint64_t i = 0; i < 3; i++) {
+        ml_step s;
+        ck_assert_int_eq(ml_steps_get(q, i, &s), ML_OK);
+        ck_assert_msg(fabs(s.frequency_hz / f[i] - 1) < 1e-3, "step %llu: %.3f Hz", (unsigned long long)i,
+                      s.frequency_hz);
+        ck_assert_msg(fabs(s.level_dbfs - l[i]) < 0.5, "step %llu: %.3f dBFS", (unsigned long long)i, s.level_dbfs);
+    }
+    ck_assert_uint_ge(ml_steps_skipped_count(q), 1);
+    bool seen = false;
+    for (uint64_t i = 0; i < ml_steps_skipped_count(q); i++) {
+        ml_step s;
+        ck_assert_int_eq(ml_steps_get_skipped(q, i, &s), ML_OK);
+        seen = seen || (fabs(s.frequency_hz / 5000 - 1) < 0.01 && s.start >= (uint64_t)(3.6 * rate));
+    }
+    ck_assert(seen);
+    ml_step s;
+    ck_assert_int_eq(ml_steps_get_skipped(q, ml_steps_skipped_count(q), &s), ML_EINVAL);
     ml_steps_destroy(q);
     free(x);
 }
@@ -282,7 +332,7 @@ START_TEST(config_rejected)
         case 6: c.level_tol_db = 0; break;
         case 7: c.tonal_db = 61; break;
         case 8: c.min_level_dbfs = 1; break;
-        case 9: c.pause_db = 0; break;
+        case 9: c.line_db = 2; break;
         default: c.max_steps = 0; break;
         }
         ck_assert_msg(ml_steps_create(&c, &q) == ML_EINVAL, "case %d", i);
@@ -306,6 +356,7 @@ static Suite *steps_suite(void)
     tcase_set_timeout(tc, 100);
     tcase_add_test(tc, plan_read_back_without_options);
     tcase_add_test(tc, block_invariance_and_reset);
+    tcase_add_test(tc, quiet_line_and_skipped_run);
     tcase_add_test(tc, bounded_ring);
     tcase_add_test(tc, filtered_recording_levels_and_thd);
     tcase_add_test(tc, plan_functions);
