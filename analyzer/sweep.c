@@ -572,6 +572,10 @@ int ml_sweep_analyse(ml_sweep_opts *o, ml_segment *seg, ml_report *rep, ml_repor
         rc = ml_cli_error("%s: out of memory", o->m.in.path);
     if (rc == 0)
         rc = ml_sweep_measure_steps(&r);
+    if (rc == 0 && r.nsteps == 0) /* every run was hum after all */
+        rc = ml_cli_error("%s: no step to measure (only hum at a mains frequency): a step is a steady tone of at "
+                          "least %.2f s (plus %.2f s at each end) standing clear of the noise",
+                          o->m.in.path, r.steps_cfg.min_step_s, r.steps_cfg.edge_s);
     if (rc == 0) {
         const char *name = kind == ML_KIND_AUDIO ? "audio" : kind == ML_KIND_IF ? "if" : "iq";
         ml_measure_describe(rep, &o->m, seg, name, reason);

@@ -33,7 +33,7 @@
 /* A steady tone within 1 % of a mains multiple (m x 50 or 60 Hz, m = 1..6) more than this far below
  * the loudest step is hum heard in the pauses (or under a step lost in it), not a step: it is left
  * out and counted (a real step at 50 Hz lies within a few tens of dB of the others) */
-#define ML_SWEEP_HUM_DB 30.0
+#define ML_SWEEP_HUM_DB ML_STEPS_HUM_DB
 #define ML_SWEEP_NAMED 8 /* tones left out that the notes name one by one (the rest are counted) */
 
 typedef struct {

@@ -174,7 +174,7 @@ static bool is_hum(double f_hz, double level_dbfs, double loudest_dbfs)
 {
     if (!(level_dbfs < loudest_dbfs - ML_SWEEP_HUM_DB))
         return false;
-    for (int m = 1; m <= 6; m++)
+    for (int m = 1; m <= ML_STEPS_HUM_ORDERS; m++)
         if (fabs(f_hz / (50.0 * m) - 1) <= 0.01 || fabs(f_hz / (60.0 * m) - 1) <= 0.01)
             return true;
     return false;
@@ -359,5 +359,29 @@ int ml_sweep_measure_steps(ml_sweep_run *r)
         ml_measure_progress(r->seg, m->first + m->nframes, &next, &shown);
     }
     ml_measure_progress_end(shown);
+    if (rc != 0 || r->kind != ML_KIND_AUDIO)
+        return rc;
+    /* a hum run the segmentation read off its frequency (broken up by a weak step beside it, its
+     * few frames give a coarse estimate) is hum by the frequency its own analysis measured */
+    double loudest = -INFINITY;
+    for (size_t i = 0; i < r->nsteps; i++)
+        loudest = fmax(loudest, r->meas[i].step.level_dbfs);
+    size_t kept = 0;
+    for (size_t i = 0; i < r->nsteps; i++) {
+        ml_sweep_meas *m = &r->meas[i];
+        if (isfinite(m->frequency_hz) && is_hum(m->frequency_hz, m->step.level_dbfs, loudest)) {
+            if (r->nhum < ML_SWEEP_NAMED) {
+                r->hum[r->nhum] = m->step;
+                r->hum[r->nhum].frequency_hz = m->frequency_hz;
+                r->hum[r->nhum].start += r->edge;
+            }
+            r->nhum++;
+            continue;
+        }
+        if (kept != i)
+            r->meas[kept] = *m;
+        kept++;
+    }
+    r->nsteps = kept;
     return rc;
 }

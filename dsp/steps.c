@@ -19,6 +19,7 @@
 #include <string.h>
 
 #include "dsp/internal.h"
+#include "dsp/window.h"
 
 typedef struct {
     uint64_t j; /* frame number */
@@ -54,6 +55,7 @@ struct ml_steps {
     /* steps found */
     ml_step *steps;
     uint64_t count;
+    double loudest_db; /* the loudest tonal frame so far (-INFINITY: none)                   */
     /* steady runs too short to measure (ML_STEPS_MAX_SKIPPED kept) */
     ml_step skipped[ML_STEPS_MAX_SKIPPED];
     uint64_t nskipped;
@@ -170,6 +172,7 @@ void ml_steps_reset(ml_steps *q)
     q->pos = q->frames = 0;
     q->rpos = 0;
     q->count = q->nskipped = 0;
+    q->loudest_db = -INFINITY;
     clear_run(q);
 }
 
@@ -255,6 +258,58 @@ static double select_kth(double *a, size_t n, size_t k)
     return a[kk];
 }
 
+/* True when f_hz lies on a mains multiple m x 50 or m x 60 Hz, m <= ML_STEPS_HUM_ORDERS, within 1 %
+ * or tol_hz (the frame's resolution). */
+static bool at_mains(double f_hz, double tol_hz)
+{
+    for (int m = 1; m <= ML_STEPS_HUM_ORDERS; m++)
+        for (int j = 0; j < 2; j++) {
+            const double fm = m * (j ? 60.0 : 50.0);
+            if (fabs(f_hz - fm) <= fmax(0.01 * fm, tol_hz))
+                return true;
+        }
+    return false;
+}
+
+/* The frame's line when its strongest, at bin kp, is hum (header): the strongest bin two lobes clear
+ * of kp and of every mains multiple, and a lobe clear of kp's harmonics 2..10, whose lobe's mean
+ * power stands line_db over the median bin power med; kp when there is none. */
+static size_t beside_hum(const ml_steps *q, size_t kp, double med)
+{
+    const size_t half = q->nfft / 2;
+    const double bin_hz = q->cfg.rate_hz / (double)q->nfft, lobe_hz = (double)q->lobe * bin_hz;
+    const double fkp = (double)kp * bin_hz;
+    size_t best = kp;
+    double pbest = 0.0;
+    const double pkp = p2(q->out[kp]), over = pow(10.0, q->cfg.line_db / 10.0);
+    const double per_raw = (double)q->F / (double)q->nfft; /* a padded bin in the frame's own bins */
+    for (size_t k = q->kmin; k + q->lobe <= half; k++) {
+        const double f = (double)k * bin_hz, p = p2(q->out[k]);
+        /* two lobes clear: a bin whose own lobe reaches into a mains line's holds that line */
+        if (!(p > pbest) || at_mains(f, 2.0 * lobe_hz) || (k > kp ? k - kp : kp - k) <= 2 * q->lobe)
+            continue;
+        /* and line_db over the hum line's leakage there (the Hann window's sidelobes, their
+         * envelope within half a frame bin: ml_window_leakage) */
+        const double d = ((double)k - (double)kp) * per_raw;
+        double leak = 0.0;
+        for (int i = -2; i <= 2; i++)
+            leak = fmax(leak, ml_window_leakage(ML_WINDOW_HANN, q->F, d + 0.25 * i));
+        if (p < over * leak * pkp)
+            continue;
+        const double h = nearbyint(f / fkp);
+        if (h >= 2 && h <= 10 && fabs(f - h * fkp) <= lobe_hz)
+            continue;
+        best = k;
+        pbest = p;
+    }
+    if (best == kp)
+        return kp;
+    double pl = 0.0;
+    for (size_t k = best - q->lobe; k <= best + q->lobe; k++)
+        pl += p2(q->out[k]);
+    return pl / (double)(2 * q->lobe + 1) >= pow(10.0, q->cfg.line_db / 10.0) * med ? best : kp;
+}
+
 static void analyse_frame(ml_steps *q)
 {
     const size_t F = q->F;
@@ -278,12 +333,31 @@ static void analyse_frame(ml_steps *q)
             kp = k;
         }
     }
-    frame_info fi = {.j = q->frames, .kp = kp};
-    const uint64_t fstart = q->frames * q->hop, fend = fstart + F;
-    q->frames++;
+    /* the noise in the lobe: the median bin power / ln 2 (the mean of exponentially distributed
+     * bin powers) times the lobe's bins */
+    const size_t nb = half + 1 - q->kmin, nlobe = 2 * q->lobe + 1;
+    const double med = select_kth(q->pw, nb, nb / 2), noise = med / log(2.0) * (double)nlobe;
     double pt = 0.0;
     for (size_t k = kp - q->lobe; k <= kp + q->lobe; k++)
         pt += p2(q->out[k]);
+    /* a steady hum line far below the loudest step is not the frame's tone when another line
+     * stands out beside it (a stop-band step under the hum) */
+    if (isfinite(q->loudest_db) && pt > 0
+        && 10.0 * log10(pt * q->scale / 0.5) < q->loudest_db - ML_STEPS_HUM_DB
+        && at_mains((double)kp * q->cfg.rate_hz / (double)q->nfft,
+                    (double)q->lobe * q->cfg.rate_hz / (double)q->nfft)) {
+        const size_t k2 = beside_hum(q, kp, med);
+        if (k2 != kp) {
+            kp = k2;
+            best = p2(q->out[kp]);
+            pt = 0.0;
+            for (size_t k = kp - q->lobe; k <= kp + q->lobe; k++)
+                pt += p2(q->out[k]);
+        }
+    }
+    frame_info fi = {.j = q->frames, .kp = kp};
+    const uint64_t fstart = q->frames * q->hop, fend = fstart + F;
+    q->frames++;
     /* parabolic interpolation of ln power around the peak */
     double d = 0.0;
     {
@@ -300,10 +374,6 @@ static void analyse_frame(ml_steps *q)
     fi.lev_db = fi.pt > 0 ? 10.0 * log10(fi.pt / 0.5) : -INFINITY;
     fi.x = q->out[kp];
     const double rest = (tot - pt) * q->scale;
-    /* the noise in the lobe: the median bin power / ln 2 (the mean of exponentially distributed
-     * bin powers) times the lobe's bins */
-    const size_t nb = half + 1 - q->kmin, nlobe = 2 * q->lobe + 1;
-    const double med = select_kth(q->pw, nb, nb / 2), noise = med / log(2.0) * (double)nlobe;
     int tonal = fi.pt > 0 && fi.lev_db >= q->cfg.min_level_dbfs;
     if (tonal && !(fi.pt >= pow(10.0, q->cfg.tonal_db / 10.0) * rest)) /* else a line above the noise */
         tonal = pt / (double)nlobe >= pow(10.0, q->cfg.line_db / 10.0) * med;
@@ -314,6 +384,7 @@ static void analyse_frame(ml_steps *q)
         close_run(q);
         return;
     }
+    q->loudest_db = fmax(q->loudest_db, fi.lev_db);
     if (q->open) {
         const double mf = q->sum_f / (double)q->nrun, ml = q->sum_lev / (double)q->nrun;
         const double ftol = fmax(q->cfg.freq_tol_pct / 100.0 * mf, q->cfg.freq_tol_hz);

@@ -34,7 +34,11 @@
  * told the plan. Two consecutive steps without a pause between them must differ by more than the
  * tolerances. Frequencies below about 4 / frame_s Hz are not seen (the DC lobe); a hum (or any
  * steady line) alone in a pause is a tone to this definition and is reported as a step: the
- * caller decides what it is.
+ * caller decides what it is. A frame whose strongest line lies on a mains multiple (m x 50 or
+ * 60 Hz, m <= ML_STEPS_HUM_ORDERS, within 1 % or a lobe) more than ML_STEPS_HUM_DB below the loudest
+ * tonal frame so far takes instead the strongest line clear of every mains multiple and of that
+ * line's harmonics 2..10, when it stands out of the noise by line_db: a stop-band step weaker than
+ * the hum is still a step.
  * Memory: the frame buffers and a ring of the last max_steps steps, fixed at create.
  *
  * Plan: frequencies x levels, each tone step_s long and followed by pause_s of silence (none when
@@ -97,6 +101,8 @@ uint64_t ml_steps_count(const ml_steps *q);
  * (i < count - max_steps). */
 ml_status ml_steps_get(const ml_steps *q, uint64_t i, ml_step *out);
 #define ML_STEPS_SKIP_FRAMES 3   /* a run this long that is no step is a skipped run */
+#define ML_STEPS_HUM_DB 30.0     /* a mains line this far below the loudest step is hum  */
+#define ML_STEPS_HUM_ORDERS 6    /* the mains multiples m x 50 / 60 Hz taken for hum     */
 #define ML_STEPS_MAX_SKIPPED 64  /* skipped runs kept for get */
 /* Skipped runs found so far, and number i of them (index, start, end, frequency_hz, level_dbfs
  * and nframes = the run's frames set; the measured fields 0). ML_EINVAL for i >= count,
