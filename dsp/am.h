@@ -138,13 +138,15 @@ ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double car
  * channel: ml_am_default_bandwidth returns 0. */
 #define ML_AM_MIN_BANDWIDTH_HZ 300.0
 
-/* D = min(2 |carrier_hz|, rate_hz - 2 |carrier_hz|): the distance from 0 Hz of the mixer's image
- * of a real IF's carrier (see above). */
+/* D = min(2 |carrier_hz|, rate_hz - 2 |carrier_hz|) in Hz: the distance from 0 Hz of the mixer's
+ * image of a real IF's carrier (see above). rate_hz > 0, |carrier_hz| < rate_hz / 2 (else the
+ * value means nothing). Pure; no allocation. */
 double ml_am_image_distance_hz(double rate_hz, double carrier_hz);
 
-/* The transition width for a channel of bandwidth_hz around carrier_hz: min(1000, B / 4,
- * fs / 2 - B), for real input also at most D - 2 B (the image's sidebands in the stop band).
- * 0 when no transition is left (B too wide for the carrier). */
+/* The transition width in Hz for a channel of bandwidth_hz (B > 0) around carrier_hz sampled at
+ * rate_hz (fs): min(1000, B / 4, fs / 2 - B), for real input also at most D - 2 B (the image's
+ * sidebands in the stop band). 0 when no transition is left (B too wide for the carrier). Pure;
+ * no allocation. */
 double ml_am_transition(double rate_hz, bool complex_input, double carrier_hz, double bandwidth_hz);
 
 /* The widest channel filter that fits around a carrier at carrier_hz sampled at rate_hz, at most
