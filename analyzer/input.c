@@ -254,7 +254,8 @@ static int detect_if(const ml_input_opts *in, const ml_analysis_opts *an, ml_seg
         snprintf(reason + used, len - used, "no signal found: audio");
         return 0;
     }
-    /* an AM channel needs room around its carrier (dsp/modulation.h: at least 100 Hz a side) */
+    /* an AM channel needs room around its carrier, clear of the mixer's image (dsp/am.h: at least
+     * ML_AM_MIN_BANDWIDTH_HZ a side) */
     double bw = 0, tr = 0;
     if (e.verdict == ML_CHANNEL_IF
         && ml_modulation_channel(seg->info->rate_hz, false, e.carrier_hz, 0, 10000.0, &bw, &tr) != ML_OK) {

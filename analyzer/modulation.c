@@ -26,6 +26,7 @@
 #include "analyzer/uncertainty.h"
 #include "analyzer/values.h"
 #include "analyzer/worker.h"
+#include "dsp/am.h"
 #include "dsp/carrier.h"
 #include "dsp/dropout.h"
 #include "dsp/figures.h"
@@ -125,9 +126,12 @@ static int prepare(mod_pass *p, double carrier_hz)
     ml_status st = ml_modulation_channel(rate, p->iq, car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ,
                                          &bw, &transition);
     if (st != ML_OK && bw > 0)
-        return ml_cli_error("--bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
-                            "(at most %.1f Hz)",
-                            o->an.bandwidth_hz, car.frequency_hz, rate, bw);
+        return ml_cli_error("%s: --bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
+                            "(at most %.1f Hz%s)",
+                            o->in.path, o->an.bandwidth_hz, car.frequency_hz, rate, bw,
+                            bw > MAX_BANDWIDTH_HZ - 0.05 ? ""
+                            : p->iq ? ": wider reaches past the band edge"
+                                    : ": wider lets the mixer's image into the channel");
     if (st != ML_OK)
         return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->in.path,
                             car.frequency_hz, p->iq ? "the band edge" : "0 Hz or the Nyquist frequency");
@@ -363,10 +367,16 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
     ml_report_add_text(rep, "modulation.carrier_reference",
                        ml_values_c_source(&r, o->an.carrier_reference, cref, sizeof cref));
     ml_report_add_text(rep, "modulation.overmodulation_kind", ml_values_overmodulation_kind(&r));
+    char image[64] = ""; /* a real IF's mixer image, kept in the stop band (dsp/am.h) */
+    if (!p->iq)
+        snprintf(image, sizeof image, ", the mixer's image %.0f Hz away",
+                 ml_am_image_distance_hz(p->seg->info->rate_hz, r.carrier_hz));
     snprintf(rep->analysis, sizeof rep->analysis,
-             "carrier %.1f Hz, channel filter +-%.0f Hz (%zu taps; %zu samples of settling left out at each "
-             "end), %s window, %zu-point FFT%s, peak hold %.3g ms/s, pinch-off floor %.2f %% of C",
-             r.carrier_hz, r.bandwidth_hz, r.filter_taps, r.edge, ml_window_name(o->an.window), r.rf_nfft,
+             "carrier %.1f Hz, channel filter +-%.0f Hz (stop band from %.0f Hz%s; %zu taps; %zu samples of "
+             "settling left out at each end), %s window, %zu-point FFT%s, peak hold %.3g ms/s, pinch-off floor "
+             "%.2f %% of C",
+             r.carrier_hz, r.bandwidth_hz, r.bandwidth_hz + r.transition_hz, image, r.filter_taps, r.edge,
+             ml_window_name(o->an.window), r.rf_nfft,
              r.spectra_modulated_only ? " over modulated stretches" : "", o->an.peak_hold_ms, r.floor_pct);
     const ml_audio_plan *plan = ml_modulation_get_audio_plan(p->mod);
     const double rate = p->seg->info->rate_hz;

@@ -32,6 +32,9 @@
 #define REV_SIGMAS 5.0  /* reversal depth: 5 standard deviations (P = 3e-7 per sample)           */
 #define HYST_SIGMAS 3.0
 #define UNKNOWN_NOISE 0.05 /* noise assumed (re carrier_ref) before 32 samples are seen           */
+#define TRANSITION_MAX_HZ 1000.0 /* the channel filter's transition at most (dsp/am.h)             */
+#define IMAGE_SHARE 40.0 /* a real IF's default channel leaves the transition D / 40 of the room D
+                            to the mixer's image: B = 97.5 % of the D / 2 that the image allows  */
 
 struct ml_am {
     ml_am_config cfg;
@@ -80,16 +83,39 @@ struct ml_am {
     ml_am_trapezoid trap;    /* envelope against the reference channel                 */
 };
 
+double ml_am_image_distance_hz(double rate_hz, double carrier_hz)
+{
+    const double f = fabs(carrier_hz);
+    return fmin(2.0 * f, rate_hz - 2.0 * f);
+}
+
+double ml_am_transition(double rate_hz, bool complex_input, double carrier_hz, double bandwidth_hz)
+{
+    const double b = bandwidth_hz;
+    double t = fmin(fmin(TRANSITION_MAX_HZ, 0.25 * b), rate_hz / 2 - b);
+    if (!complex_input) /* the image's nearer sideband, at D - b at the nearest, in the stop band */
+        t = fmin(t, ml_am_image_distance_hz(rate_hz, carrier_hz) - 2.0 * b);
+    return t > 0 ? t : 0.0;
+}
+
 double ml_am_default_bandwidth(double rate_hz, bool complex_input, double carrier_hz, double max_hz,
                                double *transition_hz)
 {
-    const double nyq = rate_hz / 2, fc = carrier_hz;
-    double b = complex_input ? fmin(max_hz, nyq - fabs(fc)) : fmin(fmin(max_hz, fc), nyq - fc);
-    *transition_hz = fmin(1000.0, 0.25 * b);
-    if (!complex_input) /* the mixer's image at -2 fc must fall in the stop band: b + t <= 2 fc - b */
-        b = fmin(b, fc - *transition_hz / 2);
-    b = fmin(b, nyq - *transition_hz);
-    return b >= 100.0 ? b : 0.0;
+    const double nyq = rate_hz / 2, fc = fabs(carrier_hz);
+    double b;
+    if (complex_input) { /* the channel within the band edge, and the filter's stop edge too */
+        b = fmin(max_hz, nyq - fc);
+        b = fmin(b, nyq - fmin(TRANSITION_MAX_HZ, 0.25 * b));
+    } else { /* 2 b + t <= D with the transition t of at least D / IMAGE_SHARE */
+        const double d = ml_am_image_distance_hz(rate_hz, carrier_hz);
+        b = fmin(max_hz, 0.5 * (d - fmin(TRANSITION_MAX_HZ, d / IMAGE_SHARE)));
+    }
+    if (!(b >= ML_AM_MIN_BANDWIDTH_HZ)) {
+        *transition_hz = 0.0;
+        return 0.0;
+    }
+    *transition_hz = ml_am_transition(rate_hz, complex_input, carrier_hz, b);
+    return b;
 }
 
 ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double carrier_hz,
@@ -126,12 +152,21 @@ ml_status ml_am_create(const ml_am_config *cfg, ml_am **out)
     const size_t block_len = (size_t)llround(cfg->block_s * cfg->rate_hz);
     if (block_len < 4 || block_len > (size_t)1 << 24)
         return ML_EINVAL;
+    /* a real IF: the mixer's image and its sidebands (up to B from it) in the stop band (dsp/am.h) */
+    double transition_hz = cfg->transition_hz;
+    if (!cfg->complex_input) {
+        const double room = ml_am_image_distance_hz(cfg->rate_hz, cfg->carrier_hz) - 2.0 * cfg->bandwidth_hz;
+        if (!(room > 0))
+            return ML_EINVAL;
+        transition_hz = fmin(transition_hz, room);
+    }
     ml_am *q = calloc(1, sizeof *q);
     if (q == NULL)
         return ML_ENOMEM;
     q->cfg = *cfg;
+    q->cfg.transition_hz = transition_hz;
     ml_cfir_config fc = {.rate_hz = cfg->rate_hz, .cutoff_hz = cfg->bandwidth_hz,
-                         .transition_hz = cfg->transition_hz, .stop_db = 100.0,
+                         .transition_hz = transition_hz, .stop_db = 100.0,
                          .single_precision = cfg->single_precision};
     ml_status st = ml_cfir_create(&fc, &q->filter);
     if (st != ML_OK) {

@@ -73,7 +73,10 @@ typedef struct {
     bool complex_input;        /* false: real IF samples; true: I/Q                                */
     double carrier_hz;         /* mixing frequency; |carrier_hz| < rate_hz / 2 (>= 0 for real)   */
     double bandwidth_hz;       /* one-sided channel (audio) bandwidth: > 0                         */
-    double transition_hz;      /* channel filter transition width: > 0                             */
+    double transition_hz;      /* channel filter transition width: > 0; for real input create
+                                  narrows it to D - 2 bandwidth_hz when wider (the mixer's image
+                                  in the stop band, see ml_am_default_bandwidth), and rejects a
+                                  bandwidth with 2 bandwidth_hz >= D                              */
     double carrier_ref;        /* provisional unmodulated carrier amplitude: > 0 (thresholds,
                                   histogram range); the caller refines C afterwards                */
     double hold_s;             /* peak hold: 0 < hold_s < 0.5 (default 0.001)                      */
@@ -117,10 +120,42 @@ typedef struct {
 ml_am_config ml_am_config_default(double rate_hz, bool complex_input, double carrier_hz,
                                   double bandwidth_hz, double carrier_ref);
 
+/* The channel's room (docs/references.md 6: a tone fm on the carrier puts side frequencies at
+ * fc +- fm). Mixing a real IF by exp(-2 pi i fc t) moves its positive-frequency half to 0 Hz and
+ * its negative-frequency half, the mixer's image, to -2 fc, which the sampling folds to fs - 2 fc:
+ * the image's carrier lies D = min(2 fc, fs - 2 fc) from 0 Hz (ml_am_image_distance_hz), the
+ * nearer for a carrier below fs / 4 being 2 fc, above it fs - 2 fc. The image's side
+ * frequencies reach to D - fm. The channel filter passes |f| <= B and stops |f| >= B + t; the
+ * image stays out (in the stop band, 100 dB down) whatever the modulation in the channel
+ * (fm <= B) when
+ *     B + t + B <= D,  i.e.  2 B + t <= D.
+ * That also keeps the channel clear of 0 Hz and the Nyquist frequency in the IF (fc - B > 0 and
+ * fc + B < fs / 2). An I/Q capture has no image; its channel must lie within the band edge:
+ * B <= fs / 2 - |fc| and B + t <= fs / 2. */
+
+/* The narrowest channel the default choice gives (one-sided): the low end of a telephone-grade
+ * voice channel (300-3400 Hz, common practice). A carrier with less room than this has no useful
+ * channel: ml_am_default_bandwidth returns 0. */
+#define ML_AM_MIN_BANDWIDTH_HZ 300.0
+
+/* D = min(2 |carrier_hz|, rate_hz - 2 |carrier_hz|) in Hz: the distance from 0 Hz of the mixer's
+ * image of a real IF's carrier (see above). rate_hz > 0, |carrier_hz| < rate_hz / 2 (else the
+ * value means nothing). Pure; no allocation. */
+double ml_am_image_distance_hz(double rate_hz, double carrier_hz);
+
+/* The transition width in Hz for a channel of bandwidth_hz (B > 0) around carrier_hz sampled at
+ * rate_hz (fs): min(1000, B / 4, fs / 2 - B), for real input also at most D - 2 B (the image's
+ * sidebands in the stop band). 0 when no transition is left (B too wide for the carrier). Pure;
+ * no allocation. */
+double ml_am_transition(double rate_hz, bool complex_input, double carrier_hz, double bandwidth_hz);
+
 /* The widest channel filter that fits around a carrier at carrier_hz sampled at rate_hz, at most
- * max_hz: for I/Q within the band edge, for real input also clear of 0 Hz and of the mixer's
- * image at -2 carrier_hz. *transition_hz gets its transition width, min(1000, b / 4). Returns the
- * one-sided bandwidth, or 0 when less than 100 Hz fits. */
+ * max_hz. Real input: B = min(max_hz, (D - t0) / 2) with t0 = min(1000, D / 40), the transition
+ * taking a fortieth of the image's room (B is then 97.5 % of the D / 2 the image allows; a
+ * sideband between B and D / 2 cannot be told from the image's own with any filter). I/Q:
+ * B = min(max_hz, fs / 2 - |fc|), lowered until B + min(1000, B / 4) <= fs / 2. *transition_hz
+ * gets ml_am_transition(B) (t0 unless max_hz bounds B). Returns the one-sided bandwidth, or 0
+ * (and *transition_hz 0) when less than ML_AM_MIN_BANDWIDTH_HZ fits. */
 double ml_am_default_bandwidth(double rate_hz, bool complex_input, double carrier_hz, double max_hz,
                                double *transition_hz);
 

@@ -104,11 +104,11 @@ ml_status ml_modulation_channel(double rate_hz, bool complex_input, double carri
     *transition_hz = t;
     if (widest <= 0)
         return ML_EINVAL;
-    if (requested_hz > 0) {
-        if (requested_hz > widest + 1e-9)
+    if (requested_hz > 0) { /* the widest as printed (0.1 Hz) is accepted: the carrier is measured */
+        if (requested_hz > widest + 0.05)
             return ML_EINVAL;
-        *bandwidth_hz = requested_hz;
-        *transition_hz = fmin(t, 0.25 * requested_hz);
+        *bandwidth_hz = fmin(requested_hz, widest);
+        *transition_hz = ml_am_transition(rate_hz, complex_input, carrier_hz, requested_hz);
     }
     return ML_OK;
 }

@@ -183,9 +183,10 @@ ml_modulation_config ml_modulation_config_default(double rate_hz, const ml_chann
                                                   int64_t span_frames);
 
 /* The channel filter around carrier_hz: requested_hz, or when it is 0 the widest that fits
- * (ml_am_default_bandwidth, at most max_hz); *transition_hz its transition width. ML_EINVAL when
- * less than 100 Hz fits (*bandwidth_hz 0) or requested_hz exceeds the widest (*bandwidth_hz gets
- * the widest). */
+ * (ml_am_default_bandwidth, at most max_hz); *transition_hz its transition width
+ * (ml_am_transition: a real IF's mixer image and its sidebands stay in the stop band, dsp/am.h).
+ * ML_EINVAL when less than ML_AM_MIN_BANDWIDTH_HZ fits (*bandwidth_hz 0) or requested_hz exceeds
+ * the widest (*bandwidth_hz gets the widest). */
 ml_status ml_modulation_channel(double rate_hz, bool complex_input, double carrier_hz, double requested_hz,
                                 double max_hz, double *bandwidth_hz, double *transition_hz);
 

@@ -58,11 +58,12 @@ def main():
             # analytic CNR as measure defines it (carrier.cnr_db): the carrier line's power over the
             # noise in the channel carrier +- B, the density the mean over the channel's bins between
             # the lines. B is measure's default, the widest channel that fits up to 10 kHz: 10 kHz
-            # for iq; for if the carrier's 6 kHz less half the 1 kHz transition (the mixer's image
-            # must fall in the stop band), 5.5 kHz. Carrier power 0.09 (iq) or 0.045 (if); noise
+            # for iq; for if README's "Channel bandwidth" (the mixer's image D = 2 x 6 kHz away in
+            # the stop band: 2 B + t <= D, t = D / 40 = 300 Hz), (12000 - 300) / 2 = 5850 Hz.
+            # Carrier power 0.09 (iq) or 0.045 (if); noise
             # density 2e-8 / 48 kHz (iq) or 1e-8 / 24 kHz (if). 0.3 dB: the mean over some 5000
             # independent bins of a 1 s interval spreads by about 0.06 dB (5 sigma)
-            b, pc, dens = (10000.0, 0.09, 2e-8 / 48000) if kind == "iq" else (5500.0, 0.045, 1e-8 / 24000)
+            b, pc, dens = (10000.0, 0.09, 2e-8 / 48000) if kind == "iq" else (5850.0, 0.045, 1e-8 / 24000)
             want = 10 * math.log10(pc / (dens * 2 * b))
             cn = [float(r["cnr_db"]) for r in steady]
             c.check(kind + ": cnr %.1f dB" % want, all(abs(v - want) <= 0.3 for v in cn),

@@ -263,6 +263,8 @@ START_TEST(config_rejection)
     bad[nbad++].bandwidth_hz = -5000.0;
     bad[nbad++].bandwidth_hz = NAN;
     bad[nbad++].bandwidth_hz = 23500.0; /* cutoff + transition beyond Nyquist: no channel filter */
+    bad[nbad++].bandwidth_hz = 12000.0; /* real IF at 12 kHz: 2 B = D = 24 kHz leaves the mixer's
+                                           image no stop band (dsp/am.h: 2 B + t <= D) */
     bad[nbad++].transition_hz = 0.0;
     bad[nbad++].transition_hz = NAN;
     bad[nbad++].carrier_ref = 0.0;
@@ -1147,6 +1149,56 @@ START_TEST(trapezoid_needs_varying_reference)
 }
 END_TEST
 
+START_TEST(image_kept_out_above_quarter_rate)
+{
+    /* A real IF above fs / 4: fc = 20 kHz at 48 kHz. Mixing moves the negative-frequency half to
+     * -40 kHz, folded to +8 kHz: the image's carrier lies D = min(2 fc, fs - 2 fc) = 8 kHz from
+     * 0 Hz and its side frequencies (docs/references.md 6: at the carrier +- fm) reach down to
+     * D - fm. dsp/am.h's rule 2 B + t <= D keeps them in the stop band. The widest channel,
+     * worked out by hand: t0 = min(1000, 8000 / 40) = 200, B = (8000 - 200) / 2 = 3900, t = 200.
+     * A tone at fm = 3850 Hz (50 Hz inside the channel's edge), m = 0.9: the envelope must be
+     * A(1 + m g cos) [haykin:2001], g the filter's gain at fm (twin filter), sample by sample
+     * within 2e-5 A beyond that (the image's remains, 100 dB down, add 1e-5 A at most), and the
+     * index (emax - emin) / (emax + emin) = m g [newnes] within 1e-4; no pinch-off or reversal.
+     * The same with the transition asked at 1000 Hz (2 B + t = 8800 > D): create narrows it to
+     * D - 2 B = 200, so the filter and the envelope are the same. */
+    const double fc = 20000.0, m = 0.9, fm = 3850.0;
+    double t = 0;
+    const double b = ml_am_default_bandwidth(FS, false, fc, 10000.0, &t);
+    ck_assert_double_eq_tol(b, 3900.0, 1e-9);
+    ck_assert_double_eq_tol(t, 200.0, 1e-9);
+    ck_assert_double_eq_tol(ml_am_image_distance_hz(FS, fc), 8000.0, 1e-9);
+    const size_t n = 96000;
+    for (int asked = 0; asked < 2; asked++) {
+        ml_am_config cfg = ml_am_config_default(FS, false, fc, b, AMP);
+        cfg.transition_hz = asked ? 1000.0 : t;
+        ml_am *q = make(&cfg);
+        cfg.transition_hz = t; /* the filter create must have designed */
+        ml_cfir *twin = twin_filter(&cfg);
+        ck_assert_uint_eq(ml_am_latency(q), ml_cfir_latency(twin));
+        const double g = pow(10.0, ml_cfir_response_db(twin, fm) / 20.0);
+        ml_cfir_destroy(twin);
+        ck_assert_double_le(fabs(1.0 - g), 1.2e-3); /* +-0.01 dB (dsp/cfir.h) */
+        const size_t lat = ml_am_latency(q);
+        double *e = envelope(n, ENV_TONE, m, fm, 0.0, 0);
+        double complex *z = on_carrier(e, n, AMP, fc, false);
+        run_out o = run(q, z, NULL, n, 4096);
+        const size_t d = first_input(&o, z, n, lat);
+        double worst = 0;
+        for (size_t i = lat; i + lat < o.n; i++) {
+            const double want = AMP * (1.0 + (e[i + d] - 1.0) * g);
+            worst = fmax(worst, fabs(o.env[i] - want));
+        }
+        ck_assert_msg(worst <= 2e-5 * AMP, "asked %d: envelope off by %g A", asked, worst / AMP);
+        const ml_am_result *r = &o.r;
+        ck_assert_double_eq_tol((r->emax - r->emin) / (r->emax + r->emin), m * g, 1e-4);
+        ck_assert_uint_eq(r->pinch_events, 0);
+        ck_assert_uint_eq(r->reversal_events, 0);
+        free_case(&o, z, e, q);
+    }
+}
+END_TEST
+
 static Suite *am_suite(void)
 {
     Suite *s = suite_create("dsp_am");
@@ -1170,6 +1222,7 @@ static Suite *am_suite(void)
     tcase_add_test(tc, troughs_cut_by_the_ends);
     tcase_add_test(tc, trapezoid_linear_and_quadratic);
     tcase_add_test(tc, trapezoid_needs_varying_reference);
+    tcase_add_test(tc, image_kept_out_above_quarter_rate);
     suite_add_tcase(s, tc);
     return s;
 }

@@ -109,22 +109,68 @@ END_TEST
 
 START_TEST(channel_bandwidth)
 {
-    /* ml_am_default_bandwidth, worked out by hand: I/Q at 3 kHz, 48 kHz: min(10000, 24000 - 3000)
-     * = 10000, transition min(1000, 2500) = 1000; a real IF at 3 kHz: min(10000, 3000, 21000) =
-     * 3000, transition 750, and the mixer image at -6 kHz needs B <= 3000 - 375 = 2625 */
+    /* ml_am_default_bandwidth and ml_am_transition (dsp/am.h), worked out by hand. Mixing a real
+     * IF leaves the image of its carrier D = min(2 fc, fs - 2 fc) from 0 Hz, with side frequencies
+     * (docs/references.md 6: carrier +- fm) down to D - fm: 2 B + t <= D keeps them in the stop
+     * band for any fm <= B; the default transition is t0 = min(1000, D / 40).
+     *  - I/Q at 3 kHz, 48 kHz: min(10000, 24000 - 3000) = 10000, transition min(1000, 2500) = 1000;
+     *  - real IF at 3 kHz (below fs / 4): D = 6000, t0 = 150, B = (6000 - 150) / 2 = 2925;
+     *  - real IF at 20 kHz (above fs / 4): D = 48000 - 40000 = 8000, t0 = 200, B = 3900;
+     *  - real IF at 12 kHz: D = 24000, B = min(10000, 11700) = 10000, t = min(1000, 2500, 4000);
+     *  - real IF at 16 kHz: D = 16000, t0 = 400, B = 7800;
+     *  - --bandwidth 2900 on a real IF at 8 kHz, 22.05 kHz: D = 6050, t = min(1000, 725, 8125,
+     *    6050 - 5800) = 250; 3000 does not fit (the widest is (6050 - 151.25) / 2 = 2949.375);
+     *  - real IF at 23.7 kHz: D = 600, B = (600 - 15) / 2 = 292.5 < 300: no channel. */
     double b, t;
     ck_assert_int_eq(ml_modulation_channel(FS, true, 3000, 0, 10000, &b, &t), ML_OK);
     ck_assert_double_eq(b, 10000);
     ck_assert_double_eq(t, 1000);
     ck_assert_int_eq(ml_modulation_channel(FS, false, 3000, 0, 10000, &b, &t), ML_OK);
-    ck_assert_double_eq(b, 2625);
-    ck_assert_double_eq(t, 750);
+    ck_assert_double_eq_tol(b, 2925, 1e-9);
+    ck_assert_double_eq_tol(t, 150, 1e-9);
+    ck_assert_int_eq(ml_modulation_channel(FS, false, 20000, 0, 10000, &b, &t), ML_OK);
+    ck_assert_double_eq_tol(b, 3900, 1e-9);
+    ck_assert_double_eq_tol(t, 200, 1e-9);
+    ck_assert_int_eq(ml_modulation_channel(FS, false, 12000, 0, 10000, &b, &t), ML_OK);
+    ck_assert_double_eq_tol(b, 10000, 1e-9);
+    ck_assert_double_eq_tol(t, 1000, 1e-9);
+    ck_assert_int_eq(ml_modulation_channel(FS, false, 16000, 0, 10000, &b, &t), ML_OK);
+    ck_assert_double_eq_tol(b, 7800, 1e-9);
+    ck_assert_double_eq_tol(t, 400, 1e-9);
+    ck_assert_int_eq(ml_modulation_channel(22050, false, 8000, 2900, 10000, &b, &t), ML_OK);
+    ck_assert_double_eq_tol(b, 2900, 1e-9);
+    ck_assert_double_eq_tol(t, 250, 1e-9);
+    ck_assert_int_eq(ml_modulation_channel(22050, false, 8000, 3000, 10000, &b, &t), ML_EINVAL);
+    ck_assert_double_eq_tol(b, 2949.375, 1e-9); /* the widest, for the message */
+    ck_assert_int_eq(ml_modulation_channel(FS, false, 20000, 4000, 10000, &b, &t), ML_EINVAL);
+    ck_assert_int_eq(ml_modulation_channel(FS, false, 23700, 0, 10000, &b, &t), ML_EINVAL);
+    ck_assert_double_eq(b, 0);
     ck_assert_int_eq(ml_modulation_channel(FS, true, 3000, 4000, 10000, &b, &t), ML_OK);
     ck_assert_double_eq(b, 4000);
     ck_assert_double_eq(t, 1000);
     ck_assert_int_eq(ml_modulation_channel(FS, true, 3000, 12000, 10000, &b, &t), ML_EINVAL);
     ck_assert_double_eq(b, 10000); /* the widest, for the message */
     ck_assert_int_eq(ml_modulation_channel(FS, false, 50, 0, 10000, &b, &t), ML_EINVAL);
+    /* the rule itself over a grid of rates and real carriers on both sides of fs / 4: every
+     * channel given keeps 2 B + t <= D, is at least 97.5 % of D / 2 unless max_hz bounds it, and a
+     * request up to the widest gets a transition that keeps the rule too */
+    const double rates[] = {16000, 22050, 44100, 48000, 96000};
+    for (size_t i = 0; i < sizeof rates / sizeof rates[0]; i++) {
+        const double fs = rates[i];
+        for (double fc = 100; fc < fs / 2; fc += fs / 97) {
+            const double d = fmin(2 * fc, fs - 2 * fc);
+            if (ml_modulation_channel(fs, false, fc, 0, 10000, &b, &t) != ML_OK) {
+                ck_assert_double_lt(0.5 * d, 300 * 1.03); /* only when under 300 Hz fits */
+                continue;
+            }
+            ck_assert_msg(2 * b + t <= d + 1e-9, "fs %g fc %g: B %g t %g D %g", fs, fc, b, t, d);
+            ck_assert(b >= 300 && t > 0 && b + t <= fs / 2);
+            ck_assert(b == 10000 || b >= 0.975 * 0.5 * d - 1e-9);
+            const double req = 0.9 * b;
+            ck_assert_int_eq(ml_modulation_channel(fs, false, fc, req, 10000, &b, &t), ML_OK);
+            ck_assert(2 * b + t <= d + 1e-9 && t > 0);
+        }
+    }
 }
 END_TEST
 
