@@ -51,6 +51,12 @@ void ml_measure_tone_note(ml_report *r, const ml_audio_result *a, const char *wh
 /* The notes on the analysis transform of plan (ml_audio_plan_transform): a window other than the
  * preferred one, and hum not measurable or a lower bound on a capture of capture_s seconds (the
  * length needed: the plan's plus overhead_s, what the capture loses before the analysis). */
+/* The channel filter's one-sided width and transition for a carrier at carrier_hz (dsp/modulation.h
+ * ml_modulation_channel: requested_hz, or the widest up to widest_hz when 0): 0, or exit status 2
+ * with one line naming path (a --bandwidth that does not fit, saying the widest that does and why;
+ * a carrier with no room for a channel). */
+int ml_measure_channel(const char *path, double rate, bool iq, double carrier_hz, double requested_hz,
+                       double widest_hz, double *bw_hz, double *transition_hz);
 void ml_measure_plan_notes(ml_report *rep, const ml_audio_plan *plan, ml_window_type preferred, double capture_s,
                            double overhead_s);
 

@@ -123,18 +123,10 @@ static int prepare(mod_pass *p, double carrier_hz)
     if (rc != 0)
         return rc;
     double bw, transition;
-    ml_status st = ml_modulation_channel(rate, p->iq, car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ,
-                                         &bw, &transition);
-    if (st != ML_OK && bw > 0)
-        return ml_cli_error("%s: --bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
-                            "(at most %.1f Hz%s)",
-                            o->in.path, o->an.bandwidth_hz, car.frequency_hz, rate, bw,
-                            bw > MAX_BANDWIDTH_HZ - 0.05 ? ""
-                            : p->iq ? ": wider reaches past the band edge"
-                                    : ": wider lets the mixer's image into the channel");
-    if (st != ML_OK)
-        return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->in.path,
-                            car.frequency_hz, p->iq ? "the band edge" : "0 Hz or the Nyquist frequency");
+    if ((rc = ml_measure_channel(o->in.path, rate, p->iq, car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ, &bw,
+                                 &transition))
+        != 0)
+        return rc;
     double c_file = 0;
     if (o->an.carrier_reference
         && (rc = ml_input_reference_carrier(o->an.carrier_reference, &o->in, p->iq, rate, car.frequency_hz,
@@ -155,7 +147,7 @@ static int prepare(mod_pass *p, double carrier_hz)
     mc.single_precision = true; /* rounding near a float capture's own resolution (dsp/cfir.h) */
     mc.uncertainty = true;
     mc.max_batch_frames = BATCH_FRAMES;
-    st = ml_modulation_create(&mc, &p->mod);
+    ml_status st = ml_modulation_create(&mc, &p->mod);
     if (st == ML_ENOSIGNAL)
         return ml_cli_error("%s: %lld frames are too few for the channel filter", o->in.path,
                             (long long)seg->nframes);
@@ -402,6 +394,23 @@ static int report(mod_pass *p, const char *reason, ml_report *rep)
                             o->out.limits && o->out.limits->has_mask ? &o->out.limits->mask : NULL,
                             p->c_prov / r.c);
     ml_imd_envelope_report(p->imd, rep, &o->an, r.audio_valid && r.audio_result.tone_present); /* imd.c */
+    return 0;
+}
+
+int ml_measure_channel(const char *path, double rate, bool iq, double carrier_hz, double requested_hz,
+                       double widest_hz, double *bw_hz, double *transition_hz)
+{
+    ml_status st = ml_modulation_channel(rate, iq, carrier_hz, requested_hz, widest_hz, bw_hz, transition_hz);
+    if (st != ML_OK && *bw_hz > 0)
+        return ml_cli_error("%s: --bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
+                            "(at most %.1f Hz%s)",
+                            path, requested_hz, carrier_hz, rate, *bw_hz,
+                            *bw_hz > widest_hz - 0.05 ? ""
+                            : iq                      ? ": wider reaches past the band edge"
+                                                      : ": wider lets the mixer's image into the channel");
+    if (st != ML_OK)
+        return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", path, carrier_hz,
+                            iq ? "the band edge" : "0 Hz or the Nyquist frequency");
     return 0;
 }
 

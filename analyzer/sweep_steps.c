@@ -122,15 +122,10 @@ static int modulation_setup(ml_sweep_run *r, double carrier_hz, double *c_file)
     if (rc != 0)
         return rc;
     double transition;
-    ml_status st = ml_modulation_channel(rate, iq, r->car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ,
-                                         &r->bw_hz, &transition);
-    if (st != ML_OK && r->bw_hz > 0)
-        return ml_cli_error("--bandwidth %.1f Hz does not fit around a carrier at %.1f Hz sampled at %.0f Hz "
-                            "(at most %.1f Hz)",
-                            o->an.bandwidth_hz, r->car.frequency_hz, rate, r->bw_hz);
-    if (st != ML_OK)
-        return ml_cli_error("%s: the carrier at %.1f Hz is too close to %s for a channel filter", o->in.path,
-                            r->car.frequency_hz, iq ? "the band edge" : "0 Hz or the Nyquist frequency");
+    if ((rc = ml_measure_channel(o->in.path, rate, iq, r->car.frequency_hz, o->an.bandwidth_hz, MAX_BANDWIDTH_HZ,
+                                 &r->bw_hz, &transition))
+        != 0)
+        return rc;
     *c_file = 0;
     if (o->an.carrier_reference)
         return ml_input_reference_carrier(o->an.carrier_reference, &o->in, iq, rate, r->car.frequency_hz,
