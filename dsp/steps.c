@@ -19,6 +19,7 @@
 #include <string.h>
 
 #include "dsp/internal.h"
+#include "dsp/order.h"
 #include "dsp/window.h"
 
 typedef struct {
@@ -229,35 +230,6 @@ static double p2(double complex x)
     return creal(x) * creal(x) + cimag(x) * cimag(x);
 }
 
-/* The k-th smallest of a[0..n) (k < n; a is reordered): Hoare's selection, middle pivot. */
-static double select_kth(double *a, size_t n, size_t k)
-{
-    ptrdiff_t lo = 0, hi = (ptrdiff_t)n - 1;
-    const ptrdiff_t kk = (ptrdiff_t)k;
-    while (lo < hi) {
-        const double pivot = a[lo + (hi - lo) / 2];
-        ptrdiff_t i = lo, j = hi;
-        while (i <= j) {
-            while (a[i] < pivot)
-                i++;
-            while (a[j] > pivot)
-                j--;
-            if (i <= j) {
-                const double t = a[i];
-                a[i++] = a[j];
-                a[j--] = t;
-            }
-        }
-        if (kk <= j)
-            hi = j;
-        else if (kk >= i)
-            lo = i;
-        else
-            break;
-    }
-    return a[kk];
-}
-
 /* True when f_hz lies on a mains multiple m x 50 or m x 60 Hz, m <= ML_STEPS_HUM_ORDERS, within 1 %
  * or tol_hz (the frame's resolution). */
 static bool at_mains(double f_hz, double tol_hz)
@@ -336,7 +308,7 @@ static void analyse_frame(ml_steps *q)
     /* the noise in the lobe: the median bin power / ln 2 (the mean of exponentially distributed
      * bin powers) times the lobe's bins */
     const size_t nb = half + 1 - q->kmin, nlobe = 2 * q->lobe + 1;
-    const double med = select_kth(q->pw, nb, nb / 2), noise = med / log(2.0) * (double)nlobe;
+    const double med = ml_order_select(q->pw, nb, nb / 2), noise = med / log(2.0) * (double)nlobe;
     double pt = 0.0;
     for (size_t k = kp - q->lobe; k <= kp + q->lobe; k++)
         pt += p2(q->out[k]);
