@@ -663,8 +663,16 @@ ml_status ml_spectrum_get_frequency(const ml_spectrum *q, size_t k, double *hz)
     const double n = (double)q->cfg.nfft, hop = (double)q->cfg.hop;
     const double *acc = ml_spectrum_sum(q);
     const fftw_complex *xacc = q->use_sel && !sel_is_all(q) ? q->xsel : q->xacc;
+    size_t pairs = segs;
+    if (pairs < 2 && q->use_sel && q->segments >= 2 && cabs(q->xacc[k]) > 0) {
+        /* one selected segment has no phase advance: every segment's has (a steady line's
+         * frequency is the same in the segments left out; where it is absent there, its bin holds
+         * noise, which weighs little in the sum of products) */
+        xacc = q->xacc;
+        pairs = q->segments;
+    }
     double delta;
-    if (segs >= 2 && cabs(xacc[k]) > 0) {
+    if (pairs >= 2 && cabs(xacc[k]) > 0) {
         /* X_i[k] advances by 2 pi f hop / fs per segment [flanagan:1966]; the bin centre accounts
          * for 2 pi k hop / n of it, the rest is the offset delta (in bins) from the centre. */
         double dphi = carg(xacc[k]) - 2.0 * ML_PI * (double)k * hop / n;
