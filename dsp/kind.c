@@ -537,7 +537,8 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
         r->why = ML_IFW_LOW;
         goto done;
     }
-    /* rule 1b: a baseband line at least as strong as fc (a mains line the tone decision passed over) */
+    /* rule 1b: a baseband line about as strong as fc or stronger, no sideband of it (a mains line
+     * the tone decision passed over) */
     const size_t gap = 2 * lobe + 1;
     size_t kb = 0;
     for (size_t k = bin_of(20.0, bin_hz); k < bin_of(LOW_HZ, bin_hz) && k + lobe < nbins; k++)
@@ -546,8 +547,12 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
     if (kb != 0) {
         ml_component o;
         const size_t excl[1] = {kf};
+        const size_t km = 2 * kf - kb; /* its counterpart about fc: a sideband pair is modulation */
+        ml_component om;
+        const size_t excl_m[2] = {kf, kb};
+        const bool pair = km + lobe < nbins && ml_line_measure(spec, psd, nbins, km, excl_m, 2, &om) == ML_OK;
         if (ml_line_measure(spec, psd, nbins, kb, excl, 1, &o) == ML_OK && real_line(&o, floor)
-            && o.line_power >= p1) {
+            && o.line_power >= p1 * pow(10.0, -SYMMETRIC_DB / 10.0) && !(pair && symmetric(&o, &om, floor))) {
             r->other_hz = (double)kb * bin_hz;
             ml_spectrum_get_frequency(spec, kb, &r->other_hz);
             r->other_dbc = dbc(o.line_power, p1);
@@ -692,8 +697,8 @@ char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
         break;
     case ML_IFW_BASEBAND_STRONGER:
         snprintf(buf, n,
-                 "a line at %.1f Hz, below 3 kHz, is %.1f dB stronger than the %.1f Hz line, which an AM IF "
-                 "carrier never is: audio",
+                 "a line at %.1f Hz, below 3 kHz, stands %+.1f dB re the %.1f Hz line, no sideband of it: an "
+                 "AM IF carrier outweighs all else: audio",
                  r->other_hz, r->other_dbc, fc);
         break;
     case ML_IFW_NOISE:

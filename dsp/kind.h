@@ -63,13 +63,15 @@
  *     clear of the noise (ml_audio_result.tone_clear, dsp/metrics.h): audio (noise, or hum and
  *     noise: no carrier);
  *  1. fc below 3 kHz: audio (an IF carrier sits above the audio it carries);
- *  1b. a baseband line at least as strong as fc: the strongest bin of 20 Hz .. 3 kHz (its lobe
- *     clear of DC's and of fc's), a line above the noise and the floor whose line power is at
- *     least fc's: audio. An AM signal's carrier is its strongest line (each sideband is (m/2)^2 of
- *     it, docs/references.md 6) and an IF holds no baseband content near its carrier's level, so
- *     fc is then the weaker tone of an audio signal: the high tone of a SMPTE/DIN two-tone test
- *     (docs/references.md 12: fl 12 dB above fh), whose low tone on a mains frequency the tone
- *     decision passes over (its odd-order products fh +- 2 fl look like hum sidebands, rule 3);
+ *  1b. a baseband line about as strong as fc: the strongest bin of 20 Hz .. 3 kHz (its lobe
+ *     clear of DC's and of fc's), a line above the noise and the floor whose line power is no
+ *     more than 3 dB below fc's, and no member of a symmetric pair around fc (its counterpart
+ *     2 fc - f within 3 dB: a sideband of fc): audio. An AM signal's carrier is its strongest
+ *     line (each sideband is (m/2)^2 of it, -6.02 dBc at m = 1, docs/references.md 6) and an IF
+ *     holds no baseband content near its carrier's level, so fc is then the weaker tone of an
+ *     audio signal: the high tone of a SMPTE/DIN two-tone test (docs/references.md 12: fl 12 dB
+ *     above fh; 1:1 variants), whose low tone on a mains frequency the tone decision passes over
+ *     (its odd-order products fh +- 2 fl look like hum sidebands, rule 3);
  *  2. a symmetric pair of sidebands at fc +- fm (the strongest component within +-10 kHz of fc,
  *     outside its lobe, and its mirror both stand above the noise, within 3 dB of each other):
  *     audio when the band also holds a line at fm itself at least as strong as the sidebands (they
@@ -175,7 +177,7 @@ typedef enum {
     ML_IFW_LONE_CARRIER,        /* rule 7: IF                                                  */
     ML_IFW_NOISE,               /* rule 0: audio, no line stands clear of the noise             */
     ML_IFW_OTHER_LINE,          /* rule 6: audio, another line of consequence in the band       */
-    ML_IFW_BASEBAND_STRONGER,   /* rule 1b: audio, a baseband line at least as strong as fc      */
+    ML_IFW_BASEBAND_STRONGER,   /* rule 1b: audio, a baseband line about as strong as fc or more */
 } ml_if_why;
 
 typedef struct {
