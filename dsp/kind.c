@@ -29,7 +29,6 @@
 #define OTHER_TRIES 8        /* symmetric pairs skipped before the search gives up (rule 6)        */
 #define MAINS_ORDERS 6       /* mains multiples left out of the search (dsp/metrics.h default)     */
 #define WITNESS_RANGE_DB 60.0 /* lines this close to the strongest are tested (pair rule 3)        */
-#define WITNESS_MAINS_DB 30.0 /* baseband mains lines only this close (pair rule 3: card pickup)   */
 #define WITNESS_MIN_DB 15.0   /* a line's image lies this far below it at least (pair rule 3)      */
 #define WITNESS_MAX_DB 20.0   /* ... and as far as the strongest's, less 6 dB, up to 20 dB (rule 3) */
 #define WITNESS_SPREAD_DB 6.0
@@ -140,45 +139,46 @@ static double lobe_power(const double *psd, size_t nfft, size_t k, size_t lobe)
     return s;
 }
 
-static bool at_mains(size_t k, double mains_hz, double bin_hz, size_t lobe);
-
 /* The noise density of block b: the largest median of it and its neighbours (wrapping). */
 static double noise_at(const double *med, size_t nblocks, size_t b)
 {
     return fmax(med[b], fmax(med[(b + 1) % nblocks], med[(b + nblocks - 1) % nblocks]));
 }
 
-/* Whether the line at complex bin k (lobe power p) has a counterpart about the strongest line
- * (bin kmax): a line clear of the noise at 2 fmax - f, inside the band and clear of DC, whose lobe
- * power lies within SYMMETRIC_DB of p (an AM carrier's sidebands come in such pairs). */
+/* Whether the line at complex bin k (peak bin power p) has a counterpart about the strongest line
+ * (bin kmax): a line clear of the noise at 2 fmax - f, inside the band and clear of DC, whose peak
+ * bin lies within SYMMETRIC_DB of p (an AM carrier's sidebands come in such pairs). */
 static bool sideband_of(const ml_pair *q, const double *acc, const double *med, size_t nblocks, size_t block,
                         size_t kmax, size_t k, double p)
 {
     const size_t nfft = ml_spectrum_nfft(q->spec), lobe = ml_spectrum_lobe_bins(q->spec);
     const long n = (long)nfft, sk = k < nfft / 2 ? (long)k : (long)k - n;
     const long sm = kmax < nfft / 2 ? (long)kmax : (long)kmax - n, c = 2 * sm - sk;
-    if (c <= -n / 2 + 2 * (long)lobe || c >= n / 2 - 2 * (long)lobe || labs(c) < 2 * (long)lobe)
+    if (c <= -n / 2 + (long)lobe || c >= n / 2 - (long)lobe || labs(c) <= (long)lobe)
         return false;
     const size_t kc = (size_t)((c + n) % n);
-    const double pc = lobe_power(acc, nfft, kc, lobe), ac = fmax(acc[kc], fmax(acc[kc - 1], acc[kc + 1]));
-    return ac > pow(10.0, WITNESS_CLEAR_DB / 10.0) * noise_at(med, nblocks, kc / block) && pc > 0 && p > 0
+    const double pc = acc[kc];
+    return pc > pow(10.0, WITNESS_CLEAR_DB / 10.0) * noise_at(med, nblocks, kc / block) && p > 0
            && fabs(10.0 * log10(pc / p)) <= SYMMETRIC_DB;
 }
 
 /* Pair rule 3 (header): every line of z off DC and Nyquist within WITNESS_RANGE_DB of the strongest
- * (bin kmax, lobe power p_max, image ratio image_db; its own lobes left out) that stands clear of the noise must not have a mirror
- * that stands clear of the noise too and within `required` dB of it. The noise: the median bin of
- * each block of NOISE_BLOCK_LOBES lobes of the accumulated spectrum acc (lines take a small share
- * of a block), scaled to the mean by the chi-square median (dsp/metrics.h), the largest of a block
- * and its two neighbours (a slope of the noise is not taken for lines). Sets r->lines_tested and,
- * for the strongest line that fails, r->mirror_hz, r->mirror_db, r->mirror_required_db. */
-static void test_lines(const ml_pair *q, const double *acc, size_t kmax, double p_max, double image_db,
-                       ml_pair_result *r)
+ * (bin kmax, image ratio image_db; its own lobes left out) that stands clear of the noise must not
+ * have a mirror that stands clear of the noise too and within `required` dB of it. Lines are read
+ * by their peak bins (the flat-top window holds a line's power there whatever its offset, and a
+ * real signal puts its mirror at exactly the mirrored offset); a line whose peak bin lies outside
+ * DC's lobe is clear of a DC offset's power (the window's side lobes lie 200 dB down). The noise:
+ * the median bin of each block of NOISE_BLOCK_LOBES lobes of the accumulated spectrum acc (lines
+ * take a small share of a block), scaled to the mean by the chi-square median (dsp/metrics.h), the
+ * largest of a block and its two neighbours (a slope of the noise is not taken for lines). Sets
+ * r->lines_tested and, for the strongest line that fails, r->mirror_hz, r->mirror_db,
+ * r->mirror_required_db. */
+static void test_lines(const ml_pair *q, const double *acc, size_t kmax, double image_db, ml_pair_result *r)
 {
     const size_t nfft = ml_spectrum_nfft(q->spec), lobe = ml_spectrum_lobe_bins(q->spec), w = 2 * lobe + 1;
-    const double bin_hz = q->cfg.rate_hz / (double)nfft;
     const double required = fmin(WITNESS_MAX_DB, fmax(WITNESS_MIN_DB, image_db - WITNESS_SPREAD_DB));
     const double allow = pow(10.0, -required / 10.0), clear = pow(10.0, WITNESS_CLEAR_DB / 10.0);
+    const double least = acc[kmax] * pow(10.0, -WITNESS_RANGE_DB / 10.0);
     size_t block = NOISE_BLOCK_LOBES * w;
     if (block > nfft)
         block = nfft;
@@ -193,25 +193,23 @@ static void test_lines(const ml_pair *q, const double *acc, size_t kmax, double 
         med[b] = ml_order_median(q->work, m) * to_mean;
     }
     double worst = 0.0;
-    for (size_t k = 2 * lobe; k + 2 * lobe <= nfft; k++) {
-        const size_t km = nfft - k, kk = k < nfft / 2 ? k : km; /* the mirror; |f| in bins */
-        if ((k > nfft / 2 ? k - nfft / 2 : nfft / 2 - k) < 2 * lobe)
+    for (size_t k = lobe + 1; k + lobe + 1 <= nfft; k++) {
+        const size_t km = nfft - k; /* the mirror */
+        if ((k > nfft / 2 ? k - nfft / 2 : nfft / 2 - k) <= lobe)
             continue; /* a line at Nyquist is its own mirror */
         bool peak = true;
         for (size_t d = 1; d <= lobe && peak; d++)
-            peak = acc[k] > acc[k - d] && acc[k] >= acc[k + d];
+            peak = acc[k] > acc[k - d] && acc[k] >= acc[(k + d) % nfft];
         const size_t dk = k > kmax ? k - kmax : kmax - k, dm = km > kmax ? km - kmax : kmax - km;
         if (!peak || dk <= 2 * lobe || dm <= 2 * lobe)
             continue; /* not a line, or the strongest (its mirror) */
-        const double hi = lobe_power(acc, nfft, k, lobe), lo = lobe_power(acc, nfft, km, lobe);
+        const double hi = acc[k], lo = acc[km];
         if (lo > hi || (lo == hi && k > nfft / 2))
             continue; /* the pair is tested from its stronger side */
-        const double range = at_mains(kk, 0.0, bin_hz, lobe) ? WITNESS_MAINS_DB : WITNESS_RANGE_DB;
-        if (!(hi >= p_max * pow(10.0, -range / 10.0)) || !(acc[k] > clear * noise_at(med, nblocks, k / block)))
+        if (!(hi >= least) || !(hi > clear * noise_at(med, nblocks, k / block)))
             continue;
         r->lines_tested++;
-        const double am = fmax(acc[km], fmax(acc[km - 1], acc[km + 1]));
-        if (am > clear * noise_at(med, nblocks, km / block) && lo > allow * hi && hi > worst
+        if (lo > clear * noise_at(med, nblocks, km / block) && lo > allow * hi && hi > worst
             && !(sideband_of(q, acc, med, nblocks, block, kmax, k, hi)
                  && sideband_of(q, acc, med, nblocks, block, kmax, km, lo))) {
             worst = hi;
@@ -269,7 +267,7 @@ ml_status ml_pair_get(const ml_pair *q, ml_pair_result *r)
             ml_spectrum_get_frequency(q->spec, kmax, &r->line_hz);
             r->image_db = 10.0 * log10(lp / fmax(im, 1e-30 * lp));
             if (r->image_db >= IMAGE_DB)
-                test_lines(q, acc, kmax, lp, r->image_db, r);
+                test_lines(q, acc, kmax, r->image_db, r);
         }
     }
     if (vx == 0 || vy == 0 || vx < SILENT_RATIO * vy || vy < SILENT_RATIO * vx) {

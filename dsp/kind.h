@@ -31,21 +31,27 @@
  *     practice, uncorrected sound-card I/Q receivers at the low end).
  *     The mirror test: a line of z is a local maximum (over +-lobe bins) whose peak bin stands
  *     10 dB above the noise density there (the median bin of a block of 8 lobes' bins, scaled to
- *     the mean, the largest of the block and its neighbours: with Gaussian noise averaged over the
- *     3 or more segments the analysis takes, a bin 10 dB above the mean is about 1e-9 likely), lying farther than 2 lobes
- *     from DC (an SDR's DC offset is its own mirror), from Nyquist and from the strongest line
- *     and its mirror, its lobe within 60 dB of the strongest (within 30 dB for a mains multiple
- *     k 50 or k 60 Hz, k = 1..6: hum a sound card picks up on both inputs is a mirror pair of
- *     its own and lies lower in any usable I/Q capture), tested from the stronger side of the
- *     pair f, -f. It fails when its mirror's peak (within a bin of -f) also stands 10 dB above
- *     the noise and the mirror's lobe lies less than R dB below the line's, R = the strongest
- *     line's image ratio less 6 dB, kept within 15..20 dB (15 dB: the least image rejection the
- *     rule grants any line; 20 dB: 5 dB inside the poorest receivers' 25 dB). A line too weak to
- *     show its mirror above the noise cannot fail. A single line with no other line clear of the
- *     noise cannot be told from a delayed copy of one pure tone: it stays ML_PAIR_IQ on its own
- *     image ratio (10 dB), give --kind to override. An I/Q capture whose own lines fall
- *     mirror-symmetric about 0 Hz (a carrier near 0 Hz whose modulation products cross to the
- *     other side, two stations at +f and -f) reads as ML_PAIR_MIRRORED: give --kind iq;
+ *     the mean, the largest of the block and its neighbours: with Gaussian noise averaged over
+ *     the 3 or more segments the analysis takes, a bin 10 dB above the mean is less than 1e-9
+ *     likely) and within 60 dB of the strongest line's peak bin (a copy's harmonics at 0.1 %
+ *     and its hum count), its peak bin outside DC's lobe (an SDR's DC offset is its own mirror;
+ *     the flat-top window's side lobes lie 200 dB down, so a line beyond the lobe is clear of
+ *     it), away from Nyquist and farther than 2 lobes from the strongest line and its mirror,
+ *     tested from the stronger side of the pair f, -f (peak bins: the window holds a line's
+ *     power there whatever its offset, and a real signal's mirror has the mirrored offset). It
+ *     fails when the peak bin at -f also stands 10 dB above the noise and less than R dB below
+ *     the line's, R = the strongest line's image ratio less 6 dB, kept within 15..20 dB (15 dB:
+ *     the least image rejection granted any line; 20 dB: 5 dB inside the 25 dB of the poorest
+ *     receivers), unless both f and -f are sidebands of the strongest line (each has a
+ *     counterpart 2 fmax - f clear of the noise within 3 dB of it: modulation products of a
+ *     carrier near 0 Hz that cross to the other side). A line too weak to show its mirror above
+ *     the noise cannot fail. Mains hum at baseband counts like any line: a copy delayed by tau
+ *     keeps its hum nearly symmetric (360 x 50 tau degrees), and so does hum a sound card picks
+ *     up on both inputs of an I/Q receiver: such a capture with hum within 60 dB of its carrier
+ *     reads as ML_PAIR_MIRRORED (give --kind iq; read alone, its I channel is the IF at |fc|).
+ *     A single line with no other line clear of the noise cannot be told from a delayed copy of
+ *     one pure tone: it stays ML_PAIR_IQ on its own image ratio (10 dB); give --kind to
+ *     override. Two stations at +f and -f of one I/Q capture read as ML_PAIR_MIRRORED too;
  *  4. ML_PAIR_TWO_SIGNALS: otherwise: a mirror-symmetric spectrum, two real signals.
  * A pair whose carrier lies within a lobe of 0 Hz carries the same waveform on I and Q up to the
  * carrier phase: it cannot be told from two copies and is read as ML_PAIR_COPIES. So is a pair
