@@ -99,7 +99,9 @@ static const char *absurd(const ml_imd_result *r, char *buf, size_t n)
             worst = f[i];
     if (!(worst > ABSURD_PCT))
         return NULL;
-    snprintf(buf, n, "no two-tone signal in the demodulated audio (products %.3g %% of the tone); audio? --kind audio",
+    snprintf(buf, n,
+             "no two-tone signal in the demodulated audio (products %.3g %% of the tone); "
+             "audio? --kind audio",
              worst);
     return buf;
 }
@@ -130,8 +132,12 @@ static void imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysi
     if (demodulated && absurd(&r, why, sizeof why) != NULL) {
         /* no figure, and the single-tone figures stand: the audio holds no two-tone signal */
         const bool smpte = r.method == ML_IMD_SMPTE;
-        const char *names[6] = {"imd.f1_hz", "imd.f2_hz", "imd.ratio_db", smpte ? "imd.smpte_pct" : "imd.dfd2_pct",
-                                smpte ? "imd.smpte_d2_pct" : "imd.dfd3_pct", smpte ? "imd.smpte_d3_pct" : NULL};
+        const char *names[6] = {"imd.f1_hz",
+                                "imd.f2_hz",
+                                "imd.ratio_db",
+                                smpte ? "imd.smpte_pct" : "imd.dfd2_pct",
+                                smpte ? "imd.smpte_d2_pct" : "imd.dfd3_pct",
+                                smpte ? "imd.smpte_d3_pct" : NULL};
         ml_report_add_text(rep, "imd.method", ml_imd_method_name(r.method));
         for (int i = 0; i < 6 && names[i]; i++) {
             ml_measure_add(rep, names[i], NAN);

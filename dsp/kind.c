@@ -540,7 +540,8 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
     const size_t gap = 2 * lobe + 1;
     size_t kb = 0;
     for (size_t k = bin_of(20.0, bin_hz); k < bin_of(LOW_HZ, bin_hz) && k + lobe < nbins; k++)
-        if (ml_spectrum_clears_dc(spec, k) && (k > kf ? k - kf : kf - k) >= gap && (kb == 0 || psd[k] > psd[kb]))
+        if (ml_spectrum_clears_dc(spec, k) && (k > kf ? k - kf : kf - k) >= gap
+            && (kb == 0 || psd[k] > psd[kb]))
             kb = k;
     if (kb != 0) {
         ml_component o;

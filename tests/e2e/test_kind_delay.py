@@ -78,15 +78,20 @@ def check_delayed_audio(ck, exe):
         if not ck.check(name + " runs", rc in (0, 1) and rep is not None, err.strip()):
             continue
         why = rep["input"]["kind_reason"]
-        witness = ("2nd harmonic at %.0f deg, image %.1f dB" % (math.degrees(2 * phi), abs(image_db(g, 2 * phi)))
-                   if h2 else "hum at %.1f deg, image %.1f dB" % (360 * mains * tau, image_db(g, 2 * math.pi * mains * tau)))
-        ck.check("%s (tone at %.0f deg, image %.0f dB; %s): audio, the pair fails at some line (dsp/kind.h pair "
-                 "rule 3)" % (name, math.degrees(phi), image_db(g, phi), witness),
+        if h2:
+            witness = "2nd harmonic at %.0f deg, image %.1f dB" % (math.degrees(2 * phi),
+                                                                   abs(image_db(g, 2 * phi)))
+        else:
+            witness = "hum at %.1f deg, image %.1f dB" % (360 * mains * tau,
+                                                         image_db(g, 2 * math.pi * mains * tau))
+        ck.check("%s (tone at %.0f deg, image %.0f dB; %s): audio, the pair fails at some line "
+                 "(dsp/kind.h pair rule 3)" % (name, math.degrees(phi), image_db(g, phi), witness),
                  rep["input"]["kind"] == "audio" and "one-sided" in why and "not an I/Q pair" in why,
                  "%s: %s" % (rep["input"]["kind"], why))
-        ck.close(name + " audio.fundamental_hz", E.get(rep, "audio.fundamental_hz"), f0, 0.01, "by construction")
-        ck.rel(name + " audio.thd_pct vs the least-squares fit (docs/references.md 4)", E.get(rep, "audio.thd_pct"),
-               thd, 0.03)
+        ck.close(name + " audio.fundamental_hz", E.get(rep, "audio.fundamental_hz"), f0, 0.01,
+                 "by construction")
+        ck.rel(name + " audio.thd_pct vs the least-squares fit (docs/references.md 4)",
+               E.get(rep, "audio.thd_pct"), thd, 0.03)
 
 
 def check_skewed_if(ck, exe):
@@ -105,7 +110,8 @@ def check_skewed_if(ck, exe):
                  "%s: %s" % (rep["input"]["kind"], rep["input"]["kind_reason"]))
         ck.close("if_skewed modulation.index", E.get(rep, "modulation.index"), m, 0.005,
                  "m = 0.4 by construction (docs/references.md 6)")
-        ck.close("if_skewed carrier.frequency_hz", E.get(rep, "carrier.frequency_hz"), fc, 0.05, "by construction")
+        ck.close("if_skewed carrier.frequency_hz", E.get(rep, "carrier.frequency_hz"), fc, 0.05,
+                 "by construction")
 
 
 def check_genuine_iq(ck, exe):
@@ -116,10 +122,13 @@ def check_genuine_iq(ck, exe):
     t = np.arange(3 * fs) / fs
     rng = np.random.default_rng(33)
     gg, ph = 10 ** (0.6 / 20), math.radians(3.0)
+    def cos(f):
+        return np.cos(2 * np.pi * f * t)
+
     cases = [
-        ("iq_imbalanced.wav", -4400.0, 1 + 0.7 * np.sin(2 * np.pi * 900 * t) + 0.01 * np.sin(2 * np.pi * 50 * t), 0.7),
-        ("iq_crossing.wav", 2000.0, 1 + 0.6 * np.cos(2 * np.pi * 700 * t) + 0.12 * np.cos(2 * np.pi * 1400 * t)
-         + 0.05 * np.cos(2 * np.pi * 2100 * t) + 0.03 * np.cos(2 * np.pi * 2800 * t), None),
+        ("iq_imbalanced.wav", -4400.0, 1 + 0.7 * cos(900) + 0.01 * cos(50), 0.7),
+        ("iq_crossing.wav", 2000.0, 1 + 0.6 * cos(700) + 0.12 * cos(1400) + 0.05 * cos(2100)
+         + 0.03 * cos(2800), None),
     ]
     for name, fc, env, m in cases:
         e = 0.3 * env
@@ -131,7 +140,8 @@ def check_genuine_iq(ck, exe):
             continue
         ck.check(name + ": I/Q (every line one-sided within its imbalance)", rep["input"]["kind"] == "iq",
                  "%s: %s" % (rep["input"]["kind"], rep["input"]["kind_reason"]))
-        ck.close(name + " carrier.frequency_hz", E.get(rep, "carrier.frequency_hz"), fc, 0.05, "by construction")
+        ck.close(name + " carrier.frequency_hz", E.get(rep, "carrier.frequency_hz"), fc, 0.05,
+                 "by construction")
         if m is not None:
             # the image (amplitude eps = 10^(-27.3/20) of the signal) adds a ripple of relative
             # amplitude eps to |z|: a peak reading of m lies within (1 + m) eps of it
@@ -169,15 +179,16 @@ def check_two_tone(ck, exe):
                      "%s: %s" % (rep["input"]["kind"], rep["input"]["kind_reason"]))
             ck.rel(name + " imd.smpte_d3_pct vs numpy (IEC 60268-3, docs/references.md 5, 12)",
                    E.get(rep, "imd.smpte_d3_pct") if E.has(rep, "imd.smpte_d3_pct") else None, d3, 0.02)
-        rc, rep, _, err = E.run_json(exe, ["--kind", "if", "--carrier", str(fh), "--imd", "smpte:%g,%g" % (fl, fh),
-                                           name])
+        rc, rep, _, err = E.run_json(exe, ["--kind", "if", "--carrier", str(fh),
+                                           "--imd", "smpte:%g,%g" % (fl, fh), name])
         if ck.check(name + " --kind if --carrier runs", rc in (0, 1) and rep is not None, err.strip()):
             imd = rep.get("imd", {})
             figs = [imd.get(k) for k in ("smpte_pct", "smpte_d2_pct", "smpte_d3_pct")]
             ok = all(v is None or v <= 100 for v in figs)
             why = rep["reasons"].get("imd", {}).get("smpte_pct", "")
             ck.check(name + " --kind if: no IMD figure above 100 % (products outweighing the tone), n/a with "
-                     "the reason", ok and (figs[0] is not None or "no two-tone signal" in why), "%r %r" % (figs, why))
+                     "the reason", ok and (figs[0] is not None or "no two-tone signal" in why),
+                     "%r %r" % (figs, why))
 
 
 def main():
