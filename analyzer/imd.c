@@ -4,6 +4,7 @@
 #include "analyzer/imd.h"
 
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -11,6 +12,7 @@
 #include "dsp/imd.h"
 #include "dsp/resolution.h"
 
+#define ABSURD_PCT 100.0 /* products above the tone: no two-tone signal (demodulated audio) */
 #define MAINS_TOL 0.02 /* a tone within 2 % of m x 50 or 60 Hz (m = 1..6) sits on a mains line */
 
 /* The figures that need a single tone, withdrawn for a two-tone signal. */
@@ -82,7 +84,30 @@ static void figure(ml_report *rep, const char *name, double pct, bool upper)
                         "noise-limited: the products do not stand above the noise");
 }
 
-void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an, bool tone)
+/* Products stronger than the tone they ride on (a figure above 100 %, bound or value) are no
+ * intermodulation of a two-tone signal: in the demodulated audio of if/iq they mean that the tones
+ * are not in it (a two-tone audio recording read as an IF, a wrong --carrier): the reason, or NULL
+ * when the figures stand. */
+static const char *absurd(const ml_imd_result *r, char *buf, size_t n)
+{
+    const double f[3] = {r->method == ML_IMD_SMPTE ? r->smpte_pct : r->dfd2_pct,
+                         r->method == ML_IMD_SMPTE ? r->smpte_d2_pct : r->dfd3_pct,
+                         r->method == ML_IMD_SMPTE ? r->smpte_d3_pct : 0.0};
+    double worst = 0.0;
+    for (int i = 0; i < 3; i++)
+        if (isfinite(f[i]) && f[i] > worst)
+            worst = f[i];
+    if (!(worst > ABSURD_PCT))
+        return NULL;
+    snprintf(buf, n,
+             "no two-tone signal in the demodulated audio (products %.3g %% of the tone); "
+             "audio? --kind audio",
+             worst);
+    return buf;
+}
+
+static void imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an, bool tone,
+                       bool demodulated)
 {
     if (an->imd_off || spec == NULL || (an->imd.method == ML_IMD_AUTO && !tone))
         return;
@@ -100,6 +125,23 @@ void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_op
                 ml_measure_add(rep, names[i], NAN);
                 ml_report_unmeasured(rep, names[i], "%s", why);
             }
+        }
+        return;
+    }
+    char why[128];
+    if (demodulated && absurd(&r, why, sizeof why) != NULL) {
+        /* no figure, and the single-tone figures stand: the audio holds no two-tone signal */
+        const bool smpte = r.method == ML_IMD_SMPTE;
+        const char *names[6] = {"imd.f1_hz",
+                                "imd.f2_hz",
+                                "imd.ratio_db",
+                                smpte ? "imd.smpte_pct" : "imd.dfd2_pct",
+                                smpte ? "imd.smpte_d2_pct" : "imd.dfd3_pct",
+                                smpte ? "imd.smpte_d3_pct" : NULL};
+        ml_report_add_text(rep, "imd.method", ml_imd_method_name(r.method));
+        for (int i = 0; i < 6 && names[i]; i++) {
+            ml_measure_add(rep, names[i], NAN);
+            ml_report_unmeasured(rep, names[i], "%s", why);
         }
         return;
     }
@@ -121,6 +163,11 @@ void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_op
         ml_report_note(rep, "intermodulation: %zu product%s outside the usable band left out of the sums",
                        r.nskipped, r.nskipped == 1 ? "" : "s");
     withdraw(rep, &r);
+}
+
+void ml_imd_report(ml_report *rep, const ml_spectrum *spec, const ml_analysis_opts *an, bool tone)
+{
+    imd_report(rep, spec, an, tone, false);
 }
 
 /* ---- the demodulated audio of if/iq ------------------------------------------------------- */
@@ -192,5 +239,5 @@ void ml_imd_envelope_hook(void *ctx, const double *env, size_t n)
 void ml_imd_envelope_report(const ml_imd_envelope *e, ml_report *rep, const ml_analysis_opts *an, bool tone)
 {
     if (e != NULL && e->spec != NULL)
-        ml_imd_report(rep, e->spec, an, tone);
+        imd_report(rep, e->spec, an, tone, true);
 }

@@ -12,6 +12,7 @@
 
 #include "dsp/internal.h"
 #include "dsp/metrics.h"
+#include "dsp/order.h"
 
 #define COPIES_FRACTION 0.9  /* principal fraction of two copies (rule 2)                        */
 #define IMAGE_DB 10.0        /* one-sided spectrum (rule 3)                                      */
@@ -27,12 +28,19 @@
 #define OTHER_Z 5.2          /* 1 - 1e-7: the strongest of the band's lobes (as a tone candidate)   */
 #define OTHER_TRIES 8        /* symmetric pairs skipped before the search gives up (rule 6)        */
 #define MAINS_ORDERS 6       /* mains multiples left out of the search (dsp/metrics.h default)     */
+#define WITNESS_RANGE_DB 60.0 /* lines this close to the strongest are tested (pair rule 3)        */
+#define WITNESS_MIN_DB 15.0   /* a line's image lies this far below it at least (pair rule 3)      */
+#define WITNESS_MAX_DB 20.0   /* ... and as far as the strongest's, less 6 dB, up to 20 dB (rule 3) */
+#define WITNESS_SPREAD_DB 6.0
+#define WITNESS_CLEAR_DB 10.0 /* a line (and a mirror) stands clear of the noise: its peak bin so far */
+#define NOISE_BLOCK_LOBES 8   /* the noise reference: medians over blocks of 8 lobes' bins          */
 
 struct ml_pair {
     ml_pair_config cfg;
     ml_spectrum *spec;
     double n, sx, sy, sxx, syy, sxy; /* sums of the samples minus the first frame's (shifted data) */
     double kx, ky;                   /* the shift                                                  */
+    double *work;                    /* nfft: the noise medians' scratch                            */
 };
 
 ml_pair_config ml_pair_config_default(double rate_hz)
@@ -55,12 +63,18 @@ ml_status ml_pair_create(const ml_pair_config *cfg, ml_pair **out)
     if (q == NULL)
         return ML_ENOMEM;
     q->cfg = *cfg;
+    q->work = malloc((cfg->nfft + cfg->nfft / 16 + 1) * sizeof *q->work); /* bins, then block medians */
+    if (q->work == NULL) {
+        free(q);
+        return ML_ENOMEM;
+    }
     ml_spectrum_config sc = ml_spectrum_config_default(cfg->rate_hz);
     sc.nfft = cfg->nfft;
     sc.hop = cfg->nfft / 2;
     sc.complex_input = 1;
     ml_status st = ml_spectrum_create(&sc, &q->spec);
     if (st != ML_OK) {
+        free(q->work);
         free(q);
         return st;
     }
@@ -73,6 +87,7 @@ void ml_pair_destroy(ml_pair *q)
     if (q == NULL)
         return;
     ml_spectrum_destroy(q->spec);
+    free(q->work);
     free(q);
 }
 
@@ -124,12 +139,95 @@ static double lobe_power(const double *psd, size_t nfft, size_t k, size_t lobe)
     return s;
 }
 
+/* The noise density of block b: the largest median of it and its neighbours (wrapping). */
+static double noise_at(const double *med, size_t nblocks, size_t b)
+{
+    return fmax(med[b], fmax(med[(b + 1) % nblocks], med[(b + nblocks - 1) % nblocks]));
+}
+
+/* Whether the line at complex bin k (peak bin power p) has a counterpart about the strongest line
+ * (bin kmax): a line clear of the noise at 2 fmax - f, inside the band and clear of DC, whose peak
+ * bin lies within SYMMETRIC_DB of p (an AM carrier's sidebands come in such pairs). */
+static bool sideband_of(const ml_pair *q, const double *acc, const double *med, size_t nblocks, size_t block,
+                        size_t kmax, size_t k, double p)
+{
+    const size_t nfft = ml_spectrum_nfft(q->spec), lobe = ml_spectrum_lobe_bins(q->spec);
+    const long n = (long)nfft, sk = k < nfft / 2 ? (long)k : (long)k - n;
+    const long sm = kmax < nfft / 2 ? (long)kmax : (long)kmax - n, c = 2 * sm - sk;
+    if (c <= -n / 2 + (long)lobe || c >= n / 2 - (long)lobe || labs(c) <= (long)lobe)
+        return false;
+    const size_t kc = (size_t)((c + n) % n);
+    const double pc = acc[kc];
+    return pc > pow(10.0, WITNESS_CLEAR_DB / 10.0) * noise_at(med, nblocks, kc / block) && p > 0
+           && fabs(10.0 * log10(pc / p)) <= SYMMETRIC_DB;
+}
+
+/* Pair rule 3 (header): every line of z off DC and Nyquist within WITNESS_RANGE_DB of the strongest
+ * (bin kmax, image ratio image_db; its own lobes left out) that stands clear of the noise must not
+ * have a mirror that stands clear of the noise too and within `required` dB of it. Lines are read
+ * by their peak bins (the flat-top window holds a line's power there whatever its offset, and a
+ * real signal puts its mirror at exactly the mirrored offset); a line whose peak bin lies outside
+ * DC's lobe is clear of a DC offset's power (the window's side lobes lie 200 dB down). The noise:
+ * the median bin of each block of NOISE_BLOCK_LOBES lobes of the accumulated spectrum acc (lines
+ * take a small share of a block), scaled to the mean by the chi-square median (dsp/metrics.h), the
+ * largest of a block and its two neighbours (a slope of the noise is not taken for lines). Sets
+ * r->lines_tested and, for the strongest line that fails, r->mirror_hz, r->mirror_db,
+ * r->mirror_required_db. */
+static void test_lines(const ml_pair *q, const double *acc, size_t kmax, double image_db, ml_pair_result *r)
+{
+    const size_t nfft = ml_spectrum_nfft(q->spec), lobe = ml_spectrum_lobe_bins(q->spec), w = 2 * lobe + 1;
+    const double required = fmin(WITNESS_MAX_DB, fmax(WITNESS_MIN_DB, image_db - WITNESS_SPREAD_DB));
+    const double allow = pow(10.0, -required / 10.0), clear = pow(10.0, WITNESS_CLEAR_DB / 10.0);
+    const double least = acc[kmax] * pow(10.0, -WITNESS_RANGE_DB / 10.0);
+    size_t block = NOISE_BLOCK_LOBES * w;
+    if (block > nfft)
+        block = nfft;
+    const size_t nblocks = (nfft + block - 1) / block;
+    double *med = q->work + nfft;
+    const double nu = ml_spectrum_dof(q->spec, 1);
+    const double to_mean = nu > 2.0 / 9.0 ? 1.0 / pow(1.0 - 2.0 / (9.0 * nu), 3.0) : 1.0;
+    for (size_t b = 0; b < nblocks; b++) {
+        const size_t k0 = b * block, m = nfft - k0 < block ? nfft - k0 : block;
+        for (size_t i = 0; i < m; i++)
+            q->work[i] = acc[k0 + i];
+        med[b] = ml_order_median(q->work, m) * to_mean;
+    }
+    double worst = 0.0;
+    for (size_t k = lobe + 1; k + lobe + 1 <= nfft; k++) {
+        const size_t km = nfft - k; /* the mirror */
+        if ((k > nfft / 2 ? k - nfft / 2 : nfft / 2 - k) <= lobe)
+            continue; /* a line at Nyquist is its own mirror */
+        bool peak = true;
+        for (size_t d = 1; d <= lobe && peak; d++)
+            peak = acc[k] > acc[k - d] && acc[k] >= acc[(k + d) % nfft];
+        const size_t dk = k > kmax ? k - kmax : kmax - k, dm = km > kmax ? km - kmax : kmax - km;
+        if (!peak || dk <= 2 * lobe || dm <= 2 * lobe)
+            continue; /* not a line, or the strongest (its mirror) */
+        const double hi = acc[k], lo = acc[km];
+        if (lo > hi || (lo == hi && k > nfft / 2))
+            continue; /* the pair is tested from its stronger side */
+        if (!(hi >= least) || !(hi > clear * noise_at(med, nblocks, k / block)))
+            continue;
+        r->lines_tested++;
+        if (lo > clear * noise_at(med, nblocks, km / block) && lo > allow * hi && hi > worst
+            && !(sideband_of(q, acc, med, nblocks, block, kmax, k, hi)
+                 && sideband_of(q, acc, med, nblocks, block, kmax, km, lo))) {
+            worst = hi;
+            r->mirror_hz = ml_spectrum_bin_hz(q->spec, k);
+            ml_spectrum_get_frequency(q->spec, k, &r->mirror_hz);
+            r->mirror_db = 10.0 * log10(hi / lo);
+            r->mirror_required_db = required;
+        }
+    }
+}
+
 ml_status ml_pair_get(const ml_pair *q, ml_pair_result *r)
 {
     if (q == NULL || r == NULL)
         return ML_EINVAL;
     *r = (ml_pair_result){.verdict = ML_PAIR_UNDECIDED, .correlation = NAN, .principal_fraction = NAN,
-                          .line_hz = NAN, .image_db = NAN, .asymmetry_db = NAN};
+                          .line_hz = NAN, .image_db = NAN, .asymmetry_db = NAN, .mirror_hz = NAN,
+                          .mirror_db = NAN, .mirror_required_db = NAN};
     if (q->n < 2)
         return ML_OK;
     const double n = q->n, mx = q->sx / n, my = q->sy / n;
@@ -168,6 +266,8 @@ ml_status ml_pair_get(const ml_pair *q, ml_pair_result *r)
             r->line_hz = ml_spectrum_bin_hz(q->spec, kmax);
             ml_spectrum_get_frequency(q->spec, kmax, &r->line_hz);
             r->image_db = 10.0 * log10(lp / fmax(im, 1e-30 * lp));
+            if (r->image_db >= IMAGE_DB)
+                test_lines(q, acc, kmax, r->image_db, r);
         }
     }
     if (vx == 0 || vy == 0 || vx < SILENT_RATIO * vy || vy < SILENT_RATIO * vx) {
@@ -177,6 +277,8 @@ ml_status ml_pair_get(const ml_pair *q, ml_pair_result *r)
         r->verdict = ML_PAIR_COPIES;
     } else if (isnan(r->asymmetry_db)) {
         r->verdict = ML_PAIR_UNDECIDED; /* no complete segment yet */
+    } else if (!isnan(r->image_db) && r->image_db >= IMAGE_DB && !isnan(r->mirror_db)) {
+        r->verdict = ML_PAIR_MIRRORED;
     } else if (!isnan(r->image_db) ? r->image_db >= IMAGE_DB : fabs(r->asymmetry_db) >= IMAGE_DB) {
         r->verdict = ML_PAIR_IQ;
     } else {
@@ -202,6 +304,12 @@ char *ml_pair_reason(const ml_pair_result *r, char *buf, size_t n)
         else
             snprintf(buf, n, "a quadrature pair: %.0f dB more power on one side of 0 Hz than on the other",
                      fabs(r->asymmetry_db));
+        break;
+    case ML_PAIR_MIRRORED:
+        snprintf(buf, n,
+                 "one-sided at %+.1f Hz (image %.0f dB down) but not at %+.1f Hz (image %.1f dB down; an I/Q "
+                 "pair holds every line's image %.0f dB or more down): not an I/Q pair",
+                 r->line_hz, r->image_db, r->mirror_hz, r->mirror_db, r->mirror_required_db);
         break;
     case ML_PAIR_COPIES:
         snprintf(buf, n,
@@ -427,8 +535,33 @@ ml_status ml_if_evidence(const ml_spectrum *spec, double mains_hz, ml_if_evidenc
         r->why = ML_IFW_LOW;
         goto done;
     }
+    /* rule 1b: a baseband line about as strong as fc or stronger, no sideband of it (a mains line
+     * the tone decision passed over) */
+    const size_t gap = 2 * lobe + 1;
+    size_t kb = 0;
+    for (size_t k = bin_of(20.0, bin_hz); k < bin_of(LOW_HZ, bin_hz) && k + lobe < nbins; k++)
+        if (ml_spectrum_clears_dc(spec, k) && (k > kf ? k - kf : kf - k) >= gap
+            && (kb == 0 || psd[k] > psd[kb]))
+            kb = k;
+    if (kb != 0) {
+        ml_component o;
+        const size_t excl[1] = {kf};
+        const size_t km = 2 * kf - kb; /* its counterpart about fc: a sideband pair is modulation */
+        ml_component om;
+        const size_t excl_m[2] = {kf, kb};
+        const bool pair = km + lobe < nbins && ml_line_measure(spec, psd, nbins, km, excl_m, 2, &om) == ML_OK;
+        if (ml_line_measure(spec, psd, nbins, kb, excl, 1, &o) == ML_OK && real_line(&o, floor)
+            && o.line_power >= p1 * pow(10.0, -SYMMETRIC_DB / 10.0) && !(pair && symmetric(&o, &om, floor))) {
+            r->other_hz = (double)kb * bin_hz;
+            ml_spectrum_get_frequency(spec, kb, &r->other_hz);
+            r->other_dbc = dbc(o.line_power, p1);
+            r->verdict = ML_CHANNEL_AUDIO;
+            r->why = ML_IFW_BASEBAND_STRONGER;
+            goto done;
+        }
+    }
     /* rule 2: the strongest component near fc (outside its lobe, away from 2 fc) and its mirror */
-    const size_t span = bin_of(fmin(fmin(fc, nyq - fc), SPAN_HZ), bin_hz), gap = 2 * lobe + 1;
+    const size_t span = bin_of(fmin(fmin(fc, nyq - fc), SPAN_HZ), bin_hz);
     size_t ks = 0;
     for (size_t k = kf > span ? kf - span : 1; k <= kf + span && k + lobe < nbins; k++) {
         const size_t d = k > kf ? k - kf : kf - k;
@@ -560,6 +693,12 @@ char *ml_if_evidence_reason(const ml_if_evidence_result *r, char *buf, size_t n)
                  "the %.1f Hz line is not alone: another at %.1f Hz (%.1f dBc), no sideband of it, "
                  "stands clear of the noise: audio",
                  fc, r->other_hz, r->other_dbc);
+        break;
+    case ML_IFW_BASEBAND_STRONGER:
+        snprintf(buf, n,
+                 "a line at %.1f Hz, below 3 kHz, stands %+.1f dB re the %.1f Hz line, no sideband of it: an "
+                 "AM IF carrier outweighs all else: audio",
+                 r->other_hz, r->other_dbc, fc);
         break;
     case ML_IFW_NOISE:
         snprintf(buf, n,

@@ -20,7 +20,38 @@
  *     one signal on both channels (a stereo recording of one source, a real IF saved as stereo) --
  *     never an I/Q pair;
  *  3. ML_PAIR_IQ: the strongest line lies off DC (farther than its lobe) and its image ratio is
- *     >= 10 dB, or (no such line) the asymmetry is >= 10 dB: a quadrature relation;
+ *     >= 10 dB, and every other line passes the mirror test below; or (no such line) the
+ *     asymmetry is >= 10 dB: a quadrature relation. ML_PAIR_MIRRORED when the strongest line
+ *     passes and another line fails: a quadrature relation at one frequency only, which a copy of
+ *     one signal delayed (or filtered) between the channels has: a delay tau puts 360 f tau
+ *     degrees between the channels at f, near 90 at some line (its image low) but not at the
+ *     others (the 2nd harmonic of a tone at 90 degrees sits at 180: image 0 dB). A true I/Q pair's
+ *     gain and phase errors hardly depend on frequency: every line's image lies about as far
+ *     below it as the strongest's, and a receiver's image rejection is 25-40 dB (common
+ *     practice, uncorrected sound-card I/Q receivers at the low end).
+ *     The mirror test: a line of z is a local maximum (over +-lobe bins) whose peak bin stands
+ *     10 dB above the noise density there (the median bin of a block of 8 lobes' bins, scaled to
+ *     the mean, the largest of the block and its neighbours: with Gaussian noise averaged over
+ *     the 3 or more segments the analysis takes, a bin 10 dB above the mean is less than 1e-9
+ *     likely) and within 60 dB of the strongest line's peak bin (a copy's harmonics at 0.1 %
+ *     and its hum count), its peak bin outside DC's lobe (an SDR's DC offset is its own mirror;
+ *     the flat-top window's side lobes lie 200 dB down, so a line beyond the lobe is clear of
+ *     it), away from Nyquist and farther than 2 lobes from the strongest line and its mirror,
+ *     tested from the stronger side of the pair f, -f (peak bins: the window holds a line's
+ *     power there whatever its offset, and a real signal's mirror has the mirrored offset). It
+ *     fails when the peak bin at -f also stands 10 dB above the noise and less than R dB below
+ *     the line's, R = the strongest line's image ratio less 6 dB, kept within 15..20 dB (15 dB:
+ *     the least image rejection granted any line; 20 dB: 5 dB inside the 25 dB of the poorest
+ *     receivers), unless both f and -f are sidebands of the strongest line (each has a
+ *     counterpart 2 fmax - f clear of the noise within 3 dB of it: modulation products of a
+ *     carrier near 0 Hz that cross to the other side). A line too weak to show its mirror above
+ *     the noise cannot fail. Mains hum at baseband counts like any line: a copy delayed by tau
+ *     keeps its hum nearly symmetric (360 x 50 tau degrees), and so does hum a sound card picks
+ *     up on both inputs of an I/Q receiver: such a capture with hum within 60 dB of its carrier
+ *     reads as ML_PAIR_MIRRORED (give --kind iq; read alone, its I channel is the IF at |fc|).
+ *     A single line with no other line clear of the noise cannot be told from a delayed copy of
+ *     one pure tone: it stays ML_PAIR_IQ on its own image ratio (10 dB); give --kind to
+ *     override. Two stations at +f and -f of one I/Q capture read as ML_PAIR_MIRRORED too;
  *  4. ML_PAIR_TWO_SIGNALS: otherwise: a mirror-symmetric spectrum, two real signals.
  * A pair whose carrier lies within a lobe of 0 Hz carries the same waveform on I and Q up to the
  * carrier phase: it cannot be told from two copies and is read as ML_PAIR_COPIES. So is a pair
@@ -38,6 +69,15 @@
  *     clear of the noise (ml_audio_result.tone_clear, dsp/metrics.h): audio (noise, or hum and
  *     noise: no carrier);
  *  1. fc below 3 kHz: audio (an IF carrier sits above the audio it carries);
+ *  1b. a baseband line about as strong as fc: the strongest bin of 20 Hz .. 3 kHz (its lobe
+ *     clear of DC's and of fc's), a line above the noise and the floor whose line power is no
+ *     more than 3 dB below fc's, and no member of a symmetric pair around fc (its counterpart
+ *     2 fc - f within 3 dB: a sideband of fc): audio. An AM signal's carrier is its strongest
+ *     line (each sideband is (m/2)^2 of it, -6.02 dBc at m = 1, docs/references.md 6) and an IF
+ *     holds no baseband content near its carrier's level, so fc is then the weaker tone of an
+ *     audio signal: the high tone of a SMPTE/DIN two-tone test (docs/references.md 12: fl 12 dB
+ *     above fh; 1:1 variants), whose low tone on a mains frequency the tone decision passes over
+ *     (its odd-order products fh +- 2 fl look like hum sidebands, rule 3);
  *  2. a symmetric pair of sidebands at fc +- fm (the strongest component within +-10 kHz of fc,
  *     outside its lobe, and its mirror both stand above the noise, within 3 dB of each other):
  *     audio when the band also holds a line at fm itself at least as strong as the sidebands (they
@@ -81,6 +121,8 @@ typedef enum {
     ML_PAIR_COPIES,        /* one signal on both channels: read one channel                  */
     ML_PAIR_TWO_SIGNALS,   /* two real signals, mirror-symmetric: read one channel           */
     ML_PAIR_SILENT,        /* a channel is silent: read the other                            */
+    ML_PAIR_MIRRORED,      /* the strongest line one-sided, another line with its mirror (a
+                              delayed copy): read one channel                                 */
 } ml_pair_verdict;
 
 typedef struct {
@@ -98,6 +140,10 @@ typedef struct {
     double image_db;             /* its power over its mirror's, dB (NAN: no line)       */
     double asymmetry_db;         /* power at f > 0 over f < 0, dB (NAN: no power)         */
     size_t silent_channel;       /* 1 or 2 when ML_PAIR_SILENT, else 0                    */
+    size_t lines_tested;         /* lines whose mirror rule 3 tested (0: none, or no line)  */
+    double mirror_hz;            /* the strongest line whose mirror is too close (NAN: none) */
+    double mirror_db;            /* its power over its mirror's, dB (NAN: none)            */
+    double mirror_required_db;   /* what rule 3 asked of it, dB (NAN: none)                */
 } ml_pair_result;
 
 typedef struct ml_pair ml_pair;
@@ -137,6 +183,7 @@ typedef enum {
     ML_IFW_LONE_CARRIER,        /* rule 7: IF                                                  */
     ML_IFW_NOISE,               /* rule 0: audio, no line stands clear of the noise             */
     ML_IFW_OTHER_LINE,          /* rule 6: audio, another line of consequence in the band       */
+    ML_IFW_BASEBAND_STRONGER,   /* rule 1b: audio, a baseband line about as strong as fc or more */
 } ml_if_why;
 
 typedef struct {
@@ -147,7 +194,7 @@ typedef struct {
     double sideband_dbc;   /* the stronger sideband re fc, dB (NAN: none)                   */
     double baseband_dbc;   /* the line at fm (rule 2) or k mains (rule 3, 5) re fc (NAN)    */
     double harmonic_dbc;   /* the strongest harmonic above the noise re fc (NAN: none)       */
-    double other_hz;       /* the other line of rule 6, else 0                              */
+    double other_hz;       /* the other line of rule 6 or 1b, else 0                        */
     double other_dbc;      /* its line power re fc, dB (NAN: none)                          */
 } ml_if_evidence_result;
 

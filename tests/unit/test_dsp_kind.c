@@ -9,7 +9,12 @@
  *  - AM with index m: each sideband (m/2)^2 of the carrier's power, 20 lg(m/2) dBc
  *    (docs/references.md 6): -12.04 dBc at m = 0.5, -46.02 dBc at m = 0.01;
  *  - the principal fraction of x = s + n1, y = g s + n2 (powers S, N, N) from the eigenvalues of
- *    the 2x2 covariance [[S + N, g S], [g S, g^2 S + N]].
+ *    the 2x2 covariance [[S + N, g S], [g S, g^2 S + N]];
+ *  - a line cos(w t) on x and its copy g cos(w (t - tau)) on y (phase phi = w tau): z = x + j y
+ *    holds (1 + j g e^{-j phi}) / 2 at +f and (1 + j g e^{+j phi}) / 2 at -f, so the line at +f
+ *    over the one at -f is (1 + g^2 + 2 g sin phi) / (1 + g^2 - 2 g sin phi) (image_ratio below);
+ *  - a sum of sines through y = x + c x^3 (expand sin^3 = (3 sin - sin 3)/4): tone a next to tone
+ *    b comes out at a + c (3/4 a^3 + 3/2 a b^2).
  */
 #include <check.h>
 
@@ -187,6 +192,170 @@ START_TEST(pair_two_programmes_and_silence)
     ck_assert_ptr_null(q);
     c = ml_pair_config_default(0.0);
     ck_assert_int_eq(ml_pair_create(&c, &q), ML_EINVAL);
+}
+END_TEST
+
+/* Line at +f over line at -f, dB, of x = cos(w t), y = g cos(w t - phi) (header). */
+static double image_ratio_db(double g, double phi)
+{
+    return 10.0 * log10((1 + g * g + 2 * g * sin(phi)) / (1 + g * g - 2 * g * sin(phi)));
+}
+
+/* Receiver audio: a tone f0 (0.3) with its 2nd (1 %) and 3rd (0.5 %) harmonics and 50 Hz hum
+ * (0.002) at time t. */
+static double rx_audio(double f0, double t)
+{
+    return 0.3 * (sin(2 * TS_PI * f0 * t) + 0.01 * sin(2 * TS_PI * 2 * f0 * t + 0.4)
+                  + 0.005 * sin(2 * TS_PI * 3 * f0 * t + 1.1))
+           + 0.002 * sin(2 * TS_PI * 50.0 * t);
+}
+
+START_TEST(pair_delayed_copy_is_not_iq)
+{
+    /* dsp/kind.h pair rule 3: a stereo recording whose right channel is the left delayed by tau
+     * (gain g; the tones delayed exactly, the common white noise 3e-4 by the nearest sample) has
+     * its tone near 90 degrees one-sided, but its 2nd harmonic near 180 degrees mirror-symmetric:
+     * ML_PAIR_MIRRORED, the failing line at +-2 f0, both image ratios against image_ratio_db
+     * within 1 dB (the image of the tone lies some 30 dB down, where the noise adds a little). */
+    const double f0[] = {1500.0, 800.0, 2600.0}, tau[] = {1.0 / 6000.0, 0.29e-3, 0.1e-3};
+    const double gain[] = {0.95, 1.0, 0.9};
+    float *x = stereo(N3);
+    for (size_t c = 0; c < 3; c++) {
+        ts_rng g = {40 + c};
+        const long d = lround(tau[c] * FS);
+        double *nz = malloc((N3 + (size_t)d) * sizeof *nz);
+        ck_assert_ptr_nonnull(nz);
+        for (size_t i = 0; i < N3 + (size_t)d; i++)
+            nz[i] = 3e-4 * ts_gauss(&g);
+        for (size_t i = 0; i < N3; i++) {
+            const double t = (double)i / FS;
+            x[2 * i] = (float)(rx_audio(f0[c], t) + nz[i + (size_t)d]);
+            x[2 * i + 1] = (float)(gain[c] * (rx_audio(f0[c], t - tau[c]) + nz[i]));
+        }
+        free(nz);
+        ml_pair_result r = pair_of(x, N3, 4096);
+        const double phi = 2 * TS_PI * f0[c] * tau[c];
+        ck_assert_msg(r.verdict == ML_PAIR_MIRRORED, "case %zu: verdict %d", c, r.verdict);
+        ck_assert_double_eq_tol(r.line_hz, f0[c], 0.05);
+        const double want1 = image_ratio_db(gain[c], phi), want2 = fabs(image_ratio_db(gain[c], 2 * phi));
+        ck_assert_msg(fabs(r.image_db - want1) <= 1.0, "case %zu: image %.2f vs %.2f", c, r.image_db, want1);
+        ck_assert_double_eq_tol(fabs(r.mirror_hz), 2 * f0[c], 0.05);
+        ck_assert_msg(fabs(r.mirror_db - want2) <= 1.0, "case %zu: %.2f vs %.2f", c, r.mirror_db, want2);
+        ck_assert(r.lines_tested >= 1);
+        char buf[300];
+        ck_assert_ptr_nonnull(strstr(ml_pair_reason(&r, buf, sizeof buf), "not an I/Q pair"));
+    }
+    /* odd harmonics only: at 90 degrees the 3rd sits at 270, one-sided on the other side; the hum
+     * (60 Hz at 0.003, 40 dB below the tone, 4.5 degrees) is the witness, image 0.68 dB
+     * (image_ratio_db) within 0.5 dB */
+    ts_rng g = {46};
+    for (size_t i = 0; i < N3; i++) {
+        for (int ch = 0; ch < 2; ch++) {
+            const double t = (double)i / FS - (ch ? 1.0 / 4800.0 : 0.0);
+            x[2 * i + ch] = (float)(0.3 * (sin(2 * TS_PI * 1200.0 * t) + 0.01 * sin(2 * TS_PI * 3600.0 * t))
+                                    + 0.003 * sin(2 * TS_PI * 60.0 * t) + 1e-5 * ts_gauss(&g));
+        }
+    }
+    ml_pair_result r = pair_of(x, N3, 4096);
+    ck_assert_int_eq(r.verdict, ML_PAIR_MIRRORED);
+    ck_assert_double_eq_tol(fabs(r.mirror_hz), 60.0, 0.05);
+    ck_assert_double_eq_tol(r.mirror_db, image_ratio_db(1.0, 2 * TS_PI * 60.0 / 4800.0), 0.5);
+    /* a lone pure tone delayed to 90 degrees cannot be told from I/Q (header): still ML_PAIR_IQ,
+     * no line tested */
+    for (size_t i = 0; i < N3; i++) {
+        const double t = (double)i / FS;
+        x[2 * i] = (float)(0.3 * sin(2 * TS_PI * 1000.0 * t) + 1e-5 * ts_gauss(&g));
+        x[2 * i + 1] = (float)(0.3 * sin(2 * TS_PI * 1000.0 * (t - 0.25e-3)) + 1e-5 * ts_gauss(&g));
+    }
+    r = pair_of(x, N3, 4096);
+    ck_assert_int_eq(r.verdict, ML_PAIR_IQ);
+    ck_assert_uint_eq(r.lines_tested, 0);
+    ck_assert(isnan(r.mirror_hz));
+    free(x);
+}
+END_TEST
+
+START_TEST(pair_skewed_if_is_not_iq)
+{
+    /* An AM IF (9.6 kHz, m = 0.5 at 1.5 kHz) saved as stereo with the right channel 1.25 samples
+     * late: the carrier at 90 degrees, its sidebands at 75.9 and 104.1 degrees, images 18.2 dB
+     * down (image_ratio_db), less than rule 3's 20 dB: ML_PAIR_MIRRORED, the failing line one
+     * of the sidebands, its image within 0.5 dB of the analytic value. */
+    float *x = stereo(N3);
+    ts_rng g = {48};
+    const double tau = 1.25 / FS;
+    for (size_t i = 0; i < N3; i++) {
+        const double t = (double)i / FS;
+        for (int ch = 0; ch < 2; ch++) {
+            const double u = t - (ch ? tau : 0.0);
+            const double e = 0.3 * (1 + 0.5 * sin(2 * TS_PI * 1500.0 * u));
+            x[2 * i + ch] = (float)(e * cos(2 * TS_PI * 9600.0 * u) + 1e-5 * ts_gauss(&g));
+        }
+    }
+    ml_pair_result r = pair_of(x, N3, 4096);
+    ck_assert_int_eq(r.verdict, ML_PAIR_MIRRORED);
+    ck_assert_double_eq_tol(r.line_hz, 9600.0, 0.05);
+    ck_assert(fabs(fabs(r.mirror_hz) - 8100.0) < 0.05 || fabs(fabs(r.mirror_hz) - 11100.0) < 0.05);
+    const double want = image_ratio_db(1.0, 2 * TS_PI * 8100.0 * tau);
+    ck_assert_msg(fabs(r.mirror_db - want) <= 0.5, "image %.2f vs %.2f", r.mirror_db, want);
+    ck_assert_double_eq_tol(r.mirror_required_db, 20.0, 1e-9);
+    free(x);
+}
+END_TEST
+
+/* I/Q of an AM carrier at fc with envelope e, gain error gdb (dB) and phase error pdeg (degrees) on
+ * Q, DC offsets on both, white noise 1e-4. */
+static void iq_am(float *x, double fc, double (*env)(double t), double gdb, double pdeg, uint64_t seed)
+{
+    ts_rng g = {seed};
+    const double gg = pow(10.0, gdb / 20.0), ph = pdeg * TS_PI / 180.0;
+    for (size_t i = 0; i < N3; i++) {
+        const double t = (double)i / FS, e = 0.3 * env(t), w = 2 * TS_PI * fc * t;
+        x[2 * i] = (float)(e * cos(w) + 0.01 + 1e-4 * ts_gauss(&g));
+        x[2 * i + 1] = (float)(gg * e * sin(w + ph) - 0.007 + 1e-4 * ts_gauss(&g));
+    }
+}
+static double env_tone_hum(double t)
+{
+    /* m = 0.5 at 1 kHz, its 2nd harmonic 0.05, 1 % hum modulation at 50 Hz */
+    return 1 + 0.5 * sin(2 * TS_PI * 1000.0 * t) + 0.05 * sin(2 * TS_PI * 2000.0 * t)
+           + 0.01 * sin(2 * TS_PI * 50.0 * t);
+}
+static double env_rich(double t)
+{
+    /* a distorted 1 kHz envelope: harmonics 0.15, 0.06, 0.03 (a carrier at 2.5 kHz puts its 3rd and
+     * 4th lower products at -0.5 and -1.5 kHz, mirror to the 2nd and 1st at +0.5 and +1.5 kHz) */
+    return 1 + 0.6 * cos(2 * TS_PI * 1000.0 * t) + 0.15 * cos(2 * TS_PI * 2000.0 * t)
+           + 0.06 * cos(2 * TS_PI * 3000.0 * t) + 0.03 * cos(2 * TS_PI * 4000.0 * t);
+}
+
+START_TEST(pair_real_iq_stays_iq)
+{
+    /* dsp/kind.h pair rule 3 keeps genuine I/Q: AM with sidebands and hum sidebands at +3, -7.5 and
+     * +12 kHz, gain/phase errors of 0.8 dB / 4 degrees (image 24.8 dB down, the image formula of
+     * pair_imbalance_image_ratio) and 0.2 dB / 1 degree (38.6 dB), DC offsets of 0.01 and -0.007:
+     * ML_PAIR_IQ with the sidebands tested (lines_tested >= 4: +-1 kHz, +-2 kHz). A carrier at
+     * +2.5 kHz whose envelope harmonics cross 0 Hz (lines at -0.5 and +0.5 kHz, 8 dB apart, both
+     * sidebands of the carrier with their counterparts about it) stays ML_PAIR_IQ too. */
+    const double fc[] = {3000.0, -7500.0, 12000.0}, gdb[] = {0.8, 0.2}, pdeg[] = {4.0, 1.0};
+    float *x = stereo(N3);
+    for (size_t k = 0; k < 3; k++)
+        for (size_t e = 0; e < 2; e++) {
+            iq_am(x, fc[k], env_tone_hum, gdb[e], pdeg[e], 50 + 2 * k + e);
+            ml_pair_result r = pair_of(x, N3, 4096);
+            ck_assert_msg(r.verdict == ML_PAIR_IQ, "%g Hz, %g dB: verdict %d (mirror at %g Hz, %g dB)", fc[k],
+                          gdb[e], r.verdict, r.mirror_hz, r.mirror_db);
+            ck_assert_double_eq_tol(r.line_hz, fc[k], 0.05);
+            ck_assert_uint_ge(r.lines_tested, 4);
+        }
+    for (size_t e = 0; e < 2; e++) {
+        iq_am(x, 2500.0, env_rich, gdb[e], pdeg[e], 60 + e);
+        ml_pair_result r = pair_of(x, N3, 4096);
+        ck_assert_msg(r.verdict == ML_PAIR_IQ, "crossing: verdict %d (mirror at %g Hz, %g dB)", r.verdict,
+                      r.mirror_hz, r.mirror_db);
+        ck_assert_uint_ge(r.lines_tested, 6);
+    }
+    free(x);
 }
 END_TEST
 
@@ -408,6 +577,39 @@ START_TEST(channel_lone_only_when_alone)
 }
 END_TEST
 
+/* Two tones a sin(2 pi fl t) + b sin(2 pi fh t) through y = x + c x^3, white noise 1e-5. */
+static double fl_, fh_, a_, b_, c_;
+static double two_tone_cubic(size_t i, ts_rng *g)
+{
+    const double t = (double)i / FS, x = a_ * sin(2 * TS_PI * fl_ * t) + b_ * sin(2 * TS_PI * fh_ * t);
+    return x + c_ * x * x * x + 1e-5 * ts_gauss(g);
+}
+
+START_TEST(channel_two_tone_is_audio)
+{
+    /* dsp/kind.h rule 1b: SMPTE-like two-tone signals whose low tone lies on a mains line, through
+     * odd-order distortion (their products fh +- 2 fl look like hum sidebands): the low tone is
+     * stronger than the high one, which an IF carrier never lets a baseband line be: audio, the
+     * low tone named, its level re the high tone against the cubic's analytic amplitudes (header)
+     * within 0.05 dB. 50 Hz + 6 kHz at 4:1 (docs/references.md 12), c = 0.05; 60 Hz + 9 kHz at
+     * 2:1, c = 0.2; 100 Hz + 5 kHz at 1:1, c = 0.01. */
+    const double fl[] = {50.0, 60.0, 100.0}, fh[] = {6000.0, 9000.0, 5000.0}, a[] = {0.4, 0.3, 0.2},
+                 b[] = {0.1, 0.15, 0.2}, c[] = {0.05, 0.2, 0.01};
+    for (size_t k = 0; k < 3; k++) {
+        fl_ = fl[k], fh_ = fh[k], a_ = a[k], b_ = b[k], c_ = c[k];
+        const double al = a_ + c_ * (0.75 * a_ * a_ * a_ + 1.5 * a_ * b_ * b_);
+        const double ah = b_ + c_ * (0.75 * b_ * b_ * b_ + 1.5 * a_ * a_ * b_);
+        ml_if_evidence_result r = channel_of(two_tone_cubic, 70 + k);
+        ck_assert_msg(r.verdict == ML_CHANNEL_AUDIO && r.why == ML_IFW_BASEBAND_STRONGER, "case %zu: %d %d",
+                      k, r.verdict, r.why);
+        ck_assert_double_eq_tol(r.carrier_hz, fh[k], 0.01);
+        ck_assert_double_eq_tol(r.other_hz, fl[k], 0.01);
+        const double want = 20 * log10(al / ah);
+        ck_assert_msg(fabs(r.other_dbc - want) <= 0.05, "case %zu: %.3f vs %.3f dB", k, r.other_dbc, want);
+    }
+}
+END_TEST
+
 static Suite *kind_suite(void)
 {
     Suite *s = suite_create("dsp_kind");
@@ -417,11 +619,15 @@ static Suite *kind_suite(void)
     tcase_add_test(tc, pair_quadrature_at_several_carriers);
     tcase_add_test(tc, pair_imbalance_image_ratio);
     tcase_add_test(tc, pair_two_programmes_and_silence);
+    tcase_add_test(tc, pair_delayed_copy_is_not_iq);
+    tcase_add_test(tc, pair_skewed_if_is_not_iq);
+    tcase_add_test(tc, pair_real_iq_stays_iq);
     suite_add_tcase(s, tc);
     tc = tcase_create("channel");
     tcase_set_timeout(tc, 60);
     tcase_add_test(tc, channel_if_or_audio);
     tcase_add_test(tc, channel_lone_only_when_alone);
+    tcase_add_test(tc, channel_two_tone_is_audio);
     suite_add_tcase(s, tc);
     return s;
 }
