@@ -370,6 +370,26 @@ def check_short_carrier_hum(ck, exe):
                                           E.get(rep, "hum.mains_hz")))
 
 
+def check_one_modulated_segment(ck, exe):
+    """A lead-in that leaves one wholly modulated FFT segment (1.5 s, 0.4 s of carrier first, at
+    44.1 and 48 kHz): the spectra read over the modulated segments have no phase advance of their
+    own, so the carrier's and the tone's frequencies come from every segment's (dsp/spectrum.h).
+    Truth: the construction (7000 Hz carrier, 400 Hz tone); 0.02 Hz is some hundredth of a bin."""
+    for fs in (44100, 48000):
+        t = np.arange(int(1.5 * fs)) / fs
+        m = np.where(t >= 0.4, 0.8 * np.sin(2 * np.pi * 400 * (t - 0.4)), 0.0)
+        g = np.random.default_rng(fs)
+        x = 0.4 * (1 + m) * np.cos(2 * np.pi * 7000 * t) + g.normal(0, 0.4 / math.sqrt(2 * 10 ** 5.5), t.size)
+        name = "onesegment_%d.wav" % fs
+        sf.write(name, x, fs, subtype="PCM_24")
+        rc, rep, _, err = E.run_json(exe, [name])
+        if not ck.check(name + " runs", rc == 0 and rep is not None, err.strip()):
+            continue
+        ck.close(name + " carrier.frequency_hz", E.get(rep, "carrier.frequency_hz"), 7000.0, 0.02, "by construction")
+        ck.close(name + " audio.fundamental_hz (the tone)", E.get(rep, "audio.fundamental_hz"), 400.0, 0.02,
+                 "by construction")
+
+
 def main():
     exe = E.modlens_path()
     ck = E.Checker("test_honest_cases")
@@ -379,6 +399,7 @@ def main():
         check_no_tone(ck, exe)
         check_short(ck, exe)
         check_short_carrier_hum(ck, exe)
+        check_one_modulated_segment(ck, exe)
         check_tones(ck, exe)
         check_noise(ck, exe)
         check_dropout(ck, exe)
