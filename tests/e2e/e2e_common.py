@@ -241,3 +241,14 @@ def log_meta(path):
     """The first line of a log's file (what is logged), without its newline."""
     with open(path) as f:
         return f.readline().rstrip("\n")
+
+
+def fit_powers(x, fs, freqs):
+    """Least-squares powers A_k^2 / 2 of sines at known frequencies (with DC), fitted together
+    (docs/references.md 4: the IEEE 1057 3-parameter fit, for several frequencies at once)."""
+    t = np.arange(len(x)) / fs
+    cols = [np.ones_like(t)]
+    for f in freqs:
+        cols += [np.cos(2 * np.pi * f * t), np.sin(2 * np.pi * f * t)]
+    c, *_ = np.linalg.lstsq(np.stack(cols, axis=1), np.asarray(x, dtype=np.float64), rcond=None)
+    return [(c[1 + 2 * i] ** 2 + c[2 + 2 * i] ** 2) / 2 for i in range(len(freqs))]

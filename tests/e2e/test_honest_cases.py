@@ -28,15 +28,6 @@ import honest_signals as H  # noqa: E402
 BAND_SHARE = 19980.0 / 24000.0  # the 20..20000 Hz band's share of 0..24 kHz (docs/references.md 5)
 
 
-def fit_powers(x, fs, freqs):
-    """Least-squares amplitudes of sines at known frequencies (with DC), fitted together
-    (docs/references.md 4, 3-parameter fit per frequency): [A_k^2 / 2]."""
-    t = np.arange(len(x)) / fs
-    cols = [np.ones_like(t)]
-    for f in freqs:
-        cols += [np.cos(2 * np.pi * f * t), np.sin(2 * np.pi * f * t)]
-    c, *_ = np.linalg.lstsq(np.stack(cols, axis=1), np.asarray(x, dtype=np.float64), rcond=None)
-    return [(c[1 + 2 * i] ** 2 + c[2 + 2 * i] ** 2) / 2 for i in range(len(freqs))]
 
 
 def db(p):
@@ -164,7 +155,7 @@ def check_short(ck, exe):
         rc, rep, _, err = E.run_json(exe, [name])
         if not ck.check(name + " runs", rc == 0 and rep is not None, err.strip()):
             continue
-        p = fit_powers(x, fs, [1000.0, mains, 2 * mains, 3 * mains])
+        p = E.fit_powers(x, fs, [1000.0, mains, 2 * mains, 3 * mains])
         hum_true = db(sum(p[1:]) / 0.5)
         got = E.get(rep, "hum.level_dbfs")
         ck.check(name + " mains frequency", E.get(rep, "hum.mains_hz") == mains, repr(E.get(rep, "hum.mains_hz")))
@@ -193,7 +184,7 @@ def check_tones(ck, exe):
     rc, rep, _, err = E.run_json(exe, ["tone20.wav"])
     if ck.check("tone20 runs", rc == 0 and rep is not None, err.strip()):
         x, fs = sf.read("tone20.wav", dtype="float64")
-        p1 = fit_powers(x, fs, [20.0])[0]
+        p1 = E.fit_powers(x, fs, [20.0])[0]
         ck.close("tone20 fundamental_dbfs = fit", E.get(rep, "audio.fundamental_dbfs"), db(p1 / 0.5), 0.01,
                  "IEEE 1057 3-parameter fit (docs/references.md 4)")
         ck.check("tone20 THD n/a with a reason", E.get(rep, "audio.thd_pct") is None and reason(rep, "audio.thd_pct"),
@@ -248,7 +239,7 @@ def check_noise(ck, exe):
     rc, rep, _, err = E.run_json(exe, ["humonly.wav"])
     if ck.check("humonly runs", rc == 0 and rep is not None, err.strip()):
         x, fs = sf.read("humonly.wav", dtype="float64")
-        p = fit_powers(x, fs, [50.0, 100.0, 150.0])
+        p = E.fit_powers(x, fs, [50.0, 100.0, 150.0])
         ck.check("humonly: hum and noise, mains 50", rep["audio"]["measurement"] == "hum and noise"
                  and E.get(rep, "hum.mains_hz") == 50)
         ck.close("humonly hum.level_dbfs = least-squares", E.get(rep, "hum.level_dbfs"), db(sum(p) / 0.5), 0.05,

@@ -36,14 +36,6 @@ def fdelay(x, d, fs):
     return np.fft.irfft(np.fft.rfft(x) * np.exp(-2j * np.pi * f * d), n)
 
 
-def fit_powers(x, fs, freqs):
-    """Least-squares powers A^2/2 of sines at known frequencies (with DC), fitted together."""
-    t = np.arange(len(x)) / fs
-    cols = [np.ones_like(t)]
-    for f in freqs:
-        cols += [np.cos(2 * np.pi * f * t), np.sin(2 * np.pi * f * t)]
-    c, *_ = np.linalg.lstsq(np.stack(cols, axis=1), np.asarray(x, dtype=np.float64), rcond=None)
-    return [(c[1 + 2 * i] ** 2 + c[2 + 2 * i] ** 2) / 2 for i in range(len(freqs))]
 
 
 def image_db(g, phi):
@@ -71,7 +63,7 @@ def check_delayed_audio(ck, exe):
         name = "delayed_%d_%d.wav" % (fs, f0)
         sf.write(name, np.stack([x, g * fdelay(x, tau, fs)], 1), fs, subtype=sub)
         left = sf.read(name)[0][:, 0]
-        p = fit_powers(left, fs, [f0, 2 * f0, 3 * f0])
+        p = E.fit_powers(left, fs, [f0, 2 * f0, 3 * f0])
         thd = 100 * math.sqrt(p[1] + p[2]) / math.sqrt(p[0])
         phi = 2 * math.pi * f0 * tau
         rc, rep, _, err = E.run_json(exe, [name])
