@@ -141,15 +141,13 @@ struct skirt {
     size_t reach[ML_MAX_HUM]; /* beyond this many bins its leakage is under 1 % of the psd     */
 };
 
-/* The window's leakage at offset d bins, its largest within half a bin of d: the envelope of the
- * sidelobes, so that a line's position, known to a fraction of a bin, never leaves its skirt
- * under-counted between two sidelobes (ml_window_leakage). */
-static double leak_envelope(ml_window_type win, size_t nfft, double d)
+/* The leakage a line of power pw at nu bins (from +nu and its mirror -nu) puts into bin k, in psd
+ * units: the sidelobes' envelope (ml_window_leakage_envelope). */
+static double line_leak(const ctx *x, double k, double nu, double pw)
 {
-    double v = 0.0;
-    for (int i = -2; i <= 2; i++)
-        v = fmax(v, ml_window_leakage(win, nfft, d + 0.25 * i));
-    return v;
+    const ml_window_type win = ml_spectrum_window(x->spec);
+    const size_t nfft = ml_spectrum_nfft(x->spec);
+    return pw * (ml_window_leakage_envelope(win, nfft, k - nu) + ml_window_leakage_envelope(win, nfft, k + nu));
 }
 
 /* The analysis floor around bin c (psd units): the leakage of floor_per_bin's lines averaged over
@@ -160,16 +158,13 @@ static double floor_at(const ctx *x, size_t c)
 {
     if (x->floor_n == 0)
         return x->floor_bin;
-    const ml_window_type win = ml_spectrum_window(x->spec);
-    const size_t nfft = ml_spectrum_nfft(x->spec);
     double s = 0.0;
     size_t n = 0;
     /* only the skirts count: a bin in a floor line's own lobe holds the line, not its leakage */
     for (size_t k = c > x->lobe ? c - x->lobe : 0; k <= c + x->lobe && k < x->nbins; k++, n++)
         for (size_t l = 0; l < x->floor_n; l++)
             if (x->floor_pw[l] > 0 && fabs((double)k - x->floor_nu[l]) > (double)x->lobe)
-                s += x->floor_pw[l] * (leak_envelope(win, nfft, (double)k - x->floor_nu[l])
-                                       + leak_envelope(win, nfft, (double)k + x->floor_nu[l]));
+                s += line_leak(x, (double)k, x->floor_nu[l], x->floor_pw[l]);
     return (n ? s / (double)n : 0.0) + x->floor_round;
 }
 
@@ -179,14 +174,10 @@ static double skirt_at(const ctx *x, size_t k)
     const struct skirt *s = x->sk;
     if (s == NULL)
         return 0.0;
-    const ml_window_type win = ml_spectrum_window(x->spec);
-    const size_t nfft = ml_spectrum_nfft(x->spec);
     double v = 0.0;
-    for (size_t i = 0; i < s->n; i++) {
-        const double d = (double)k - s->nu[i];
-        if (fabs(d) <= (double)s->reach[i])
-            v += s->pw[i] * (leak_envelope(win, nfft, d) + leak_envelope(win, nfft, (double)k + s->nu[i]));
-    }
+    for (size_t i = 0; i < s->n; i++)
+        if (fabs((double)k - s->nu[i]) <= (double)s->reach[i])
+            v += line_leak(x, (double)k, s->nu[i], s->pw[i]);
     return v;
 }
 
@@ -200,7 +191,7 @@ static void skirt_add(const ctx *x, struct skirt *s, double nu, double pw)
     const size_t nfft = ml_spectrum_nfft(x->spec), c = (size_t)llround(nu);
     size_t d = x->lobe;
     for (; d < x->nbins; d++) {
-        const double l = pw * leak_envelope(win, nfft, (double)d);
+        const double l = pw * ml_window_leakage_envelope(win, nfft, (double)d);
         const bool lo = c < d || l < 0.01 * x->psd[c - d];
         const bool hi = c + d >= x->nbins || l < 0.01 * x->psd[c + d];
         if (lo && hi)

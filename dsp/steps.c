@@ -261,11 +261,8 @@ static size_t beside_hum(const ml_steps *q, size_t kp, double med)
         if (!(p > pbest) || at_mains(f, 2.0 * lobe_hz) || (k > kp ? k - kp : kp - k) <= 2 * q->lobe)
             continue;
         /* and line_db over the hum line's leakage there (the Hann window's sidelobes, their
-         * envelope within half a frame bin: ml_window_leakage) */
-        const double d = ((double)k - (double)kp) * per_raw;
-        double leak = 0.0;
-        for (int i = -2; i <= 2; i++)
-            leak = fmax(leak, ml_window_leakage(ML_WINDOW_HANN, q->F, d + 0.25 * i));
+         * envelope within half a frame bin: ml_window_leakage_envelope) */
+        const double leak = ml_window_leakage_envelope(ML_WINDOW_HANN, q->F, ((double)k - (double)kp) * per_raw);
         if (p < over * leak * pkp)
             continue;
         const double h = nearbyint(f / fkp);

@@ -98,6 +98,14 @@ double ml_window_leakage(ml_window_type type, size_t n, double offset_bins)
     return r * r;
 }
 
+double ml_window_leakage_envelope(ml_window_type type, size_t n, double offset_bins)
+{
+    double v = 0.0;
+    for (int i = -2; i <= 2; i++)
+        v = fmax(v, ml_window_leakage(type, n, offset_bins + 0.25 * i));
+    return v;
+}
+
 size_t ml_window_terms(ml_window_type type)
 {
     return (unsigned)type < ML_WINDOW_COUNT ? defs[type].nterms : 0;

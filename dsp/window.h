@@ -43,6 +43,11 @@ size_t ml_window_coefficients(ml_window_type type, double *c, size_t max);
  * the flat tops at any offset). 0 for a bad type or n < 2; 1 at offset 0. */
 double ml_window_leakage(ml_window_type type, size_t n, double offset_bins);
 
+/* The largest ml_window_leakage within half a bin of offset_bins (sampled at quarter bins): the
+ * sidelobes' envelope, for a line whose position is known to a fraction of a bin, so that its
+ * leakage is never under-counted between two sidelobes. */
+double ml_window_leakage_envelope(ml_window_type type, size_t n, double offset_bins);
+
 /* Coherent gain sum(w)/n [harris:1978]. n >= 1. */
 double ml_window_coherent_gain(const double *w, size_t n);
 

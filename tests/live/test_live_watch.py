@@ -69,6 +69,14 @@ class Tmux:
         return subprocess.run(["tmux", "-L", self.sock, "has-session"], capture_output=True,
                               timeout=10).returncode == 0
 
+    def quit(self, limit_s=5.0):
+        """Presses q and waits (at most limit_s) for the command to end; True when it did."""
+        self.keys("q")
+        end = time.time() + limit_s
+        while self.alive() and time.time() < end:
+            time.sleep(0.1)
+        return not self.alive()
+
     def resize(self, x, y):
         subprocess.run(["tmux", "-L", self.sock, "resize-window", "-x", str(x), "-y", str(y)], timeout=10)
 
@@ -212,11 +220,7 @@ def main():
                 text, ok = tm.wait(lambda t: len(t.rstrip("\n").split("\n")) >= 39
                                    and t.rstrip("\n").split("\n")[-1].strip().startswith("keys:"), 5)
                 ck.check("screen: follows a resize to 120x40", ok, f"{len((text or '').splitlines())} rows")
-                tm.keys("q")
-                end = time.time() + 5
-                while tm.alive() and time.time() < end:
-                    time.sleep(0.1)
-                ck.check("screen: q quits", not tm.alive())
+                ck.check("screen: q quits", tm.quit())
             finally:
                 tm.close()
 
@@ -229,10 +233,7 @@ def main():
                          repr(readings(text)))
                 text, ok = tm.wait(lambda t: "no carrier" not in t and clean80(t), 15)
                 ck.check("screen: the carrier back, the readings are back", ok)
-                tm.keys("q")
-                end = time.time() + 5
-                while tm.alive() and time.time() < end:
-                    time.sleep(0.1)
+                tm.quit()
             finally:
                 tm.close()
             p = srv.run([exe, "watch", "--plain", "--device", "lost", "--kind", "iq", "--limits", PROFILE,
@@ -296,10 +297,7 @@ def main():
                     if ok:
                         break
                 ck.check("screen: r clears the clip mark", ok)
-                tm.keys("q")
-                end = time.time() + 5
-                while tm.alive() and time.time() < end:
-                    time.sleep(0.1)
+                tm.quit()
             finally:
                 tm.close()
 

@@ -1228,11 +1228,15 @@ START_TEST(hum_on_short_captures)
 }
 END_TEST
 
-/* Noise 1e-5 (seed), a tone of amplitude tone at 1 kHz (none when 0), hum a1 at the mains and a2
- * at order times it, analysed with plan's transform into *r. */
-static void hum_case(const ml_audio_plan *plan, double rate, size_t n, double tone, double a1, double order,
-                     double a2, uint64_t seed, double mains, ml_audio_result *r)
+/* secs seconds at rate of noise 1e-5 (seed), a tone of amplitude tone at 1 kHz (none when 0), hum a1
+ * at the mains and a2 at order times it, analysed into *r with the transform the capture's length
+ * gets (ml_audio_plan_transform); returns whether that transform resolves the mains lines. */
+static bool hum_case(double rate, double secs, double tone, double a1, double order, double a2, uint64_t seed,
+                     double mains, ml_audio_result *r)
 {
+    const size_t n = (size_t)llround(rate * secs);
+    ml_audio_plan plan;
+    ck_assert_int_eq(ml_audio_plan_transform(rate, (int64_t)n, ML_WINDOW_HFT248D, 0.0, &plan), ML_OK);
     double *x = calloc(n, sizeof *x);
     ck_assert_ptr_nonnull(x);
     add_noise(x, n, 1e-5, seed);
@@ -1241,8 +1245,9 @@ static void hum_case(const ml_audio_plan *plan, double rate, size_t n, double to
     ts_add_sine(x, n, a1, mains, rate, 0.7);
     ts_add_sine(x, n, a2, order * mains, rate, 2.1);
     ml_audio_config cfg = ml_audio_config_default();
-    ck_assert_int_eq(analyse_sc(x, n, &plan->spectrum, &cfg, r), ML_OK);
+    ck_assert_int_eq(analyse_sc(x, n, &plan.spectrum, &cfg, r), ML_OK);
     free(x);
+    return plan.hum_resolved;
 }
 
 /* Hum of r against its analytic power hum: a measurement within 0.2 dB where the plan resolves
@@ -1273,13 +1278,10 @@ START_TEST(hum_alone_on_short_captures)
      * in hum_on_short_captures (analytic power (0.003^2 + 0.0006^2)/2, within 0.2 dB), or a bound
      * that holds where only the fundamental is resolved (check_hum_reading). */
     const double rate = plans[_i].rate, secs = plans[_i].seconds;
-    const size_t n = (size_t)llround(rate * secs);
-    ml_audio_plan plan;
-    ck_assert_int_eq(ml_audio_plan_transform(rate, (int64_t)n, ML_WINDOW_HFT248D, 0.0, &plan), ML_OK);
     for (int j = 0; j < 2; j++) {
         const double mains = j ? 60.0 : 50.0;
         ml_audio_result r;
-        hum_case(&plan, rate, n, 0.0, 0.003, 2.0, 0.0006, 50 + (uint64_t)j, mains, &r);
+        hum_case(rate, secs, 0.0, 0.003, 2.0, 0.0006, 50 + (uint64_t)j, mains, &r);
         assert_in_range(&r, "hum alone");
         ck_assert_msg(!r.tone_present, "%g Hz %g s mains %g: a tone at %g Hz", rate, secs, mains, r.fundamental_hz);
         ck_assert_int_eq(r.tone_why, ML_WHY_TONE_ONLY_HUM);
@@ -1298,24 +1300,21 @@ static const struct {
 
 START_TEST(weak_hum_line_far_from_a_strong_tone)
 {
-    /* _i: weak_hum_cases row (rates and lengths where the plan falls back to Hann); a strong tone (0.3 at 1 kHz) with hum 1e-3 at the mains and a weak 3e-4 at
-     * three times it, noise 1e-5. With the short plans' Hann window the tone's skirt is high near
+    /* _i: weak_hum_cases row (rates and lengths where the plan falls back to Hann); a strong tone
+     * (0.3 at 1 kHz) with hum 1e-3 at the mains and a weak 3e-4 at three times it, noise 1e-5. With the short plans' Hann window the tone's skirt is high near
      * it (-31 dB sidelobes falling 18 dB per octave, [harris:1978]) but some 150 dB down at the
      * hum, hundreds of bins away: the floor that decides whether a line stands out is the leakage
      * where the line is, not the band's mean, so both hum lines are measured and hum is their
-     * analytic power (1e-6 + 9e-8)/2 within 0.2 dB (or, where only the fundamental is resolved,
-     * a lower bound between the fundamental's power and the total). */
+     * analytic power (1e-6 + 9e-8)/2 within 0.2 dB, or a bound that holds where only the
+     * fundamental is resolved (check_hum_reading). */
     const double rate = weak_hum_cases[_i].rate, secs = weak_hum_cases[_i].seconds;
-    const size_t n = (size_t)llround(rate * secs);
-    ml_audio_plan plan;
-    ck_assert_int_eq(ml_audio_plan_transform(rate, (int64_t)n, ML_WINDOW_HFT248D, 0.0, &plan), ML_OK);
     for (int j = 0; j < 2; j++) {
         const double mains = j ? 60.0 : 50.0;
         ml_audio_result r;
-        hum_case(&plan, rate, n, 0.3, 1e-3, 3.0, 3e-4, 60 + (uint64_t)j, mains, &r);
+        const bool resolved = hum_case(rate, secs, 0.3, 1e-3, 3.0, 3e-4, 60 + (uint64_t)j, mains, &r);
         assert_in_range(&r, "weak hum line");
         ck_assert(r.tone_present);
-        check_hum_reading(&r, plan.hum_resolved, (1e-6 + 9e-8) / 2.0, 4.5e-8, rate, secs, mains);
+        check_hum_reading(&r, resolved, (1e-6 + 9e-8) / 2.0, 4.5e-8, rate, secs, mains);
     }
 }
 END_TEST
